@@ -1,0 +1,2 @@
+//! The `biasjig` command line.
+fn main() {}
