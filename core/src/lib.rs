@@ -45,6 +45,7 @@
     )
 )]
 
+mod acnet;
 pub mod check;
 pub mod console;
 pub mod design;

@@ -1,1 +1,594 @@
-//! Placeholder: filled in by its own issue.
+//! The exact DC operating point.
+//!
+//! The transistor is the transport form of the Ebers-Moll model (with an optional forward Early
+//! effect on the transport current), so forward-active, saturation, cutoff and inverse operation
+//! come out of one set of equations:
+//!
+//! ```text
+//! IT  = IS·(exp(VBE/VT) − exp(VBC/VT))·(1 − VBC/VA)
+//! IBE = IS/βF·(exp(VBE/VT) − 1)      IBC = IS/βR·(exp(VBC/VT) − 1)
+//! IC  = IT − IBC      IB = IBE + IBC      IE = IC + IB
+//! ```
+//!
+//! The bias network seen from each transistor terminal is a Thévenin source (R1 ‖ R2 from the
+//! divider at the base, RC from the supply at the collector, RE1 + RE2 to ground at the emitter),
+//! or nothing at all when a part is open. The unknowns are the two junction voltages; each
+//! driven terminal contributes a loop equation, each floating terminal the condition that its
+//! current is zero. Newton's method with junction-voltage limiting solves the two equations from
+//! the hand estimate in a few iterations; if it does not settle, the supply is ramped up from zero
+//! (source stepping). A PNP stage is solved as the mirrored NPN stage.
+//!
+//! Shorts inside the transistor are 0.1 mΩ; a resistor short is exactly zero ohms.
+
+use crate::device::Profile;
+use crate::stage::{DeviceFault, Polarity, Stage};
+use crate::thermal_voltage;
+
+/// Conductance of a short inside the transistor, S.
+const SHORT_CONDUCTANCE: f64 = 1e4;
+/// Leakage conductance across each junction that keeps the equations regular, S.
+const JUNCTION_GMIN: f64 = 1e-12;
+/// Exponent above which the junction exponential continues as a straight line.
+const EXP_LINEAR_ABOVE: f64 = 80.0;
+/// Newton iterations allowed for one attempt.
+const MAX_ITERATIONS: u16 = 80;
+/// Steps of the supply ramp in the fallback.
+const RAMP_STEPS: u16 = 16;
+/// Newton step below which a junction voltage counts as settled, V.
+const SETTLED_V: f64 = 1e-10;
+
+/// Temperature, transistor gain and any transistor fault for one solve.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Conditions {
+    /// Ambient (and junction) temperature, °C.
+    pub temp_c: f64,
+    /// Forward hFE of this transistor at 25 °C (the temperature law is applied).
+    pub beta_25: f64,
+    /// A transistor fault, or `None` for a good part.
+    pub fault: Option<DeviceFault>,
+}
+
+impl Conditions {
+    /// Typical hFE at 25 °C, no fault.
+    pub fn typical(profile: &Profile) -> Self {
+        Self { temp_c: 25.0, beta_25: profile.beta_typ, fault: None }
+    }
+
+    /// The same conditions at another ambient temperature, °C.
+    pub fn at(self, temp_c: f64) -> Self {
+        Self { temp_c, ..self }
+    }
+}
+
+/// The operating region of the transistor.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Region {
+    /// Forward active: IC close to hFE·IB.
+    Active,
+    /// Saturated: both junctions forward biased, IC well below hFE·IB.
+    Saturation,
+    /// Cut off: a negligible collector current.
+    Cutoff,
+}
+
+impl Region {
+    /// The machine name: "active", "saturation" or "cutoff".
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Active => "active",
+            Self::Saturation => "saturation",
+            Self::Cutoff => "cutoff",
+        }
+    }
+}
+
+/// Why no operating point could be given.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum SolveError {
+    /// Newton's method did not settle, even with the supply ramp.
+    NoConvergence,
+    /// R1 and R2 both shorted: the supply is shorted through the divider.
+    SupplyShorted,
+    /// An input was not finite, so no finite answer exists.
+    NonFinite,
+}
+
+impl core::fmt::Display for SolveError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(match self {
+            Self::NoConvergence => "the operating point did not converge",
+            Self::SupplyShorted => "R1 and R2 both shorted: the supply is shorted",
+            Self::NonFinite => "an input value is not finite",
+        })
+    }
+}
+
+/// Small-signal admittances of the transistor at the operating point (NPN frame), S:
+/// `ib = y11·vbe + y12·vce`, `ic = y21·vbe + y22·vce`.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Admittance {
+    /// dIB/dVBE at constant VCE (1/rπ).
+    pub y11: f64,
+    /// dIB/dVCE at constant VBE.
+    pub y12: f64,
+    /// dIC/dVBE at constant VCE (gm).
+    pub y21: f64,
+    /// dIC/dVCE at constant VBE (1/ro).
+    pub y22: f64,
+}
+
+/// The DC operating point of a stage.
+///
+/// Node voltages are ground-referenced; `vbe` and `vce` are signed (negative for PNP). Currents
+/// are positive in the direction of normal operation (into base and collector of an NPN, out of
+/// base and collector of a PNP).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OperatingPoint {
+    /// Supply, V.
+    pub vcc: f64,
+    /// Base voltage, V.
+    pub vb: f64,
+    /// Emitter voltage, V.
+    pub ve: f64,
+    /// Collector voltage, V.
+    pub vc: f64,
+    /// VB − VE, V.
+    pub vbe: f64,
+    /// VC − VE, V.
+    pub vce: f64,
+    /// Base current, A.
+    pub ib: f64,
+    /// Collector current, A.
+    pub ic: f64,
+    /// Emitter current, A.
+    pub ie: f64,
+    /// Operating region.
+    pub region: Region,
+    /// Thermal voltage at the temperature, V.
+    pub vt: f64,
+    /// Forward hFE at the temperature.
+    pub beta: f64,
+    /// Small-signal admittances.
+    pub y: Admittance,
+    /// Newton iterations used (all attempts).
+    pub iterations: u16,
+}
+
+/// Transistor parameters at one temperature.
+#[derive(Debug, Clone, Copy)]
+struct Junction {
+    vt: f64,
+    is: f64,
+    /// IS/βF.
+    is_bf: f64,
+    /// IS/βR.
+    is_br: f64,
+    /// 1/VA (0 for no Early effect).
+    inv_va: f64,
+    fault: Option<DeviceFault>,
+}
+
+/// The bias network as seen from one transistor terminal.
+#[derive(Debug, Clone, Copy)]
+enum Net {
+    /// A Thévenin source: open-circuit voltage, V, and resistance, Ω (may be 0).
+    Driven { vth: f64, r: f64 },
+    /// Nothing connected.
+    Free,
+}
+
+/// Terminal currents into the device (base, collector) and their derivatives with respect to
+/// the junction voltages (VBE, VBC).
+#[derive(Debug, Clone, Copy)]
+struct Currents {
+    ib: f64,
+    ic: f64,
+    dib: [f64; 2],
+    dic: [f64; 2],
+}
+
+/// exp(x) continued as a straight line above `EXP_LINEAR_ABOVE`; returns (value, derivative).
+fn exp_limited(x: f64) -> f64 {
+    if x > EXP_LINEAR_ABOVE {
+        libm::exp(EXP_LINEAR_ABOVE) * (1.0 + x - EXP_LINEAR_ABOVE)
+    } else {
+        libm::exp(x)
+    }
+}
+
+fn exp_slope(x: f64, value: f64) -> f64 {
+    if x > EXP_LINEAR_ABOVE {
+        libm::exp(EXP_LINEAR_ABOVE)
+    } else {
+        value
+    }
+}
+
+impl Junction {
+    /// Ebers-Moll currents of the device in its own frame (a = VBE, c = VBC).
+    fn em(&self, a: f64, c: f64) -> Currents {
+        let xa = a / self.vt;
+        let xc = c / self.vt;
+        let ea = exp_limited(xa);
+        let ec = exp_limited(xc);
+        let sa = exp_slope(xa, ea) / self.vt;
+        let sc = exp_slope(xc, ec) / self.vt;
+        // Early factor on the transport current, held above zero far into reverse operation.
+        let (q, dq) = {
+            let q = 1.0 - c * self.inv_va;
+            if q > 0.05 {
+                (q, -self.inv_va)
+            } else {
+                (0.05, 0.0)
+            }
+        };
+        let it = self.is * (ea - ec) * q;
+        let dit_a = self.is * sa * q;
+        let dit_c = -self.is * sc * q + self.is * (ea - ec) * dq;
+        let ibe = self.is_bf * (ea - 1.0) + JUNCTION_GMIN * a;
+        let ibc = self.is_br * (ec - 1.0) + JUNCTION_GMIN * c;
+        let dibe = self.is_bf * sa + JUNCTION_GMIN;
+        let dibc = self.is_br * sc + JUNCTION_GMIN;
+        Currents { ib: ibe + ibc, ic: it - ibc, dib: [dibe, dibc], dic: [dit_a, dit_c - dibc] }
+    }
+
+    /// Terminal currents at the stage's nodes for junction voltages x = (VBE, VBC) between the
+    /// stage's base, emitter and collector nodes, with the fault applied.
+    fn currents(&self, x: [f64; 2]) -> Currents {
+        let [vbe, vbc] = x;
+        match self.fault {
+            Some(DeviceFault::Reversed) => {
+                // The device's collector sits on the emitter node and its emitter on the
+                // collector node: its own VBE is our VBC and the other way round.
+                let d = self.em(vbc, vbe);
+                // Into our collector node flows minus the device's emitter current.
+                let ic = -(d.ib + d.ic);
+                let dic_own = [-(d.dib[0] + d.dic[0]), -(d.dib[1] + d.dic[1])];
+                Currents { ib: d.ib, ic, dib: [d.dib[1], d.dib[0]], dic: [dic_own[1], dic_own[0]] }
+            }
+            Some(DeviceFault::BeShort) => {
+                let mut d = self.em(vbe, vbc);
+                d.ib += SHORT_CONDUCTANCE * vbe;
+                d.dib[0] += SHORT_CONDUCTANCE;
+                d
+            }
+            Some(DeviceFault::BcShort) => {
+                let mut d = self.em(vbe, vbc);
+                d.ib += SHORT_CONDUCTANCE * vbc;
+                d.dib[1] += SHORT_CONDUCTANCE;
+                d.ic -= SHORT_CONDUCTANCE * vbc;
+                d.dic[1] -= SHORT_CONDUCTANCE;
+                d
+            }
+            Some(DeviceFault::CeShort) => {
+                let mut d = self.em(vbe, vbc);
+                d.ic += SHORT_CONDUCTANCE * (vbe - vbc);
+                d.dic[0] += SHORT_CONDUCTANCE;
+                d.dic[1] -= SHORT_CONDUCTANCE;
+                d
+            }
+            _ => self.em(vbe, vbc),
+        }
+    }
+
+    /// The critical voltage of the junction-limiting rule, V.
+    fn vcrit(&self) -> f64 {
+        self.vt * libm::log(self.vt / (core::f64::consts::SQRT_2 * self.is))
+    }
+}
+
+/// Limit a junction-voltage update so the exponential cannot run away (the classic rule of
+/// circuit solvers: above the critical voltage, steps grow only logarithmically).
+fn limit_junction(new: f64, old: f64, vt: f64, vcrit: f64) -> (f64, bool) {
+    if new > vcrit && libm::fabs(new - old) > 2.0 * vt {
+        if old > 0.0 {
+            let arg = 1.0 + (new - old) / vt;
+            if arg > 0.0 {
+                (old + vt * libm::log(arg), true)
+            } else {
+                (vcrit, true)
+            }
+        } else {
+            (vt * libm::log(new / vt), true)
+        }
+    } else {
+        (new, false)
+    }
+}
+
+/// The network, the junction and the fault arrangement of one solve, in the NPN frame.
+#[derive(Debug, Clone, Copy)]
+struct Problem {
+    vcc: f64,
+    base: Net,
+    coll: Net,
+    emit: Net,
+    /// Which device terminals see nothing (a floating node or an open lead): base, collector, emitter.
+    free: [bool; 3],
+    j: Junction,
+}
+
+/// One equation: residual and its gradient with respect to (VBE, VBC).
+type Row = (f64, [f64; 2]);
+
+/// Residuals and Jacobian of the two equations at x.
+fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
+    let cur = p.j.currents(x);
+    // Terminal currents into the device with their gradients: base, collector, emitter.
+    let ie_grad = [-(cur.dib[0] + cur.dic[0]), -(cur.dib[1] + cur.dic[1])];
+    let i: [Row; 3] = [(cur.ib, cur.dib), (cur.ic, cur.dic), (-(cur.ib + cur.ic), ie_grad)];
+    let nets = [p.base, p.coll, p.emit];
+    // Node voltage with its gradient at each driven terminal.
+    let v: [Row; 3] = core::array::from_fn(|k| match (nets.get(k), i.get(k)) {
+        (Some(Net::Driven { vth, r }), Some((ik, g))) => {
+            (vth * vcc_scale - r * ik, [-r * g[0], -r * g[1]])
+        }
+        _ => (0.0, [0.0; 2]),
+    });
+    let free = p.free;
+    // A floating terminal: its current is zero.
+    let floating = i.iter().zip(free).filter(|(_, f)| *f).map(|(row, _)| *row);
+    // Loop equations between driven terminals: (from, to, junction coefficients of the drop).
+    const LOOPS: [(usize, usize, [f64; 2]); 3] =
+        [(0, 2, [1.0, 0.0]), (0, 1, [0.0, 1.0]), (1, 2, [1.0, -1.0])];
+    let loops = LOOPS.iter().filter_map(|&(a, b, c)| {
+        let (va, vb) = (v.get(a)?, v.get(b)?);
+        if *free.get(a)? || *free.get(b)? {
+            return None;
+        }
+        Some((
+            va.0 - vb.0 - (c[0] * x[0] + c[1] * x[1]),
+            [va.1[0] - vb.1[0] - c[0], va.1[1] - vb.1[1] - c[1]],
+        ))
+    });
+    let mut rows = floating.chain(loops);
+    let r0 = rows.next().unwrap_or((0.0, [0.0; 2]));
+    let r1 = rows.next().unwrap_or((0.0, [0.0; 2]));
+    ([r0, r1], cur)
+}
+
+/// Newton's method from `x`; returns the settled point or `None`.
+fn newton(p: &Problem, vcc_scale: f64, mut x: [f64; 2], iterations: &mut u16) -> Option<[f64; 2]> {
+    let vcrit = p.j.vcrit();
+    let vt = p.j.vt;
+    for _ in 0..MAX_ITERATIONS {
+        *iterations = iterations.saturating_add(1);
+        let ([(f0, [a, b]), (f1, [c, d])], _) = equations(p, vcc_scale, x);
+        let det = a * d - b * c;
+        if !(det.is_finite() && det != 0.0) {
+            return None;
+        }
+        let d0 = -(f0 * d - f1 * b) / det;
+        let d1 = -(a * f1 - c * f0) / det;
+        if !(d0.is_finite() && d1.is_finite()) {
+            return None;
+        }
+        let (n0, l0) = limit_junction(x[0] + d0, x[0], vt, vcrit);
+        let (n1, l1) = limit_junction(x[1] + d1, x[1], vt, vcrit);
+        x = [n0, n1];
+        if !l0 && !l1 && libm::fabs(d0) <= SETTLED_V && libm::fabs(d1) <= SETTLED_V {
+            return Some(x);
+        }
+    }
+    None
+}
+
+/// Thévenin source of a resistor to a rail, or nothing if it is open.
+fn to_rail(v: f64, r: f64) -> Net {
+    if r.is_finite() {
+        Net::Driven { vth: v, r }
+    } else {
+        Net::Free
+    }
+}
+
+/// The divider R1 (to `v_top`) and R2 (to 0 V) as seen from the base.
+fn divider(v_top: f64, r_top: f64, r_bottom: f64) -> Result<Net, SolveError> {
+    if r_top == 0.0 && r_bottom == 0.0 {
+        return Err(SolveError::SupplyShorted);
+    }
+    if r_top == 0.0 {
+        return Ok(Net::Driven { vth: v_top, r: 0.0 });
+    }
+    if r_bottom == 0.0 {
+        return Ok(Net::Driven { vth: 0.0, r: 0.0 });
+    }
+    let g_top = if r_top.is_finite() { 1.0 / r_top } else { 0.0 };
+    let g_bottom = if r_bottom.is_finite() { 1.0 / r_bottom } else { 0.0 };
+    let g = g_top + g_bottom;
+    if g > 0.0 {
+        Ok(Net::Driven { vth: v_top * g_top / g, r: 1.0 / g })
+    } else {
+        Ok(Net::Free)
+    }
+}
+
+/// Starting point from the hand method: forward active with the divider loaded by IB.
+fn first_guess(p: &Problem) -> [f64; 2] {
+    let vt = p.j.vt;
+    let beta = p.j.is / p.j.is_bf;
+    let mut vbe = vt * libm::log(1e-3 / p.j.is);
+    let (vthb, rb) = match p.base {
+        Net::Driven { vth, r } => (vth, r),
+        Net::Free => return [vbe * 0.5, -p.vcc * 0.5],
+    };
+    let re = match p.emit {
+        Net::Driven { r, .. } => r,
+        Net::Free => f64::INFINITY,
+    };
+    let rc = match p.coll {
+        Net::Driven { r, .. } => r,
+        Net::Free => 0.0,
+    };
+    let req = re + rb / (beta + 1.0);
+    let mut ie = 0.0;
+    for _ in 0..2 {
+        ie = (vthb - vbe) / req;
+        if !(ie > 0.0) || !ie.is_finite() {
+            // Cut off (or no emitter path): the divider voltage stands across the junction.
+            let v = if vthb < vbe { vthb } else { vbe };
+            return [v, v - p.vcc];
+        }
+        vbe = vt * libm::log(ie * beta / (beta + 1.0) / p.j.is + 1.0);
+    }
+    let ic = ie * beta / (beta + 1.0);
+    let vb = vthb - rb * ie / (beta + 1.0);
+    let vc = p.vcc - ic * rc;
+    let mut vbc = vb - vc;
+    // Saturated: put VCE at about 0.1 V.
+    if vbc > vbe - 0.1 {
+        vbc = vbe - 0.1;
+    }
+    [vbe, vbc]
+}
+
+/// Solve the DC operating point of `stage` with `profile` under `cond`.
+///
+/// The stage and profile are assumed validated ([`Stage::validate`], [`Profile::validate`]); an
+/// unvalidated input still never panics and never yields a non-finite number.
+pub fn solve(stage: &Stage, profile: &Profile, cond: Conditions) -> Result<OperatingPoint, SolveError> {
+    let vcc = stage.vcc.value;
+    let (r_top, r_bottom) = match stage.polarity {
+        // In the mirrored NPN frame of a PNP stage, R1 (supply side) takes the place of R2.
+        Polarity::Npn => (stage.r1.value, stage.r2.value),
+        Polarity::Pnp => (stage.r2.value, stage.r1.value),
+    };
+    let rc = stage.rc.value;
+    let re = stage.re_total();
+    let temp = cond.temp_c;
+    let vt = thermal_voltage(temp);
+    let is = profile.is_at(temp);
+    let beta = profile.beta_at(cond.beta_25, temp);
+    let j = Junction {
+        vt,
+        is,
+        is_bf: is / beta,
+        is_br: is / profile.beta_rev,
+        inv_va: profile.early.map_or(0.0, |va| 1.0 / va),
+        fault: cond.fault,
+    };
+    let base = divider(vcc, r_top, r_bottom)?;
+    let coll = to_rail(vcc, rc);
+    let emit = to_rail(0.0, re);
+    let free = [
+        matches!(base, Net::Free),
+        matches!(coll, Net::Free) || cond.fault == Some(DeviceFault::BcOpen),
+        matches!(emit, Net::Free) || cond.fault == Some(DeviceFault::BeOpen),
+    ];
+    let p = Problem { vcc, base, coll, emit, free, j };
+    if !(vcc.is_finite() && vt.is_finite() && is.is_finite() && is > 0.0 && beta.is_finite()) {
+        return Err(SolveError::NonFinite);
+    }
+    let mut iterations = 0u16;
+    let x0 = first_guess(&p);
+    let x = match newton(&p, 1.0, x0, &mut iterations) {
+        Some(x) => x,
+        None => ramp(&p, &mut iterations)?,
+    };
+    finish(stage, &p, x, beta, iterations)
+}
+
+/// Source stepping: raise the supply from a small fraction to full, each step from the last.
+fn ramp(p: &Problem, iterations: &mut u16) -> Result<[f64; 2], SolveError> {
+    let mut x = [0.0, 0.0];
+    for k in 1..=RAMP_STEPS {
+        let scale = f64::from(k) / f64::from(RAMP_STEPS);
+        match newton(p, scale, x, iterations) {
+            Some(next) => x = next,
+            None => return Err(SolveError::NoConvergence),
+        }
+    }
+    Ok(x)
+}
+
+/// Node voltages, currents, region and small-signal admittances at the settled point.
+fn finish(
+    stage: &Stage,
+    p: &Problem,
+    x: [f64; 2],
+    beta: f64,
+    iterations: u16,
+) -> Result<OperatingPoint, SolveError> {
+    let cur = p.j.currents(x);
+    let device_i = [cur.ib, cur.ic, -(cur.ib + cur.ic)];
+    let nets = [p.base, p.coll, p.emit];
+    // Voltages of the device terminals (NPN frame) where the network fixes them.
+    let driven: [Option<f64>; 3] = core::array::from_fn(|k| {
+        match (nets.get(k), p.free.get(k), device_i.get(k)) {
+            (Some(Net::Driven { vth, r }), Some(false), Some(i)) => Some(vth - r * i),
+            _ => None,
+        }
+    });
+    // Floating terminals follow from a fixed one through the junction voltages.
+    // Offsets of each terminal from the base: base 0, collector −VBC, emitter −VBE.
+    let offset = [0.0, -x[1], -x[0]];
+    let base_v = driven
+        .iter()
+        .zip(offset)
+        .find_map(|(v, o)| v.map(|v| v - o))
+        .unwrap_or(x[0]);
+    // What a meter reads at each node: the network's own voltage where the transistor lead is
+    // open (no current flows), otherwise the terminal voltage.
+    let node: [f64; 3] = core::array::from_fn(|k| {
+        let own = driven.get(k).copied().flatten();
+        let off = offset.get(k).copied().unwrap_or(0.0);
+        match (own, nets.get(k)) {
+            (Some(v), _) => v,
+            (None, Some(Net::Driven { vth, .. })) => *vth,
+            (None, _) => base_v + off,
+        }
+    });
+    let (ib, ic) = (cur.ib, cur.ic);
+    let ie = ib + ic;
+    let region = classify(stage, p, ib, ic, beta);
+    let y = Admittance {
+        y11: cur.dib[0] + cur.dib[1],
+        y12: -cur.dib[1],
+        y21: cur.dic[0] + cur.dic[1],
+        y22: -cur.dic[1],
+    };
+    let (vb, vc, ve) = match stage.polarity {
+        Polarity::Npn => (node[0], node[1], node[2]),
+        Polarity::Pnp => (p.vcc - node[0], p.vcc - node[1], p.vcc - node[2]),
+    };
+    let op = OperatingPoint {
+        vcc: p.vcc,
+        vb,
+        ve,
+        vc,
+        vbe: vb - ve,
+        vce: vc - ve,
+        ib,
+        ic,
+        ie,
+        region,
+        vt: p.j.vt,
+        beta,
+        y,
+        iterations,
+    };
+    let finite = [op.vb, op.ve, op.vc, op.ib, op.ic, op.y.y11, op.y.y21, op.y.y22]
+        .iter()
+        .all(|v| v.is_finite());
+    if finite {
+        Ok(op)
+    } else {
+        Err(SolveError::NonFinite)
+    }
+}
+
+/// Region from the currents: cut off below a thousandth of the stage's saturation current
+/// (VCC/(RC+RE)) or 1 nA, saturated where IC falls below 90 % of hFE·IB.
+fn classify(stage: &Stage, p: &Problem, ib: f64, ic: f64, beta: f64) -> Region {
+    let path = stage.rc.value + stage.re_total();
+    let scale = if path.is_finite() && path > 0.0 { p.vcc / path } else { 0.0 };
+    let floor = if scale * 1e-3 > 1e-9 { scale * 1e-3 } else { 1e-9 };
+    if ic < floor {
+        Region::Cutoff
+    } else if ic < 0.9 * beta * ib {
+        Region::Saturation
+    } else {
+        Region::Active
+    }
+}

@@ -1,0 +1,183 @@
+//! The small-signal network of the stage: one nodal solver behind the midband figures and the
+//! low-frequency response.
+//!
+//! Nodes: `IN` (after RS, before CIN), `B`, `E`, `X` (between RE1 and RE2), `C`, `OUT` (after
+//! COUT, across RL); ground is the reference. The transistor is its admittance two-port at the
+//! operating point. A capacitor is a short (a 1 MS conductance), open, or its admittance at a
+//! frequency; so is a zero-ohm resistor a 1 MS conductance. The supply is AC ground.
+
+use num_complex::Complex64 as C;
+
+use crate::solve::Admittance;
+use crate::stage::Stage;
+
+/// Node indices.
+pub(crate) const IN: usize = 0;
+pub(crate) const B: usize = 1;
+pub(crate) const E: usize = 2;
+pub(crate) const X: usize = 3;
+pub(crate) const NODE_C: usize = 4;
+pub(crate) const OUT: usize = 5;
+const N: usize = 6;
+
+/// A conductance standing for a short, S.
+const SHORT: f64 = 1e6;
+/// A conductance to ground that keeps an otherwise floating node defined, S.
+const LEAK: f64 = 1e-12;
+
+/// How a capacitor appears in one solve.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) enum Cap {
+    /// A short at signal frequencies.
+    Short,
+    /// Removed.
+    Open,
+    /// Its admittance at a frequency, Hz.
+    At(f64),
+}
+
+/// One small-signal solve: capacitor states, whether RS (with the source) and RL are in place,
+/// and the currents injected into the nodes, A.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Setup {
+    pub cin: Cap,
+    pub cout: Cap,
+    pub ce: Cap,
+    /// RS from IN to ground (the source's own resistance); without it the input floats.
+    pub with_source: bool,
+    /// RL from OUT to ground.
+    pub with_load: bool,
+    /// Current injected into each node, A.
+    pub inject: [C; N],
+}
+
+impl Setup {
+    /// All capacitors shorted, RS and RL in place, nothing injected.
+    pub fn midband() -> Self {
+        Self {
+            cin: Cap::Short,
+            cout: Cap::Short,
+            ce: Cap::Short,
+            with_source: true,
+            with_load: true,
+            inject: [C::new(0.0, 0.0); N],
+        }
+    }
+}
+
+fn conductance(ohms: f64) -> f64 {
+    if ohms <= 0.0 {
+        SHORT
+    } else if ohms.is_finite() {
+        1.0 / ohms
+    } else {
+        0.0
+    }
+}
+
+fn cap_admittance(state: Cap, farads: Option<f64>) -> C {
+    match (state, farads) {
+        (Cap::Short, _) | (Cap::At(_), None) => C::new(SHORT, 0.0),
+        (Cap::Open, _) => C::new(0.0, 0.0),
+        (Cap::At(f), Some(c)) => C::new(0.0, 2.0 * core::f64::consts::PI * f * c),
+    }
+}
+
+/// The source's Norton conductance: RS, or a short for an ideal source, S.
+pub(crate) fn source_conductance(stage: &Stage) -> f64 {
+    conductance(stage.rs)
+}
+
+/// Node voltages of the network for `setup`, or `None` if it is singular.
+#[expect(
+    clippy::indexing_slicing,
+    reason = "fixed 6x6 arrays indexed by node constants and loop counters below 6"
+)]
+pub(crate) fn solve(stage: &Stage, y: &Admittance, setup: &Setup) -> Option<[C; N]> {
+    let mut m = [[C::new(0.0, 0.0); N]; N];
+    let mut rhs = setup.inject;
+    let mut between = |a: usize, b: usize, g: C| {
+        m[a][a] += g;
+        m[b][b] += g;
+        m[a][b] -= g;
+        m[b][a] -= g;
+    };
+    between(IN, B, cap_admittance(setup.cin, stage.cin.map(|p| p.value)));
+    between(E, X, C::new(conductance(stage.re1.value), 0.0));
+    between(NODE_C, OUT, cap_admittance(setup.cout, stage.cout.map(|p| p.value)));
+    let mut to_ground = |a: usize, g: C| m[a][a] += g;
+    let rb = parallel(stage.r1.value, stage.r2.value);
+    to_ground(IN, C::new(if setup.with_source { source_conductance(stage) } else { 0.0 }, 0.0));
+    to_ground(IN, C::new(LEAK, 0.0));
+    to_ground(B, C::new(conductance(rb), 0.0));
+    to_ground(X, C::new(conductance(stage.re2.value), 0.0));
+    to_ground(X, cap_admittance(setup.ce, stage.ce.map(|p| p.value)));
+    to_ground(NODE_C, C::new(conductance(stage.rc.value), 0.0));
+    let rl = if setup.with_load { stage.rl.map_or(0.0, conductance) } else { 0.0 };
+    to_ground(OUT, C::new(rl + LEAK, 0.0));
+    // Transistor two-port: ib = y11·vbe + y12·vce into B, ic = y21·vbe + y22·vce into C.
+    let (y11, y12, y21, y22) = (y.y11, y.y12, y.y21, y.y22);
+    let stamp: [(usize, usize, f64); 9] = [
+        (B, B, y11),
+        (B, E, -(y11 + y12)),
+        (B, NODE_C, y12),
+        (NODE_C, B, y21),
+        (NODE_C, E, -(y21 + y22)),
+        (NODE_C, NODE_C, y22),
+        (E, B, -(y11 + y21)),
+        (E, E, y11 + y12 + y21 + y22),
+        (E, NODE_C, -(y12 + y22)),
+    ];
+    for (r, c, g) in stamp {
+        m[r][c] += C::new(g, 0.0);
+    }
+    // Gaussian elimination with partial pivoting.
+    for col in 0..N {
+        let mut pivot = col;
+        for row in col + 1..N {
+            if m[row][col].norm_sqr() > m[pivot][col].norm_sqr() {
+                pivot = row;
+            }
+        }
+        if !(m[pivot][col].norm_sqr() > 0.0) {
+            return None;
+        }
+        m.swap(col, pivot);
+        rhs.swap(col, pivot);
+        for row in col + 1..N {
+            let factor = m[row][col] / m[col][col];
+            for k in col..N {
+                let v = m[col][k];
+                m[row][k] -= factor * v;
+            }
+            let v = rhs[col];
+            rhs[row] -= factor * v;
+        }
+    }
+    let mut v = [C::new(0.0, 0.0); N];
+    for row in (0..N).rev() {
+        let mut acc = rhs[row];
+        for k in row + 1..N {
+            acc -= m[row][k] * v[k];
+        }
+        v[row] = acc / m[row][row];
+    }
+    if v.iter().all(|z| z.re.is_finite() && z.im.is_finite()) {
+        Some(v)
+    } else {
+        None
+    }
+}
+
+/// Two resistors in parallel, Ω (an open one drops out; a short wins).
+pub(crate) fn parallel(a: f64, b: f64) -> f64 {
+    if !a.is_finite() {
+        b
+    } else if !b.is_finite() {
+        a
+    } else if a + b > 0.0 {
+        a * b / (a + b)
+    } else {
+        0.0
+    }
+}
