@@ -1,1 +1,568 @@
-//! Placeholder: filled in by its own issue.
+//! Parse and print engineering values.
+//!
+//! Input forms accepted by [`parse_signed`], [`parse_value`] (values in SI base units: Ω, F, V, A, Hz, W):
+//!
+//! - plain numbers `4700`, `0.5`, `.5`, `5.` and exponent notation `4.2e-05`, `1E3`;
+//! - an SI prefix after the number, `p n u µ μ m k K M G` (`m` is milli, `M` is mega), optionally
+//!   followed by one unit that is ignored: `Ω`, `ohm`, `ohms`, `F`, `V`, `A`, `Hz`, `W`
+//!   (`4.7kΩ`, `100nF`, `2mA`); one space is allowed between the number and the prefix or unit
+//!   (`10 µF`, `12 V`);
+//! - IEC 60062 value codes, where the letter stands for the decimal point and the multiplier:
+//!   `4k7`, `2M2`, `470R`, `R47`, `4n7`, `2u2`, `1p5`, `0R1`, `1G0` (a unit may follow: `4n7F`).
+//!
+//! Magnitudes above 1e15 and non-zero magnitudes below 1e-15 are refused as [`ValueError::OutOfRange`].
+//! Nothing here allocates or panics.
+//!
+//! Output: [`Eng`] prints a value with an SI prefix and 3 (or a chosen number of) significant digits;
+//! [`resistor_code`] and [`capacitor_code`] print IEC 60062 value codes.
+
+use core::fmt::{self, Write as _};
+
+/// Largest magnitude the parsers accept (in the value's SI unit).
+pub const MAX_MAGNITUDE: f64 = 1e15;
+/// Smallest non-zero magnitude the parsers accept (in the value's SI unit).
+pub const MIN_MAGNITUDE: f64 = 1e-15;
+
+/// Why a text is not an engineering value.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum ValueError {
+    /// The text is empty or only whitespace.
+    Empty,
+    /// The text is not a number, an SI-prefixed number or an IEC 60062 code.
+    Malformed,
+    /// The text is `nan` or `inf`, or the number overflows to infinity.
+    NotFinite,
+    /// The value is negative where only values >= 0 are allowed.
+    Negative,
+    /// The magnitude is above 1e15 or non-zero below 1e-15.
+    OutOfRange,
+}
+
+impl fmt::Display for ValueError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            ValueError::Empty => "no value given",
+            ValueError::Malformed => {
+                "not a value: expected a number such as 4700, 4.7k, 4.2e-05 or a code such as 4k7, R47"
+            }
+            ValueError::NotFinite => "value is not a finite number",
+            ValueError::Negative => "value must not be negative",
+            ValueError::OutOfRange => "value magnitude must be 0 or between 1e-15 and 1e15",
+        })
+    }
+}
+
+/// Parse a value that may be negative (`-0.0012`, `-1.2m`, `4k7`); result in the SI base unit.
+pub fn parse_signed(text: &str) -> Result<f64, ValueError> {
+    parse_general(text, true)
+}
+
+/// Parse a non-negative value (`4700`, `4.7k`, `4k7`, `100nF`); result in the SI base unit.
+/// Negative input gives [`ValueError::Negative`].
+pub fn parse_value(text: &str) -> Result<f64, ValueError> {
+    let v = parse_signed(text)?;
+    if v < 0.0 {
+        Err(ValueError::Negative)
+    } else {
+        Ok(v)
+    }
+}
+
+/// Parse a percentage such as `5`, `5%`, `0.5 %` or `1e-1` into the percent number (5.0 for `5%`).
+/// Only plain numbers are accepted (no prefixes or codes); negative input gives
+/// [`ValueError::Negative`].
+pub fn parse_percent(text: &str) -> Result<f64, ValueError> {
+    let t = text.trim();
+    if t.is_empty() {
+        return Err(ValueError::Empty);
+    }
+    let body = match t.strip_suffix('%') {
+        Some(rest) => rest.strip_suffix(' ').unwrap_or(rest),
+        None => t,
+    };
+    if body.trim().is_empty() || body.len() != body.trim_end().len() {
+        return Err(ValueError::Malformed);
+    }
+    let v = parse_general(body, false)?;
+    if v < 0.0 {
+        Err(ValueError::Negative)
+    } else {
+        Ok(v)
+    }
+}
+
+/// Shared parser. `rich` allows prefixes, units and codes; otherwise plain numbers only.
+fn parse_general(text: &str, rich: bool) -> Result<f64, ValueError> {
+    let t = text.trim();
+    if t.is_empty() {
+        return Err(ValueError::Empty);
+    }
+    let (negative, body) = if let Some(rest) = t.strip_prefix('-') {
+        (true, rest)
+    } else if let Some(rest) = t.strip_prefix('+') {
+        (false, rest)
+    } else {
+        (false, t)
+    };
+    if ["nan", "inf", "infinity"]
+        .iter()
+        .any(|w| body.eq_ignore_ascii_case(w))
+    {
+        return Err(ValueError::NotFinite);
+    }
+    let magnitude = parse_magnitude(body, rich)?;
+    if magnitude == 0.0 {
+        return Ok(0.0);
+    }
+    Ok(if negative { -magnitude } else { magnitude })
+}
+
+/// Split off the leading ASCII digits of `s`.
+fn split_digits(s: &str) -> (&str, &str) {
+    let n = s.bytes().take_while(u8::is_ascii_digit).count();
+    s.split_at_checked(n).unwrap_or((s, ""))
+}
+
+/// An SI prefix or IEC 60062 code letter at the start of `s`: its power of ten and the rest.
+/// `R` (the code letter for ×1) is included only when `with_r`.
+fn leading_letter(s: &str, with_r: bool) -> Option<(i64, &str)> {
+    let c = s.chars().next()?;
+    let exp = match c {
+        'p' => -12,
+        'n' => -9,
+        'u' | '\u{00B5}' | '\u{03BC}' => -6,
+        'm' => -3,
+        'k' | 'K' => 3,
+        'M' => 6,
+        'G' => 9,
+        'R' if with_r => 0,
+        _ => return None,
+    };
+    Some((exp, s.get(c.len_utf8()..).unwrap_or("")))
+}
+
+/// Whether `s` is empty or one of the ignored unit names.
+fn is_unit_or_empty(s: &str) -> bool {
+    matches!(
+        s,
+        "" | "\u{03A9}" | "\u{2126}" | "F" | "V" | "A" | "Hz" | "W"
+    ) || s.eq_ignore_ascii_case("ohm")
+        || s.eq_ignore_ascii_case("ohms")
+}
+
+/// Parse the unsigned body of a value.
+fn parse_magnitude(body: &str, rich: bool) -> Result<f64, ValueError> {
+    let (int, mut rest) = split_digits(body);
+    let mut frac = "";
+    let mut had_point = false;
+    if let Some(r) = rest.strip_prefix('.') {
+        had_point = true;
+        let (f, r2) = split_digits(r);
+        frac = f;
+        rest = r2;
+    }
+    let has_digits = !int.is_empty() || !frac.is_empty();
+    if had_point && !has_digits {
+        return Err(ValueError::Malformed);
+    }
+    let mut exp: i64 = 0;
+    let mut had_exp = false;
+    if has_digits {
+        if let Some(r) = rest.strip_prefix(['e', 'E']) {
+            let (exp_negative, r) = if let Some(x) = r.strip_prefix('-') {
+                (true, x)
+            } else {
+                (false, r.strip_prefix('+').unwrap_or(r))
+            };
+            let (digits, r) = split_digits(r);
+            if digits.is_empty() {
+                return Err(ValueError::Malformed);
+            }
+            let e = digits.bytes().fold(0i64, |acc, b| {
+                (acc * 10 + i64::from(b - b'0')).min(1_000_000)
+            });
+            exp = if exp_negative { -e } else { e };
+            had_exp = true;
+            rest = r;
+        }
+    }
+    if !rich {
+        if !has_digits || !rest.is_empty() {
+            return Err(ValueError::Malformed);
+        }
+        return finish(int, frac, exp);
+    }
+    // IEC 60062 code: digits, letter, digits (the letter is the decimal point).
+    if let Some((letter_exp, after_letter)) = leading_letter(rest, true) {
+        let (tail, after) = split_digits(after_letter);
+        let is_r = rest.starts_with('R');
+        if !tail.is_empty() || is_r {
+            if had_point || had_exp || (int.is_empty() && tail.is_empty()) {
+                return Err(ValueError::Malformed);
+            }
+            if !is_unit_or_empty(after) {
+                return Err(ValueError::Malformed);
+            }
+            return finish(int, tail, letter_exp);
+        }
+    }
+    if !has_digits {
+        return Err(ValueError::Malformed);
+    }
+    // Number, optional single space, optional prefix, optional unit.
+    let mut s = rest;
+    let mut spaced = false;
+    if let Some(r) = s.strip_prefix(' ') {
+        s = r;
+        spaced = true;
+    }
+    let (prefix_exp, unit) = leading_letter(s, false).unwrap_or((0, s));
+    if !is_unit_or_empty(unit) || (spaced && s.is_empty()) {
+        return Err(ValueError::Malformed);
+    }
+    finish(int, frac, exp.saturating_add(prefix_exp))
+}
+
+/// Build the value `int.frac × 10^exp` with one correctly rounded conversion, then range-check it.
+fn finish(int: &str, frac: &str, exp: i64) -> Result<f64, ValueError> {
+    const MAX_DIGITS: usize = 40;
+    let mut buf: heapless::String<64> = heapless::String::new();
+    let mut significant = false;
+    let mut taken = 0usize;
+    let mut dropped = 0i64;
+    for b in int.bytes().chain(frac.bytes()) {
+        if !significant && b == b'0' {
+            continue;
+        }
+        significant = true;
+        if taken < MAX_DIGITS {
+            if buf.push(char::from(b)).is_err() {
+                return Err(ValueError::Malformed);
+            }
+            taken += 1;
+        } else {
+            dropped += 1;
+        }
+    }
+    if !significant {
+        return Ok(0.0);
+    }
+    let frac_len = i64::try_from(frac.len()).unwrap_or(i64::MAX);
+    let total = exp
+        .saturating_sub(frac_len)
+        .saturating_add(dropped)
+        .clamp(-1_000_000, 1_000_000);
+    if write!(buf, "e{total}").is_err() {
+        return Err(ValueError::Malformed);
+    }
+    let v: f64 = buf.parse().map_err(|_| ValueError::Malformed)?;
+    if !v.is_finite() {
+        return Err(ValueError::NotFinite);
+    }
+    if v == 0.0 || !(MIN_MAGNITUDE * (1.0 - 1e-12)..=MAX_MAGNITUDE * (1.0 + 1e-12)).contains(&v) {
+        return Err(ValueError::OutOfRange);
+    }
+    Ok(v)
+}
+
+/// A value with its unit for printing: `value` in the SI base unit, `unit` its symbol ("Ω", "V").
+///
+/// `Display` prints 3 significant digits (or the formatter's precision, 1 to 17: `{:.4}`) with an
+/// SI prefix from p to G and trailing zeros trimmed: 4700 Ω prints `4.7 kΩ`, 0.00123 A `1.23 mA`,
+/// 0 V `0 V`. An empty unit prints without the space (`4.7k`). Magnitudes of 1e15 and above or
+/// below 1e-15 print in exponent form (`1.23e20 V`); non-finite values print `n/a`.
+/// The output parses back with [`parse_signed`] when the unit is one it ignores.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Eng {
+    /// The value in the SI base unit of `unit`.
+    pub value: f64,
+    /// The unit symbol printed after the prefix, for example "Ω", "F", "V", "A"; may be empty.
+    pub unit: &'static str,
+}
+
+impl Eng {
+    /// A printable value: `value` in the SI base unit of `unit`.
+    pub const fn new(value: f64, unit: &'static str) -> Self {
+        Eng { value, unit }
+    }
+}
+
+/// Decimal digits and exponent of `v` (> 0, finite) rounded to `sig` significant digits:
+/// `(digits, exponent)` with `v ≈ d.ddd × 10^exponent`. Correctly rounded by `core::fmt`.
+fn sci_digits(v: f64, sig: usize) -> Option<(heapless::String<24>, i32)> {
+    let mut buf: heapless::String<40> = heapless::String::new();
+    write!(buf, "{:.*e}", sig.saturating_sub(1), v).ok()?;
+    let (mantissa, exponent) = buf.split_once('e')?;
+    let exponent: i32 = exponent.parse().ok()?;
+    let mut digits: heapless::String<24> = heapless::String::new();
+    for c in mantissa.chars().filter(char::is_ascii_digit) {
+        digits.push(c).ok()?;
+    }
+    Some((digits, exponent))
+}
+
+/// Write the digit string with the decimal point after `int_len` digits (`int_len` may be <= 0
+/// or beyond the digits, giving leading or trailing zeros); trailing fractional zeros trimmed.
+fn write_fixed<W: fmt::Write>(out: &mut W, digits: &str, int_len: i32) -> fmt::Result {
+    let n = i32::try_from(digits.len()).unwrap_or(i32::MAX);
+    if int_len <= 0 {
+        let trimmed = digits.trim_end_matches('0');
+        if trimmed.is_empty() {
+            return out.write_char('0');
+        }
+        out.write_str("0.")?;
+        for _ in 0..(-int_len) {
+            out.write_char('0')?;
+        }
+        return out.write_str(trimmed);
+    }
+    if int_len >= n {
+        out.write_str(digits)?;
+        for _ in 0..(int_len - n) {
+            out.write_char('0')?;
+        }
+        return Ok(());
+    }
+    let split = usize::try_from(int_len).unwrap_or(0);
+    let (int, frac) = digits.split_at_checked(split).unwrap_or((digits, ""));
+    out.write_str(int)?;
+    let frac = frac.trim_end_matches('0');
+    if !frac.is_empty() {
+        out.write_char('.')?;
+        out.write_str(frac)?;
+    }
+    Ok(())
+}
+
+/// SI prefix symbol for a power of ten that is a multiple of 3 in -12..=9.
+fn prefix_symbol(exp: i32) -> &'static str {
+    match exp {
+        -12 => "p",
+        -9 => "n",
+        -6 => "\u{00B5}",
+        -3 => "m",
+        3 => "k",
+        6 => "M",
+        9 => "G",
+        _ => "",
+    }
+}
+
+impl Eng {
+    /// Write the number without its prefix into `out` and return the prefix symbol to print
+    /// before the unit ("" for no prefix, for exponent form and for `n/a`).
+    fn write_number<W: fmt::Write>(
+        &self,
+        out: &mut W,
+        sig: usize,
+    ) -> Result<&'static str, fmt::Error> {
+        let v = self.value;
+        if !v.is_finite() {
+            out.write_str("n/a")?;
+            return Ok("");
+        }
+        if v == 0.0 {
+            out.write_char('0')?;
+            return Ok("");
+        }
+        if v < 0.0 {
+            out.write_char('-')?;
+        }
+        let a = libm::fabs(v);
+        let (digits, e) = sci_digits(a, sig).ok_or(fmt::Error)?;
+        if !(MIN_MAGNITUDE..MAX_MAGNITUDE).contains(&a) {
+            let (first, rest) = digits.split_at_checked(1).unwrap_or((&digits, ""));
+            out.write_str(first)?;
+            let rest = rest.trim_end_matches('0');
+            if !rest.is_empty() {
+                out.write_char('.')?;
+                out.write_str(rest)?;
+            }
+            write!(out, "e{e}")?;
+            return Ok("");
+        }
+        let group = (e.div_euclid(3) * 3).clamp(-12, 9);
+        write_fixed(out, &digits, e - group + 1)?;
+        Ok(prefix_symbol(group))
+    }
+
+    /// Write the whole text: number, then " prefix unit" or, with an empty unit, "prefix".
+    fn write_all<W: fmt::Write>(&self, out: &mut W, sig: usize) -> fmt::Result {
+        let prefix = self.write_number(out, sig)?;
+        if self.unit.is_empty() || !self.value.is_finite() {
+            out.write_str(prefix)
+        } else {
+            out.write_char(' ')?;
+            out.write_str(prefix)?;
+            out.write_str(self.unit)
+        }
+    }
+}
+
+impl fmt::Display for Eng {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let sig = f.precision().unwrap_or(3).clamp(1, 17);
+        let mut buf: heapless::String<96> = heapless::String::new();
+        if self.write_all(&mut buf, sig).is_ok() {
+            // Pad by hand: `Formatter::pad` would treat the precision as a maximum width.
+            let len = buf.chars().count();
+            let pad = f.width().unwrap_or(0).saturating_sub(len);
+            let (before, after) = match f.align() {
+                Some(fmt::Alignment::Left) => (0, pad),
+                Some(fmt::Alignment::Center) => (pad / 2, pad - pad / 2),
+                Some(fmt::Alignment::Right) | None => (pad, 0),
+            };
+            let fill = f.fill();
+            for _ in 0..before {
+                f.write_char(fill)?;
+            }
+            f.write_str(&buf)?;
+            for _ in 0..after {
+                f.write_char(fill)?;
+            }
+            Ok(())
+        } else {
+            // Too long for the local buffer (a long unit): write unpadded.
+            self.write_all(f, sig)
+        }
+    }
+}
+
+/// Which code letters a value code uses below 1 (in the value's unit).
+#[derive(Clone, Copy)]
+enum CodeStyle {
+    /// Resistors: `R` for 0.001 ..< 1000 Ω (R47, R047), prefixes elsewhere.
+    Resistor,
+    /// Capacitors: prefixes p, n, u, m below 1 F, `R` from 1 F.
+    Capacitor,
+}
+
+/// Code letter for a power of ten that is a multiple of 3.
+fn code_letter(exp: i32) -> char {
+    match exp {
+        -12 => 'p',
+        -9 => 'n',
+        -6 => 'u',
+        -3 => 'm',
+        3 => 'k',
+        6 => 'M',
+        9 => 'G',
+        _ => 'R',
+    }
+}
+
+fn value_code(x: f64, style: CodeStyle) -> heapless::String<12> {
+    let mut out: heapless::String<12> = heapless::String::new();
+    if write_code(&mut out, x, style).is_err() {
+        out.clear();
+        let _ = out.push_str("n/a");
+    }
+    out
+}
+
+fn write_code(out: &mut heapless::String<12>, x: f64, style: CodeStyle) -> Result<(), ()> {
+    let zero = match style {
+        CodeStyle::Resistor => "0R0",
+        CodeStyle::Capacitor => "0p0",
+    };
+    if !x.is_finite() {
+        return Err(());
+    }
+    if x == 0.0 {
+        return out.push_str(zero).map_err(|_| ());
+    }
+    if x < 0.0 {
+        out.push('-').map_err(|_| ())?;
+    }
+    let a = libm::fabs(x);
+    let (digits, e) = sci_digits(a, 3).ok_or(())?;
+    let rounded_ok = (MIN_MAGNITUDE * (1.0 - 1e-12)..=MAX_MAGNITUDE * (1.0 + 1e-12)).contains(&a);
+    if !rounded_ok {
+        return Err(());
+    }
+    let digits = digits.as_str();
+    let group = match style {
+        CodeStyle::Resistor if (-3..=2).contains(&e) => 0,
+        _ => (e.div_euclid(3) * 3).clamp(-12, 9),
+    };
+    let letter = code_letter(group);
+    let int_len = e - group + 1;
+    let n = i32::try_from(digits.len()).map_err(|_| ())?;
+    if int_len <= 0 {
+        // R47, R047, p001: empty integer part, zeros after the letter.
+        out.push(letter).map_err(|_| ())?;
+        for _ in 0..(-int_len) {
+            out.push('0').map_err(|_| ())?;
+        }
+        out.push_str(digits.trim_end_matches('0')).map_err(|_| ())?;
+        return Ok(());
+    }
+    let split = usize::try_from(int_len.min(n)).map_err(|_| ())?;
+    let (int, frac) = digits.split_at_checked(split).ok_or(())?;
+    out.push_str(int).map_err(|_| ())?;
+    for _ in 0..(int_len - n).max(0) {
+        out.push('0').map_err(|_| ())?;
+    }
+    out.push(letter).map_err(|_| ())?;
+    let frac = frac.trim_end_matches('0');
+    if frac.is_empty() {
+        if int_len == 1 {
+            out.push('0').map_err(|_| ())?;
+        }
+    } else {
+        out.push_str(frac).map_err(|_| ())?;
+    }
+    Ok(())
+}
+
+/// IEC 60062 code of a resistance in Ω, rounded to 3 significant digits: 4700 → `4k7`,
+/// 470 → `470R`, 0.47 → `R47`, 1 → `1R0`, 10000 → `10k`, 2.2e6 → `2M2`, 4750 → `4k75`.
+/// Letters: R (×1, used from 1 mΩ to below 1 kΩ), k, M, G; u, n, p below 1 mΩ. Zero gives `0R0`,
+/// negative values a leading `-`; non-finite values or magnitudes outside 1e-15 ..= 1e15 give `n/a`.
+pub fn resistor_code(ohms: f64) -> heapless::String<12> {
+    value_code(ohms, CodeStyle::Resistor)
+}
+
+/// IEC 60062 code of a capacitance in F, rounded to 3 significant digits: 4.7e-9 → `4n7`,
+/// 1e-7 → `100n`, 2.2e-6 → `2u2`, 47e-6 → `47u`, 1e-12 → `1p0`. Letters p, n, u, m below 1 F,
+/// R, k, M, G from 1 F. Zero gives `0p0`, negative values a leading `-`; non-finite values or
+/// magnitudes outside 1e-15 ..= 1e15 give `n/a`.
+pub fn capacitor_code(farads: f64) -> heapless::String<12> {
+    value_code(farads, CodeStyle::Capacitor)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    extern crate std;
+    use std::format;
+
+    #[test]
+    fn parse_basic_forms() {
+        // IEC 60062 value codes, from memory; SI prefixes per SI brochure.
+        assert_eq!(parse_value("4k7"), Ok(4700.0));
+        assert_eq!(parse_value("R47"), Ok(0.47));
+        assert_eq!(parse_value("470R"), Ok(470.0));
+        assert_eq!(parse_value("4n7"), Ok(4.7e-9));
+        assert_eq!(parse_value("4.7k"), Ok(4700.0));
+        assert_eq!(parse_value("100nF"), Ok(1e-7));
+        assert_eq!(parse_value("10 µF"), Ok(1e-5));
+        assert_eq!(parse_signed("-1.2m"), Ok(-1.2e-3));
+        assert_eq!(parse_value("-1"), Err(ValueError::Negative));
+        assert_eq!(parse_value("4k7k"), Err(ValueError::Malformed));
+        assert_eq!(parse_value("1e-400"), Err(ValueError::OutOfRange));
+        assert_eq!(parse_percent("0.5 %"), Ok(0.5));
+    }
+
+    #[test]
+    fn print_basic() {
+        assert_eq!(format!("{}", Eng::new(4700.0, "Ω")), "4.7 kΩ");
+        assert_eq!(format!("{}", Eng::new(0.00123, "A")), "1.23 mA");
+        assert_eq!(format!("{}", Eng::new(999.6, "V")), "1 kV");
+        assert_eq!(format!("{}", Eng::new(4700.0, "")), "4.7k");
+        assert_eq!(resistor_code(4700.0).as_str(), "4k7");
+        assert_eq!(resistor_code(0.0047).as_str(), "R0047");
+        assert_eq!(capacitor_code(4.7e-9).as_str(), "4n7");
+    }
+}

@@ -1,0 +1,15 @@
+//! `biasjig check`: placeholder until its issue is built.
+
+use crate::error::{CliError, CmdResult};
+use crate::Global;
+
+/// `biasjig check`.
+#[derive(clap::Args, Debug)]
+pub struct Cmd {}
+
+impl Cmd {
+    /// Run the command.
+    pub fn run(&self, _g: &Global) -> CmdResult {
+        Err(CliError::usage("check: not available in this build yet"))
+    }
+}

@@ -1,0 +1,15 @@
+//! `biasjig design`: placeholder until its issue is built.
+
+use crate::error::{CliError, CmdResult};
+use crate::Global;
+
+/// `biasjig design`.
+#[derive(clap::Args, Debug)]
+pub struct Cmd {}
+
+impl Cmd {
+    /// Run the command.
+    pub fn run(&self, _g: &Global) -> CmdResult {
+        Err(CliError::usage("design: not available in this build yet"))
+    }
+}

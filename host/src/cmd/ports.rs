@@ -1,0 +1,15 @@
+//! `biasjig ports`: placeholder until its issue is built.
+
+use crate::error::{CliError, CmdResult};
+use crate::Global;
+
+/// `biasjig ports`.
+#[derive(clap::Args, Debug)]
+pub struct Cmd {}
+
+impl Cmd {
+    /// Run the command.
+    pub fn run(&self, _g: &Global) -> CmdResult {
+        Err(CliError::usage("ports: not available in this build yet"))
+    }
+}

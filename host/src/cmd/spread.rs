@@ -1,0 +1,15 @@
+//! `biasjig spread`: placeholder until its issue is built.
+
+use crate::error::{CliError, CmdResult};
+use crate::Global;
+
+/// `biasjig spread`.
+#[derive(clap::Args, Debug)]
+pub struct Cmd {}
+
+impl Cmd {
+    /// Run the command.
+    pub fn run(&self, _g: &Global) -> CmdResult {
+        Err(CliError::usage("spread: not available in this build yet"))
+    }
+}

@@ -1,0 +1,43 @@
+//! Command-line value parsers built on the core's value grammar: plain numbers, exponents,
+//! SI prefixes and IEC 60062 codes; percentages as `5` or `5%`.
+
+use biasjig_core::units;
+
+fn explain(e: units::ValueError) -> String {
+    format!(
+        "{e}; allowed: a number such as 4700, 4.7e3, 4.7k, 4k7, 470R, R47, 100n, 2.2M or 10u"
+    )
+}
+
+/// A non-negative value (parts, supply).
+pub fn value(text: &str) -> Result<f64, String> {
+    units::parse_value(text).map_err(explain)
+}
+
+/// A value that may be negative (measured readings).
+pub fn signed(text: &str) -> Result<f64, String> {
+    units::parse_signed(text).map_err(explain)
+}
+
+/// A percentage, returned as a fraction (5 or 5% -> 0.05).
+pub fn percent(text: &str) -> Result<f64, String> {
+    units::parse_percent(text)
+        .map(|p| p / 100.0)
+        .map_err(|e| format!("{e}; allowed: a percentage such as 5 or 5%"))
+}
+
+/// A percentage that may be negative (temperature coefficients), returned as a fraction.
+pub fn signed_percent(text: &str) -> Result<f64, String> {
+    let t = text.trim();
+    let t = t.strip_suffix('%').unwrap_or(t).trim_end();
+    units::parse_signed(t)
+        .map(|p| p / 100.0)
+        .map_err(|e| format!("{e}; allowed: a percentage such as 0.5 or -0.2%"))
+}
+
+/// A temperature in °C (may be negative).
+pub fn celsius(text: &str) -> Result<f64, String> {
+    let t = text.trim();
+    let t = t.strip_suffix("°C").or_else(|| t.strip_suffix('C')).unwrap_or(t).trim_end();
+    units::parse_signed(t).map_err(|e| format!("{e}; allowed: a temperature in °C such as 25 or -10"))
+}
