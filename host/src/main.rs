@@ -9,6 +9,8 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+#![allow(dead_code)] // Removed once every command is built.
+
 mod cmd;
 mod designfile;
 mod error;

@@ -19,34 +19,34 @@ pub const DEFAULT_CAP_TOL: f64 = 0.20;
 #[derive(clap::Args, Debug, Clone, Default)]
 pub struct ProfileArgs {
     /// Typical hFE at 25 °C [default: 200]
-    #[arg(long, value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta: Option<f64>,
     /// Lowest hFE at 25 °C [default: --beta]
-    #[arg(long = "beta-min", value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long = "beta-min", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_min: Option<f64>,
     /// Highest hFE at 25 °C [default: --beta]
-    #[arg(long = "beta-max", value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long = "beta-max", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_max: Option<f64>,
     /// Reverse (inverse-active) hFE [default: 1]
-    #[arg(long = "beta-rev", value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long = "beta-rev", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_rev: Option<f64>,
     /// hFE temperature coefficient, percent per °C [default: 0.5]
     #[arg(long = "beta-tc", value_parser = values::signed_percent, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_tc: Option<f64>,
     /// Junction saturation current at 25 °C, A [default: from --vbe]
-    #[arg(long = "is", value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long = "is", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub is: Option<f64>,
     /// VBE at IC = 1 mA and 25 °C, V [default: 0.65]
-    #[arg(long, value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub vbe: Option<f64>,
     /// Early voltage, V [default: none, infinite]
-    #[arg(long, value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub early: Option<f64>,
     /// VCE(sat) used for the output swing, V [default: 0.2]
-    #[arg(long = "vce-sat", value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long = "vce-sat", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub vce_sat: Option<f64>,
     /// Power rating at 25 °C, W [default: 0.3]
-    #[arg(long = "power-rating", value_parser = values::value, help_heading = "Transistor")]
+    #[arg(long = "power-rating", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
     pub power_rating: Option<f64>,
     /// Junction temperature where the derated power reaches zero, °C [default: 150]
     #[arg(long = "tj-max", value_parser = values::celsius, help_heading = "Transistor")]
@@ -60,46 +60,46 @@ pub struct StageArgs {
     #[arg(long, value_name = "FILE", help_heading = "Stage")]
     pub design: Option<PathBuf>,
     /// Supply, V
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub vcc: Option<f64>,
     /// Supply to base, Ω
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub r1: Option<f64>,
     /// Base to ground, Ω
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub r2: Option<f64>,
     /// Collector resistor, Ω
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub rc: Option<f64>,
     /// Emitter resistor, not bypassed, Ω [default: 0]
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub re1: Option<f64>,
     /// Emitter resistor, bypassed by CE, Ω [default: 0]
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub re2: Option<f64>,
     /// Load, AC-coupled through COUT, Ω [default: none, open]
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub rl: Option<f64>,
     /// Source resistance, Ω [default: 0]
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub rs: Option<f64>,
     /// Input coupling capacitor, F [default: ideal]
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub cin: Option<f64>,
     /// Output coupling capacitor, F [default: ideal]
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub cout: Option<f64>,
     /// Emitter bypass capacitor, F [default: ideal]
-    #[arg(long, value_parser = values::value, help_heading = "Stage")]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
     pub ce: Option<f64>,
     /// Resistor tolerance, percent [default: 5]
-    #[arg(long, value_parser = values::percent, help_heading = "Stage")]
+    #[arg(long, value_parser = values::percent, allow_hyphen_values = true, help_heading = "Stage")]
     pub tol: Option<f64>,
     /// Capacitor tolerance, percent [default: 20]
-    #[arg(long = "cap-tol", value_parser = values::percent, help_heading = "Stage")]
+    #[arg(long = "cap-tol", value_parser = values::percent, allow_hyphen_values = true, help_heading = "Stage")]
     pub cap_tol: Option<f64>,
     /// Supply tolerance, percent [default: 0]
-    #[arg(long = "vcc-tol", value_parser = values::percent, help_heading = "Stage")]
+    #[arg(long = "vcc-tol", value_parser = values::percent, allow_hyphen_values = true, help_heading = "Stage")]
     pub vcc_tol: Option<f64>,
     /// Ambient temperature, °C [default: 25]
     #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Stage")]
