@@ -5,11 +5,11 @@
 //! prints the result (human text, or exactly one JSON document with `--json`). One file per
 //! subcommand under `cmd/`.
 
+#![allow(dead_code)] // Lifted once every command is built.
+
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
-
-#![allow(dead_code)] // Removed once every command is built.
 
 mod cmd;
 mod designfile;
