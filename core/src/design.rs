@@ -707,6 +707,19 @@ pub fn first_pass(
     ic: f64,
     low_ve: bool,
 ) -> Result<Ideal, FirstPassMiss> {
+    pass(req, profile, ic, low_ve, true, true)
+}
+
+/// The first pass; `check_gain` false holds RE1 at its least instead of failing, `check_swing`
+/// false accepts any swing (both for telling which requirement is out of reach).
+fn pass(
+    req: &Requirement,
+    profile: &Profile,
+    ic: f64,
+    low_ve: bool,
+    check_gain: bool,
+    check_swing: bool,
+) -> Result<Ideal, FirstPassMiss> {
     let vt = thermal_voltage(req.temp);
     let beta = profile.beta_at(profile.beta_typ, req.temp);
     let alpha = beta / (beta + 1.0);
@@ -736,10 +749,11 @@ pub fn first_pass(
         let rp = req.rl.map_or(rc, |rl| par(rc, rl));
         let re1 = k * alpha * rp / req.gain - re;
         let swing = 2.0 * ic * rp;
-        if re1 < R_MIN {
+        if re1 < R_MIN && check_gain {
             // The most gain here: RE1 at its least.
             return Err(FirstPassMiss::Gain(k * alpha * rp / (re + R_MIN)));
         }
+        let re1 = re1.max(R_MIN);
         let re_total = ve / ie;
         let re2 = (re_total - re1).max(0.25 * re1).max(R_MIN);
         let re_total = re1 + re2;
@@ -759,6 +773,12 @@ pub fn first_pass(
         };
         let vce = vcc - ic * rc - ve;
         let gain = k * alpha * rp / (re + re1);
+        // R1 runs from the supply to the base: on the collector side for NPN, on the emitter
+        // side for PNP.
+        let (r1, r2) = match req.polarity {
+            Polarity::Npn => (r1, r2),
+            Polarity::Pnp => (r2, r1),
+        };
         out = Some((
             Ideal {
                 ic,
@@ -779,7 +799,7 @@ pub fn first_pass(
     }
     let (ideal, swing) = out.ok_or(FirstPassMiss::Bias)?;
     // The gain error left by the last update of k (a few percent at most) is the search's job.
-    if swing < req.swing_pp {
+    if swing < req.swing_pp && check_swing {
         return Err(FirstPassMiss::Swing(swing));
     }
     let values = [ideal.r1, ideal.r2, ideal.rc, ideal.re1, ideal.re2];
@@ -1260,6 +1280,50 @@ fn least_current(req: &Requirement, profile: &Profile, lo: f64, hi: f64) -> f64 
     libm::exp(b)
 }
 
+/// Which requirement is out of reach at every current of the ladder: gain alone, swing alone,
+/// or the two together.
+fn out_of_reach(req: &Requirement, profile: &Profile) -> DesignError {
+    let (mut gain_ok, mut swing_ok) = (false, false);
+    let (mut best_gain, mut best_swing) = (0.0_f64, 0.0_f64);
+    for i in ladder() {
+        for low in [false, true] {
+            match pass(req, profile, i, low, true, false) {
+                Ok(_) => gain_ok = true,
+                Err(FirstPassMiss::Gain(g)) => best_gain = best_gain.max(g),
+                Err(_) => {}
+            }
+            match pass(req, profile, i, low, false, true) {
+                Ok(_) => swing_ok = true,
+                Err(FirstPassMiss::Swing(s)) => best_swing = best_swing.max(s),
+                Err(_) => {}
+            }
+        }
+    }
+    if !gain_ok {
+        DesignError::GainOutOfReach {
+            gain: req.gain,
+            best: best_gain,
+        }
+    } else if !swing_ok {
+        // The swing grows about in proportion to the supply's headroom.
+        let needs_vcc = if best_swing > 0.0 {
+            1.1 * req.vcc * req.swing_pp / best_swing
+        } else {
+            2.0 * req.vcc
+        };
+        DesignError::SwingOutOfReach {
+            swing: req.swing_pp,
+            best: best_swing,
+            needs_vcc,
+        }
+    } else {
+        DesignError::GainAndSwing {
+            gain: req.gain,
+            swing: req.swing_pp,
+        }
+    }
+}
+
 /// Design a stage for `req` with transistor `profile`: candidates best first, every one meeting
 /// every requirement at nominal, or the reason none can.
 pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, DesignError> {
@@ -1269,9 +1333,6 @@ pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, Design
     let mut levels: heapless::Vec<(f64, Ideal), MAX_LEVELS> = heapless::Vec::new();
     let mut last_miss: Option<(f64, FirstPassMiss)> = None;
     let mut first_ok: Option<f64> = None;
-    let (mut best_gain, mut best_swing) = (0.0_f64, 0.0_f64);
-    let mut gain_ok_somewhere = false;
-    let mut swing_ok_somewhere = false;
     let mut heat: Option<(f64, f64)> = None;
     for i in ladder() {
         if levels.is_full() || (first_ok.is_some() && i > req.ic_max) {
@@ -1282,8 +1343,6 @@ pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, Design
         match pass {
             Ok(ideal) => {
                 first_ok.get_or_insert(i);
-                gain_ok_somewhere = true;
-                swing_ok_somewhere = true;
                 if i <= req.ic_max * (1.0 + 1e-9) {
                     let _ = levels.push((i, ideal));
                 }
@@ -1292,19 +1351,8 @@ pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, Design
                 if first_ok.is_none() {
                     last_miss = Some((i, miss));
                 }
-                match miss {
-                    FirstPassMiss::Gain(g) => {
-                        best_gain = best_gain.max(g);
-                        swing_ok_somewhere = true;
-                    }
-                    FirstPassMiss::Swing(s) => {
-                        best_swing = best_swing.max(s);
-                        gain_ok_somewhere = true;
-                    }
-                    FirstPassMiss::Dissipation(p) => {
-                        heat.get_or_insert((i, p));
-                    }
-                    FirstPassMiss::Bias => {}
+                if let FirstPassMiss::Dissipation(p) = miss {
+                    heat.get_or_insert((i, p));
                 }
             }
         }
@@ -1317,28 +1365,7 @@ pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, Design
                 rating: profile.power_rating_at(req.temp_max),
             });
         }
-        if !gain_ok_somewhere {
-            return Err(DesignError::GainOutOfReach {
-                gain: req.gain,
-                best: best_gain,
-            });
-        }
-        if !swing_ok_somewhere {
-            let needs_vcc = if best_swing > 0.0 {
-                req.vcc * req.swing_pp / best_swing * 1.1
-            } else {
-                req.vcc * 2.0
-            };
-            return Err(DesignError::SwingOutOfReach {
-                swing: req.swing_pp,
-                best: best_swing,
-                needs_vcc,
-            });
-        }
-        return Err(DesignError::GainAndSwing {
-            gain: req.gain,
-            swing: req.swing_pp,
-        });
+        return Err(out_of_reach(req, profile));
     };
     if levels.is_empty() {
         let lo = last_miss.map_or(first / 1.5, |(i, _)| i);
