@@ -698,16 +698,21 @@ impl Histogram {
 
     /// Count one value.
     pub fn add(&mut self, v: f64) {
-        if v < self.lo {
-            self.below = self.below.saturating_add(1);
-        } else if v > self.hi {
-            self.above = self.above.saturating_add(1);
-        } else {
-            let k = ((v - self.lo) / self.width()) as usize;
-            let k = if k >= BINS { BINS - 1 } else { k };
-            if let Some(b) = self.bins.get_mut(k) {
+        let pos = (v - self.lo) * (BINS as f64 / (self.hi - self.lo));
+        if pos >= 0.0 && pos < BINS as f64 {
+            // In range, so the conversion is exact truncation below BINS.
+            if let Some(b) = self.bins.get_mut(pos as usize) {
                 *b = b.saturating_add(1);
             }
+        } else if v < self.lo {
+            self.below = self.below.saturating_add(1);
+        } else if v <= self.hi {
+            // v == hi (or within rounding of it): the last bin is closed.
+            if let Some(b) = self.bins.last_mut() {
+                *b = b.saturating_add(1);
+            }
+        } else {
+            self.above = self.above.saturating_add(1);
         }
     }
 
@@ -775,7 +780,12 @@ impl Stats {
         let d = v - self.mean;
         self.mean += d / f64::from(self.count);
         self.m2 += d * (v - self.mean);
-        self.range.include(v);
+        if v < self.range.min {
+            self.range.min = v;
+        }
+        if v > self.range.max {
+            self.range.max = v;
+        }
         self.histogram.add(v);
     }
 
@@ -895,9 +905,9 @@ impl Deviates {
         (self.rng.next_u64() >> 11) as f64 * TWO_POW_M53
     }
 
-    /// Uniform on [-1, 1).
+    /// Uniform on [-1, 1): the top 53 bits times 2⁻⁵², less one (exactly 2·unit − 1).
     fn symmetric(&mut self) -> f64 {
-        2.0 * self.unit() - 1.0
+        (self.rng.next_u64() >> 11) as f64 * (2.0 * TWO_POW_M53) - 1.0
     }
 
     /// Standard normal by Box-Muller (cosine branch).
