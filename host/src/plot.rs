@@ -28,8 +28,13 @@ pub fn write_all(
     lim: Option<&Limits>,
     cloud: &[(f64, f64)],
 ) -> Result<Vec<PathBuf>, CliError> {
-    std::fs::create_dir_all(dir)
-        .map_err(|e| CliError::field("--plot", dir.display(), format!("cannot create the folder: {e}")))?;
+    std::fs::create_dir_all(dir).map_err(|e| {
+        CliError::field(
+            "--plot",
+            dir.display(),
+            format!("cannot create the folder: {e}"),
+        )
+    })?;
     let fail = |p: &Path, e: Box<dyn Error>| {
         CliError::field("--plot", p.display(), format!("cannot write the plot: {e}"))
     };
@@ -37,8 +42,14 @@ pub fn write_all(
     for n in Node::ALL {
         let path = dir.join(format!("histogram_{}.svg", n.name()));
         let window = lim.and_then(|l| if n == Node::Ic { None } else { l.window(n) });
-        histogram(&path, n, sp.monte_carlo.nodes.get(n), *sp.worst.nodes.get(n), window.map(|w| (w.low, w.high)))
-            .map_err(|e| fail(&path, e))?;
+        histogram(
+            &path,
+            n,
+            sp.monte_carlo.nodes.get(n),
+            *sp.worst.nodes.get(n),
+            window.map(|w| (w.low, w.high)),
+        )
+        .map_err(|e| fail(&path, e))?;
         written.push(path);
     }
     let path = dir.join("load_lines.svg");
@@ -58,7 +69,13 @@ fn label_of(n: Node, v: f64) -> String {
 }
 
 /// Histogram of one node with the worst case (red) and the pass window (green) marked.
-fn histogram(path: &Path, n: Node, st: &Stats, wc: Range, window: Option<(f64, f64)>) -> PlotResult {
+fn histogram(
+    path: &Path,
+    n: Node,
+    st: &Stats,
+    wc: Range,
+    window: Option<(f64, f64)>,
+) -> PlotResult {
     let root = SVGBackend::new(path, (720, 420)).into_drawing_area();
     root.fill(&WHITE)?;
     let h = &st.histogram;
@@ -72,7 +89,10 @@ fn histogram(path: &Path, n: Node, st: &Stats, wc: Range, window: Option<(f64, f
     let (lo, hi) = (lo - pad, hi + pad);
     let top = f64::from(h.bins.iter().copied().max().unwrap_or(1).max(1)) * 1.15;
     let mut chart = ChartBuilder::on(&root)
-        .caption(format!("{}: {} Monte Carlo samples", n.label(), st.count), ("sans-serif", 20))
+        .caption(
+            format!("{}: {} Monte Carlo samples", n.label(), st.count),
+            ("sans-serif", 20),
+        )
         .margin(12)
         .x_label_area_size(40)
         .y_label_area_size(56)
@@ -87,7 +107,10 @@ fn histogram(path: &Path, n: Node, st: &Stats, wc: Range, window: Option<(f64, f
     let w = h.width();
     chart.draw_series(h.bins.iter().enumerate().map(|(k, c)| {
         let x0 = h.lo + w * k as f64;
-        Rectangle::new([(x0, 0.0), (x0 + w, f64::from(*c))], BLUE.mix(0.55).filled())
+        Rectangle::new(
+            [(x0, 0.0), (x0 + w, f64::from(*c))],
+            BLUE.mix(0.55).filled(),
+        )
     }))?;
     let vline = |x: f64| vec![(x, 0.0), (x, top)];
     chart
@@ -100,14 +123,24 @@ fn histogram(path: &Path, n: Node, st: &Stats, wc: Range, window: Option<(f64, f
             .label("pass window")
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], GREEN.stroke_width(2)));
     }
-    chart.configure_series_labels().background_style(WHITE.mix(0.85)).border_style(BLACK).draw()?;
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()?;
     root.present()?;
     Ok(())
 }
 
 /// The DC load line IC = (VCC − |VCE|)/(RC + RE1 + RE2), the AC load line through the nominal
 /// Q-point with slope −1/(RC‖RL + RE1), and the Monte Carlo Q-points (|VCE|, IC).
-fn load_lines(path: &Path, stage: &Stage, profile: &Profile, sp: &Spread, cloud: &[(f64, f64)]) -> PlotResult {
+fn load_lines(
+    path: &Path,
+    stage: &Stage,
+    profile: &Profile,
+    sp: &Spread,
+    cloud: &[(f64, f64)],
+) -> PlotResult {
     let root = SVGBackend::new(path, (720, 480)).into_drawing_area();
     root.fill(&WHITE)?;
     let vcc = stage.vcc.value;
@@ -125,8 +158,14 @@ fn load_lines(path: &Path, stage: &Stage, profile: &Profile, sp: &Spread, cloud:
     let iq = sp.centre.values.ic;
     let i_max_dc = vcc / rdc;
     let i_max_ac = iq + vq / rac;
-    let top = i_max_dc.max(i_max_ac).max(cloud.iter().map(|p| p.1).fold(0.0, f64::max)) * 1.1;
-    let right = vcc.max(vq + iq * rac).max(cloud.iter().map(|p| mag(p.0)).fold(0.0, f64::max)) * 1.05;
+    let top = i_max_dc
+        .max(i_max_ac)
+        .max(cloud.iter().map(|p| p.1).fold(0.0, f64::max))
+        * 1.1;
+    let right = vcc
+        .max(vq + iq * rac)
+        .max(cloud.iter().map(|p| mag(p.0)).fold(0.0, f64::max))
+        * 1.05;
     let mut chart = ChartBuilder::on(&root)
         .caption("Load lines and Q-point spread", ("sans-serif", 20))
         .margin(12)
@@ -141,26 +180,43 @@ fn load_lines(path: &Path, stage: &Stage, profile: &Profile, sp: &Spread, cloud:
         .y_desc("IC")
         .draw()?;
     chart
-        .draw_series(LineSeries::new([(0.0, i_max_dc), (vcc, 0.0)], BLACK.stroke_width(2)))?
+        .draw_series(LineSeries::new(
+            [(0.0, i_max_dc), (vcc, 0.0)],
+            BLACK.stroke_width(2),
+        ))?
         .label("DC load line")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BLACK.stroke_width(2)));
     chart
-        .draw_series(LineSeries::new([(0.0, i_max_ac), (vq + iq * rac, 0.0)], MAGENTA.stroke_width(2)))?
+        .draw_series(LineSeries::new(
+            [(0.0, i_max_ac), (vq + iq * rac, 0.0)],
+            MAGENTA.stroke_width(2),
+        ))?
         .label("AC load line")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], MAGENTA.stroke_width(2)));
     chart
-        .draw_series(LineSeries::new([(profile.vce_sat, 0.0), (profile.vce_sat, top)], RGBColor(150, 150, 150)))?
+        .draw_series(LineSeries::new(
+            [(profile.vce_sat, 0.0), (profile.vce_sat, top)],
+            RGBColor(150, 150, 150),
+        ))?
         .label("VCE(sat)")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], RGBColor(150, 150, 150)));
     chart
-        .draw_series(cloud.iter().map(|(v, i)| Circle::new((mag(*v), *i), 2, BLUE.mix(0.35).filled())))?
+        .draw_series(
+            cloud
+                .iter()
+                .map(|(v, i)| Circle::new((mag(*v), *i), 2, BLUE.mix(0.35).filled())),
+        )?
         .label("Monte Carlo Q-points")
         .legend(|(x, y)| Circle::new((x + 8, y), 3, BLUE.filled()));
     chart
         .draw_series([Circle::new((vq, iq), 5, RED.filled())])?
         .label("nominal Q-point")
         .legend(|(x, y)| Circle::new((x + 8, y), 4, RED.filled()));
-    chart.configure_series_labels().background_style(WHITE.mix(0.85)).border_style(BLACK).draw()?;
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()?;
     root.present()?;
     Ok(())
 }
@@ -186,17 +242,29 @@ fn sensitivity(path: &Path, sp: &Spread) -> PlotResult {
             .x_label_formatter(&|x| {
                 let k = x.round();
                 if (x - k).abs() < 0.01 && k >= 0.0 {
-                    Factor::ALL.get(k as usize).map_or(String::new(), |f| f.name().to_string())
+                    Factor::ALL
+                        .get(k as usize)
+                        .map_or(String::new(), |f| f.name().to_string())
                 } else {
                     String::new()
                 }
             })
             .y_label_formatter(&|y| format!("{:.0}%", 100.0 * y))
             .draw()?;
-        chart.draw_series(sp.sensitivity.nodes.get(n).iter().filter(|s| s.share > 0.0).map(|s| {
-            let x = index(s.factor);
-            Rectangle::new([(x - 0.35, 0.0), (x + 0.35, s.share)], BLUE.mix(0.7).filled())
-        }))?;
+        chart.draw_series(
+            sp.sensitivity
+                .nodes
+                .get(n)
+                .iter()
+                .filter(|s| s.share > 0.0)
+                .map(|s| {
+                    let x = index(s.factor);
+                    Rectangle::new(
+                        [(x - 0.35, 0.0), (x + 0.35, s.share)],
+                        BLUE.mix(0.7).filled(),
+                    )
+                }),
+        )?;
     }
     root.present()?;
     Ok(())

@@ -53,9 +53,14 @@ impl Cmd {
     pub fn run(&self, g: &Global) -> CmdResult {
         let r = self.stage.resolve()?;
         let var = self.temps.variation(r.temp_c)?;
-        let meter = Meter { gain_error: self.meter, offset: self.meter_offset, divider_tol: self.divider_tol };
+        let meter = Meter {
+            gain_error: self.meter,
+            offset: self.meter_offset,
+            divider_tol: self.divider_tol,
+        };
         let vcc = self.at_vcc.unwrap_or(r.stage.vcc.value);
-        let lim = limits(&r.stage, &r.profile, &var, &meter, vcc).map_err(|e| limits_error(e, vcc))?;
+        let lim =
+            limits(&r.stage, &r.profile, &var, &meter, vcc).map_err(|e| limits_error(e, vcc))?;
         let mut at = r.stage;
         at.vcc.value = vcc;
         let nominal = centre(&at, &r.profile, &Variation::at(r.temp_c)).map_err(spread_error)?;
@@ -73,7 +78,10 @@ pub fn to_json(lim: &Limits, meter: &Meter, var: &Variation) -> Value {
     let mut m = Map::new();
     for n in NODES {
         if let Some(w) = lim.window(n) {
-            m.insert(n.name().into(), json!({"low": json::num(w.low), "high": json::num(w.high)}));
+            m.insert(
+                n.name().into(),
+                json!({"low": json::num(w.low), "high": json::num(w.high)}),
+            );
         }
     }
     m.insert("vcc".into(), json::num(lim.vcc));
@@ -81,12 +89,21 @@ pub fn to_json(lim: &Limits, meter: &Meter, var: &Variation) -> Value {
         "meter".into(),
         json!({"gain_error": json::num(meter.gain_error), "offset": json::num(meter.offset), "divider_tol": json::num(meter.divider_tol)}),
     );
-    m.insert("temperature".into(), json!({"min": json::num(var.temp_min_c), "max": json::num(var.temp_max_c)}));
+    m.insert(
+        "temperature".into(),
+        json!({"min": json::num(var.temp_min_c), "max": json::num(var.temp_max_c)}),
+    );
     Value::Object(m)
 }
 
 /// The human report: one row per node with low, nominal and high.
-pub fn report(lim: &Limits, meter: &Meter, var: &Variation, nominal: &Sample, stage: &biasjig_core::stage::Stage) -> String {
+pub fn report(
+    lim: &Limits,
+    meter: &Meter,
+    var: &Variation,
+    nominal: &Sample,
+    stage: &biasjig_core::stage::Stage,
+) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
@@ -98,7 +115,11 @@ pub fn report(lim: &Limits, meter: &Meter, var: &Variation, nominal: &Sample, st
         eng4(meter.offset, "V"),
         100.0 * meter.divider_tol
     );
-    let _ = writeln!(s, "  {:<5} {:>11} {:>11} {:>11}", "", "low", "nominal", "high");
+    let _ = writeln!(
+        s,
+        "  {:<5} {:>11} {:>11} {:>11}",
+        "", "low", "nominal", "high"
+    );
     for n in NODES {
         if let Some(w) = lim.window(n) {
             let nom = match n {
@@ -115,6 +136,9 @@ pub fn report(lim: &Limits, meter: &Meter, var: &Variation, nominal: &Sample, st
             );
         }
     }
-    let _ = writeln!(s, "  (IC is derived from the readings as the tester does: through the nominal RC)");
+    let _ = writeln!(
+        s,
+        "  (IC is derived from the readings as the tester does: through the nominal RC)"
+    );
     s
 }

@@ -103,7 +103,11 @@ struct Progress {
 
 impl Progress {
     fn new(enabled: bool) -> Self {
-        Self { enabled, start: Instant::now(), bar: None }
+        Self {
+            enabled,
+            start: Instant::now(),
+            bar: None,
+        }
     }
 
     fn update(&mut self, done: u32, total: u32) {
@@ -144,7 +148,11 @@ impl Cmd {
         }
         if let (Some(a), Some(b)) = (self.gain_min, self.gain_max) {
             if a > b {
-                return Err(CliError::field("--gain-min/--gain-max", format!("{a}/{b}"), "min must not exceed max"));
+                return Err(CliError::field(
+                    "--gain-min/--gain-max",
+                    format!("{a}/{b}"),
+                    "min must not exceed max",
+                ));
             }
         }
         Ok(Requirement {
@@ -161,18 +169,38 @@ impl Cmd {
         let mut var = self.temps.variation(r.temp_c)?;
         if let Some(k) = self.normal {
             if !(k.is_finite() && (0.5..=10.0).contains(&k)) {
-                return Err(CliError::field("--normal", k, "must be between 0.5 and 10 standard deviations"));
+                return Err(CliError::field(
+                    "--normal",
+                    k,
+                    "must be between 0.5 and 10 standard deviations",
+                ));
             }
             var.distribution = Distribution::Normal { sigmas: k };
         }
         if !(1..=MAX_RUNS).contains(&self.runs) {
-            return Err(CliError::field("--runs", self.runs, format!("must be between 1 and {MAX_RUNS}")));
+            return Err(CliError::field(
+                "--runs",
+                self.runs,
+                format!("must be between 1 and {MAX_RUNS}"),
+            ));
         }
         let req = self.requirement()?;
         r.stage.validate().map_err(|e| stage_error(&r.stage, e))?;
-        let settings = McSettings { runs: self.runs, seed: self.seed, signal: true, requirement: req };
-        let nominal = centre(&r.stage, &r.profile, &Variation { distribution: var.distribution, ..Variation::at(r.temp_c) })
-            .map_err(spread_error)?;
+        let settings = McSettings {
+            runs: self.runs,
+            seed: self.seed,
+            signal: true,
+            requirement: req,
+        };
+        let nominal = centre(
+            &r.stage,
+            &r.profile,
+            &Variation {
+                distribution: var.distribution,
+                ..Variation::at(r.temp_c)
+            },
+        )
+        .map_err(spread_error)?;
         let mut progress = Progress::new(!g.json && std::io::stderr().is_terminal());
         let mut cloud: Vec<(f64, f64)> = Vec::new();
         let keep_cloud = self.plot.is_some();
@@ -190,7 +218,14 @@ impl Cmd {
         )
         .map_err(spread_error)?;
         // Windows at the nominal supply with the default meter, to mark on the plots.
-        let lim = limits(&r.stage, &r.profile, &var, &Meter::default(), r.stage.vcc.value).ok();
+        let lim = limits(
+            &r.stage,
+            &r.profile,
+            &var,
+            &Meter::default(),
+            r.stage.vcc.value,
+        )
+        .ok();
         let mut written = Vec::new();
         if let Some(dir) = &self.plot {
             written = plot::write_all(dir, &r.stage, &r.profile, &sp, lim.as_ref(), &cloud)?;
@@ -208,7 +243,13 @@ impl Cmd {
 }
 
 /// The JSON document: worst case, Monte Carlo, nominal, sensitivity, histograms, yield.
-pub fn to_json(sp: &Spread, nominal: &Sample, var: &Variation, st: &McSettings, req: &Requirement) -> Value {
+pub fn to_json(
+    sp: &Spread,
+    nominal: &Sample,
+    var: &Variation,
+    st: &McSettings,
+    req: &Requirement,
+) -> Value {
     let num = json::num;
     let mut wc = Map::new();
     let mut mc = Map::new();
@@ -222,7 +263,10 @@ pub fn to_json(sp: &Spread, nominal: &Sample, var: &Variation, st: &McSettings, 
     mc.insert("active".into(), json!(m.active));
     for n in Node::ALL {
         let r = sp.worst.nodes.get(n);
-        wc.insert(n.name().into(), json!({"min": num(r.min), "max": num(r.max)}));
+        wc.insert(
+            n.name().into(),
+            json!({"min": num(r.min), "max": num(r.max)}),
+        );
         let s = m.nodes.get(n);
         let q = |p: f64| json::opt(s.quantile(p));
         mc.insert(
@@ -298,7 +342,14 @@ pub fn sparkline(bins: &[u32]) -> String {
 }
 
 /// The human report.
-pub fn report(sp: &Spread, nominal: &Sample, var: &Variation, st: &McSettings, req: &Requirement, temp_c: f64) -> String {
+pub fn report(
+    sp: &Spread,
+    nominal: &Sample,
+    var: &Variation,
+    st: &McSettings,
+    req: &Requirement,
+    temp_c: f64,
+) -> String {
     let mut s = String::new();
     let m = &sp.monte_carlo;
     let dist = match var.distribution {
@@ -314,7 +365,11 @@ pub fn report(sp: &Spread, nominal: &Sample, var: &Variation, st: &McSettings, r
         s,
         "  worst case: {} solves ({})",
         sp.worst.solves,
-        if sp.worst.exhaustive { "every corner" } else { "vertex method" }
+        if sp.worst.exhaustive {
+            "every corner"
+        } else {
+            "vertex method"
+        }
     );
     let _ = writeln!(
         s,
@@ -324,7 +379,11 @@ pub fn report(sp: &Spread, nominal: &Sample, var: &Variation, st: &McSettings, r
     for n in Node::ALL {
         let r = sp.worst.nodes.get(n);
         let x = m.nodes.get(n);
-        let rel = if x.mean != 0.0 { 300.0 * x.std() / x.mean.abs() } else { 0.0 };
+        let rel = if x.mean != 0.0 {
+            300.0 * x.std() / x.mean.abs()
+        } else {
+            0.0
+        };
         let _ = writeln!(
             s,
             "  {:<6} {:>11} {:>11} {:>11} {:>11} {:>11} {:>10.1}%",
@@ -372,7 +431,10 @@ pub fn report(sp: &Spread, nominal: &Sample, var: &Variation, st: &McSettings, r
             fmt(n, h.hi)
         );
     }
-    let _ = writeln!(s, "Sensitivity (share of each node's variance, largest first)");
+    let _ = writeln!(
+        s,
+        "Sensitivity (share of each node's variance, largest first)"
+    );
     for n in Node::ALL {
         let parts: Vec<String> = sp
             .sensitivity
