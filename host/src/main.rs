@@ -39,7 +39,8 @@ struct Cli {
 }
 
 /// Safety note printed under the help.
-const SAFETY: &str = "Safety: de-energise the board before changing probes or parts; keep jig inputs \
+const SAFETY: &str =
+    "Safety: de-energise the board before changing probes or parts; keep jig inputs \
 within their rated range; never connect mains-powered circuits without isolation. Local codes and \
 licensed practice take precedence.";
 
