@@ -45,6 +45,7 @@ within their rated range; never connect mains-powered circuits without isolation
 licensed practice take precedence.";
 
 #[derive(Subcommand, Debug)]
+#[allow(clippy::large_enum_variant)] // parsed once per run
 enum Command {
     /// Exact operating point, hand estimate, gain, impedances, swing, low corner and power
     Analyze(cmd::analyze::Cmd),

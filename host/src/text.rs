@@ -35,8 +35,8 @@ pub fn parts(stage: &Stage) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
-        "  {:<5} {:>10}  {:<6} {:>5}  {}",
-        "part", "value", "code", "tol", "colour bands"
+        "  {:<5} {:>10}  {:<6} {:>5}  colour bands",
+        "part", "value", "code", "tol"
     );
     for r in Resistor::ALL {
         let p = stage.part(r);
