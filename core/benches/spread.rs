@@ -55,7 +55,12 @@ fn run(samples: u32, signal: bool) -> f64 {
             return 0.0;
         }
     };
-    let st = McSettings { runs: samples, seed: 1, signal, requirement: Requirement::default() };
+    let st = McSettings {
+        runs: samples,
+        seed: 1,
+        signal,
+        requirement: Requirement::default(),
+    };
     match monte_carlo(black_box(&s), &p, &v, &wc, &st, |_, _| {}) {
         Ok(mc) => black_box(mc.nodes.vc.mean),
         Err(e) => {
@@ -69,7 +74,8 @@ fn run(samples: u32, signal: bool) -> f64 {
 fn callgrind(samples: u32, dc: bool) -> Option<u64> {
     let me = std::env::current_exe().ok()?;
     let mut cmd = Command::new("valgrind");
-    cmd.args(["--tool=callgrind", "--callgrind-out-file=/dev/null"]).arg(me);
+    cmd.args(["--tool=callgrind", "--callgrind-out-file=/dev/null"])
+        .arg(me);
     cmd.args(["--samples", &samples.to_string()]);
     if dc {
         cmd.arg("--dc");

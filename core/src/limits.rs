@@ -39,7 +39,11 @@ impl Default for Meter {
 
 impl Meter {
     /// A perfect meter (no error): the windows are the bare spread.
-    pub const IDEAL: Meter = Meter { gain_error: 0.0, offset: 0.0, divider_tol: 0.0 };
+    pub const IDEAL: Meter = Meter {
+        gain_error: 0.0,
+        offset: 0.0,
+        divider_tol: 0.0,
+    };
 
     /// Check the fields: gain error and divider tolerance between 0 and 50 %, offset between
     /// 0 V and 10 V.
@@ -78,7 +82,10 @@ impl Window {
     }
 
     /// An empty window that [`Window::widen`] grows.
-    const EMPTY: Window = Window { low: f64::INFINITY, high: f64::NEG_INFINITY };
+    const EMPTY: Window = Window {
+        low: f64::INFINITY,
+        high: f64::NEG_INFINITY,
+    };
 
     /// Grow the window to hold `v ± err`.
     fn widen(&mut self, v: f64, err: f64) {
@@ -207,8 +214,19 @@ pub fn limits(
         vc.widen(v.vc, meter.error(v.vc));
         vbe.widen(v.vbe, meter.error(v.vb) + meter.error(v.ve));
         vce.widen(v.vce, meter.error(v.vc) + meter.error(v.ve));
-        ic.widen(derived_ic(stage, vcc, v.vc), derived_ic_error(stage, meter, vcc, v.vc));
+        ic.widen(
+            derived_ic(stage, vcc, v.vc),
+            derived_ic_error(stage, meter, vcc, v.vc),
+        );
     })?;
     let [vb, ve, vc, vbe, vce, ic] = w;
-    Ok(Limits { vcc, vb, ve, vc, vce, vbe, ic })
+    Ok(Limits {
+        vcc,
+        vb,
+        ve,
+        vc,
+        vce,
+        vbe,
+        ic,
+    })
 }

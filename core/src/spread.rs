@@ -67,7 +67,11 @@ impl Variation {
 
     /// Parts and hFE vary; the ambient spans `temp_min_c` to `temp_max_c`, °C.
     pub fn between(temp_min_c: f64, temp_max_c: f64) -> Self {
-        Self { temp_min_c, temp_max_c, distribution: Distribution::Uniform }
+        Self {
+            temp_min_c,
+            temp_max_c,
+            distribution: Distribution::Uniform,
+        }
     }
 
     /// The middle of the ambient range, °C.
@@ -149,8 +153,16 @@ pub enum Node {
 
 impl Node {
     /// Every node, in report order.
-    pub const ALL: [Node; 8] =
-        [Self::Vb, Self::Ve, Self::Vc, Self::Vbe, Self::Vce, Self::Ic, Self::Gain, Self::Swing];
+    pub const ALL: [Node; 8] = [
+        Self::Vb,
+        Self::Ve,
+        Self::Vc,
+        Self::Vbe,
+        Self::Vce,
+        Self::Ic,
+        Self::Gain,
+        Self::Swing,
+    ];
 
     /// The machine name: "vb", "ve", "vc", "vbe", "vce", "ic", "gain", "swing".
     pub fn name(self) -> &'static str {
@@ -376,7 +388,12 @@ impl Box8 {
 
 fn draw_of(x: &[f64; FACTORS]) -> Draw {
     let [r1, r2, rc, re1, re2, beta_25, temp_c, vcc] = *x;
-    Draw { r: [r1, r2, rc, re1, re2], vcc, beta_25, temp_c }
+    Draw {
+        r: [r1, r2, rc, re1, re2],
+        vcc,
+        beta_25,
+        temp_c,
+    }
 }
 
 /// The stage and conditions of one draw.
@@ -386,7 +403,14 @@ fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
         s.part_mut(*r).value = v;
     }
     s.vcc.value = d.vcc;
-    (s, Conditions { temp_c: d.temp_c, beta_25: d.beta_25, fault: None })
+    (
+        s,
+        Conditions {
+            temp_c: d.temp_c,
+            beta_25: d.beta_25,
+            fault: None,
+        },
+    )
 }
 
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (one small-signal solve), or 0 when
@@ -412,7 +436,12 @@ fn gain_of(stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
 }
 
 /// Evaluate one draw: one exact solve, the swing, and the gain when `signal`.
-fn evaluate(stage: &Stage, profile: &Profile, d: &Draw, signal: bool) -> Result<Sample, SolveError> {
+fn evaluate(
+    stage: &Stage,
+    profile: &Profile,
+    d: &Draw,
+    signal: bool,
+) -> Result<Sample, SolveError> {
     let (s, cond) = apply(stage, d);
     let op = solve(&s, profile, cond)?;
     let (sw, _) = swing(&s, profile, &op);
@@ -457,7 +486,10 @@ pub struct Range {
 
 impl Range {
     /// An empty range (min = +∞, max = −∞) that any value widens.
-    pub const EMPTY: Range = Range { min: f64::INFINITY, max: f64::NEG_INFINITY };
+    pub const EMPTY: Range = Range {
+        min: f64::INFINITY,
+        max: f64::NEG_INFINITY,
+    };
 
     /// Widen the range to include `v` (non-finite values are ignored).
     pub fn include(&mut self, v: f64) {
@@ -536,11 +568,16 @@ pub fn worst_case(
 }
 
 fn active_mask(b: &Box8) -> u16 {
-    (0..FACTORS).filter(|k| b.active(*k)).fold(0u16, |m, k| m | (1 << k))
+    (0..FACTORS)
+        .filter(|k| b.active(*k))
+        .fold(0u16, |m, k| m | (1 << k))
 }
 
 /// Enumerate the subsets of `mask` (every corner over the active factors).
-fn for_each_corner(mask: u16, mut f: impl FnMut(u16) -> Result<(), SpreadError>) -> Result<(), SpreadError> {
+fn for_each_corner(
+    mask: u16,
+    mut f: impl FnMut(u16) -> Result<(), SpreadError>,
+) -> Result<(), SpreadError> {
     let mut sub: u16 = 0;
     loop {
         f(sub)?;
@@ -599,7 +636,11 @@ fn worst_case_in(
         }
         for node in Node::ALL {
             for want_max in [false, true] {
-                let start = if want_max { *up.get(node) } else { mask & !*up.get(node) };
+                let start = if want_max {
+                    *up.get(node)
+                } else {
+                    mask & !*up.get(node)
+                };
                 let value = |s: &Sample| {
                     let v = *s.values.get(node);
                     if want_max {
@@ -631,7 +672,12 @@ fn worst_case_in(
             }
         }
     }
-    Ok(WorstCase { nodes, solves, exhaustive, factors: n as u8 })
+    Ok(WorstCase {
+        nodes,
+        solves,
+        exhaustive,
+        factors: n as u8,
+    })
 }
 
 /// Every corner of the factor box with the supply fixed at `vcc` (V, tolerance zero), DC only:
@@ -692,7 +738,13 @@ impl Histogram {
             lo -= pad;
             hi += pad;
         }
-        Self { lo, hi, bins: [0; BINS], below: 0, above: 0 }
+        Self {
+            lo,
+            hi,
+            bins: [0; BINS],
+            below: 0,
+            above: 0,
+        }
     }
 
     /// Width of one bin.
@@ -722,7 +774,11 @@ impl Histogram {
 
     /// Total count, including values outside the range.
     pub fn count(&self) -> u32 {
-        self.bins.iter().fold(self.below.saturating_add(self.above), |a, b| a.saturating_add(*b))
+        self.bins
+            .iter()
+            .fold(self.below.saturating_add(self.above), |a, b| {
+                a.saturating_add(*b)
+            })
     }
 
     /// The `p`-quantile (0 to 1), linear within its bin; `None` when empty or when it falls
@@ -772,7 +828,13 @@ pub struct Stats {
 impl Stats {
     /// Empty statistics with a histogram over `lo` to `hi`.
     pub fn new(lo: f64, hi: f64) -> Self {
-        Self { count: 0, mean: 0.0, m2: 0.0, range: Range::EMPTY, histogram: Histogram::new(lo, hi) }
+        Self {
+            count: 0,
+            mean: 0.0,
+            m2: 0.0,
+            range: Range::EMPTY,
+            histogram: Histogram::new(lo, hi),
+        }
     }
 
     /// Add one value (non-finite values are ignored).
@@ -857,7 +919,12 @@ pub struct McSettings {
 impl Default for McSettings {
     /// 1000 runs, seed 1, with the gain, no requirement.
     fn default() -> Self {
-        Self { runs: 1000, seed: 1, signal: true, requirement: Requirement::default() }
+        Self {
+            runs: 1000,
+            seed: 1,
+            signal: true,
+            requirement: Requirement::default(),
+        }
     }
 }
 
@@ -901,7 +968,9 @@ const NORMAL_TRIES: u8 = 32;
 
 impl Deviates {
     fn new(seed: u64) -> Self {
-        Self { rng: Xoshiro256PlusPlus::seed_from_u64(seed) }
+        Self {
+            rng: Xoshiro256PlusPlus::seed_from_u64(seed),
+        }
     }
 
     /// Uniform on [0, 1) from the top 53 bits.
@@ -953,7 +1022,12 @@ impl Deviates {
         };
         let beta_25 = between(self, 5);
         let temp_c = between(self, 6);
-        Draw { r, vcc, beta_25, temp_c }
+        Draw {
+            r,
+            vcc,
+            beta_25,
+            temp_c,
+        }
     }
 }
 
@@ -992,8 +1066,14 @@ pub fn monte_carlo_observed(
         let pad = 0.05 * (r.max - r.min);
         Stats::new(r.min - pad, r.max + pad)
     });
-    let mut mc =
-        MonteCarlo { runs: settings.runs, failed: 0, passed: 0, active: 0, signal, nodes };
+    let mut mc = MonteCarlo {
+        runs: settings.runs,
+        failed: 0,
+        passed: 0,
+        active: 0,
+        signal,
+        nodes,
+    };
     let mut dev = Deviates::new(settings.seed);
     for i in 0..settings.runs {
         let d = dev.draw(stage, &b, var.distribution);
@@ -1061,7 +1141,11 @@ pub fn variance_factor(dist: Distribution) -> f64 {
 /// Each factor's share of each node's variance: the factor at its low and high end with the
 /// others at the centre gives the half-range effect `d`; it contributes `d²·v` with `v` the
 /// variance factor of its distribution ([`variance_factor`]; hFE and ambient are uniform).
-pub fn sensitivity(stage: &Stage, profile: &Profile, var: &Variation) -> Result<Sensitivity, SpreadError> {
+pub fn sensitivity(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+) -> Result<Sensitivity, SpreadError> {
     validate(stage, profile, var)?;
     let b = Box8::new(stage, profile, var);
     let mut effects = [Nodes::<f64>::default(); FACTORS];
@@ -1085,14 +1169,22 @@ pub fn sensitivity(stage: &Stage, profile: &Profile, var: &Variation) -> Result<
         let mut shares: [Share; FACTORS] = core::array::from_fn(|k| {
             let f = Factor::ALL.get(k).copied().unwrap_or(Factor::Supply);
             let effect = effects.get(k).map_or(0.0, |e| *e.get(n));
-            Share { factor: f, effect, variance: effect * effect * weight(f), share: 0.0 }
+            Share {
+                factor: f,
+                effect,
+                variance: effect * effect * weight(f),
+                share: 0.0,
+            }
         });
         let total: f64 = shares.iter().map(|s| s.variance).sum();
         for s in shares.iter_mut() {
             s.share = if total > 0.0 { s.variance / total } else { 0.0 };
         }
         shares.sort_unstable_by(|a, b| {
-            b.share.partial_cmp(&a.share).unwrap_or(core::cmp::Ordering::Equal).then(a.factor.cmp(&b.factor))
+            b.share
+                .partial_cmp(&a.share)
+                .unwrap_or(core::cmp::Ordering::Equal)
+                .then(a.factor.cmp(&b.factor))
         });
         *std.get_mut(n) = libm::sqrt(total);
         shares
@@ -1136,6 +1228,12 @@ pub fn spread_observed(
     let centre = centre(stage, profile, var)?;
     let worst = worst_case(stage, profile, var, Method::default())?;
     let sensitivity = sensitivity(stage, profile, var)?;
-    let monte_carlo = monte_carlo_observed(stage, profile, var, &worst, settings, progress, on_sample)?;
-    Ok(Spread { centre, worst, monte_carlo, sensitivity })
+    let monte_carlo =
+        monte_carlo_observed(stage, profile, var, &worst, settings, progress, on_sample)?;
+    Ok(Spread {
+        centre,
+        worst,
+        monte_carlo,
+        sensitivity,
+    })
 }

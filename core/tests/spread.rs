@@ -49,7 +49,11 @@ fn demo_var() -> Variation {
 const DC: [Node; 6] = [Node::Vb, Node::Ve, Node::Vc, Node::Vbe, Node::Vce, Node::Ic];
 
 fn settings(runs: u32, seed: u64) -> McSettings {
-    McSettings { runs, seed, ..McSettings::default() }
+    McSettings {
+        runs,
+        seed,
+        ..McSettings::default()
+    }
 }
 
 #[test]
@@ -61,13 +65,21 @@ fn worst_case_brackets_demo_monte_carlo_and_centre() {
     assert_eq!(wc.solves, 129);
     let c = centre(&s, &p, &v).unwrap();
     let mut outside = 0u32;
-    let mc = monte_carlo_observed(&s, &p, &v, &wc, &settings(2000, 7), |_, _| {}, |smp| {
-        for n in DC {
-            if !wc.nodes.get(n).brackets(*smp.values.get(n), 1e-9, 1e-15) {
-                outside += 1;
+    let mc = monte_carlo_observed(
+        &s,
+        &p,
+        &v,
+        &wc,
+        &settings(2000, 7),
+        |_, _| {},
+        |smp| {
+            for n in DC {
+                if !wc.nodes.get(n).brackets(*smp.values.get(n), 1e-9, 1e-15) {
+                    outside += 1;
+                }
             }
-        }
-    })
+        },
+    )
     .unwrap();
     assert_eq!(outside, 0);
     assert_eq!(mc.failed, 0);
@@ -117,7 +129,16 @@ fn worst_case_matches_hand_corners_of_the_divider() {
     let mut hi = s;
     hi.r1.value *= 0.95;
     hi.r2.value *= 1.05;
-    let op = solve(&hi, &p, Conditions { temp_c: 25.0, beta_25: 300.0, fault: None }).unwrap();
+    let op = solve(
+        &hi,
+        &p,
+        Conditions {
+            temp_c: 25.0,
+            beta_25: 300.0,
+            fault: None,
+        },
+    )
+    .unwrap();
     // RE high lowers IE and so IB: the maximum is at least this corner's VB.
     assert!(wc.nodes.vb.max >= op.vb - 1e-12);
     assert!(wc.nodes.vb.max <= op.vb * 1.01);
@@ -142,7 +163,16 @@ fn monte_carlo_mean_converges_to_nominal_as_tolerances_shrink() {
         };
         let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
         let mc = monte_carlo(&s, &p, &v, &wc, &settings(1000, 3), |_, _| {}).unwrap();
-        let nom = solve(&s, &p, Conditions { temp_c: 25.0, beta_25: p.beta_typ, fault: None }).unwrap();
+        let nom = solve(
+            &s,
+            &p,
+            Conditions {
+                temp_c: 25.0,
+                beta_25: p.beta_typ,
+                fault: None,
+            },
+        )
+        .unwrap();
         let worst_rel = DC
             .iter()
             .map(|n| {
@@ -173,7 +203,11 @@ fn same_seed_same_numbers_other_seed_others() {
     let c = spread(&s, &p, &v, &settings(500, 43), |_, _| {}).unwrap();
     assert_eq!(a, b);
     for n in Node::ALL {
-        assert_ne!(a.monte_carlo.nodes.get(n).mean, c.monte_carlo.nodes.get(n).mean, "{n:?}");
+        assert_ne!(
+            a.monte_carlo.nodes.get(n).mean,
+            c.monte_carlo.nodes.get(n).mean,
+            "{n:?}"
+        );
     }
 }
 
@@ -197,13 +231,21 @@ fn seeded_run_snapshot() {
     }
 }
 
-const SNAPSHOT: [f64; 5] =
-    [2.0526372461105833, 6.645967848424581, 6.722686419829372e-5, 4.313113331164471, -13.563448301231231];
+const SNAPSHOT: [f64; 5] = [
+    2.0526372461105833,
+    6.645967848424581,
+    6.722686419829372e-5,
+    4.313113331164471,
+    -13.563448301231231,
+];
 
 #[test]
 fn normal_deviates_are_reproducible_and_inside_the_tolerance() {
     let (s, p) = (demo_stage(), demo_profile());
-    let v = Variation { distribution: Distribution::Normal { sigmas: 3.0 }, ..Variation::at(25.0) };
+    let v = Variation {
+        distribution: Distribution::Normal { sigmas: 3.0 },
+        ..Variation::at(25.0)
+    };
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let a = monte_carlo(&s, &p, &v, &wc, &settings(800, 9), |_, _| {}).unwrap();
     let b = monte_carlo(&s, &p, &v, &wc, &settings(800, 9), |_, _| {}).unwrap();
@@ -236,7 +278,12 @@ fn divider_stage(tol: f64) -> (Stage, Profile) {
         cout: None,
         ce: None,
     };
-    let p = Profile { beta_min: 1e6, beta_typ: 1e6, beta_max: 1e6, ..Profile::default() };
+    let p = Profile {
+        beta_min: 1e6,
+        beta_typ: 1e6,
+        beta_max: 1e6,
+        ..Profile::default()
+    };
     (s, p)
 }
 
@@ -256,10 +303,17 @@ fn std_follows_the_law_of_propagation_for_uniform_tolerances() {
     let mc = monte_carlo(&s, &p, &v, &wc, &settings(20_000, 11), |_, _| {}).unwrap();
     let got = mc.nodes.vb.std();
     // 20 000 samples: the standard error of a standard deviation is about σ/√(2N), 0.5 %.
-    assert!(((got - sigma) / sigma).abs() < 0.03, "MC {got}, formula {sigma}");
+    assert!(
+        ((got - sigma) / sigma).abs() < 0.03,
+        "MC {got}, formula {sigma}"
+    );
     // The sensitivity's propagated σ is the same formula from the solver's own effects.
     let sens = sensitivity(&s, &p, &v).unwrap();
-    assert!(((sens.std.vb - sigma) / sigma).abs() < 0.01, "{} vs {sigma}", sens.std.vb);
+    assert!(
+        ((sens.std.vb - sigma) / sigma).abs() < 0.01,
+        "{} vs {sigma}",
+        sens.std.vb
+    );
     // Two equal and opposite effects: R1 and R2 share VB's variance half and half.
     let shares = &sens.nodes.vb;
     assert!((shares[0].share - 0.5).abs() < 0.01 && (shares[1].share - 0.5).abs() < 0.01);
@@ -276,12 +330,19 @@ fn truncated_normal_variance_factor() {
     // The Monte Carlo agrees: VB of the divider stage with normal parts.
     let t = 0.01;
     let (s, p) = divider_stage(t);
-    let v = Variation { distribution: Distribution::Normal { sigmas: 3.0 }, ..Variation::at(25.0) };
+    let v = Variation {
+        distribution: Distribution::Normal { sigmas: 3.0 },
+        ..Variation::at(25.0)
+    };
     let sens = sensitivity(&s, &p, &v).unwrap();
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let mc = monte_carlo(&s, &p, &v, &wc, &settings(20_000, 5), |_, _| {}).unwrap();
     let got = mc.nodes.vb.std();
-    assert!(((got - sens.std.vb) / sens.std.vb).abs() < 0.03, "{got} vs {}", sens.std.vb);
+    assert!(
+        ((got - sens.std.vb) / sens.std.vb).abs() < 0.03,
+        "{got} vs {}",
+        sens.std.vb
+    );
 }
 
 #[test]
@@ -298,13 +359,20 @@ fn sensitivity_shares_sum_to_one_and_are_ranked() {
     // while VBE's spread is the ambient's (about −2 mV/°C, common practice).
     let vb = &sens.nodes.vb;
     let top2 = [vb[0].factor, vb[1].factor];
-    assert!(top2.contains(&Factor::Resistor(Resistor::R1)) && top2.contains(&Factor::Resistor(Resistor::R2)));
+    assert!(
+        top2.contains(&Factor::Resistor(Resistor::R1))
+            && top2.contains(&Factor::Resistor(Resistor::R2))
+    );
     assert_eq!(sens.nodes.vbe[0].factor, Factor::Temp);
     // VBE's effect of the ambient: half of 65 °C at about −2 mV/°C.
     let d = sens.nodes.vbe[0].effect;
     assert!((-0.085..-0.05).contains(&d), "{d}");
     // The supply has no tolerance here: no share.
-    assert!(sens.nodes.vb.iter().all(|x| x.factor != Factor::Supply || x.share == 0.0));
+    assert!(sens
+        .nodes
+        .vb
+        .iter()
+        .all(|x| x.factor != Factor::Supply || x.share == 0.0));
 }
 
 #[test]
@@ -312,7 +380,10 @@ fn progress_reports_to_the_end() {
     let (s, p, v) = (demo_stage(), demo_profile(), demo_var());
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let mut calls = Vec::new();
-    let _ = monte_carlo(&s, &p, &v, &wc, &settings(600, 1), |d, t| calls.push((d, t))).unwrap();
+    let _ = monte_carlo(&s, &p, &v, &wc, &settings(600, 1), |d, t| {
+        calls.push((d, t))
+    })
+    .unwrap();
     assert_eq!(calls, vec![(256, 600), (512, 600), (600, 600)]);
 }
 
@@ -321,7 +392,10 @@ fn yield_against_a_requirement() {
     let (s, p, v) = (demo_stage(), demo_profile(), demo_var());
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let loose = McSettings {
-        requirement: Requirement { gain_min: Some(1.0), ..Requirement::default() },
+        requirement: Requirement {
+            gain_min: Some(1.0),
+            ..Requirement::default()
+        },
         ..settings(400, 1)
     };
     let mc = monte_carlo(&s, &p, &v, &wc, &loose, |_, _| {}).unwrap();
@@ -330,16 +404,31 @@ fn yield_against_a_requirement() {
     // A gain window around the median passes about half.
     let median = mc.nodes.gain.quantile(0.5).unwrap().abs();
     let half = McSettings {
-        requirement: Requirement { gain_min: Some(median), ..Requirement::default() },
+        requirement: Requirement {
+            gain_min: Some(median),
+            ..Requirement::default()
+        },
         ..settings(400, 1)
     };
     let mc2 = monte_carlo(&s, &p, &v, &wc, &half, |_, _| {}).unwrap();
-    assert!((0.35..0.65).contains(&mc2.yield_fraction()), "{}", mc2.yield_fraction());
+    assert!(
+        (0.35..0.65).contains(&mc2.yield_fraction()),
+        "{}",
+        mc2.yield_fraction()
+    );
     let none = McSettings {
-        requirement: Requirement { ic_max: Some(wc.nodes.ic.min * 0.5), ..Requirement::default() },
+        requirement: Requirement {
+            ic_max: Some(wc.nodes.ic.min * 0.5),
+            ..Requirement::default()
+        },
         ..settings(100, 1)
     };
-    assert_eq!(monte_carlo(&s, &p, &v, &wc, &none, |_, _| {}).unwrap().passed, 0);
+    assert_eq!(
+        monte_carlo(&s, &p, &v, &wc, &none, |_, _| {})
+            .unwrap()
+            .passed,
+        0
+    );
 }
 
 #[test]
@@ -348,7 +437,11 @@ fn quantiles_from_the_histogram() {
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let mc = monte_carlo(&s, &p, &v, &wc, &settings(4000, 17), |_, _| {}).unwrap();
     let st = &mc.nodes.vc;
-    let (q05, q50, q95) = (st.quantile(0.05).unwrap(), st.quantile(0.5).unwrap(), st.quantile(0.95).unwrap());
+    let (q05, q50, q95) = (
+        st.quantile(0.05).unwrap(),
+        st.quantile(0.5).unwrap(),
+        st.quantile(0.95).unwrap(),
+    );
     assert!(st.range.min <= q05 && q05 < q50 && q50 < q95 && q95 <= st.range.max);
     // Within two bin widths of the mean for a nearly symmetric node.
     assert!((q50 - st.mean).abs() < 2.0 * st.histogram.width() + 0.1 * st.std());
@@ -358,12 +451,21 @@ fn quantiles_from_the_histogram() {
 fn bad_variation_is_refused() {
     let (s, p) = (demo_stage(), demo_profile());
     let bad = Variation::between(40.0, 10.0);
-    assert_eq!(worst_case(&s, &p, &bad, Method::default()).unwrap_err(), SpreadError::TempRange);
-    let bad = Variation { distribution: Distribution::Normal { sigmas: 0.0 }, ..Variation::at(25.0) };
+    assert_eq!(
+        worst_case(&s, &p, &bad, Method::default()).unwrap_err(),
+        SpreadError::TempRange
+    );
+    let bad = Variation {
+        distribution: Distribution::Normal { sigmas: 0.0 },
+        ..Variation::at(25.0)
+    };
     assert_eq!(sensitivity(&s, &p, &bad).unwrap_err(), SpreadError::Sigmas);
     let mut st = s;
     st.r1.value = -1.0;
-    assert!(matches!(centre(&st, &p, &Variation::at(25.0)), Err(SpreadError::Stage(_))));
+    assert!(matches!(
+        centre(&st, &p, &Variation::at(25.0)),
+        Err(SpreadError::Stage(_))
+    ));
 }
 
 #[test]
@@ -371,10 +473,18 @@ fn limits_widen_with_the_meter_and_move_with_the_supply() {
     let (s, p, v) = (demo_stage(), demo_profile(), demo_var());
     let ideal = limits(&s, &p, &v, &Meter::IDEAL, 12.0).unwrap();
     let good = limits(&s, &p, &v, &Meter::default(), 12.0).unwrap();
-    let poor = Meter { gain_error: 0.02, offset: 0.02, divider_tol: 0.01 };
+    let poor = Meter {
+        gain_error: 0.02,
+        offset: 0.02,
+        divider_tol: 0.01,
+    };
     let poor = limits(&s, &p, &v, &poor, 12.0).unwrap();
     for n in DC {
-        let (a, b, c) = (ideal.window(n).unwrap(), good.window(n).unwrap(), poor.window(n).unwrap());
+        let (a, b, c) = (
+            ideal.window(n).unwrap(),
+            good.window(n).unwrap(),
+            poor.window(n).unwrap(),
+        );
         assert!(c.low < b.low && b.low < a.low, "{n:?}");
         assert!(a.high < b.high && b.high < c.high, "{n:?}");
     }
@@ -391,7 +501,10 @@ fn limits_widen_with_the_meter_and_move_with_the_supply() {
     assert!(low.ic.high < good.ic.high);
     // The bare windows at 12 V equal the worst case of the same nodes (supply tolerance zero).
     let wc = worst_case(&s, &p, &v, Method::Exhaustive).unwrap();
-    assert!((ideal.vb.low - wc.nodes.vb.min).abs() < 1e-12 && (ideal.vb.high - wc.nodes.vb.max).abs() < 1e-12);
+    assert!(
+        (ideal.vb.low - wc.nodes.vb.min).abs() < 1e-12
+            && (ideal.vb.high - wc.nodes.vb.max).abs() < 1e-12
+    );
     assert!((ideal.vce.low - wc.nodes.vce.min).abs() < 1e-12);
 }
 
@@ -410,15 +523,23 @@ fn derived_ic_window_holds_every_board_at_that_supply() {
     let lim = limits(&s, &p, &v, &Meter::IDEAL, 12.0).unwrap();
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let mut outside = 0;
-    let _ = monte_carlo_observed(&s, &p, &v, &wc, &settings(1000, 4), |_, _| {}, |smp| {
-        let ic = derived_ic(&s, 12.0, smp.values.vc);
-        if !(ic >= lim.ic.low - 1e-15 && ic <= lim.ic.high + 1e-15) {
-            outside += 1;
-        }
-        if !(lim.vb.contains(smp.values.vb) && lim.vce.contains(smp.values.vce)) {
-            outside += 1;
-        }
-    })
+    let _ = monte_carlo_observed(
+        &s,
+        &p,
+        &v,
+        &wc,
+        &settings(1000, 4),
+        |_, _| {},
+        |smp| {
+            let ic = derived_ic(&s, 12.0, smp.values.vc);
+            if !(ic >= lim.ic.low - 1e-15 && ic <= lim.ic.high + 1e-15) {
+                outside += 1;
+            }
+            if !(lim.vb.contains(smp.values.vb) && lim.vce.contains(smp.values.vce)) {
+                outside += 1;
+            }
+        },
+    )
     .unwrap();
     assert_eq!(outside, 0);
     // RC's tolerance is inside the derived IC window: wider than the true IC's own spread.
@@ -442,9 +563,18 @@ fn limits_of_a_pnp_stage_are_signed() {
 #[test]
 fn bad_meter_and_supply_are_refused() {
     let (s, p, v) = (demo_stage(), demo_profile(), demo_var());
-    let bad = Meter { gain_error: -0.1, ..Meter::default() };
-    assert_eq!(limits(&s, &p, &v, &bad, 12.0).unwrap_err(), LimitsError::Meter);
-    assert_eq!(limits(&s, &p, &v, &Meter::default(), f64::NAN).unwrap_err(), LimitsError::Supply);
+    let bad = Meter {
+        gain_error: -0.1,
+        ..Meter::default()
+    };
+    assert_eq!(
+        limits(&s, &p, &v, &bad, 12.0).unwrap_err(),
+        LimitsError::Meter
+    );
+    assert_eq!(
+        limits(&s, &p, &v, &Meter::default(), f64::NAN).unwrap_err(),
+        LimitsError::Supply
+    );
 }
 
 /// A random stage biased somewhere sensible: divider to about a fifth of the supply, IC 0.2 to
@@ -461,35 +591,37 @@ fn arb_stage() -> impl Strategy<Value = (Stage, Profile, Variation)> {
         (50.0f64..150.0, 1.0f64..3.0),
         (-20.0f64..25.0, 0.0f64..50.0),
     )
-        .prop_map(|(vcc, vb_frac, ic, vc_frac, re1_frac, tol, pnp, (bmin, bratio), (t0, dt))| {
-            let vb = vcc * vb_frac;
-            let re = (vb - 0.65) / ic;
-            let rc = vcc * vc_frac / ic;
-            let r2 = 10.0 * re * 10.0;
-            let r1 = r2 * (vcc - vb) / vb;
-            let (r1, r2) = if pnp { (r2, r1) } else { (r1, r2) };
-            let stage = Stage {
-                polarity: if pnp { Polarity::Pnp } else { Polarity::Npn },
-                vcc: Part::new(vcc, tol * 0.5),
-                r1: Part::new(r1, tol),
-                r2: Part::new(r2, tol),
-                rc: Part::new(rc, tol),
-                re1: Part::new(re * re1_frac, tol),
-                re2: Part::new(re * (1.0 - re1_frac), tol),
-                rl: Some(rc * 3.0),
-                rs: 100.0,
-                cin: None,
-                cout: None,
-                ce: None,
-            };
-            let profile = Profile {
-                beta_min: bmin,
-                beta_typ: bmin * bratio.sqrt(),
-                beta_max: bmin * bratio,
-                ..Profile::default()
-            };
-            (stage, profile, Variation::between(t0, t0 + dt))
-        })
+        .prop_map(
+            |(vcc, vb_frac, ic, vc_frac, re1_frac, tol, pnp, (bmin, bratio), (t0, dt))| {
+                let vb = vcc * vb_frac;
+                let re = (vb - 0.65) / ic;
+                let rc = vcc * vc_frac / ic;
+                let r2 = 10.0 * re * 10.0;
+                let r1 = r2 * (vcc - vb) / vb;
+                let (r1, r2) = if pnp { (r2, r1) } else { (r1, r2) };
+                let stage = Stage {
+                    polarity: if pnp { Polarity::Pnp } else { Polarity::Npn },
+                    vcc: Part::new(vcc, tol * 0.5),
+                    r1: Part::new(r1, tol),
+                    r2: Part::new(r2, tol),
+                    rc: Part::new(rc, tol),
+                    re1: Part::new(re * re1_frac, tol),
+                    re2: Part::new(re * (1.0 - re1_frac), tol),
+                    rl: Some(rc * 3.0),
+                    rs: 100.0,
+                    cin: None,
+                    cout: None,
+                    ce: None,
+                };
+                let profile = Profile {
+                    beta_min: bmin,
+                    beta_typ: bmin * bratio.sqrt(),
+                    beta_max: bmin * bratio,
+                    ..Profile::default()
+                };
+                (stage, profile, Variation::between(t0, t0 + dt))
+            },
+        )
 }
 
 proptest! {
