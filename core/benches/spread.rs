@@ -3,7 +3,8 @@
 //!
 //! `cargo bench -p biasjig-core --bench spread` prints samples per second and, when valgrind is
 //! installed, runs itself under `valgrind --tool=callgrind` with N and 10·N samples and prints
-//! (I(10N) − I(N)) / 9N instructions per sample, which cancels the set-up. By hand:
+//! (I(10N) − I(N)) / 9N instructions per sample, which cancels the set-up.
+//! `scripts/instructions.sh spread` gives the DC figure the same way. By hand:
 //!
 //! ```text
 //! valgrind --tool=callgrind --callgrind-out-file=/dev/null target/release/deps/spread-* --samples 1000 --dc
@@ -89,6 +90,16 @@ fn callgrind(samples: u32, dc: bool) -> Option<u64> {
 fn main() {
     let args: Vec<String> = std::env::args().collect();
     let dc = args.iter().any(|a| a == "--dc");
+    // The convention of scripts/instructions.sh: `--counts` names N1 N2 and the unit, a bare
+    // count N runs N samples (the DC figure of the goal).
+    if args.iter().any(|a| a == "--counts") {
+        println!("1000 10000 monte-carlo-sample");
+        return;
+    }
+    if let Some(n) = args.get(1).and_then(|a| a.parse::<u32>().ok()) {
+        black_box(run(n, false));
+        return;
+    }
     if let Some(i) = args.iter().position(|a| a == "--samples") {
         let n = args.get(i + 1).and_then(|s| s.parse().ok()).unwrap_or(1000);
         black_box(run(n, !dc));
