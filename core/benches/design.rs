@@ -1,7 +1,8 @@
 //! Cost of one design (first pass, search, capacitors) on the demo scenario, E24.
 //!
-//! Deterministic instruction count with callgrind: run the bench binary once with N = 1 and
-//! once with N = 11 and divide the difference by 10 (this removes start-up and printing):
+//! Deterministic instruction count with callgrind: `scripts/instructions.sh design`, or by hand:
+//! run the bench binary once with N = 1 and once with N = 11 and divide the difference by 10
+//! (this removes start-up and printing):
 //!
 //! ```text
 //! cargo bench -p biasjig-core --bench design --no-run      # prints the binary's path
@@ -18,7 +19,12 @@ use biasjig_core::design::{design, Requirement};
 use biasjig_core::device::{is_from_vbe, Profile};
 
 fn main() {
-    // cargo bench passes "--bench"; a number among the arguments is the repeat count.
+    // The convention of scripts/instructions.sh: `--counts` names N1 N2 and the unit; a bare
+    // count N runs N designs (cargo bench passes "--bench", which is ignored).
+    if std::env::args().any(|a| a == "--counts") {
+        println!("1 11 design");
+        return;
+    }
     let n: usize = std::env::args()
         .skip(1)
         .find_map(|a| a.parse().ok())

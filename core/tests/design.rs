@@ -330,7 +330,8 @@ fn gain_out_of_reach_from_a_high_source_resistance() {
 #[test]
 fn invalid_fields_are_named() {
     let p = profile();
-    let cases: [(fn(&mut Requirement), RequirementError); 6] = [
+    type Edit = fn(&mut Requirement);
+    let cases: [(Edit, RequirementError); 6] = [
         (|r| r.vcc = f64::NAN, RequirementError::Supply),
         (|r| r.gain = -3.0, RequirementError::Gain),
         (|r| r.rl = Some(0.0), RequirementError::Load),
