@@ -142,7 +142,11 @@ impl core::fmt::Display for Implausible {
     fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
         match self {
             Self::NotFinite => f.write_str("a reading is not a number: read every node again"),
-            Self::Supply { measured, low, high } => write!(
+            Self::Supply {
+                measured,
+                low,
+                high,
+            } => write!(
                 f,
                 "the supply reads {measured:.3} V, outside {low:.3} V to {high:.3} V: check that \
                  the board is powered at the right voltage and the supply probe is on"
@@ -186,9 +190,16 @@ pub fn reading_error(meter: &Meter, v: f64) -> f64 {
 /// supply tolerance and [`SUPPLY_SLACK`], widened by the meter error, V.
 pub fn supply_window(stage: &Stage, meter: &Meter) -> Window {
     let nominal = stage.vcc.value;
-    let slack = if stage.vcc.tol > SUPPLY_SLACK { stage.vcc.tol } else { SUPPLY_SLACK };
+    let slack = if stage.vcc.tol > SUPPLY_SLACK {
+        stage.vcc.tol
+    } else {
+        SUPPLY_SLACK
+    };
     let err = reading_error(meter, nominal);
-    Window { low: nominal * (1.0 - slack) - err, high: nominal * (1.0 + slack) + err }
+    Window {
+        low: nominal * (1.0 - slack) - err,
+        high: nominal * (1.0 + slack) + err,
+    }
 }
 
 /// Refuse readings that cannot come from a powered, correctly probed board.
@@ -198,9 +209,14 @@ pub fn plausible(stage: &Stage, meter: &Meter, r: &Readings) -> Result<(), Impla
     }
     let w = supply_window(stage, meter);
     if !w.contains(r.vcc) {
-        return Err(Implausible::Supply { measured: r.vcc, low: w.low, high: w.high });
+        return Err(Implausible::Supply {
+            measured: r.vcc,
+            low: w.low,
+            high: w.high,
+        });
     }
-    let slack = |v: f64| 2.0 * (reading_error(meter, v) + reading_error(meter, r.vcc)) + PROBE_NOISE_V;
+    let slack =
+        |v: f64| 2.0 * (reading_error(meter, v) + reading_error(meter, r.vcc)) + PROBE_NOISE_V;
     for (node, v) in [(Node::Vb, r.vb), (Node::Ve, r.ve), (Node::Vc, r.vc)] {
         if v > r.vcc + slack(v) {
             return Err(Implausible::AboveSupply(node));
@@ -209,7 +225,8 @@ pub fn plausible(stage: &Stage, meter: &Meter, r: &Readings) -> Result<(), Impla
             return Err(Implausible::BelowGround(node));
         }
     }
-    let same = |a: f64, b: f64| libm::fabs(a - b) <= reading_error(meter, a) + reading_error(meter, b);
+    let same =
+        |a: f64, b: f64| libm::fabs(a - b) <= reading_error(meter, a) + reading_error(meter, b);
     if same(r.vb, r.ve) && same(r.ve, r.vc) && same(r.vb, r.vc) {
         return Err(Implausible::AllEqual);
     }
@@ -252,20 +269,32 @@ pub fn derive(stage: &Stage, meter: &Meter, r: &Readings) -> Derived {
         Polarity::Pnp => i_r2 - i_r1,
     };
     // What the meter can resolve of IB: the base-voltage error through both divider resistors.
-    let ib_resolution = reading_error(meter, r.vb) * (1.0 / r1 + 1.0 / r2)
-        + reading_error(meter, r.vcc) / r1;
-    let beta = if ib > 2.0 * ib_resolution && ic > 0.0 { Some(ic / ib) } else { None };
+    let ib_resolution =
+        reading_error(meter, r.vb) * (1.0 / r1 + 1.0 / r2) + reading_error(meter, r.vcc) / r1;
+    let beta = if ib > 2.0 * ib_resolution && ic > 0.0 {
+        Some(ic / ib)
+    } else {
+        None
+    };
     let vbe = r.vb - r.ve;
     let vce = r.vc - r.ve;
     let full_on = r.vcc / (stage.rc.value + re);
-    let region = if !(ic > CUTOFF_FRACTION * full_on) {
+    let region = if ic.is_nan() || ic <= CUTOFF_FRACTION * full_on {
         Region::Cutoff
     } else if libm::fabs(vce) < SATURATION_VCE {
         Region::Saturation
     } else {
         Region::Active
     };
-    Derived { ie, ic, ib, beta, vbe, vce, region }
+    Derived {
+        ie,
+        ic,
+        ib,
+        beta,
+        vbe,
+        vce,
+        region,
+    }
 }
 
 /// Judge the readings against the limits (evaluated at the measured supply).
@@ -295,7 +324,11 @@ pub fn check(
         judge(Node::Ic, derived.ic, limits.ic),
     ];
     let pass = nodes.iter().all(|n| n.ok);
-    Ok(Verdict { pass, nodes, derived })
+    Ok(Verdict {
+        pass,
+        nodes,
+        derived,
+    })
 }
 
 #[cfg(test)]
@@ -336,7 +369,12 @@ mod tests {
 
     #[test]
     fn derived_quantities_follow_ohms_law_and_kcl() {
-        let r = Readings { vcc: 15.0, vb: 2.5, ve: 1.85, vc: 8.4 };
+        let r = Readings {
+            vcc: 15.0,
+            vb: 2.5,
+            ve: 1.85,
+            vc: 8.4,
+        };
         let d = derive(&stage(), &Meter::default(), &r);
         // Ohm's law and KCL at the base (common practice: IB = I(R1) − I(R2)).
         assert!((d.ie.unwrap() - 1.85 / 1010.0).abs() < 1e-12);
@@ -351,11 +389,19 @@ mod tests {
 
     #[test]
     fn a_node_outside_its_window_fails() {
-        let r = Readings { vcc: 15.0, vb: 2.5, ve: 1.85, vc: 14.9 };
+        let r = Readings {
+            vcc: 15.0,
+            vb: 2.5,
+            ve: 1.85,
+            vc: 14.9,
+        };
         let v = check(&stage(), &wide(), &Meter::default(), &r).unwrap();
         assert!(!v.pass);
         let bad: Vec<_> = v.failing().map(|n| n.node).collect();
-        assert!(bad.contains(&Node::Vc) && bad.contains(&Node::Ic), "{bad:?}");
+        assert!(
+            bad.contains(&Node::Vc) && bad.contains(&Node::Ic),
+            "{bad:?}"
+        );
         assert_eq!(v.derived.region, Region::Cutoff);
     }
 
@@ -363,15 +409,34 @@ mod tests {
     fn implausible_readings_are_refused() {
         let s = stage();
         let m = Meter::default();
-        let ok = Readings { vcc: 15.0, vb: 2.5, ve: 1.85, vc: 8.4 };
+        let ok = Readings {
+            vcc: 15.0,
+            vb: 2.5,
+            ve: 1.85,
+            vc: 8.4,
+        };
         assert_eq!(plausible(&s, &m, &ok), Ok(()));
         let low_supply = Readings { vcc: 3.0, ..ok };
-        assert!(matches!(plausible(&s, &m, &low_supply), Err(Implausible::Supply { .. })));
+        assert!(matches!(
+            plausible(&s, &m, &low_supply),
+            Err(Implausible::Supply { .. })
+        ));
         let above = Readings { vc: 16.0, ..ok };
-        assert_eq!(plausible(&s, &m, &above), Err(Implausible::AboveSupply(Node::Vc)));
+        assert_eq!(
+            plausible(&s, &m, &above),
+            Err(Implausible::AboveSupply(Node::Vc))
+        );
         let below = Readings { ve: -0.4, ..ok };
-        assert_eq!(plausible(&s, &m, &below), Err(Implausible::BelowGround(Node::Ve)));
-        let equal = Readings { vb: 0.001, ve: 0.0, vc: 0.002, ..ok };
+        assert_eq!(
+            plausible(&s, &m, &below),
+            Err(Implausible::BelowGround(Node::Ve))
+        );
+        let equal = Readings {
+            vb: 0.001,
+            ve: 0.0,
+            vc: 0.002,
+            ..ok
+        };
         assert_eq!(plausible(&s, &m, &equal), Err(Implausible::AllEqual));
         let nan = Readings { vb: f64::NAN, ..ok };
         assert_eq!(plausible(&s, &m, &nan), Err(Implausible::NotFinite));
@@ -388,7 +453,12 @@ mod tests {
         let mut s = stage();
         s.polarity = Polarity::Pnp;
         // R1 from the supply to the base, R2 from the base to ground.
-        let r = Readings { vcc: 15.0, vb: 12.5, ve: 13.15, vc: 6.6 };
+        let r = Readings {
+            vcc: 15.0,
+            vb: 12.5,
+            ve: 13.15,
+            vc: 6.6,
+        };
         let d = derive(&s, &Meter::default(), &r);
         assert!((d.ie.unwrap() - 1.85 / 1010.0).abs() < 1e-12);
         assert!((d.ic - 6.6 / 3300.0).abs() < 1e-12);
