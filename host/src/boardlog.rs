@@ -21,7 +21,12 @@ pub fn append(path: &Path, record: &Value) -> Result<(), CliError> {
     let mut line = serde_json::to_string(record)
         .map_err(|e| CliError::usage(format!("--log: could not encode the record: {e}")))?;
     line.push('\n');
-    let mut file = OpenOptions::new().create(true).append(true).read(true).open(path).map_err(io)?;
+    let mut file = OpenOptions::new()
+        .create(true)
+        .append(true)
+        .read(true)
+        .open(path)
+        .map_err(io)?;
     if ends_torn(&mut file).map_err(io)? {
         line.insert(0, '\n');
     }
@@ -67,10 +72,13 @@ pub fn read(path: &Path) -> Result<Contents, CliError> {
         }
         match serde_json::from_str::<Value>(line) {
             Ok(v) if v.is_object() => out.records.push(v),
-            _ if k == last && !complete_tail => out
+            _ if k == last && !complete_tail => out.warnings.push(format!(
+                "line {}: torn last record (power cut?) skipped",
+                k + 1
+            )),
+            _ => out
                 .warnings
-                .push(format!("line {}: torn last record (power cut?) skipped", k + 1)),
-            _ => out.warnings.push(format!("line {}: not a complete record, skipped", k + 1)),
+                .push(format!("line {}: not a complete record, skipped", k + 1)),
         }
     }
     Ok(out)
@@ -78,7 +86,9 @@ pub fn read(path: &Path) -> Result<Contents, CliError> {
 
 /// The time now as ISO 8601 UTC, to the second ("2025-03-04T05:06:07Z").
 pub fn now_utc() -> String {
-    let secs = SystemTime::now().duration_since(UNIX_EPOCH).map_or(0, |d| d.as_secs());
+    let secs = SystemTime::now()
+        .duration_since(UNIX_EPOCH)
+        .map_or(0, |d| d.as_secs());
     iso_utc(secs)
 }
 
@@ -96,7 +106,12 @@ pub fn iso_utc(secs: u64) -> String {
     let d = doy - (153 * mp + 2) / 5 + 1;
     let m = if mp < 10 { mp + 3 } else { mp - 9 };
     let y = yoe + era * 400 + i64::from(m <= 2);
-    format!("{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}Z", rem / 3600, rem % 3600 / 60, rem % 60)
+    format!(
+        "{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}Z",
+        rem / 3600,
+        rem % 3600 / 60,
+        rem % 60
+    )
 }
 
 #[cfg(test)]
@@ -131,11 +146,19 @@ mod tests {
         let c = read(&p).unwrap();
         assert_eq!(c.records.len(), 2);
         assert_eq!(c.warnings.len(), 1);
-        assert!(c.warnings[0].contains("line 3") && c.warnings[0].contains("torn"), "{:?}", c.warnings);
+        assert!(
+            c.warnings[0].contains("line 3") && c.warnings[0].contains("torn"),
+            "{:?}",
+            c.warnings
+        );
         // The next record starts on a fresh line.
         append(&p, &json!({"serial": "A4"})).unwrap();
         let c = read(&p).unwrap();
-        let serials: Vec<_> = c.records.iter().map(|r| r["serial"].as_str().unwrap().to_string()).collect();
+        let serials: Vec<_> = c
+            .records
+            .iter()
+            .map(|r| r["serial"].as_str().unwrap().to_string())
+            .collect();
         assert_eq!(serials, ["A1", "A2", "A4"]);
         assert_eq!(c.warnings.len(), 1, "{:?}", c.warnings);
         assert!(c.warnings[0].contains("line 3"));

@@ -39,8 +39,14 @@ pub type Row = Result<(String, Readings), String>;
 /// Parse the CSV text into rows with their line numbers; a missing column is an error for the
 /// whole file.
 pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
-    let mut rdr = csv::ReaderBuilder::new().flexible(true).trim(csv::Trim::All).from_reader(text.as_bytes());
-    let header = rdr.headers().map_err(|e| format!("line 1: header: {e}"))?.clone();
+    let mut rdr = csv::ReaderBuilder::new()
+        .flexible(true)
+        .trim(csv::Trim::All)
+        .from_reader(text.as_bytes());
+    let header = rdr
+        .headers()
+        .map_err(|e| format!("line 1: header: {e}"))?
+        .clone();
     let find = |name: &str| header.iter().position(|h| h.eq_ignore_ascii_case(name));
     let mut cols = Vec::new();
     for name in ["serial", "vcc", "vb", "ve", "vc"] {
@@ -67,17 +73,27 @@ pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
         if rec.iter().all(|f| f.is_empty()) {
             continue;
         }
-        let field = |k: usize| rec.get(cols.get(k).copied().unwrap_or(usize::MAX)).unwrap_or("");
+        let field = |k: usize| {
+            rec.get(cols.get(k).copied().unwrap_or(usize::MAX))
+                .unwrap_or("")
+        };
         let value = |k: usize, name: &str| -> Result<f64, String> {
             let t = field(k);
-            units::parse_signed(t).map_err(|e| format!("column {name}: '{t}': {e}; allowed: a number such as 2.51 or -0.0012"))
+            units::parse_signed(t).map_err(|e| {
+                format!("column {name}: '{t}': {e}; allowed: a number such as 2.51 or -0.0012")
+            })
         };
         let serial = field(0).to_string();
         let row = (|| -> Row {
             if serial.is_empty() {
                 return Err("column serial: empty; every board needs a serial number".into());
             }
-            let r = Readings { vcc: value(1, "vcc")?, vb: value(2, "vb")?, ve: value(3, "ve")?, vc: value(4, "vc")? };
+            let r = Readings {
+                vcc: value(1, "vcc")?,
+                vb: value(2, "vb")?,
+                ve: value(3, "ve")?,
+                vc: value(4, "vc")?,
+            };
             Ok((serial.clone(), r))
         })();
         out.push((line, row));
@@ -91,9 +107,13 @@ impl Cmd {
         let resolved = self.stage.resolve()?;
         let st = Station::new(&resolved, self.meter.meter());
         let text = std::fs::read_to_string(&self.readings).map_err(|e| {
-            CliError::usage(format!("{}: cannot read the readings: {e}", self.readings.display()))
+            CliError::usage(format!(
+                "{}: cannot read the readings: {e}",
+                self.readings.display()
+            ))
         })?;
-        let rows = parse(&text).map_err(|e| CliError::usage(format!("{}: {e}", self.readings.display())))?;
+        let rows = parse(&text)
+            .map_err(|e| CliError::usage(format!("{}: {e}", self.readings.display())))?;
         let (mut passed, mut failed, mut refused, mut bad) = (0u32, 0u32, 0u32, 0u32);
         let mut boards: Vec<Value> = Vec::new();
         let mut errors: Vec<Value> = Vec::new();
@@ -124,11 +144,20 @@ impl Cmd {
                 }
                 boards.push(doc);
             } else {
-                println!("{:<12} {:<8} {}", serial, o.word().to_uppercase(), summary_line(&st, &o));
+                println!(
+                    "{:<12} {:<8} {}",
+                    serial,
+                    o.word().to_uppercase(),
+                    summary_line(&st, &o)
+                );
             }
         }
         let checked = passed + failed + refused;
-        let yield_ = if checked > 0 { f64::from(passed) / f64::from(checked) } else { 0.0 };
+        let yield_ = if checked > 0 {
+            f64::from(passed) / f64::from(checked)
+        } else {
+            0.0
+        };
         if g.json {
             json::print(&json!({
                 "boards": boards,

@@ -94,13 +94,28 @@ impl Station {
         let (id, hash, var) = match &r.doc {
             // The design's ambient range, unless --temp moved the ambient.
             Some(d) if d.temp_c == r.temp_c && d.temp_max > d.temp_min => {
-                let var = Variation { temp_min_c: d.temp_min, temp_max_c: d.temp_max, ..Variation::at(r.temp_c) };
+                let var = Variation {
+                    temp_min_c: d.temp_min,
+                    temp_max_c: d.temp_max,
+                    ..Variation::at(r.temp_c)
+                };
                 (d.id.clone(), d.hash.clone(), var)
             }
             Some(d) => (d.id.clone(), d.hash.clone(), Variation::at(r.temp_c)),
-            None => ("flags".to_string(), stage_hash(&r.stage, &r.profile), Variation::at(r.temp_c)),
+            None => (
+                "flags".to_string(),
+                stage_hash(&r.stage, &r.profile),
+                Variation::at(r.temp_c),
+            ),
         };
-        Self { stage: r.stage, profile: r.profile, var, meter, id, hash }
+        Self {
+            stage: r.stage,
+            profile: r.profile,
+            var,
+            meter,
+            id,
+            hash,
+        }
     }
 }
 
@@ -132,14 +147,33 @@ pub fn board_limits(st: &Station, vcc: f64) -> Result<Limits, CliError> {
             stage.vcc.value = vcc;
             for (k, r) in Resistor::ALL.iter().enumerate() {
                 let part = stage.part_mut(*r);
-                let edge = if corner & (1 << k) != 0 { 1.0 + part.tol } else { 1.0 - part.tol };
+                let edge = if corner & (1 << k) != 0 {
+                    1.0 + part.tol
+                } else {
+                    1.0 - part.tol
+                };
                 part.value *= edge;
             }
-            let beta = if corner & 32 != 0 { p.beta_max } else { p.beta_min };
-            let op = solve(&stage, p, Conditions { temp_c: t, beta_25: beta, fault: None })
-                .map_err(|e| CliError::usage(format!("stage: {e}")))?;
+            let beta = if corner & 32 != 0 {
+                p.beta_max
+            } else {
+                p.beta_min
+            };
+            let op = solve(
+                &stage,
+                p,
+                Conditions {
+                    temp_c: t,
+                    beta_25: beta,
+                    fault: None,
+                },
+            )
+            .map_err(|e| CliError::usage(format!("stage: {e}")))?;
             let ic = ic_of(s, vcc, op.vc);
-            for (k, v) in [op.vb, op.ve, op.vc, op.vbe, op.vce, ic].into_iter().enumerate() {
+            for (k, v) in [op.vb, op.ve, op.vc, op.vbe, op.vce, ic]
+                .into_iter()
+                .enumerate()
+            {
                 lo[k] = lo[k].min(v);
                 hi[k] = hi[k].max(v);
             }
@@ -147,7 +181,10 @@ pub fn board_limits(st: &Station, vcc: f64) -> Result<Limits, CliError> {
     }
     let m = &st.meter;
     let e = |v: f64| biasjig_core::check::reading_error(m, v);
-    let w = |k: usize, g: f64| Window { low: lo[k] - g, high: hi[k] + g };
+    let w = |k: usize, g: f64| Window {
+        low: lo[k] - g,
+        high: hi[k] + g,
+    };
     let big = |k: usize| lo[k].abs().max(hi[k].abs());
     Ok(Limits {
         vcc,
@@ -171,7 +208,7 @@ fn ic_of(s: &Stage, vcc: f64, vc: f64) -> f64 {
 #[derive(Debug, Clone)]
 pub enum Outcome {
     /// Judged: the verdict, and a diagnosis when it failed.
-    Judged(Verdict, Option<Diagnosis>),
+    Judged(Verdict, Option<Box<Diagnosis>>),
     /// Refused before judgement.
     Refused(Implausible),
 }
@@ -202,7 +239,7 @@ pub fn evaluate(st: &Station, r: &Readings) -> Result<Outcome, CliError> {
     }
     let d = diagnose(&st.stage, &st.profile, r, &st.meter, &st.var)
         .map_err(|e| CliError::usage(format!("diagnosis: {e}")))?;
-    Ok(Outcome::Judged(verdict, Some(d)))
+    Ok(Outcome::Judged(verdict, Some(Box::new(d))))
 }
 
 /// The listed faults of a diagnosis: best first, the good-board hypothesis left out.
@@ -299,13 +336,17 @@ fn unit_of(name: &str) -> &'static str {
 /// A fault in plain words.
 pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
     match h.suspect {
-        Suspect::Good => "the readings are close to a good board: re-probe and measure again".into(),
+        Suspect::Good => {
+            "the readings are close to a good board: re-probe and measure again".into()
+        }
         Suspect::Resistor(r, mode) => {
             let nominal = stage.resistor(r);
             let name = r.name();
             match (mode, h.estimate) {
                 (ResistorMode::Open, _) => format!("{name} open (missing, cracked or a dry joint)"),
-                (ResistorMode::Short, _) => format!("{name} shorted (a solder bridge or a wrong part)"),
+                (ResistorMode::Short, _) => {
+                    format!("{name} shorted (a solder bridge or a wrong part)")
+                }
                 (_, Some(est)) => {
                     let ratio = est / nominal;
                     let why = if (0.08..0.125).contains(&ratio) || (8.0..12.5).contains(&ratio) {
@@ -333,7 +374,9 @@ pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
             DeviceFault::BeShort => "Q: base shorted to emitter".into(),
             DeviceFault::BcShort => "Q: base shorted to collector".into(),
             DeviceFault::CeShort => "Q: collector shorted to emitter".into(),
-            DeviceFault::Reversed => "Q fitted the wrong way round (collector and emitter swapped)".into(),
+            DeviceFault::Reversed => {
+                "Q fitted the wrong way round (collector and emitter swapped)".into()
+            }
         },
     }
 }
@@ -422,12 +465,17 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, o: &Outcome) -> String {
                         describe(&st.stage, h),
                         100.0 * h.score
                     ));
-                    let eq: Vec<Suspect> =
-                        d.equivalents(h).filter(|e| e.suspect.is_fault()).map(|e| e.suspect).collect();
+                    let eq: Vec<Suspect> = d
+                        .equivalents(h)
+                        .filter(|e| e.suspect.is_fault())
+                        .map(|e| e.suspect)
+                        .collect();
                     if !eq.is_empty() && !seen.contains(&h.group) {
                         seen.push(h.group);
-                        let names: Vec<String> =
-                            eq.iter().map(|s| format!("{} {}", s.part(), s.mode())).collect();
+                        let names: Vec<String> = eq
+                            .iter()
+                            .map(|s| format!("{} {}", s.part(), s.mode()))
+                            .collect();
                         let mut all = eq.clone();
                         all.push(h.suspect);
                         out.push_str(&format!(
@@ -447,7 +495,9 @@ impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
         let Some(measured_vcc) = self.stage.vcc else {
-            return Err(CliError::usage("--vcc: missing: give the supply as measured on the board"));
+            return Err(CliError::usage(
+                "--vcc: missing: give the supply as measured on the board",
+            ));
         };
         // With a design file, the file's supply is the nominal and --vcc the measured one.
         let mut args = self.stage.clone();
@@ -456,7 +506,12 @@ impl Cmd {
         }
         let resolved = args.resolve()?;
         let st = Station::new(&resolved, self.meter.meter());
-        let r = Readings { vcc: measured_vcc, vb: self.vb, ve: self.ve, vc: self.vc };
+        let r = Readings {
+            vcc: measured_vcc,
+            vb: self.vb,
+            ve: self.ve,
+            vc: self.vc,
+        };
         let o = evaluate(&st, &r)?;
         if let Some(path) = &self.log {
             boardlog::append(path, &log_record(&st, self.serial.as_deref(), &r, &o))?;

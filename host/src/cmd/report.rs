@@ -12,8 +12,14 @@ use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::{json, Global};
 
 /// The judged nodes with their units.
-const NODES: [(&str, &str); 6] =
-    [("vb", "V"), ("ve", "V"), ("vc", "V"), ("vbe", "V"), ("vce", "V"), ("ic", "A")];
+const NODES: [(&str, &str); 6] = [
+    ("vb", "V"),
+    ("ve", "V"),
+    ("vc", "V"),
+    ("vbe", "V"),
+    ("vce", "V"),
+    ("ic", "A"),
+];
 
 /// `biasjig report`.
 #[derive(clap::Args, Debug)]
@@ -78,7 +84,11 @@ pub fn build(records: &[Value]) -> Report {
                 rep.passed += 1;
                 for (k, (name, _)) in NODES.iter().enumerate() {
                     let n = &r["nodes"][name];
-                    if let (Some(m), Some(lo), Some(hi)) = (n["measured"].as_f64(), n["low"].as_f64(), n["high"].as_f64()) {
+                    if let (Some(m), Some(lo), Some(hi)) = (
+                        n["measured"].as_f64(),
+                        n["low"].as_f64(),
+                        n["high"].as_f64(),
+                    ) {
                         values[k].push(m);
                         lows[k].push(lo);
                         highs[k].push(hi);
@@ -103,7 +113,13 @@ pub fn build(records: &[Value]) -> Report {
     }
     pareto.sort_by(|a, b| b.1.cmp(&a.1).then(a.0.cmp(&b.0)));
     rep.pareto = pareto;
-    let mean = |v: &[f64]| if v.is_empty() { f64::NAN } else { v.iter().sum::<f64>() / v.len() as f64 };
+    let mean = |v: &[f64]| {
+        if v.is_empty() {
+            f64::NAN
+        } else {
+            v.iter().sum::<f64>() / v.len() as f64
+        }
+    };
     for (k, (name, unit)) in NODES.iter().enumerate() {
         let v = std::mem::take(&mut values[k]);
         let m = mean(&v);
@@ -113,8 +129,21 @@ pub fn build(records: &[Value]) -> Report {
             f64::NAN
         };
         let (low, high) = (mean(&lows[k]), mean(&highs[k]));
-        let cpk = if std > 0.0 { Some((high - m).min(m - low) / (3.0 * std)) } else { None };
-        rep.nodes.push(NodeStats { name, unit, values: v, mean: m, std, low, high, cpk });
+        let cpk = if std > 0.0 {
+            Some((high - m).min(m - low) / (3.0 * std))
+        } else {
+            None
+        };
+        rep.nodes.push(NodeStats {
+            name,
+            unit,
+            values: v,
+            mean: m,
+            std,
+            low,
+            high,
+            cpk,
+        });
     }
     rep
 }
@@ -144,7 +173,11 @@ pub fn histogram(n: &NodeStats) -> Result<String, String> {
             counts[k] += 1;
         }
         let top = counts.iter().copied().max().unwrap_or(1).max(1);
-        let caption = format!("{} ({}) of passing boards; window dashed", n.name.to_uppercase(), n.unit);
+        let caption = format!(
+            "{} ({}) of passing boards; window dashed",
+            n.name.to_uppercase(),
+            n.unit
+        );
         let mut chart = ChartBuilder::on(&root)
             .caption(caption, ("sans-serif", 16))
             .margin(10)
@@ -152,7 +185,11 @@ pub fn histogram(n: &NodeStats) -> Result<String, String> {
             .y_label_area_size(40)
             .build_cartesian_2d(lo..hi, 0u32..top + 1)
             .map_err(|e| e.to_string())?;
-        chart.configure_mesh().disable_x_mesh().draw().map_err(|e| e.to_string())?;
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .draw()
+            .map_err(|e| e.to_string())?;
         chart
             .draw_series(counts.iter().enumerate().map(|(k, c)| {
                 let x0 = lo + width * k as f64;
@@ -162,7 +199,12 @@ pub fn histogram(n: &NodeStats) -> Result<String, String> {
         for edge in [n.low, n.high] {
             if edge.is_finite() {
                 chart
-                    .draw_series(DashedLineSeries::new(vec![(edge, 0), (edge, top + 1)], 6, 4, RED.stroke_width(2)))
+                    .draw_series(DashedLineSeries::new(
+                        vec![(edge, 0), (edge, top + 1)],
+                        6,
+                        4,
+                        RED.stroke_width(2),
+                    ))
                     .map_err(|e| e.to_string())?;
             }
         }
@@ -173,7 +215,11 @@ pub fn histogram(n: &NodeStats) -> Result<String, String> {
 
 fn text_report(rep: &Report) -> String {
     let judged = rep.passed + rep.failed;
-    let rate = if judged > 0 { 100.0 * f64::from(rep.passed) / f64::from(judged) } else { 0.0 };
+    let rate = if judged > 0 {
+        100.0 * f64::from(rep.passed) / f64::from(judged)
+    } else {
+        0.0
+    };
     let mut out = format!(
         "{} boards: {} passed, {} failed, {} refused; pass rate {rate:.1} %\n",
         judged + rep.refused,
@@ -203,7 +249,9 @@ fn text_report(rep: &Report) -> String {
 }
 
 fn escape(s: &str) -> String {
-    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;")
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
 }
 
 impl Cmd {
@@ -228,7 +276,8 @@ impl Cmd {
                 .map_err(|e| CliError::usage(format!("--svg-dir: {}: {e}", dir.display())))?;
             for (name, svg) in &svgs {
                 let p = dir.join(format!("{name}.svg"));
-                std::fs::write(&p, svg).map_err(|e| CliError::usage(format!("--svg-dir: {}: {e}", p.display())))?;
+                std::fs::write(&p, svg)
+                    .map_err(|e| CliError::usage(format!("--svg-dir: {}: {e}", p.display())))?;
             }
         }
         let text = text_report(&rep);
@@ -243,7 +292,8 @@ impl Cmd {
                 page.push_str(&format!("<figure>{svg}</figure>\n"));
             }
             page.push_str("</body></html>\n");
-            std::fs::write(path, page).map_err(|e| CliError::usage(format!("--html: {}: {e}", path.display())))?;
+            std::fs::write(path, page)
+                .map_err(|e| CliError::usage(format!("--html: {}: {e}", path.display())))?;
         }
         if g.json {
             let judged = rep.passed + rep.failed;
@@ -251,9 +301,12 @@ impl Cmd {
                 .nodes
                 .iter()
                 .map(|n| {
-                    (n.name.to_string(), json!({"mean": json::num(n.mean), "std": json::num(n.std),
+                    (
+                        n.name.to_string(),
+                        json!({"mean": json::num(n.mean), "std": json::num(n.std),
                         "low": json::num(n.low), "high": json::num(n.high), "cpk": json::opt(n.cpk),
-                        "boards": n.values.len()}))
+                        "boards": n.values.len()}),
+                    )
                 })
                 .collect();
             json::print(&json!({
@@ -280,7 +333,10 @@ mod tests {
 
     fn rec(verdict: &str, vb: f64, fault: Option<(&str, &str)>) -> Value {
         let node = |m: f64| json!({"measured": m, "low": 2.0, "high": 3.0, "ok": true});
-        let faults: Vec<Value> = fault.map(|(p, m)| json!({"part": p, "mode": m})).into_iter().collect();
+        let faults: Vec<Value> = fault
+            .map(|(p, m)| json!({"part": p, "mode": m}))
+            .into_iter()
+            .collect();
         json!({"verdict": verdict, "nodes": {"vb": node(vb), "ve": node(vb), "vc": node(vb),
                "vbe": node(vb), "vce": node(vb), "ic": node(vb)}, "faults": faults})
     }
