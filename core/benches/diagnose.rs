@@ -1,10 +1,8 @@
 //! Cost of one diagnosis: a fixed set of invented boards (good and faulty), diagnosed once each.
 //!
-//! Deterministic instruction counts, not time: build and count with
-//! `cargo bench -p biasjig-core --bench diagnose --no-run` and then
-//! `valgrind --tool=callgrind --toggle-collect='*diagnose::diagnose*' <bench binary>`
-//! (the printed total divided by the number of boards is the cost of one diagnosis). Run
-//! plainly, the binary prints the solves each diagnosis spent.
+//! Deterministic instruction counts, not time: `scripts/instructions.sh diagnose` (callgrind;
+//! the convention of that script: `--counts` names N1 N2 and the unit, a bare count N runs N
+//! diagnoses cycling over the boards). The goal: one diagnosis within about 5 M instructions.
 
 use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::diagnose::diagnose;
@@ -44,10 +42,19 @@ fn main() {
         Some(Fault::Device(DeviceFault::BcShort)),
         Some(Fault::Value(Resistor::R2, 7.5e3)),
     ];
+    let args: Vec<String> = std::env::args().collect();
+    if args.iter().any(|a| a == "--counts") {
+        println!("6 30 diagnosis");
+        return;
+    }
+    let n: usize = args
+        .get(1)
+        .and_then(|a| a.parse().ok())
+        .unwrap_or(faults.len());
     let meter = Meter::default();
     let var = Variation::at(25.0);
     let mut total = 0u32;
-    for f in faults {
+    for f in faults.iter().cycle().take(n).copied() {
         let (s, dev) = match f {
             Some(Fault::Device(d)) => (stage, Some(d)),
             Some(f) => (stage.with_fault(f), None),
@@ -70,8 +77,10 @@ fn main() {
         if let Ok(d) = diagnose(&stage, &profile, std::hint::black_box(&r), &meter, &var) {
             total += d.solves;
             let best = d.best().map(|h| (h.suspect.part(), h.suspect.mode()));
-            println!("{f:?}: best {best:?}, {} solves", d.solves);
+            if n <= faults.len() {
+                println!("{f:?}: best {best:?}, {} solves", d.solves);
+            }
         }
     }
-    println!("{} diagnoses, {total} solves", faults.len());
+    println!("{n} diagnoses, {total} solves");
 }

@@ -6,7 +6,7 @@
 //! beyond the meter error, every node at the same voltage) are refused with a reason that tells
 //! the technician what to fix, and are not judged.
 
-use crate::limits::{Limits, Meter, Window};
+use crate::limits::{derived_ic, Limits, Meter, Window};
 use crate::solve::Region;
 use crate::stage::{Polarity, Readings, Stage};
 
@@ -183,7 +183,7 @@ fn upper(n: Node) -> &'static str {
 
 /// The worst-case error of one reading of `v` volts with `meter`, V.
 pub fn reading_error(meter: &Meter, v: f64) -> f64 {
-    (meter.gain_error + meter.divider_tol) * libm::fabs(v) + meter.offset
+    meter.error(v)
 }
 
 /// The supply window in which a board counts as powered: the nominal ± the larger of the
@@ -233,21 +233,6 @@ pub fn plausible(stage: &Stage, meter: &Meter, r: &Readings) -> Result<(), Impla
     Ok(())
 }
 
-/// Collector current derived from the readings with the nominal RC, A: (VCC − VC)/RC for NPN,
-/// VC/RC for PNP.
-fn collector_current(stage: &Stage, vcc: f64, vc: f64) -> f64 {
-    let rc = stage.rc.value;
-    let drop = match stage.polarity {
-        Polarity::Npn => vcc - vc,
-        Polarity::Pnp => vc,
-    };
-    if rc > 0.0 && rc.is_finite() {
-        drop / rc
-    } else {
-        0.0
-    }
-}
-
 /// IE, IC, IB, hFE, VBE, VCE and the region from the readings and the nominal resistors.
 pub fn derive(stage: &Stage, meter: &Meter, r: &Readings) -> Derived {
     let re = stage.re_total();
@@ -259,7 +244,7 @@ pub fn derive(stage: &Stage, meter: &Meter, r: &Readings) -> Derived {
     } else {
         None
     };
-    let ic = collector_current(stage, r.vcc, r.vc);
+    let ic = derived_ic(stage, r.vcc, r.vc);
     let (r1, r2) = (stage.r1.value, stage.r2.value);
     let i_r1 = (r.vcc - r.vb) / r1;
     let i_r2 = r.vb / r2;

@@ -21,7 +21,7 @@
 //! When even the best hypothesis misfits by more than [`UNEXPLAINED_CHI2`], the diagnosis says
 //! that no single fault explains the readings, and still ranks the nearest ones.
 //!
-//! Cost: about 700 operating-point solves (a few thousand instructions each) per diagnosis.
+//! Cost: 826 operating-point solves, about 2.5 M instructions (x86-64, callgrind) per diagnosis.
 
 use heapless::Vec;
 

@@ -6,10 +6,10 @@
 
 use std::collections::BTreeMap;
 
-use biasjig_core::check::{check, reading_error};
+use biasjig_core::check::check;
 use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::diagnose::{diagnose, Diagnosis, ResistorMode, Suspect};
-use biasjig_core::limits::{Limits, Meter, Window};
+use biasjig_core::limits::{limits, Meter, Window};
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::Variation;
 use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Readings, Resistor, Stage};
@@ -114,65 +114,6 @@ fn readings_of(s: &Stage, p: &Profile, beta: f64, fault: Option<Fault>) -> Optio
     })
 }
 
-/// Worst-case windows at a supply: every resistor at either tolerance edge, hFE at either end,
-/// widened by the meter error (a stand-in for the limits of the spread issue).
-pub fn corner_limits(s: &Stage, p: &Profile, meter: &Meter, vcc: f64) -> Limits {
-    let mut lo = [f64::INFINITY; 6];
-    let mut hi = [f64::NEG_INFINITY; 6];
-    for corner in 0..64u32 {
-        let mut st = *s;
-        st.vcc.value = vcc;
-        for (k, r) in Resistor::ALL.iter().enumerate() {
-            let part = st.part_mut(*r);
-            part.value *= if corner & (1 << k) != 0 {
-                1.0 + part.tol
-            } else {
-                1.0 - part.tol
-            };
-        }
-        let beta = if corner & 32 != 0 {
-            p.beta_max
-        } else {
-            p.beta_min
-        };
-        let op = solve(
-            &st,
-            p,
-            Conditions {
-                temp_c: 25.0,
-                beta_25: beta,
-                fault: None,
-            },
-        )
-        .unwrap();
-        let ic = match s.polarity {
-            Polarity::Npn => (vcc - op.vc) / s.rc.value,
-            Polarity::Pnp => op.vc / s.rc.value,
-        };
-        for (k, v) in [op.vb, op.ve, op.vc, op.vbe, op.vce, ic]
-            .into_iter()
-            .enumerate()
-        {
-            lo[k] = lo[k].min(v);
-            hi[k] = hi[k].max(v);
-        }
-    }
-    let e = |v: f64| reading_error(meter, v);
-    let w = |k: usize, g: f64| Window {
-        low: lo[k] - g,
-        high: hi[k] + g,
-    };
-    Limits {
-        vcc,
-        vb: w(0, e(hi[0])),
-        ve: w(1, e(hi[1])),
-        vc: w(2, e(hi[2])),
-        vbe: w(3, e(lo[3].abs().max(hi[3].abs())) * 2.0),
-        vce: w(4, e(lo[4].abs().max(hi[4].abs())) * 2.0),
-        ic: w(5, (e(vcc) + e(hi[2])) / s.rc.value),
-    }
-}
-
 fn all_faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, Fault)> {
     let mut v = Vec::new();
     for r in Resistor::ALL {
@@ -255,7 +196,7 @@ fn seeded_sweep_of_good_and_faulty_boards() {
                 ve: clean.ve + rng.range(-noise, noise),
                 vc: clean.vc + rng.range(-noise, noise),
             };
-            let limits = corner_limits(&design, &prof, &meter, r.vcc);
+            let limits = limits(&design, &prof, &var, &meter, r.vcc).unwrap();
             let Ok(verdict) = check(&design, &limits, &meter, &r) else {
                 // Plausibility refusals are counted as failures of detection below.
                 if let Some((truth, _)) = fault {

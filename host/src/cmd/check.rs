@@ -10,10 +10,9 @@ use std::path::PathBuf;
 use biasjig_core::check::{check, Implausible, Verdict};
 use biasjig_core::device::Profile;
 use biasjig_core::diagnose::{diagnose, Diagnosis, Hypothesis, ResistorMode, Suspect};
-use biasjig_core::limits::{Limits, Meter, Window};
-use biasjig_core::solve::{solve, Conditions};
+use biasjig_core::limits::{self, Limits, Meter};
 use biasjig_core::spread::Variation;
-use biasjig_core::stage::{DeviceFault, Polarity, Readings, Resistor, Stage};
+use biasjig_core::stage::{DeviceFault, Readings, Stage};
 use serde_json::{json, Value};
 
 use crate::boardlog;
@@ -130,85 +129,18 @@ pub fn stage_hash(stage: &Stage, profile: &Profile) -> String {
     format!("{h:016x}")
 }
 
-/// The pass windows at the measured supply.
-///
-/// Stand-in until `limits::limits` of the spread issue is merged: the worst case over every
-/// resistor at either tolerance edge and hFE at either end of its spread (the exact engine at
-/// each corner, at both ends of the ambient range), widened by the meter error.
+/// The pass windows at the measured supply (worst case over the parts, hFE and the ambient
+/// range, guard-banded for the meter).
 pub fn board_limits(st: &Station, vcc: f64) -> Result<Limits, CliError> {
-    let s = &st.stage;
-    let p = &st.profile;
-    let mut lo = [f64::INFINITY; 6];
-    let mut hi = [f64::NEG_INFINITY; 6];
-    let temps = [st.var.temp_min_c, st.var.temp_max_c];
-    for corner in 0..64u32 {
-        for t in temps {
-            let mut stage = *s;
-            stage.vcc.value = vcc;
-            for (k, r) in Resistor::ALL.iter().enumerate() {
-                let part = stage.part_mut(*r);
-                let edge = if corner & (1 << k) != 0 {
-                    1.0 + part.tol
-                } else {
-                    1.0 - part.tol
-                };
-                part.value *= edge;
-            }
-            let beta = if corner & 32 != 0 {
-                p.beta_max
-            } else {
-                p.beta_min
-            };
-            let op = solve(
-                &stage,
-                p,
-                Conditions {
-                    temp_c: t,
-                    beta_25: beta,
-                    fault: None,
-                },
-            )
-            .map_err(|e| CliError::usage(format!("stage: {e}")))?;
-            let ic = ic_of(s, vcc, op.vc);
-            for (k, v) in [op.vb, op.ve, op.vc, op.vbe, op.vce, ic]
-                .into_iter()
-                .enumerate()
-            {
-                lo[k] = lo[k].min(v);
-                hi[k] = hi[k].max(v);
-            }
-        }
-    }
-    let m = &st.meter;
-    let e = |v: f64| biasjig_core::check::reading_error(m, v);
-    let w = |k: usize, g: f64| Window {
-        low: lo[k] - g,
-        high: hi[k] + g,
-    };
-    let big = |k: usize| lo[k].abs().max(hi[k].abs());
-    Ok(Limits {
-        vcc,
-        vb: w(0, e(big(0))),
-        ve: w(1, e(big(1))),
-        vc: w(2, e(big(2))),
-        vbe: w(3, e(big(0)) + e(big(1))),
-        vce: w(4, e(big(2)) + e(big(1))),
-        ic: w(5, (e(vcc) + e(big(2))) / s.rc.value),
-    })
-}
-
-fn ic_of(s: &Stage, vcc: f64, vc: f64) -> f64 {
-    match s.polarity {
-        Polarity::Npn => (vcc - vc) / s.rc.value,
-        Polarity::Pnp => vc / s.rc.value,
-    }
+    limits::limits(&st.stage, &st.profile, &st.var, &st.meter, vcc)
+        .map_err(|e| CliError::usage(format!("limits: {e}")))
 }
 
 /// The result of checking one board.
 #[derive(Debug, Clone)]
 pub enum Outcome {
     /// Judged: the verdict, and a diagnosis when it failed.
-    Judged(Verdict, Option<Box<Diagnosis>>),
+    Judged(Box<Verdict>, Option<Box<Diagnosis>>),
     /// Refused before judgement.
     Refused(Implausible),
 }
@@ -235,11 +167,11 @@ pub fn evaluate(st: &Station, r: &Readings) -> Result<Outcome, CliError> {
         Err(why) => return Ok(Outcome::Refused(why)),
     };
     if verdict.pass {
-        return Ok(Outcome::Judged(verdict, None));
+        return Ok(Outcome::Judged(Box::new(verdict), None));
     }
     let d = diagnose(&st.stage, &st.profile, r, &st.meter, &st.var)
         .map_err(|e| CliError::usage(format!("diagnosis: {e}")))?;
-    Ok(Outcome::Judged(verdict, Some(Box::new(d))))
+    Ok(Outcome::Judged(Box::new(verdict), Some(Box::new(d))))
 }
 
 /// The listed faults of a diagnosis: best first, the good-board hypothesis left out.
