@@ -11,6 +11,8 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+use crate::error::{CliError, CmdResult};
+
 mod boardlog;
 mod cmd;
 mod designfile;
@@ -73,10 +75,20 @@ enum Command {
     Demo(cmd::demo::Cmd),
 }
 
-fn main() -> ExitCode {
-    let cli = Cli::parse();
+/// Run one command line (the program name first) as the binary would, for commands that run
+/// others (the demo).
+pub(crate) fn run_args<I, T>(args: I) -> CmdResult
+where
+    I: IntoIterator<Item = T>,
+    T: Into<std::ffi::OsString> + Clone,
+{
+    let cli = Cli::try_parse_from(args).map_err(|e| CliError::usage(e.to_string()))?;
+    dispatch(&cli)
+}
+
+fn dispatch(cli: &Cli) -> CmdResult {
     let g = &cli.global;
-    let result = match &cli.command {
+    match &cli.command {
         Command::Analyze(c) => c.run(g),
         Command::Design(c) => c.run(g),
         Command::Spread(c) => c.run(g),
@@ -88,8 +100,12 @@ fn main() -> ExitCode {
         Command::Station(c) => c.run(g),
         Command::Ports(c) => c.run(g),
         Command::Demo(c) => c.run(g),
-    };
-    match result {
+    }
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match dispatch(&cli) {
         Ok(code) => ExitCode::from(code),
         Err(e) => {
             eprintln!("biasjig: error: {e}");

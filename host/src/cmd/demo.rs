@@ -1,16 +1,196 @@
-//! `biasjig demo`: the whole job on the built-in demo scenario (a vibration-sensor preamp for
-//! pump monitoring; invented figures).
+//! `biasjig demo`: the whole job on the built-in demo scenario, a vibration-sensor preamplifier
+//! for pump monitoring (invented figures): design, analysis, spread, test limits, then a
+//! simulated production lot of 40 boards checked on the station, logged and reported, and one
+//! failed board in detail.
+//!
+//! The demo runs the same commands a user would, with the same code paths, and writes its files
+//! (design, readings, log, report) into one folder.
 
-use crate::error::{CmdResult, EXIT_OK};
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+
+use biasjig_core::solve::{solve, Conditions};
+use biasjig_core::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
+use rand_core::{Rng, SeedableRng};
+use rand_xoshiro::Xoshiro256PlusPlus;
+
+use crate::designfile;
+use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 use crate::Global;
 
-/// `biasjig demo`.
+/// `biasjig demo`: no arguments needed.
 #[derive(clap::Args, Debug)]
-pub struct Cmd {}
+pub struct Cmd {
+    /// Folder for the demo's files [default: biasjig-demo in the system's temporary folder]
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
+    /// Boards in the simulated production lot
+    #[arg(long, default_value_t = 40, value_parser = clap::value_parser!(u32).range(1..=10_000))]
+    boards: u32,
+    /// Seed of the simulated lot
+    #[arg(long, default_value_t = 2026)]
+    seed: u64,
+}
+
+/// The demo requirement as command-line arguments (the scenario of the product brief).
+const REQUIREMENT: [&str; 24] = [
+    "--vcc", "12", "--gain", "15", "--rl", "15k", "--rs", "600", "--ic-max", "2m", "--f-low", "5",
+    "--temp-min", "-10", "--temp-max", "55", "--beta", "180", "--beta-min", "100", "--beta-max",
+    "300", "--series", "E24",
+];
+
+/// The invented transistor profile beyond hFE: VBE 0.65 V at 1 mA, VCE(sat) 0.2 V, 300 mW.
+const TRANSISTOR: [&str; 6] = ["--vbe", "0.65", "--vce-sat", "0.2", "--power-rating", "0.3"];
+
+/// Boards of the lot that carry a fault, by position, and the fault.
+fn planted_fault(index: u32, stage: &Stage) -> Option<(Option<Fault>, Option<DeviceFault>)> {
+    match index {
+        7 => Some((Some(Fault::Value(Resistor::Rc, stage.rc.value * 10.0)), None)),
+        19 => Some((Some(Fault::Open(Resistor::Re2)), None)),
+        31 => Some((None, Some(DeviceFault::BeShort))),
+        _ => None,
+    }
+}
+
+fn heading(title: &str) {
+    println!();
+    println!("━━ {title} {}", "━".repeat(70usize.saturating_sub(title.chars().count())));
+}
+
+fn run(args: &[&str]) -> CmdResult {
+    let mut full = vec!["biasjig"];
+    full.extend_from_slice(args);
+    println!("$ {}", full.join(" "));
+    crate::run_args(full)
+}
+
+fn path_str(p: &Path) -> String {
+    p.to_string_lossy().into_owned()
+}
+
+/// Simulate one board: every resistor within its tolerance, hFE within its spread, the station's
+/// ambient and supply, optionally a fault; readings with a few millivolts of meter noise.
+fn board(
+    doc: &designfile::DesignDoc,
+    rng: &mut Xoshiro256PlusPlus,
+    fault: Option<(Option<Fault>, Option<DeviceFault>)>,
+) -> Option<Readings> {
+    let mut uniform = |lo: f64, hi: f64| {
+        let u = (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64;
+        lo + (hi - lo) * u
+    };
+    let mut s = doc.stage;
+    for r in Resistor::ALL {
+        let p = s.part_mut(r);
+        p.value *= 1.0 + p.tol * uniform(-1.0, 1.0);
+    }
+    s.vcc.value = uniform(11.8, 12.2);
+    let beta = uniform(doc.profile.beta_min, doc.profile.beta_max);
+    let temp = uniform(20.0, 30.0);
+    let (rf, df) = fault.unwrap_or((None, None));
+    if let Some(f) = rf {
+        s = s.with_fault(f);
+    }
+    let cond = Conditions { temp_c: temp, beta_25: beta, fault: df };
+    let op = solve(&s, &doc.profile, cond).ok()?;
+    let mut noisy = |v: f64| v + uniform(-0.003, 0.003);
+    Some(Readings { vcc: noisy(s.vcc.value), vb: noisy(op.vb), ve: noisy(op.ve), vc: noisy(op.vc) })
+}
 
 impl Cmd {
     /// Run the command.
-    pub fn run(&self, _g: &Global) -> CmdResult {
+    pub fn run(&self, g: &Global) -> CmdResult {
+        if g.json {
+            return Err(CliError::usage(
+                "--json: the demo prints a report for a person; run its commands with --json instead",
+            ));
+        }
+        let dir = self.out.clone().unwrap_or_else(|| std::env::temp_dir().join("biasjig-demo"));
+        std::fs::create_dir_all(&dir).map_err(|e| {
+            CliError::usage(format!("--out: {}: cannot create the folder: {e}", dir.display()))
+        })?;
+        let design = dir.join("preamp.toml");
+        let readings = dir.join("lot.csv");
+        let log = dir.join("boards.jsonl");
+        let html = dir.join("yield.html");
+        // A fresh log for every demo run, so the report speaks of this lot only.
+        if log.exists() {
+            std::fs::remove_file(&log).map_err(|e| {
+                CliError::usage(format!("--out: {}: cannot replace the log: {e}", log.display()))
+            })?;
+        }
+
+        println!("biasjig demo: a vibration-sensor preamp for pump monitoring (invented scenario)");
+        println!("12 V rail, 15 kΩ load, gain 15 from a 600 Ω source, low corner <= 5 Hz,");
+        println!("IC <= 2 mA, ambient -10 to +55 °C, E24 5 % resistors, E6 20 % capacitors;");
+        println!("an invented small-signal NPN profile: hFE 100 to 300, VBE 0.65 V at 1 mA.");
+        println!("Files go to {}.", dir.display());
+        println!("Safety: de-energise boards before changing probes or parts; keep jig inputs within");
+        println!("their rated range; no mains-connected circuits without isolation.");
+
+        heading("1. Design: from the requirement to standard parts");
+        let mut args: Vec<&str> = vec!["design"];
+        args.extend_from_slice(&REQUIREMENT);
+        args.extend_from_slice(&TRANSISTOR);
+        let design_s = path_str(&design);
+        args.extend_from_slice(&["--id", "pump-preamp-demo", "-o", &design_s]);
+        run(&args)?;
+
+        heading("2. Spread: tolerance, hFE spread and ambient");
+        run(&[
+            "spread", "--design", &design_s, "--runs", "5000", "--seed", "7", "--temp-min", "-10",
+            "--temp-max", "55",
+        ])?;
+
+        heading("3. Test limits for the station (0.5 % + 5 mV meter)");
+        run(&["limits", "--design", &design_s, "--meter", "0.5"])?;
+
+        heading("4. A production lot on the station");
+        let doc = designfile::load(&design)?;
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(self.seed);
+        let mut csv = String::from("serial,vcc,vb,ve,vc\n");
+        let mut first_failed = None;
+        for i in 1..=self.boards {
+            let fault = planted_fault(i, &doc.stage);
+            if let Some(r) = board(&doc, &mut rng, fault) {
+                let serial = format!("PM-{i:04}");
+                let _ = writeln!(csv, "{serial},{:.4},{:.4},{:.4},{:.4}", r.vcc, r.vb, r.ve, r.vc);
+                if fault.is_some() && first_failed.is_none() {
+                    first_failed = Some((serial, r));
+                }
+            }
+        }
+        std::fs::write(&readings, csv).map_err(|e| {
+            CliError::usage(format!("--out: {}: cannot write: {e}", readings.display()))
+        })?;
+        println!(
+            "{} boards simulated within tolerance (3 of them with a planted fault), read with ±3 mV noise",
+            self.boards
+        );
+        let readings_s = path_str(&readings);
+        let log_s = path_str(&log);
+        let lot = run(&["batch", "--design", &design_s, &readings_s, "--log", &log_s])?;
+
+        heading("5. Yield report from the log");
+        let html_s = path_str(&html);
+        run(&["report", &log_s, "--html", &html_s])?;
+
+        if let Some((serial, r)) = first_failed {
+            heading("6. One failed board in detail");
+            let (vcc, vb, ve, vc) =
+                (format!("{:.4}", r.vcc), format!("{:.4}", r.vb), format!("{:.4}", r.ve), format!("{:.4}", r.vc));
+            let code = run(&[
+                "check", "--design", &design_s, "--vcc", &vcc, "--vb", &vb, "--ve", &ve, "--vc", &vc,
+                "--serial", &serial,
+            ])?;
+            if code != EXIT_FAIL {
+                println!("(the planted fault on {serial} was not caught)");
+            }
+        }
+        heading("Done");
+        println!("design {}, readings {}, log {}, report {}", design.display(), readings.display(), log.display(), html.display());
+        // The demo itself succeeded whether or not boards of the lot failed.
+        let _ = lot;
         Ok(EXIT_OK)
     }
 }
