@@ -104,16 +104,34 @@ pub(crate) fn solve(stage: &Stage, y: &Admittance, setup: &Setup) -> Option<[C; 
     };
     between(IN, B, cap_admittance(setup.cin, stage.cin.map(|p| p.value)));
     between(E, X, C::new(conductance(stage.re1.value), 0.0));
-    between(NODE_C, OUT, cap_admittance(setup.cout, stage.cout.map(|p| p.value)));
+    between(
+        NODE_C,
+        OUT,
+        cap_admittance(setup.cout, stage.cout.map(|p| p.value)),
+    );
     let mut to_ground = |a: usize, g: C| m[a][a] += g;
     let rb = parallel(stage.r1.value, stage.r2.value);
-    to_ground(IN, C::new(if setup.with_source { source_conductance(stage) } else { 0.0 }, 0.0));
+    to_ground(
+        IN,
+        C::new(
+            if setup.with_source {
+                source_conductance(stage)
+            } else {
+                0.0
+            },
+            0.0,
+        ),
+    );
     to_ground(IN, C::new(LEAK, 0.0));
     to_ground(B, C::new(conductance(rb), 0.0));
     to_ground(X, C::new(conductance(stage.re2.value), 0.0));
     to_ground(X, cap_admittance(setup.ce, stage.ce.map(|p| p.value)));
     to_ground(NODE_C, C::new(conductance(stage.rc.value), 0.0));
-    let rl = if setup.with_load { stage.rl.map_or(0.0, conductance) } else { 0.0 };
+    let rl = if setup.with_load {
+        stage.rl.map_or(0.0, conductance)
+    } else {
+        0.0
+    };
     to_ground(OUT, C::new(rl + LEAK, 0.0));
     // Transistor two-port: ib = y11·vbe + y12·vce into B, ic = y21·vbe + y22·vce into C.
     let (y11, y12, y21, y22) = (y.y11, y.y12, y.y21, y.y22);
@@ -139,16 +157,17 @@ pub(crate) fn solve(stage: &Stage, y: &Admittance, setup: &Setup) -> Option<[C; 
                 pivot = row;
             }
         }
-        if !(m[pivot][col].norm_sqr() > 0.0) {
+        let mag = m[pivot][col].norm_sqr();
+        if mag.is_nan() || mag <= 0.0 {
             return None;
         }
         m.swap(col, pivot);
         rhs.swap(col, pivot);
         for row in col + 1..N {
             let factor = m[row][col] / m[col][col];
-            for k in col..N {
-                let v = m[col][k];
-                m[row][k] -= factor * v;
+            let pivot_row = m[col];
+            for (dst, src) in m[row].iter_mut().zip(pivot_row.iter()).skip(col) {
+                *dst -= factor * src;
             }
             let v = rhs[col];
             rhs[row] -= factor * v;

@@ -44,7 +44,9 @@ pub enum ProfileError {
 impl core::fmt::Display for ProfileError {
     fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
         f.write_str(match self {
-            Self::BetaSpread => "hFE: min, typ and max must be positive and in order min <= typ <= max",
+            Self::BetaSpread => {
+                "hFE: min, typ and max must be positive and in order min <= typ <= max"
+            }
             Self::BetaReverse => "reverse hFE must be positive",
             Self::BetaTempco => "hFE temperature coefficient must be between -5 and +5 %/°C",
             Self::SaturationCurrent => "IS must be between 1e-20 A and 1e-6 A",

@@ -42,7 +42,11 @@ pub fn estimate(stage: &Stage, profile: &Profile) -> Estimate {
         let ib = (vth - vbe) / rth;
         (vth - ib * rth, ib * (profile.beta_typ + 1.0))
     };
-    let (vb, ve, ie) = if ie > 0.0 { (vb, ie * re, ie) } else { (vth, 0.0, 0.0) };
+    let (vb, ve, ie) = if ie > 0.0 {
+        (vb, ie * re, ie)
+    } else {
+        (vth, 0.0, 0.0)
+    };
     let mut ic = ie;
     let mut vc = vcc - ic * rc;
     let floor = ve + profile.vce_sat;
@@ -54,5 +58,11 @@ pub fn estimate(stage: &Stage, profile: &Profile) -> Estimate {
         Polarity::Npn => (vb, ve, vc),
         Polarity::Pnp => (vcc - vb, vcc - ve, vcc - vc),
     };
-    Estimate { vb, ve, vc, ic, vce: vc - ve }
+    Estimate {
+        vb,
+        ve,
+        vc,
+        ic,
+        vce: vc - ve,
+    }
 }

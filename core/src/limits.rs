@@ -17,7 +17,11 @@ pub struct Meter {
 impl Default for Meter {
     /// A 0.5 % + 5 mV meter behind a 0.1 % divider.
     fn default() -> Self {
-        Self { gain_error: 0.005, offset: 0.005, divider_tol: 0.001 }
+        Self {
+            gain_error: 0.005,
+            offset: 0.005,
+            divider_tol: 0.001,
+        }
     }
 }
 

@@ -88,7 +88,13 @@ fn gain_at(stage: &Stage, op: &OperatingPoint, f: Option<f64>) -> Option<f64> {
     if let Some(s) = inject.get_mut(IN) {
         *s = C::new(acnet::source_conductance(stage), 0.0);
     }
-    let setup = Setup { cin: cap, cout: cap, ce: cap, inject, ..Setup::midband() };
+    let setup = Setup {
+        cin: cap,
+        cout: cap,
+        ce: cap,
+        inject,
+        ..Setup::midband()
+    };
     acnet::solve(stage, &op.y, &setup).map(|v| at(&v, OUT).norm())
 }
 
@@ -111,14 +117,24 @@ pub fn low_corner(stage: &Stage, op: &OperatingPoint) -> LowCorner {
     } else {
         None
     };
-    let f_low = if f_estimate.is_some() { exact_corner(stage, op) } else { None };
-    LowCorner { f_low, f_cin, f_cout, f_ce, f_estimate }
+    let f_low = if f_estimate.is_some() {
+        exact_corner(stage, op)
+    } else {
+        None
+    };
+    LowCorner {
+        f_low,
+        f_cin,
+        f_cout,
+        f_ce,
+        f_estimate,
+    }
 }
 
 /// Bisection in log frequency for |H(f)| = |H(midband)|/√2.
 fn exact_corner(stage: &Stage, op: &OperatingPoint) -> Option<f64> {
     let mid = gain_at(stage, op, None)?;
-    if !(mid > 0.0) {
+    if mid.is_nan() || mid <= 0.0 {
         return None;
     }
     let target = mid / core::f64::consts::SQRT_2;

@@ -81,5 +81,10 @@ pub fn power(stage: &Stage, profile: &Profile, op: &OperatingPoint, temp_c: f64)
         Polarity::Npn => divider + op.ic,
         Polarity::Pnp => divider + op.ie,
     };
-    Power { transistor, rating: profile.power_rating_at(temp_c), resistors, supply_current }
+    Power {
+        transistor,
+        rating: profile.power_rating_at(temp_c),
+        resistors,
+        supply_current,
+    }
 }

@@ -59,7 +59,11 @@ pub struct Prediction {
 }
 
 /// Predict everything for `stage` with `profile` under `cond`.
-pub fn predict(stage: &Stage, profile: &Profile, cond: Conditions) -> Result<Prediction, SolveError> {
+pub fn predict(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+) -> Result<Prediction, SolveError> {
     let op = solve(stage, profile, cond)?;
     let mid = midband(stage, profile, &op).ok();
     let low = low_corner(stage, &op);
@@ -87,5 +91,12 @@ pub fn predict(stage: &Stage, profile: &Profile, cond: Conditions) -> Result<Pre
         q_point_off_centre: op.region == Region::Active
             && (vce < profile.vce_sat + 1.0 || vce > op.vcc - 1.0),
     };
-    Ok(Prediction { op, estimate: estimate(stage, profile), midband: mid, low, power: pw, warnings })
+    Ok(Prediction {
+        op,
+        estimate: estimate(stage, profile),
+        midband: mid,
+        low,
+        power: pw,
+        warnings,
+    })
 }

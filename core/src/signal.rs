@@ -82,7 +82,11 @@ fn unit_at(k: usize) -> [C; 6] {
 }
 
 /// Midband figures of `stage` at `op`.
-pub fn midband(stage: &Stage, profile: &Profile, op: &OperatingPoint) -> Result<Midband, SignalError> {
+pub fn midband(
+    stage: &Stage,
+    profile: &Profile,
+    op: &OperatingPoint,
+) -> Result<Midband, SignalError> {
     let y = &op.y;
     // Gain: a 1 V source EMF behind RS, as a Norton current into IN.
     let mut setup = Setup::midband();
@@ -96,11 +100,27 @@ pub fn midband(stage: &Stage, profile: &Profile, op: &OperatingPoint) -> Result<
     let vb = node(&v, B).re;
     let gain_stage = if vb != 0.0 { gain / vb } else { 0.0 };
     // Input impedance: no source, 1 A into the input.
-    let zin_setup = Setup { with_source: false, inject: unit_at(IN), ..Setup::midband() };
-    let zin = node(&acnet::solve(stage, y, &zin_setup).ok_or(SignalError::Singular)?, IN).re;
+    let zin_setup = Setup {
+        with_source: false,
+        inject: unit_at(IN),
+        ..Setup::midband()
+    };
+    let zin = node(
+        &acnet::solve(stage, y, &zin_setup).ok_or(SignalError::Singular)?,
+        IN,
+    )
+    .re;
     // Output impedance: source at rest behind RS, no load, 1 A into the output.
-    let zout_setup = Setup { with_load: false, inject: unit_at(OUT), ..Setup::midband() };
-    let zout = node(&acnet::solve(stage, y, &zout_setup).ok_or(SignalError::Singular)?, OUT).re;
+    let zout_setup = Setup {
+        with_load: false,
+        inject: unit_at(OUT),
+        ..Setup::midband()
+    };
+    let zout = node(
+        &acnet::solve(stage, y, &zout_setup).ok_or(SignalError::Singular)?,
+        OUT,
+    )
+    .re;
     let (swing_pp, clips) = swing(stage, profile, op);
     let inv = |g: f64| if g > 0.0 { 1.0 / g } else { f64::INFINITY };
     Ok(Midband {
@@ -123,7 +143,11 @@ pub fn midband(stage: &Stage, profile: &Profile, op: &OperatingPoint) -> Result<
 /// the collector current can fall by ICQ.
 pub fn swing(stage: &Stage, profile: &Profile, op: &OperatingPoint) -> (f64, Clip) {
     if op.region != Region::Active {
-        let side = if op.region == Region::Cutoff { Clip::Cutoff } else { Clip::Saturation };
+        let side = if op.region == Region::Cutoff {
+            Clip::Cutoff
+        } else {
+            Clip::Saturation
+        };
         return (0.0, side);
     }
     let r_ac = match stage.rl {
@@ -135,7 +159,11 @@ pub fn swing(stage: &Stage, profile: &Profile, op: &OperatingPoint) -> (f64, Cli
         Polarity::Pnp => -op.vce,
     };
     let room = vce - profile.vce_sat;
-    let to_sat = if room > 0.0 { room * r_ac / (r_ac + stage.re1.value) } else { 0.0 };
+    let to_sat = if room > 0.0 {
+        room * r_ac / (r_ac + stage.re1.value)
+    } else {
+        0.0
+    };
     let to_cut = op.ic * r_ac;
     if to_sat <= to_cut {
         (2.0 * to_sat, Clip::Saturation)

@@ -27,15 +27,16 @@ use crate::thermal_voltage;
 /// Conductance of a short inside the transistor, S.
 const SHORT_CONDUCTANCE: f64 = 1e4;
 /// Leakage conductance across each junction that keeps the equations regular, S.
-const JUNCTION_GMIN: f64 = 1e-12;
+const JUNCTION_GMIN: f64 = 1e-15;
 /// Exponent above which the junction exponential continues as a straight line.
 const EXP_LINEAR_ABOVE: f64 = 80.0;
 /// Newton iterations allowed for one attempt.
 const MAX_ITERATIONS: u16 = 80;
 /// Steps of the supply ramp in the fallback.
 const RAMP_STEPS: u16 = 16;
-/// Newton step below which a junction voltage counts as settled, V.
-const SETTLED_V: f64 = 1e-10;
+/// Newton step below which a junction voltage counts as settled, V. Convergence is quadratic
+/// (the remaining error is about step²/(2·VT)), so after a 10 nV step it is below 1e-14 V.
+const SETTLED_V: f64 = 1e-8;
 
 /// Temperature, transistor gain and any transistor fault for one solve.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -51,7 +52,11 @@ pub struct Conditions {
 impl Conditions {
     /// Typical hFE at 25 °C, no fault.
     pub fn typical(profile: &Profile) -> Self {
-        Self { temp_c: 25.0, beta_25: profile.beta_typ, fault: None }
+        Self {
+            temp_c: 25.0,
+            beta_25: profile.beta_typ,
+            fault: None,
+        }
     }
 
     /// The same conditions at another ambient temperature, °C.
@@ -159,6 +164,8 @@ pub struct OperatingPoint {
 #[derive(Debug, Clone, Copy)]
 struct Junction {
     vt: f64,
+    /// 1/VT.
+    inv_vt: f64,
     is: f64,
     /// IS/βF.
     is_bf: f64,
@@ -188,9 +195,15 @@ struct Currents {
     dic: [f64; 2],
 }
 
-/// exp(x) continued as a straight line above `EXP_LINEAR_ABOVE`; returns (value, derivative).
+/// Exponent below which exp(x) is below 1e-21: next to 1 (in `exp − 1`) it vanishes in f64.
+const EXP_NEGLIGIBLE_BELOW: f64 = -48.0;
+
+/// exp(x) continued as a straight line above `EXP_LINEAR_ABOVE`, and 0 far below zero (a
+/// reverse-biased junction, where computing it would change no result).
 fn exp_limited(x: f64) -> f64 {
-    if x > EXP_LINEAR_ABOVE {
+    if x < EXP_NEGLIGIBLE_BELOW {
+        0.0
+    } else if x > EXP_LINEAR_ABOVE {
         libm::exp(EXP_LINEAR_ABOVE) * (1.0 + x - EXP_LINEAR_ABOVE)
     } else {
         libm::exp(x)
@@ -208,12 +221,12 @@ fn exp_slope(x: f64, value: f64) -> f64 {
 impl Junction {
     /// Ebers-Moll currents of the device in its own frame (a = VBE, c = VBC).
     fn em(&self, a: f64, c: f64) -> Currents {
-        let xa = a / self.vt;
-        let xc = c / self.vt;
+        let xa = a * self.inv_vt;
+        let xc = c * self.inv_vt;
         let ea = exp_limited(xa);
         let ec = exp_limited(xc);
-        let sa = exp_slope(xa, ea) / self.vt;
-        let sc = exp_slope(xc, ec) / self.vt;
+        let sa = exp_slope(xa, ea) * self.inv_vt;
+        let sc = exp_slope(xc, ec) * self.inv_vt;
         // Early factor on the transport current, held above zero far into reverse operation.
         let (q, dq) = {
             let q = 1.0 - c * self.inv_va;
@@ -230,7 +243,12 @@ impl Junction {
         let ibc = self.is_br * (ec - 1.0) + JUNCTION_GMIN * c;
         let dibe = self.is_bf * sa + JUNCTION_GMIN;
         let dibc = self.is_br * sc + JUNCTION_GMIN;
-        Currents { ib: ibe + ibc, ic: it - ibc, dib: [dibe, dibc], dic: [dit_a, dit_c - dibc] }
+        Currents {
+            ib: ibe + ibc,
+            ic: it - ibc,
+            dib: [dibe, dibc],
+            dic: [dit_a, dit_c - dibc],
+        }
     }
 
     /// Terminal currents at the stage's nodes for junction voltages x = (VBE, VBC) between the
@@ -245,7 +263,12 @@ impl Junction {
                 // Into our collector node flows minus the device's emitter current.
                 let ic = -(d.ib + d.ic);
                 let dic_own = [-(d.dib[0] + d.dic[0]), -(d.dib[1] + d.dic[1])];
-                Currents { ib: d.ib, ic, dib: [d.dib[1], d.dib[0]], dic: [dic_own[1], dic_own[0]] }
+                Currents {
+                    ib: d.ib,
+                    ic,
+                    dib: [d.dib[1], d.dib[0]],
+                    dic: [dic_own[1], dic_own[0]],
+                }
             }
             Some(DeviceFault::BeShort) => {
                 let mut d = self.em(vbe, vbc);
@@ -280,8 +303,13 @@ impl Junction {
 
 /// Limit a junction-voltage update so the exponential cannot run away (the classic rule of
 /// circuit solvers: above the critical voltage, steps grow only logarithmically).
-fn limit_junction(new: f64, old: f64, vt: f64, vcrit: f64) -> (f64, bool) {
-    if new > vcrit && libm::fabs(new - old) > 2.0 * vt {
+fn limit_junction(new: f64, old: f64, vt: f64, j: &Junction) -> (f64, bool) {
+    // The critical voltage is always positive, so a step that ends at or below zero is free.
+    if new <= 0.0 || libm::fabs(new - old) <= 2.0 * vt {
+        return (new, false);
+    }
+    let vcrit = j.vcrit();
+    if new > vcrit {
         if old > 0.0 {
             let arg = 1.0 + (new - old) / vt;
             if arg > 0.0 {
@@ -306,55 +334,151 @@ struct Problem {
     emit: Net,
     /// Which device terminals see nothing (a floating node or an open lead): base, collector, emitter.
     free: [bool; 3],
+    /// The two equations for this arrangement.
+    equations: [Equation; 2],
     j: Junction,
 }
 
 /// One equation: residual and its gradient with respect to (VBE, VBC).
 type Row = (f64, [f64; 2]);
 
+/// Terminals of the transistor.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Terminal {
+    Base,
+    Collector,
+    Emitter,
+}
+
+/// One of the two equations the junction voltages must satisfy.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Equation {
+    /// A floating terminal carries no current.
+    NoCurrent(Terminal),
+    /// Kirchhoff's voltage law between two driven terminals: V(from) − V(to) equals the
+    /// junction drop `coef · (VBE, VBC)`.
+    Loop(Terminal, Terminal, [f64; 2]),
+}
+
+/// The two equations for a set of floating terminals (base, collector, emitter).
+fn pick_equations(free: [bool; 3]) -> [Equation; 2] {
+    use Terminal::{Base, Collector, Emitter};
+    if free == [false; 3] {
+        return [
+            Equation::Loop(Base, Emitter, [1.0, 0.0]),
+            Equation::Loop(Base, Collector, [0.0, 1.0]),
+        ];
+    }
+    let terminals = [Base, Collector, Emitter];
+    let loops = [
+        Equation::Loop(Base, Emitter, [1.0, 0.0]),
+        Equation::Loop(Base, Collector, [0.0, 1.0]),
+        Equation::Loop(Collector, Emitter, [1.0, -1.0]),
+    ];
+    let is_free = |t: Terminal| match t {
+        Base => free[0],
+        Collector => free[1],
+        Emitter => free[2],
+    };
+    let mut chosen = terminals
+        .iter()
+        .filter(|t| is_free(**t))
+        .map(|t| Equation::NoCurrent(*t))
+        .chain(loops.iter().copied().filter(|e| match e {
+            Equation::Loop(a, b, _) => !is_free(*a) && !is_free(*b),
+            Equation::NoCurrent(_) => false,
+        }));
+    let first = chosen.next().unwrap_or(Equation::NoCurrent(Base));
+    let second = chosen.next().unwrap_or(Equation::NoCurrent(Collector));
+    [first, second]
+}
+
+/// Current into one device terminal and its gradient.
+fn terminal_current(cur: &Currents, t: Terminal) -> Row {
+    match t {
+        Terminal::Base => (cur.ib, cur.dib),
+        Terminal::Collector => (cur.ic, cur.dic),
+        Terminal::Emitter => (
+            -(cur.ib + cur.ic),
+            [-(cur.dib[0] + cur.dic[0]), -(cur.dib[1] + cur.dic[1])],
+        ),
+    }
+}
+
+/// Voltage of a driven terminal (0 for a floating one) and its gradient.
+fn terminal_voltage(p: &Problem, vcc_scale: f64, cur: &Currents, t: Terminal) -> Row {
+    let net = match t {
+        Terminal::Base => p.base,
+        Terminal::Collector => p.coll,
+        Terminal::Emitter => p.emit,
+    };
+    match net {
+        Net::Driven { vth, r } => {
+            let (i, g) = terminal_current(cur, t);
+            (vth * vcc_scale - r * i, [-r * g[0], -r * g[1]])
+        }
+        Net::Free => (0.0, [0.0; 2]),
+    }
+}
+
 /// Residuals and Jacobian of the two equations at x.
 fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
     let cur = p.j.currents(x);
-    // Terminal currents into the device with their gradients: base, collector, emitter.
-    let ie_grad = [-(cur.dib[0] + cur.dic[0]), -(cur.dib[1] + cur.dic[1])];
-    let i: [Row; 3] = [(cur.ib, cur.dib), (cur.ic, cur.dic), (-(cur.ib + cur.ic), ie_grad)];
-    let nets = [p.base, p.coll, p.emit];
-    // Node voltage with its gradient at each driven terminal.
-    let v: [Row; 3] = core::array::from_fn(|k| match (nets.get(k), i.get(k)) {
-        (Some(Net::Driven { vth, r }), Some((ik, g))) => {
-            (vth * vcc_scale - r * ik, [-r * g[0], -r * g[1]])
+    // The usual arrangement, every terminal driven, written out: it is most of the work.
+    if let (
+        Net::Driven { vth: vb0, r: rb },
+        Net::Driven { vth: vc0, r: rc },
+        Net::Driven { r: re, .. },
+        [false, false, false],
+    ) = (p.base, p.coll, p.emit, p.free)
+    {
+        let ie = cur.ib + cur.ic;
+        let die = [cur.dib[0] + cur.dic[0], cur.dib[1] + cur.dic[1]];
+        let vb = vb0 * vcc_scale - rb * cur.ib;
+        let vc = vc0 * vcc_scale - rc * cur.ic;
+        let ve = re * ie;
+        let r0 = (
+            vb - ve - x[0],
+            [
+                -rb * cur.dib[0] - re * die[0] - 1.0,
+                -rb * cur.dib[1] - re * die[1],
+            ],
+        );
+        let r1 = (
+            vb - vc - x[1],
+            [
+                -rb * cur.dib[0] + rc * cur.dic[0],
+                -rb * cur.dib[1] + rc * cur.dic[1] - 1.0,
+            ],
+        );
+        return ([r0, r1], cur);
+    }
+    let row = |e: Equation| match e {
+        Equation::NoCurrent(t) => terminal_current(&cur, t),
+        Equation::Loop(a, b, c) => {
+            let (va, ga) = terminal_voltage(p, vcc_scale, &cur, a);
+            let (vb, gb) = terminal_voltage(p, vcc_scale, &cur, b);
+            (
+                va - vb - (c[0] * x[0] + c[1] * x[1]),
+                [ga[0] - gb[0] - c[0], ga[1] - gb[1] - c[1]],
+            )
         }
-        _ => (0.0, [0.0; 2]),
-    });
-    let free = p.free;
-    // A floating terminal: its current is zero.
-    let floating = i.iter().zip(free).filter(|(_, f)| *f).map(|(row, _)| *row);
-    // Loop equations between driven terminals: (from, to, junction coefficients of the drop).
-    const LOOPS: [(usize, usize, [f64; 2]); 3] =
-        [(0, 2, [1.0, 0.0]), (0, 1, [0.0, 1.0]), (1, 2, [1.0, -1.0])];
-    let loops = LOOPS.iter().filter_map(|&(a, b, c)| {
-        let (va, vb) = (v.get(a)?, v.get(b)?);
-        if *free.get(a)? || *free.get(b)? {
-            return None;
-        }
-        Some((
-            va.0 - vb.0 - (c[0] * x[0] + c[1] * x[1]),
-            [va.1[0] - vb.1[0] - c[0], va.1[1] - vb.1[1] - c[1]],
-        ))
-    });
-    let mut rows = floating.chain(loops);
-    let r0 = rows.next().unwrap_or((0.0, [0.0; 2]));
-    let r1 = rows.next().unwrap_or((0.0, [0.0; 2]));
-    ([r0, r1], cur)
+    };
+    let [e0, e1] = p.equations;
+    ([row(e0), row(e1)], cur)
 }
 
-/// Newton's method from `x`; returns the settled point or `None`.
-fn newton(p: &Problem, vcc_scale: f64, mut x: [f64; 2], iterations: &mut u16) -> Option<[f64; 2]> {
-    let vcrit = p.j.vcrit();
+/// Newton's method from `x`; returns the settled point with the device currents there, or `None`.
+fn newton(
+    p: &Problem,
+    vcc_scale: f64,
+    mut x: [f64; 2],
+    iterations: &mut u16,
+) -> Option<([f64; 2], Currents)> {
     let vt = p.j.vt;
     for _ in 0..MAX_ITERATIONS {
         *iterations = iterations.saturating_add(1);
-        let ([(f0, [a, b]), (f1, [c, d])], _) = equations(p, vcc_scale, x);
+        let ([(f0, [a, b]), (f1, [c, d])], cur) = equations(p, vcc_scale, x);
         let det = a * d - b * c;
         if !(det.is_finite() && det != 0.0) {
             return None;
@@ -364,11 +488,19 @@ fn newton(p: &Problem, vcc_scale: f64, mut x: [f64; 2], iterations: &mut u16) ->
         if !(d0.is_finite() && d1.is_finite()) {
             return None;
         }
-        let (n0, l0) = limit_junction(x[0] + d0, x[0], vt, vcrit);
-        let (n1, l1) = limit_junction(x[1] + d1, x[1], vt, vcrit);
+        let (n0, l0) = limit_junction(x[0] + d0, x[0], vt, &p.j);
+        let (n1, l1) = limit_junction(x[1] + d1, x[1], vt, &p.j);
         x = [n0, n1];
         if !l0 && !l1 && libm::fabs(d0) <= SETTLED_V && libm::fabs(d1) <= SETTLED_V {
-            return Some(x);
+            // The currents at the settled point to first order (the step is below 0.1 nV, so
+            // the second-order term is far below f64 resolution): saves a re-evaluation.
+            let step = |v: f64, g: [f64; 2]| v + g[0] * d0 + g[1] * d1;
+            let settled = Currents {
+                ib: step(cur.ib, cur.dib),
+                ic: step(cur.ic, cur.dic),
+                ..cur
+            };
+            return Some((x, settled));
         }
     }
     None
@@ -395,14 +527,24 @@ fn divider(v_top: f64, r_top: f64, r_bottom: f64) -> Result<Net, SolveError> {
         return Ok(Net::Driven { vth: 0.0, r: 0.0 });
     }
     let g_top = if r_top.is_finite() { 1.0 / r_top } else { 0.0 };
-    let g_bottom = if r_bottom.is_finite() { 1.0 / r_bottom } else { 0.0 };
+    let g_bottom = if r_bottom.is_finite() {
+        1.0 / r_bottom
+    } else {
+        0.0
+    };
     let g = g_top + g_bottom;
     if g > 0.0 {
-        Ok(Net::Driven { vth: v_top * g_top / g, r: 1.0 / g })
+        Ok(Net::Driven {
+            vth: v_top * g_top / g,
+            r: 1.0 / g,
+        })
     } else {
         Ok(Net::Free)
     }
 }
+
+/// Fixed-point refinements of VBE in the first guess (each costs a logarithm; Newton does the rest).
+const FIRST_GUESS_REFINEMENTS: u32 = 2;
 
 /// Starting point from the hand method: forward active with the divider loaded by IB.
 fn first_guess(p: &Problem) -> [f64; 2] {
@@ -423,9 +565,9 @@ fn first_guess(p: &Problem) -> [f64; 2] {
     };
     let req = re + rb / (beta + 1.0);
     let mut ie = 0.0;
-    for _ in 0..2 {
+    for _ in 0..FIRST_GUESS_REFINEMENTS {
         ie = (vthb - vbe) / req;
-        if !(ie > 0.0) || !ie.is_finite() {
+        if ie.is_nan() || ie <= 0.0 || !ie.is_finite() {
             // Cut off (or no emitter path): the divider voltage stands across the junction.
             let v = if vthb < vbe { vthb } else { vbe };
             return [v, v - p.vcc];
@@ -447,7 +589,11 @@ fn first_guess(p: &Problem) -> [f64; 2] {
 ///
 /// The stage and profile are assumed validated ([`Stage::validate`], [`Profile::validate`]); an
 /// unvalidated input still never panics and never yields a non-finite number.
-pub fn solve(stage: &Stage, profile: &Profile, cond: Conditions) -> Result<OperatingPoint, SolveError> {
+pub fn solve(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+) -> Result<OperatingPoint, SolveError> {
     let vcc = stage.vcc.value;
     let (r_top, r_bottom) = match stage.polarity {
         // In the mirrored NPN frame of a PNP stage, R1 (supply side) takes the place of R2.
@@ -462,6 +608,7 @@ pub fn solve(stage: &Stage, profile: &Profile, cond: Conditions) -> Result<Opera
     let beta = profile.beta_at(cond.beta_25, temp);
     let j = Junction {
         vt,
+        inv_vt: 1.0 / vt,
         is,
         is_bf: is / beta,
         is_br: is / profile.beta_rev,
@@ -476,30 +623,42 @@ pub fn solve(stage: &Stage, profile: &Profile, cond: Conditions) -> Result<Opera
         matches!(coll, Net::Free) || cond.fault == Some(DeviceFault::BcOpen),
         matches!(emit, Net::Free) || cond.fault == Some(DeviceFault::BeOpen),
     ];
-    let p = Problem { vcc, base, coll, emit, free, j };
+    let p = Problem {
+        vcc,
+        base,
+        coll,
+        emit,
+        free,
+        equations: pick_equations(free),
+        j,
+    };
     if !(vcc.is_finite() && vt.is_finite() && is.is_finite() && is > 0.0 && beta.is_finite()) {
         return Err(SolveError::NonFinite);
     }
     let mut iterations = 0u16;
     let x0 = first_guess(&p);
-    let x = match newton(&p, 1.0, x0, &mut iterations) {
-        Some(x) => x,
+    let (x, cur) = match newton(&p, 1.0, x0, &mut iterations) {
+        Some(settled) => settled,
         None => ramp(&p, &mut iterations)?,
     };
-    finish(stage, &p, x, beta, iterations)
+    finish(stage, &p, x, cur, beta, iterations)
 }
 
 /// Source stepping: raise the supply from a small fraction to full, each step from the last.
-fn ramp(p: &Problem, iterations: &mut u16) -> Result<[f64; 2], SolveError> {
+fn ramp(p: &Problem, iterations: &mut u16) -> Result<([f64; 2], Currents), SolveError> {
     let mut x = [0.0, 0.0];
+    let mut last = None;
     for k in 1..=RAMP_STEPS {
         let scale = f64::from(k) / f64::from(RAMP_STEPS);
         match newton(p, scale, x, iterations) {
-            Some(next) => x = next,
+            Some((next, cur)) => {
+                x = next;
+                last = Some((next, cur));
+            }
             None => return Err(SolveError::NoConvergence),
         }
     }
-    Ok(x)
+    last.ok_or(SolveError::NoConvergence)
 }
 
 /// Node voltages, currents, region and small-signal admittances at the settled point.
@@ -507,38 +666,11 @@ fn finish(
     stage: &Stage,
     p: &Problem,
     x: [f64; 2],
+    cur: Currents,
     beta: f64,
     iterations: u16,
 ) -> Result<OperatingPoint, SolveError> {
-    let cur = p.j.currents(x);
-    let device_i = [cur.ib, cur.ic, -(cur.ib + cur.ic)];
-    let nets = [p.base, p.coll, p.emit];
-    // Voltages of the device terminals (NPN frame) where the network fixes them.
-    let driven: [Option<f64>; 3] = core::array::from_fn(|k| {
-        match (nets.get(k), p.free.get(k), device_i.get(k)) {
-            (Some(Net::Driven { vth, r }), Some(false), Some(i)) => Some(vth - r * i),
-            _ => None,
-        }
-    });
-    // Floating terminals follow from a fixed one through the junction voltages.
-    // Offsets of each terminal from the base: base 0, collector −VBC, emitter −VBE.
-    let offset = [0.0, -x[1], -x[0]];
-    let base_v = driven
-        .iter()
-        .zip(offset)
-        .find_map(|(v, o)| v.map(|v| v - o))
-        .unwrap_or(x[0]);
-    // What a meter reads at each node: the network's own voltage where the transistor lead is
-    // open (no current flows), otherwise the terminal voltage.
-    let node: [f64; 3] = core::array::from_fn(|k| {
-        let own = driven.get(k).copied().flatten();
-        let off = offset.get(k).copied().unwrap_or(0.0);
-        match (own, nets.get(k)) {
-            (Some(v), _) => v,
-            (None, Some(Net::Driven { vth, .. })) => *vth,
-            (None, _) => base_v + off,
-        }
-    });
+    let node = meter_nodes(p, x, &cur);
     let (ib, ic) = (cur.ib, cur.ic);
     let ie = ib + ic;
     let region = classify(stage, p, ib, ic, beta);
@@ -568,9 +700,11 @@ fn finish(
         y,
         iterations,
     };
-    let finite = [op.vb, op.ve, op.vc, op.ib, op.ic, op.y.y11, op.y.y21, op.y.y22]
-        .iter()
-        .all(|v| v.is_finite());
+    let finite = [
+        op.vb, op.ve, op.vc, op.ib, op.ic, op.y.y11, op.y.y21, op.y.y22,
+    ]
+    .iter()
+    .all(|v| v.is_finite());
     if finite {
         Ok(op)
     } else {
@@ -578,12 +712,61 @@ fn finish(
     }
 }
 
+/// What a meter reads at the base, collector and emitter nodes (NPN frame), V.
+fn meter_nodes(p: &Problem, x: [f64; 2], cur: &Currents) -> [f64; 3] {
+    if let (
+        Net::Driven { vth: vb0, r: rb },
+        Net::Driven { vth: vc0, r: rc },
+        Net::Driven { r: re, .. },
+        [false, false, false],
+    ) = (p.base, p.coll, p.emit, p.free)
+    {
+        return [vb0 - rb * cur.ib, vc0 - rc * cur.ic, re * (cur.ib + cur.ic)];
+    }
+    let device_i = [cur.ib, cur.ic, -(cur.ib + cur.ic)];
+    let nets = [p.base, p.coll, p.emit];
+    // Voltages of the device terminals (NPN frame) where the network fixes them.
+    let driven: [Option<f64>; 3] =
+        core::array::from_fn(|k| match (nets.get(k), p.free.get(k), device_i.get(k)) {
+            (Some(Net::Driven { vth, r }), Some(false), Some(i)) => Some(vth - r * i),
+            _ => None,
+        });
+    // Floating terminals follow from a fixed one through the junction voltages.
+    // Offsets of each terminal from the base: base 0, collector −VBC, emitter −VBE.
+    let offset = [0.0, -x[1], -x[0]];
+    let base_v = driven
+        .iter()
+        .zip(offset)
+        .find_map(|(v, o)| v.map(|v| v - o))
+        .unwrap_or(x[0]);
+    // What a meter reads at each node: the network's own voltage where the transistor lead is
+    // open (no current flows), otherwise the terminal voltage.
+    let node: [f64; 3] = core::array::from_fn(|k| {
+        let own = driven.get(k).copied().flatten();
+        let off = offset.get(k).copied().unwrap_or(0.0);
+        match (own, nets.get(k)) {
+            (Some(v), _) => v,
+            (None, Some(Net::Driven { vth, .. })) => *vth,
+            (None, _) => base_v + off,
+        }
+    });
+    node
+}
+
 /// Region from the currents: cut off below a thousandth of the stage's saturation current
 /// (VCC/(RC+RE)) or 1 nA, saturated where IC falls below 90 % of hFE·IB.
 fn classify(stage: &Stage, p: &Problem, ib: f64, ic: f64, beta: f64) -> Region {
     let path = stage.rc.value + stage.re_total();
-    let scale = if path.is_finite() && path > 0.0 { p.vcc / path } else { 0.0 };
-    let floor = if scale * 1e-3 > 1e-9 { scale * 1e-3 } else { 1e-9 };
+    let scale = if path.is_finite() && path > 0.0 {
+        p.vcc / path
+    } else {
+        0.0
+    };
+    let floor = if scale * 1e-3 > 1e-9 {
+        scale * 1e-3
+    } else {
+        1e-9
+    };
     if ic < floor {
         Region::Cutoff
     } else if ic < 0.9 * beta * ib {

@@ -29,6 +29,10 @@ pub struct Variation {
 impl Variation {
     /// Parts and hFE vary; the ambient stays at `temp_c`.
     pub fn at(temp_c: f64) -> Self {
-        Self { temp_min_c: temp_c, temp_max_c: temp_c, distribution: Distribution::Uniform }
+        Self {
+            temp_min_c: temp_c,
+            temp_max_c: temp_c,
+            distribution: Distribution::Uniform,
+        }
     }
 }

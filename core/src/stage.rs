@@ -100,8 +100,14 @@ pub enum DeviceFault {
 
 impl DeviceFault {
     /// Every transistor fault.
-    pub const ALL: [DeviceFault; 6] =
-        [Self::BeOpen, Self::BcOpen, Self::BeShort, Self::BcShort, Self::CeShort, Self::Reversed];
+    pub const ALL: [DeviceFault; 6] = [
+        Self::BeOpen,
+        Self::BcOpen,
+        Self::BeShort,
+        Self::BcShort,
+        Self::CeShort,
+        Self::Reversed,
+    ];
 
     /// The machine name of the mode: "be_open", ...
     pub fn name(self) -> &'static str {
