@@ -1,0 +1,41 @@
+//! # biasjig firmware application
+//!
+//! The part of the jig reader firmware that does not depend on a chip: it compiles for the
+//! Cortex-M4F images and for the host, where its unit tests run
+//! (`cargo test --target x86_64-unknown-linux-gnu --lib` from `firmware-example/`).
+//!
+//! | module | job |
+//! | --- | --- |
+//! | [`serial`] | `embedded-io` 0.7 `Read`/`Write` over any non-blocking (`embedded-hal-nb`) UART |
+//! | [`button`] | debounced active-low push button |
+//! | [`line`] | line assembly from a byte stream: fixed buffer, CR, LF or CRLF endings, overlong lines |
+//! | [`console`] | the [`console::Console`] seam, the interim console, and the application loop [`console::App`] |
+//! | [`cost`] | elapsed ticks of the last command (SysTick under QEMU, DWT cycle counter on hardware) |
+//! | [`adc`] | ADC channel math: divider ratio, two-point calibration, oversampling, clipping, open probe |
+//! | [`jig`] | the four jig nodes (VCC, VB, VE, VC), a sampled jig, and the emulated jig |
+//! | [`screen`] | a 128x64 one-bit framebuffer, its text art, and the verdict and measurement screens |
+//! | [`stack`] | stack painting and the high-water mark |
+//! | `target` | Cortex-M only: tick sources and stack painting on the real stack |
+#![cfg_attr(not(test), no_std)]
+#![deny(unsafe_code)]
+#![deny(missing_docs)]
+
+pub mod adc;
+pub mod button;
+pub mod console;
+pub mod cost;
+pub mod jig;
+pub mod line;
+pub mod screen;
+pub mod serial;
+pub mod stack;
+#[cfg(target_os = "none")]
+// Register access (USART1, SysTick, DWT) and stack painting need raw pointers; every unsafe block
+// there says why it is sound.
+#[allow(unsafe_code)]
+pub mod target;
+
+/// The identification line answered to `*IDN?` (manufacturer, model, serial, firmware version).
+pub const IDN_PREFIX: &str = "biasjig,jig-reader";
+/// Firmware version, from the crate.
+pub const VERSION: &str = env!("CARGO_PKG_VERSION");

@@ -1,0 +1,373 @@
+//! The 128x64 one-bit screen: a RAM framebuffer and the screen layouts.
+//!
+//! The hardware image draws the layouts on an SSD1306 OLED; the emulated image draws the same
+//! layouts into [`FrameBuffer`], which can print itself as text art over the console.
+use crate::console::FmtBuf;
+use crate::jig::{JigError, Node, NodeVoltages};
+use embedded_graphics::mono_font::ascii::{FONT_10X20, FONT_6X10};
+use embedded_graphics::mono_font::{MonoFont, MonoTextStyle};
+use embedded_graphics::pixelcolor::BinaryColor;
+use embedded_graphics::prelude::*;
+use embedded_graphics::text::{Alignment, Baseline, Text, TextStyleBuilder};
+
+/// Screen width, pixels.
+pub const WIDTH: u32 = 128;
+/// Screen height, pixels.
+pub const HEIGHT: u32 = 64;
+const BYTES: usize = (WIDTH * HEIGHT / 8) as usize;
+
+/// 128x64 pixels, one bit each, in RAM.
+pub struct FrameBuffer {
+    bits: [u8; BYTES],
+}
+
+impl Default for FrameBuffer {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl FrameBuffer {
+    /// An all-off framebuffer.
+    pub const fn new() -> Self {
+        FrameBuffer { bits: [0; BYTES] }
+    }
+
+    /// Whether a pixel is on; off outside the screen.
+    pub fn pixel(&self, x: u32, y: u32) -> bool {
+        if x >= WIDTH || y >= HEIGHT {
+            return false;
+        }
+        let i = (y * WIDTH + x) as usize;
+        self.bits
+            .get(i / 8)
+            .is_some_and(|b| b & (1 << (i % 8)) != 0)
+    }
+
+    fn set(&mut self, x: u32, y: u32, on: bool) {
+        let i = (y * WIDTH + x) as usize;
+        if let Some(b) = self.bits.get_mut(i / 8) {
+            if on {
+                *b |= 1 << (i % 8);
+            } else {
+                *b &= !(1 << (i % 8));
+            }
+        }
+    }
+
+    /// Text art: 32 lines of 128 characters, each character two pixel rows
+    /// (`#` both on, `"` upper only, `.` lower only, space none), lines ending in CRLF.
+    pub fn write_art<W: embedded_io::Write>(&self, out: &mut W) -> Result<(), W::Error> {
+        let mut line = [b' '; WIDTH as usize + 2];
+        for row in 0..HEIGHT / 2 {
+            for (x, c) in line.iter_mut().take(WIDTH as usize).enumerate() {
+                let x = x as u32;
+                *c = match (self.pixel(x, 2 * row), self.pixel(x, 2 * row + 1)) {
+                    (true, true) => b'#',
+                    (true, false) => b'"',
+                    (false, true) => b'.',
+                    (false, false) => b' ',
+                };
+            }
+            if let Some(end) = line.get_mut(WIDTH as usize..) {
+                end.copy_from_slice(b"\r\n");
+            }
+            out.write_all(&line)?;
+        }
+        Ok(())
+    }
+}
+
+impl OriginDimensions for FrameBuffer {
+    fn size(&self) -> Size {
+        Size::new(WIDTH, HEIGHT)
+    }
+}
+
+impl DrawTarget for FrameBuffer {
+    type Color = BinaryColor;
+    type Error = core::convert::Infallible;
+
+    fn draw_iter<I>(&mut self, pixels: I) -> Result<(), Self::Error>
+    where
+        I: IntoIterator<Item = Pixel<Self::Color>>,
+    {
+        for Pixel(p, c) in pixels {
+            if let (Ok(x), Ok(y)) = (u32::try_from(p.x), u32::try_from(p.y)) {
+                if x < WIDTH && y < HEIGHT {
+                    self.set(x, y, c.is_on());
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+/// The check verdict of a board under test.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Verdict {
+    /// All nodes within their windows.
+    Pass,
+    /// Some node outside its window.
+    Fail,
+}
+
+/// What the verdict screen shows.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VerdictScreen<'a> {
+    /// PASS or FAIL, drawn large.
+    pub verdict: Verdict,
+    /// The node that failed, if any.
+    pub failing_node: Option<Node>,
+    /// Likely fault, a short text (wrapped over up to three lines).
+    pub fault: &'a str,
+}
+
+const CHARS_PER_LINE: usize = (WIDTH / 6) as usize;
+
+fn text<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    s: &str,
+    font: &'static MonoFont<'static>,
+    at: Point,
+    align: Alignment,
+) -> Result<(), D::Error> {
+    let style = MonoTextStyle::new(font, BinaryColor::On);
+    let ts = TextStyleBuilder::new()
+        .alignment(align)
+        .baseline(Baseline::Top)
+        .build();
+    Text::with_text_style(s, at, style, ts).draw(d)?;
+    Ok(())
+}
+
+/// Splits `s` into lines of at most `width` characters at spaces (a word longer than a line is
+/// cut); at most `N` lines.
+pub fn wrap<const N: usize>(s: &str, width: usize) -> [&str; N] {
+    let mut out = [""; N];
+    let mut rest = s.trim();
+    for slot in out.iter_mut() {
+        if rest.is_empty() {
+            break;
+        }
+        let cut = if rest.len() <= width {
+            rest.len()
+        } else {
+            match rest.get(..=width).and_then(|h| h.rfind(' ')) {
+                Some(sp) if sp > 0 => sp,
+                _ => (0..=width)
+                    .rev()
+                    .find(|&i| rest.is_char_boundary(i))
+                    .unwrap_or(0),
+            }
+        };
+        let (head, tail) = rest.split_at(cut);
+        *slot = head.trim_end();
+        rest = tail.trim_start();
+        if cut == 0 {
+            break;
+        }
+    }
+    out
+}
+
+/// Draws the verdict screen: PASS or FAIL large at the top, the failing node, the likely fault.
+pub fn draw_verdict<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    s: &VerdictScreen<'_>,
+) -> Result<(), D::Error> {
+    d.clear(BinaryColor::Off)?;
+    let word = match s.verdict {
+        Verdict::Pass => "PASS",
+        Verdict::Fail => "FAIL",
+    };
+    text(
+        d,
+        word,
+        &FONT_10X20,
+        Point::new(WIDTH as i32 / 2, 0),
+        Alignment::Center,
+    )?;
+    let mut y = 22;
+    if let Some(node) = s.failing_node {
+        let mut b = FmtBuf::<24>::new();
+        let _ = core::fmt::Write::write_fmt(&mut b, format_args!("node {}", node.name()));
+        text(d, b.as_str(), &FONT_6X10, Point::new(0, y), Alignment::Left)?;
+        y += 11;
+    }
+    for line in wrap::<3>(s.fault, CHARS_PER_LINE) {
+        if !line.is_empty() && y <= HEIGHT as i32 - 10 {
+            text(d, line, &FONT_6X10, Point::new(0, y), Alignment::Left)?;
+            y += 10;
+        }
+    }
+    Ok(())
+}
+
+/// Draws a measurement: the four node voltages, or the node that could not be read and why.
+/// (Until the core's check exists this is the screen the button shows; see the crate report.)
+pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    r: &Result<NodeVoltages, JigError>,
+) -> Result<(), D::Error> {
+    d.clear(BinaryColor::Off)?;
+    match r {
+        Ok(v) => {
+            text(
+                d,
+                "MEASURED",
+                &FONT_6X10,
+                Point::new(WIDTH as i32 / 2, 0),
+                Alignment::Center,
+            )?;
+            for (i, node) in Node::ALL.into_iter().enumerate() {
+                let mut b = FmtBuf::<24>::new();
+                let _ = core::fmt::Write::write_fmt(
+                    &mut b,
+                    format_args!("{:<3} {:>7.3} V", node.name(), v.get(node)),
+                );
+                text(
+                    d,
+                    b.as_str(),
+                    &FONT_6X10,
+                    Point::new(4, 14 + 12 * i as i32),
+                    Alignment::Left,
+                )?;
+            }
+        }
+        Err(e) => {
+            text(
+                d,
+                "NO READ",
+                &FONT_10X20,
+                Point::new(WIDTH as i32 / 2, 0),
+                Alignment::Center,
+            )?;
+            let mut b = FmtBuf::<48>::new();
+            let _ = core::fmt::Write::write_fmt(&mut b, format_args!("{e}"));
+            let mut y = 24;
+            for line in wrap::<3>(b.as_str(), CHARS_PER_LINE) {
+                if !line.is_empty() {
+                    text(d, line, &FONT_6X10, Point::new(0, y), Alignment::Left)?;
+                    y += 11;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+/// Draws a measurement into the framebuffer (which cannot fail).
+pub fn draw_result(fb: &mut FrameBuffer, r: &Result<NodeVoltages, JigError>) {
+    let _ = draw_measurement(fb, r);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::adc::ChannelError;
+    use crate::jig::EMULATED_NODES;
+
+    fn art(fb: &FrameBuffer) -> String {
+        let mut v = Vec::new();
+        fb.write_art(&mut v).unwrap();
+        String::from_utf8(v).unwrap()
+    }
+
+    fn lit(fb: &FrameBuffer, y0: u32, y1: u32) -> usize {
+        (y0..y1)
+            .flat_map(|y| (0..WIDTH).map(move |x| (x, y)))
+            .filter(|&(x, y)| fb.pixel(x, y))
+            .count()
+    }
+
+    #[test]
+    fn framebuffer_pixels_and_art() {
+        let mut fb = FrameBuffer::new();
+        Pixel(Point::new(0, 0), BinaryColor::On)
+            .draw(&mut fb)
+            .unwrap();
+        Pixel(Point::new(1, 1), BinaryColor::On)
+            .draw(&mut fb)
+            .unwrap();
+        Pixel(Point::new(2, 0), BinaryColor::On)
+            .draw(&mut fb)
+            .unwrap();
+        Pixel(Point::new(2, 1), BinaryColor::On)
+            .draw(&mut fb)
+            .unwrap();
+        Pixel(Point::new(-1, 5), BinaryColor::On)
+            .draw(&mut fb)
+            .unwrap();
+        Pixel(Point::new(500, 5), BinaryColor::On)
+            .draw(&mut fb)
+            .unwrap();
+        assert!(fb.pixel(0, 0) && fb.pixel(1, 1) && !fb.pixel(1, 0) && !fb.pixel(999, 0));
+        let a = art(&fb);
+        let lines: Vec<&str> = a.split("\r\n").collect();
+        assert_eq!(lines.len(), 33);
+        assert_eq!(lines[0].len(), 128);
+        assert!(lines[0].starts_with("\".#  "));
+        Pixel(Point::new(0, 0), BinaryColor::Off)
+            .draw(&mut fb)
+            .unwrap();
+        assert!(!fb.pixel(0, 0));
+    }
+
+    #[test]
+    fn verdict_screen_layout() {
+        let mut fb = FrameBuffer::new();
+        let s = VerdictScreen {
+            verdict: Verdict::Fail,
+            failing_node: Some(Node::Vc),
+            fault: "collector resistor open or transistor cut off",
+        };
+        draw_verdict(&mut fb, &s).unwrap();
+        assert!(lit(&fb, 0, 20) > 100, "large verdict at the top");
+        assert!(lit(&fb, 22, 32) > 20, "node line");
+        assert!(lit(&fb, 33, 64) > 40, "fault text");
+        let mut pass = FrameBuffer::new();
+        draw_verdict(
+            &mut pass,
+            &VerdictScreen {
+                verdict: Verdict::Pass,
+                failing_node: None,
+                fault: "",
+            },
+        )
+        .unwrap();
+        assert!(lit(&pass, 0, 20) > 100);
+        assert_eq!(lit(&pass, 22, 64), 0);
+        assert_ne!(art(&pass), art(&fb));
+    }
+
+    #[test]
+    fn measurement_screens() {
+        let mut fb = FrameBuffer::new();
+        draw_result(&mut fb, &Ok(EMULATED_NODES));
+        assert!(lit(&fb, 14, 62) > 150);
+        let mut e = FrameBuffer::new();
+        draw_result(
+            &mut e,
+            &Err(JigError {
+                node: Node::Ve,
+                error: ChannelError::OverRange,
+            }),
+        );
+        assert!(lit(&e, 0, 20) > 100);
+    }
+
+    #[test]
+    fn wrapping() {
+        assert_eq!(
+            wrap::<3>("base divider open", 21),
+            ["base divider open", "", ""]
+        );
+        assert_eq!(
+            wrap::<3>("collector resistor open or transistor cut off", 21),
+            ["collector resistor", "open or transistor", "cut off"]
+        );
+        assert_eq!(wrap::<2>("abcdefghij", 4), ["abcd", "efgh"]);
+        assert_eq!(wrap::<2>("", 4), ["", ""]);
+    }
+}

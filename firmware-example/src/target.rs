@@ -1,0 +1,232 @@
+//! Cortex-M only: stack painting on the real stack, tick sources, and the emulated image's raw
+//! USART1.
+
+/// Stack painting on the region cortex-m-rt leaves for the stack: from `_stack_end` (the end of
+/// static RAM) up to `_stack_start` (the top of RAM).
+pub mod stack {
+    use crate::stack::PAINT;
+
+    extern "C" {
+        static _stack_start: u32;
+        static _stack_end: u32;
+    }
+
+    fn bounds() -> (usize, usize) {
+        // Only the addresses of the linker symbols are taken, never their contents.
+        (
+            core::ptr::addr_of!(_stack_end) as usize,
+            core::ptr::addr_of!(_stack_start) as usize,
+        )
+    }
+
+    /// Bytes of the stack region.
+    pub fn size() -> usize {
+        let (bottom, top) = bounds();
+        top - bottom
+    }
+
+    /// Fills the unused part of the stack with the pattern. Call first thing in `main`; it paints
+    /// only below its own frame (current stack pointer minus a margin), which nothing uses yet.
+    #[inline(never)]
+    pub fn paint() {
+        let (bottom, _) = bounds();
+        let sp = cortex_m::register::msp::read() as usize;
+        let limit = (sp.saturating_sub(64)) & !3;
+        let mut a = (bottom + 3) & !3;
+        while a < limit {
+            // SAFETY: [bottom, limit) lies in RAM between the end of statics and below the live
+            // stack frame; no Rust object lives there.
+            unsafe { core::ptr::write_volatile(a as *mut u32, PAINT) };
+            a += 4;
+        }
+    }
+
+    /// High-water mark: bytes of the stack ever used since [`paint`].
+    pub fn used() -> usize {
+        let (bottom, top) = bounds();
+        let mut a = (bottom + 3) & !3;
+        while a < top {
+            // SAFETY: an aligned read inside RAM; volatile because the stack is not a Rust object.
+            if unsafe { core::ptr::read_volatile(a as *const u32) } != PAINT {
+                break;
+            }
+            a += 4;
+        }
+        top - a
+    }
+}
+
+/// Tick sources for the cost counter.
+pub mod ticks {
+    use crate::cost::Ticks;
+    use core::sync::atomic::{AtomicU32, Ordering};
+    use cortex_m::peripheral::syst::SystClkSource;
+    use cortex_m::peripheral::{DCB, DWT, SYST};
+
+    static SYSTICK_WRAPS: AtomicU32 = AtomicU32::new(0);
+    const RELOAD: u32 = 0x00FF_FFFF;
+
+    /// Call from the `SysTick` exception handler.
+    pub fn systick_wrapped() {
+        SYSTICK_WRAPS.fetch_add(1, Ordering::Relaxed);
+    }
+
+    /// SysTick on the core clock, extended to 32 bits by counting wraps in its exception
+    /// (the image must install a `SysTick` handler that calls [`systick_wrapped`]). Under QEMU
+    /// with `-icount shift=0` it is deterministic.
+    pub struct SysTickTicks {
+        _syst: SYST,
+    }
+
+    impl SysTickTicks {
+        /// Starts SysTick free-running with its wrap interrupt.
+        pub fn start(mut syst: SYST) -> Self {
+            syst.set_clock_source(SystClkSource::Core);
+            syst.set_reload(RELOAD);
+            syst.clear_current();
+            syst.enable_interrupt();
+            syst.enable_counter();
+            SysTickTicks { _syst: syst }
+        }
+    }
+
+    impl Ticks for SysTickTicks {
+        fn now(&mut self) -> u32 {
+            loop {
+                let w = SYSTICK_WRAPS.load(Ordering::Acquire);
+                let cur = SYST::get_current();
+                if SYSTICK_WRAPS.load(Ordering::Acquire) == w {
+                    return (w << 24) | (RELOAD - (cur & RELOAD));
+                }
+            }
+        }
+    }
+
+    /// The DWT cycle counter (core cycles; hardware image).
+    pub struct DwtTicks;
+
+    impl DwtTicks {
+        /// Enables trace and the cycle counter.
+        pub fn start(dcb: &mut DCB, dwt: &mut DWT) -> Self {
+            dcb.enable_trace();
+            DWT::unlock();
+            dwt.enable_cycle_counter();
+            DwtTicks
+        }
+    }
+
+    impl Ticks for DwtTicks {
+        fn now(&mut self) -> u32 {
+            DWT::cycle_count()
+        }
+    }
+}
+
+/// USART1 by plain register access, for the emulated image: QEMU's model needs no clock set-up,
+/// only the transmitter and receiver enabled, and a HAL's clock set-up may wait forever there.
+/// Same address (0x4001_1000) and layout on the STM32F405 and F411.
+pub mod usart1 {
+    use embedded_hal_nb::nb;
+    use embedded_hal_nb::serial::{self, ErrorKind};
+
+    const BASE: usize = 0x4001_1000;
+    const SR: usize = BASE;
+    const DR: usize = BASE + 0x04;
+    const BRR: usize = BASE + 0x08;
+    const CR1: usize = BASE + 0x0C;
+    const RCC_APB2ENR: usize = 0x4002_3844;
+
+    const SR_PE: u32 = 1 << 0;
+    const SR_FE: u32 = 1 << 1;
+    const SR_NE: u32 = 1 << 2;
+    const SR_ORE: u32 = 1 << 3;
+    const SR_RXNE: u32 = 1 << 5;
+    const SR_TC: u32 = 1 << 6;
+    const SR_TXE: u32 = 1 << 7;
+    const CR1_RE: u32 = 1 << 2;
+    const CR1_TE: u32 = 1 << 3;
+    const CR1_UE: u32 = 1 << 13;
+
+    fn rd(addr: usize) -> u32 {
+        // SAFETY: `addr` is one of the USART1/RCC register addresses above, valid on both chips.
+        unsafe { core::ptr::read_volatile(addr as *const u32) }
+    }
+    fn wr(addr: usize, v: u32) {
+        // SAFETY: as in `rd`; these registers accept any 32-bit write of the documented bits.
+        unsafe { core::ptr::write_volatile(addr as *mut u32, v) }
+    }
+
+    /// A receive error of the raw USART.
+    #[derive(Debug, Clone, Copy)]
+    pub struct RawError(pub ErrorKind);
+
+    impl serial::Error for RawError {
+        fn kind(&self) -> ErrorKind {
+            self.0
+        }
+    }
+
+    /// USART1, 8N1, transmitter and receiver on.
+    pub struct Usart1 {
+        _private: (),
+    }
+
+    impl Usart1 {
+        /// Enables USART1's clock, sets 115200 baud for an 84 MHz APB2 (ignored by QEMU) and turns
+        /// on the USART with its transmitter and receiver. Touches only RCC enable bits and USART1.
+        pub fn init() -> Self {
+            wr(RCC_APB2ENR, rd(RCC_APB2ENR) | (1 << 4));
+            wr(BRR, 0x2D9);
+            wr(CR1, CR1_UE | CR1_TE | CR1_RE);
+            Usart1 { _private: () }
+        }
+    }
+
+    impl serial::ErrorType for Usart1 {
+        type Error = RawError;
+    }
+
+    impl serial::Read<u8> for Usart1 {
+        fn read(&mut self) -> nb::Result<u8, RawError> {
+            let sr = rd(SR);
+            if sr & (SR_PE | SR_FE | SR_NE | SR_ORE) != 0 {
+                // Reading DR after SR clears the error flags.
+                let _ = rd(DR);
+                let kind = if sr & SR_ORE != 0 {
+                    ErrorKind::Overrun
+                } else if sr & SR_FE != 0 {
+                    ErrorKind::FrameFormat
+                } else if sr & SR_PE != 0 {
+                    ErrorKind::Parity
+                } else {
+                    ErrorKind::Noise
+                };
+                return Err(nb::Error::Other(RawError(kind)));
+            }
+            if sr & SR_RXNE != 0 {
+                Ok(rd(DR) as u8)
+            } else {
+                Err(nb::Error::WouldBlock)
+            }
+        }
+    }
+
+    impl serial::Write<u8> for Usart1 {
+        fn write(&mut self, byte: u8) -> nb::Result<(), RawError> {
+            if rd(SR) & SR_TXE != 0 {
+                wr(DR, u32::from(byte));
+                Ok(())
+            } else {
+                Err(nb::Error::WouldBlock)
+            }
+        }
+
+        fn flush(&mut self) -> nb::Result<(), RawError> {
+            if rd(SR) & SR_TC != 0 {
+                Ok(())
+            } else {
+                Err(nb::Error::WouldBlock)
+            }
+        }
+    }
+}
