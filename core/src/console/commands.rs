@@ -871,12 +871,15 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
         if r.machine() {
             r.data(format_args!(
-                "vb={} ve={} vc={} vbe={} vce={} ic={} ib={} ie={} region={}",
+                "vb={} ve={} vc={} vbe={} vce={}",
                 Num(op.vb),
                 Num(op.ve),
                 Num(op.vc),
                 Num(op.vbe),
                 Num(op.vce),
+            ));
+            r.data(format_args!(
+                "ic={} ib={} ie={} region={}",
                 Num(op.ic),
                 Num(op.ib),
                 Num(op.ie),
@@ -891,16 +894,21 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Num(e.vce)
             ));
             match &p.midband {
-                Some(m) => r.data(format_args!(
-                    "gain={} gain_stage={} zin={} zout={} swing_pp={} clips={} f_low={}",
-                    Num(m.gain),
-                    Num(m.gain_stage),
-                    Num(m.zin),
-                    Num(m.zout),
-                    Num(m.swing_pp),
-                    m.clips.name(),
-                    Opt(p.low.f_low)
-                )),
+                Some(m) => {
+                    r.data(format_args!(
+                        "gain={} gain_stage={} zin={} zout={}",
+                        Num(m.gain),
+                        Num(m.gain_stage),
+                        Num(m.zin),
+                        Num(m.zout),
+                    ));
+                    r.data(format_args!(
+                        "swing_pp={} clips={} f_low={}",
+                        Num(m.swing_pp),
+                        m.clips.name(),
+                        Opt(p.low.f_low)
+                    ));
+                }
                 None => r.data(format_args!("gain=none f_low={}", Opt(p.low.f_low))),
             }
             r.data(format_args!(

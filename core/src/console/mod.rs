@@ -42,7 +42,7 @@ pub const LINE_MAX: usize = 128;
 /// Most data lines before one status line.
 pub const MAX_DATA_LINES: usize = 40;
 /// Longest output line, bytes (without CR LF).
-pub const MAX_OUT_LINE: usize = 160;
+pub const MAX_OUT_LINE: usize = 200;
 /// Wrong PINs allowed before the back-off starts.
 pub const PIN_FREE_TRIES: u32 = 3;
 /// First back-off after the free tries, ms; it doubles with each further wrong PIN.
@@ -322,6 +322,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.echo
     }
 
+    /// Turn echo on or off (as the `echo` command does).
+    pub fn set_echo(&mut self, on: bool) {
+        self.echo = on;
+    }
+
+    /// Set the data-line style (as the `mode` command does).
+    pub fn set_mode(&mut self, mode: Mode) {
+        self.mode = mode;
+    }
+
     /// Editing of the stage and limits is locked.
     pub fn is_locked(&self) -> bool {
         self.settings.pin.is_some()
@@ -348,20 +358,22 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         bytes: &[u8],
         out: &mut W,
     ) -> Result<(), WriteError<W::Error>> {
-        if !self.echo {
-            return Ok(());
-        }
         for &b in bytes {
+            // The CR LF state is followed even with echo off, so that turning echo on between
+            // the CR and the LF of one line end echoes nothing for the LF.
             let after_cr = core::mem::replace(&mut self.echo_after_cr, false);
-            match b {
-                b'\n' if after_cr => {}
+            let echo: &[u8] = match b {
+                b'\n' if after_cr => b"",
                 b'\r' | b'\n' => {
                     self.echo_after_cr = b == b'\r';
-                    write_all(out, b"\r\n")?;
+                    b"\r\n"
                 }
-                0x08 | 0x7f => write_all(out, b"\x08 \x08")?,
-                0x00..=0x1f => {}
-                _ => write_all(out, &[b])?,
+                0x08 | 0x7f => b"\x08 \x08",
+                0x00..=0x1f => b"",
+                _ => core::slice::from_ref(&b),
+            };
+            if self.echo && !echo.is_empty() {
+                write_all(out, echo)?;
             }
         }
         Ok(())

@@ -9,7 +9,7 @@ use super::{Code, WriteError, MAX_DATA_LINES, MAX_OUT_LINE};
 
 /// Text of at most one output line; longer text is cut at a character boundary.
 #[derive(Debug, Clone, Default, PartialEq, Eq)]
-pub struct Text(pub heapless::String<MAX_OUT_LINE>);
+pub struct Text(pub heapless::String<MAX_OUT_LINE>, bool);
 
 impl fmt::Write for Text {
     fn write_str(&mut self, s: &str) -> fmt::Result {
@@ -17,6 +17,7 @@ impl fmt::Write for Text {
             // Output stays printable: control characters become spaces.
             let c = if c.is_control() { ' ' } else { c };
             if self.0.push(c).is_err() {
+                self.1 = true;
                 break;
             }
         }
@@ -30,6 +31,11 @@ impl Text {
         let mut t = Text::default();
         let _ = t.write_fmt(args);
         t
+    }
+
+    /// Text was cut off at the line limit.
+    pub fn was_cut(&self) -> bool {
+        self.1
     }
 
     /// The text.
@@ -121,6 +127,7 @@ impl<'w, W: Write> Reply<'w, W> {
             let _ = t.write_str("  ");
         }
         let _ = t.write_fmt(args);
+        self.cut |= t.was_cut();
         let s = t.as_str();
         // A data line never looks like a status line.
         if s == "ok" || s.starts_with("ok ") || s.starts_with("err") {
@@ -151,7 +158,7 @@ impl<'w, W: Write> Reply<'w, W> {
             Ok(None) => {
                 let _ = t.write_str("ok");
                 if self.cut {
-                    let _ = t.write_str(" (reply cut at the line limit)");
+                    let _ = t.write_str(" (reply cut at the size limit)");
                 }
             }
             Ok(Some(text)) => {
