@@ -15,6 +15,7 @@ mod cmd;
 mod designfile;
 mod error;
 mod json;
+mod link;
 mod stage_args;
 mod text;
 mod values;
