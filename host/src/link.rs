@@ -95,7 +95,12 @@ pub struct Link<P: Port> {
 impl<P: Port> Link<P> {
     /// A link over `port`.
     pub fn new(port: P) -> Self {
-        Self { port, pending: Vec::new(), after_cr: false, reply_timeout: REPLY_TIMEOUT }
+        Self {
+            port,
+            pending: Vec::new(),
+            after_cr: false,
+            reply_timeout: REPLY_TIMEOUT,
+        }
     }
 
     /// The port.
@@ -127,7 +132,9 @@ impl<P: Port> Link<P> {
                 let text = String::from_utf8(line[..pos].to_vec())
                     .map_err(|_| LinkError::Garbage("a line that is not UTF-8 text".into()))?;
                 if text.chars().any(|c| c.is_control()) {
-                    return Err(LinkError::Garbage(format!("control characters in {text:?}")));
+                    return Err(LinkError::Garbage(format!(
+                        "control characters in {text:?}"
+                    )));
                 }
                 return Ok(text);
             }
@@ -143,7 +150,9 @@ impl<P: Port> Link<P> {
                 return Err(LinkError::Timeout("no complete line in time".into()));
             }
             let mut buf = [0u8; 256];
-            let n = self.port.recv(&mut buf, (deadline - now).min(Duration::from_millis(100)));
+            let n = self
+                .port
+                .recv(&mut buf, (deadline - now).min(Duration::from_millis(100)));
             let n = n.map_err(Self::io)?;
             self.pending.extend_from_slice(&buf[..n]);
         }
@@ -201,7 +210,8 @@ impl<P: Port> Link<P> {
         let _ = self.port.clear_input();
         self.pending.clear();
         self.send_line("*IDN?")?;
-        let idn_deadline = (Instant::now() + self.reply_timeout).min(deadline.max(Instant::now() + Duration::from_secs(1)));
+        let idn_deadline = (Instant::now() + self.reply_timeout)
+            .min(deadline.max(Instant::now() + Duration::from_secs(1)));
         let mut ident = None;
         loop {
             let l = self.read_line(idn_deadline)?;
@@ -244,13 +254,19 @@ impl Port for SerialLink {
         self.port.set_timeout(wait.max(Duration::from_millis(1)))?;
         match io::Read::read(&mut self.port, buf) {
             Ok(n) => Ok(n),
-            Err(e) if e.kind() == io::ErrorKind::TimedOut || e.kind() == io::ErrorKind::WouldBlock => Ok(0),
+            Err(e)
+                if e.kind() == io::ErrorKind::TimedOut || e.kind() == io::ErrorKind::WouldBlock =>
+            {
+                Ok(0)
+            }
             Err(e) => Err(e),
         }
     }
 
     fn clear_input(&mut self) -> io::Result<()> {
-        self.port.clear(serialport::ClearBuffer::Input).map_err(io::Error::other)
+        self.port
+            .clear(serialport::ClearBuffer::Input)
+            .map_err(io::Error::other)
     }
 }
 
@@ -323,7 +339,13 @@ impl MemoryPort {
     pub fn pair() -> (MemoryPort, MemoryPort) {
         let a = Arc::new(Pipe::default());
         let b = Arc::new(Pipe::default());
-        (MemoryPort { rx: a.clone(), tx: b.clone() }, MemoryPort { rx: b, tx: a })
+        (
+            MemoryPort {
+                rx: a.clone(),
+                tx: b.clone(),
+            },
+            MemoryPort { rx: b, tx: a },
+        )
     }
 }
 

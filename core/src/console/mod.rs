@@ -477,6 +477,10 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 }
 
+#[expect(
+    clippy::large_enum_variant,
+    reason = "a short-lived value on the stack that holds one line; no allocation"
+)]
 enum Event {
     Overfull,
     Line(Text),

@@ -64,7 +64,11 @@ pub fn sync_budget(s: f64) -> Result<Duration, CliError> {
     if s.is_finite() && (0.1..=600.0).contains(&s) {
         Ok(Duration::from_secs_f64(s))
     } else {
-        Err(CliError::field("--sync-timeout", s, "allowed 0.1 to 600 seconds"))
+        Err(CliError::field(
+            "--sync-timeout",
+            s,
+            "allowed 0.1 to 600 seconds",
+        ))
     }
 }
 
@@ -81,7 +85,8 @@ pub fn relay<P: Port>(
         for l in reply.data.iter().chain([&reply.status]) {
             writeln!(out, "{l}").map_err(|e| CliError::link(format!("stdout: {e}")))?;
         }
-        out.flush().map_err(|e| CliError::link(format!("stdout: {e}")))?;
+        out.flush()
+            .map_err(|e| CliError::link(format!("stdout: {e}")))?;
     }
     Ok(())
 }

@@ -56,13 +56,22 @@ pub fn push_lines(stage: &Stage, profile: &Profile, temp_c: f64) -> Vec<String> 
     let mut v = vec![
         format!(
             "set polarity {}",
-            if stage.polarity == Polarity::Npn { "npn" } else { "pnp" }
+            if stage.polarity == Polarity::Npn {
+                "npn"
+            } else {
+                "pnp"
+            }
         ),
         format!("set vcc {:e} {}", stage.vcc.value, pct(stage.vcc.tol)),
     ];
     for r in Resistor::ALL {
         let p = stage.part(r);
-        v.push(format!("set {} {:e} {}", r.name().to_lowercase(), p.value, pct(p.tol)));
+        v.push(format!(
+            "set {} {:e} {}",
+            r.name().to_lowercase(),
+            p.value,
+            pct(p.tol)
+        ));
     }
     v.push(match stage.rl {
         Some(rl) => format!("set rl {rl:e}"),
@@ -133,9 +142,23 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
 impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     /// A station on the port `reopen` opens; `push` are the `set` lines, `hash` the design hash
     /// they give.
-    pub fn new(mut reopen: F, push: Vec<String>, hash: u64, design_id: String, budget: Duration) -> Result<Self, LinkError> {
+    pub fn new(
+        mut reopen: F,
+        push: Vec<String>,
+        hash: u64,
+        design_id: String,
+        budget: Duration,
+    ) -> Result<Self, LinkError> {
         let port = reopen()?;
-        Ok(Self { link: Link::new(port), reopen, push, hash, design_id, budget, resyncs: 0 })
+        Ok(Self {
+            link: Link::new(port),
+            reopen,
+            push,
+            hash,
+            design_id,
+            budget,
+            resyncs: 0,
+        })
     }
 
     fn hash_ok(&mut self) -> Result<bool, LinkError> {
@@ -161,7 +184,9 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 }
             }
             if !self.hash_ok().map_err(BoardError::Link)? {
-                return Err(BoardError::Refused("the design did not take: hash differs".into()));
+                return Err(BoardError::Refused(
+                    "the design did not take: hash differs".into(),
+                ));
             }
         }
         Ok(id)
@@ -201,7 +226,14 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 }
             }
         }
-        Err(BoardError::Link(last.unwrap_or(LinkError::Timeout("no reply".into()))))
+        Err(BoardError::Link(
+            last.unwrap_or(LinkError::Timeout("no reply".into())),
+        ))
+    }
+
+    /// Time one reply may take.
+    pub fn set_reply_timeout(&mut self, t: Duration) {
+        self.link.reply_timeout = t;
     }
 
     /// The design identifier for the log.
@@ -211,7 +243,8 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
 }
 
 fn num(s: Option<&str>) -> Value {
-    s.and_then(|t| t.parse::<f64>().ok()).map_or(Value::Null, Value::from)
+    s.and_then(|t| t.parse::<f64>().ok())
+        .map_or(Value::Null, Value::from)
 }
 
 /// The log record of one board from the machine reply of `test`/`check`: the shape of
@@ -243,13 +276,18 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, unix_s: f64)
                         .collect()
                 })
                 .unwrap_or_default();
-            faults.push(json!({"part": part, "mode": get("mode"), "score": num(get("score")),
-                               "estimate": num(get("estimate")), "equivalent": equivalent}));
+            faults.push(
+                json!({"part": part, "mode": get("mode"), "score": num(get("score")),
+                               "estimate": num(get("estimate")), "equivalent": equivalent}),
+            );
         } else if get("derived").is_some() {
             for k in ["ic", "ib", "vbe", "vce", "beta"] {
                 derived.insert(k.into(), num(get(k)));
             }
-            derived.insert("region".into(), get("region").map_or(Value::Null, Value::from));
+            derived.insert(
+                "region".into(),
+                get("region").map_or(Value::Null, Value::from),
+            );
         }
     }
     json!({
@@ -303,16 +341,19 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
         write!(out, "{prompt}").ok();
         out.flush().ok();
         let mut l = String::new();
-        let n = input.read_line(&mut l).map_err(|e| CliError::usage(format!("stdin: {e}")))?;
+        let n = input
+            .read_line(&mut l)
+            .map_err(|e| CliError::usage(format!("stdin: {e}")))?;
         Ok((n > 0).then(|| l.trim().to_owned()))
     };
-    loop {
-        let Some(serial) = ask(out, "serial number (empty to stop): ")? else { break };
+    while let Some(serial) = ask(out, "serial number (empty to stop): ")? {
         if serial.is_empty() {
             break;
         }
         let action = if manual {
-            let Some(r) = ask(out, "readings VCC VB VE VC: ")? else { break };
+            let Some(r) = ask(out, "readings VCC VB VE VC: ")? else {
+                break;
+            };
             format!("check {r}")
         } else {
             "test".to_owned()
@@ -343,7 +384,11 @@ impl Cmd {
         let doc = designfile::load(&self.design)?;
         let push = push_lines(&doc.stage, &doc.profile, doc.temp_c);
         let hash = expected_hash(&doc.stage, &doc.profile, doc.temp_c).ok_or_else(|| {
-            CliError::field("--design", self.design.display(), "a stage the console accepts")
+            CliError::field(
+                "--design",
+                self.design.display(),
+                "a stage the console accepts",
+            )
         })?;
         let stdin = std::io::stdin();
         let mut out = std::io::stderr();
@@ -352,7 +397,10 @@ impl Cmd {
             std::thread::spawn(move || serve(unit));
             let mut host = Some(host);
             let mut st = Station::new(
-                move || host.take().ok_or(LinkError::Disconnected("in-process console".into())),
+                move || {
+                    host.take()
+                        .ok_or(LinkError::Disconnected("in-process console".into()))
+                },
                 push,
                 hash,
                 doc.id.clone(),
@@ -364,8 +412,14 @@ impl Cmd {
         } else {
             let path = self.port.clone().unwrap_or_default();
             let baud = self.baud;
-            let mut st = Station::new(|| SerialLink::open(&path, baud), push, hash, doc.id.clone(), budget)
-                .map_err(link_error)?;
+            let mut st = Station::new(
+                || SerialLink::open(&path, baud),
+                push,
+                hash,
+                doc.id.clone(),
+                budget,
+            )
+            .map_err(link_error)?;
             let id = st.prepare().map_err(board_err)?;
             eprintln!("instrument: {id}; design {} pushed and verified", doc.id);
             run_loop(&mut st, stdin.lock(), &mut out, &self.log, false)?
@@ -392,12 +446,199 @@ pub fn serve(mut port: MemoryPort) {
             Ok(0) => continue,
             Ok(n) => {
                 out.clear();
-                let _ = c.feed(&buf[..n], &mut embedded_io_adapters::std::FromStd::new(&mut out));
+                let _ = c.feed(
+                    &buf[..n],
+                    &mut embedded_io_adapters::std::FromStd::new(&mut out),
+                );
                 if port.send(&out).is_err() {
                     return;
                 }
             }
             Err(_) => return,
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use biasjig_core::console::jig::MemoryStore;
+    use biasjig_core::console::{default_profile, default_stage, Console, Identity, Jig, JigError};
+    use biasjig_core::stage::{Readings, Resistor};
+    use embedded_io_adapters::std::FromStd;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    use std::sync::Arc;
+
+    use crate::cmd::console::StdClock;
+
+    /// Board i reads VB = 2.0 V when i is even (pass) and 0.5 V when odd (fail).
+    struct Boards(Arc<AtomicUsize>);
+
+    impl Jig for Boards {
+        fn measure(&mut self, _samples: u16) -> Result<Readings, JigError> {
+            let i = self.0.load(Ordering::SeqCst);
+            let vb = if i % 2 == 0 { 2.0 } else { 0.5 };
+            Ok(Readings {
+                vcc: 12.0,
+                vb,
+                ve: vb - 0.65,
+                vc: 6.0,
+            })
+        }
+    }
+
+    fn engine(board: Arc<AtomicUsize>) -> Console<Boards, MemoryStore, StdClock> {
+        Console::new(
+            Identity::new("fake", "1"),
+            Boards(board),
+            MemoryStore::default(),
+            StdClock::default(),
+        )
+    }
+
+    /// The fake instrument: the console engine behind a memory pair. It answers `test` from
+    /// `measure` (the engine's own `test` waits on the check module): verdict by VB. Every
+    /// `reset_every`-th `test` it resets instead (forgets the design, says a boot line of
+    /// garbage, answers nothing); every `garbage_every`-th `test` it answers garbage first.
+    fn instrument(
+        mut port: MemoryPort,
+        board: Arc<AtomicUsize>,
+        reset_every: usize,
+        garbage_every: usize,
+    ) {
+        let mut c = engine(board.clone());
+        let mut tests = 0;
+        let mut pending = Vec::new();
+        let mut buf = [0u8; 256];
+        loop {
+            let n = match port.recv(&mut buf, Duration::from_secs(30)) {
+                Ok(0) => continue,
+                Ok(n) => n,
+                Err(_) => return,
+            };
+            pending.extend_from_slice(&buf[..n]);
+            while let Some(pos) = pending.iter().position(|b| *b == b'\n') {
+                let line: Vec<u8> = pending.drain(..=pos).collect();
+                let text = String::from_utf8_lossy(&line[..pos]).trim().to_owned();
+                let mut out = Vec::new();
+                if text == "test" {
+                    tests += 1;
+                    if tests % reset_every == 0 {
+                        c = engine(board.clone());
+                        pending.clear();
+                        let _ = port.send(b"\xff\xfe\x00boot\r\n");
+                        break;
+                    }
+                    if tests % garbage_every == 0 {
+                        out.extend_from_slice(b"\x01\x02garbage\r\n");
+                    }
+                    let mut data = Vec::new();
+                    c.line("measure", &mut FromStd::new(&mut data)).unwrap();
+                    let d = String::from_utf8(data).unwrap();
+                    let vb: f64 = d
+                        .split(' ')
+                        .find_map(|kv| kv.strip_prefix("vb="))
+                        .unwrap()
+                        .parse()
+                        .unwrap();
+                    let pass = (1.9..=2.1).contains(&vb);
+                    out.extend_from_slice(
+                        format!(
+                            "verdict={}\r\nnode=vb measured={vb} low=1.9 high=2.1 ok={}\r\n{}ok\r\n",
+                            if pass { "pass" } else { "fail" },
+                            u8::from(pass),
+                            if pass { "" } else { "fault=R2 mode=short score=0.9 estimate=none equivalent=none\r\n" }
+                        )
+                        .as_bytes(),
+                    );
+                } else {
+                    c.line(&text, &mut FromStd::new(&mut out)).unwrap();
+                }
+                if port.send(&out).is_err() {
+                    return;
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn resets_and_garbage_lose_no_record() {
+        let (host, unit) = MemoryPort::pair();
+        let board = Arc::new(AtomicUsize::new(0));
+        let b2 = board.clone();
+        std::thread::spawn(move || instrument(unit, b2, 4, 3));
+        let mut stage = default_stage();
+        stage.r1.value = 56e3;
+        let profile = default_profile();
+        let hash = expected_hash(&stage, &profile, 25.0).unwrap();
+        let mut host = Some(host.clone());
+        let keep = host.clone();
+        let mut st = Station::new(
+            move || Ok(host.take().or_else(|| keep.clone()).unwrap()),
+            push_lines(&stage, &profile, 25.0),
+            hash,
+            "demo-1".into(),
+            Duration::from_secs(5),
+        )
+        .unwrap();
+        st.set_reply_timeout(Duration::from_millis(400));
+        st.prepare().unwrap();
+        let dir = std::env::temp_dir().join(format!("biasjig-station-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let log = dir.join("boards.jsonl");
+        let _ = std::fs::remove_file(&log);
+        // Serial numbers typed; the board counter follows the serial (board i is SN-i).
+        struct Feed(Arc<AtomicUsize>, usize, Vec<u8>, usize);
+        impl std::io::Read for Feed {
+            fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+                if self.3 >= self.2.len() {
+                    if self.1 >= 12 {
+                        return Ok(0);
+                    }
+                    self.0.store(self.1, Ordering::SeqCst);
+                    self.2 = format!("SN-{}\n", self.1).into_bytes();
+                    self.3 = 0;
+                    self.1 += 1;
+                }
+                let n = buf.len().min(self.2.len() - self.3);
+                buf[..n].copy_from_slice(&self.2[self.3..self.3 + n]);
+                self.3 += n;
+                Ok(n)
+            }
+        }
+        let input = std::io::BufReader::with_capacity(1, Feed(board, 0, Vec::new(), 0));
+        let mut screen = Vec::new();
+        let n = run_loop(&mut st, input, &mut screen, &log, false).unwrap();
+        assert_eq!(n, 12);
+        assert!(st.resyncs >= 2, "resets happened: {}", st.resyncs);
+        let text = std::fs::read_to_string(&log).unwrap();
+        let recs: Vec<Value> = text
+            .lines()
+            .map(|l| serde_json::from_str(l).unwrap())
+            .collect();
+        assert_eq!(recs.len(), 12, "no record lost or doubled");
+        for (i, r) in recs.iter().enumerate() {
+            assert_eq!(r["serial"], format!("SN-{i}"));
+            assert_eq!(r["verdict"], if i % 2 == 0 { "pass" } else { "fail" });
+            assert_eq!(r["hash"], format!("{hash:016x}"));
+            assert_eq!(r["nodes"]["vb"]["ok"], i % 2 == 0);
+        }
+        assert_eq!(recs[1]["faults"][0]["part"], "R2");
+        let shown = String::from_utf8(screen).unwrap();
+        assert!(
+            shown.contains("P A S S") && shown.contains("F A I L"),
+            "{shown}"
+        );
+        let _ = Resistor::R1;
+    }
+
+    #[test]
+    fn pushed_design_hash_matches() {
+        let stage = default_stage();
+        let profile = default_profile();
+        assert_eq!(
+            expected_hash(&stage, &profile, 25.0),
+            Some(design_hash(&stage, &profile))
+        );
     }
 }
