@@ -26,7 +26,9 @@ use crate::thermal_voltage;
 
 /// Conductance of a short inside the transistor, S.
 const SHORT_CONDUCTANCE: f64 = 1e4;
-/// Leakage conductance across each junction that keeps the equations regular, S.
+/// Leakage conductance across each junction that keeps the equations regular where a terminal
+/// floats (its equation is then a current, which can be flat in deep reverse bias), S. With every
+/// terminal driven the loop equations are regular on their own and no leakage is added.
 const JUNCTION_GMIN: f64 = 1e-15;
 /// Exponent above which the junction exponential continues as a straight line.
 const EXP_LINEAR_ABOVE: f64 = 80.0;
@@ -173,6 +175,8 @@ struct Junction {
     is_br: f64,
     /// 1/VA (0 for no Early effect).
     inv_va: f64,
+    /// Leakage conductance across each junction, S.
+    gmin: f64,
     fault: Option<DeviceFault>,
 }
 
@@ -239,10 +243,10 @@ impl Junction {
         let it = self.is * (ea - ec) * q;
         let dit_a = self.is * sa * q;
         let dit_c = -self.is * sc * q + self.is * (ea - ec) * dq;
-        let ibe = self.is_bf * (ea - 1.0) + JUNCTION_GMIN * a;
-        let ibc = self.is_br * (ec - 1.0) + JUNCTION_GMIN * c;
-        let dibe = self.is_bf * sa + JUNCTION_GMIN;
-        let dibc = self.is_br * sc + JUNCTION_GMIN;
+        let ibe = self.is_bf * (ea - 1.0) + self.gmin * a;
+        let ibc = self.is_br * (ec - 1.0) + self.gmin * c;
+        let dibe = self.is_bf * sa + self.gmin;
+        let dibc = self.is_br * sc + self.gmin;
         Currents {
             ib: ibe + ibc,
             ic: it - ibc,
@@ -613,6 +617,7 @@ pub fn solve(
         is_bf: is / beta,
         is_br: is / profile.beta_rev,
         inv_va: profile.early.map_or(0.0, |va| 1.0 / va),
+        gmin: 0.0,
         fault: cond.fault,
     };
     let base = divider(vcc, r_top, r_bottom)?;
@@ -623,6 +628,14 @@ pub fn solve(
         matches!(coll, Net::Free) || cond.fault == Some(DeviceFault::BcOpen),
         matches!(emit, Net::Free) || cond.fault == Some(DeviceFault::BeOpen),
     ];
+    let j = if free == [false; 3] {
+        j
+    } else {
+        Junction {
+            gmin: JUNCTION_GMIN,
+            ..j
+        }
+    };
     let p = Problem {
         vcc,
         base,

@@ -1,6 +1,35 @@
 //! Spread of the operating point: worst case, seeded Monte Carlo, sensitivity.
 //!
-//! (Types fixed here; the computation is built by the spread issue.)
+//! What varies (the *factors*): every bias resistor within its tolerance (from the stage), the
+//! supply within its tolerance (from the stage), hFE between the profile's minimum and maximum,
+//! and the ambient within the range of a [`Variation`]. Every evaluation is one exact solve of
+//! [`solve::solve`](crate::solve::solve), the same engine as everywhere else.
+//!
+//! - **Worst case** ([`worst_case`]): the extremes over the corners of the factor box. With few
+//!   factors every corner is solved (at most 2⁸ = 256); otherwise (or when asked) the vertex
+//!   method picks, per node and direction, the corner given by the signs of the sensitivities and
+//!   confirms it by solving it and its neighbours (one factor flipped) until no neighbour is more
+//!   extreme. The centre point is included, so the range always brackets the nominal point.
+//! - **Monte Carlo** ([`monte_carlo`]): seeded Xoshiro256++ (`seed_from_u64`), uniform `f64`
+//!   from the top 53 bits, normal deviates by Box-Muller with `libm`, so the same seed gives the
+//!   same numbers on every platform. Streaming statistics (Welford mean and variance, min, max,
+//!   a fixed-bin histogram over the worst-case range with quantiles from it) with no allocation.
+//! - **Sensitivity** ([`sensitivity`]): one factor at a time from the centre to each end of its
+//!   range; the half-range effect `d` and the variance it contributes (`d²/3` for a uniform
+//!   factor) give each factor's share of each node's variance, ranked.
+//!
+//! Nodes: VB, VE, VC, VBE, VCE, IC (V and A, signed as in the operating point), the midband gain
+//! v(load)/v(source EMF) (signed) and the symmetrical swing at the load (V peak-to-peak).
+
+use num_complex::Complex64 as C;
+use rand_core::{Rng, SeedableRng};
+use rand_xoshiro::Xoshiro256PlusPlus;
+
+use crate::acnet::{self, Setup, OUT};
+use crate::device::{Profile, ProfileError};
+use crate::signal::swing;
+use crate::solve::{solve, Conditions, Region, SolveError};
+use crate::stage::{Resistor, Stage, StageError};
 
 /// How a part's value is distributed within its tolerance in the Monte Carlo run.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -35,4 +64,1176 @@ impl Variation {
             distribution: Distribution::Uniform,
         }
     }
+
+    /// Parts and hFE vary; the ambient spans `temp_min_c` to `temp_max_c`, °C.
+    pub fn between(temp_min_c: f64, temp_max_c: f64) -> Self {
+        Self {
+            temp_min_c,
+            temp_max_c,
+            distribution: Distribution::Uniform,
+        }
+    }
+
+    /// The middle of the ambient range, °C.
+    pub fn temp_centre_c(&self) -> f64 {
+        0.5 * (self.temp_min_c + self.temp_max_c)
+    }
+
+    /// Check the range (finite, min <= max, within -55 °C to 150 °C) and the distribution.
+    pub fn validate(&self) -> Result<(), SpreadError> {
+        let ok = |t: f64| t.is_finite() && (-55.0..=150.0).contains(&t);
+        if !(ok(self.temp_min_c) && ok(self.temp_max_c) && self.temp_min_c <= self.temp_max_c) {
+            return Err(SpreadError::TempRange);
+        }
+        if let Distribution::Normal { sigmas } = self.distribution {
+            if !(sigmas.is_finite() && (0.5..=10.0).contains(&sigmas)) {
+                return Err(SpreadError::Sigmas);
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Why a spread could not be computed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum SpreadError {
+    /// A stage field is out of range.
+    Stage(StageError),
+    /// A profile field is out of range.
+    Profile(ProfileError),
+    /// The ambient range must be finite, min <= max, within -55 °C to 150 °C.
+    TempRange,
+    /// The normal distribution's sigmas must be between 0.5 and 10.
+    Sigmas,
+    /// A corner or the centre of the factor box has no operating point.
+    Solve(SolveError),
+}
+
+impl core::fmt::Display for SpreadError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        match self {
+            Self::Stage(e) => write!(f, "stage: {e}"),
+            Self::Profile(e) => write!(f, "transistor: {e}"),
+            Self::TempRange => f.write_str(
+                "temperature range: min and max must lie between -55 °C and 150 °C with min <= max",
+            ),
+            Self::Sigmas => f.write_str("normal distribution: sigmas must be between 0.5 and 10"),
+            Self::Solve(e) => write!(f, "a corner of the spread: {e}"),
+        }
+    }
+}
+
+impl From<SolveError> for SpreadError {
+    fn from(e: SolveError) -> Self {
+        Self::Solve(e)
+    }
+}
+
+/// A quantity the spread reports.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Node {
+    /// Base voltage, V.
+    Vb,
+    /// Emitter voltage, V.
+    Ve,
+    /// Collector voltage, V.
+    Vc,
+    /// VB − VE, V (signed).
+    Vbe,
+    /// VC − VE, V (signed).
+    Vce,
+    /// Collector current, A.
+    Ic,
+    /// Midband gain v(load)/v(source EMF), signed.
+    Gain,
+    /// Largest undistorted symmetrical swing at the load, V peak-to-peak.
+    Swing,
+}
+
+impl Node {
+    /// Every node, in report order.
+    pub const ALL: [Node; 8] = [
+        Self::Vb,
+        Self::Ve,
+        Self::Vc,
+        Self::Vbe,
+        Self::Vce,
+        Self::Ic,
+        Self::Gain,
+        Self::Swing,
+    ];
+
+    /// The machine name: "vb", "ve", "vc", "vbe", "vce", "ic", "gain", "swing".
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Vb => "vb",
+            Self::Ve => "ve",
+            Self::Vc => "vc",
+            Self::Vbe => "vbe",
+            Self::Vce => "vce",
+            Self::Ic => "ic",
+            Self::Gain => "gain",
+            Self::Swing => "swing",
+        }
+    }
+
+    /// The trade's name: "VB", ..., "gain", "swing".
+    pub fn label(self) -> &'static str {
+        match self {
+            Self::Vb => "VB",
+            Self::Ve => "VE",
+            Self::Vc => "VC",
+            Self::Vbe => "VBE",
+            Self::Vce => "VCE",
+            Self::Ic => "IC",
+            Self::Gain => "gain",
+            Self::Swing => "swing",
+        }
+    }
+
+    /// The SI unit symbol ("V", "A", or "" for the gain).
+    pub fn unit(self) -> &'static str {
+        match self {
+            Self::Ic => "A",
+            Self::Gain => "",
+            _ => "V",
+        }
+    }
+}
+
+/// One value of type `T` per [`Node`].
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Nodes<T> {
+    /// Base voltage.
+    pub vb: T,
+    /// Emitter voltage.
+    pub ve: T,
+    /// Collector voltage.
+    pub vc: T,
+    /// VB − VE.
+    pub vbe: T,
+    /// VC − VE.
+    pub vce: T,
+    /// Collector current.
+    pub ic: T,
+    /// Midband gain.
+    pub gain: T,
+    /// Output swing.
+    pub swing: T,
+}
+
+impl<T> Nodes<T> {
+    /// Every node filled from `f`.
+    pub fn from_fn(mut f: impl FnMut(Node) -> T) -> Self {
+        Self {
+            vb: f(Node::Vb),
+            ve: f(Node::Ve),
+            vc: f(Node::Vc),
+            vbe: f(Node::Vbe),
+            vce: f(Node::Vce),
+            ic: f(Node::Ic),
+            gain: f(Node::Gain),
+            swing: f(Node::Swing),
+        }
+    }
+
+    /// The value of one node.
+    pub fn get(&self, n: Node) -> &T {
+        match n {
+            Node::Vb => &self.vb,
+            Node::Ve => &self.ve,
+            Node::Vc => &self.vc,
+            Node::Vbe => &self.vbe,
+            Node::Vce => &self.vce,
+            Node::Ic => &self.ic,
+            Node::Gain => &self.gain,
+            Node::Swing => &self.swing,
+        }
+    }
+
+    /// Mutable access to one node's value.
+    pub fn get_mut(&mut self, n: Node) -> &mut T {
+        match n {
+            Node::Vb => &mut self.vb,
+            Node::Ve => &mut self.ve,
+            Node::Vc => &mut self.vc,
+            Node::Vbe => &mut self.vbe,
+            Node::Vce => &mut self.vce,
+            Node::Ic => &mut self.ic,
+            Node::Gain => &mut self.gain,
+            Node::Swing => &mut self.swing,
+        }
+    }
+}
+
+/// Something that varies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Factor {
+    /// A resistor within its tolerance.
+    Resistor(Resistor),
+    /// hFE between the profile's minimum and maximum.
+    Beta,
+    /// The ambient across the range.
+    Temp,
+    /// The supply within its tolerance.
+    Supply,
+}
+
+impl Factor {
+    /// Every factor, in report order.
+    pub const ALL: [Factor; 8] = [
+        Self::Resistor(Resistor::R1),
+        Self::Resistor(Resistor::R2),
+        Self::Resistor(Resistor::Rc),
+        Self::Resistor(Resistor::Re1),
+        Self::Resistor(Resistor::Re2),
+        Self::Beta,
+        Self::Temp,
+        Self::Supply,
+    ];
+
+    /// The name as printed: "R1", ..., "hFE", "ambient", "VCC".
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Resistor(r) => r.name(),
+            Self::Beta => "hFE",
+            Self::Temp => "ambient",
+            Self::Supply => "VCC",
+        }
+    }
+}
+
+/// Number of factors.
+pub const FACTORS: usize = 8;
+
+/// One evaluation: the node values and whether the transistor is forward active.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sample {
+    /// The node values (gain 0 when it was not computed or the network is singular).
+    pub values: Nodes<f64>,
+    /// The operating region.
+    pub region: Region,
+}
+
+/// A point of the factor box in physical terms.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Draw {
+    /// Resistor values, Ω, in [`Resistor::ALL`] order.
+    r: [f64; 5],
+    /// Supply, V.
+    vcc: f64,
+    /// hFE at 25 °C.
+    beta_25: f64,
+    /// Ambient, °C.
+    temp_c: f64,
+}
+
+/// The low and high end of each factor.
+#[derive(Debug, Clone, Copy)]
+struct Box8 {
+    lo: [f64; FACTORS],
+    hi: [f64; FACTORS],
+    centre: [f64; FACTORS],
+}
+
+impl Box8 {
+    fn new(stage: &Stage, profile: &Profile, var: &Variation) -> Self {
+        let mut lo = [0.0; FACTORS];
+        let mut hi = [0.0; FACTORS];
+        let mut centre = [0.0; FACTORS];
+        for (k, f) in Factor::ALL.iter().enumerate() {
+            let (l, c, h) = match f {
+                Factor::Resistor(r) => {
+                    let p = stage.part(*r);
+                    (p.value * (1.0 - p.tol), p.value, p.value * (1.0 + p.tol))
+                }
+                Factor::Beta => (profile.beta_min, profile.beta_typ, profile.beta_max),
+                Factor::Temp => (var.temp_min_c, var.temp_centre_c(), var.temp_max_c),
+                Factor::Supply => {
+                    let p = stage.vcc;
+                    (p.value * (1.0 - p.tol), p.value, p.value * (1.0 + p.tol))
+                }
+            };
+            if let (Some(a), Some(b), Some(m)) = (lo.get_mut(k), hi.get_mut(k), centre.get_mut(k)) {
+                *a = l;
+                *b = h;
+                *m = c;
+            }
+        }
+        Self { lo, hi, centre }
+    }
+
+    /// Whether factor `k` varies at all.
+    fn active(&self, k: usize) -> bool {
+        matches!((self.lo.get(k), self.hi.get(k)), (Some(l), Some(h)) if l != h)
+    }
+
+    /// The point with factor k at `lo` where bit k of `high` is clear, `hi` where set, except
+    /// factors listed in `at_centre` (bit set: centre).
+    fn corner(&self, high: u16, at_centre: u16) -> [f64; FACTORS] {
+        core::array::from_fn(|k| {
+            let bit = 1u16 << k;
+            let pick = if at_centre & bit != 0 {
+                self.centre.get(k)
+            } else if high & bit != 0 {
+                self.hi.get(k)
+            } else {
+                self.lo.get(k)
+            };
+            pick.copied().unwrap_or(0.0)
+        })
+    }
+}
+
+fn draw_of(x: &[f64; FACTORS]) -> Draw {
+    let [r1, r2, rc, re1, re2, beta_25, temp_c, vcc] = *x;
+    Draw {
+        r: [r1, r2, rc, re1, re2],
+        vcc,
+        beta_25,
+        temp_c,
+    }
+}
+
+/// The stage and conditions of one draw.
+fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
+    let mut s = *stage;
+    for (r, v) in Resistor::ALL.iter().zip(d.r) {
+        s.part_mut(*r).value = v;
+    }
+    s.vcc.value = d.vcc;
+    (
+        s,
+        Conditions {
+            temp_c: d.temp_c,
+            beta_25: d.beta_25,
+            fault: None,
+        },
+    )
+}
+
+/// Midband gain v(load)/v(source EMF) of `stage` at `op` (one small-signal solve), or 0 when
+/// the network is singular or the transistor is not active.
+fn gain_of(stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
+    let mut setup = Setup::midband();
+    let mut inject = [C::new(0.0, 0.0); 6];
+    if let Some(slot) = inject.get_mut(acnet::IN) {
+        *slot = C::new(acnet::source_conductance(stage), 0.0);
+    }
+    setup.inject = inject;
+    match acnet::solve(stage, &op.y, &setup) {
+        Some(v) => {
+            let g = v.get(OUT).map_or(0.0, |c| c.re);
+            if g.is_finite() {
+                g
+            } else {
+                0.0
+            }
+        }
+        None => 0.0,
+    }
+}
+
+/// Evaluate one draw: one exact solve, the swing, and the gain when `signal`.
+fn evaluate(
+    stage: &Stage,
+    profile: &Profile,
+    d: &Draw,
+    signal: bool,
+) -> Result<Sample, SolveError> {
+    let (s, cond) = apply(stage, d);
+    let op = solve(&s, profile, cond)?;
+    let (sw, _) = swing(&s, profile, &op);
+    let gain = if signal { gain_of(&s, &op) } else { 0.0 };
+    Ok(Sample {
+        values: Nodes {
+            vb: op.vb,
+            ve: op.ve,
+            vc: op.vc,
+            vbe: op.vbe,
+            vce: op.vce,
+            ic: op.ic,
+            gain,
+            swing: sw,
+        },
+        region: op.region,
+    })
+}
+
+fn validate(stage: &Stage, profile: &Profile, var: &Variation) -> Result<(), SpreadError> {
+    stage.validate().map_err(SpreadError::Stage)?;
+    profile.validate().map_err(SpreadError::Profile)?;
+    var.validate()
+}
+
+/// The operating point at the centre of the factor box: nominal parts and supply, typical hFE,
+/// the middle of the ambient range.
+pub fn centre(stage: &Stage, profile: &Profile, var: &Variation) -> Result<Sample, SpreadError> {
+    validate(stage, profile, var)?;
+    let b = Box8::new(stage, profile, var);
+    Ok(evaluate(stage, profile, &draw_of(&b.centre), true)?)
+}
+
+/// A range of one quantity.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Range {
+    /// Lowest value.
+    pub min: f64,
+    /// Highest value.
+    pub max: f64,
+}
+
+impl Range {
+    /// An empty range (min = +∞, max = −∞) that any value widens.
+    pub const EMPTY: Range = Range {
+        min: f64::INFINITY,
+        max: f64::NEG_INFINITY,
+    };
+
+    /// Widen the range to include `v` (non-finite values are ignored).
+    pub fn include(&mut self, v: f64) {
+        if v.is_finite() {
+            if v < self.min {
+                self.min = v;
+            }
+            if v > self.max {
+                self.max = v;
+            }
+        }
+    }
+
+    /// The value lies inside the range, with a relative slack `rel` of the larger magnitude
+    /// plus an absolute slack `abs`.
+    pub fn brackets(&self, v: f64, rel: f64, abs: f64) -> bool {
+        let m = libm::fmax(libm::fabs(self.min), libm::fabs(self.max));
+        let slack = rel * m + abs;
+        v >= self.min - slack && v <= self.max + slack
+    }
+}
+
+impl Default for Range {
+    fn default() -> Self {
+        Self::EMPTY
+    }
+}
+
+/// How the worst case picks its corners.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Method {
+    /// Every corner when there are at most `max_corners` of them, else the vertex method.
+    Auto {
+        /// Largest number of corners solved exhaustively.
+        max_corners: u16,
+    },
+    /// Every corner.
+    Exhaustive,
+    /// Corners from the signs of the sensitivities, confirmed by solving their neighbours.
+    Vertex,
+}
+
+impl Default for Method {
+    /// Exhaustive up to 512 corners (every case with the eight factors here).
+    fn default() -> Self {
+        Self::Auto { max_corners: 512 }
+    }
+}
+
+/// The worst case of every node.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WorstCase {
+    /// Range of each node over the corners solved (and the centre).
+    pub nodes: Nodes<Range>,
+    /// Number of solves it took.
+    pub solves: u32,
+    /// Whether every corner was solved (`false`: vertex method).
+    pub exhaustive: bool,
+    /// Number of factors that vary.
+    pub factors: u8,
+}
+
+/// Largest number of passes of the vertex method's neighbour search per node and direction.
+const VERTEX_PASSES: u8 = 3;
+
+/// The worst case of every node over the corners of the factor box (see the module notes).
+pub fn worst_case(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    method: Method,
+) -> Result<WorstCase, SpreadError> {
+    validate(stage, profile, var)?;
+    let b = Box8::new(stage, profile, var);
+    worst_case_in(stage, profile, &b, method, true)
+}
+
+fn active_mask(b: &Box8) -> u16 {
+    (0..FACTORS)
+        .filter(|k| b.active(*k))
+        .fold(0u16, |m, k| m | (1 << k))
+}
+
+/// Enumerate the subsets of `mask` (every corner over the active factors).
+fn for_each_corner(
+    mask: u16,
+    mut f: impl FnMut(u16) -> Result<(), SpreadError>,
+) -> Result<(), SpreadError> {
+    let mut sub: u16 = 0;
+    loop {
+        f(sub)?;
+        if sub == mask {
+            return Ok(());
+        }
+        sub = (sub.wrapping_sub(mask)) & mask;
+    }
+}
+
+fn worst_case_in(
+    stage: &Stage,
+    profile: &Profile,
+    b: &Box8,
+    method: Method,
+    signal: bool,
+) -> Result<WorstCase, SpreadError> {
+    let mask = active_mask(b);
+    let n = mask.count_ones();
+    let corners = 1u32 << n;
+    let exhaustive = match method {
+        Method::Exhaustive => true,
+        Method::Vertex => false,
+        Method::Auto { max_corners } => corners <= u32::from(max_corners),
+    };
+    let mut nodes: Nodes<Range> = Nodes::default();
+    let mut solves = 0u32;
+    let mut record = |s: &Sample, solves: &mut u32| {
+        *solves += 1;
+        for node in Node::ALL {
+            nodes.get_mut(node).include(*s.values.get(node));
+        }
+    };
+    let centre = evaluate(stage, profile, &draw_of(&b.centre), signal)?;
+    record(&centre, &mut solves);
+    if exhaustive {
+        for_each_corner(mask, |c| {
+            let s = evaluate(stage, profile, &draw_of(&b.corner(c, 0)), signal)?;
+            record(&s, &mut solves);
+            Ok(())
+        })?;
+    } else {
+        // Signs of the half-range effects, one factor at a time from the centre.
+        let mut up: Nodes<u16> = Nodes::default();
+        for k in (0..FACTORS).filter(|k| mask & (1 << k) != 0) {
+            let others = !(1u16 << k);
+            let lo = evaluate(stage, profile, &draw_of(&b.corner(0, others)), signal)?;
+            let hi = evaluate(stage, profile, &draw_of(&b.corner(1 << k, others)), signal)?;
+            record(&lo, &mut solves);
+            record(&hi, &mut solves);
+            for node in Node::ALL {
+                if hi.values.get(node) > lo.values.get(node) {
+                    *up.get_mut(node) |= 1 << k;
+                }
+            }
+        }
+        for node in Node::ALL {
+            for want_max in [false, true] {
+                let start = if want_max {
+                    *up.get(node)
+                } else {
+                    mask & !*up.get(node)
+                };
+                let value = |s: &Sample| {
+                    let v = *s.values.get(node);
+                    if want_max {
+                        v
+                    } else {
+                        -v
+                    }
+                };
+                let mut best_corner = start;
+                let first = evaluate(stage, profile, &draw_of(&b.corner(start, 0)), signal)?;
+                record(&first, &mut solves);
+                let mut best = value(&first);
+                for _ in 0..VERTEX_PASSES {
+                    let mut improved = false;
+                    for k in (0..FACTORS).filter(|k| mask & (1 << k) != 0) {
+                        let c = best_corner ^ (1 << k);
+                        let s = evaluate(stage, profile, &draw_of(&b.corner(c, 0)), signal)?;
+                        record(&s, &mut solves);
+                        if value(&s) > best {
+                            best = value(&s);
+                            best_corner = c;
+                            improved = true;
+                        }
+                    }
+                    if !improved {
+                        break;
+                    }
+                }
+            }
+        }
+    }
+    Ok(WorstCase {
+        nodes,
+        solves,
+        exhaustive,
+        factors: n as u8,
+    })
+}
+
+/// Every corner of the factor box with the supply fixed at `vcc` (V, tolerance zero), DC only:
+/// `f(sample)` for each. Returns the number of solves.
+pub(crate) fn each_corner_at_supply(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    vcc: f64,
+    mut f: impl FnMut(&Sample),
+) -> Result<u32, SpreadError> {
+    let mut s = *stage;
+    s.vcc.value = vcc;
+    s.vcc.tol = 0.0;
+    validate(&s, profile, var)?;
+    let b = Box8::new(&s, profile, var);
+    let mut solves = 0u32;
+    let centre = evaluate(&s, profile, &draw_of(&b.centre), false)?;
+    f(&centre);
+    solves += 1;
+    for_each_corner(active_mask(&b), |c| {
+        let sample = evaluate(&s, profile, &draw_of(&b.corner(c, 0)), false)?;
+        f(&sample);
+        solves += 1;
+        Ok(())
+    })?;
+    Ok(solves)
+}
+
+/// Number of histogram bins.
+pub const BINS: usize = 40;
+
+/// A fixed-bin histogram over a range set before the first value.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Histogram {
+    /// Lower edge of the first bin.
+    pub lo: f64,
+    /// Upper edge of the last bin.
+    pub hi: f64,
+    /// Counts per bin.
+    pub bins: [u32; BINS],
+    /// Values below `lo`.
+    pub below: u32,
+    /// Values above `hi`.
+    pub above: u32,
+}
+
+impl Histogram {
+    /// An empty histogram over `lo` to `hi` (swapped if given the other way, widened if empty).
+    pub fn new(lo: f64, hi: f64) -> Self {
+        let (mut lo, mut hi) = if lo <= hi { (lo, hi) } else { (hi, lo) };
+        if !(lo.is_finite() && hi.is_finite()) {
+            lo = 0.0;
+            hi = 1.0;
+        }
+        if hi - lo <= 1e-12 * libm::fmax(libm::fabs(lo), libm::fabs(hi)) + 1e-300 {
+            let pad = 1e-9 * libm::fmax(libm::fabs(lo), 1e-12);
+            lo -= pad;
+            hi += pad;
+        }
+        Self {
+            lo,
+            hi,
+            bins: [0; BINS],
+            below: 0,
+            above: 0,
+        }
+    }
+
+    /// Width of one bin.
+    pub fn width(&self) -> f64 {
+        (self.hi - self.lo) / BINS as f64
+    }
+
+    /// Count one value.
+    pub fn add(&mut self, v: f64) {
+        let pos = (v - self.lo) * (BINS as f64 / (self.hi - self.lo));
+        if pos >= 0.0 && pos < BINS as f64 {
+            // In range, so the conversion is exact truncation below BINS.
+            if let Some(b) = self.bins.get_mut(pos as usize) {
+                *b = b.saturating_add(1);
+            }
+        } else if v < self.lo {
+            self.below = self.below.saturating_add(1);
+        } else if v <= self.hi {
+            // v == hi (or within rounding of it): the last bin is closed.
+            if let Some(b) = self.bins.last_mut() {
+                *b = b.saturating_add(1);
+            }
+        } else {
+            self.above = self.above.saturating_add(1);
+        }
+    }
+
+    /// Total count, including values outside the range.
+    pub fn count(&self) -> u32 {
+        self.bins
+            .iter()
+            .fold(self.below.saturating_add(self.above), |a, b| {
+                a.saturating_add(*b)
+            })
+    }
+
+    /// The `p`-quantile (0 to 1), linear within its bin; `None` when empty or when it falls
+    /// among the values outside the range.
+    pub fn quantile(&self, p: f64) -> Option<f64> {
+        let n = self.count();
+        if n == 0 || !(0.0..=1.0).contains(&p) {
+            return None;
+        }
+        let target = p * f64::from(n);
+        let mut seen = f64::from(self.below);
+        if target < seen {
+            return None;
+        }
+        let w = self.width();
+        for (k, c) in self.bins.iter().enumerate() {
+            let c = f64::from(*c);
+            if c > 0.0 && target <= seen + c {
+                let frac = (target - seen) / c;
+                return Some(self.lo + w * (k as f64 + frac));
+            }
+            seen += c;
+        }
+        if self.above == 0 {
+            Some(self.hi)
+        } else {
+            None
+        }
+    }
+}
+
+/// Streaming statistics of one quantity.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Stats {
+    /// Number of values.
+    pub count: u32,
+    /// Running mean.
+    pub mean: f64,
+    /// Running sum of squared deviations (Welford).
+    m2: f64,
+    /// Lowest and highest value.
+    pub range: Range,
+    /// Histogram over the worst-case range.
+    pub histogram: Histogram,
+}
+
+impl Stats {
+    /// Empty statistics with a histogram over `lo` to `hi`.
+    pub fn new(lo: f64, hi: f64) -> Self {
+        Self {
+            count: 0,
+            mean: 0.0,
+            m2: 0.0,
+            range: Range::EMPTY,
+            histogram: Histogram::new(lo, hi),
+        }
+    }
+
+    /// Add one value (non-finite values are ignored).
+    pub fn add(&mut self, v: f64) {
+        if !v.is_finite() {
+            return;
+        }
+        self.count = self.count.saturating_add(1);
+        let d = v - self.mean;
+        self.mean += d / f64::from(self.count);
+        self.m2 += d * (v - self.mean);
+        if v < self.range.min {
+            self.range.min = v;
+        }
+        if v > self.range.max {
+            self.range.max = v;
+        }
+        self.histogram.add(v);
+    }
+
+    /// Sample standard deviation (n − 1), 0 for fewer than two values.
+    pub fn std(&self) -> f64 {
+        if self.count < 2 {
+            0.0
+        } else {
+            libm::sqrt(self.m2 / f64::from(self.count - 1))
+        }
+    }
+
+    /// The `p`-quantile from the histogram (see [`Histogram::quantile`]), clamped to min and max.
+    pub fn quantile(&self, p: f64) -> Option<f64> {
+        let q = self.histogram.quantile(p)?;
+        Some(libm::fmin(libm::fmax(q, self.range.min), self.range.max))
+    }
+}
+
+/// What a board must meet to count toward the yield; `None` fields are not checked. A board
+/// counts only when its transistor is forward active.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Requirement {
+    /// Least gain magnitude |v(load)/v(source EMF)|.
+    pub gain_min: Option<f64>,
+    /// Largest gain magnitude.
+    pub gain_max: Option<f64>,
+    /// Least swing at the load, V peak-to-peak.
+    pub swing_min: Option<f64>,
+    /// Largest collector current, A.
+    pub ic_max: Option<f64>,
+}
+
+impl Requirement {
+    /// Whether the gain is needed to judge a sample.
+    pub fn needs_gain(&self) -> bool {
+        self.gain_min.is_some() || self.gain_max.is_some()
+    }
+
+    /// Whether a sample meets the requirement.
+    pub fn met(&self, s: &Sample) -> bool {
+        let g = libm::fabs(s.values.gain);
+        s.region == Region::Active
+            && self.gain_min.is_none_or(|m| g >= m)
+            && self.gain_max.is_none_or(|m| g <= m)
+            && self.swing_min.is_none_or(|m| s.values.swing >= m)
+            && self.ic_max.is_none_or(|m| s.values.ic <= m)
+    }
+}
+
+/// Monte Carlo settings.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct McSettings {
+    /// Number of samples.
+    pub runs: u32,
+    /// Seed of the generator.
+    pub seed: u64,
+    /// Compute the midband gain of each sample (one small-signal solve more per sample; forced
+    /// on when the requirement checks the gain).
+    pub signal: bool,
+    /// The requirement for the yield.
+    pub requirement: Requirement,
+}
+
+impl Default for McSettings {
+    /// 1000 runs, seed 1, with the gain, no requirement.
+    fn default() -> Self {
+        Self {
+            runs: 1000,
+            seed: 1,
+            signal: true,
+            requirement: Requirement::default(),
+        }
+    }
+}
+
+/// The result of a Monte Carlo run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MonteCarlo {
+    /// Samples asked for.
+    pub runs: u32,
+    /// Samples that had no operating point (left out of the statistics).
+    pub failed: u32,
+    /// Samples that met the requirement.
+    pub passed: u32,
+    /// Samples with the transistor forward active.
+    pub active: u32,
+    /// Whether the gain statistics were computed.
+    pub signal: bool,
+    /// Statistics per node.
+    pub nodes: Nodes<Stats>,
+}
+
+impl MonteCarlo {
+    /// Fraction of the runs that met the requirement (0 to 1), 0 for no runs.
+    pub fn yield_fraction(&self) -> f64 {
+        if self.runs == 0 {
+            0.0
+        } else {
+            f64::from(self.passed) / f64::from(self.runs)
+        }
+    }
+}
+
+/// The seeded generator and the deviates the Monte Carlo draws.
+struct Deviates {
+    rng: Xoshiro256PlusPlus,
+}
+
+/// 2⁻⁵³.
+const TWO_POW_M53: f64 = 1.0 / 9_007_199_254_740_992.0;
+/// Tries of the truncated normal before it clamps.
+const NORMAL_TRIES: u8 = 32;
+
+impl Deviates {
+    fn new(seed: u64) -> Self {
+        Self {
+            rng: Xoshiro256PlusPlus::seed_from_u64(seed),
+        }
+    }
+
+    /// Uniform on [0, 1) from the top 53 bits.
+    fn unit(&mut self) -> f64 {
+        (self.rng.next_u64() >> 11) as f64 * TWO_POW_M53
+    }
+
+    /// Uniform on [-1, 1): the top 53 bits times 2⁻⁵², less one (exactly 2·unit − 1).
+    fn symmetric(&mut self) -> f64 {
+        (self.rng.next_u64() >> 11) as f64 * (2.0 * TWO_POW_M53) - 1.0
+    }
+
+    /// Standard normal by Box-Muller (cosine branch).
+    fn normal(&mut self) -> f64 {
+        let u1 = 1.0 - self.unit(); // (0, 1]
+        let u2 = self.unit();
+        libm::sqrt(-2.0 * libm::log(u1)) * libm::cos(core::f64::consts::TAU * u2)
+    }
+
+    /// A relative deviation in [-1, 1] (times the tolerance gives the part's deviation).
+    fn deviation(&mut self, dist: Distribution) -> f64 {
+        match dist {
+            Distribution::Uniform => self.symmetric(),
+            Distribution::Normal { sigmas } => {
+                let mut z = 0.0;
+                for _ in 0..NORMAL_TRIES {
+                    z = self.normal();
+                    if libm::fabs(z) <= sigmas {
+                        return z / sigmas;
+                    }
+                }
+                libm::fmax(-1.0, libm::fmin(1.0, z / sigmas))
+            }
+        }
+    }
+
+    /// One draw of every factor, always in the same order (R1, R2, RC, RE1, RE2, VCC, hFE, ambient).
+    fn draw(&mut self, stage: &Stage, b: &Box8, dist: Distribution) -> Draw {
+        let mut r = [0.0; 5];
+        for (slot, res) in r.iter_mut().zip(Resistor::ALL) {
+            let p = stage.part(res);
+            *slot = p.value * (1.0 + p.tol * self.deviation(dist));
+        }
+        let vcc = stage.vcc.value * (1.0 + stage.vcc.tol * self.deviation(dist));
+        let between = |d: &mut Self, k: usize| {
+            let lo = b.lo.get(k).copied().unwrap_or(0.0);
+            let hi = b.hi.get(k).copied().unwrap_or(0.0);
+            lo + (hi - lo) * d.unit()
+        };
+        let beta_25 = between(self, 5);
+        let temp_c = between(self, 6);
+        Draw {
+            r,
+            vcc,
+            beta_25,
+            temp_c,
+        }
+    }
+}
+
+/// How often the Monte Carlo reports progress, samples.
+const PROGRESS_EVERY: u32 = 256;
+
+/// A seeded Monte Carlo run (see the module notes); `progress(done, total)` is called every
+/// 256 samples and at the end. The histograms span the worst-case range `wc` (widened by 5 % of
+/// its span on each side).
+pub fn monte_carlo(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    wc: &WorstCase,
+    settings: &McSettings,
+    progress: impl FnMut(u32, u32),
+) -> Result<MonteCarlo, SpreadError> {
+    monte_carlo_observed(stage, profile, var, wc, settings, progress, |_| {})
+}
+
+/// [`monte_carlo`] that also hands every sample to `on_sample` (for example for a Q-point cloud).
+pub fn monte_carlo_observed(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    wc: &WorstCase,
+    settings: &McSettings,
+    mut progress: impl FnMut(u32, u32),
+    mut on_sample: impl FnMut(&Sample),
+) -> Result<MonteCarlo, SpreadError> {
+    validate(stage, profile, var)?;
+    let b = Box8::new(stage, profile, var);
+    let signal = settings.signal || settings.requirement.needs_gain();
+    let nodes = Nodes::from_fn(|n| {
+        let r = wc.nodes.get(n);
+        let pad = 0.05 * (r.max - r.min);
+        Stats::new(r.min - pad, r.max + pad)
+    });
+    let mut mc = MonteCarlo {
+        runs: settings.runs,
+        failed: 0,
+        passed: 0,
+        active: 0,
+        signal,
+        nodes,
+    };
+    let mut dev = Deviates::new(settings.seed);
+    for i in 0..settings.runs {
+        let d = dev.draw(stage, &b, var.distribution);
+        match evaluate(stage, profile, &d, signal) {
+            Ok(s) => {
+                for n in Node::ALL {
+                    if n != Node::Gain || signal {
+                        mc.nodes.get_mut(n).add(*s.values.get(n));
+                    }
+                }
+                if s.region == Region::Active {
+                    mc.active += 1;
+                }
+                if settings.requirement.met(&s) {
+                    mc.passed += 1;
+                }
+                on_sample(&s);
+            }
+            Err(_) => mc.failed += 1,
+        }
+        let done = i + 1;
+        if done % PROGRESS_EVERY == 0 || done == settings.runs {
+            progress(done, settings.runs);
+        }
+    }
+    Ok(mc)
+}
+
+/// One factor's part in one node's spread.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Share {
+    /// The factor.
+    pub factor: Factor,
+    /// Half the change of the node from the factor's low end to its high end (node unit, signed).
+    pub effect: f64,
+    /// Variance the factor contributes (node unit squared).
+    pub variance: f64,
+    /// Fraction of the node's total variance (0 to 1; the shares of a node sum to 1).
+    pub share: f64,
+}
+
+/// Each factor's share of each node's variance, ranked largest first.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sensitivity {
+    /// Per node: the shares of every factor, largest first.
+    pub nodes: Nodes<[Share; FACTORS]>,
+    /// Per node: the standard deviation by the law of propagation (square root of the summed
+    /// variances), node unit.
+    pub std: Nodes<f64>,
+}
+
+/// Variance of a relative deviation drawn from `dist`, as a fraction of the tolerance squared:
+/// 1/3 for uniform; for a normal truncated at k = `sigmas`, (1 − 2kφ(k)/(2Φ(k) − 1))/k².
+pub fn variance_factor(dist: Distribution) -> f64 {
+    match dist {
+        Distribution::Uniform => 1.0 / 3.0,
+        Distribution::Normal { sigmas: k } => {
+            let phi = libm::exp(-0.5 * k * k) / libm::sqrt(core::f64::consts::TAU);
+            let mass = libm::erf(k / core::f64::consts::SQRT_2);
+            (1.0 - 2.0 * k * phi / mass) / (k * k)
+        }
+    }
+}
+
+/// Each factor's share of each node's variance: the factor at its low and high end with the
+/// others at the centre gives the half-range effect `d`; it contributes `d²·v` with `v` the
+/// variance factor of its distribution ([`variance_factor`]; hFE and ambient are uniform).
+pub fn sensitivity(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+) -> Result<Sensitivity, SpreadError> {
+    validate(stage, profile, var)?;
+    let b = Box8::new(stage, profile, var);
+    let mut effects = [Nodes::<f64>::default(); FACTORS];
+    let all = (1u16 << FACTORS) - 1;
+    for (k, (slot, f)) in effects.iter_mut().zip(Factor::ALL).enumerate() {
+        if !b.active(k) {
+            continue;
+        }
+        let others = all & !(1 << k);
+        let lo = evaluate(stage, profile, &draw_of(&b.corner(0, others)), true)?;
+        let hi = evaluate(stage, profile, &draw_of(&b.corner(1 << k, others)), true)?;
+        let _ = f;
+        *slot = Nodes::from_fn(|n| 0.5 * (hi.values.get(n) - lo.values.get(n)));
+    }
+    let weight = |f: Factor| match f {
+        Factor::Resistor(_) | Factor::Supply => variance_factor(var.distribution),
+        Factor::Beta | Factor::Temp => 1.0 / 3.0,
+    };
+    let mut std = Nodes::default();
+    let nodes = Nodes::from_fn(|n| {
+        let mut shares: [Share; FACTORS] = core::array::from_fn(|k| {
+            let f = Factor::ALL.get(k).copied().unwrap_or(Factor::Supply);
+            let effect = effects.get(k).map_or(0.0, |e| *e.get(n));
+            Share {
+                factor: f,
+                effect,
+                variance: effect * effect * weight(f),
+                share: 0.0,
+            }
+        });
+        let total: f64 = shares.iter().map(|s| s.variance).sum();
+        for s in shares.iter_mut() {
+            s.share = if total > 0.0 { s.variance / total } else { 0.0 };
+        }
+        shares.sort_unstable_by(|a, b| {
+            b.share
+                .partial_cmp(&a.share)
+                .unwrap_or(core::cmp::Ordering::Equal)
+                .then(a.factor.cmp(&b.factor))
+        });
+        *std.get_mut(n) = libm::sqrt(total);
+        shares
+    });
+    Ok(Sensitivity { nodes, std })
+}
+
+/// Everything the spread reports for one stage.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Spread {
+    /// The centre of the factor box (nominal parts, typical hFE, middle of the ambient range).
+    pub centre: Sample,
+    /// The worst case.
+    pub worst: WorstCase,
+    /// The Monte Carlo run.
+    pub monte_carlo: MonteCarlo,
+    /// The sensitivity ranking.
+    pub sensitivity: Sensitivity,
+}
+
+/// Worst case (method [`Method::default`]), sensitivity and Monte Carlo in one call.
+pub fn spread(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    settings: &McSettings,
+    progress: impl FnMut(u32, u32),
+) -> Result<Spread, SpreadError> {
+    spread_observed(stage, profile, var, settings, progress, |_| {})
+}
+
+/// [`spread`] that also hands every Monte Carlo sample to `on_sample`.
+pub fn spread_observed(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    settings: &McSettings,
+    progress: impl FnMut(u32, u32),
+    on_sample: impl FnMut(&Sample),
+) -> Result<Spread, SpreadError> {
+    let centre = centre(stage, profile, var)?;
+    let worst = worst_case(stage, profile, var, Method::default())?;
+    let sensitivity = sensitivity(stage, profile, var)?;
+    let monte_carlo =
+        monte_carlo_observed(stage, profile, var, &worst, settings, progress, on_sample)?;
+    Ok(Spread {
+        centre,
+        worst,
+        monte_carlo,
+        sensitivity,
+    })
 }

@@ -26,7 +26,10 @@ pub struct CliError {
 impl CliError {
     /// Bad input or usage (exit 2).
     pub fn usage(message: impl Into<String>) -> Self {
-        Self { code: EXIT_USAGE, message: message.into() }
+        Self {
+            code: EXIT_USAGE,
+            message: message.into(),
+        }
     }
 
     /// A field with a bad value (exit 2): "`field`: `value`: `allowed`".
@@ -36,7 +39,10 @@ impl CliError {
 
     /// An instrument or serial-link failure (exit 3).
     pub fn link(message: impl Into<String>) -> Self {
-        Self { code: EXIT_LINK, message: message.into() }
+        Self {
+            code: EXIT_LINK,
+            message: message.into(),
+        }
     }
 }
 

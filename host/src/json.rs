@@ -88,7 +88,10 @@ pub fn warnings(w: &Warnings) -> Value {
     }
     for (hot, r) in w.resistor_hot.iter().zip(Resistor::ALL) {
         if *hot {
-            out.push(format!("{}_over_quarter_watt", r.name().to_ascii_lowercase()));
+            out.push(format!(
+                "{}_over_quarter_watt",
+                r.name().to_ascii_lowercase()
+            ));
         }
     }
     if w.no_emitter_resistor {

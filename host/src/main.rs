@@ -16,6 +16,7 @@ mod designfile;
 mod error;
 mod json;
 mod link;
+mod plot;
 mod stage_args;
 mod text;
 mod values;
@@ -40,11 +41,13 @@ struct Cli {
 }
 
 /// Safety note printed under the help.
-const SAFETY: &str = "Safety: de-energise the board before changing probes or parts; keep jig inputs \
+const SAFETY: &str =
+    "Safety: de-energise the board before changing probes or parts; keep jig inputs \
 within their rated range; never connect mains-powered circuits without isolation. Local codes and \
 licensed practice take precedence.";
 
 #[derive(Subcommand, Debug)]
+#[allow(clippy::large_enum_variant)] // parsed once per run
 enum Command {
     /// Exact operating point, hand estimate, gain, impedances, swing, low corner and power
     Analyze(cmd::analyze::Cmd),

@@ -138,7 +138,9 @@ fn flag_of(r: Resistor) -> &'static str {
 /// Explain a stage error naming the flag and the value.
 pub fn stage_error(stage: &Stage, e: StageError) -> CliError {
     match e {
-        StageError::Supply => CliError::field("--vcc", stage.vcc.value, "must be between 0.5 V and 1000 V"),
+        StageError::Supply => {
+            CliError::field("--vcc", stage.vcc.value, "must be between 0.5 V and 1000 V")
+        }
         StageError::Resistor(r) => CliError::field(flag_of(r), stage.resistor(r), e),
         StageError::Load => CliError::field("--rl", stage.rl.unwrap_or(f64::NAN), e),
         StageError::Source => CliError::field("--rs", stage.rs, e),
@@ -148,7 +150,11 @@ pub fn stage_error(stage: &Stage, e: StageError) -> CliError {
                 Capacitor::Cout => ("--cout", stage.cout),
                 Capacitor::Ce => ("--ce", stage.ce),
             };
-            CliError::field(flag, v.map_or(f64::NAN, |p| p.value), "must be positive and below 1 F")
+            CliError::field(
+                flag,
+                v.map_or(f64::NAN, |p| p.value),
+                "must be positive and below 1 F",
+            )
         }
         _ => CliError::usage(format!("stage: {e}")),
     }
@@ -167,9 +173,11 @@ pub fn profile_error(p: &Profile, e: ProfileError) -> CliError {
         ProfileError::SaturationCurrent => CliError::field("--is/--vbe", p.is_25, e),
         ProfileError::EarlyVoltage => CliError::field("--early", p.early.unwrap_or(f64::NAN), e),
         ProfileError::VceSat => CliError::field("--vce-sat", p.vce_sat, e),
-        ProfileError::PowerRating => {
-            CliError::field("--power-rating/--tj-max", format!("{}/{}", p.power_25, p.tj_max), e)
-        }
+        ProfileError::PowerRating => CliError::field(
+            "--power-rating/--tj-max",
+            format!("{}/{}", p.power_25, p.tj_max),
+            e,
+        ),
         _ => CliError::usage(format!("transistor: {e}")),
     }
 }
@@ -202,12 +210,18 @@ impl ProfileArgs {
         }
         match (self.is, self.vbe) {
             (Some(_), Some(_)) => {
-                return Err(CliError::usage("--is and --vbe: give one of them, not both"))
+                return Err(CliError::usage(
+                    "--is and --vbe: give one of them, not both",
+                ))
             }
             (Some(is), None) => p.is_25 = is,
             (None, Some(vbe)) => {
                 if !(0.2..=1.2).contains(&vbe) {
-                    return Err(CliError::field("--vbe", vbe, "must be between 0.2 V and 1.2 V"));
+                    return Err(CliError::field(
+                        "--vbe",
+                        vbe,
+                        "must be between 0.2 V and 1.2 V",
+                    ));
                 }
                 p.is_25 = is_from_vbe(vbe);
             }
@@ -256,7 +270,11 @@ impl StageArgs {
                 };
                 let t = tol.unwrap_or(DEFAULT_TOL);
                 let stage = Stage {
-                    polarity: if self.pnp { Polarity::Pnp } else { Polarity::Npn },
+                    polarity: if self.pnp {
+                        Polarity::Pnp
+                    } else {
+                        Polarity::Npn
+                    },
                     vcc: Part::new(need(self.vcc, "--vcc")?, self.vcc_tol.unwrap_or(0.0)),
                     r1: Part::new(need(self.r1, "--r1")?, t),
                     r2: Part::new(need(self.r2, "--r2")?, t),
@@ -279,7 +297,12 @@ impl StageArgs {
         let profile = self.profile.apply(base_profile)?;
         let temp_c = self.temp.unwrap_or(base_temp);
         check_temp("--temp", temp_c)?;
-        Ok(Resolved { stage, profile, temp_c, doc })
+        Ok(Resolved {
+            stage,
+            profile,
+            temp_c,
+            doc,
+        })
     }
 
     fn override_file(&self, stage: &mut Stage, tol: Option<f64>, cap_tol: f64) {
@@ -309,7 +332,11 @@ impl StageArgs {
         if let Some(rs) = self.rs {
             stage.rs = rs;
         }
-        for (flag, slot) in [(self.cin, &mut stage.cin), (self.cout, &mut stage.cout), (self.ce, &mut stage.ce)] {
+        for (flag, slot) in [
+            (self.cin, &mut stage.cin),
+            (self.cout, &mut stage.cout),
+            (self.ce, &mut stage.ce),
+        ] {
             if let Some(c) = flag {
                 *slot = Some(Part::new(c, cap_tol));
             }
@@ -328,6 +355,10 @@ pub fn check_temp(flag: &str, t: f64) -> Result<(), CliError> {
     if TEMP_RANGE.contains(&t) {
         Ok(())
     } else {
-        Err(CliError::field(flag, t, "must be between -55 °C and 150 °C"))
+        Err(CliError::field(
+            flag,
+            t,
+            "must be between -55 °C and 150 °C",
+        ))
     }
 }

@@ -19,7 +19,11 @@ pub fn eng4(value: f64, unit: &'static str) -> String {
 
 /// Colour bands of a resistor as words, 4 bands for 5 % and wider, else 5 bands.
 pub fn bands(ohms: f64, tol: f64) -> String {
-    let count = if tol >= 0.05 - 1e-9 { BandCount::Four } else { BandCount::Five };
+    let count = if tol >= 0.05 - 1e-9 {
+        BandCount::Four
+    } else {
+        BandCount::Five
+    };
     match colour_bands(ohms, tol, count) {
         Ok(b) => b.iter().map(|c| c.name()).collect::<Vec<_>>().join("-"),
         Err(_) => "-".to_string(),
@@ -29,7 +33,11 @@ pub fn bands(ohms: f64, tol: f64) -> String {
 /// The part list: designator, value, code, tolerance, colour bands.
 pub fn parts(stage: &Stage) -> String {
     let mut s = String::new();
-    let _ = writeln!(s, "  {:<5} {:>10}  {:<6} {:>5}  {}", "part", "value", "code", "tol", "colour bands");
+    let _ = writeln!(
+        s,
+        "  {:<5} {:>10}  {:<6} {:>5}  colour bands",
+        "part", "value", "code", "tol"
+    );
     for r in Resistor::ALL {
         let p = stage.part(r);
         if p.value == 0.0 && matches!(r, Resistor::Re1 | Resistor::Re2) {
@@ -104,7 +112,13 @@ pub fn prediction(stage: &Stage, p: &Prediction, temp_c: f64) -> String {
         ("IC", op.ic, e.ic, "A"),
     ];
     for (name, x, h, unit) in rows {
-        let _ = writeln!(s, "  {:<5} {:>11} {:>11}", name, eng4(x, unit), eng4(h, unit));
+        let _ = writeln!(
+            s,
+            "  {:<5} {:>11} {:>11}",
+            name,
+            eng4(x, unit),
+            eng4(h, unit)
+        );
     }
     let _ = writeln!(
         s,
@@ -165,7 +179,12 @@ pub fn prediction(stage: &Stage, p: &Prediction, temp_c: f64) -> String {
         .iter()
         .map(|r| (r.name(), p.power.resistor(*r)))
         .fold(("", 0.0), |a, b| if b.1 > a.1 { b } else { a });
-    let _ = writeln!(s, "  hottest resistor {} at {}", hottest.0, eng(hottest.1, "W"));
+    let _ = writeln!(
+        s,
+        "  hottest resistor {} at {}",
+        hottest.0,
+        eng(hottest.1, "W")
+    );
     s.push_str(&warnings(stage, p));
     s
 }
@@ -197,11 +216,18 @@ pub fn warnings(stage: &Stage, p: &Prediction) -> String {
     }
     for (hot, r) in w.resistor_hot.iter().zip(Resistor::ALL) {
         if *hot {
-            let _ = writeln!(s, "  {} dissipates more than 0.25 W: use a larger part", r.name());
+            let _ = writeln!(
+                s,
+                "  {} dissipates more than 0.25 W: use a larger part",
+                r.name()
+            );
         }
     }
     if w.no_emitter_resistor {
-        let _ = writeln!(s, "  no emitter resistor: the bias depends directly on hFE and VBE");
+        let _ = writeln!(
+            s,
+            "  no emitter resistor: the bias depends directly on hFE and VBE"
+        );
     }
     if w.q_point_off_centre {
         let _ = writeln!(s, "  VCE within 1 V of a rail: little room for the signal");

@@ -4,9 +4,7 @@
 use biasjig_core::units;
 
 fn explain(e: units::ValueError) -> String {
-    format!(
-        "{e}; allowed: a number such as 4700, 4.7e3, 4.7k, 4k7, 470R, R47, 100n, 2.2M or 10u"
-    )
+    format!("{e}; allowed: a number such as 4700, 4.7e3, 4.7k, 4k7, 470R, R47, 100n, 2.2M or 10u")
 }
 
 /// A non-negative value (parts, supply).
@@ -38,6 +36,11 @@ pub fn signed_percent(text: &str) -> Result<f64, String> {
 /// A temperature in °C (may be negative).
 pub fn celsius(text: &str) -> Result<f64, String> {
     let t = text.trim();
-    let t = t.strip_suffix("°C").or_else(|| t.strip_suffix('C')).unwrap_or(t).trim_end();
-    units::parse_signed(t).map_err(|e| format!("{e}; allowed: a temperature in °C such as 25 or -10"))
+    let t = t
+        .strip_suffix("°C")
+        .or_else(|| t.strip_suffix('C'))
+        .unwrap_or(t)
+        .trim_end();
+    units::parse_signed(t)
+        .map_err(|e| format!("{e}; allowed: a temperature in °C such as 25 or -10"))
 }

@@ -19,7 +19,10 @@ impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
         let r = self.stage.resolve()?;
-        let cond = Conditions { temp_c: r.temp_c, ..Conditions::typical(&r.profile) };
+        let cond = Conditions {
+            temp_c: r.temp_c,
+            ..Conditions::typical(&r.profile)
+        };
         let p = predict(&r.stage, &r.profile, cond)
             .map_err(|e| CliError::usage(format!("stage: {e}")))?;
         if g.json {

@@ -1,15 +1,451 @@
-//! `biasjig spread`: placeholder until its issue is built.
+//! `biasjig spread`: worst case, seeded Monte Carlo and sensitivity ranking of one stage, with
+//! text histograms, the yield against an optional requirement and, with `--plot DIR`, SVG plots.
 
-use crate::error::{CliError, CmdResult};
-use crate::Global;
+use std::fmt::Write as _;
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use std::time::{Duration, Instant};
 
-/// `biasjig spread`.
+use biasjig_core::limits::{limits, Meter};
+use biasjig_core::spread::{
+    centre, spread_observed, Distribution, McSettings, Node, Requirement, Sample, Spread,
+    SpreadError, Variation,
+};
+use serde_json::{json, Map, Value};
+
+use crate::error::{CliError, CmdResult, EXIT_OK};
+use crate::stage_args::{check_temp, stage_error, StageArgs};
+use crate::text::eng4;
+use crate::{json, plot, values, Global};
+
+/// Most Monte Carlo samples one run takes.
+pub const MAX_RUNS: u32 = 10_000_000;
+/// Most Q-points kept for the load-line plot.
+const CLOUD_MAX: usize = 4000;
+
+/// Ambient range flags shared by `spread` and `limits`.
+#[derive(clap::Args, Debug, Clone, Default)]
+pub struct TempRange {
+    /// Lowest ambient, °C [default: --temp]
+    #[arg(long = "temp-min", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Spread")]
+    pub temp_min: Option<f64>,
+    /// Highest ambient, °C [default: --temp]
+    #[arg(long = "temp-max", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Spread")]
+    pub temp_max: Option<f64>,
+}
+
+impl TempRange {
+    /// The ambient range, each end defaulting to `temp_c`, checked.
+    pub fn variation(&self, temp_c: f64) -> Result<Variation, CliError> {
+        let lo = self.temp_min.unwrap_or(temp_c);
+        let hi = self.temp_max.unwrap_or(temp_c);
+        check_temp("--temp-min", lo)?;
+        check_temp("--temp-max", hi)?;
+        if lo > hi {
+            return Err(CliError::field(
+                "--temp-min/--temp-max",
+                format!("{lo}/{hi}"),
+                "the lowest ambient must not be above the highest",
+            ));
+        }
+        Ok(Variation::between(lo, hi))
+    }
+}
+
+/// Explain a spread error naming the flag.
+pub fn spread_error(e: SpreadError) -> CliError {
+    match e {
+        SpreadError::TempRange => CliError::usage(format!("--temp-min/--temp-max: {e}")),
+        SpreadError::Sigmas => CliError::usage(format!("--normal: {e}")),
+        _ => CliError::usage(format!("{e}")),
+    }
+}
+
+/// `biasjig spread`: give the stage by flags or `--design FILE`.
 #[derive(clap::Args, Debug)]
-pub struct Cmd {}
+pub struct Cmd {
+    #[command(flatten)]
+    stage: StageArgs,
+    #[command(flatten)]
+    temps: TempRange,
+    /// Number of Monte Carlo samples
+    #[arg(long, default_value_t = 1000, help_heading = "Spread")]
+    runs: u32,
+    /// Seed of the Monte Carlo generator (the same seed gives the same numbers everywhere)
+    #[arg(long, default_value_t = 1, help_heading = "Spread")]
+    seed: u64,
+    /// Parts normal instead of uniform, the tolerance at this many standard deviations (0.5 to 10)
+    #[arg(long, value_name = "SIGMAS", value_parser = values::value, help_heading = "Spread")]
+    normal: Option<f64>,
+    /// Yield requirement: least gain magnitude
+    #[arg(long = "gain-min", value_parser = values::value, help_heading = "Yield")]
+    gain_min: Option<f64>,
+    /// Yield requirement: largest gain magnitude
+    #[arg(long = "gain-max", value_parser = values::value, help_heading = "Yield")]
+    gain_max: Option<f64>,
+    /// Yield requirement: least peak-to-peak swing at the load, V
+    #[arg(long = "swing-min", value_parser = values::value, help_heading = "Yield")]
+    swing_min: Option<f64>,
+    /// Yield requirement: largest collector current, A
+    #[arg(long = "ic-max", value_parser = values::value, help_heading = "Yield")]
+    ic_max: Option<f64>,
+    /// Write SVG plots (histograms with limits, load lines with the Q-point cloud, sensitivity) here
+    #[arg(long, value_name = "DIR", help_heading = "Spread")]
+    plot: Option<PathBuf>,
+}
+
+/// A progress bar on a terminal for runs longer than about a second.
+struct Progress {
+    enabled: bool,
+    start: Instant,
+    bar: Option<indicatif::ProgressBar>,
+}
+
+impl Progress {
+    fn new(enabled: bool) -> Self {
+        Self {
+            enabled,
+            start: Instant::now(),
+            bar: None,
+        }
+    }
+
+    fn update(&mut self, done: u32, total: u32) {
+        if !self.enabled {
+            return;
+        }
+        if self.bar.is_none() && self.start.elapsed() > Duration::from_millis(700) && done < total {
+            let bar = indicatif::ProgressBar::new(u64::from(total));
+            if let Ok(style) = indicatif::ProgressStyle::with_template(
+                "Monte Carlo {bar:40} {pos}/{len} samples, {eta} left",
+            ) {
+                bar.set_style(style);
+            }
+            self.bar = Some(bar);
+        }
+        if let Some(bar) = &self.bar {
+            bar.set_position(u64::from(done));
+            if done >= total {
+                bar.finish_and_clear();
+            }
+        }
+    }
+}
 
 impl Cmd {
-    /// Run the command.
-    pub fn run(&self, _g: &Global) -> CmdResult {
-        Err(CliError::usage("spread: not available in this build yet"))
+    fn requirement(&self) -> Result<Requirement, CliError> {
+        for (flag, v) in [
+            ("--gain-min", self.gain_min),
+            ("--gain-max", self.gain_max),
+            ("--swing-min", self.swing_min),
+            ("--ic-max", self.ic_max),
+        ] {
+            if let Some(x) = v {
+                if !(x.is_finite() && x > 0.0) {
+                    return Err(CliError::field(flag, x, "must be positive"));
+                }
+            }
+        }
+        if let (Some(a), Some(b)) = (self.gain_min, self.gain_max) {
+            if a > b {
+                return Err(CliError::field(
+                    "--gain-min/--gain-max",
+                    format!("{a}/{b}"),
+                    "min must not exceed max",
+                ));
+            }
+        }
+        Ok(Requirement {
+            gain_min: self.gain_min,
+            gain_max: self.gain_max,
+            swing_min: self.swing_min,
+            ic_max: self.ic_max,
+        })
     }
+
+    /// Run the command.
+    pub fn run(&self, g: &Global) -> CmdResult {
+        let r = self.stage.resolve()?;
+        let mut var = self.temps.variation(r.temp_c)?;
+        if let Some(k) = self.normal {
+            if !(k.is_finite() && (0.5..=10.0).contains(&k)) {
+                return Err(CliError::field(
+                    "--normal",
+                    k,
+                    "must be between 0.5 and 10 standard deviations",
+                ));
+            }
+            var.distribution = Distribution::Normal { sigmas: k };
+        }
+        if !(1..=MAX_RUNS).contains(&self.runs) {
+            return Err(CliError::field(
+                "--runs",
+                self.runs,
+                format!("must be between 1 and {MAX_RUNS}"),
+            ));
+        }
+        let req = self.requirement()?;
+        r.stage.validate().map_err(|e| stage_error(&r.stage, e))?;
+        let settings = McSettings {
+            runs: self.runs,
+            seed: self.seed,
+            signal: true,
+            requirement: req,
+        };
+        let nominal = centre(
+            &r.stage,
+            &r.profile,
+            &Variation {
+                distribution: var.distribution,
+                ..Variation::at(r.temp_c)
+            },
+        )
+        .map_err(spread_error)?;
+        let mut progress = Progress::new(!g.json && std::io::stderr().is_terminal());
+        let mut cloud: Vec<(f64, f64)> = Vec::new();
+        let keep_cloud = self.plot.is_some();
+        let sp = spread_observed(
+            &r.stage,
+            &r.profile,
+            &var,
+            &settings,
+            |d, t| progress.update(d, t),
+            |s: &Sample| {
+                if keep_cloud && cloud.len() < CLOUD_MAX {
+                    cloud.push((s.values.vce, s.values.ic));
+                }
+            },
+        )
+        .map_err(spread_error)?;
+        // Windows at the nominal supply with the default meter, to mark on the plots.
+        let lim = limits(
+            &r.stage,
+            &r.profile,
+            &var,
+            &Meter::default(),
+            r.stage.vcc.value,
+        )
+        .ok();
+        let mut written = Vec::new();
+        if let Some(dir) = &self.plot {
+            written = plot::write_all(dir, &r.stage, &r.profile, &sp, lim.as_ref(), &cloud)?;
+        }
+        if g.json {
+            json::print(&to_json(&sp, &nominal, &var, &settings, &req));
+        } else {
+            print!("{}", report(&sp, &nominal, &var, &settings, &req, r.temp_c));
+            for p in &written {
+                println!("wrote {}", p.display());
+            }
+        }
+        Ok(EXIT_OK)
+    }
+}
+
+/// The JSON document: worst case, Monte Carlo, nominal, sensitivity, histograms, yield.
+pub fn to_json(
+    sp: &Spread,
+    nominal: &Sample,
+    var: &Variation,
+    st: &McSettings,
+    req: &Requirement,
+) -> Value {
+    let num = json::num;
+    let mut wc = Map::new();
+    let mut mc = Map::new();
+    let mut nom = Map::new();
+    let mut sens = Map::new();
+    let mut hist = Map::new();
+    let m = &sp.monte_carlo;
+    mc.insert("runs".into(), json!(m.runs));
+    mc.insert("seed".into(), json!(st.seed));
+    mc.insert("failed".into(), json!(m.failed));
+    mc.insert("active".into(), json!(m.active));
+    for n in Node::ALL {
+        let r = sp.worst.nodes.get(n);
+        wc.insert(
+            n.name().into(),
+            json!({"min": num(r.min), "max": num(r.max)}),
+        );
+        let s = m.nodes.get(n);
+        let q = |p: f64| json::opt(s.quantile(p));
+        mc.insert(
+            n.name().into(),
+            json!({
+                "mean": num(s.mean), "std": num(s.std()),
+                "min": num(s.range.min), "max": num(s.range.max),
+                "p05": q(0.05), "p50": q(0.5), "p95": q(0.95),
+            }),
+        );
+        nom.insert(n.name().into(), num(*nominal.values.get(n)));
+        let shares: Vec<Value> = sp
+            .sensitivity
+            .nodes
+            .get(n)
+            .iter()
+            .filter(|x| x.variance > 0.0)
+            .map(|x| json!({"factor": x.factor.name(), "share": num(x.share), "effect": num(x.effect)}))
+            .collect();
+        sens.insert(n.name().into(), json!(shares));
+        let h = &s.histogram;
+        hist.insert(
+            n.name().into(),
+            json!({"low": num(h.lo), "high": num(h.hi), "counts": h.bins.to_vec(), "below": h.below, "above": h.above}),
+        );
+    }
+    json!({
+        "nominal": nom,
+        "worst_case": wc,
+        "monte_carlo": mc,
+        "sensitivity": sens,
+        "histogram": hist,
+        "yield": {
+            "fraction": num(m.yield_fraction()),
+            "passed": m.passed,
+            "requirement": {
+                "gain_min": json::opt(req.gain_min), "gain_max": json::opt(req.gain_max),
+                "swing_min": json::opt(req.swing_min), "ic_max": json::opt(req.ic_max),
+            },
+        },
+        "temperature": {"min": num(var.temp_min_c), "max": num(var.temp_max_c)},
+        "distribution": match var.distribution {
+            Distribution::Uniform => json!({"kind": "uniform"}),
+            Distribution::Normal { sigmas } => json!({"kind": "normal", "sigmas": num(sigmas)}),
+        },
+        "worst_case_solves": sp.worst.solves,
+        "worst_case_exhaustive": sp.worst.exhaustive,
+    })
+}
+
+fn fmt(n: Node, v: f64) -> String {
+    match n {
+        Node::Gain => format!("{v:.3}"),
+        _ => eng4(v, n.unit()),
+    }
+}
+
+const SPARK: [char; 8] = ['▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
+
+/// One line of block characters for a histogram (blank for an empty bin).
+pub fn sparkline(bins: &[u32]) -> String {
+    let top = bins.iter().copied().max().unwrap_or(0);
+    bins.iter()
+        .map(|&c| {
+            if c == 0 || top == 0 {
+                ' '
+            } else {
+                let k = (u64::from(c) * 7).div_ceil(u64::from(top)) as usize;
+                SPARK.get(k.min(7)).copied().unwrap_or('█')
+            }
+        })
+        .collect()
+}
+
+/// The human report.
+pub fn report(
+    sp: &Spread,
+    nominal: &Sample,
+    var: &Variation,
+    st: &McSettings,
+    req: &Requirement,
+    temp_c: f64,
+) -> String {
+    let mut s = String::new();
+    let m = &sp.monte_carlo;
+    let dist = match var.distribution {
+        Distribution::Uniform => "uniform within tolerance".to_string(),
+        Distribution::Normal { sigmas } => format!("normal, tolerance at {sigmas} sigma"),
+    };
+    let _ = writeln!(
+        s,
+        "Spread: ambient {} to {} °C, parts {dist}; {} Monte Carlo samples, seed {}",
+        var.temp_min_c, var.temp_max_c, m.runs, st.seed
+    );
+    let _ = writeln!(
+        s,
+        "  worst case: {} solves ({})",
+        sp.worst.solves,
+        if sp.worst.exhaustive {
+            "every corner"
+        } else {
+            "vertex method"
+        }
+    );
+    let _ = writeln!(
+        s,
+        "  {:<6} {:>11} {:>11} {:>11} {:>11} {:>11} {:>11}",
+        "", "nominal", "worst min", "worst max", "mean", "std", "3-sigma %"
+    );
+    for n in Node::ALL {
+        let r = sp.worst.nodes.get(n);
+        let x = m.nodes.get(n);
+        let rel = if x.mean != 0.0 {
+            300.0 * x.std() / x.mean.abs()
+        } else {
+            0.0
+        };
+        let _ = writeln!(
+            s,
+            "  {:<6} {:>11} {:>11} {:>11} {:>11} {:>11} {:>10.1}%",
+            n.label(),
+            fmt(n, *nominal.values.get(n)),
+            fmt(n, r.min),
+            fmt(n, r.max),
+            fmt(n, x.mean),
+            fmt(n, x.std()),
+            rel
+        );
+    }
+    let _ = writeln!(s, "  (nominal: typical hFE at {temp_c} °C)");
+    let checks: Vec<String> = [
+        req.gain_min.map(|v| format!("|gain| >= {v}")),
+        req.gain_max.map(|v| format!("|gain| <= {v}")),
+        req.swing_min.map(|v| format!("swing >= {}", eng4(v, "V"))),
+        req.ic_max.map(|v| format!("IC <= {}", eng4(v, "A"))),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    let _ = writeln!(
+        s,
+        "Yield: {:.2} % ({} of {}) forward active{}{}",
+        100.0 * m.yield_fraction(),
+        m.passed,
+        m.runs,
+        if checks.is_empty() { "" } else { " and " },
+        checks.join(", ")
+    );
+    if m.failed > 0 {
+        let _ = writeln!(s, "  {} samples had no operating point", m.failed);
+    }
+    let _ = writeln!(s, "Distributions (histogram over the worst-case range)");
+    for n in Node::ALL {
+        let x = m.nodes.get(n);
+        let h = &x.histogram;
+        let _ = writeln!(
+            s,
+            "  {:<6} {:>11} |{}| {}",
+            n.label(),
+            fmt(n, h.lo),
+            sparkline(&h.bins),
+            fmt(n, h.hi)
+        );
+    }
+    let _ = writeln!(
+        s,
+        "Sensitivity (share of each node's variance, largest first)"
+    );
+    for n in Node::ALL {
+        let parts: Vec<String> = sp
+            .sensitivity
+            .nodes
+            .get(n)
+            .iter()
+            .filter(|x| x.share >= 0.005)
+            .take(4)
+            .map(|x| format!("{} {:.0} %", x.factor.name(), 100.0 * x.share))
+            .collect();
+        let _ = writeln!(s, "  {:<6} {}", n.label(), parts.join(", "));
+    }
+    s
 }

@@ -1,0 +1,125 @@
+//! Monte Carlo cost: instructions per sample (deterministic, under callgrind) and samples per
+//! second (wall clock, for orientation only).
+//!
+//! `cargo bench -p biasjig-core --bench spread` prints samples per second and, when valgrind is
+//! installed, runs itself under `valgrind --tool=callgrind` with N and 10·N samples and prints
+//! (I(10N) − I(N)) / 9N instructions per sample, which cancels the set-up.
+//! `scripts/instructions.sh spread` gives the DC figure the same way. By hand:
+//!
+//! ```text
+//! valgrind --tool=callgrind --callgrind-out-file=/dev/null target/release/deps/spread-* --samples 1000 --dc
+//! valgrind --tool=callgrind --callgrind-out-file=/dev/null target/release/deps/spread-* --samples 10000 --dc
+//! ```
+//! (`--dc`: one exact solve and the swing per sample, the goal of at most 2 000 instructions;
+//! without it the midband gain adds one small-signal solve per sample.)
+
+use std::hint::black_box;
+use std::process::Command;
+use std::time::Instant;
+
+use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::spread::{monte_carlo, worst_case, McSettings, Method, Requirement, Variation};
+use biasjig_core::stage::{Part, Polarity, Stage};
+
+fn demo() -> (Stage, Profile, Variation) {
+    let t = 0.05;
+    let stage = Stage {
+        polarity: Polarity::Npn,
+        vcc: Part::new(12.0, 0.0),
+        r1: Part::new(47e3, t),
+        r2: Part::new(10e3, t),
+        rc: Part::new(4.7e3, t),
+        re1: Part::new(220.0, t),
+        re2: Part::new(1e3, t),
+        rl: Some(15e3),
+        rs: 600.0,
+        cin: None,
+        cout: None,
+        ce: None,
+    };
+    let profile = Profile {
+        beta_min: 100.0,
+        beta_typ: 180.0,
+        beta_max: 300.0,
+        is_25: is_from_vbe(0.65),
+        ..Profile::default()
+    };
+    (stage, profile, Variation::between(-10.0, 55.0))
+}
+
+fn run(samples: u32, signal: bool) -> f64 {
+    let (s, p, v) = demo();
+    let wc = match worst_case(&s, &p, &v, Method::default()) {
+        Ok(w) => w,
+        Err(e) => {
+            eprintln!("worst case: {e}");
+            return 0.0;
+        }
+    };
+    let st = McSettings {
+        runs: samples,
+        seed: 1,
+        signal,
+        requirement: Requirement::default(),
+    };
+    match monte_carlo(black_box(&s), &p, &v, &wc, &st, |_, _| {}) {
+        Ok(mc) => black_box(mc.nodes.vc.mean),
+        Err(e) => {
+            eprintln!("monte carlo: {e}");
+            0.0
+        }
+    }
+}
+
+/// Instructions of one run of this program under callgrind, from its "Collected" line.
+fn callgrind(samples: u32, dc: bool) -> Option<u64> {
+    let me = std::env::current_exe().ok()?;
+    let mut cmd = Command::new("valgrind");
+    cmd.args(["--tool=callgrind", "--callgrind-out-file=/dev/null"])
+        .arg(me);
+    cmd.args(["--samples", &samples.to_string()]);
+    if dc {
+        cmd.arg("--dc");
+    }
+    let out = cmd.output().ok()?;
+    let text = String::from_utf8_lossy(&out.stderr);
+    let line = text.lines().find(|l| l.contains("Collected :"))?;
+    line.rsplit(':').next()?.trim().parse().ok()
+}
+
+fn main() {
+    let args: Vec<String> = std::env::args().collect();
+    let dc = args.iter().any(|a| a == "--dc");
+    // The convention of scripts/instructions.sh: `--counts` names N1 N2 and the unit, a bare
+    // count N runs N samples (the DC figure of the goal).
+    if args.iter().any(|a| a == "--counts") {
+        println!("1000 10000 monte-carlo-sample");
+        return;
+    }
+    if let Some(n) = args.get(1).and_then(|a| a.parse::<u32>().ok()) {
+        black_box(run(n, false));
+        return;
+    }
+    if let Some(i) = args.iter().position(|a| a == "--samples") {
+        let n = args.get(i + 1).and_then(|s| s.parse().ok()).unwrap_or(1000);
+        black_box(run(n, !dc));
+        return;
+    }
+    for (label, signal) in [("dc (solve + swing)", false), ("with gain", true)] {
+        let n = 20_000;
+        let t = Instant::now();
+        black_box(run(n, signal));
+        let secs = t.elapsed().as_secs_f64();
+        println!("monte carlo {label}: {:.0} samples/s", f64::from(n) / secs);
+    }
+    let n = 1000u32;
+    for (label, dc) in [("dc (solve + swing)", true), ("with gain", false)] {
+        match (callgrind(n, dc), callgrind(10 * n, dc)) {
+            (Some(a), Some(b)) => {
+                let per = (b.saturating_sub(a)) as f64 / f64::from(9 * n);
+                println!("monte carlo {label}: {per:.0} instructions per sample (callgrind, {n} and {} samples)", 10 * n);
+            }
+            _ => println!("monte carlo {label}: callgrind not available; run the commands in the bench's notes"),
+        }
+    }
+}

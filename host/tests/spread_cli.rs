@@ -1,0 +1,214 @@
+//! `biasjig spread` and `biasjig limits` through the binary: JSON keys of the machine interface,
+//! reproducibility per seed, plots, and bad input with exit 2.
+
+use std::process::{Command, Output};
+
+use serde_json::Value;
+
+const STAGE: [&str; 22] = [
+    "--vcc",
+    "12",
+    "--r1",
+    "47k",
+    "--r2",
+    "10k",
+    "--rc",
+    "4k7",
+    "--re1",
+    "220",
+    "--re2",
+    "1k",
+    "--rl",
+    "15k",
+    "--rs",
+    "600",
+    "--beta",
+    "180",
+    "--beta-min",
+    "100",
+    "--beta-max",
+    "300",
+];
+
+fn run(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_biasjig"))
+        .args(args)
+        .output()
+        .expect("run biasjig")
+}
+
+fn json_of(args: &[&str]) -> Value {
+    let out = run(args);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("one JSON document on stdout")
+}
+
+/// The subcommand (first of `extra`), the stage flags, then the rest of `extra`.
+fn with<'a>(extra: &[&'a str]) -> Vec<&'a str> {
+    let mut v: Vec<&str> = extra.iter().take(1).copied().collect();
+    v.extend_from_slice(&STAGE);
+    v.extend(extra.iter().skip(1).copied());
+    v
+}
+
+#[test]
+fn spread_json_has_the_contract_keys() {
+    let v = json_of(&with(&[
+        "spread",
+        "--json",
+        "--runs",
+        "300",
+        "--seed",
+        "5",
+        "--temp-min",
+        "-10",
+        "--temp-max",
+        "55",
+    ]));
+    assert_eq!(v["monte_carlo"]["runs"], 300);
+    for n in ["vb", "ve", "vc", "vce", "ic"] {
+        let wc = &v["worst_case"][n];
+        let mc = &v["monte_carlo"][n];
+        let (lo, hi) = (wc["min"].as_f64().unwrap(), wc["max"].as_f64().unwrap());
+        for k in ["mean", "std", "min", "max"] {
+            assert!(mc[k].is_f64(), "{n}.{k}");
+        }
+        // The Monte Carlo lies inside the worst case.
+        assert!(mc["min"].as_f64().unwrap() >= lo - 1e-9 * lo.abs(), "{n}");
+        assert!(mc["max"].as_f64().unwrap() <= hi + 1e-9 * hi.abs(), "{n}");
+        assert!(v["sensitivity"][n].is_array());
+        assert_eq!(v["histogram"][n]["counts"].as_array().unwrap().len(), 40);
+    }
+    assert_eq!(v["temperature"]["min"], -10.0);
+    assert!(v["yield"]["fraction"].is_f64());
+}
+
+#[test]
+fn spread_repeats_per_seed() {
+    let a = json_of(&with(&["spread", "--json", "--runs", "200", "--seed", "9"]));
+    let b = json_of(&with(&["spread", "--json", "--runs", "200", "--seed", "9"]));
+    let c = json_of(&with(&[
+        "spread", "--json", "--runs", "200", "--seed", "10",
+    ]));
+    assert_eq!(a, b);
+    assert_ne!(
+        a["monte_carlo"]["vc"]["mean"],
+        c["monte_carlo"]["vc"]["mean"]
+    );
+}
+
+#[test]
+fn spread_default_ambient_is_temp_alone() {
+    let v = json_of(&with(&["spread", "--json", "--runs", "50", "--temp", "40"]));
+    assert_eq!(v["temperature"]["min"], 40.0);
+    assert_eq!(v["temperature"]["max"], 40.0);
+}
+
+#[test]
+fn spread_human_report_and_plots() {
+    let dir = std::env::temp_dir().join(format!("biasjig-spread-plots-{}", std::process::id()));
+    let d = dir.to_str().unwrap().to_string();
+    let mut args = with(&[
+        "spread",
+        "--runs",
+        "200",
+        "--normal",
+        "3",
+        "--gain-min",
+        "12",
+        "--plot",
+    ]);
+    args.push(&d);
+    let out = run(&args);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    for word in [
+        "worst min",
+        "mean",
+        "std",
+        "Yield",
+        "Sensitivity",
+        "Distributions",
+    ] {
+        assert!(text.contains(word), "{word} missing in:\n{text}");
+    }
+    for f in [
+        "histogram_vb.svg",
+        "histogram_ic.svg",
+        "load_lines.svg",
+        "sensitivity.svg",
+    ] {
+        let svg = std::fs::read_to_string(dir.join(f)).unwrap();
+        assert!(svg.starts_with("<svg") && svg.contains("<text"), "{f}");
+    }
+    // No progress bar on a pipe.
+    assert!(
+        out.stderr.is_empty(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn limits_json_has_the_contract_keys_and_moves_with_the_supply() {
+    let v = json_of(&with(&["limits", "--json"]));
+    for n in ["vb", "ve", "vc", "vce", "vbe", "ic"] {
+        let (lo, hi) = (
+            v[n]["low"].as_f64().unwrap(),
+            v[n]["high"].as_f64().unwrap(),
+        );
+        assert!(lo < hi, "{n}");
+    }
+    assert_eq!(v["vcc"], 12.0);
+    let low = json_of(&with(&["limits", "--json", "--at-vcc", "11.8"]));
+    assert_eq!(low["vcc"], 11.8);
+    assert!(low["vb"]["high"].as_f64() < v["vb"]["high"].as_f64());
+    let poor = json_of(&with(&[
+        "limits",
+        "--json",
+        "--meter",
+        "2",
+        "--meter-offset",
+        "20m",
+        "--divider-tol",
+        "1%",
+    ]));
+    assert!(poor["vc"]["low"].as_f64() < v["vc"]["low"].as_f64());
+    assert!(poor["vc"]["high"].as_f64() > v["vc"]["high"].as_f64());
+}
+
+#[test]
+fn bad_input_exits_2_naming_the_field() {
+    let cases: [(&[&str], &str); 6] = [
+        (&["spread", "--runs", "0"], "--runs"),
+        (
+            &["spread", "--temp-min", "50", "--temp-max", "10"],
+            "--temp-min",
+        ),
+        (&["spread", "--normal", "0.1"], "--normal"),
+        (&["spread", "--runs", "ten"], "--runs"),
+        (&["limits", "--at-vcc", "0.1"], "--at-vcc"),
+        (&["limits", "--meter", "80"], "--meter"),
+    ];
+    for (extra, field) in cases {
+        let out = run(&with(extra));
+        assert_eq!(out.status.code(), Some(2), "{extra:?}");
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(err.contains(field), "{extra:?}: {err}");
+        assert!(out.stdout.is_empty(), "{extra:?}");
+    }
+    let out = run(&["spread", "--r1", "47k"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--vcc"));
+}

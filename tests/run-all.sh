@@ -1,0 +1,28 @@
+#!/usr/bin/env bash
+# Every test of biasjig, from a fresh machine: installs what the tests need (Rust targets for the
+# microcontroller builds, QEMU's ARM emulator for the firmware test), then runs format and lint
+# checks, the no_std builds of the core, the whole workspace's tests, and the firmware's own tests.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+step() { printf '\n== %s\n' "$*"; }
+
+step "set-up: rustup targets and qemu-system-arm (installed when missing)"
+bash scripts/firmware-tools.sh
+rustup component add clippy rustfmt >/dev/null 2>&1 || true
+
+step "format"
+cargo fmt --all -- --check
+
+step "lint (warnings denied)"
+cargo clippy --workspace --all-targets --locked -- -D warnings
+
+step "core builds with no std and no alloc (Cortex-M0+ without FPU, Cortex-M4F)"
+cargo build --locked -p biasjig-core --target thumbv6m-none-eabi
+cargo build --locked -p biasjig-core --target thumbv7em-none-eabihf
+
+step "firmware: application unit tests on the host"
+(cd firmware-example && cargo test --locked --target x86_64-unknown-linux-gnu --lib)
+
+step "workspace tests (core, host command line, cross-crate, firmware under QEMU)"
+cargo test --workspace --locked
