@@ -331,6 +331,29 @@ fn predict_matches_the_engine() {
 }
 
 #[test]
+fn limits_come_from_the_limits_module() {
+    use biasjig_core::console::{default_profile, default_stage};
+    use biasjig_core::limits::{limits, Meter};
+    use biasjig_core::spread::Variation;
+    let (mut c, _) = console();
+    ok(&mut c, "mode machine");
+    let d = ok(&mut c, "limits");
+    let l = limits(
+        &default_stage(),
+        &default_profile(),
+        &Variation::at(25.0),
+        &Meter::default(),
+        12.0,
+    )
+    .unwrap();
+    let vb = d.iter().find(|x| x.starts_with("node=vb ")).unwrap();
+    assert_eq!(vb, &format!("node=vb low={} high={}", l.vb.low, l.vb.high));
+    assert!(l.vb.low < l.vb.high);
+    ok(&mut c, "mode human");
+    assert!(ok(&mut c, "limits").join(" ").contains("VB"));
+}
+
+#[test]
 fn seams_answer_not_built() {
     let (mut c, _) = console();
     for line in [
@@ -339,7 +362,6 @@ fn seams_answer_not_built() {
         "design",
         "pick 1",
         "spread",
-        "limits",
         "check 12 2 1.35 5.5",
         "test",
         "diagnose",

@@ -66,7 +66,11 @@ pub const COMMANDS: [(&str, &str, &str); 27] = [
     ),
     ("pick", "pick N", "take candidate N as the stage"),
     ("spread", "spread", "worst case and Monte Carlo spread"),
-    ("limits", "limits", "pass windows per node"),
+    (
+        "limits",
+        "limits",
+        "pass windows per node at the nominal supply",
+    ),
     (
         "meter",
         "meter [gain P% | offset V | divider P%]",
@@ -131,6 +135,18 @@ impl fmt::Display for Num {
         } else {
             write!(f, "{v:e}")
         }
+    }
+}
+
+/// A name in capitals.
+struct Upper<'a>(&'a str);
+
+impl fmt::Display for Upper<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for c in self.0.chars() {
+            fmt::Write::write_char(f, c.to_ascii_uppercase())?;
+        }
+        Ok(())
     }
 }
 
@@ -289,7 +305,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 not_built("pick", "the design module")
             }
             Command::Spread => not_built("spread", "the spread module"),
-            Command::Limits => not_built("limits", "the limits module"),
+            Command::Limits => self.show_limits(r),
             Command::Meter(None) => {
                 self.show_meter(r);
                 Ok(None)
@@ -815,6 +831,43 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 (None, false) => r.data(format_args!("{:<4} ideal", cap_name(c))),
             }
         }
+    }
+
+    fn show_limits<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
+        let st = &self.settings;
+        let var = crate::spread::Variation::at(st.temp_c);
+        let l = crate::limits::limits(&st.stage, &st.profile, &var, &st.meter, st.stage.vcc.value)
+            .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
+        let rows = [
+            ("vb", l.vb, "V"),
+            ("ve", l.ve, "V"),
+            ("vc", l.vc, "V"),
+            ("vce", l.vce, "V"),
+            ("vbe", l.vbe, "V"),
+            ("ic", l.ic, "A"),
+        ];
+        for (name, w, unit) in rows {
+            if r.machine() {
+                r.data(format_args!(
+                    "node={name} low={} high={}",
+                    Num(w.low),
+                    Num(w.high)
+                ));
+            } else {
+                r.data(format_args!(
+                    "{:<4} {} to {}",
+                    Upper(name),
+                    Eng::new(w.low, unit),
+                    Eng::new(w.high, unit)
+                ));
+            }
+        }
+        if r.machine() {
+            r.data(format_args!("vcc={}", Num(l.vcc)));
+        } else {
+            r.data(format_args!("at VCC {}", Eng::new(l.vcc, "V")));
+        }
+        Ok(None)
     }
 
     fn show_meter<W: Write>(&self, r: &mut Reply<'_, W>) {
