@@ -1,1 +1,1513 @@
-//! Placeholder: filled in by its own issue.
+//! From a stage requirement to ranked, buildable part lists of standard values.
+//!
+//! The design runs in three steps, all without allocation:
+//!
+//! 1. **First pass** ([`first_pass`]): the hand method practitioners learn, corrected. At a chosen
+//!    collector current the Q-point is centred on the AC load line (equal room toward saturation
+//!    and cutoff), the gain uses the loaded collector resistance RC‖RL, the source divider
+//!    RS : Zin and re = VT/IE; RE1 (unbypassed) sets the gain while RE1 + RE2 sets VE for DC
+//!    stability; the divider's Thévenin resistance is chosen from the hFE spread (judged at hFE
+//!    minimum) so that IC moves only a few percent across hFE min..max; VBB includes the base
+//!    current through R1‖R2 and the profile's VBE at the design current. The values are exact,
+//!    not yet standard.
+//! 2. **Search**: the first pass is run at up to [`MAX_LEVELS`] collector currents of a fixed
+//!    E6 ladder (10 µA to 100 mA, the lowest that the hand method says can work, never above the
+//!    budget). Around each, neighbouring series values of every resistor are enumerated in two
+//!    bounded phases (RC and RE1 for the gain, then R1, R2 and RE2 for the bias) and every
+//!    combination is re-analysed with the exact engine ([`solve`](crate::solve::solve),
+//!    [`midband`](crate::signal::midband)): gain, swing, IC at hFE min and max and at both ends
+//!    of the ambient range, supply draw and dissipation make up a [`score`](Candidate::score)
+//!    (lower is better). The best [`MAX_CANDIDATES`] distinct part sets that meet every
+//!    requirement are kept, best first; the result is deterministic for the same input.
+//! 3. **Capacitors**: for each kept candidate the resistances seen by CIN, COUT and CE come from
+//!    the engine's short-circuit time-constant computation ([`low_corner`]); the capacitor
+//!    series values with the smallest total capacitance whose pole sum stays at or below
+//!    [`F_LOW_MARGIN`] × the required low corner are chosen (CE dominates by itself because it
+//!    sees the smallest resistance).
+//!
+//! A requirement that cannot be met gives a [`DesignError`] that names the requirement and what
+//! would work, with numbers; a poor design is never returned silently.
+//!
+//! The ladder may step over the least current that works; that current (plus 5 %) is then
+//! searched as one more level. A polish step revisits RC and RE1 (±1 step) around the best four
+//! part sets with their own bias resistors. Levels depend on the requirement alone and are cut
+//! off at the budget, so a larger budget only adds part sets: the best score never gets worse.
+//!
+//! Cost: one E24 design is about 650 exact solves and 13.5 M instructions (demo scenario; see
+//! the `design` bench).
+
+#![expect(
+    clippy::neg_cmp_op_on_partial_ord,
+    reason = "NaN-safe checks: a figure that is NaN must count as failing"
+)]
+
+use core::f64::consts::PI;
+use core::fmt;
+
+use crate::device::{Profile, ProfileError};
+use crate::lowfreq::low_corner;
+use crate::power::{power, RESISTOR_POWER_LIMIT};
+use crate::series::Series;
+use crate::signal::{midband, Clip};
+use crate::solve::{solve, Conditions, OperatingPoint, Region};
+use crate::stage::{Part, Polarity, Resistor, Stage};
+use crate::thermal_voltage;
+use crate::units::Eng;
+
+/// Most candidates a design returns.
+pub const MAX_CANDIDATES: usize = 8;
+/// Most collector-current levels the search visits.
+pub const MAX_LEVELS: usize = 7;
+/// The gain is met when |gain| is within this fraction of the requirement.
+pub const GAIN_TOLERANCE: f64 = 0.05;
+/// The IC drift across hFE min..max that is met (fraction of the lowest IC).
+pub const DRIFT_LIMIT: f64 = 0.15;
+/// The pole sum the capacitors are chosen for, as a fraction of the required low corner.
+pub const F_LOW_MARGIN: f64 = 0.95;
+/// Low corner used for the capacitors when the requirement gives none, Hz (common practice:
+/// the lower edge of the audio band).
+pub const DEFAULT_F_LOW: f64 = 20.0;
+/// Largest capacitor the design chooses, F.
+pub const C_MAX: f64 = 10e-3;
+/// Smallest resistor the design chooses, Ω.
+pub const R_MIN: f64 = 1.0;
+/// Largest resistor the design chooses, Ω.
+pub const R_MAX: f64 = 1e6;
+/// Lowest collector current of the ladder, A.
+pub const IC_LADDER_MIN: f64 = 10e-6;
+/// Highest collector current of the ladder, A.
+pub const IC_LADDER_MAX: f64 = 100e-3;
+
+/// What a stage must do.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Requirement {
+    /// NPN or PNP.
+    pub polarity: Polarity,
+    /// Supply, V.
+    pub vcc: f64,
+    /// Magnitude of the midband gain v(load)/v(source EMF).
+    pub gain: f64,
+    /// Load, Ω, AC-coupled; `None` for no load.
+    pub rl: Option<f64>,
+    /// Source resistance, Ω.
+    pub rs: f64,
+    /// Collector-current budget at nominal, A.
+    pub ic_max: f64,
+    /// Least undistorted peak-to-peak swing at the load, V (0: no requirement).
+    pub swing_pp: f64,
+    /// Highest allowed low corner, Hz (sum of the three poles); `None`: [`DEFAULT_F_LOW`].
+    pub f_low: Option<f64>,
+    /// Nominal ambient, °C.
+    pub temp: f64,
+    /// Lowest ambient, °C.
+    pub temp_min: f64,
+    /// Highest ambient, °C.
+    pub temp_max: f64,
+    /// Resistor series (every resistor unless overridden in `part_series`).
+    pub series: Series,
+    /// Series per resistor (R1, R2, RC, RE1, RE2), overriding `series` where given.
+    pub part_series: [Option<Series>; 5],
+    /// Resistor tolerance, fraction.
+    pub tol: f64,
+    /// Capacitor series.
+    pub cap_series: Series,
+    /// Capacitor tolerance, fraction.
+    pub cap_tol: f64,
+}
+
+impl Requirement {
+    /// A requirement for an NPN stage on `vcc` volts with gain magnitude `gain`: no load, ideal
+    /// source, 2 mA budget, no swing requirement, 20 Hz, 25 °C (range 25 to 25 °C), E24 5 %
+    /// resistors, E6 20 % capacitors.
+    pub fn new(vcc: f64, gain: f64) -> Self {
+        Self {
+            polarity: Polarity::Npn,
+            vcc,
+            gain,
+            rl: None,
+            rs: 0.0,
+            ic_max: 2e-3,
+            swing_pp: 0.0,
+            f_low: None,
+            temp: 25.0,
+            temp_min: 25.0,
+            temp_max: 25.0,
+            series: Series::E24,
+            part_series: [None; 5],
+            tol: 0.05,
+            cap_series: Series::E6,
+            cap_tol: 0.20,
+        }
+    }
+
+    /// The series of one resistor.
+    pub fn series_of(&self, r: Resistor) -> Series {
+        self.part_series
+            .get(index(r))
+            .copied()
+            .flatten()
+            .unwrap_or(self.series)
+    }
+
+    /// The low corner the capacitors are chosen for, Hz.
+    pub fn f_low_or_default(&self) -> f64 {
+        self.f_low.unwrap_or(DEFAULT_F_LOW)
+    }
+
+    /// Check every field.
+    pub fn validate(&self) -> Result<(), RequirementError> {
+        let fin = |x: f64| x.is_finite();
+        if !(fin(self.vcc) && (1.0..=1000.0).contains(&self.vcc)) {
+            return Err(RequirementError::Supply);
+        }
+        if !(fin(self.gain) && (0.1..=1000.0).contains(&self.gain)) {
+            return Err(RequirementError::Gain);
+        }
+        if let Some(rl) = self.rl {
+            if !(fin(rl) && (1.0..=1e9).contains(&rl)) {
+                return Err(RequirementError::Load);
+            }
+        }
+        if !(fin(self.rs) && (0.0..=1e9).contains(&self.rs)) {
+            return Err(RequirementError::Source);
+        }
+        if !(fin(self.ic_max) && self.ic_max > 0.0 && self.ic_max <= 1.0) {
+            return Err(RequirementError::CurrentBudget);
+        }
+        if !(fin(self.swing_pp) && self.swing_pp >= 0.0 && self.swing_pp < self.vcc) {
+            return Err(RequirementError::Swing);
+        }
+        if let Some(f) = self.f_low {
+            if !(fin(f) && f > 0.0 && f <= 1e6) {
+                return Err(RequirementError::LowCorner);
+            }
+        }
+        let t_ok = |t: f64| fin(t) && (-55.0..=150.0).contains(&t);
+        if !t_ok(self.temp) {
+            return Err(RequirementError::Temperature);
+        }
+        if !(t_ok(self.temp_min)
+            && t_ok(self.temp_max)
+            && self.temp_min <= self.temp
+            && self.temp <= self.temp_max)
+        {
+            return Err(RequirementError::TemperatureRange);
+        }
+        if !(fin(self.tol) && (0.0..=0.5).contains(&self.tol)) {
+            return Err(RequirementError::Tolerance);
+        }
+        if !(fin(self.cap_tol) && (0.0..=0.5).contains(&self.cap_tol)) {
+            return Err(RequirementError::CapacitorTolerance);
+        }
+        Ok(())
+    }
+}
+
+/// A requirement field out of range.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum RequirementError {
+    /// The supply must be between 1 V and 1000 V.
+    Supply,
+    /// The gain magnitude must be between 0.1 and 1000.
+    Gain,
+    /// The load must be between 1 Ω and 1 GΩ.
+    Load,
+    /// The source resistance must be between 0 and 1 GΩ.
+    Source,
+    /// The collector-current budget must be above 0 and at most 1 A.
+    CurrentBudget,
+    /// The swing must be zero or positive and below the supply.
+    Swing,
+    /// The low corner must be above 0 Hz and at most 1 MHz.
+    LowCorner,
+    /// The nominal ambient must be between -55 °C and 150 °C.
+    Temperature,
+    /// The ambient range must lie within -55 °C to 150 °C with min <= nominal <= max.
+    TemperatureRange,
+    /// The resistor tolerance must be between 0 and 50 %.
+    Tolerance,
+    /// The capacitor tolerance must be between 0 and 50 %.
+    CapacitorTolerance,
+}
+
+impl RequirementError {
+    /// The requirement's field name as the command line spells it ("vcc", "gain", ...).
+    pub fn field(self) -> &'static str {
+        match self {
+            Self::Supply => "vcc",
+            Self::Gain => "gain",
+            Self::Load => "rl",
+            Self::Source => "rs",
+            Self::CurrentBudget => "ic-max",
+            Self::Swing => "swing",
+            Self::LowCorner => "f-low",
+            Self::Temperature => "temp",
+            Self::TemperatureRange => "temp-min/temp-max",
+            Self::Tolerance => "tol",
+            Self::CapacitorTolerance => "cap-tol",
+        }
+    }
+}
+
+impl fmt::Display for RequirementError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Self::Supply => "the supply must be between 1 V and 1000 V",
+            Self::Gain => "the gain magnitude must be between 0.1 and 1000",
+            Self::Load => "the load must be between 1 Ω and 1 GΩ",
+            Self::Source => "the source resistance must be between 0 Ω and 1 GΩ",
+            Self::CurrentBudget => "the collector-current budget must be above 0 A and at most 1 A",
+            Self::Swing => "the swing must be zero or positive and below the supply",
+            Self::LowCorner => "the low corner must be above 0 Hz and at most 1 MHz",
+            Self::Temperature => "the nominal ambient must be between -55 °C and 150 °C",
+            Self::TemperatureRange => {
+                "the ambient range must lie within -55 °C to 150 °C with min <= nominal <= max"
+            }
+            Self::Tolerance => "the resistor tolerance must be between 0 and 50 %",
+            Self::CapacitorTolerance => "the capacitor tolerance must be between 0 and 50 %",
+        })
+    }
+}
+
+/// A requirement the design checks, for messages and margins.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Check {
+    /// The gain magnitude within [`GAIN_TOLERANCE`].
+    Gain,
+    /// The swing at least the requirement.
+    Swing,
+    /// IC at nominal within the budget.
+    Current,
+    /// IC drift across hFE min..max at most [`DRIFT_LIMIT`].
+    Drift,
+    /// The low corner (pole sum) at most the requirement.
+    LowCorner,
+    /// Transistor dissipation within its rating at the highest ambient.
+    Dissipation,
+    /// The transistor in its active region at nominal.
+    Region,
+}
+
+impl Check {
+    /// The requirement's name in plain words.
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Gain => "gain",
+            Self::Swing => "swing",
+            Self::Current => "current budget",
+            Self::Drift => "IC drift over hFE",
+            Self::LowCorner => "low corner",
+            Self::Dissipation => "transistor dissipation",
+            Self::Region => "active region",
+        }
+    }
+}
+
+/// Why no design could be given. Each variant names the requirement and what would work.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[non_exhaustive]
+pub enum DesignError {
+    /// A requirement field is out of range.
+    Invalid(RequirementError),
+    /// The transistor profile is out of range.
+    Profile(ProfileError),
+    /// The gain needs more collector current than the budget allows.
+    GainNeedsCurrent {
+        /// Required gain magnitude.
+        gain: f64,
+        /// Load, Ω (`None`: no load).
+        rl: Option<f64>,
+        /// Least collector current that reaches the gain, A.
+        needs_ic: f64,
+        /// The budget, A.
+        budget: f64,
+    },
+    /// The swing into the load needs more collector current than the budget allows.
+    SwingNeedsCurrent {
+        /// Required swing, V peak-to-peak.
+        swing: f64,
+        /// Load, Ω (`None`: no load).
+        rl: Option<f64>,
+        /// Least collector current that gives the swing, A.
+        needs_ic: f64,
+        /// The budget, A.
+        budget: f64,
+    },
+    /// The gain cannot be reached with this supply, source, load and transistor at any current.
+    GainOutOfReach {
+        /// Required gain magnitude.
+        gain: f64,
+        /// The highest gain the hand method finds, magnitude.
+        best: f64,
+    },
+    /// The swing cannot be reached from this supply at any current.
+    SwingOutOfReach {
+        /// Required swing, V peak-to-peak.
+        swing: f64,
+        /// The largest swing the hand method finds, V peak-to-peak.
+        best: f64,
+        /// A supply that would give the swing (estimate), V.
+        needs_vcc: f64,
+    },
+    /// Gain and swing are each reachable, but not together in one stage.
+    GainAndSwing {
+        /// Required gain magnitude.
+        gain: f64,
+        /// Required swing, V peak-to-peak.
+        swing: f64,
+    },
+    /// The current needed would overheat the transistor at the highest ambient.
+    Dissipation {
+        /// Least collector current needed, A.
+        needs_ic: f64,
+        /// The transistor's dissipation at that current (estimate), W.
+        power: f64,
+        /// Its rating at the highest ambient, W.
+        rating: f64,
+    },
+    /// The low corner needs a capacitor larger than [`C_MAX`].
+    LowCorner {
+        /// Required low corner, Hz.
+        f_low: f64,
+        /// The capacitance that would be needed, F.
+        needs: f64,
+    },
+    /// The search found no part set that meets every requirement; the closest one misses this.
+    Shortfall {
+        /// The requirement missed.
+        check: Check,
+        /// Required value (gain magnitude, V, A, fraction, Hz or W).
+        required: f64,
+        /// What the closest part set achieves, same unit.
+        achieved: f64,
+    },
+}
+
+/// A printable engineering value.
+fn e(value: f64, unit: &'static str) -> Eng {
+    Eng::new(value, unit)
+}
+
+struct Load(Option<f64>);
+
+impl fmt::Display for Load {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.0 {
+            Some(rl) => write!(f, "into {}", e(rl, "Ω")),
+            None => f.write_str("with no load"),
+        }
+    }
+}
+
+impl fmt::Display for DesignError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match *self {
+            Self::Invalid(r) => write!(f, "{}: {r}", r.field()),
+            Self::Profile(p) => write!(f, "transistor: {p}"),
+            Self::GainNeedsCurrent {
+                gain,
+                rl,
+                needs_ic,
+                budget,
+            } => write!(
+                f,
+                "gain: {gain} {} needs IC >= {}; the budget is {}: raise the budget (--ic-max) \
+                 or lower the gain",
+                Load(rl),
+                e(needs_ic, "A"),
+                e(budget, "A")
+            ),
+            Self::SwingNeedsCurrent {
+                swing,
+                rl,
+                needs_ic,
+                budget,
+            } => write!(
+                f,
+                "swing: {} peak-to-peak {} needs IC >= {}; the budget is {}: raise the budget \
+                 (--ic-max), raise the load or lower the swing",
+                e(swing, "V"),
+                Load(rl),
+                e(needs_ic, "A"),
+                e(budget, "A")
+            ),
+            Self::GainOutOfReach { gain, best } => write!(
+                f,
+                "gain: {gain} is out of reach with this supply, source, load and transistor; \
+                 about {best:.1} is the most: lower the gain, lower RS or raise RL"
+            ),
+            Self::SwingOutOfReach {
+                swing,
+                best,
+                needs_vcc,
+            } => write!(
+                f,
+                "swing: {} peak-to-peak is out of reach; about {} is the most from this supply: \
+                 lower the swing or raise the supply to about {}",
+                e(swing, "V"),
+                e(best, "V"),
+                e(needs_vcc, "V")
+            ),
+            Self::GainAndSwing { gain, swing } => write!(
+                f,
+                "gain and swing: gain {gain} and a swing of {} peak-to-peak are each reachable \
+                 but not together: lower one of them or raise the supply",
+                e(swing, "V")
+            ),
+            Self::Dissipation {
+                needs_ic,
+                power,
+                rating,
+            } => write!(
+                f,
+                "dissipation: the stage needs IC >= {}, about {} in the transistor, over its \
+                 {} rating at the highest ambient: lower the gain or swing, or use a larger \
+                 transistor (--power-rating)",
+                e(needs_ic, "A"),
+                e(power, "W"),
+                e(rating, "W")
+            ),
+            Self::LowCorner { f_low, needs } => write!(
+                f,
+                "f-low: a low corner of {} needs a capacitor of about {}, more than the {} \
+                 allowed: raise the low corner",
+                e(f_low, "Hz"),
+                e(needs, "F"),
+                e(C_MAX, "F")
+            ),
+            Self::Shortfall {
+                check,
+                required,
+                achieved,
+            } => match check {
+                Check::Gain => write!(
+                    f,
+                    "gain: no standard-value part set reaches {required} within 5 %; the closest \
+                     gives {achieved:.2}: try a finer series (--series E48) or another gain"
+                ),
+                Check::Swing => write!(
+                    f,
+                    "swing: no part set reaches {} peak-to-peak; the closest gives {}: lower \
+                     the swing or raise the budget or supply",
+                    e(required, "V"),
+                    e(achieved, "V")
+                ),
+                Check::Current => write!(
+                    f,
+                    "ic-max: no part set stays within {}; the closest draws {}: raise the budget",
+                    e(required, "A"),
+                    e(achieved, "A")
+                ),
+                Check::Drift => write!(
+                    f,
+                    "hFE spread: no part set keeps IC within {:.0} % across hFE min..max; the \
+                     closest moves {:.1} %: narrow the hFE spread or raise the budget",
+                    required * 100.0,
+                    achieved * 100.0
+                ),
+                Check::LowCorner => write!(
+                    f,
+                    "f-low: no capacitor set reaches {}; the closest gives {}: raise the low \
+                     corner",
+                    e(required, "Hz"),
+                    e(achieved, "Hz")
+                ),
+                Check::Dissipation => write!(
+                    f,
+                    "dissipation: every part set puts more than the {} rating into the \
+                     transistor (closest {}): use a larger transistor or lower the supply",
+                    e(required, "W"),
+                    e(achieved, "W")
+                ),
+                Check::Region => f.write_str(
+                    "bias: no part set keeps the transistor in its active region: check the \
+                     supply and the requirement",
+                ),
+            },
+        }
+    }
+}
+
+/// How far a candidate is from each requirement (at nominal unless said).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Margins {
+    /// |gain|/required − 1 (signed fraction).
+    pub gain_error: f64,
+    /// Swing / required swing (infinite when no swing is required).
+    pub swing_ratio: f64,
+    /// IC / budget.
+    pub ic_ratio: f64,
+    /// IC drift across hFE min..max at the nominal ambient: (max − min)/min.
+    pub drift_beta: f64,
+    /// IC drift across the ambient range at typical hFE: (max − min)/min.
+    pub drift_temp: f64,
+    /// Low corner (pole sum) / required low corner.
+    pub f_low_ratio: f64,
+    /// Transistor dissipation at the highest ambient / its rating there.
+    pub power_ratio: f64,
+}
+
+/// One buildable design, re-analysed with the exact engine.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Candidate {
+    /// The stage with standard parts (resistor and capacitor tolerances of the requirement).
+    pub stage: Stage,
+    /// Exact operating point at nominal (typical hFE, nominal ambient).
+    pub op: OperatingPoint,
+    /// v(load)/v(source EMF), signed.
+    pub gain: f64,
+    /// Largest undistorted peak-to-peak swing at the load, V.
+    pub swing_pp: f64,
+    /// Which side clips first.
+    pub clips: Clip,
+    /// Low corner: sum of the three poles (short-circuit time constants), Hz.
+    pub f_low: f64,
+    /// Current drawn from the supply at nominal, A.
+    pub supply_current: f64,
+    /// Transistor dissipation at nominal, W.
+    pub transistor_power: f64,
+    /// Lowest and highest IC over hFE min..max and the ambient range, A.
+    pub ic_range: (f64, f64),
+    /// Margins to each requirement.
+    pub margins: Margins,
+    /// Score: a weighted sum of penalties, lower is better.
+    pub score: f64,
+    /// The collector current the first pass aimed at, A.
+    pub level: f64,
+}
+
+/// The result of a design: candidates best first.
+pub type Candidates = heapless::Vec<Candidate, MAX_CANDIDATES>;
+
+/// The first pass at one collector current: exact (not yet standard) values.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Ideal {
+    /// Design collector current, A.
+    pub ic: f64,
+    /// Supply to base, Ω.
+    pub r1: f64,
+    /// Base to ground, Ω.
+    pub r2: f64,
+    /// Collector resistor, Ω.
+    pub rc: f64,
+    /// Unbypassed emitter resistor, Ω.
+    pub re1: f64,
+    /// Bypassed emitter resistor, Ω.
+    pub re2: f64,
+    /// Emitter voltage aimed at, V (magnitude, from the emitter-side rail).
+    pub ve: f64,
+    /// Divider Thévenin voltage, V (from the emitter-side rail).
+    pub vbb: f64,
+    /// Quiescent VCE, V (magnitude).
+    pub vce: f64,
+    /// Expected gain magnitude from the source EMF.
+    pub gain: f64,
+    /// Expected swing at the load, V peak-to-peak.
+    pub swing_pp: f64,
+    /// Expected input impedance (without RS), Ω.
+    pub zin: f64,
+}
+
+/// Why the first pass has no answer at a current.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum FirstPassMiss {
+    /// The gain is out of reach at this current (RE1 would be below [`R_MIN`]); the most there.
+    Gain(f64),
+    /// The swing is out of reach at this current; the most there, V.
+    Swing(f64),
+    /// The bias does not fit the supply, or values fall outside [`R_MIN`]..[`R_MAX`].
+    Bias,
+    /// The transistor would dissipate more than 80 % of its rating at the highest ambient; W.
+    Dissipation(f64),
+}
+
+/// The classic textbook result of voltage-divider bias design (no corrections).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Classic {
+    /// Collector resistor, Ω.
+    pub rc: f64,
+    /// Emitter resistor, Ω.
+    pub re: f64,
+    /// Base to ground, Ω.
+    pub r2: f64,
+    /// Supply to base, Ω.
+    pub r1: f64,
+    /// Base voltage, V.
+    pub vb: f64,
+}
+
+/// The classic hand procedure of voltage-divider bias: VE = `ve_fraction`·VCC, RE = VE/IC,
+/// RC = (VCC − VCE − VE)/IC, VB = VE + VBE, R2 = `stiffness`·hFE·RE (stiff divider, base
+/// current ignored), R1 = R2·(VCC − VB)/VB. Kept to compare the corrected first pass with.
+pub fn classic(
+    vcc: f64,
+    ic: f64,
+    vce: f64,
+    ve_fraction: f64,
+    vbe: f64,
+    beta: f64,
+    stiffness: f64,
+) -> Classic {
+    let ve = ve_fraction * vcc;
+    let re = ve / ic;
+    let rc = (vcc - vce - ve) / ic;
+    let vb = ve + vbe;
+    let r2 = stiffness * beta * re;
+    let r1 = r2 * (vcc - vb) / vb;
+    Classic { rc, re, r2, r1, vb }
+}
+
+/// The Q-point current the classic hand method centres on the AC load line, A:
+/// ICQ = VCC/(RAC + RDC) with RAC = RC‖RL + RE1 and RDC = RC + RE1 + RE2.
+pub fn centred_ic(vcc: f64, rc: f64, rl: Option<f64>, re1: f64, re2: f64) -> f64 {
+    let rp = rl.map_or(rc, |rl| rc * rl / (rc + rl));
+    vcc / (rp + re1 + rc + re1 + re2)
+}
+
+fn index(r: Resistor) -> usize {
+    match r {
+        Resistor::R1 => 0,
+        Resistor::R2 => 1,
+        Resistor::Rc => 2,
+        Resistor::Re1 => 3,
+        Resistor::Re2 => 4,
+    }
+}
+
+fn par(a: f64, b: f64) -> f64 {
+    a * b / (a + b)
+}
+
+/// The emitter voltage the first pass aims at, V: a tenth of the supply (common practice), or
+/// more where the ambient range needs it (VBE moves about 2.1 mV/°C; keep that below a tenth of
+/// VE), at most a fifth of the supply; `low` asks for the least (6 % of the supply, 0.3 V).
+fn ve_target(req: &Requirement, low: bool) -> f64 {
+    let vcc = req.vcc;
+    if low {
+        return (0.06 * vcc).max(0.3).min(0.2 * vcc);
+    }
+    let span = req.temp_max - req.temp_min;
+    (0.1 * vcc).max(0.0021 * span / 0.1).min(0.2 * vcc)
+}
+
+/// Thévenin resistance of the divider per ohm of emitter resistance that keeps IC within
+/// `drift` across hFE min..max, never above the common-practice 0.1·hFE(min).
+fn stiffness(profile: &Profile, drift: f64) -> f64 {
+    let (bmin, bmax) = (profile.beta_min + 1.0, profile.beta_max + 1.0);
+    let rule = 0.1 * profile.beta_min;
+    let den = 1.0 / bmin - (1.0 + drift) / bmax;
+    if den > 0.0 {
+        (drift / den).min(rule)
+    } else {
+        rule
+    }
+}
+
+/// The corrected hand method at collector current `ic` (see the module text). `low_ve` aims the
+/// emitter voltage at its least instead of its usual value.
+pub fn first_pass(
+    req: &Requirement,
+    profile: &Profile,
+    ic: f64,
+    low_ve: bool,
+) -> Result<Ideal, FirstPassMiss> {
+    pass(req, profile, ic, low_ve, true, true)
+}
+
+/// The first pass; `check_gain` false holds RE1 at its least instead of failing, `check_swing`
+/// false accepts any swing (both for telling which requirement is out of reach).
+fn pass(
+    req: &Requirement,
+    profile: &Profile,
+    ic: f64,
+    low_ve: bool,
+    check_gain: bool,
+    check_swing: bool,
+) -> Result<Ideal, FirstPassMiss> {
+    let vt = thermal_voltage(req.temp);
+    let beta = profile.beta_at(profile.beta_typ, req.temp);
+    let alpha = beta / (beta + 1.0);
+    let ie = ic / alpha;
+    let re = vt / ie;
+    let vbe = vt * libm::log(ic / profile.is_at(req.temp) + 1.0);
+    let vcc = req.vcc;
+    let u = stiffness(profile, 0.05);
+    let mut ve = ve_target(req, low_ve);
+    let mut k = 1.0;
+    let mut out = None;
+    for _ in 0..4 {
+        // Centre the Q-point: VCE − VCE(sat) = IC·(Rp + RE1) with RE1 = k·α·Rp/A − re.
+        let v_room = vcc - ve - profile.vce_sat;
+        if !(v_room > 0.0) {
+            return Err(FirstPassMiss::Bias);
+        }
+        let m = 1.0 + k * alpha / req.gain;
+        let w = v_room / ic + re;
+        let rc = match req.rl {
+            Some(rl) => {
+                let b = rl * (1.0 + m) - w;
+                0.5 * (-b + libm::sqrt(b * b + 4.0 * w * rl))
+            }
+            None => w / (1.0 + m),
+        };
+        let rp = req.rl.map_or(rc, |rl| par(rc, rl));
+        let re1 = k * alpha * rp / req.gain - re;
+        let swing = 2.0 * ic * rp;
+        if re1 < R_MIN && check_gain {
+            // The most gain here: RE1 at its least.
+            return Err(FirstPassMiss::Gain(k * alpha * rp / (re + R_MIN)));
+        }
+        let re1 = re1.max(R_MIN);
+        let re_total = ve / ie;
+        let re2 = (re_total - re1).max(0.25 * re1).max(R_MIN);
+        let re_total = re1 + re2;
+        ve = ie * re_total;
+        let rth = u * re_total;
+        let vbb = vbe + ve + rth * ic / beta;
+        if !(vbb < 0.95 * vcc) {
+            return Err(FirstPassMiss::Bias);
+        }
+        let r1 = rth * vcc / vbb;
+        let r2 = rth * vcc / (vcc - vbb);
+        let zin = par(rth, (beta + 1.0) * (re + re1));
+        k = if req.rs > 0.0 {
+            zin / (zin + req.rs)
+        } else {
+            1.0
+        };
+        let vce = vcc - ic * rc - ve;
+        let gain = k * alpha * rp / (re + re1);
+        // R1 runs from the supply to the base: on the collector side for NPN, on the emitter
+        // side for PNP.
+        let (r1, r2) = match req.polarity {
+            Polarity::Npn => (r1, r2),
+            Polarity::Pnp => (r2, r1),
+        };
+        out = Some((
+            Ideal {
+                ic,
+                r1,
+                r2,
+                rc,
+                re1,
+                re2,
+                ve,
+                vbb,
+                vce,
+                gain,
+                swing_pp: swing,
+                zin,
+            },
+            swing,
+        ));
+    }
+    let (ideal, swing) = out.ok_or(FirstPassMiss::Bias)?;
+    // The gain error left by the last update of k (a few percent at most) is the search's job.
+    if swing < req.swing_pp && check_swing {
+        return Err(FirstPassMiss::Swing(swing));
+    }
+    let values = [ideal.r1, ideal.r2, ideal.rc, ideal.re1, ideal.re2];
+    if !values
+        .iter()
+        .all(|v| v.is_finite() && (R_MIN..=R_MAX).contains(v))
+    {
+        return Err(FirstPassMiss::Bias);
+    }
+    let p = ic * ideal.vce;
+    if p > 0.8 * profile.power_rating_at(req.temp_max) {
+        return Err(FirstPassMiss::Dissipation(p));
+    }
+    Ok(ideal)
+}
+
+/// The collector currents of the ladder: E6 values from [`IC_LADDER_MIN`] to [`IC_LADDER_MAX`].
+fn ladder() -> impl Iterator<Item = f64> {
+    (0..31)
+        .filter_map(|k| Series::E6.step(IC_LADDER_MIN, k))
+        .filter(|&i| i <= IC_LADDER_MAX * (1.0 + 1e-9))
+}
+
+/// A stage from resistor values and capacitors.
+fn build(req: &Requirement, r: [f64; 5], caps: [Option<f64>; 3]) -> Stage {
+    let part = |v: f64| Part::new(v, req.tol);
+    let [r1, r2, rc, re1, re2] = r;
+    let cap = |c: Option<f64>| c.map(|c| Part::new(c, req.cap_tol));
+    let [cin, cout, ce] = caps;
+    Stage {
+        polarity: req.polarity,
+        vcc: Part::new(req.vcc, 0.0),
+        r1: part(r1),
+        r2: part(r2),
+        rc: part(rc),
+        re1: part(re1),
+        re2: part(re2),
+        rl: req.rl,
+        rs: req.rs,
+        cin: cap(cin),
+        cout: cap(cout),
+        ce: cap(ce),
+    }
+}
+
+/// The search's record of one part set.
+#[derive(Debug, Clone, Copy)]
+struct Eval {
+    r: [f64; 5],
+    op: OperatingPoint,
+    gain: f64,
+    swing: f64,
+    clips: Clip,
+    supply: f64,
+    ptr: f64,
+    ic_range: (f64, f64),
+    margins: Margins,
+    score: f64,
+    /// Every requirement met (the low corner is checked later).
+    meets: bool,
+    /// The first requirement missed, with its required and achieved values.
+    miss: Option<(Check, f64, f64)>,
+    level: f64,
+}
+
+/// Weights of the score (dimensionless penalty per unit of each figure).
+mod weight {
+    /// Per unit of relative gain error.
+    pub const GAIN: f64 = 100.0;
+    /// Per unit of relative gain error beyond 2 %.
+    pub const GAIN_STEEP: f64 = 1000.0;
+    /// Per unit of swing shortfall below 1.05 × the requirement.
+    pub const SWING_SHORT: f64 = 200.0;
+    /// Per unit of swing below 1.3 × the requirement (soft preference for margin).
+    pub const SWING_SOFT: f64 = 4.0;
+    /// Per unit of IC drift over hFE.
+    pub const DRIFT: f64 = 20.0;
+    /// Per unit of IC drift over hFE beyond 10 %.
+    pub const DRIFT_STEEP: f64 = 500.0;
+    /// Per unit of IC drift over the ambient range.
+    pub const DRIFT_TEMP: f64 = 10.0;
+    /// Per unit of IC drift over the ambient range beyond 12 %.
+    pub const DRIFT_TEMP_STEEP: f64 = 100.0;
+    /// Per watt drawn from the supply.
+    pub const SUPPLY: f64 = 20.0;
+    /// Per unit of transistor dissipation ratio beyond one half.
+    pub const HEAT: f64 = 10.0;
+    /// Per unit of re/(re + RE1): a gain set by the resistors, not by the junction.
+    pub const JUNCTION: f64 = 1.0;
+    /// Per unit of IC over 97 % of the budget.
+    pub const NEAR_BUDGET: f64 = 300.0;
+    /// Per unit of the hottest resistor's share of 0.25 W beyond one half.
+    pub const RESISTOR_HEAT: f64 = 2.0;
+    /// A requirement missed.
+    pub const MISS: f64 = 1e4;
+}
+
+fn pos(x: f64) -> f64 {
+    if x > 0.0 {
+        x
+    } else {
+        0.0
+    }
+}
+
+/// Exact analysis of one resistor set; `bound` skips the drift solves of a set that cannot beat
+/// it. `None` when the engine finds no operating point or no signal path.
+fn evaluate(
+    req: &Requirement,
+    profile: &Profile,
+    r: [f64; 5],
+    level: f64,
+    bound: f64,
+    with_drift: bool,
+) -> Option<Eval> {
+    let stage = build(req, r, [None; 3]);
+    let cond = Conditions {
+        temp_c: req.temp,
+        beta_25: profile.beta_typ,
+        fault: None,
+    };
+    let op = solve(&stage, profile, cond).ok()?;
+    let mid = midband(&stage, profile, &op).ok()?;
+    let pw = power(&stage, profile, &op, req.temp);
+    let hot_rating = profile.power_rating_at(req.temp_max);
+    let gain_error = libm::fabs(mid.gain) / req.gain - 1.0;
+    let swing_ratio = if req.swing_pp > 0.0 {
+        mid.swing_pp / req.swing_pp
+    } else {
+        f64::INFINITY
+    };
+    let ic_ratio = op.ic / req.ic_max;
+    let power_ratio = if hot_rating > 0.0 {
+        pw.transistor / hot_rating
+    } else {
+        f64::INFINITY
+    };
+    let ge = libm::fabs(gain_error);
+    let re_junction = if op.y.y21 > 0.0 {
+        1.0 / op.y.y21
+    } else {
+        f64::INFINITY
+    };
+    let mut score = weight::GAIN * ge
+        + weight::GAIN_STEEP * pos(ge - 0.02)
+        + weight::SUPPLY * pw.supply_current * req.vcc
+        + weight::HEAT * pos(power_ratio - 0.5)
+        + weight::JUNCTION * re_junction / (re_junction + r[3])
+        + weight::NEAR_BUDGET * pos(ic_ratio - 0.97)
+        + weight::RESISTOR_HEAT
+            * pos(pw.resistors.iter().fold(0.0_f64, |a, &b| a.max(b)) / RESISTOR_POWER_LIMIT - 0.5);
+    if req.swing_pp > 0.0 {
+        score += weight::SWING_SHORT * pos(1.05 - swing_ratio)
+            + weight::SWING_SOFT * pos(1.3 - swing_ratio);
+    } else {
+        score += weight::SWING_SOFT * pos(0.3 - mid.swing_pp / req.vcc);
+    }
+    let mut miss = None;
+    let mut note = |c: Check, required: f64, achieved: f64, bad: bool| {
+        if bad && miss.is_none() {
+            miss = Some((c, required, achieved));
+        }
+    };
+    note(Check::Region, 0.0, 0.0, op.region != Region::Active);
+    note(
+        Check::Gain,
+        req.gain,
+        libm::fabs(mid.gain),
+        !(ge <= GAIN_TOLERANCE),
+    );
+    note(
+        Check::Swing,
+        req.swing_pp,
+        mid.swing_pp,
+        !(mid.swing_pp >= req.swing_pp),
+    );
+    note(Check::Current, req.ic_max, op.ic, !(op.ic <= req.ic_max));
+    note(
+        Check::Dissipation,
+        hot_rating,
+        pw.transistor,
+        !(power_ratio <= 1.0),
+    );
+    let mut margins = Margins {
+        gain_error,
+        swing_ratio,
+        ic_ratio,
+        drift_beta: 0.0,
+        drift_temp: 0.0,
+        f_low_ratio: 0.0,
+        power_ratio,
+    };
+    let mut ic_range = (op.ic, op.ic);
+    if miss.is_some() {
+        score += weight::MISS;
+    } else if with_drift && score < bound {
+        let ic_at = |beta_25: f64, temp_c: f64| {
+            solve(
+                &stage,
+                profile,
+                Conditions {
+                    temp_c,
+                    beta_25,
+                    fault: None,
+                },
+            )
+            .map(|o| o.ic)
+            .ok()
+        };
+        let lo = ic_at(profile.beta_min, req.temp)?;
+        let hi = ic_at(profile.beta_max, req.temp)?;
+        let cold = ic_at(profile.beta_typ, req.temp_min)?;
+        let hot = ic_at(profile.beta_typ, req.temp_max)?;
+        let spread = |a: f64, b: f64| {
+            if a.min(b) > 0.0 {
+                (a.max(b) - a.min(b)) / a.min(b)
+            } else {
+                f64::INFINITY
+            }
+        };
+        let db = spread(lo, hi);
+        let dt = spread(cold.min(op.ic), hot.max(op.ic));
+        margins.drift_beta = db;
+        margins.drift_temp = dt;
+        ic_range = (lo.min(cold).min(op.ic), hi.max(hot).max(op.ic));
+        score += weight::DRIFT * db
+            + weight::DRIFT_STEEP * pos(db - 0.10)
+            + weight::DRIFT_TEMP * dt
+            + weight::DRIFT_TEMP_STEEP * pos(dt - 0.12);
+        if !(db <= DRIFT_LIMIT) {
+            miss = Some((Check::Drift, DRIFT_LIMIT, db));
+            score += weight::MISS;
+        }
+    } else {
+        // Not analysed for drift: it cannot take a place in the list.
+        score += weight::MISS;
+        return Some(Eval {
+            r,
+            op,
+            gain: mid.gain,
+            swing: mid.swing_pp,
+            clips: mid.clips,
+            supply: pw.supply_current,
+            ptr: pw.transistor,
+            ic_range,
+            margins,
+            score,
+            meets: false,
+            miss,
+            level,
+        });
+    }
+    Some(Eval {
+        r,
+        op,
+        gain: mid.gain,
+        swing: mid.swing_pp,
+        clips: mid.clips,
+        supply: pw.supply_current,
+        ptr: pw.transistor,
+        ic_range,
+        margins,
+        score,
+        meets: miss.is_none(),
+        miss,
+        level,
+    })
+}
+
+/// The best part sets found so far, best first, distinct.
+struct Best {
+    list: heapless::Vec<Eval, MAX_CANDIDATES>,
+    /// The closest part set that misses a requirement.
+    closest_miss: Option<Eval>,
+}
+
+impl Best {
+    /// The score a new set must beat to enter the list.
+    fn bound(&self) -> f64 {
+        if self.list.is_full() {
+            self.list.last().map_or(f64::INFINITY, |e| e.score)
+        } else {
+            f64::INFINITY
+        }
+    }
+
+    fn offer(&mut self, ev: Eval) {
+        if !ev.meets {
+            if ev.miss.is_some() && self.closest_miss.is_none_or(|c| ev.score < c.score) {
+                self.closest_miss = Some(ev);
+            }
+            return;
+        }
+        if self.list.iter().any(|e| e.r == ev.r) {
+            return;
+        }
+        let at = self
+            .list
+            .iter()
+            .position(|e| ev.score < e.score)
+            .unwrap_or(self.list.len());
+        if at >= MAX_CANDIDATES {
+            return;
+        }
+        if self.list.is_full() {
+            self.list.pop();
+        }
+        // Cannot fail: there is room after the pop.
+        let _ = self.list.insert(at, ev);
+    }
+}
+
+/// The neighbours of a value in a series: `steps` positions either side of the nearest member.
+fn around(series: Series, x: f64, steps: i32) -> heapless::Vec<f64, 5> {
+    let mut out = heapless::Vec::new();
+    for k in -steps..=steps {
+        if let Some(v) = series.step(x, k) {
+            if (R_MIN..=R_MAX).contains(&v) {
+                let _ = out.push(v);
+            }
+        }
+    }
+    out
+}
+
+/// The search around one first pass.
+fn search_level(req: &Requirement, profile: &Profile, ideal: &Ideal, best: &mut Best) {
+    let s = |r: Resistor| req.series_of(r);
+    let near = |r: Resistor, x: f64| s(r).nearest(x).unwrap_or(x);
+    let (r1n, r2n, re2n) = (
+        near(Resistor::R1, ideal.r1),
+        near(Resistor::R2, ideal.r2),
+        near(Resistor::Re2, ideal.re2),
+    );
+    // Phase 1: the gain pair (RC, RE1) with the nominal divider and RE2.
+    // Ratios of two E-series members are as coarse as the series, so for each RC within two
+    // steps RE1 is taken next to the value that gives the gain with that RC.
+    let mut pairs: heapless::Vec<(f64, f64, f64), 2> = heapless::Vec::new();
+    let vt = thermal_voltage(req.temp);
+    let beta = profile.beta_at(profile.beta_typ, req.temp);
+    let alpha = beta / (beta + 1.0);
+    let re = vt * alpha / ideal.ic;
+    let k = if req.rs > 0.0 {
+        ideal.zin / (ideal.zin + req.rs)
+    } else {
+        1.0
+    };
+    for rc in around(s(Resistor::Rc), ideal.rc, 2) {
+        let rp = req.rl.map_or(rc, |rl| par(rc, rl));
+        let re1_exact = (k * alpha * rp / req.gain - re).max(R_MIN);
+        for re1 in around(s(Resistor::Re1), re1_exact, 1) {
+            let Some(ev) = evaluate(
+                req,
+                profile,
+                [r1n, r2n, rc, re1, re2n],
+                ideal.ic,
+                0.0,
+                false,
+            ) else {
+                continue;
+            };
+            // Rank by the score without the drift terms.
+            let sc = ev.score - if ev.miss.is_none() { weight::MISS } else { 0.0 };
+            let at = pairs.iter().position(|p| sc < p.2).unwrap_or(pairs.len());
+            if at < 2 {
+                if pairs.is_full() {
+                    pairs.pop();
+                }
+                let _ = pairs.insert(at, (rc, re1, sc));
+            }
+        }
+    }
+    // Phase 2: the bias (R1, R2, RE2) around each pair, fully analysed.
+    let r1s = around(s(Resistor::R1), ideal.r1, 1);
+    let r2s = around(s(Resistor::R2), ideal.r2, 1);
+    let re2s = around(s(Resistor::Re2), ideal.re2, 1);
+    for &(rc, re1, _) in pairs.iter() {
+        for &r1 in r1s.iter() {
+            for &r2 in r2s.iter() {
+                for &re2 in re2s.iter() {
+                    if let Some(ev) = evaluate(
+                        req,
+                        profile,
+                        [r1, r2, rc, re1, re2],
+                        ideal.ic,
+                        best.bound(),
+                        true,
+                    ) {
+                        best.offer(ev);
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// How many of the best part sets the polish step revisits.
+const POLISH: usize = 4;
+
+/// Polish: around the best few part sets, every neighbour pair of RC and RE1 with their own
+/// bias resistors (the gain pair was chosen at the nominal divider, the bias may shift it).
+fn polish(req: &Requirement, profile: &Profile, best: &mut Best) {
+    let seeds: heapless::Vec<Eval, POLISH> = best.list.iter().take(POLISH).copied().collect();
+    for seed in seeds.iter() {
+        let [r1, r2, rc0, re10, re2] = seed.r;
+        let rcs = around(req.series_of(Resistor::Rc), rc0, 1);
+        let re1s = around(req.series_of(Resistor::Re1), re10, 1);
+        for &rc in rcs.iter() {
+            for &re1 in re1s.iter() {
+                if rc == rc0 && re1 == re10 {
+                    continue;
+                }
+                if let Some(ev) = evaluate(
+                    req,
+                    profile,
+                    [r1, r2, rc, re1, re2],
+                    seed.level,
+                    best.bound(),
+                    true,
+                ) {
+                    best.offer(ev);
+                }
+            }
+        }
+    }
+}
+
+/// Capacitors for a candidate: the set with the least total capacitance whose pole sum is at or
+/// below `F_LOW_MARGIN` × the required low corner. Returns (CIN, COUT, CE, pole sum).
+fn capacitors(
+    req: &Requirement,
+    stage: &Stage,
+    op: &OperatingPoint,
+) -> Result<([Option<f64>; 3], f64), DesignError> {
+    // Probe with 1 µF parts: each pole is 1/(2π·R·1 µF), which gives the resistance R it sees.
+    const PROBE: f64 = 1e-6;
+    let mut probe = *stage;
+    probe.cin = Some(Part::new(PROBE, 0.0));
+    probe.cout = stage.rl.map(|_| Part::new(PROBE, 0.0));
+    probe.ce = (stage.re2.value > 0.0).then_some(Part::new(PROBE, 0.0));
+    let lc = low_corner(&probe, op);
+    let seen = |f: Option<f64>| f.map(|f| 1.0 / (2.0 * PI * f * PROBE));
+    let (r_in, r_out, r_e) = (seen(lc.f_cin), seen(lc.f_cout), seen(lc.f_ce));
+    let f_target = F_LOW_MARGIN * req.f_low_or_default();
+    let series = req.cap_series;
+    let pole = |r: Option<f64>, c: f64| r.map_or(0.0, |r| 1.0 / (2.0 * PI * r * c));
+    // Candidate values for a coupling capacitor: from the least that alone meets the target up.
+    let options = |r: Option<f64>| -> heapless::Vec<Option<f64>, 7> {
+        let mut v = heapless::Vec::new();
+        match r {
+            None => {
+                let _ = v.push(None);
+            }
+            Some(r) => {
+                let least = 1.0 / (2.0 * PI * r * f_target);
+                let mut c = series.next_up(least);
+                while let Some(x) = c {
+                    if x > C_MAX * (1.0 + 1e-9) || v.is_full() {
+                        break;
+                    }
+                    let _ = v.push(Some(x));
+                    c = series.next_up(x);
+                }
+            }
+        }
+        v
+    };
+    let mut best: Option<([Option<f64>; 3], f64, f64)> = None;
+    let mut needs = 0.0_f64;
+    for cin in options(r_in) {
+        for cout in options(r_out) {
+            let used = cin.map_or(0.0, |c| pole(r_in, c)) + cout.map_or(0.0, |c| pole(r_out, c));
+            let left = f_target - used;
+            if !(left > 0.0) {
+                continue;
+            }
+            let ce = match r_e {
+                None => None,
+                Some(r) => {
+                    let least = 1.0 / (2.0 * PI * r * left);
+                    match series.ceil(least) {
+                        Some(c) if c <= C_MAX * (1.0 + 1e-9) => Some(c),
+                        _ => {
+                            needs = if needs > 0.0 { needs.min(least) } else { least };
+                            continue;
+                        }
+                    }
+                }
+            };
+            let total = cin.unwrap_or(0.0) + cout.unwrap_or(0.0) + ce.unwrap_or(0.0);
+            let f = used + ce.map_or(0.0, |c| pole(r_e, c));
+            if best.is_none_or(|b| total < b.1 * (1.0 - 1e-9)) {
+                best = Some(([cin, cout, ce], total, f));
+            }
+        }
+    }
+    match best {
+        Some((caps, _, f)) => Ok((caps, f)),
+        None => Err(DesignError::LowCorner {
+            f_low: req.f_low_or_default(),
+            needs: if needs > 0.0 { needs } else { C_MAX * 10.0 },
+        }),
+    }
+}
+
+/// The least collector current between `lo` (fails) and `hi` (works) at which the first pass
+/// works, by bisection in log current, A.
+fn least_current(req: &Requirement, profile: &Profile, lo: f64, hi: f64) -> f64 {
+    let works = |i: f64| {
+        first_pass(req, profile, i, false).is_ok() || first_pass(req, profile, i, true).is_ok()
+    };
+    let (mut a, mut b) = (libm::log(lo), libm::log(hi));
+    for _ in 0..24 {
+        let m = 0.5 * (a + b);
+        if works(libm::exp(m)) {
+            b = m;
+        } else {
+            a = m;
+        }
+    }
+    libm::exp(b)
+}
+
+/// Which requirement is out of reach at every current of the ladder: gain alone, swing alone,
+/// or the two together.
+fn out_of_reach(req: &Requirement, profile: &Profile) -> DesignError {
+    let (mut gain_ok, mut swing_ok) = (false, false);
+    let (mut best_gain, mut best_swing) = (0.0_f64, 0.0_f64);
+    for i in ladder() {
+        for low in [false, true] {
+            match pass(req, profile, i, low, true, false) {
+                Ok(_) => gain_ok = true,
+                Err(FirstPassMiss::Gain(g)) => best_gain = best_gain.max(g),
+                Err(_) => {}
+            }
+            match pass(req, profile, i, low, false, true) {
+                Ok(_) => swing_ok = true,
+                Err(FirstPassMiss::Swing(s)) => best_swing = best_swing.max(s),
+                Err(_) => {}
+            }
+        }
+    }
+    if !gain_ok {
+        DesignError::GainOutOfReach {
+            gain: req.gain,
+            best: best_gain,
+        }
+    } else if !swing_ok {
+        // The swing grows about in proportion to the supply's headroom.
+        let needs_vcc = if best_swing > 0.0 {
+            1.1 * req.vcc * req.swing_pp / best_swing
+        } else {
+            2.0 * req.vcc
+        };
+        DesignError::SwingOutOfReach {
+            swing: req.swing_pp,
+            best: best_swing,
+            needs_vcc,
+        }
+    } else {
+        DesignError::GainAndSwing {
+            gain: req.gain,
+            swing: req.swing_pp,
+        }
+    }
+}
+
+/// Design a stage for `req` with transistor `profile`: candidates best first, every one meeting
+/// every requirement at nominal, or the reason none can.
+pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, DesignError> {
+    req.validate().map_err(DesignError::Invalid)?;
+    profile.validate().map_err(DesignError::Profile)?;
+    // Which ladder currents the hand method can work at (independent of the budget).
+    let mut levels: heapless::Vec<(f64, Ideal), MAX_LEVELS> = heapless::Vec::new();
+    let mut last_miss: Option<(f64, FirstPassMiss)> = None;
+    let mut first_ok: Option<f64> = None;
+    let mut heat: Option<(f64, f64)> = None;
+    for i in ladder() {
+        if levels.is_full() || (first_ok.is_some() && i > req.ic_max) {
+            break;
+        }
+        let pass =
+            first_pass(req, profile, i, false).or_else(|_| first_pass(req, profile, i, true));
+        match pass {
+            Ok(ideal) => {
+                first_ok.get_or_insert(i);
+                if i <= req.ic_max * (1.0 + 1e-9) {
+                    let _ = levels.push((i, ideal));
+                }
+            }
+            Err(miss) => {
+                if first_ok.is_none() {
+                    last_miss = Some((i, miss));
+                }
+                if let FirstPassMiss::Dissipation(p) = miss {
+                    heat.get_or_insert((i, p));
+                }
+            }
+        }
+    }
+    let Some(first) = first_ok else {
+        if let Some((i, p)) = heat {
+            return Err(DesignError::Dissipation {
+                needs_ic: i,
+                power: p,
+                rating: profile.power_rating_at(req.temp_max),
+            });
+        }
+        return Err(out_of_reach(req, profile));
+    };
+    // The least working current itself (5 % above it) where the ladder steps over it: it
+    // depends on the requirement alone, so a larger budget still only adds levels.
+    let threshold = last_miss.and_then(|(lo, _)| {
+        let t = 1.05 * least_current(req, profile, lo, first);
+        let ideal =
+            first_pass(req, profile, t, false).or_else(|_| first_pass(req, profile, t, true));
+        (t < 0.97 * first && t <= req.ic_max)
+            .then_some(())
+            .and(ideal.ok())
+    });
+    if levels.is_empty() && threshold.is_none() {
+        let lo = last_miss.map_or(first / 1.5, |(i, _)| i);
+        // With the same 5 % margin the threshold level gets.
+        let needs_ic = (1.05 * least_current(req, profile, lo, first)).min(first);
+        return Err(match last_miss {
+            Some((_, FirstPassMiss::Swing(_))) => DesignError::SwingNeedsCurrent {
+                swing: req.swing_pp,
+                rl: req.rl,
+                needs_ic,
+                budget: req.ic_max,
+            },
+            _ => DesignError::GainNeedsCurrent {
+                gain: req.gain,
+                rl: req.rl,
+                needs_ic,
+                budget: req.ic_max,
+            },
+        });
+    }
+    let mut best = Best {
+        list: heapless::Vec::new(),
+        closest_miss: None,
+    };
+    for ideal in threshold.iter().chain(levels.iter().map(|(_, i)| i)) {
+        search_level(req, profile, ideal, &mut best);
+    }
+    polish(req, profile, &mut best);
+    if best.list.is_empty() {
+        let (check, required, achieved) =
+            best.closest_miss
+                .and_then(|m| m.miss)
+                .unwrap_or((Check::Region, 0.0, 0.0));
+        return Err(DesignError::Shortfall {
+            check,
+            required,
+            achieved,
+        });
+    }
+    let mut out = Candidates::new();
+    let mut low_err = None;
+    let f_req = req.f_low_or_default();
+    for ev in best.list.iter() {
+        let bare = build(req, ev.r, [None; 3]);
+        match capacitors(req, &bare, &ev.op) {
+            Ok((caps, f)) => {
+                let stage = build(req, ev.r, caps);
+                let mut margins = ev.margins;
+                margins.f_low_ratio = f / f_req;
+                let _ = out.push(Candidate {
+                    stage,
+                    op: ev.op,
+                    gain: ev.gain,
+                    swing_pp: ev.swing,
+                    clips: ev.clips,
+                    f_low: f,
+                    supply_current: ev.supply,
+                    transistor_power: ev.ptr,
+                    ic_range: ev.ic_range,
+                    margins,
+                    score: ev.score,
+                    level: ev.level,
+                });
+            }
+            Err(e) => {
+                low_err.get_or_insert(e);
+            }
+        }
+    }
+    match (out.is_empty(), low_err) {
+        (true, Some(e)) => Err(e),
+        (true, None) => Err(DesignError::Shortfall {
+            check: Check::LowCorner,
+            required: f_req,
+            achieved: f64::INFINITY,
+        }),
+        _ => Ok(out),
+    }
+}
+
+/// FNV-1a 64-bit hash of `bytes` (offset basis 0xcbf29ce484222325, prime 0x100000001b3; the
+/// public-domain Fowler–Noll–Vo definition), used to compare designs in logs and hand-overs.
+pub fn fnv1a64(bytes: &[u8]) -> u64 {
+    bytes.iter().fold(0xcbf2_9ce4_8422_2325_u64, |h, &b| {
+        (h ^ u64::from(b)).wrapping_mul(0x0000_0100_0000_01b3)
+    })
+}

@@ -1,12 +1,54 @@
 //! Design files: TOML with our own keys, written by `biasjig design -o FILE` and read by every
 //! command with `--design FILE`.
+//!
+//! ```toml
+//! version = 1
+//! id = "pump-preamp-a"
+//! hash = "9c1e5d0b7a3f2e41"          # FNV-1a 64 over the parts and the transistor (optional)
+//!
+//! [requirement]                       # optional: what the design was made for
+//! vcc = 12.0
+//! gain = 15.0
+//! # ... rl, rs, ic_max, swing_pp, f_low, series, tol, cap_series, cap_tol
+//!
+//! [transistor]
+//! beta_min = 100.0
+//! # ... beta_typ, beta_max, beta_rev, beta_tc, is, early, vce_sat, power_rating, tj_max
+//!
+//! [ambient]
+//! nominal = 25.0
+//! min = -10.0
+//! max = 55.0
+//!
+//! [parts]
+//! polarity = "npn"
+//! vcc = 12.0
+//! rl = 15000.0                        # optional: no load when absent
+//! rs = 600.0
+//! r1 = { value = 240000.0, series = "E24", tol = 0.05 }
+//! # ... r2, rc, re1, re2, and cin, cout, ce (optional: ideal when absent)
+//!
+//! [predicted]                         # optional: the figures at nominal when it was written
+//! ic = 0.00023
+//! # ... vb, ve, vc, vce, gain, swing_pp, f_low, supply_current, transistor_power
+//! ```
+//! Every table refuses unknown keys; a part value must be a member of its stated series; a file
+//! of a newer version is refused; a hash that does not match the parts and transistor is refused
+//! (the file was edited after it was written).
 
+use std::fmt::Write as _;
 use std::path::Path;
 
+use biasjig_core::design::{fnv1a64, Requirement};
 use biasjig_core::device::Profile;
-use biasjig_core::stage::Stage;
+use biasjig_core::series::Series;
+use biasjig_core::stage::{Part, Polarity, Stage};
+use serde::{Deserialize, Serialize};
 
 use crate::error::CliError;
+
+/// The design file version this build writes and the newest it reads.
+pub const VERSION: u32 = 1;
 
 /// A design file's contents as the commands need them.
 #[derive(Debug, Clone)]
@@ -25,12 +67,518 @@ pub struct DesignDoc {
     pub id: String,
     /// Hash of the design's parts and profile (hex), for logs and the instrument hand-over.
     pub hash: String,
+    /// The requirement the design was made for, if the file states it.
+    pub requirement: Option<Requirement>,
+    /// The series of each part R1, R2, RC, RE1, RE2, CIN, COUT, CE (`None`: not stated).
+    pub series: [Option<Series>; 8],
+    /// The predicted figures at nominal when the file was written.
+    pub predicted: Option<Predicted>,
+}
+
+/// Figures predicted at nominal (SI units).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Predicted {
+    /// Collector current, A.
+    pub ic: f64,
+    /// Base voltage, V.
+    pub vb: f64,
+    /// Emitter voltage, V.
+    pub ve: f64,
+    /// Collector voltage, V.
+    pub vc: f64,
+    /// VC − VE, V.
+    pub vce: f64,
+    /// v(load)/v(source EMF), signed.
+    pub gain: f64,
+    /// Largest undistorted peak-to-peak swing at the load, V.
+    pub swing_pp: f64,
+    /// Low corner, sum of the poles, Hz.
+    pub f_low: f64,
+    /// Supply current, A.
+    pub supply_current: f64,
+    /// Transistor dissipation, W.
+    pub transistor_power: f64,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileDoc {
+    version: u32,
+    id: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    hash: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    requirement: Option<FileRequirement>,
+    transistor: FileTransistor,
+    ambient: FileAmbient,
+    parts: FileParts,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    predicted: Option<Predicted>,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileRequirement {
+    vcc: f64,
+    gain: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    rl: Option<f64>,
+    rs: f64,
+    ic_max: f64,
+    swing_pp: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    f_low: Option<f64>,
+    series: String,
+    tol: f64,
+    cap_series: String,
+    cap_tol: f64,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileTransistor {
+    beta_min: f64,
+    beta_typ: f64,
+    beta_max: f64,
+    beta_rev: f64,
+    beta_tc: f64,
+    is: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    early: Option<f64>,
+    vce_sat: f64,
+    power_rating: f64,
+    tj_max: f64,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileAmbient {
+    nominal: f64,
+    min: f64,
+    max: f64,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FilePart {
+    value: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    series: Option<String>,
+    tol: f64,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileParts {
+    polarity: String,
+    vcc: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    rl: Option<f64>,
+    rs: f64,
+    r1: FilePart,
+    r2: FilePart,
+    rc: FilePart,
+    re1: FilePart,
+    re2: FilePart,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    cin: Option<FilePart>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    cout: Option<FilePart>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    ce: Option<FilePart>,
+}
+
+/// The canonical text the hash is taken over: polarity, supply, every part (value and
+/// tolerance), load, source and every transistor figure, in a fixed order, numbers in Rust's
+/// shortest round-trip form.
+pub fn canonical(stage: &Stage, profile: &Profile) -> String {
+    let mut s = String::new();
+    let pol = match stage.polarity {
+        Polarity::Npn => "npn",
+        Polarity::Pnp => "pnp",
+    };
+    let _ = write!(s, "polarity={pol};vcc={};", stage.vcc.value);
+    for (name, p) in [
+        ("r1", stage.r1),
+        ("r2", stage.r2),
+        ("rc", stage.rc),
+        ("re1", stage.re1),
+        ("re2", stage.re2),
+    ] {
+        let _ = write!(s, "{name}={}/{};", p.value, p.tol);
+    }
+    for (name, c) in [("cin", stage.cin), ("cout", stage.cout), ("ce", stage.ce)] {
+        match c {
+            Some(p) => {
+                let _ = write!(s, "{name}={}/{};", p.value, p.tol);
+            }
+            None => {
+                let _ = write!(s, "{name}=ideal;");
+            }
+        }
+    }
+    match stage.rl {
+        Some(rl) => {
+            let _ = write!(s, "rl={rl};");
+        }
+        None => s.push_str("rl=open;"),
+    }
+    let _ = write!(
+        s,
+        "rs={};beta={}/{}/{};beta_rev={};beta_tc={};is={};early={};vce_sat={};power={};tj_max={}",
+        stage.rs,
+        profile.beta_min,
+        profile.beta_typ,
+        profile.beta_max,
+        profile.beta_rev,
+        profile.beta_tc,
+        profile.is_25,
+        profile.early.map_or("none".to_string(), |v| v.to_string()),
+        profile.vce_sat,
+        profile.power_25,
+        profile.tj_max
+    );
+    s
+}
+
+/// The design hash: FNV-1a 64 of [`canonical`], 16 lower-case hex digits.
+pub fn hash(stage: &Stage, profile: &Profile) -> String {
+    format!("{:016x}", fnv1a64(canonical(stage, profile).as_bytes()))
+}
+
+fn bad(path: &Path, key: &str, msg: impl std::fmt::Display) -> CliError {
+    CliError::usage(format!("--design: {}: {key}: {msg}", path.display()))
+}
+
+fn series_of(path: &Path, key: &str, text: &str) -> Result<Series, CliError> {
+    Series::parse(text).map_err(|_| {
+        bad(
+            path,
+            key,
+            format!("{text:?} is not a series; allowed: E3, E6, E12, E24, E48, E96, E192"),
+        )
+    })
+}
+
+fn part(path: &Path, key: &str, p: &FilePart) -> Result<(Part, Option<Series>), CliError> {
+    let series = match &p.series {
+        Some(t) => Some(series_of(path, &format!("parts.{key}.series"), t)?),
+        None => None,
+    };
+    if let Some(s) = series {
+        if p.value != 0.0 && !s.contains(p.value) {
+            return Err(bad(
+                path,
+                &format!("parts.{key}.value"),
+                format!("{} is not a member of {}", p.value, s.name()),
+            ));
+        }
+    }
+    Ok((Part::new(p.value, p.tol), series))
 }
 
 /// Read a design file.
 pub fn load(path: &Path) -> Result<DesignDoc, CliError> {
-    Err(CliError::usage(format!(
-        "--design: {}: design files are not readable yet in this build",
-        path.display()
-    )))
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| CliError::usage(format!("--design: {}: cannot read: {e}", path.display())))?;
+    parse(path, &text)
+}
+
+/// Parse the text of a design file (`path` only names it in messages).
+pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
+    // The version first, so a newer file gets that message rather than one about its keys.
+    if let Ok(table) = text.parse::<toml::Table>() {
+        match table.get("version").and_then(toml::Value::as_integer) {
+            Some(v) if v > i64::from(VERSION) => {
+                return Err(bad(
+                    path,
+                    "version",
+                    format!("{v} is newer than this build reads (up to {VERSION}); update biasjig"),
+                ))
+            }
+            Some(v) if v < 1 => return Err(bad(path, "version", format!("{v}: allowed: 1"))),
+            _ => {}
+        }
+    }
+    let f: FileDoc = toml::from_str(text)
+        .map_err(|e| CliError::usage(format!("--design: {}: {}", path.display(), e.message())))?;
+    let polarity = match f.parts.polarity.as_str() {
+        "npn" => Polarity::Npn,
+        "pnp" => Polarity::Pnp,
+        other => {
+            return Err(bad(
+                path,
+                "parts.polarity",
+                format!("{other:?}: allowed: \"npn\" or \"pnp\""),
+            ))
+        }
+    };
+    let mut series = [None; 8];
+    let mut get = |k: usize, key: &str, p: &FilePart| -> Result<Part, CliError> {
+        let (part, s) = part(path, key, p)?;
+        if let Some(slot) = series.get_mut(k) {
+            *slot = s;
+        }
+        Ok(part)
+    };
+    let r1 = get(0, "r1", &f.parts.r1)?;
+    let r2 = get(1, "r2", &f.parts.r2)?;
+    let rc = get(2, "rc", &f.parts.rc)?;
+    let re1 = get(3, "re1", &f.parts.re1)?;
+    let re2 = get(4, "re2", &f.parts.re2)?;
+    let cin = f.parts.cin.as_ref().map(|p| get(5, "cin", p)).transpose()?;
+    let cout = f
+        .parts
+        .cout
+        .as_ref()
+        .map(|p| get(6, "cout", p))
+        .transpose()?;
+    let ce = f.parts.ce.as_ref().map(|p| get(7, "ce", p)).transpose()?;
+    let stage = Stage {
+        polarity,
+        vcc: Part::new(f.parts.vcc, 0.0),
+        r1,
+        r2,
+        rc,
+        re1,
+        re2,
+        rl: f.parts.rl,
+        rs: f.parts.rs,
+        cin,
+        cout,
+        ce,
+    };
+    stage.validate().map_err(|e| bad(path, "parts", e))?;
+    let t = &f.transistor;
+    let profile = Profile {
+        beta_min: t.beta_min,
+        beta_typ: t.beta_typ,
+        beta_max: t.beta_max,
+        beta_rev: t.beta_rev,
+        beta_tc: t.beta_tc,
+        is_25: t.is,
+        early: t.early,
+        vce_sat: t.vce_sat,
+        power_25: t.power_rating,
+        tj_max: t.tj_max,
+    };
+    profile.validate().map_err(|e| bad(path, "transistor", e))?;
+    let a = &f.ambient;
+    if !(a.min <= a.nominal && a.nominal <= a.max && a.min >= -55.0 && a.max <= 150.0) {
+        return Err(bad(
+            path,
+            "ambient",
+            format!(
+                "min {} nominal {} max {}: need -55 <= min <= nominal <= max <= 150 °C",
+                a.min, a.nominal, a.max
+            ),
+        ));
+    }
+    let computed = hash(&stage, &profile);
+    if let Some(h) = &f.hash {
+        if !h.eq_ignore_ascii_case(&computed) {
+            return Err(bad(
+                path,
+                "hash",
+                format!(
+                    "{h} does not match the parts and transistor ({computed}): the file was changed \
+                     after it was written; check the parts, then fix or remove the hash line"
+                ),
+            ));
+        }
+    }
+    let requirement = match &f.requirement {
+        Some(r) => {
+            let mut q = Requirement::new(r.vcc, r.gain);
+            q.polarity = polarity;
+            q.rl = r.rl;
+            q.rs = r.rs;
+            q.ic_max = r.ic_max;
+            q.swing_pp = r.swing_pp;
+            q.f_low = r.f_low;
+            q.temp = a.nominal;
+            q.temp_min = a.min;
+            q.temp_max = a.max;
+            q.series = series_of(path, "requirement.series", &r.series)?;
+            q.tol = r.tol;
+            q.cap_series = series_of(path, "requirement.cap_series", &r.cap_series)?;
+            q.cap_tol = r.cap_tol;
+            q.validate().map_err(|e| {
+                bad(
+                    path,
+                    &format!("requirement.{}", e.field().replace('-', "_")),
+                    e,
+                )
+            })?;
+            Some(q)
+        }
+        None => None,
+    };
+    Ok(DesignDoc {
+        stage,
+        profile,
+        temp_c: a.nominal,
+        temp_min: a.min,
+        temp_max: a.max,
+        id: f.id,
+        hash: computed,
+        requirement,
+        series,
+        predicted: f.predicted,
+    })
+}
+
+fn file_part(p: Part, s: Option<Series>) -> FilePart {
+    FilePart {
+        value: p.value,
+        series: s.map(|s| s.name().to_string()),
+        tol: p.tol,
+    }
+}
+
+/// The TOML text of a design.
+pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
+    let s = &doc.stage;
+    let sr = |k: usize| doc.series.get(k).copied().flatten();
+    let f = FileDoc {
+        version: VERSION,
+        id: doc.id.clone(),
+        hash: Some(hash(&doc.stage, &doc.profile)),
+        requirement: doc.requirement.map(|r| FileRequirement {
+            vcc: r.vcc,
+            gain: r.gain,
+            rl: r.rl,
+            rs: r.rs,
+            ic_max: r.ic_max,
+            swing_pp: r.swing_pp,
+            f_low: r.f_low,
+            series: r.series.name().to_string(),
+            tol: r.tol,
+            cap_series: r.cap_series.name().to_string(),
+            cap_tol: r.cap_tol,
+        }),
+        transistor: FileTransistor {
+            beta_min: doc.profile.beta_min,
+            beta_typ: doc.profile.beta_typ,
+            beta_max: doc.profile.beta_max,
+            beta_rev: doc.profile.beta_rev,
+            beta_tc: doc.profile.beta_tc,
+            is: doc.profile.is_25,
+            early: doc.profile.early,
+            vce_sat: doc.profile.vce_sat,
+            power_rating: doc.profile.power_25,
+            tj_max: doc.profile.tj_max,
+        },
+        ambient: FileAmbient {
+            nominal: doc.temp_c,
+            min: doc.temp_min,
+            max: doc.temp_max,
+        },
+        parts: FileParts {
+            polarity: match s.polarity {
+                Polarity::Npn => "npn".into(),
+                Polarity::Pnp => "pnp".into(),
+            },
+            vcc: s.vcc.value,
+            rl: s.rl,
+            rs: s.rs,
+            r1: file_part(s.r1, sr(0)),
+            r2: file_part(s.r2, sr(1)),
+            rc: file_part(s.rc, sr(2)),
+            re1: file_part(s.re1, sr(3)),
+            re2: file_part(s.re2, sr(4)),
+            cin: s.cin.map(|p| file_part(p, sr(5))),
+            cout: s.cout.map(|p| file_part(p, sr(6))),
+            ce: s.ce.map(|p| file_part(p, sr(7))),
+        },
+        predicted: doc.predicted,
+    };
+    toml::to_string(&f).map_err(|e| CliError::usage(format!("design file: cannot write: {e}")))
+}
+
+/// Write a design file (replacing any file at `path`).
+pub fn save(path: &Path, doc: &DesignDoc) -> Result<(), CliError> {
+    let text = to_text(doc)?;
+    let body = format!("# biasjig design file: written by `biasjig design`\n{text}");
+    std::fs::write(path, body)
+        .map_err(|e| CliError::usage(format!("-o: {}: cannot write: {e}", path.display())))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn doc() -> DesignDoc {
+        let stage = Stage {
+            polarity: Polarity::Npn,
+            vcc: Part::new(12.0, 0.0),
+            r1: Part::new(240e3, 0.05),
+            r2: Part::new(51e3, 0.05),
+            rc: Part::new(33e3, 0.05),
+            re1: Part::new(560.0, 0.05),
+            re2: Part::new(5.6e3, 0.05),
+            rl: Some(15e3),
+            rs: 600.0,
+            cin: Some(Part::new(10e-6, 0.2)),
+            cout: Some(Part::new(10e-6, 0.2)),
+            ce: Some(Part::new(68e-6, 0.2)),
+        };
+        let profile = Profile {
+            beta_min: 100.0,
+            beta_typ: 173.0,
+            beta_max: 300.0,
+            ..Profile::default()
+        };
+        let mut req = Requirement::new(12.0, 15.0);
+        req.rl = Some(15e3);
+        req.temp_min = -10.0;
+        req.temp_max = 55.0;
+        let e24 = Some(Series::E24);
+        let e6 = Some(Series::E6);
+        DesignDoc {
+            stage,
+            profile,
+            temp_c: 25.0,
+            temp_min: -10.0,
+            temp_max: 55.0,
+            id: "test-a".into(),
+            hash: hash(&stage, &profile),
+            requirement: Some(req),
+            series: [e24, e24, e24, e24, e24, e6, e6, e6],
+            predicted: None,
+        }
+    }
+
+    #[test]
+    fn round_trip() {
+        let d = doc();
+        let text = to_text(&d).unwrap();
+        let back = parse(Path::new("x.toml"), &text).unwrap();
+        assert_eq!(back.stage, d.stage);
+        assert_eq!(back.profile, d.profile);
+        assert_eq!(back.hash, d.hash);
+        assert_eq!(back.requirement, d.requirement);
+        assert_eq!(back.series, d.series);
+        assert_eq!(back.id, "test-a");
+    }
+
+    #[test]
+    fn refusals_name_the_key() {
+        let text = to_text(&doc()).unwrap();
+        let p = Path::new("x.toml");
+        let err = |t: &str| parse(p, t).unwrap_err().message;
+        let m = err(&text.replace("version = 1", "version = 2"));
+        assert!(m.contains("version") && m.contains("newer"), "{m}");
+        let m = err(&text.replace("[ambient]", "[ambient]\nhumidity = 3"));
+        assert!(m.contains("humidity"), "{m}");
+        let m = err(&text.replace("beta_min = 100.0\n", ""));
+        assert!(m.contains("beta_min"), "{m}");
+        let m = err(&text.replace("value = 240000.0", "value = 250000.0"));
+        assert!(m.contains("parts.r1.value") && m.contains("E24"), "{m}");
+        let m = err(&text.replace("value = 33000.0", "value = 36000.0"));
+        assert!(m.contains("hash"), "{m}");
+        let m = err(&text.replace("polarity = \"npn\"", "polarity = \"fet\""));
+        assert!(m.contains("parts.polarity"), "{m}");
+    }
 }

@@ -11,6 +11,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod boardlog;
 mod cmd;
 mod designfile;
 mod error;

@@ -1,15 +1,466 @@
-//! `biasjig check`: placeholder until its issue is built.
+//! `biasjig check`: judge one board's measured node voltages against the design's limits at the
+//! measured supply and, when it fails, name the likely faulty part.
+//!
+//! Exit 0 pass, 1 fail. Readings that cannot come from a powered, correctly probed board
+//! (supply outside its window, a node above the supply or below ground, every node equal) are
+//! refused as bad input: exit 2 with what to fix; with `--log` the refusal is logged too.
 
-use crate::error::{CliError, CmdResult};
-use crate::Global;
+use std::path::PathBuf;
 
-/// `biasjig check`.
+use biasjig_core::check::{check, Implausible, Verdict};
+use biasjig_core::device::Profile;
+use biasjig_core::diagnose::{diagnose, Diagnosis, Hypothesis, ResistorMode, Suspect};
+use biasjig_core::limits::{self, Limits, Meter};
+use biasjig_core::spread::Variation;
+use biasjig_core::stage::{DeviceFault, Readings, Stage};
+use serde_json::{json, Value};
+
+use crate::boardlog;
+use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
+use crate::stage_args::{Resolved, StageArgs};
+use crate::{json, text, values, Global};
+
+/// How many fault hypotheses a result lists at most.
+pub const LISTED_FAULTS: usize = 6;
+
+/// The meter flags shared by `check` and `batch`.
+#[derive(clap::Args, Debug, Clone, Default)]
+pub struct MeterArgs {
+    /// Meter gain error, percent of the reading [default: 0.5]
+    #[arg(long, value_parser = values::percent, help_heading = "Meter")]
+    pub meter: Option<f64>,
+    /// Meter offset error, V [default: 0.005]
+    #[arg(long = "meter-offset", value_parser = values::value, help_heading = "Meter")]
+    pub meter_offset: Option<f64>,
+}
+
+impl MeterArgs {
+    /// The meter described by the flags.
+    pub fn meter(&self) -> Meter {
+        let d = Meter::default();
+        Meter {
+            gain_error: self.meter.unwrap_or(d.gain_error),
+            offset: self.meter_offset.unwrap_or(d.offset),
+            divider_tol: d.divider_tol,
+        }
+    }
+}
+
+/// `biasjig check`: the stage by flags or `--design FILE`; `--vcc` is the supply as measured.
 #[derive(clap::Args, Debug)]
-pub struct Cmd {}
+pub struct Cmd {
+    #[command(flatten)]
+    stage: StageArgs,
+    /// Measured base voltage, V
+    #[arg(long, value_parser = values::signed, allow_hyphen_values = true, help_heading = "Readings")]
+    vb: f64,
+    /// Measured emitter voltage, V
+    #[arg(long, value_parser = values::signed, allow_hyphen_values = true, help_heading = "Readings")]
+    ve: f64,
+    /// Measured collector voltage, V
+    #[arg(long, value_parser = values::signed, allow_hyphen_values = true, help_heading = "Readings")]
+    vc: f64,
+    /// Board serial number, for the log
+    #[arg(long, help_heading = "Readings")]
+    serial: Option<String>,
+    /// Append a record of this board to FILE (JSON Lines)
+    #[arg(long, value_name = "FILE", help_heading = "Readings")]
+    log: Option<PathBuf>,
+    #[command(flatten)]
+    meter: MeterArgs,
+}
+
+/// A design ready for the station: stage, profile, ambient range, identity.
+#[derive(Debug, Clone)]
+pub struct Station {
+    /// The design (nominal supply).
+    pub stage: Stage,
+    /// The transistor.
+    pub profile: Profile,
+    /// Ambient range.
+    pub var: Variation,
+    /// The meter.
+    pub meter: Meter,
+    /// Design identifier.
+    pub id: String,
+    /// Design hash.
+    pub hash: String,
+}
+
+impl Station {
+    /// From resolved stage flags or a design file.
+    pub fn new(r: &Resolved, meter: Meter) -> Self {
+        let (id, hash, var) = match &r.doc {
+            // The design's ambient range, unless --temp moved the ambient.
+            Some(d) if d.temp_c == r.temp_c && d.temp_max > d.temp_min => {
+                let var = Variation {
+                    temp_min_c: d.temp_min,
+                    temp_max_c: d.temp_max,
+                    ..Variation::at(r.temp_c)
+                };
+                (d.id.clone(), d.hash.clone(), var)
+            }
+            Some(d) => (d.id.clone(), d.hash.clone(), Variation::at(r.temp_c)),
+            None => (
+                "flags".to_string(),
+                stage_hash(&r.stage, &r.profile),
+                Variation::at(r.temp_c),
+            ),
+        };
+        Self {
+            stage: r.stage,
+            profile: r.profile,
+            var,
+            meter,
+            id,
+            hash,
+        }
+    }
+}
+
+/// A stable hash of the stage and profile (FNV-1a 64 of their exact values), hex.
+pub fn stage_hash(stage: &Stage, profile: &Profile) -> String {
+    let text = format!("{stage:?}{profile:?}");
+    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+    for b in text.bytes() {
+        h ^= u64::from(b);
+        h = h.wrapping_mul(0x0000_0100_0000_01b3);
+    }
+    format!("{h:016x}")
+}
+
+/// The pass windows at the measured supply (worst case over the parts, hFE and the ambient
+/// range, guard-banded for the meter).
+pub fn board_limits(st: &Station, vcc: f64) -> Result<Limits, CliError> {
+    limits::limits(&st.stage, &st.profile, &st.var, &st.meter, vcc)
+        .map_err(|e| CliError::usage(format!("limits: {e}")))
+}
+
+/// The result of checking one board.
+#[derive(Debug, Clone)]
+pub enum Outcome {
+    /// Judged: the verdict, and a diagnosis when it failed.
+    Judged(Box<Verdict>, Option<Box<Diagnosis>>),
+    /// Refused before judgement.
+    Refused(Implausible),
+}
+
+impl Outcome {
+    /// "pass", "fail" or "refused".
+    pub fn word(&self) -> &'static str {
+        match self {
+            Self::Judged(v, _) if v.pass => "pass",
+            Self::Judged(..) => "fail",
+            Self::Refused(_) => "refused",
+        }
+    }
+}
+
+/// Check one board (and diagnose it when it fails).
+pub fn evaluate(st: &Station, r: &Readings) -> Result<Outcome, CliError> {
+    if let Err(why) = biasjig_core::check::plausible(&st.stage, &st.meter, r) {
+        return Ok(Outcome::Refused(why));
+    }
+    let limits = board_limits(st, r.vcc)?;
+    let verdict = match check(&st.stage, &limits, &st.meter, r) {
+        Ok(v) => v,
+        Err(why) => return Ok(Outcome::Refused(why)),
+    };
+    if verdict.pass {
+        return Ok(Outcome::Judged(Box::new(verdict), None));
+    }
+    let d = diagnose(&st.stage, &st.profile, r, &st.meter, &st.var)
+        .map_err(|e| CliError::usage(format!("diagnosis: {e}")))?;
+    Ok(Outcome::Judged(Box::new(verdict), Some(Box::new(d))))
+}
+
+/// The listed faults of a diagnosis: best first, the good-board hypothesis left out.
+pub fn listed(d: &Diagnosis) -> Vec<&Hypothesis> {
+    d.faults().take(LISTED_FAULTS).collect()
+}
+
+/// The machine-interface document of a checked board.
+pub fn outcome_json(o: &Outcome) -> Value {
+    match o {
+        Outcome::Refused(why) => json!({"verdict": "refused", "reason": why.to_string()}),
+        Outcome::Judged(v, d) => {
+            let mut nodes = serde_json::Map::new();
+            for n in &v.nodes {
+                nodes.insert(
+                    n.node.name().to_string(),
+                    json!({"measured": json::num(n.measured), "low": json::num(n.low),
+                           "high": json::num(n.high), "ok": n.ok}),
+                );
+            }
+            let dv = &v.derived;
+            let faults: Vec<Value> = d.as_ref().map_or(Vec::new(), |d| {
+                listed(d)
+                    .into_iter()
+                    .map(|h| {
+                        let eq: Vec<Value> = d
+                            .equivalents(h)
+                            .filter(|e| e.suspect.is_fault())
+                            .map(|e| json!({"part": e.suspect.part(), "mode": e.suspect.mode()}))
+                            .collect();
+                        json!({"part": h.suspect.part(), "mode": h.suspect.mode(),
+                               "score": json::num(h.score), "estimate": json::opt(h.estimate),
+                               "equivalent": eq})
+                    })
+                    .collect()
+            });
+            let mut doc = json!({
+                "verdict": if v.pass { "pass" } else { "fail" },
+                "nodes": nodes,
+                "derived": {"ic": json::num(dv.ic), "ib": json::num(dv.ib), "ie": json::opt(dv.ie),
+                            "vbe": json::num(dv.vbe), "vce": json::num(dv.vce),
+                            "beta": json::opt(dv.beta), "region": dv.region.name()},
+                "faults": faults,
+            });
+            if let (Some(d), Some(obj)) = (d, doc.as_object_mut()) {
+                obj.insert("explained".to_string(), json!(d.explained));
+            }
+            doc
+        }
+    }
+}
+
+/// The log record of a checked board.
+pub fn log_record(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome) -> Value {
+    let mut doc = outcome_json(o);
+    if let Some(obj) = doc.as_object_mut() {
+        obj.insert("time".into(), json!(boardlog::now_utc()));
+        obj.insert("serial".into(), json!(serial));
+        obj.insert("design".into(), json!({"id": st.id, "hash": st.hash}));
+        obj.insert(
+            "readings".into(),
+            json!({"vcc": json::num(r.vcc), "vb": json::num(r.vb), "ve": json::num(r.ve), "vc": json::num(r.vc)}),
+        );
+    }
+    doc
+}
+
+const BIG_PASS: &str = "\
+  ####    ###    ####   ####
+  #   #  #   #  #      #
+  ####   #####   ###    ###
+  #      #   #      #      #
+  #      #   #  ####   ####";
+
+const BIG_FAIL: &str = "\
+  #####   ###   #####  #
+  #      #   #    #    #
+  ####   #####    #    #
+  #      #   #    #    #
+  #      #   #  #####  #####";
+
+fn upper(name: &str) -> String {
+    name.to_uppercase()
+}
+
+fn unit_of(name: &str) -> &'static str {
+    if name == "ic" {
+        "A"
+    } else {
+        "V"
+    }
+}
+
+/// A fault in plain words.
+pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
+    match h.suspect {
+        Suspect::Good => {
+            "the readings are close to a good board: re-probe and measure again".into()
+        }
+        Suspect::Resistor(r, mode) => {
+            let nominal = stage.resistor(r);
+            let name = r.name();
+            match (mode, h.estimate) {
+                (ResistorMode::Open, _) => format!("{name} open (missing, cracked or a dry joint)"),
+                (ResistorMode::Short, _) => {
+                    format!("{name} shorted (a solder bridge or a wrong part)")
+                }
+                (_, Some(est)) => {
+                    let ratio = est / nominal;
+                    let why = if (0.08..0.125).contains(&ratio) || (8.0..12.5).contains(&ratio) {
+                        ": a decade slip"
+                    } else if (0.4..0.6).contains(&ratio) {
+                        ": about half its value"
+                    } else if (1.7..2.4).contains(&ratio) {
+                        ": about twice its value"
+                    } else {
+                        ""
+                    };
+                    format!(
+                        "{name} reads like {} instead of {}{why}",
+                        text::eng(est, "Ω"),
+                        text::eng(nominal, "Ω")
+                    )
+                }
+                (ResistorMode::Low, None) => format!("{name} too low"),
+                (ResistorMode::High, None) => format!("{name} too high"),
+            }
+        }
+        Suspect::Device(d) => match d {
+            DeviceFault::BeOpen => "Q: base-emitter junction or emitter lead open".into(),
+            DeviceFault::BcOpen => "Q: base-collector junction or collector lead open".into(),
+            DeviceFault::BeShort => "Q: base shorted to emitter".into(),
+            DeviceFault::BcShort => "Q: base shorted to collector".into(),
+            DeviceFault::CeShort => "Q: collector shorted to emitter".into(),
+            DeviceFault::Reversed => {
+                "Q fitted the wrong way round (collector and emitter swapped)".into()
+            }
+        },
+    }
+}
+
+/// The next measurement that separates a group of equivalent faults.
+pub fn separate(group: &[Suspect]) -> String {
+    let mut parts: Vec<&str> = Vec::new();
+    let mut q = false;
+    for s in group {
+        match s {
+            Suspect::Resistor(r, _) => {
+                if !parts.contains(&r.name()) {
+                    parts.push(r.name());
+                }
+            }
+            Suspect::Device(_) => q = true,
+            Suspect::Good => {}
+        }
+    }
+    let mut out = String::from("power off");
+    if !parts.is_empty() {
+        let list = match parts.split_last() {
+            Some((last, rest)) if !rest.is_empty() => format!("{} and {last}", rest.join(", ")),
+            _ => parts.join(""),
+        };
+        out.push_str(&format!(", measure {list}"));
+    }
+    if q {
+        out.push_str(", check Q's junctions with a diode test and its orientation");
+    }
+    out
+}
+
+/// The human report of a checked board.
+pub fn outcome_text(st: &Station, serial: Option<&str>, o: &Outcome) -> String {
+    let mut out = String::new();
+    let head = match serial {
+        Some(s) => format!("board {s} · design {}", st.id),
+        None => format!("design {}", st.id),
+    };
+    match o {
+        Outcome::Refused(why) => {
+            out.push_str(&format!("READINGS REFUSED ({head})\n{why}\n"));
+        }
+        Outcome::Judged(v, d) => {
+            out.push_str(if v.pass { BIG_PASS } else { BIG_FAIL });
+            out.push_str(&format!("\n\n{head}\n"));
+            let failing: Vec<_> = v.failing().collect();
+            if !failing.is_empty() {
+                out.push_str("Out of window:\n");
+                for n in failing {
+                    let u = unit_of(n.node.name());
+                    out.push_str(&format!(
+                        "  {:<4} {:>10}   window {} .. {}\n",
+                        upper(n.node.name()),
+                        text::eng4(n.measured, u),
+                        text::eng4(n.low, u),
+                        text::eng4(n.high, u)
+                    ));
+                }
+            }
+            let dv = &v.derived;
+            let beta = dv.beta.map_or("-".to_string(), |b| format!("{b:.0}"));
+            out.push_str(&format!(
+                "IC {}, IB {}, hFE {beta}, VBE {}, VCE {}, {}\n",
+                text::eng(dv.ic, "A"),
+                text::eng(dv.ib, "A"),
+                text::eng(dv.vbe, "V"),
+                text::eng(dv.vce, "V"),
+                dv.region.name()
+            ));
+            if let Some(d) = d {
+                if !d.explained {
+                    out.push_str(
+                        "No single fault explains these readings (two faults, or a wrong \
+                         transistor type?). Nearest:\n",
+                    );
+                } else {
+                    out.push_str("Likely faults:\n");
+                }
+                let mut seen: Vec<u8> = Vec::new();
+                for (k, h) in listed(d).into_iter().enumerate() {
+                    out.push_str(&format!(
+                        "  {}. {} ({:.0} %)\n",
+                        k + 1,
+                        describe(&st.stage, h),
+                        100.0 * h.score
+                    ));
+                    let eq: Vec<Suspect> = d
+                        .equivalents(h)
+                        .filter(|e| e.suspect.is_fault())
+                        .map(|e| e.suspect)
+                        .collect();
+                    if !eq.is_empty() && !seen.contains(&h.group) {
+                        seen.push(h.group);
+                        let names: Vec<String> = eq
+                            .iter()
+                            .map(|s| format!("{} {}", s.part(), s.mode()))
+                            .collect();
+                        let mut all = eq.clone();
+                        all.push(h.suspect);
+                        out.push_str(&format!(
+                            "     same readings as {}: to tell them apart, {}\n",
+                            names.join(", "),
+                            separate(&all)
+                        ));
+                    }
+                }
+            }
+        }
+    }
+    out
+}
 
 impl Cmd {
     /// Run the command.
-    pub fn run(&self, _g: &Global) -> CmdResult {
-        Err(CliError::usage("check: not available in this build yet"))
+    pub fn run(&self, g: &Global) -> CmdResult {
+        let Some(measured_vcc) = self.stage.vcc else {
+            return Err(CliError::usage(
+                "--vcc: missing: give the supply as measured on the board",
+            ));
+        };
+        // With a design file, the file's supply is the nominal and --vcc the measured one.
+        let mut args = self.stage.clone();
+        if args.design.is_some() {
+            args.vcc = None;
+        }
+        let resolved = args.resolve()?;
+        let st = Station::new(&resolved, self.meter.meter());
+        let r = Readings {
+            vcc: measured_vcc,
+            vb: self.vb,
+            ve: self.ve,
+            vc: self.vc,
+        };
+        let o = evaluate(&st, &r)?;
+        if let Some(path) = &self.log {
+            boardlog::append(path, &log_record(&st, self.serial.as_deref(), &r, &o))?;
+        }
+        match &o {
+            Outcome::Refused(why) => Err(CliError::usage(format!(
+                "readings refused (vcc {} V, vb {} V, ve {} V, vc {} V): {why}",
+                r.vcc, r.vb, r.ve, r.vc
+            ))),
+            Outcome::Judged(v, _) => {
+                if g.json {
+                    json::print(&outcome_json(&o));
+                } else {
+                    print!("{}", outcome_text(&st, self.serial.as_deref(), &o));
+                }
+                Ok(if v.pass { EXIT_OK } else { EXIT_FAIL })
+            }
+        }
     }
 }

@@ -1,15 +1,392 @@
-//! `biasjig design`: placeholder until its issue is built.
+//! `biasjig design`: from a requirement to ranked part lists of standard values, each
+//! re-analysed with the exact engine; `-o FILE` writes the best one as a design file.
 
-use crate::error::{CliError, CmdResult};
-use crate::Global;
+use std::fmt::Write as _;
+use std::path::PathBuf;
 
-/// `biasjig design`.
+use biasjig_core::design::{
+    design, Candidate, DesignError, Requirement, RequirementError, MAX_CANDIDATES,
+};
+use biasjig_core::predict::{predict, Prediction};
+use biasjig_core::series::Series;
+use biasjig_core::solve::Conditions;
+use biasjig_core::stage::{Polarity, Resistor, Stage};
+use biasjig_core::units::{capacitor_code, resistor_code};
+use serde_json::json;
+
+use crate::designfile::{self, DesignDoc, Predicted};
+use crate::error::{CliError, CmdResult, EXIT_OK};
+use crate::stage_args::{check_temp, default_profile, ProfileArgs};
+use crate::text::{bands, eng, fmt_pct};
+use crate::{json, text, values, Global};
+
+/// Default collector-current budget, A.
+pub const DEFAULT_IC_MAX: f64 = 2e-3;
+
+fn series(text: &str) -> Result<Series, String> {
+    Series::parse(text).map_err(|_| "allowed: E3, E6, E12, E24, E48, E96, E192".to_string())
+}
+
+/// `biasjig design`: give the requirement; the transistor flags describe the part to design for.
 #[derive(clap::Args, Debug)]
-pub struct Cmd {}
+pub struct Cmd {
+    /// Supply, V
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    vcc: f64,
+    /// Midband gain magnitude from the source EMF to the load
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    gain: f64,
+    /// Load, AC-coupled, Ω [default: none, open]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    rl: Option<f64>,
+    /// Source resistance, Ω [default: 0]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    rs: Option<f64>,
+    /// Collector-current budget, A [default: 2m]
+    #[arg(long = "ic-max", value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    ic_max: Option<f64>,
+    /// Least undistorted peak-to-peak swing at the load, V [default: none]
+    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    swing: Option<f64>,
+    /// Highest low corner (sum of the capacitor poles), Hz [default: 20]
+    #[arg(long = "f-low", value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    f_low: Option<f64>,
+    /// Nominal ambient, °C [default: 25]
+    #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Requirement")]
+    temp: Option<f64>,
+    /// Lowest ambient, °C [default: the nominal]
+    #[arg(long = "temp-min", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Requirement")]
+    temp_min: Option<f64>,
+    /// Highest ambient, °C [default: the nominal]
+    #[arg(long = "temp-max", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Requirement")]
+    temp_max: Option<f64>,
+    /// PNP stage: emitter side to the supply
+    #[arg(long, help_heading = "Requirement")]
+    pnp: bool,
+    /// Resistor series
+    #[arg(long, value_parser = series, default_value = "E24", help_heading = "Parts")]
+    series: Series,
+    /// Capacitor series
+    #[arg(long = "cap-series", value_parser = series, default_value = "E6", help_heading = "Parts")]
+    cap_series: Series,
+    /// Resistor tolerance, percent [default: the series' usual, E24: 5]
+    #[arg(long, value_parser = values::percent, allow_hyphen_values = true, help_heading = "Parts")]
+    tol: Option<f64>,
+    /// Capacitor tolerance, percent [default: the series' usual, E6: 20]
+    #[arg(long = "cap-tol", value_parser = values::percent, allow_hyphen_values = true, help_heading = "Parts")]
+    cap_tol: Option<f64>,
+    #[command(flatten)]
+    profile: ProfileArgs,
+    /// How many candidates to show, 1 to 8
+    #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(1..=8))]
+    count: u8,
+    /// Write the best candidate as a design file
+    #[arg(short = 'o', long = "output", value_name = "FILE")]
+    output: Option<PathBuf>,
+    /// Identifier written into the design file [default: from the requirement]
+    #[arg(long)]
+    id: Option<String>,
+}
+
+/// The command-line flag and value of a requirement field.
+fn field_error(req: &Requirement, e: RequirementError) -> CliError {
+    let (flag, value) = match e {
+        RequirementError::Supply => ("--vcc", req.vcc.to_string()),
+        RequirementError::Gain => ("--gain", req.gain.to_string()),
+        RequirementError::Load => ("--rl", req.rl.map_or("-".into(), |v| v.to_string())),
+        RequirementError::Source => ("--rs", req.rs.to_string()),
+        RequirementError::CurrentBudget => ("--ic-max", req.ic_max.to_string()),
+        RequirementError::Swing => ("--swing", req.swing_pp.to_string()),
+        RequirementError::LowCorner => ("--f-low", req.f_low.map_or("-".into(), |v| v.to_string())),
+        RequirementError::Temperature => ("--temp", req.temp.to_string()),
+        RequirementError::TemperatureRange => (
+            "--temp-min/--temp/--temp-max",
+            format!("{}/{}/{}", req.temp_min, req.temp, req.temp_max),
+        ),
+        RequirementError::Tolerance => ("--tol", format!("{}%", req.tol * 100.0)),
+        RequirementError::CapacitorTolerance => ("--cap-tol", format!("{}%", req.cap_tol * 100.0)),
+        _ => ("requirement", String::new()),
+    };
+    CliError::field(flag, value, e)
+}
+
+/// The power rating to fit: the smallest common size carrying twice the dissipation, W
+/// (common practice: run resistors at no more than half their rating).
+pub fn rating_for(watts: f64) -> f64 {
+    [0.125, 0.25, 0.5, 1.0, 2.0, 5.0]
+        .into_iter()
+        .find(|&r| r >= 2.0 * watts)
+        .unwrap_or(10.0)
+}
+
+fn parts_json(s: &Stage) -> serde_json::Value {
+    json!({
+        "r1": json::num(s.r1.value), "r2": json::num(s.r2.value), "rc": json::num(s.rc.value),
+        "re1": json::num(s.re1.value), "re2": json::num(s.re2.value),
+        "cin": json::opt(s.cin.map(|p| p.value)), "cout": json::opt(s.cout.map(|p| p.value)),
+        "ce": json::opt(s.ce.map(|p| p.value)),
+    })
+}
 
 impl Cmd {
-    /// Run the command.
-    pub fn run(&self, _g: &Global) -> CmdResult {
-        Err(CliError::usage("design: not available in this build yet"))
+    fn requirement(&self) -> Result<Requirement, CliError> {
+        let mut r = Requirement::new(self.vcc, self.gain);
+        r.polarity = if self.pnp {
+            Polarity::Pnp
+        } else {
+            Polarity::Npn
+        };
+        r.rl = self.rl;
+        r.rs = self.rs.unwrap_or(0.0);
+        r.ic_max = self.ic_max.unwrap_or(DEFAULT_IC_MAX);
+        r.swing_pp = self.swing.unwrap_or(0.0);
+        r.f_low = self.f_low;
+        r.temp = self.temp.unwrap_or(25.0);
+        check_temp("--temp", r.temp)?;
+        r.temp_min = self
+            .temp_min
+            .unwrap_or(r.temp.min(self.temp_max.unwrap_or(r.temp)));
+        r.temp_max = self.temp_max.unwrap_or(r.temp.max(r.temp_min));
+        check_temp("--temp-min", r.temp_min)?;
+        check_temp("--temp-max", r.temp_max)?;
+        r.series = self.series;
+        r.tol = self.tol.unwrap_or(self.series.tolerance());
+        r.cap_series = self.cap_series;
+        r.cap_tol = self.cap_tol.unwrap_or(self.cap_series.tolerance());
+        r.validate().map_err(|e| field_error(&r, e))?;
+        Ok(r)
     }
+
+    /// Run the command.
+    pub fn run(&self, g: &Global) -> CmdResult {
+        let req = self.requirement()?;
+        let profile = self.profile.apply(default_profile())?;
+        let cands = design(&req, &profile).map_err(|e| match e {
+            DesignError::Invalid(f) => field_error(&req, f),
+            other => CliError::usage(other.to_string()),
+        })?;
+        let shown: Vec<&Candidate> = cands
+            .iter()
+            .take(usize::from(self.count).min(MAX_CANDIDATES))
+            .collect();
+        let cond = Conditions {
+            temp_c: req.temp,
+            ..Conditions::typical(&profile)
+        };
+        let mut preds = Vec::new();
+        for c in &shown {
+            preds.push(
+                predict(&c.stage, &profile, cond)
+                    .map_err(|e| CliError::usage(format!("design: {e}")))?,
+            );
+        }
+        if let (Some(path), Some(best), Some(p)) = (&self.output, shown.first(), preds.first()) {
+            designfile::save(path, &self.doc(&req, &profile, best, p))?;
+            if !g.json {
+                eprintln!("biasjig: wrote the best candidate to {}", path.display());
+            }
+        }
+        if g.json {
+            let list: Vec<_> = shown
+                .iter()
+                .zip(&preds)
+                .map(|(c, p)| {
+                    let m = c.margins;
+                    json!({
+                        "parts": parts_json(&c.stage),
+                        "predicted": json::prediction(p),
+                        "score": json::num(c.score),
+                        "margins": {
+                            "gain_error": json::num(m.gain_error),
+                            "swing_ratio": json::num(m.swing_ratio),
+                            "ic_ratio": json::num(m.ic_ratio),
+                            "drift_beta": json::num(m.drift_beta),
+                            "drift_temp": json::num(m.drift_temp),
+                            "f_low_ratio": json::num(m.f_low_ratio),
+                            "power_ratio": json::num(m.power_ratio),
+                        },
+                        "ic_range": {"min": json::num(c.ic_range.0), "max": json::num(c.ic_range.1)},
+                        "series": {"resistors": req.series.name(), "capacitors": req.cap_series.name()},
+                        "hash": designfile::hash(&c.stage, &profile),
+                    })
+                })
+                .collect();
+            json::print(&json!({ "candidates": list }));
+        } else {
+            print!("{}", self.report(&req, &shown, &preds));
+        }
+        Ok(EXIT_OK)
+    }
+
+    fn doc(
+        &self,
+        req: &Requirement,
+        profile: &biasjig_core::device::Profile,
+        c: &Candidate,
+        p: &Prediction,
+    ) -> DesignDoc {
+        let rs = Some(req.series);
+        let cs = Some(req.cap_series);
+        let hash = designfile::hash(&c.stage, profile);
+        let id = self.id.clone().unwrap_or_else(|| {
+            format!(
+                "{}V-gain{}-{}",
+                req.vcc,
+                req.gain,
+                hash.get(..6).unwrap_or(&hash)
+            )
+        });
+        DesignDoc {
+            stage: c.stage,
+            profile: *profile,
+            temp_c: req.temp,
+            temp_min: req.temp_min,
+            temp_max: req.temp_max,
+            id,
+            hash,
+            requirement: Some(*req),
+            series: [rs, rs, rs, rs, rs, cs, cs, cs],
+            predicted: Some(Predicted {
+                ic: p.op.ic,
+                vb: p.op.vb,
+                ve: p.op.ve,
+                vc: p.op.vc,
+                vce: p.op.vce,
+                gain: c.gain,
+                swing_pp: c.swing_pp,
+                f_low: c.f_low,
+                supply_current: c.supply_current,
+                transistor_power: c.transistor_power,
+            }),
+        }
+    }
+
+    fn report(&self, req: &Requirement, shown: &[&Candidate], preds: &[Prediction]) -> String {
+        let mut s = String::new();
+        let load = req
+            .rl
+            .map_or("no load".to_string(), |r| format!("into {}", eng(r, "Ω")));
+        let _ = writeln!(
+            s,
+            "Requirement: gain {} {load} from {}, {} supply, IC <= {}, swing >= {}, low corner <= {}, {} to {} °C",
+            req.gain,
+            eng(req.rs, "Ω"),
+            eng(req.vcc, "V"),
+            eng(req.ic_max, "A"),
+            eng(req.swing_pp, "V"),
+            eng(req.f_low_or_default(), "Hz"),
+            req.temp_min,
+            req.temp_max
+        );
+        let _ = writeln!(
+            s,
+            "Candidates (best first; {} resistors, {} capacitors)",
+            req.series, req.cap_series
+        );
+        let mut row = |label: &str, f: &dyn Fn(&Candidate) -> String| {
+            let _ = write!(s, "  {label:<22}");
+            for c in shown {
+                let _ = write!(s, " {:>12}", f(c));
+            }
+            s.push('\n');
+        };
+        row("", &|c| {
+            format!(
+                "#{}",
+                shown
+                    .iter()
+                    .position(|x| std::ptr::eq(*x, c))
+                    .map_or(0, |i| i + 1)
+            )
+        });
+        for r in Resistor::ALL {
+            row(r.name(), &|c| eng(c.stage.resistor(r), "Ω"));
+        }
+        let cap =
+            |p: Option<biasjig_core::stage::Part>| p.map_or("-".into(), |p| eng(p.value, "F"));
+        row("CIN", &|c| cap(c.stage.cin));
+        row("COUT", &|c| cap(c.stage.cout));
+        row("CE", &|c| cap(c.stage.ce));
+        row("gain", &|c| format!("{:.2}", c.gain));
+        row("  vs required", &|c| {
+            format!("{:+.1} %", c.margins.gain_error * 100.0)
+        });
+        row("swing p-p", &|c| eng(c.swing_pp, "V"));
+        if req.swing_pp > 0.0 {
+            row("  vs required", &|c| {
+                format!("x{:.2}", c.margins.swing_ratio)
+            });
+        }
+        row("IC", &|c| eng(c.op.ic, "A"));
+        row("  of budget", &|c| {
+            format!("{:.0} %", c.margins.ic_ratio * 100.0)
+        });
+        row("  drift over hFE", &|c| {
+            format!("{:.1} %", c.margins.drift_beta * 100.0)
+        });
+        row("  drift over ambient", &|c| {
+            format!("{:.1} %", c.margins.drift_temp * 100.0)
+        });
+        row("supply current", &|c| eng(c.supply_current, "A"));
+        row("low corner (pole sum)", &|c| eng(c.f_low, "Hz"));
+        row("  of required", &|c| {
+            format!("{:.0} %", c.margins.f_low_ratio * 100.0)
+        });
+        row("transistor power", &|c| eng(c.transistor_power, "W"));
+        row("score (lower better)", &|c| format!("{:.2}", c.score));
+        let (Some(best), Some(p)) = (shown.first(), preds.first()) else {
+            return s;
+        };
+        let _ = writeln!(s, "\nPart list of #1");
+        s.push_str(&part_list(&best.stage, p));
+        s.push_str(&text::prediction(&best.stage, p, req.temp));
+        s
+    }
+}
+
+/// The part list a technician picks from bins: value, code, series, tolerance, power rating,
+/// colour bands.
+fn part_list(stage: &Stage, p: &Prediction) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "  {:<5} {:>10}  {:<6} {:>5}  {:>7}  colour bands",
+        "part", "value", "code", "tol", "rating"
+    );
+    for r in Resistor::ALL {
+        let part = stage.part(r);
+        let _ = writeln!(
+            s,
+            "  {:<5} {:>10}  {:<6} {:>4}%  {:>7}  {}",
+            r.name(),
+            eng(part.value, "Ω"),
+            resistor_code(part.value).as_str(),
+            fmt_pct(part.tol),
+            eng(rating_for(p.power.resistor(r)), "W"),
+            bands(part.value, part.tol)
+        );
+    }
+    for (name, c) in [("CIN", stage.cin), ("COUT", stage.cout), ("CE", stage.ce)] {
+        if let Some(c) = c {
+            let _ = writeln!(
+                s,
+                "  {:<5} {:>10}  {:<6} {:>4}%  rated >= {}",
+                name,
+                eng(c.value, "F"),
+                capacitor_code(c.value).as_str(),
+                fmt_pct(c.tol),
+                eng(volt_rating(stage.vcc.value), "V")
+            );
+        }
+    }
+    s
+}
+
+/// A capacitor voltage rating with headroom: the smallest common rating at least 1.5 × the
+/// supply, V (common practice).
+fn volt_rating(vcc: f64) -> f64 {
+    [6.3, 10.0, 16.0, 25.0, 35.0, 50.0, 63.0, 100.0, 250.0]
+        .into_iter()
+        .find(|&v| v >= 1.5 * vcc)
+        .unwrap_or(450.0)
 }

@@ -1,0 +1,59 @@
+//! Cost of one design (first pass, search, capacitors) on the demo scenario, E24.
+//!
+//! Deterministic instruction count with callgrind: `scripts/instructions.sh design`, or by hand:
+//! run the bench binary once with N = 1 and once with N = 11 and divide the difference by 10
+//! (this removes start-up and printing):
+//!
+//! ```text
+//! cargo bench -p biasjig-core --bench design --no-run      # prints the binary's path
+//! valgrind --tool=callgrind --callgrind-out-file=/dev/null BIN 1
+//! valgrind --tool=callgrind --callgrind-out-file=/dev/null BIN 11
+//! ```
+//! ("Collected : X" on stderr). Without valgrind, `cargo bench -p biasjig-core --bench design`
+//! prints the wall time per design. Goal: at most 20 M instructions per design.
+
+use std::hint::black_box;
+use std::time::Instant;
+
+use biasjig_core::design::{design, Requirement};
+use biasjig_core::device::{is_from_vbe, Profile};
+
+fn main() {
+    // The convention of scripts/instructions.sh: `--counts` names N1 N2 and the unit; a bare
+    // count N runs N designs (cargo bench passes "--bench", which is ignored).
+    if std::env::args().any(|a| a == "--counts") {
+        println!("1 11 design");
+        return;
+    }
+    let n: usize = std::env::args()
+        .skip(1)
+        .find_map(|a| a.parse().ok())
+        .unwrap_or(20);
+    // The demo scenario of the project brief (invented): 12 V, gain 15 into 15 kΩ from 600 Ω,
+    // 5 Hz, 2 mA budget, -10 to 55 °C, E24 5 %, E6 20 %, hFE 100 to 300.
+    let mut req = Requirement::new(12.0, 15.0);
+    req.rl = Some(15e3);
+    req.rs = 600.0;
+    req.ic_max = 2e-3;
+    req.f_low = Some(5.0);
+    req.temp_min = -10.0;
+    req.temp_max = 55.0;
+    let profile = Profile {
+        beta_min: 100.0,
+        beta_typ: 173.0,
+        beta_max: 300.0,
+        is_25: is_from_vbe(0.65),
+        ..Profile::default()
+    };
+    let start = Instant::now();
+    let mut found = 0usize;
+    for _ in 0..n {
+        let c = design(black_box(&req), black_box(&profile));
+        found += c.map_or(0, |c| c.len());
+    }
+    let per = start.elapsed().as_secs_f64() / n.max(1) as f64;
+    println!(
+        "design: {n} runs, {found} candidates in all, {:.3} ms per design",
+        per * 1e3
+    );
+}

@@ -1,0 +1,362 @@
+//! `biasjig check`, `batch` and `report` end to end. Readings come from the engine for an
+//! invented stage (15 V, 68k/15k divider, 3k9 collector, 220 + 820 emitter).
+
+use std::io::Write;
+use std::path::PathBuf;
+use std::process::{Command, Output, Stdio};
+
+use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::solve::{solve, Conditions};
+use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Resistor, Stage};
+use serde_json::Value;
+
+const STAGE: [&str; 22] = [
+    "--vcc",
+    "15",
+    "--r1",
+    "68k",
+    "--r2",
+    "15k",
+    "--rc",
+    "3k9",
+    "--re1",
+    "220",
+    "--re2",
+    "820",
+    "--beta-min",
+    "120",
+    "--beta",
+    "210",
+    "--beta-max",
+    "360",
+    "--vbe",
+    "0.66",
+    "--temp",
+    "25",
+];
+
+fn stage() -> (Stage, Profile) {
+    let s = Stage {
+        polarity: Polarity::Npn,
+        vcc: Part::new(15.0, 0.0),
+        r1: Part::new(68e3, 0.05),
+        r2: Part::new(15e3, 0.05),
+        rc: Part::new(3.9e3, 0.05),
+        re1: Part::new(220.0, 0.05),
+        re2: Part::new(820.0, 0.05),
+        rl: None,
+        rs: 0.0,
+        cin: None,
+        cout: None,
+        ce: None,
+    };
+    let p = Profile {
+        beta_min: 120.0,
+        beta_typ: 210.0,
+        beta_max: 360.0,
+        is_25: is_from_vbe(0.66),
+        ..Profile::default()
+    };
+    (s, p)
+}
+
+/// Readings (vcc, vb, ve, vc) of the stage at supply `vcc` with a fault, hFE 250.
+fn readings(vcc: f64, fault: Option<Fault>) -> [f64; 4] {
+    let (mut s, p) = stage();
+    s.vcc.value = vcc;
+    let (s, dev) = match fault {
+        Some(Fault::Device(d)) => (s, Some(d)),
+        Some(f) => (s.with_fault(f), None),
+        None => (s, None),
+    };
+    let op = solve(
+        &s,
+        &p,
+        Conditions {
+            temp_c: 25.0,
+            beta_25: 250.0,
+            fault: dev,
+        },
+    )
+    .unwrap();
+    [vcc, op.vb, op.ve, op.vc]
+}
+
+fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_biasjig"))
+}
+
+fn check(r: [f64; 4], extra: &[&str]) -> Output {
+    let mut c = bin();
+    c.arg("check")
+        .args(STAGE.iter().skip(2))
+        .arg("--vcc")
+        .arg(r[0].to_string());
+    c.arg("--vb")
+        .arg(format!("{}", r[1]))
+        .arg("--ve")
+        .arg(format!("{}", r[2]));
+    c.arg("--vc").arg(format!("{}", r[3])).args(extra);
+    c.output().unwrap()
+}
+
+fn temp(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("biasjig-check-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let p = dir.join(name);
+    let _ = std::fs::remove_file(&p);
+    p
+}
+
+#[test]
+fn a_good_board_passes_with_every_key() {
+    let out = check(readings(14.6, None), &["--json"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["verdict"], "pass");
+    for n in ["vb", "ve", "vc", "vbe", "vce", "ic"] {
+        for k in ["measured", "low", "high"] {
+            assert!(v["nodes"][n][k].is_number(), "{n}.{k}");
+        }
+        assert_eq!(v["nodes"][n]["ok"], true);
+    }
+    for k in ["ic", "ib", "vbe", "vce", "beta"] {
+        assert!(v["derived"][k].is_number(), "{k}");
+    }
+    assert_eq!(v["derived"]["region"], "active");
+    assert_eq!(v["faults"].as_array().unwrap().len(), 0);
+    let text = check(readings(14.6, None), &[]);
+    assert!(String::from_utf8_lossy(&text.stdout).contains("####"));
+}
+
+#[test]
+fn a_decade_slip_is_named_with_its_value() {
+    let r = readings(15.2, Some(Fault::Value(Resistor::Rc, 39e3)));
+    let out = check(r, &["--json"]);
+    assert_eq!(out.status.code(), Some(1));
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["verdict"], "fail");
+    let first = &v["faults"][0];
+    assert_eq!(
+        (first["part"].as_str(), first["mode"].as_str()),
+        (Some("RC"), Some("high")),
+        "{v}"
+    );
+    let est = first["estimate"].as_f64().unwrap();
+    assert!((est / 39e3 - 1.0).abs() < 0.15, "{est}");
+    let text = String::from_utf8(check(r, &[]).stdout).unwrap();
+    assert!(text.contains("FAIL") || text.contains("#####"));
+    assert!(
+        text.contains("RC reads like") && text.contains("decade slip"),
+        "{text}"
+    );
+}
+
+#[test]
+fn equivalent_faults_are_grouped_with_the_separating_measurement() {
+    let r = readings(15.0, Some(Fault::Open(Resistor::Re2)));
+    let v: Value = serde_json::from_slice(&check(r, &["--json"]).stdout).unwrap();
+    let first = &v["faults"][0];
+    let pair: Vec<(String, String)> = std::iter::once(first)
+        .chain(first["equivalent"].as_array().unwrap().iter())
+        .map(|f| {
+            (
+                f["part"].as_str().unwrap().to_string(),
+                f["mode"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    assert!(
+        pair.contains(&("RE1".into(), "open".into()))
+            && pair.contains(&("RE2".into(), "open".into())),
+        "{pair:?}"
+    );
+    assert!(first["estimate"].is_null());
+    let text = String::from_utf8(check(r, &[]).stdout).unwrap();
+    assert!(text.contains("power off, measure RE"), "{text}");
+}
+
+#[test]
+fn negative_readings_are_values_and_a_shorted_emitter_is_found() {
+    let r = readings(15.0, Some(Fault::Device(DeviceFault::CeShort)));
+    let out = check(r, &["--json"]);
+    assert_eq!(out.status.code(), Some(1));
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["faults"][0]["part"], "Q", "{v}");
+    // A node a hair below ground is a value, not an option.
+    let out = check([15.0, 2.55, -0.0012, 8.0], &["--json"]);
+    assert!(
+        matches!(out.status.code(), Some(0 | 1)),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
+
+#[test]
+fn implausible_readings_are_refused_with_what_to_fix() {
+    let out = check([15.0, 2.5, 1.9, 16.5], &["--json"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(out.stdout.is_empty());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("VC reads above the supply") && err.contains("probe"),
+        "{err}"
+    );
+    let out = check([15.0, 0.001, 0.0, 0.002], &[]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("ground lead"));
+    // (With stage flags the given --vcc is both nominal and measured; the supply window is
+    // judged against a design file's nominal, covered by the core tests.)
+}
+
+fn csv_of(rows: &[(String, [f64; 4])]) -> String {
+    let mut s = String::from("operator,vc,vb,serial,ve,vcc\n");
+    for (sn, r) in rows {
+        s.push_str(&format!("kim,{},{},{sn},{},{}\n", r[3], r[1], r[2], r[0]));
+    }
+    s
+}
+
+#[test]
+fn batch_with_bad_rows_loses_no_good_row_and_logs_each_board() {
+    let csv = temp("bad.csv");
+    let log = temp("bad.jsonl");
+    let mut text = csv_of(&[
+        ("SN1".into(), readings(15.0, None)),
+        (
+            "SN2".into(),
+            readings(15.0, Some(Fault::Open(Resistor::Rc))),
+        ),
+    ]);
+    text.push_str("kim,8.0,two,SN3,1.9,15\n");
+    text.push_str(
+        &csv_of(&[("SN4".into(), readings(14.8, None))])
+            .lines()
+            .skip(1)
+            .collect::<Vec<_>>()
+            .join("\n"),
+    );
+    text.push('\n');
+    std::fs::write(&csv, text).unwrap();
+    let out = bin()
+        .arg("batch")
+        .args(STAGE)
+        .arg(&csv)
+        .arg("--log")
+        .arg(&log)
+        .arg("--json")
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("line 4") && err.contains("column vb: 'two'"),
+        "{err}"
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    let serials: Vec<&str> = v["boards"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| b["serial"].as_str().unwrap())
+        .collect();
+    assert_eq!(serials, ["SN1", "SN2", "SN4"]);
+    assert_eq!(v["summary"]["bad_rows"], 1);
+    assert_eq!(v["summary"]["passed"], 2);
+    let logged = std::fs::read_to_string(&log).unwrap();
+    assert_eq!(logged.lines().count(), 3);
+    for line in logged.lines() {
+        let r: Value = serde_json::from_str(line).unwrap();
+        for k in ["time", "serial", "design", "readings", "verdict", "faults"] {
+            assert!(r.get(k).is_some(), "{k} in {line}");
+        }
+    }
+}
+
+#[test]
+fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
+    let csv = temp("long.csv");
+    let log = temp("long.jsonl");
+    let rows: Vec<(String, [f64; 4])> = (0..400)
+        .map(|k| {
+            let f = if k % 2 == 0 {
+                Some(Fault::Value(Resistor::R2, 4.7e3))
+            } else {
+                None
+            };
+            (format!("L{k:03}"), readings(14.5 + 0.001 * f64::from(k), f))
+        })
+        .collect();
+    std::fs::write(&csv, csv_of(&rows)).unwrap();
+    let mut child = bin()
+        .arg("batch")
+        .args(STAGE)
+        .arg(&csv)
+        .arg("--log")
+        .arg(&log)
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    // Wait until a few records are on disk, then kill the batch mid-run.
+    let start = std::time::Instant::now();
+    loop {
+        let n = std::fs::read_to_string(&log).map_or(0, |s| s.lines().count());
+        if n >= 4 || start.elapsed().as_secs() > 60 {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    }
+    child.kill().unwrap();
+    child.wait().unwrap();
+    let before = std::fs::read_to_string(&log).unwrap();
+    let complete = before
+        .lines()
+        .filter(|l| serde_json::from_str::<Value>(l).is_ok())
+        .count();
+    assert!((4..400).contains(&complete), "{complete}");
+    // A power cut tears the record being written: half a line at the end.
+    let mut f = std::fs::OpenOptions::new().append(true).open(&log).unwrap();
+    f.write_all(br#"{"time":"2031-01-01T00:00:00Z","serial":"L9"#)
+        .unwrap();
+    drop(f);
+    let out = bin()
+        .arg("report")
+        .arg(&log)
+        .arg("--json")
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["boards"].as_u64().unwrap() as usize, complete);
+    assert_eq!(v["skipped_lines"], 1);
+    assert!(String::from_utf8_lossy(&out.stderr).contains("torn"));
+    // Checking the next board appends on a fresh line, never merged with the torn one.
+    let r = readings(15.0, None);
+    let out = check(r, &["--serial", "NEXT", "--log", log.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(0));
+    let after = std::fs::read_to_string(&log).unwrap();
+    let last: Value = serde_json::from_str(after.lines().last().unwrap()).unwrap();
+    assert_eq!(last["serial"], "NEXT");
+    let html = temp("report.html");
+    let out = bin()
+        .arg("report")
+        .arg(&log)
+        .arg("--html")
+        .arg(&html)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("Failures by likely fault") && text.contains("Cpk"),
+        "{text}"
+    );
+    let page = std::fs::read_to_string(&html).unwrap();
+    assert!(page.contains("<svg") && page.contains("</html>"));
+}

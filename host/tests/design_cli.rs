@@ -1,0 +1,164 @@
+//! `biasjig design` through the built binary: JSON shape, series membership, refusals with
+//! exit 2, and the design file read back by `analyze --design`.
+
+use std::process::{Command, Output};
+
+fn run(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_biasjig"))
+        .args(args)
+        .output()
+        .expect("run biasjig")
+}
+
+const DEMO: &[&str] = &[
+    "design",
+    "--vcc",
+    "12",
+    "--gain",
+    "15",
+    "--rl",
+    "15k",
+    "--rs",
+    "600",
+    "--ic-max",
+    "2m",
+    "--f-low",
+    "5",
+    "--temp-min",
+    "-10",
+    "--temp-max",
+    "55",
+    "--beta",
+    "173",
+    "--beta-min",
+    "100",
+    "--beta-max",
+    "300",
+];
+
+fn in_series(v: f64, table: &[u16]) -> bool {
+    // IEC 60063 E24 and E6 values (the standard's tables).
+    let d = v.log10().floor();
+    let m = v / 10f64.powf(d) * 100.0;
+    table.iter().any(|&t| (m - f64::from(t)).abs() < 1e-6 * m)
+}
+
+const E24: [u16; 24] = [
+    100, 110, 120, 130, 150, 160, 180, 200, 220, 240, 270, 300, 330, 360, 390, 430, 470, 510, 560,
+    620, 680, 750, 820, 910,
+];
+const E6: [u16; 6] = [100, 150, 220, 330, 470, 680];
+
+#[test]
+fn json_candidates_have_parts_in_series_and_predictions() {
+    let mut args = vec!["--json"];
+    args.extend_from_slice(DEMO);
+    args.extend_from_slice(&["--count", "4"]);
+    let out = run(&args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("one JSON document");
+    let c = v["candidates"].as_array().unwrap();
+    assert_eq!(c.len(), 4);
+    for cand in c {
+        for k in ["r1", "r2", "rc", "re1", "re2"] {
+            assert!(in_series(cand["parts"][k].as_f64().unwrap(), &E24), "{k}");
+        }
+        for k in ["cin", "cout", "ce"] {
+            assert!(in_series(cand["parts"][k].as_f64().unwrap(), &E6), "{k}");
+        }
+        let p = &cand["predicted"];
+        let gain = p["ac"]["gain"].as_f64().unwrap();
+        assert!((gain.abs() / 15.0 - 1.0).abs() <= 0.05, "{gain}");
+        assert!(p["dc"]["ic"].as_f64().unwrap() <= 2e-3);
+        assert_eq!(p["dc"]["region"], "active");
+        assert!(p["power"]["supply_current"].as_f64().is_some());
+        assert!(p["ac"]["f_estimate"].as_f64().unwrap() <= 5.0);
+    }
+}
+
+#[test]
+fn human_report_shows_candidates_and_part_list() {
+    let out = run(DEMO);
+    assert!(out.status.success());
+    let text = String::from_utf8_lossy(&out.stdout);
+    for want in [
+        "Candidates",
+        "#1",
+        "#3",
+        "Part list of #1",
+        "colour bands",
+        "rating",
+        "Q-point",
+    ] {
+        assert!(text.contains(want), "missing {want}:\n{text}");
+    }
+}
+
+#[test]
+fn impossible_gain_exits_2_naming_the_requirement() {
+    let out = run(&[
+        "design", "--vcc", "12", "--gain", "80", "--rl", "4k7", "--ic-max", "100u",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("gain: 80 into 4.7 kΩ needs IC >="), "{err}");
+    assert!(out.stdout.is_empty());
+}
+
+#[test]
+fn impossible_swing_exits_2() {
+    let out = run(&["design", "--vcc", "5", "--gain", "10", "--swing", "4.9"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("swing"));
+}
+
+#[test]
+fn bad_field_exits_2_naming_flag_and_value() {
+    let out = run(&["design", "--vcc", "12", "--gain", "5000"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("--gain: 5000:"), "{err}");
+    let out = run(&["design", "--vcc", "12", "--gain", "10", "--series", "E7"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("E24"));
+}
+
+#[test]
+fn design_file_round_trip_through_analyze() {
+    let dir = std::env::temp_dir().join(format!("biasjig-design-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("d.toml");
+    let mut args = vec!["--json"];
+    args.extend_from_slice(DEMO);
+    args.extend_from_slice(&["--count", "1", "-o", file.to_str().unwrap()]);
+    let out = run(&args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let a = run(&["--json", "analyze", "--design", file.to_str().unwrap()]);
+    assert!(a.status.success(), "{}", String::from_utf8_lossy(&a.stderr));
+    let a: serde_json::Value = serde_json::from_slice(&a.stdout).unwrap();
+    let want = &d["candidates"][0]["predicted"];
+    for (sec, k) in [("dc", "ic"), ("dc", "vc"), ("ac", "gain"), ("ac", "f_low")] {
+        assert_eq!(a[sec][k], want[sec][k], "{sec}.{k}");
+    }
+    // An edited file is refused with the key named.
+    let text = std::fs::read_to_string(&file).unwrap();
+    let edited = dir.join("e.toml");
+    std::fs::write(&edited, text.replace("[ambient]", "[ambient]\ncolour = 1")).unwrap();
+    let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
+    assert_eq!(e.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&e.stderr).contains("colour"));
+    std::fs::write(&edited, text.replace("version = 1", "version = 9")).unwrap();
+    let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
+    assert_eq!(e.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&e.stderr).contains("version"));
+    std::fs::remove_dir_all(&dir).ok();
+}
