@@ -18,6 +18,7 @@ mod cmd;
 mod designfile;
 mod error;
 mod json;
+mod link;
 mod plot;
 mod stage_args;
 mod text;

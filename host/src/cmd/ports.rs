@@ -1,7 +1,7 @@
-//! `biasjig ports`: placeholder until its issue is built.
+//! `biasjig ports`: list the serial ports this machine has.
 
-use crate::error::{CliError, CmdResult};
-use crate::Global;
+use crate::error::{CliError, CmdResult, EXIT_OK};
+use crate::{json, Global};
 
 /// `biasjig ports`.
 #[derive(clap::Args, Debug)]
@@ -9,7 +9,28 @@ pub struct Cmd {}
 
 impl Cmd {
     /// Run the command.
-    pub fn run(&self, _g: &Global) -> CmdResult {
-        Err(CliError::usage("ports: not available in this build yet"))
+    pub fn run(&self, g: &Global) -> CmdResult {
+        let ports = serialport::available_ports()
+            .map_err(|e| CliError::link(format!("cannot list serial ports: {e}")))?;
+        let kind = |t: &serialport::SerialPortType| match t {
+            serialport::SerialPortType::UsbPort(_) => "usb",
+            serialport::SerialPortType::PciPort => "pci",
+            serialport::SerialPortType::BluetoothPort => "bluetooth",
+            serialport::SerialPortType::Unknown => "unknown",
+        };
+        if g.json {
+            let list: Vec<_> = ports
+                .iter()
+                .map(|p| serde_json::json!({"path": p.port_name, "kind": kind(&p.port_type)}))
+                .collect();
+            json::print(&serde_json::json!({ "ports": list }));
+        } else if ports.is_empty() {
+            eprintln!("no serial ports found");
+        } else {
+            for p in &ports {
+                println!("{}  ({})", p.port_name, kind(&p.port_type));
+            }
+        }
+        Ok(EXIT_OK)
     }
 }

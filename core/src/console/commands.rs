@@ -1,0 +1,1093 @@
+//! The commands: each maps a parsed line to core calls and the results to data lines.
+#![expect(
+    clippy::result_large_err,
+    reason = "an outcome carries its status text in a fixed buffer, with no allocation"
+)]
+
+use core::fmt;
+
+use embedded_io::Write;
+
+use super::jig::{Channel, ChannelCal, Clock, Jig, JigError, Slot, Store, RECORD_LEN};
+use super::parse::{CalibrateStep, Command, MeterSetting, Mode, Setting, SET_NAMES};
+use super::record::{self, Settings};
+use super::reply::{Fail, Outcome, Reply, Text};
+use super::{default_settings, Code, Console, Source, PIN_FREE_TRIES};
+use crate::device::is_from_vbe;
+use crate::predict::predict;
+use crate::series::{colour_bands, BandCount};
+use crate::solve::Conditions;
+use crate::stage::{Capacitor, Part, Polarity, Readings, Resistor};
+use crate::units::{capacitor_code, resistor_code, Eng};
+
+/// Conversions averaged for one calibration point.
+const CAL_SAMPLES: u16 = 64;
+
+/// The commands with their usage and a line of help, in the order `help` lists them.
+pub const COMMANDS: [(&str, &str, &str); 27] = [
+    ("help", "help [COMMAND]", "this list, or one command"),
+    (
+        "identify",
+        "identify | *IDN?",
+        "maker,model,serial,firmware",
+    ),
+    (
+        "*rst",
+        "*RST",
+        "stage, transistor, meter, readings back to the defaults",
+    ),
+    ("stage", "stage", "show the stage"),
+    (
+        "set",
+        "set NAME VALUE [TOL%]",
+        "change one part or figure (help set)",
+    ),
+    ("profile", "profile", "show the transistor"),
+    (
+        "parts",
+        "parts [4|5]",
+        "part values, codes and colour bands",
+    ),
+    (
+        "predict",
+        "predict",
+        "operating point, estimate, gain, corner, power",
+    ),
+    ("hash", "hash", "design hash of the stage and transistor"),
+    (
+        "requirement",
+        "requirement [NAME VALUE]",
+        "show or set the requirement",
+    ),
+    (
+        "design",
+        "design",
+        "candidate part lists for the requirement",
+    ),
+    ("pick", "pick N", "take candidate N as the stage"),
+    ("spread", "spread", "worst case and Monte Carlo spread"),
+    (
+        "limits",
+        "limits",
+        "pass windows per node at the nominal supply",
+    ),
+    (
+        "meter",
+        "meter [gain P% | offset V | divider P%]",
+        "meter and jig accuracy",
+    ),
+    (
+        "measure",
+        "measure [SAMPLES]",
+        "read the nodes with the jig (1..1024 averaged)",
+    ),
+    ("check", "check VCC VB VE VC", "judge typed readings"),
+    ("test", "test [SAMPLES]", "measure, then check"),
+    ("diagnose", "diagnose", "likely faults of the last readings"),
+    ("readings", "readings", "show the last readings"),
+    (
+        "calibrate",
+        "calibrate [CH low V | CH high V | reset]",
+        "two-point jig calibration",
+    ),
+    (
+        "inject",
+        "inject PART MODE | none",
+        "emulated jig: make the board faulty",
+    ),
+    ("lock", "lock PIN", "lock editing of the stage and limits"),
+    ("unlock", "unlock PIN", "unlock editing"),
+    (
+        "echo",
+        "echo on|off",
+        "echo typed characters (for terminals)",
+    ),
+    (
+        "mode",
+        "mode [machine|human]",
+        "key=value data lines in SI units, or text",
+    ),
+    ("save", "save", "keep the settings and calibration"),
+];
+
+/// The safety cautions shown by `help`.
+pub const SAFETY: [&str; 4] = [
+    "Safety: de-energise the board before changing probes or parts.",
+    "Keep jig inputs within their rated range.",
+    "No mains-connected circuits without isolation.",
+    "Local codes and licensed practice take precedence.",
+];
+
+/// A number in SI base units for machine data lines: plain decimal from 1e-3 to 1e6, otherwise
+/// exponent form; `none` for a missing or non-finite value. Parses back exactly.
+pub struct Num(pub f64);
+
+impl fmt::Display for Num {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let v = self.0;
+        let a = libm::fabs(v);
+        if !v.is_finite() {
+            f.write_str("none")
+        } else if v == 0.0 {
+            f.write_str("0")
+        } else if (1e-3..1e6).contains(&a) {
+            write!(f, "{v}")
+        } else {
+            write!(f, "{v:e}")
+        }
+    }
+}
+
+/// A name in capitals.
+struct Upper<'a>(&'a str);
+
+impl fmt::Display for Upper<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for c in self.0.chars() {
+            fmt::Write::write_char(f, c.to_ascii_uppercase())?;
+        }
+        Ok(())
+    }
+}
+
+/// An optional number for machine data lines.
+struct Opt(Option<f64>);
+
+impl fmt::Display for Opt {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.0 {
+            Some(v) => Num(v).fmt(f),
+            None => f.write_str("none"),
+        }
+    }
+}
+
+/// A value with unit for people, or `none`.
+struct Human(Option<f64>, &'static str);
+
+impl fmt::Display for Human {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.0 {
+            Some(v) => Eng::new(v, self.1).fmt(f),
+            None => f.write_str("none"),
+        }
+    }
+}
+
+/// A tolerance (fraction) as a percentage for people.
+struct Pct(f64);
+
+impl fmt::Display for Pct {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{} %", Num(self.0 * 100.0))
+    }
+}
+
+fn cap_name(c: Capacitor) -> &'static str {
+    match c {
+        Capacitor::Cin => "CIN",
+        Capacitor::Cout => "COUT",
+        Capacitor::Ce => "CE",
+    }
+}
+
+fn lower(name: &str) -> Text {
+    let mut t = Text::default();
+    for ch in name.chars() {
+        let _ = t.0.push(ch.to_ascii_lowercase());
+    }
+    t
+}
+
+fn jig_fail(e: JigError) -> Fail {
+    match e {
+        JigError::NotSupported => Fail::new(
+            Code::NotSupported,
+            format_args!("{e}: this unit has no jig; type the readings with check VCC VB VE VC"),
+        ),
+        _ => Fail::new(Code::Jig, format_args!("{e}")),
+    }
+}
+
+fn not_built(what: &str, waits_on: &str) -> Outcome {
+    Err(Fail::new(
+        Code::NotBuilt,
+        format_args!("{what}: not in this build (needs {waits_on})"),
+    ))
+}
+
+impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
+    fn editable(&self) -> Result<(), Fail> {
+        if self.is_locked() {
+            Err(Fail::new(
+                Code::Locked,
+                format_args!("locked: unlock PIN to change this"),
+            ))
+        } else {
+            Ok(())
+        }
+    }
+
+    fn save_settings(&mut self) -> Result<(), Fail> {
+        let mut rec = [0u8; RECORD_LEN];
+        self.settings.encode(&mut rec);
+        self.store
+            .save(Slot::Settings, &rec)
+            .map_err(|e| Fail::new(Code::Store, format_args!("settings not kept: {e}")))
+    }
+
+    fn save_calibration(&mut self) -> Result<(), Fail> {
+        let mut rec = [0u8; RECORD_LEN];
+        record::encode_calibration(&self.calibration, &mut rec);
+        self.store
+            .save(Slot::Calibration, &rec)
+            .map_err(|e| Fail::new(Code::Store, format_args!("calibration not kept: {e}")))
+    }
+
+    /// Run one parsed command.
+    pub(super) fn exec<W: Write>(&mut self, cmd: Command<'_>, r: &mut Reply<'_, W>) -> Outcome {
+        match cmd {
+            Command::Nothing => Ok(None),
+            Command::Help(topic) => help(topic, r),
+            Command::Identify => {
+                let id = &self.identity;
+                r.raw(format_args!(
+                    "{},{},{},{}",
+                    id.maker, id.model, id.serial, id.firmware
+                ));
+                Ok(None)
+            }
+            Command::Reset => {
+                self.editable()?;
+                self.settings = default_settings();
+                self.readings = None;
+                self.cal_low = [None; 4];
+                Ok(None)
+            }
+            Command::Stage => {
+                self.show_stage(r);
+                Ok(None)
+            }
+            Command::Set(s) => {
+                self.editable()?;
+                self.set(s)
+            }
+            Command::Profile => {
+                self.show_profile(r);
+                Ok(None)
+            }
+            Command::Parts(count) => {
+                self.show_parts(count, r);
+                Ok(None)
+            }
+            Command::Predict => self.predict(r),
+            Command::Hash => {
+                let h = self.design_hash();
+                if r.machine() {
+                    r.data(format_args!("hash={h:016x}"));
+                } else {
+                    r.data(format_args!("design hash {h:016x}"));
+                }
+                Ok(None)
+            }
+            Command::Requirement(set) => {
+                if set.is_some() {
+                    self.editable()?;
+                }
+                not_built("requirement", "the design module")
+            }
+            Command::Design => {
+                self.editable()?;
+                not_built("design", "the design module")
+            }
+            Command::Pick(_) => {
+                self.editable()?;
+                not_built("pick", "the design module")
+            }
+            Command::Spread => not_built("spread", "the spread module"),
+            Command::Limits => self.show_limits(r),
+            Command::Meter(None) => {
+                self.show_meter(r);
+                Ok(None)
+            }
+            Command::Meter(Some(m)) => {
+                self.editable()?;
+                self.set_meter(m)
+            }
+            Command::Measure(n) => {
+                let rd = self.measure(n)?;
+                show_readings(&rd, Source::Measured, r);
+                Ok(None)
+            }
+            Command::Check(_) => not_built("check", "the check module"),
+            Command::Test(_) => not_built("test", "the check module"),
+            Command::Diagnose => not_built("diagnose", "the diagnose module"),
+            Command::Readings => match self.readings {
+                Some((rd, src)) => {
+                    show_readings(&rd, src, r);
+                    Ok(None)
+                }
+                None => Err(Fail::new(
+                    Code::NoReadings,
+                    format_args!("no readings yet: measure, or check VCC VB VE VC"),
+                )),
+            },
+            Command::Calibrate(step) => self.calibrate(step, r),
+            Command::Inject(f) => {
+                self.jig.inject(f).map_err(jig_fail)?;
+                Ok(None)
+            }
+            Command::Lock(pin) => {
+                if self.is_locked() {
+                    return Err(Fail::new(Code::Locked, format_args!("already locked")));
+                }
+                self.settings.pin = Some(pin);
+                self.settings.pin_failures = 0;
+                match self.save_settings() {
+                    Ok(()) => Ok(Some(Text::of(format_args!("locked")))),
+                    Err(_) => Ok(Some(Text::of(format_args!(
+                        "locked until power-off (not kept)"
+                    )))),
+                }
+            }
+            Command::Unlock(pin) => self.unlock(pin),
+            Command::Echo(on) => {
+                self.echo = on;
+                Ok(None)
+            }
+            Command::Mode(None) => {
+                let m = match self.mode {
+                    Mode::Human => "human",
+                    Mode::Machine => "machine",
+                };
+                if r.machine() {
+                    r.data(format_args!("mode={m}"));
+                } else {
+                    r.data(format_args!("mode {m}"));
+                }
+                Ok(None)
+            }
+            Command::Mode(Some(m)) => {
+                self.mode = m;
+                Ok(None)
+            }
+            Command::Save => {
+                self.save_settings()?;
+                self.save_calibration()?;
+                Ok(None)
+            }
+        }
+    }
+
+    fn set(&mut self, s: Setting) -> Outcome {
+        let mut next: Settings = self.settings;
+        let st = &mut next.stage;
+        let pr = &mut next.profile;
+        let with_tol = |p: &mut Part, v: f64, tol: Option<f64>| {
+            p.value = v;
+            if let Some(t) = tol {
+                p.tol = t;
+            }
+        };
+        match s {
+            Setting::Vcc(v, tol) => with_tol(&mut st.vcc, v, tol),
+            Setting::Resistor(which, v, tol) => with_tol(st.part_mut(which), v, tol),
+            Setting::Tolerance(t) => {
+                for which in Resistor::ALL {
+                    st.part_mut(which).tol = t;
+                }
+            }
+            Setting::Load(v) => st.rl = v,
+            Setting::Source(v) => st.rs = v,
+            Setting::Capacitor(which, v, tol) => {
+                let slot = match which {
+                    Capacitor::Cin => &mut st.cin,
+                    Capacitor::Cout => &mut st.cout,
+                    Capacitor::Ce => &mut st.ce,
+                };
+                let old_tol = slot.map_or(0.20, |p| p.tol);
+                *slot = v.map(|v| Part::new(v, tol.unwrap_or(old_tol)));
+            }
+            Setting::Polarity(p) => st.polarity = p,
+            Setting::Temp(t) => {
+                if !(t.is_finite() && (-55.0..=150.0).contains(&t)) {
+                    return Err(Fail::new(
+                        Code::Range,
+                        format_args!("temp: {t}: allowed -55 to 150 °C"),
+                    ));
+                }
+                next.temp_c = t;
+            }
+            Setting::Beta(b) => {
+                pr.beta_min = b;
+                pr.beta_typ = b;
+                pr.beta_max = b;
+            }
+            Setting::BetaMin(b) => pr.beta_min = b,
+            Setting::BetaMax(b) => pr.beta_max = b,
+            Setting::BetaRev(b) => pr.beta_rev = b,
+            Setting::BetaTc(t) => pr.beta_tc = t,
+            Setting::Vbe(v) => {
+                if !(0.2..=1.2).contains(&v) {
+                    return Err(Fail::new(
+                        Code::Range,
+                        format_args!("vbe: {}: allowed 0.2 V to 1.2 V", Num(v)),
+                    ));
+                }
+                pr.is_25 = is_from_vbe(v);
+            }
+            Setting::Is(v) => pr.is_25 = v,
+            Setting::Early(v) => pr.early = v,
+            Setting::VceSat(v) => pr.vce_sat = v,
+            Setting::PowerRating(v) => pr.power_25 = v,
+            Setting::TjMax(v) => pr.tj_max = v,
+        }
+        next.stage
+            .validate()
+            .map_err(|e| Fail::new(Code::Range, format_args!("{e}")))?;
+        next.profile
+            .validate()
+            .map_err(|e| Fail::new(Code::Range, format_args!("{e}")))?;
+        self.settings = next;
+        Ok(None)
+    }
+
+    fn set_meter(&mut self, m: MeterSetting) -> Outcome {
+        let meter = &mut self.settings.meter;
+        match m {
+            MeterSetting::Gain(g) if g <= 0.2 => meter.gain_error = g,
+            MeterSetting::Offset(v) if v <= 1.0 => meter.offset = v,
+            MeterSetting::Divider(d) if d <= 0.1 => meter.divider_tol = d,
+            MeterSetting::Gain(g) => {
+                return Err(Fail::new(
+                    Code::Range,
+                    format_args!("gain: {}: allowed 0 to 20 %", Pct(g)),
+                ))
+            }
+            MeterSetting::Offset(v) => {
+                return Err(Fail::new(
+                    Code::Range,
+                    format_args!("offset: {}: allowed 0 to 1 V", Num(v)),
+                ))
+            }
+            MeterSetting::Divider(d) => {
+                return Err(Fail::new(
+                    Code::Range,
+                    format_args!("divider: {}: allowed 0 to 10 %", Pct(d)),
+                ))
+            }
+        }
+        Ok(None)
+    }
+
+    fn measure(&mut self, samples: u16) -> Result<Readings, Fail> {
+        let rd = self.jig.measure(samples).map_err(jig_fail)?;
+        if ![rd.vcc, rd.vb, rd.ve, rd.vc].iter().all(|v| v.is_finite()) {
+            return Err(Fail::new(
+                Code::Jig,
+                format_args!("the jig gave a reading that is not a number"),
+            ));
+        }
+        self.readings = Some((rd, Source::Measured));
+        Ok(rd)
+    }
+
+    fn unlock(&mut self, pin: super::parse::Pin) -> Outcome {
+        let Some(stored) = self.settings.pin else {
+            return Ok(Some(Text::of(format_args!("not locked"))));
+        };
+        let now = self.clock.now_ms();
+        if now < self.retry_at_ms {
+            let wait = (self.retry_at_ms - now).div_ceil(1000);
+            return Err(Fail::new(
+                Code::Wait,
+                format_args!("too many wrong PINs: wait {wait} s"),
+            ));
+        }
+        if stored == pin {
+            self.settings.pin = None;
+            self.settings.pin_failures = 0;
+            self.retry_at_ms = 0;
+            let _ = self.save_settings();
+            return Ok(Some(Text::of(format_args!("unlocked"))));
+        }
+        self.settings.pin_failures = self.settings.pin_failures.saturating_add(1);
+        let n = self.settings.pin_failures;
+        let _ = self.save_settings();
+        if n >= PIN_FREE_TRIES {
+            let delay = self.backoff_ms();
+            self.retry_at_ms = now.saturating_add(delay);
+            Err(Fail::new(
+                Code::Pin,
+                format_args!(
+                    "wrong PIN ({n} in a row): next try in {} s",
+                    delay.div_ceil(1000)
+                ),
+            ))
+        } else {
+            Err(Fail::new(
+                Code::Pin,
+                format_args!("wrong PIN ({n} in a row)"),
+            ))
+        }
+    }
+
+    fn calibrate<W: Write>(&mut self, step: CalibrateStep, r: &mut Reply<'_, W>) -> Outcome {
+        match step {
+            CalibrateStep::Show => {
+                for c in Channel::ALL {
+                    let k = self.calibration.get(c);
+                    let pending = self.cal_low.get(c.index()).copied().flatten().is_some();
+                    if r.machine() {
+                        r.data(format_args!(
+                            "channel={} gain={} offset={} low_taken={}",
+                            c.name(),
+                            Num(k.gain),
+                            Num(k.offset),
+                            u8::from(pending)
+                        ));
+                    } else {
+                        r.data(format_args!(
+                            "{:<4} gain {:.6}  offset {}{}",
+                            c.name(),
+                            k.gain,
+                            Eng::new(k.offset, "V"),
+                            if pending { "  (low point taken)" } else { "" }
+                        ));
+                    }
+                }
+                Ok(None)
+            }
+            CalibrateStep::Low(c, volts) => {
+                self.editable()?;
+                let raw = self.jig.raw(c, CAL_SAMPLES).map_err(jig_fail)?;
+                if let Some(slot) = self.cal_low.get_mut(c.index()) {
+                    *slot = Some((volts, raw));
+                }
+                Ok(Some(Text::of(format_args!(
+                    "low point of {} taken; apply the high voltage, then calibrate {} high V",
+                    c.name(),
+                    c.name()
+                ))))
+            }
+            CalibrateStep::High(c, volts) => {
+                self.editable()?;
+                let Some((low, raw_low)) = self.cal_low.get(c.index()).copied().flatten() else {
+                    return Err(Fail::new(
+                        Code::Usage,
+                        format_args!("calibrate {} low V first", c.name()),
+                    ));
+                };
+                let raw_high = self.jig.raw(c, CAL_SAMPLES).map_err(jig_fail)?;
+                let k =
+                    ChannelCal::from_points(low, raw_low, volts, raw_high).ok_or_else(|| {
+                        Fail::new(
+                            Code::Value,
+                            format_args!(
+                            "{}: points must be at least 0.1 V apart and give a gain of 0.5 to 2",
+                            c.name()
+                        ),
+                        )
+                    })?;
+                self.calibration.set(c, k);
+                if let Some(slot) = self.cal_low.get_mut(c.index()) {
+                    *slot = None;
+                }
+                self.jig
+                    .set_calibration(&self.calibration)
+                    .map_err(jig_fail)?;
+                self.save_calibration()?;
+                if r.machine() {
+                    r.data(format_args!(
+                        "channel={} gain={} offset={}",
+                        c.name(),
+                        Num(k.gain),
+                        Num(k.offset)
+                    ));
+                } else {
+                    r.data(format_args!(
+                        "{} gain {:.6}  offset {}",
+                        c.name(),
+                        k.gain,
+                        Eng::new(k.offset, "V")
+                    ));
+                }
+                Ok(None)
+            }
+            CalibrateStep::Reset => {
+                self.editable()?;
+                self.calibration = super::Calibration::default();
+                self.cal_low = [None; 4];
+                self.jig
+                    .set_calibration(&self.calibration)
+                    .map_err(jig_fail)?;
+                self.save_calibration()?;
+                Ok(None)
+            }
+        }
+    }
+
+    fn show_stage<W: Write>(&self, r: &mut Reply<'_, W>) {
+        let s = &self.settings.stage;
+        let pol = match s.polarity {
+            Polarity::Npn => "npn",
+            Polarity::Pnp => "pnp",
+        };
+        let caps = [
+            (Capacitor::Cin, s.cin),
+            (Capacitor::Cout, s.cout),
+            (Capacitor::Ce, s.ce),
+        ];
+        if r.machine() {
+            r.data(format_args!(
+                "polarity={pol} vcc={} vcc_tol={} temp={}",
+                Num(s.vcc.value),
+                Num(s.vcc.tol),
+                Num(self.settings.temp_c)
+            ));
+            for which in Resistor::ALL {
+                let p = s.part(which);
+                let n = lower(which.name());
+                r.data(format_args!(
+                    "{0}={1} {0}_tol={2}",
+                    n.as_str(),
+                    Num(p.value),
+                    Num(p.tol)
+                ));
+            }
+            r.data(format_args!("rl={} rs={}", Opt(s.rl), Num(s.rs)));
+            for (c, p) in caps {
+                let n = lower(cap_name(c));
+                r.data(format_args!(
+                    "{0}={1} {0}_tol={2}",
+                    n.as_str(),
+                    Opt(p.map(|p| p.value)),
+                    Opt(p.map(|p| p.tol))
+                ));
+            }
+            r.data(format_args!(
+                "locked={} hash={:016x}",
+                u8::from(self.is_locked()),
+                self.design_hash()
+            ));
+        } else {
+            r.data(format_args!(
+                "{}  VCC {} ±{}  ambient {} °C",
+                if s.polarity == Polarity::Npn {
+                    "NPN"
+                } else {
+                    "PNP"
+                },
+                Eng::new(s.vcc.value, "V"),
+                Pct(s.vcc.tol),
+                Num(self.settings.temp_c)
+            ));
+            for which in Resistor::ALL {
+                let p = s.part(which);
+                r.data(format_args!(
+                    "{:<4} {} ±{}",
+                    which.name(),
+                    Eng::new(p.value, "Ω"),
+                    Pct(p.tol)
+                ));
+            }
+            r.data(format_args!("RL   {}", Human(s.rl, "Ω")));
+            r.data(format_args!("RS   {}", Eng::new(s.rs, "Ω")));
+            for (c, p) in caps {
+                match p {
+                    Some(p) => r.data(format_args!(
+                        "{:<4} {} ±{}",
+                        cap_name(c),
+                        Eng::new(p.value, "F"),
+                        Pct(p.tol)
+                    )),
+                    None => r.data(format_args!("{:<4} ideal", cap_name(c))),
+                }
+            }
+            r.data(format_args!(
+                "{}  design hash {:016x}",
+                if self.is_locked() {
+                    "locked"
+                } else {
+                    "unlocked"
+                },
+                self.design_hash()
+            ));
+        }
+    }
+
+    fn show_profile<W: Write>(&self, r: &mut Reply<'_, W>) {
+        let p = &self.settings.profile;
+        if r.machine() {
+            r.data(format_args!(
+                "beta_min={} beta_typ={} beta_max={} beta_rev={} beta_tc={}",
+                Num(p.beta_min),
+                Num(p.beta_typ),
+                Num(p.beta_max),
+                Num(p.beta_rev),
+                Num(p.beta_tc)
+            ));
+            r.data(format_args!(
+                "is={} vbe={} early={} vce_sat={} power_rating={} tj_max={}",
+                Num(p.is_25),
+                Num(p.vbe_1ma()),
+                Opt(p.early),
+                Num(p.vce_sat),
+                Num(p.power_25),
+                Num(p.tj_max)
+            ));
+        } else {
+            r.data(format_args!(
+                "hFE {} / {} / {} (min/typ/max at 25 °C), reverse {}, tc {} per °C",
+                Num(p.beta_min),
+                Num(p.beta_typ),
+                Num(p.beta_max),
+                Num(p.beta_rev),
+                Pct(p.beta_tc)
+            ));
+            r.data(format_args!(
+                "IS {} (VBE {} at 1 mA), Early {}",
+                Eng::new(p.is_25, "A"),
+                Eng::new(p.vbe_1ma(), "V"),
+                Human(p.early, "V")
+            ));
+            r.data(format_args!(
+                "VCE(sat) {}, rating {} at 25 °C, to zero at {} °C",
+                Eng::new(p.vce_sat, "V"),
+                Eng::new(p.power_25, "W"),
+                Num(p.tj_max)
+            ));
+        }
+    }
+
+    fn show_parts<W: Write>(&self, count: BandCount, r: &mut Reply<'_, W>) {
+        let s = &self.settings.stage;
+        for which in Resistor::ALL {
+            let p = s.part(which);
+            let mut bands = Text::default();
+            let why = match colour_bands(p.value, p.tol, count) {
+                Ok(b) => {
+                    let sep = if r.machine() { "," } else { " " };
+                    for (i, c) in b.iter().enumerate() {
+                        let _ = fmt::Write::write_fmt(
+                            &mut bands,
+                            format_args!("{}{}", if i == 0 { "" } else { sep }, c.name()),
+                        );
+                    }
+                    None
+                }
+                Err(e) => {
+                    let _ = fmt::Write::write_str(&mut bands, "none");
+                    Some(e)
+                }
+            };
+            if r.machine() {
+                r.data(format_args!(
+                    "part={} value={} tol={} code={} bands={}",
+                    which.name(),
+                    Num(p.value),
+                    Num(p.tol),
+                    resistor_code(p.value),
+                    bands.as_str()
+                ));
+            } else {
+                match why {
+                    None => r.data(format_args!(
+                        "{:<4} {:<6} ±{:<6} {}",
+                        which.name(),
+                        resistor_code(p.value),
+                        Pct(p.tol),
+                        bands.as_str()
+                    )),
+                    Some(e) => r.data(format_args!(
+                        "{:<4} {:<6} ±{:<6} no bands: {e}",
+                        which.name(),
+                        resistor_code(p.value),
+                        Pct(p.tol)
+                    )),
+                }
+            }
+        }
+        for (c, p) in [
+            (Capacitor::Cin, s.cin),
+            (Capacitor::Cout, s.cout),
+            (Capacitor::Ce, s.ce),
+        ] {
+            match (p, r.machine()) {
+                (Some(p), true) => r.data(format_args!(
+                    "part={} value={} tol={} code={}",
+                    cap_name(c),
+                    Num(p.value),
+                    Num(p.tol),
+                    capacitor_code(p.value)
+                )),
+                (None, true) => r.data(format_args!("part={} value=none", cap_name(c))),
+                (Some(p), false) => r.data(format_args!(
+                    "{:<4} {:<6} ±{}",
+                    cap_name(c),
+                    capacitor_code(p.value),
+                    Pct(p.tol)
+                )),
+                (None, false) => r.data(format_args!("{:<4} ideal", cap_name(c))),
+            }
+        }
+    }
+
+    fn show_limits<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
+        let st = &self.settings;
+        let var = crate::spread::Variation::at(st.temp_c);
+        let l = crate::limits::limits(&st.stage, &st.profile, &var, &st.meter, st.stage.vcc.value)
+            .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
+        let rows = [
+            ("vb", l.vb, "V"),
+            ("ve", l.ve, "V"),
+            ("vc", l.vc, "V"),
+            ("vce", l.vce, "V"),
+            ("vbe", l.vbe, "V"),
+            ("ic", l.ic, "A"),
+        ];
+        for (name, w, unit) in rows {
+            if r.machine() {
+                r.data(format_args!(
+                    "node={name} low={} high={}",
+                    Num(w.low),
+                    Num(w.high)
+                ));
+            } else {
+                r.data(format_args!(
+                    "{:<4} {} to {}",
+                    Upper(name),
+                    Eng::new(w.low, unit),
+                    Eng::new(w.high, unit)
+                ));
+            }
+        }
+        if r.machine() {
+            r.data(format_args!("vcc={}", Num(l.vcc)));
+        } else {
+            r.data(format_args!("at VCC {}", Eng::new(l.vcc, "V")));
+        }
+        Ok(None)
+    }
+
+    fn show_meter<W: Write>(&self, r: &mut Reply<'_, W>) {
+        let m = &self.settings.meter;
+        if r.machine() {
+            r.data(format_args!(
+                "gain={} offset={} divider={}",
+                Num(m.gain_error),
+                Num(m.offset),
+                Num(m.divider_tol)
+            ));
+        } else {
+            r.data(format_args!(
+                "meter ±{} of reading ±{}, jig divider ±{}",
+                Pct(m.gain_error),
+                Eng::new(m.offset, "V"),
+                Pct(m.divider_tol)
+            ));
+        }
+    }
+
+    fn predict<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
+        let st = &self.settings;
+        let cond = Conditions {
+            temp_c: st.temp_c,
+            ..Conditions::typical(&st.profile)
+        };
+        let p = predict(&st.stage, &st.profile, cond)
+            .map_err(|e| Fail::new(Code::Solve, format_args!("{e}")))?;
+        let op = &p.op;
+        let e = &p.estimate;
+        let w = &p.warnings;
+        let warnings: [(bool, &str); 6] = [
+            (w.divider_not_stiff, "divider_not_stiff"),
+            (w.saturated, "saturated"),
+            (w.cut_off, "cut_off"),
+            (w.over_rating, "over_rating"),
+            (w.no_emitter_resistor, "no_emitter_resistor"),
+            (w.q_point_off_centre, "q_point_off_centre"),
+        ];
+        let mut list = Text::default();
+        for (name, _) in warnings.iter().filter(|(on, _)| *on).map(|(_, n)| (n, ())) {
+            let sep = if list.as_str().is_empty() { "" } else { "," };
+            let _ = fmt::Write::write_fmt(&mut list, format_args!("{sep}{name}"));
+        }
+        for (hot, which) in w.resistor_hot.iter().zip(Resistor::ALL) {
+            if *hot {
+                let sep = if list.as_str().is_empty() { "" } else { "," };
+                let _ = fmt::Write::write_fmt(
+                    &mut list,
+                    format_args!("{sep}hot_{}", lower(which.name()).as_str()),
+                );
+            }
+        }
+        if r.machine() {
+            r.data(format_args!(
+                "vb={} ve={} vc={} vbe={} vce={}",
+                Num(op.vb),
+                Num(op.ve),
+                Num(op.vc),
+                Num(op.vbe),
+                Num(op.vce),
+            ));
+            r.data(format_args!(
+                "ic={} ib={} ie={} region={}",
+                Num(op.ic),
+                Num(op.ib),
+                Num(op.ie),
+                op.region.name()
+            ));
+            r.data(format_args!(
+                "est_vb={} est_ve={} est_vc={} est_ic={} est_vce={}",
+                Num(e.vb),
+                Num(e.ve),
+                Num(e.vc),
+                Num(e.ic),
+                Num(e.vce)
+            ));
+            match &p.midband {
+                Some(m) => {
+                    r.data(format_args!(
+                        "gain={} gain_stage={} zin={} zout={}",
+                        Num(m.gain),
+                        Num(m.gain_stage),
+                        Num(m.zin),
+                        Num(m.zout),
+                    ));
+                    r.data(format_args!(
+                        "swing_pp={} clips={} f_low={}",
+                        Num(m.swing_pp),
+                        m.clips.name(),
+                        Opt(p.low.f_low)
+                    ));
+                }
+                None => r.data(format_args!("gain=none f_low={}", Opt(p.low.f_low))),
+            }
+            r.data(format_args!(
+                "transistor={} rating={} supply_current={}",
+                Num(p.power.transistor),
+                Num(p.power.rating),
+                Num(p.power.supply_current)
+            ));
+            r.data(format_args!(
+                "warnings={}",
+                if list.as_str().is_empty() {
+                    "none"
+                } else {
+                    list.as_str()
+                }
+            ));
+        } else {
+            r.data(format_args!(
+                "Q-point  VB {}  VE {}  VC {}  ({})",
+                Eng::new(op.vb, "V"),
+                Eng::new(op.ve, "V"),
+                Eng::new(op.vc, "V"),
+                op.region.name()
+            ));
+            r.data(format_args!(
+                "         VBE {}  VCE {}  IC {}  IB {}",
+                Eng::new(op.vbe, "V"),
+                Eng::new(op.vce, "V"),
+                Eng::new(op.ic, "A"),
+                Eng::new(op.ib, "A")
+            ));
+            r.data(format_args!(
+                "estimate VB {}  VE {}  VC {}  IC {}",
+                Eng::new(e.vb, "V"),
+                Eng::new(e.ve, "V"),
+                Eng::new(e.vc, "V"),
+                Eng::new(e.ic, "A")
+            ));
+            if let Some(m) = &p.midband {
+                r.data(format_args!(
+                    "gain {:.3} (stage {:.3})  zin {}  zout {}",
+                    m.gain,
+                    m.gain_stage,
+                    Eng::new(m.zin, "Ω"),
+                    Eng::new(m.zout, "Ω")
+                ));
+                r.data(format_args!(
+                    "swing {} peak-to-peak, {} clips first",
+                    Eng::new(m.swing_pp, "V"),
+                    m.clips.name()
+                ));
+            }
+            r.data(format_args!("low corner {}", Human(p.low.f_low, "Hz")));
+            r.data(format_args!(
+                "power Q {} of {} rated, supply current {}",
+                Eng::new(p.power.transistor, "W"),
+                Eng::new(p.power.rating, "W"),
+                Eng::new(p.power.supply_current, "A")
+            ));
+            if !list.as_str().is_empty() {
+                r.data(format_args!("warnings: {}", list.as_str()));
+            }
+        }
+        Ok(None)
+    }
+}
+
+fn show_readings<W: Write>(rd: &Readings, src: Source, r: &mut Reply<'_, W>) {
+    let src = match src {
+        Source::Measured => "measured",
+        Source::Typed => "typed",
+    };
+    if r.machine() {
+        r.data(format_args!(
+            "vcc={} vb={} ve={} vc={} source={src}",
+            Num(rd.vcc),
+            Num(rd.vb),
+            Num(rd.ve),
+            Num(rd.vc)
+        ));
+    } else {
+        r.data(format_args!(
+            "VCC {}  VB {}  VE {}  VC {}  ({src})",
+            Eng::new(rd.vcc, "V"),
+            Eng::new(rd.vb, "V"),
+            Eng::new(rd.ve, "V"),
+            Eng::new(rd.vc, "V")
+        ));
+    }
+}
+
+fn help<W: Write>(topic: Option<&str>, r: &mut Reply<'_, W>) -> Outcome {
+    match topic {
+        None => {
+            r.data(format_args!("Commands (words are case-insensitive):"));
+            for (_, usage, what) in COMMANDS {
+                r.data(format_args!("{usage:<40} {what}"));
+            }
+            for s in SAFETY {
+                r.data(format_args!("{s}"));
+            }
+            Ok(None)
+        }
+        Some(t) if t.eq_ignore_ascii_case("set") => {
+            r.data(format_args!("set NAME VALUE [TOL%]; NAME one of:"));
+            r.data(format_args!("{SET_NAMES}"));
+            r.data(format_args!(
+                "rl, cin, cout, ce, early take `none`; beta sets min, typ and max"
+            ));
+            Ok(None)
+        }
+        Some(t) => {
+            let found = COMMANDS.iter().find(|(name, _, _)| {
+                name.eq_ignore_ascii_case(t)
+                    || (t.eq_ignore_ascii_case("*idn?") && *name == "identify")
+            });
+            match found {
+                Some((_, usage, what)) => {
+                    r.data(format_args!("{usage:<40} {what}"));
+                    Ok(None)
+                }
+                None => Err(Fail::new(
+                    Code::Unknown,
+                    format_args!("help: {t}: no such command"),
+                )),
+            }
+        }
+    }
+}

@@ -1,0 +1,488 @@
+//! The line console: one protocol engine for the instrument's UART and the host.
+//!
+//! The engine is generic over [`embedded_io::Read`] and [`embedded_io::Write`]; the front end
+//! supplies a [`Jig`], a [`Store`] and a [`Clock`]. It owns no electronics: it maps lines to the
+//! core's functions and their results back to lines.
+//!
+//! Framing (docs/protocol.md has the whole protocol):
+//! - every input line gets data lines (zero or more, at most [`MAX_DATA_LINES`]) and then exactly
+//!   one status line: `ok`, `ok TEXT` or `err CODE TEXT`;
+//! - no output line is longer than [`MAX_OUT_LINE`] bytes; output lines end with CR LF;
+//! - an input line longer than [`LINE_MAX`] bytes gets `err TOO_LONG` at once and is discarded up
+//!   to its line end; a line with a control byte gets `err CONTROL`, one that is not UTF-8
+//!   `err ENCODING`;
+//! - a write error (or a write of zero bytes) ends the call with an error value; nothing blocks
+//!   on it and nothing panics.
+//!
+//! Layers: [`line`] (assembling lines), [`parse`] (line to [`parse::Command`]), the session
+//! state in [`Console`], the commands, [`jig`] (traits the front end implements) and [`record`]
+//! (store records and the design hash).
+
+mod commands;
+pub mod jig;
+pub mod line;
+pub mod parse;
+pub mod record;
+pub mod reply;
+
+use embedded_io::{Read, Write};
+
+pub use jig::{Calibration, Channel, ChannelCal, Clock, Jig, JigError, Slot, Store, StoreError};
+use line::{Feed, LineBuf, LineError};
+use parse::Mode;
+use record::Settings;
+use reply::{write_all, Fail, Reply, Text};
+
+use crate::device::{is_from_vbe, Profile};
+use crate::limits::Meter;
+use crate::stage::{Part, Polarity, Readings, Stage};
+
+/// Longest input line, bytes (without its line end).
+pub const LINE_MAX: usize = 128;
+/// Most data lines before one status line.
+pub const MAX_DATA_LINES: usize = 40;
+/// Longest output line, bytes (without CR LF).
+pub const MAX_OUT_LINE: usize = 200;
+/// Wrong PINs allowed before the back-off starts.
+pub const PIN_FREE_TRIES: u32 = 3;
+/// First back-off after the free tries, ms; it doubles with each further wrong PIN.
+pub const PIN_BACKOFF_MS: u64 = 1000;
+/// Longest back-off, ms.
+pub const PIN_BACKOFF_MAX_MS: u64 = 300_000;
+
+/// The code word of an `err` status line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[non_exhaustive]
+pub enum Code {
+    /// No such command.
+    Unknown,
+    /// Wrong number or shape of arguments.
+    Usage,
+    /// An argument is not an allowed value.
+    Value,
+    /// The values are each valid but the stage or profile they make is not.
+    Range,
+    /// The input line was longer than the buffer.
+    TooLong,
+    /// The input line held a control byte.
+    Control,
+    /// The input line was not UTF-8.
+    Encoding,
+    /// Refused: the unit is locked.
+    Locked,
+    /// Wrong PIN.
+    Pin,
+    /// Too many wrong PINs: wait before the next try.
+    Wait,
+    /// This build has no such function yet.
+    NotBuilt,
+    /// This unit's jig cannot do that.
+    NotSupported,
+    /// The jig failed.
+    Jig,
+    /// The operating point could not be found.
+    Solve,
+    /// The store failed.
+    Store,
+    /// No readings yet: measure or check first.
+    NoReadings,
+}
+
+impl Code {
+    /// The code word as sent: `UNKNOWN`, `USAGE`, ...
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Unknown => "UNKNOWN",
+            Self::Usage => "USAGE",
+            Self::Value => "VALUE",
+            Self::Range => "RANGE",
+            Self::TooLong => "TOO_LONG",
+            Self::Control => "CONTROL",
+            Self::Encoding => "ENCODING",
+            Self::Locked => "LOCKED",
+            Self::Pin => "PIN",
+            Self::Wait => "WAIT",
+            Self::NotBuilt => "NOT_BUILT",
+            Self::NotSupported => "NOT_SUPPORTED",
+            Self::Jig => "JIG",
+            Self::Solve => "SOLVE",
+            Self::Store => "STORE",
+            Self::NoReadings => "NO_READINGS",
+        }
+    }
+
+    /// Every code, for the protocol document and tests.
+    pub const ALL: [Code; 16] = [
+        Self::Unknown,
+        Self::Usage,
+        Self::Value,
+        Self::Range,
+        Self::TooLong,
+        Self::Control,
+        Self::Encoding,
+        Self::Locked,
+        Self::Pin,
+        Self::Wait,
+        Self::NotBuilt,
+        Self::NotSupported,
+        Self::Jig,
+        Self::Solve,
+        Self::Store,
+        Self::NoReadings,
+    ];
+}
+
+impl core::fmt::Display for Code {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// A failed write.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WriteError<E> {
+    /// The stream's own error.
+    Io(E),
+    /// The stream took no bytes.
+    Zero,
+}
+
+/// Why a session ended early.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SessionError<R, W> {
+    /// Reading failed.
+    Read(R),
+    /// Writing failed.
+    Write(WriteError<W>),
+}
+
+/// What `identify` and `*IDN?` answer: maker, model, serial, firmware (IEEE 488.2 style).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Identity {
+    /// Maker field.
+    pub maker: &'static str,
+    /// Model field, e.g. `console` on the host, `jig-emulated` on the emulated instrument.
+    pub model: &'static str,
+    /// Serial number of the unit (`0` when it has none).
+    pub serial: heapless::String<24>,
+    /// Firmware or program version.
+    pub firmware: &'static str,
+}
+
+impl Identity {
+    /// An identity with serial `0`.
+    pub fn new(model: &'static str, firmware: &'static str) -> Self {
+        let mut serial = heapless::String::new();
+        let _ = serial.push('0');
+        Self {
+            maker: "biasjig",
+            model,
+            serial,
+            firmware,
+        }
+    }
+}
+
+/// The starting stage: the demo scenario's pump-monitor preamp (invented): 12 V, RL 15 kΩ,
+/// RS 600 Ω, E24 5 % resistors, E6 20 % capacitors.
+pub fn default_stage() -> Stage {
+    let r = |v| Part::new(v, 0.05);
+    let c = |v| Some(Part::new(v, 0.20));
+    Stage {
+        polarity: Polarity::Npn,
+        vcc: Part::new(12.0, 0.05),
+        r1: r(47e3),
+        r2: r(10e3),
+        rc: r(4.7e3),
+        re1: r(220.0),
+        re2: r(820.0),
+        rl: Some(15e3),
+        rs: 600.0,
+        cin: c(10e-6),
+        cout: c(10e-6),
+        ce: c(470e-6),
+    }
+}
+
+/// The starting transistor: the demo scenario's generic small-signal NPN profile (invented):
+/// hFE 100 to 300 (typical 200), VBE 0.65 V at 1 mA, VCE(sat) 0.2 V, 300 mW at 25 °C.
+pub fn default_profile() -> Profile {
+    Profile {
+        beta_min: 100.0,
+        beta_typ: 200.0,
+        beta_max: 300.0,
+        is_25: is_from_vbe(0.65),
+        ..Profile::default()
+    }
+}
+
+/// The default settings (after `*RST`).
+pub fn default_settings() -> Settings {
+    Settings {
+        stage: default_stage(),
+        profile: default_profile(),
+        temp_c: 25.0,
+        meter: Meter::default(),
+        pin: None,
+        pin_failures: 0,
+    }
+}
+
+/// Where the last readings came from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Source {
+    /// Read by the jig.
+    Measured,
+    /// Typed with `check`.
+    Typed,
+}
+
+/// The console engine with its session state.
+pub struct Console<J: Jig, S: Store, C: Clock> {
+    /// The jig.
+    pub jig: J,
+    /// The store.
+    pub store: S,
+    /// The clock.
+    pub clock: C,
+    identity: Identity,
+    lines: LineBuf<LINE_MAX>,
+    settings: Settings,
+    calibration: Calibration,
+    /// Low calibration points taken: (applied V, raw V) per channel.
+    cal_low: [Option<(f64, f64)>; 4],
+    readings: Option<(Readings, Source)>,
+    echo: bool,
+    echo_after_cr: bool,
+    mode: Mode,
+    /// No unlock try before this time, ms.
+    retry_at_ms: u64,
+}
+
+impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
+    /// A console; settings and calibration are loaded from the store (defaults when it has
+    /// none or a damaged record) and the calibration is handed to the jig.
+    pub fn new(identity: Identity, jig: J, store: S, clock: C) -> Self {
+        let mut c = Self {
+            jig,
+            store,
+            clock,
+            identity,
+            lines: LineBuf::new(),
+            settings: default_settings(),
+            calibration: Calibration::default(),
+            cal_low: [None; 4],
+            readings: None,
+            echo: false,
+            echo_after_cr: false,
+            mode: Mode::Human,
+            retry_at_ms: 0,
+        };
+        c.load();
+        c
+    }
+
+    fn load(&mut self) {
+        let mut rec = [0u8; jig::RECORD_LEN];
+        if let Ok(true) = self.store.load(Slot::Settings, &mut rec) {
+            if let Some(s) = Settings::decode(&rec) {
+                if s.stage.validate().is_ok() && s.profile.validate().is_ok() {
+                    self.settings = s;
+                }
+            }
+        }
+        if let Ok(true) = self.store.load(Slot::Calibration, &mut rec) {
+            if let Some(cal) = record::decode_calibration(&rec) {
+                self.calibration = cal;
+            }
+        }
+        let _ = self.jig.set_calibration(&self.calibration);
+        if self.settings.pin_failures >= PIN_FREE_TRIES {
+            self.retry_at_ms = self.clock.now_ms().saturating_add(self.backoff_ms());
+        }
+    }
+
+    /// The current settings (stage, profile, meter, lock).
+    pub fn settings(&self) -> &Settings {
+        &self.settings
+    }
+
+    /// The last readings and where they came from.
+    pub fn readings(&self) -> Option<(Readings, Source)> {
+        self.readings
+    }
+
+    /// The data-line style.
+    pub fn mode(&self) -> Mode {
+        self.mode
+    }
+
+    /// Echo is on.
+    pub fn echo(&self) -> bool {
+        self.echo
+    }
+
+    /// Turn echo on or off (as the `echo` command does).
+    pub fn set_echo(&mut self, on: bool) {
+        self.echo = on;
+    }
+
+    /// Set the data-line style (as the `mode` command does).
+    pub fn set_mode(&mut self, mode: Mode) {
+        self.mode = mode;
+    }
+
+    /// Editing of the stage and limits is locked.
+    pub fn is_locked(&self) -> bool {
+        self.settings.pin.is_some()
+    }
+
+    /// The design hash of the current stage and profile.
+    pub fn design_hash(&self) -> u64 {
+        record::design_hash(&self.settings.stage, &self.settings.profile)
+    }
+
+    fn backoff_ms(&self) -> u64 {
+        let extra = self
+            .settings
+            .pin_failures
+            .saturating_sub(PIN_FREE_TRIES)
+            .min(20);
+        PIN_BACKOFF_MS
+            .saturating_mul(1u64 << extra)
+            .min(PIN_BACKOFF_MAX_MS)
+    }
+
+    fn echo_bytes<W: Write>(
+        &mut self,
+        bytes: &[u8],
+        out: &mut W,
+    ) -> Result<(), WriteError<W::Error>> {
+        for &b in bytes {
+            // The CR LF state is followed even with echo off, so that turning echo on between
+            // the CR and the LF of one line end echoes nothing for the LF.
+            let after_cr = core::mem::replace(&mut self.echo_after_cr, false);
+            let echo: &[u8] = match b {
+                b'\n' if after_cr => b"",
+                b'\r' | b'\n' => {
+                    self.echo_after_cr = b == b'\r';
+                    b"\r\n"
+                }
+                0x08 | 0x7f => b"\x08 \x08",
+                0x00..=0x1f => b"",
+                _ => core::slice::from_ref(&b),
+            };
+            if self.echo && !echo.is_empty() {
+                write_all(out, echo)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// Take bytes that arrived and answer every line they complete.
+    pub fn feed<W: Write>(
+        &mut self,
+        input: &[u8],
+        out: &mut W,
+    ) -> Result<(), WriteError<W::Error>> {
+        let mut rest = input;
+        loop {
+            self.lines.set_editing(self.echo);
+            let (consumed, next) = match self.lines.feed(rest) {
+                Feed::Pending => (rest, None),
+                Feed::Overfull { rest: r } => {
+                    let used = rest.get(..rest.len() - r.len()).unwrap_or(rest);
+                    (used, Some((Event::Overfull, r)))
+                }
+                Feed::Line { line, rest: r } => {
+                    let used = rest.get(..rest.len() - r.len()).unwrap_or(rest);
+                    let ev = match line {
+                        Ok(s) => Event::Line(Text::of(format_args!("{s}"))),
+                        Err(e) => Event::Bad(e),
+                    };
+                    (used, Some((ev, r)))
+                }
+            };
+            self.echo_bytes(consumed, out)?;
+            let Some((ev, r)) = next else { return Ok(()) };
+            match ev {
+                Event::Overfull => self.overlong(out)?,
+                Event::Line(t) => self.line(t.as_str(), out)?,
+                Event::Bad(e) => self.bad_line(e, out)?,
+            }
+            rest = r;
+        }
+    }
+
+    /// End of input: answer an unfinished last line, if any.
+    pub fn finish<W: Write>(&mut self, out: &mut W) -> Result<(), WriteError<W::Error>> {
+        let ev = match self.lines.finish() {
+            None => return Ok(()),
+            Some(Ok(s)) => Event::Line(Text::of(format_args!("{s}"))),
+            Some(Err(e)) => Event::Bad(e),
+        };
+        match ev {
+            Event::Line(t) => self.line(t.as_str(), out),
+            Event::Bad(e) => self.bad_line(e, out),
+            Event::Overfull => self.overlong(out),
+        }
+    }
+
+    /// Run a session: read until the end of input, answering every line.
+    pub fn run<R: Read, W: Write>(
+        &mut self,
+        input: &mut R,
+        out: &mut W,
+    ) -> Result<(), SessionError<R::Error, W::Error>> {
+        let mut buf = [0u8; 64];
+        loop {
+            let n = input.read(&mut buf).map_err(SessionError::Read)?;
+            if n == 0 {
+                return self.finish(out).map_err(SessionError::Write);
+            }
+            let chunk = buf.get(..n).unwrap_or(&[]);
+            self.feed(chunk, out).map_err(SessionError::Write)?;
+        }
+    }
+
+    /// Answer a line that was longer than [`LINE_MAX`].
+    pub fn overlong<W: Write>(&mut self, out: &mut W) -> Result<(), WriteError<W::Error>> {
+        let fail = Fail::new(
+            Code::TooLong,
+            format_args!("line longer than {LINE_MAX} bytes; discarded up to its end"),
+        );
+        Reply::new(out, self.mode).finish(&Err(fail))
+    }
+
+    fn bad_line<W: Write>(
+        &mut self,
+        e: LineError,
+        out: &mut W,
+    ) -> Result<(), WriteError<W::Error>> {
+        let code = match e {
+            LineError::Control(_) => Code::Control,
+            LineError::Encoding => Code::Encoding,
+        };
+        Reply::new(out, self.mode).finish(&Err(Fail::new(code, format_args!("{e}"))))
+    }
+
+    /// Answer one complete line (without its line end): data lines, then one status line.
+    pub fn line<W: Write>(&mut self, line: &str, out: &mut W) -> Result<(), WriteError<W::Error>> {
+        let mut reply = Reply::new(out, self.mode);
+        let outcome = match parse::parse(line) {
+            Ok(cmd) => self.exec(cmd, &mut reply),
+            Err(e) => Err(Fail::new(e.code, format_args!("{e}"))),
+        };
+        reply.finish(&outcome)
+    }
+}
+
+#[expect(
+    clippy::large_enum_variant,
+    reason = "a short-lived value on the stack that holds one line; no allocation"
+)]
+enum Event {
+    Overfull,
+    Line(Text),
+    Bad(LineError),
+}

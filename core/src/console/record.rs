@@ -1,0 +1,332 @@
+//! Fixed-size store records and the design hash.
+//!
+//! Both use one canonical byte encoding: numbers as IEEE 754 binary64, little-endian; an absent
+//! optional value as the byte 0, a present one as 1 and its bytes.
+//!
+//! **Design hash** ([`design_hash`]): FNV-1a, 64 bits (offset basis 0xcbf29ce484222325, prime
+//! 0x100000001b3), over the canonical encoding of the stage (polarity byte 0 NPN / 1 PNP; VCC
+//! value, tolerance; R1, R2, RC, RE1, RE2 value, tolerance each; RL optional; RS; CIN, COUT, CE
+//! optional value and tolerance each) followed by the profile (hFE min, typ, max, reverse, tc,
+//! IS, Early optional, VCE(sat), power rating, maximum junction temperature): 246 bytes. Printed as
+//! 16 lower-case hex digits.
+//!
+//! **Record** ([`RECORD_LEN`] bytes): magic `BJ` + slot letter, version byte, payload, zero
+//! padding, and the FNV-1a 64 of everything before the last 8 bytes in those last 8 bytes.
+
+use super::jig::{Calibration, ChannelCal, Slot, RECORD_LEN};
+use super::parse::Pin;
+use crate::device::Profile;
+use crate::limits::Meter;
+use crate::stage::{Part, Polarity, Stage};
+
+/// Record format version.
+const VERSION: u8 = 1;
+/// FNV-1a 64 offset basis.
+const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
+/// FNV-1a 64 prime.
+const FNV_PRIME: u64 = 0x0000_0100_0000_01b3;
+
+/// FNV-1a 64 of `bytes`, continuing from `h` (start with the offset basis).
+fn fnv1a(mut h: u64, bytes: &[u8]) -> u64 {
+    for b in bytes {
+        h ^= u64::from(*b);
+        h = h.wrapping_mul(FNV_PRIME);
+    }
+    h
+}
+
+/// Where an encoding goes: a byte sink.
+trait Sink {
+    fn put(&mut self, bytes: &[u8]);
+    fn f64(&mut self, v: f64) {
+        self.put(&v.to_le_bytes());
+    }
+    fn u8(&mut self, v: u8) {
+        self.put(&[v]);
+    }
+    fn opt(&mut self, v: Option<f64>) {
+        match v {
+            None => self.u8(0),
+            Some(x) => {
+                self.u8(1);
+                self.f64(x);
+            }
+        }
+    }
+    fn part(&mut self, p: Part) {
+        self.f64(p.value);
+        self.f64(p.tol);
+    }
+    fn opt_part(&mut self, p: Option<Part>) {
+        match p {
+            None => self.u8(0),
+            Some(p) => {
+                self.u8(1);
+                self.part(p);
+            }
+        }
+    }
+}
+
+struct Hasher(u64);
+
+impl Sink for Hasher {
+    fn put(&mut self, bytes: &[u8]) {
+        self.0 = fnv1a(self.0, bytes);
+    }
+}
+
+/// Writes into a fixed buffer; bytes past its end are counted as overflow.
+struct Writer<'a> {
+    buf: &'a mut [u8],
+    pos: usize,
+    overflow: bool,
+}
+
+impl Sink for Writer<'_> {
+    fn put(&mut self, bytes: &[u8]) {
+        match self.buf.get_mut(self.pos..self.pos + bytes.len()) {
+            Some(dst) => {
+                dst.copy_from_slice(bytes);
+                self.pos += bytes.len();
+            }
+            None => self.overflow = true,
+        }
+    }
+}
+
+struct Reader<'a> {
+    buf: &'a [u8],
+    pos: usize,
+}
+
+impl Reader<'_> {
+    fn take<const K: usize>(&mut self) -> Option<[u8; K]> {
+        let b = self.buf.get(self.pos..self.pos + K)?;
+        self.pos += K;
+        let mut out = [0u8; K];
+        out.copy_from_slice(b);
+        Some(out)
+    }
+    fn u8(&mut self) -> Option<u8> {
+        self.take::<1>().map(|b| b[0])
+    }
+    fn f64(&mut self) -> Option<f64> {
+        self.take::<8>().map(f64::from_le_bytes)
+    }
+    fn opt(&mut self) -> Option<Option<f64>> {
+        match self.u8()? {
+            0 => Some(None),
+            1 => Some(Some(self.f64()?)),
+            _ => None,
+        }
+    }
+    fn part(&mut self) -> Option<Part> {
+        Some(Part::new(self.f64()?, self.f64()?))
+    }
+    fn opt_part(&mut self) -> Option<Option<Part>> {
+        match self.u8()? {
+            0 => Some(None),
+            1 => Some(Some(self.part()?)),
+            _ => None,
+        }
+    }
+}
+
+fn put_design(s: &mut impl Sink, stage: &Stage, profile: &Profile) {
+    s.u8(match stage.polarity {
+        Polarity::Npn => 0,
+        Polarity::Pnp => 1,
+    });
+    s.part(stage.vcc);
+    for p in [stage.r1, stage.r2, stage.rc, stage.re1, stage.re2] {
+        s.part(p);
+    }
+    s.opt(stage.rl);
+    s.f64(stage.rs);
+    for c in [stage.cin, stage.cout, stage.ce] {
+        s.opt_part(c);
+    }
+    for v in [
+        profile.beta_min,
+        profile.beta_typ,
+        profile.beta_max,
+        profile.beta_rev,
+    ] {
+        s.f64(v);
+    }
+    s.f64(profile.beta_tc);
+    s.f64(profile.is_25);
+    s.opt(profile.early);
+    for v in [profile.vce_sat, profile.power_25, profile.tj_max] {
+        s.f64(v);
+    }
+}
+
+fn get_design(r: &mut Reader<'_>) -> Option<(Stage, Profile)> {
+    let polarity = match r.u8()? {
+        0 => Polarity::Npn,
+        1 => Polarity::Pnp,
+        _ => return None,
+    };
+    let stage = Stage {
+        polarity,
+        vcc: r.part()?,
+        r1: r.part()?,
+        r2: r.part()?,
+        rc: r.part()?,
+        re1: r.part()?,
+        re2: r.part()?,
+        rl: r.opt()?,
+        rs: r.f64()?,
+        cin: r.opt_part()?,
+        cout: r.opt_part()?,
+        ce: r.opt_part()?,
+    };
+    let profile = Profile {
+        beta_min: r.f64()?,
+        beta_typ: r.f64()?,
+        beta_max: r.f64()?,
+        beta_rev: r.f64()?,
+        beta_tc: r.f64()?,
+        is_25: r.f64()?,
+        early: r.opt()?,
+        vce_sat: r.f64()?,
+        power_25: r.f64()?,
+        tj_max: r.f64()?,
+    };
+    Some((stage, profile))
+}
+
+/// The design hash of a stage and its transistor profile (see the module documentation).
+pub fn design_hash(stage: &Stage, profile: &Profile) -> u64 {
+    let mut h = Hasher(FNV_OFFSET);
+    put_design(&mut h, stage, profile);
+    h.0
+}
+
+/// Everything the console keeps across a restart, apart from the calibration.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Settings {
+    /// The stage.
+    pub stage: Stage,
+    /// The transistor.
+    pub profile: Profile,
+    /// Nominal ambient, °C.
+    pub temp_c: f64,
+    /// Meter and jig accuracy.
+    pub meter: Meter,
+    /// The PIN while locked (`None`: unlocked).
+    pub pin: Option<Pin>,
+    /// Wrong PINs given since the last right one.
+    pub pin_failures: u32,
+}
+
+fn seal(slot: Slot, rec: &mut [u8; RECORD_LEN], write: impl FnOnce(&mut Writer<'_>)) -> bool {
+    *rec = [0; RECORD_LEN];
+    let (body, sum) = rec.split_at_mut(RECORD_LEN - 8);
+    let mut w = Writer {
+        buf: body,
+        pos: 0,
+        overflow: false,
+    };
+    w.put(&[b'B', b'J', slot_letter(slot), VERSION]);
+    write(&mut w);
+    let ok = !w.overflow;
+    let h = fnv1a(FNV_OFFSET, body);
+    sum.copy_from_slice(&h.to_le_bytes());
+    ok
+}
+
+fn open(slot: Slot, rec: &[u8; RECORD_LEN]) -> Option<Reader<'_>> {
+    let (body, sum) = rec.split_at(RECORD_LEN - 8);
+    let mut s = [0u8; 8];
+    s.copy_from_slice(sum);
+    if fnv1a(FNV_OFFSET, body) != u64::from_le_bytes(s) {
+        return None;
+    }
+    let mut r = Reader { buf: body, pos: 0 };
+    (r.take::<4>()? == [b'B', b'J', slot_letter(slot), VERSION]).then_some(r)
+}
+
+fn slot_letter(slot: Slot) -> u8 {
+    match slot {
+        Slot::Settings => b'S',
+        Slot::Calibration => b'C',
+    }
+}
+
+impl Settings {
+    /// Encode into a store record.
+    pub fn encode(&self, rec: &mut [u8; RECORD_LEN]) {
+        // 295 bytes of 376: always fits (tested).
+        let _fits = seal(Slot::Settings, rec, |w| {
+            put_design(w, &self.stage, &self.profile);
+            w.f64(self.temp_c);
+            w.f64(self.meter.gain_error);
+            w.f64(self.meter.offset);
+            w.f64(self.meter.divider_tol);
+            match self.pin {
+                None => w.u8(0),
+                Some(p) => {
+                    w.u8(p.len);
+                    w.put(&p.digits);
+                }
+            }
+            w.put(&self.pin_failures.to_le_bytes());
+        });
+    }
+
+    /// Decode a store record; `None` when it is damaged or of another version.
+    pub fn decode(rec: &[u8; RECORD_LEN]) -> Option<Settings> {
+        let mut r = open(Slot::Settings, rec)?;
+        let (stage, profile) = get_design(&mut r)?;
+        let temp_c = r.f64()?;
+        let meter = Meter {
+            gain_error: r.f64()?,
+            offset: r.f64()?,
+            divider_tol: r.f64()?,
+        };
+        let pin = match r.u8()? {
+            0 => None,
+            len => {
+                let digits = r.take::<8>()?;
+                let p = Pin { digits, len };
+                let text = core::str::from_utf8(digits.get(..usize::from(len))?).ok()?;
+                (Pin::parse(text)? == p).then_some(p)
+            }
+        };
+        let pin_failures = u32::from_le_bytes(r.take::<4>()?);
+        Some(Settings {
+            stage,
+            profile,
+            temp_c,
+            meter,
+            pin,
+            pin_failures,
+        })
+    }
+}
+
+/// Encode a calibration into a store record.
+pub fn encode_calibration(cal: &Calibration, rec: &mut [u8; RECORD_LEN]) {
+    let _fits = seal(Slot::Calibration, rec, |w| {
+        for c in cal.channels {
+            w.f64(c.gain);
+            w.f64(c.offset);
+        }
+    });
+}
+
+/// Decode a calibration record; `None` when it is damaged or of another version.
+pub fn decode_calibration(rec: &[u8; RECORD_LEN]) -> Option<Calibration> {
+    let mut r = open(Slot::Calibration, rec)?;
+    let mut cal = Calibration::default();
+    for slot in cal.channels.iter_mut() {
+        *slot = ChannelCal {
+            gain: r.f64()?,
+            offset: r.f64()?,
+        };
+    }
+    Some(cal)
+}

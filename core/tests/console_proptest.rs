@@ -1,0 +1,276 @@
+//! Property tests of the line assembler, the parser and the framing: random and mutated lines,
+//! delivered in random chunks. Per run: 2000 cases of 500 lines = 1 000 000 lines.
+//!
+//! Checked: nothing panics; every line (CR, LF or CRLF ended, or unfinished at the end of input)
+//! gets exactly one status line; no output line is longer than MAX_OUT_LINE; no reply has more
+//! than MAX_DATA_LINES data lines; the assembler never holds more than LINE_MAX bytes.
+
+use biasjig_core::console::jig::{MemoryStore, NoJig};
+use biasjig_core::console::line::{Feed, LineBuf};
+use biasjig_core::console::{
+    parse, Clock, Console, Identity, LINE_MAX, MAX_DATA_LINES, MAX_OUT_LINE,
+};
+use proptest::prelude::*;
+
+const LINES_PER_CASE: usize = 500;
+
+/// Valid lines the mutations start from (echo is left out: echoed input is not a reply).
+const SEEDS: &[&str] = &[
+    "",
+    "help",
+    "help set",
+    "*IDN?",
+    "identify",
+    "*RST",
+    "stage",
+    "set r1 4k7",
+    "set rc 3.3k 1%",
+    "set rl none",
+    "set beta 150",
+    "set vbe 0.62",
+    "set temp -10",
+    "profile",
+    "parts",
+    "parts 5",
+    "predict",
+    "hash",
+    "requirement",
+    "design",
+    "pick 2",
+    "spread",
+    "limits",
+    "meter",
+    "meter gain 1%",
+    "measure",
+    "measure 64",
+    "check 12 2.05 1.39 5.7",
+    "test",
+    "diagnose",
+    "readings",
+    "calibrate",
+    "calibrate vb low 1",
+    "inject r1 open",
+    "lock 1234",
+    "unlock 1234",
+    "unlock 0000",
+    "mode machine",
+    "mode human",
+    "save",
+    "# note",
+];
+
+/// splitmix64: a small deterministic generator driven by the proptest seed.
+struct Gen(u64);
+
+impl Gen {
+    fn next(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+        z ^ (z >> 31)
+    }
+    fn below(&mut self, n: usize) -> usize {
+        (self.next() % n as u64) as usize
+    }
+    fn byte(&mut self) -> u8 {
+        // Mostly printable, some control bytes, some high bytes.
+        match self.below(10) {
+            0 => self.below(32) as u8,
+            1 => 0x80 + self.below(128) as u8,
+            _ => 0x20 + self.below(95) as u8,
+        }
+    }
+}
+
+/// One line body (may contain line ends of its own when random).
+fn line(g: &mut Gen) -> Vec<u8> {
+    match g.below(8) {
+        0 => (0..g.below(40)).map(|_| g.byte()).collect(),
+        1 => vec![b'x'; LINE_MAX - 2 + g.below(6)],
+        2 => (0..LINE_MAX + g.below(300)).map(|_| g.byte()).collect(),
+        3 | 4 => SEEDS[g.below(SEEDS.len())].as_bytes().to_vec(),
+        _ => {
+            let mut l = SEEDS[g.below(SEEDS.len())].as_bytes().to_vec();
+            for _ in 0..1 + g.below(3) {
+                let at = if l.is_empty() {
+                    0
+                } else {
+                    g.below(l.len() + 1)
+                };
+                match g.below(3) {
+                    0 => l.insert(at, g.byte()),
+                    1 if at < l.len() => {
+                        l.remove(at);
+                    }
+                    _ if at < l.len() => l[at] = g.byte(),
+                    _ => l.push(g.byte()),
+                }
+            }
+            l
+        }
+    }
+}
+
+fn terminator(g: &mut Gen) -> &'static [u8] {
+    match g.below(4) {
+        0 => b"\r",
+        1 => b"\r\n",
+        _ => b"\n",
+    }
+}
+
+/// Reference model of line ends: CR, LF, and CRLF as one.
+#[derive(Default)]
+struct Ends {
+    after_cr: bool,
+    partial: bool,
+    count: usize,
+}
+
+impl Ends {
+    fn take(&mut self, bytes: &[u8]) {
+        for &b in bytes {
+            let after_cr = std::mem::replace(&mut self.after_cr, false);
+            match b {
+                b'\n' if after_cr => {}
+                b'\r' | b'\n' => {
+                    self.after_cr = b == b'\r';
+                    self.count += 1;
+                    self.partial = false;
+                }
+                _ => self.partial = true,
+            }
+        }
+    }
+}
+
+struct Out(Vec<u8>);
+
+impl embedded_io::ErrorType for Out {
+    type Error = core::convert::Infallible;
+}
+
+impl embedded_io::Write for Out {
+    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
+        self.0.extend_from_slice(buf);
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> Result<(), Self::Error> {
+        Ok(())
+    }
+}
+
+#[derive(Default)]
+struct Fixed;
+
+impl Clock for Fixed {
+    fn now_ms(&mut self) -> u64 {
+        0
+    }
+}
+
+/// Count status lines and check the bounds of every reply.
+fn audit(out: &[u8]) -> usize {
+    let mut statuses = 0;
+    let mut data = 0;
+    let text = String::from_utf8_lossy(out);
+    assert!(text.is_empty() || text.ends_with("\r\n"));
+    for l in text.split("\r\n").filter(|l| !l.is_empty()) {
+        assert!(l.len() <= MAX_OUT_LINE, "{} bytes: {l:?}", l.len());
+        assert!(!l.bytes().any(|b| b < 0x20), "control byte in output {l:?}");
+        if l == "ok" || l.starts_with("ok ") || l.starts_with("err ") {
+            statuses += 1;
+            data = 0;
+        } else {
+            data += 1;
+            assert!(data <= MAX_DATA_LINES);
+        }
+    }
+    statuses
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 2000, ..ProptestConfig::default() })]
+
+    #[test]
+    fn one_status_line_per_line(seed in any::<u64>()) {
+        let mut g = Gen(seed);
+        let mut c = Console::new(Identity::new("console", "0"), NoJig, MemoryStore::default(), Fixed);
+        let mut ends = Ends::default();
+        let mut out = Out(Vec::new());
+        let mut statuses = 0;
+        for _ in 0..LINES_PER_CASE {
+            let mut bytes = line(&mut g);
+            bytes.extend_from_slice(terminator(&mut g));
+            ends.take(&bytes);
+            let mut rest = &bytes[..];
+            while !rest.is_empty() {
+                let n = 1 + g.below(rest.len().min(80));
+                let (chunk, tail) = rest.split_at(n);
+                c.feed(chunk, &mut out).unwrap();
+                rest = tail;
+            }
+            prop_assert!(!c.echo());
+            statuses += audit(&out.0);
+            out.0.clear();
+        }
+        if g.below(2) == 0 {
+            let tail = line(&mut g);
+            ends.take(&tail);
+            c.feed(&tail, &mut out).unwrap();
+        }
+        c.finish(&mut out).unwrap();
+        statuses += audit(&out.0);
+        let expected = ends.count + usize::from(ends.partial);
+        prop_assert_eq!(statuses, expected);
+    }
+
+    #[test]
+    fn echo_on_never_panics_and_stays_bounded(seed in any::<u64>()) {
+        let mut g = Gen(seed);
+        let mut c = Console::new(Identity::new("console", "0"), NoJig, MemoryStore::default(), Fixed);
+        c.set_echo(true);
+        let mut out = Out(Vec::new());
+        for _ in 0..50 {
+            let mut bytes = line(&mut g);
+            bytes.extend_from_slice(terminator(&mut g));
+            c.feed(&bytes, &mut out).unwrap();
+            c.set_echo(true);
+        }
+        c.finish(&mut out).unwrap();
+    }
+
+    #[test]
+    fn chunking_does_not_change_lines(bytes in proptest::collection::vec(any::<u8>(), 0..600), cuts in proptest::collection::vec(1usize..50, 1..40)) {
+        fn run(bytes: &[u8], cuts: &[usize]) -> Vec<String> {
+            let mut lb = LineBuf::<LINE_MAX>::new();
+            let mut got = Vec::new();
+            let mut rest = bytes;
+            let mut k = 0;
+            while !rest.is_empty() {
+                let n = cuts.get(k % cuts.len().max(1)).copied().unwrap_or(rest.len()).min(rest.len());
+                k += 1;
+                let (chunk, tail) = rest.split_at(n);
+                rest = tail;
+                let mut c = chunk;
+                loop {
+                    assert!(lb.len() <= LINE_MAX);
+                    match lb.feed(c) {
+                        Feed::Pending => break,
+                        Feed::Overfull { rest } => { got.push("<long>".to_owned()); c = rest; }
+                        Feed::Line { line, rest } => { got.push(format!("{line:?}")); c = rest; }
+                    }
+                }
+            }
+            if let Some(l) = lb.finish() { got.push(format!("{l:?}")); }
+            got
+        }
+        prop_assert_eq!(run(&bytes, &cuts), run(&bytes, &[bytes.len().max(1)]));
+    }
+
+    #[test]
+    fn parser_takes_any_text(s in "\\PC{0,140}") {
+        let _ = parse::parse(&s);
+    }
+}

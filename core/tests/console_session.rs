@@ -1,0 +1,675 @@
+//! A scripted session through the console engine: every command, the help text and the errors.
+
+use std::cell::Cell;
+use std::rc::Rc;
+
+use biasjig_core::console::jig::{MemoryStore, NoJig};
+use biasjig_core::console::{
+    Calibration, Channel, Clock, Console, Identity, Jig, JigError, LINE_MAX, MAX_OUT_LINE,
+};
+use biasjig_core::stage::{Fault, Readings};
+
+/// A clock the test moves by hand.
+#[derive(Clone, Default)]
+struct TestClock(Rc<Cell<u64>>);
+
+impl Clock for TestClock {
+    fn now_ms(&mut self) -> u64 {
+        self.0.get()
+    }
+}
+
+/// A jig that reads fixed node voltages through a raw gain error, and records injections.
+#[derive(Default)]
+struct FakeJig {
+    nodes: [f64; 4],
+    raw_gain: f64,
+    cal: Calibration,
+    injected: Option<Option<Fault>>,
+    applied: f64,
+}
+
+impl Jig for FakeJig {
+    fn measure(&mut self, samples: u16) -> Result<Readings, JigError> {
+        assert!((1..=1024).contains(&samples));
+        let v = |c: Channel| self.cal.get(c).apply(self.nodes[c.index()] * self.raw_gain);
+        Ok(Readings {
+            vcc: v(Channel::Vcc),
+            vb: v(Channel::Vb),
+            ve: v(Channel::Ve),
+            vc: v(Channel::Vc),
+        })
+    }
+    fn raw(&mut self, _channel: Channel, _samples: u16) -> Result<f64, JigError> {
+        Ok(self.applied * self.raw_gain + 0.01)
+    }
+    fn set_calibration(&mut self, cal: &Calibration) -> Result<(), JigError> {
+        self.cal = *cal;
+        Ok(())
+    }
+    fn inject(&mut self, fault: Option<Fault>) -> Result<(), JigError> {
+        self.injected = Some(fault);
+        Ok(())
+    }
+}
+
+/// Output collected in memory.
+#[derive(Default)]
+struct Out(Vec<u8>);
+
+impl embedded_io::ErrorType for Out {
+    type Error = core::convert::Infallible;
+}
+
+impl embedded_io::Write for Out {
+    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
+        self.0.extend_from_slice(buf);
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> Result<(), Self::Error> {
+        Ok(())
+    }
+}
+
+type Fake = Console<FakeJig, MemoryStore, TestClock>;
+
+fn console() -> (Fake, TestClock) {
+    let clock = TestClock::default();
+    let jig = FakeJig {
+        nodes: [12.0, 2.0, 1.35, 5.5],
+        raw_gain: 1.0,
+        ..FakeJig::default()
+    };
+    (
+        Console::new(
+            Identity::new("console", "0.1.0"),
+            jig,
+            MemoryStore::default(),
+            clock.clone(),
+        ),
+        clock,
+    )
+}
+
+/// Send bytes, return the output lines (CR LF split).
+fn send<J: Jig, S: biasjig_core::console::Store, C: Clock>(
+    c: &mut Console<J, S, C>,
+    input: &[u8],
+) -> Vec<String> {
+    let mut out = Out::default();
+    c.feed(input, &mut out).expect("memory never fails");
+    let text = String::from_utf8(out.0).expect("output is UTF-8");
+    assert!(text.is_empty() || text.ends_with("\r\n"), "{text:?}");
+    text.split("\r\n")
+        .filter(|l| !l.is_empty())
+        .map(str::to_owned)
+        .collect()
+}
+
+fn is_status(l: &str) -> bool {
+    l == "ok" || l.starts_with("ok ") || l.starts_with("err ")
+}
+
+/// One command: the data lines and the status line; exactly one status line, last.
+fn cmd(c: &mut Fake, line: &str) -> (Vec<String>, String) {
+    let mut lines = send(c, format!("{line}\n").as_bytes());
+    let status = lines.pop().unwrap_or_default();
+    assert!(is_status(&status), "{line:?} -> {status:?}");
+    assert!(lines.iter().all(|l| !is_status(l)), "{line:?}: {lines:?}");
+    assert!(lines
+        .iter()
+        .chain([&status])
+        .all(|l| l.len() <= MAX_OUT_LINE));
+    (lines, status)
+}
+
+fn ok(c: &mut Fake, line: &str) -> Vec<String> {
+    let (data, status) = cmd(c, line);
+    assert!(status.starts_with("ok"), "{line:?} -> {status}");
+    data
+}
+
+fn err(c: &mut Fake, line: &str, code: &str) -> String {
+    let (data, status) = cmd(c, line);
+    assert!(data.is_empty(), "{line:?}: {data:?}");
+    assert!(
+        status.starts_with(&format!("err {code} ")),
+        "{line:?} -> {status}"
+    );
+    status
+}
+
+fn value(data: &[String], key: &str) -> String {
+    data.iter()
+        .flat_map(|l| l.split(' '))
+        .find_map(|kv| kv.strip_prefix(&format!("{key}=")))
+        .unwrap_or_else(|| panic!("{key} not in {data:?}"))
+        .to_owned()
+}
+
+#[test]
+fn identification() {
+    let (mut c, _) = console();
+    let d = ok(&mut c, "*IDN?");
+    assert_eq!(d, ["biasjig,console,0,0.1.0"]);
+    // IEEE 488.2 style: four comma-separated fields.
+    assert_eq!(d[0].split(',').count(), 4);
+    assert_eq!(ok(&mut c, "identify"), d);
+    assert_eq!(ok(&mut c, "*idn?"), d);
+}
+
+#[test]
+fn help_has_every_command_and_the_safety_cautions() {
+    let (mut c, _) = console();
+    let d = ok(&mut c, "help").join("\n");
+    for word in [
+        "help",
+        "identify",
+        "*IDN?",
+        "*RST",
+        "stage",
+        "set",
+        "profile",
+        "parts",
+        "predict",
+        "hash",
+        "requirement",
+        "design",
+        "pick",
+        "spread",
+        "limits",
+        "meter",
+        "measure",
+        "check",
+        "test",
+        "diagnose",
+        "readings",
+        "calibrate",
+        "inject",
+        "lock",
+        "unlock",
+        "echo",
+        "mode",
+        "save",
+    ] {
+        assert!(d.contains(word), "help lacks {word}");
+    }
+    for caution in [
+        "de-energise the board before changing probes or parts",
+        "within their rated range",
+        "No mains-connected circuits without isolation",
+        "Local codes and licensed practice take precedence",
+    ] {
+        assert!(d.contains(caution), "help lacks {caution:?}");
+    }
+    assert!(ok(&mut c, "help set").join(" ").contains("beta-min"));
+    assert_eq!(ok(&mut c, "help measure").len(), 1);
+    err(&mut c, "help frobnicate", "UNKNOWN");
+}
+
+#[test]
+fn stage_set_and_show() {
+    let (mut c, _) = console();
+    ok(&mut c, "mode machine");
+    assert_eq!(ok(&mut c, "mode"), ["mode=machine"]);
+    let s = ok(&mut c, "stage");
+    assert_eq!(value(&s, "r1"), "47000");
+    assert_eq!(value(&s, "polarity"), "npn");
+    let h0 = value(&ok(&mut c, "hash"), "hash");
+    assert_eq!(h0.len(), 16);
+    ok(&mut c, "set r1 56k 1%");
+    let s = ok(&mut c, "stage");
+    assert_eq!(value(&s, "r1"), "56000");
+    assert_eq!(value(&s, "r1_tol"), "0.01");
+    let h1 = value(&ok(&mut c, "hash"), "hash");
+    assert_ne!(h0, h1, "the hash follows the parts");
+    ok(&mut c, "set r1 47k 5%");
+    assert_eq!(
+        value(&ok(&mut c, "hash"), "hash"),
+        h0,
+        "same parts, same hash"
+    );
+    ok(&mut c, "set rl none");
+    assert_eq!(value(&ok(&mut c, "stage"), "rl"), "none");
+    ok(&mut c, "set ce 220u");
+    assert_eq!(value(&ok(&mut c, "stage"), "ce"), "2.2e-4");
+    ok(&mut c, "set tol 1");
+    assert_eq!(value(&ok(&mut c, "stage"), "rc_tol"), "0.01");
+    ok(&mut c, "set polarity pnp");
+    assert_eq!(value(&ok(&mut c, "stage"), "polarity"), "pnp");
+    ok(&mut c, "set temp -10");
+    assert_eq!(value(&ok(&mut c, "stage"), "temp"), "-10");
+    ok(&mut c, "SET VCC 9");
+    assert_eq!(value(&ok(&mut c, "stage"), "vcc"), "9");
+    // Profile figures.
+    ok(&mut c, "set beta 150");
+    ok(&mut c, "set beta-max 400");
+    ok(&mut c, "set vbe 0.6");
+    ok(&mut c, "set early 80");
+    ok(&mut c, "set beta-tc 0.4%");
+    let p = ok(&mut c, "profile");
+    assert_eq!(value(&p, "beta_min"), "150");
+    assert_eq!(value(&p, "beta_max"), "400");
+    assert_eq!(value(&p, "early"), "80");
+    assert!((value(&p, "vbe").parse::<f64>().unwrap() - 0.6).abs() < 1e-9);
+    // Errors name the field, the value and what is allowed; the stage stays as it was.
+    let e = err(&mut c, "set r1 4x7", "VALUE");
+    assert!(
+        e.contains("r1") && e.contains("4x7") && e.contains("4k7"),
+        "{e}"
+    );
+    err(&mut c, "set zz 1", "VALUE");
+    err(&mut c, "set r1", "USAGE");
+    err(&mut c, "set beta-min 500", "RANGE");
+    err(&mut c, "set vcc 0.1", "RANGE");
+    err(&mut c, "set temp 500", "RANGE");
+    err(&mut c, "set polarity xyz", "VALUE");
+    assert_eq!(value(&ok(&mut c, "stage"), "vcc"), "9");
+    // *RST: the defaults again.
+    ok(&mut c, "*RST");
+    assert_eq!(value(&ok(&mut c, "hash"), "hash"), h0);
+}
+
+#[test]
+fn parts_with_codes_and_bands() {
+    let (mut c, _) = console();
+    let human = ok(&mut c, "parts").join("\n");
+    // IEC 60062: 47 kΩ 5 % is yellow violet orange gold; 4.7 kΩ yellow violet red gold.
+    assert!(
+        human.contains("47k") && human.contains("yellow violet orange gold"),
+        "{human}"
+    );
+    assert!(
+        human.contains("4k7") && human.contains("yellow violet red gold"),
+        "{human}"
+    );
+    ok(&mut c, "mode machine");
+    let m = ok(&mut c, "parts 5");
+    assert!(
+        m.iter()
+            .any(|l| l.contains("part=R2") && l.contains("bands=brown,black,black,red,gold")),
+        "{m:?}"
+    );
+    assert!(
+        m.iter()
+            .any(|l| l.contains("part=CE") && l.contains("code=470u")),
+        "{m:?}"
+    );
+    err(&mut c, "parts 7", "VALUE");
+}
+
+#[test]
+fn predict_matches_the_engine() {
+    use biasjig_core::console::{default_profile, default_stage};
+    use biasjig_core::predict::predict;
+    use biasjig_core::solve::Conditions;
+    let (mut c, _) = console();
+    let human = ok(&mut c, "predict").join("\n");
+    assert!(
+        human.contains("Q-point") && human.contains("active"),
+        "{human}"
+    );
+    ok(&mut c, "mode machine");
+    let d = ok(&mut c, "predict");
+    let p = predict(
+        &default_stage(),
+        &default_profile(),
+        Conditions::typical(&default_profile()),
+    )
+    .unwrap();
+    // Machine numbers parse back exactly.
+    assert_eq!(value(&d, "vc").parse::<f64>().unwrap(), p.op.vc);
+    assert_eq!(value(&d, "ic").parse::<f64>().unwrap(), p.op.ic);
+    assert_eq!(
+        value(&d, "gain").parse::<f64>().unwrap(),
+        p.midband.unwrap().gain
+    );
+    assert_eq!(value(&d, "region"), "active");
+    // Common practice: VBE about 0.6 to 0.7 V in the active region.
+    let vbe: f64 = value(&d, "vbe").parse().unwrap();
+    assert!((0.6..0.7).contains(&vbe), "{vbe}");
+}
+
+#[test]
+fn limits_come_from_the_limits_module() {
+    use biasjig_core::console::{default_profile, default_stage};
+    use biasjig_core::limits::{limits, Meter};
+    use biasjig_core::spread::Variation;
+    let (mut c, _) = console();
+    ok(&mut c, "mode machine");
+    let d = ok(&mut c, "limits");
+    let l = limits(
+        &default_stage(),
+        &default_profile(),
+        &Variation::at(25.0),
+        &Meter::default(),
+        12.0,
+    )
+    .unwrap();
+    let vb = d.iter().find(|x| x.starts_with("node=vb ")).unwrap();
+    assert_eq!(vb, &format!("node=vb low={} high={}", l.vb.low, l.vb.high));
+    assert!(l.vb.low < l.vb.high);
+    ok(&mut c, "mode human");
+    assert!(ok(&mut c, "limits").join(" ").contains("VB"));
+}
+
+#[test]
+fn seams_answer_not_built() {
+    let (mut c, _) = console();
+    for line in [
+        "requirement",
+        "requirement gain 15",
+        "design",
+        "pick 1",
+        "spread",
+        "check 12 2 1.35 5.5",
+        "test",
+        "diagnose",
+    ] {
+        let e = err(&mut c, line, "NOT_BUILT");
+        assert!(e.contains("not in this build"), "{e}");
+    }
+    err(&mut c, "pick 0", "VALUE");
+    err(&mut c, "check 12 2 1.35", "USAGE");
+    err(&mut c, "check 12 2 x 5", "VALUE");
+}
+
+#[test]
+fn meter_measure_readings_calibrate_inject() {
+    let (mut c, _) = console();
+    ok(&mut c, "mode machine");
+    err(&mut c, "readings", "NO_READINGS");
+    ok(&mut c, "meter gain 1%");
+    ok(&mut c, "meter offset 2m");
+    ok(&mut c, "meter divider 0.2");
+    let m = ok(&mut c, "meter");
+    assert_eq!(value(&m, "gain"), "0.01");
+    assert_eq!(value(&m, "offset"), "0.002");
+    assert_eq!(value(&m, "divider"), "0.002");
+    err(&mut c, "meter gain 50", "RANGE");
+    err(&mut c, "meter volume 3", "USAGE");
+    let d = ok(&mut c, "measure 32");
+    assert_eq!(value(&d, "vb"), "2");
+    assert_eq!(value(&d, "source"), "measured");
+    assert_eq!(ok(&mut c, "readings"), d);
+    err(&mut c, "measure 0", "VALUE");
+    err(&mut c, "measure 5000", "VALUE");
+    err(&mut c, "measure 1 2", "USAGE");
+    // Two-point calibration of a channel reading 2 % high with a 10 mV offset.
+    c.jig.raw_gain = 1.02;
+    c.jig.applied = 1.0;
+    ok(&mut c, "calibrate vb low 1");
+    c.jig.applied = 10.0;
+    let k = ok(&mut c, "calibrate vb high 10");
+    let gain: f64 = value(&k, "gain").parse().unwrap();
+    assert!((gain - 1.0 / 1.02).abs() < 1e-12, "{gain}");
+    err(&mut c, "calibrate vc high 10", "USAGE");
+    let shown = ok(&mut c, "calibrate");
+    assert_eq!(shown.len(), 4);
+    // The jig now corrects the vb channel: a node of 2 V reads 2 V within the offset of raw().
+    let d = ok(&mut c, "measure");
+    let vb: f64 = value(&d, "vb").parse().unwrap();
+    assert!((vb - 2.0).abs() < 0.011, "{vb}");
+    c.jig.applied = 1.0;
+    ok(&mut c, "calibrate ve low 1");
+    err(&mut c, "calibrate ve high 1.05", "VALUE");
+    err(&mut c, "calibrate xx low 1", "VALUE");
+    err(&mut c, "calibrate vb middle 1", "VALUE");
+    ok(&mut c, "calibrate reset");
+    assert_eq!(c.jig.cal, Calibration::default());
+    ok(&mut c, "inject r1 open");
+    assert_eq!(
+        c.jig.injected,
+        Some(Some(Fault::Open(biasjig_core::stage::Resistor::R1)))
+    );
+    ok(&mut c, "inject q be_open");
+    ok(&mut c, "inject rc 47");
+    ok(&mut c, "inject none");
+    assert_eq!(c.jig.injected, Some(None));
+    err(&mut c, "inject q sideways", "VALUE");
+    err(&mut c, "inject", "USAGE");
+}
+
+#[test]
+fn no_jig_says_not_supported() {
+    let mut c = Console::new(
+        Identity::new("console", "0"),
+        NoJig,
+        MemoryStore::default(),
+        TestClock::default(),
+    );
+    let lines = send(&mut c, b"measure\ninject none\ncalibrate vb low 1\n");
+    assert_eq!(lines.len(), 3);
+    assert!(
+        lines.iter().all(|l| l.starts_with("err NOT_SUPPORTED ")),
+        "{lines:?}"
+    );
+}
+
+#[test]
+fn lock_refuses_changes_and_slows_wrong_pins() {
+    let (mut c, clock) = console();
+    err(&mut c, "lock 12", "VALUE");
+    err(&mut c, "lock", "USAGE");
+    ok(&mut c, "lock 2468");
+    err(&mut c, "lock 1111", "LOCKED");
+    for line in [
+        "set r1 1k",
+        "*RST",
+        "meter gain 1",
+        "calibrate reset",
+        "calibrate vb low 1",
+        "design",
+        "pick 1",
+        "requirement gain 10",
+    ] {
+        err(&mut c, line, "LOCKED");
+    }
+    // A technician can still look, measure and check.
+    for line in [
+        "stage",
+        "parts",
+        "predict",
+        "measure",
+        "readings",
+        "meter",
+        "hash",
+        "calibrate",
+    ] {
+        ok(&mut c, line);
+    }
+    // Wrong PINs: three free tries, then a doubling wait.
+    err(&mut c, "unlock 0000", "PIN");
+    err(&mut c, "unlock 0000", "PIN");
+    let e = err(&mut c, "unlock 0000", "PIN");
+    assert!(e.contains("next try in 1 s"), "{e}");
+    let e = err(&mut c, "unlock 2468", "WAIT");
+    assert!(e.contains("wait 1 s"), "{e}");
+    clock.0.set(1000);
+    let e = err(&mut c, "unlock 1357", "PIN");
+    assert!(e.contains("next try in 2 s"), "{e}");
+    clock.0.set(2999);
+    err(&mut c, "unlock 2468", "WAIT");
+    clock.0.set(3000);
+    let (_, s) = cmd(&mut c, "unlock 2468");
+    assert_eq!(s, "ok unlocked");
+    ok(&mut c, "set r1 1k");
+    assert_eq!(cmd(&mut c, "unlock 2468").1, "ok not locked");
+}
+
+#[test]
+fn lock_survives_a_restart_through_the_store() {
+    let (mut c, clock) = console();
+    ok(&mut c, "set r1 39k");
+    ok(&mut c, "lock 13579");
+    for _ in 0..4 {
+        let _ = cmd(&mut c, "unlock 99999");
+    }
+    let store = c.store.clone();
+    let hash = c.design_hash();
+    let jig = FakeJig {
+        raw_gain: 1.0,
+        ..FakeJig::default()
+    };
+    let mut again = Console::new(Identity::new("console", "0"), jig, store, clock.clone());
+    assert_eq!(again.design_hash(), hash);
+    assert!(again.is_locked());
+    // The back-off is still in force after the restart.
+    err(&mut again, "unlock 13579", "WAIT");
+    clock.0.set(60_000);
+    assert_eq!(cmd(&mut again, "unlock 13579").1, "ok unlocked");
+}
+
+#[test]
+fn save_keeps_settings_and_calibration() {
+    let (mut c, clock) = console();
+    ok(&mut c, "set rc 3k9");
+    ok(&mut c, "meter gain 0.3");
+    ok(&mut c, "save");
+    let store = c.store.clone();
+    let mut again = Console::new(
+        Identity::new("console", "0"),
+        FakeJig::default(),
+        store,
+        clock,
+    );
+    ok(&mut again, "mode machine");
+    assert_eq!(value(&ok(&mut again, "stage"), "rc"), "3900");
+    assert_eq!(value(&ok(&mut again, "meter"), "gain"), "0.003");
+}
+
+#[test]
+fn line_discipline() {
+    let (mut c, _) = console();
+    // Blank lines and comments answer ok (hosts synchronise with a blank line).
+    assert_eq!(
+        send(&mut c, b"\n\r\n\r# comment\n"),
+        ["ok", "ok", "ok", "ok"]
+    );
+    // CRLF is one line end.
+    assert_eq!(send(&mut c, b"*IDN?\r\n").len(), 2);
+    // Junk, control bytes, bad UTF-8, overlong: one err each.
+    assert!(send(&mut c, b"frobnicate\n")[0].starts_with("err UNKNOWN "));
+    assert!(send(&mut c, b"sta\x1bge\n")[0].starts_with("err CONTROL "));
+    assert!(send(&mut c, b"\x00\n")[0].starts_with("err CONTROL "));
+    assert!(
+        send(&mut c, b"stage\x08\n")[0].starts_with("err CONTROL "),
+        "backspace with echo off"
+    );
+    assert!(send(&mut c, b"\xc3\x28\n")[0].starts_with("err ENCODING "));
+    let long = vec![b'a'; LINE_MAX + 1];
+    let mut input = long.clone();
+    input.extend_from_slice(b"\n*IDN?\n");
+    let lines = send(&mut c, &input);
+    assert_eq!(lines.len(), 3, "{lines:?}");
+    assert!(lines[0].starts_with("err TOO_LONG "));
+    assert_eq!(lines[2], "ok");
+    // Exactly the buffer is fine.
+    let mut input = vec![b' '; LINE_MAX - 5];
+    input.extend_from_slice(b"stage\n");
+    assert!(send(&mut c, &input).last().unwrap() == "ok");
+    // Too many words.
+    err(&mut c, "a b c d e f g h i", "USAGE");
+    err(&mut c, "stage now", "USAGE");
+    // Byte-by-byte delivery gives the same answer.
+    let mut all = Vec::new();
+    for b in b"*IDN?\r\n" {
+        all.extend(send(&mut c, &[*b]));
+    }
+    assert_eq!(all, ["biasjig,console,0,0.1.0", "ok"]);
+    // An unfinished last line is answered at the end of input.
+    let mut out = Out::default();
+    c.feed(b"*IDN?", &mut out).unwrap();
+    assert!(out.0.is_empty());
+    c.finish(&mut out).unwrap();
+    assert!(String::from_utf8(out.0).unwrap().ends_with("ok\r\n"));
+}
+
+#[test]
+fn echo_and_editing() {
+    let (mut c, _) = console();
+    let mut out = Out::default();
+    c.feed(b"echo on\r\n", &mut out).unwrap();
+    assert_eq!(String::from_utf8(out.0).unwrap(), "ok\r\n");
+    let mut out = Out::default();
+    c.feed(b"*IDX\x08N?\r\n", &mut out).unwrap();
+    assert_eq!(
+        String::from_utf8(out.0).unwrap(),
+        "*IDX\x08 \x08N?\r\nbiasjig,console,0,0.1.0\r\nok\r\n"
+    );
+    let mut out = Out::default();
+    c.feed(b"echo off\n", &mut out).unwrap();
+    assert_eq!(String::from_utf8(out.0).unwrap(), "echo off\r\nok\r\n");
+    assert_eq!(send(&mut c, b"x\n"), ["err UNKNOWN command: x: see help"]);
+}
+
+/// A writer that fails (or takes nothing) after some bytes.
+struct Broken {
+    left: usize,
+    zero: bool,
+}
+
+impl embedded_io::ErrorType for Broken {
+    type Error = embedded_io::ErrorKind;
+}
+
+impl embedded_io::Write for Broken {
+    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
+        if self.left == 0 {
+            return if self.zero {
+                Ok(0)
+            } else {
+                Err(embedded_io::ErrorKind::BrokenPipe)
+            };
+        }
+        let n = buf.len().min(self.left);
+        self.left -= n;
+        Ok(n)
+    }
+    fn flush(&mut self) -> Result<(), Self::Error> {
+        Ok(())
+    }
+}
+
+#[test]
+fn write_errors_end_the_call() {
+    use biasjig_core::console::WriteError;
+    for zero in [false, true] {
+        for left in [0, 3, 40, 200] {
+            let (mut c, _) = console();
+            let mut w = Broken { left, zero };
+            let r = c.feed(b"help\nstage\n", &mut w);
+            if zero {
+                assert_eq!(r, Err(WriteError::Zero));
+            } else {
+                assert_eq!(r, Err(WriteError::Io(embedded_io::ErrorKind::BrokenPipe)));
+            }
+        }
+    }
+}
+
+#[test]
+fn replies_stay_within_bounds() {
+    use biasjig_core::console::MAX_DATA_LINES;
+    let (mut c, _) = console();
+    for mode in ["human", "machine"] {
+        ok(&mut c, &format!("mode {mode}"));
+        for line in [
+            "help",
+            "help set",
+            "stage",
+            "profile",
+            "parts",
+            "parts 5",
+            "predict",
+            "calibrate",
+            "meter",
+            "hash",
+            "measure",
+        ] {
+            let (data, status) = cmd(&mut c, line);
+            assert_eq!(status, "ok", "{line}: nothing cut");
+            assert!(data.len() <= MAX_DATA_LINES, "{line}: {} lines", data.len());
+        }
+    }
+}
