@@ -399,9 +399,12 @@ fn draw_of(x: &[f64; FACTORS]) -> Draw {
 /// The stage and conditions of one draw.
 fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
     let mut s = *stage;
-    for (r, v) in Resistor::ALL.iter().zip(d.r) {
-        s.part_mut(*r).value = v;
-    }
+    let [r1, r2, rc, re1, re2] = d.r;
+    s.r1.value = r1;
+    s.r2.value = r2;
+    s.rc.value = rc;
+    s.re1.value = re1;
+    s.re2.value = re2;
     s.vcc.value = d.vcc;
     (
         s,
@@ -723,6 +726,8 @@ pub struct Histogram {
     pub below: u32,
     /// Values above `hi`.
     pub above: u32,
+    /// Bins per unit of the value: `BINS / (hi − lo)`.
+    scale: f64,
 }
 
 impl Histogram {
@@ -744,6 +749,7 @@ impl Histogram {
             bins: [0; BINS],
             below: 0,
             above: 0,
+            scale: BINS as f64 / (hi - lo),
         }
     }
 
@@ -754,7 +760,7 @@ impl Histogram {
 
     /// Count one value.
     pub fn add(&mut self, v: f64) {
-        let pos = (v - self.lo) * (BINS as f64 / (self.hi - self.lo));
+        let pos = (v - self.lo) * self.scale;
         if pos >= 0.0 && pos < BINS as f64 {
             // In range, so the conversion is exact truncation below BINS.
             if let Some(b) = self.bins.get_mut(pos as usize) {
@@ -838,6 +844,7 @@ impl Stats {
     }
 
     /// Add one value (non-finite values are ignored).
+    #[inline]
     pub fn add(&mut self, v: f64) {
         if !v.is_finite() {
             return;
@@ -979,6 +986,7 @@ impl Deviates {
     }
 
     /// Uniform on [-1, 1): the top 53 bits times 2⁻⁵², less one (exactly 2·unit − 1).
+    #[inline(always)]
     fn symmetric(&mut self) -> f64 {
         (self.rng.next_u64() >> 11) as f64 * (2.0 * TWO_POW_M53) - 1.0
     }
@@ -991,6 +999,7 @@ impl Deviates {
     }
 
     /// A relative deviation in [-1, 1] (times the tolerance gives the part's deviation).
+    #[inline]
     fn deviation(&mut self, dist: Distribution) -> f64 {
         match dist {
             Distribution::Uniform => self.symmetric(),
@@ -1009,11 +1018,22 @@ impl Deviates {
 
     /// One draw of every factor, always in the same order (R1, R2, RC, RE1, RE2, VCC, hFE, ambient).
     fn draw(&mut self, stage: &Stage, b: &Box8, dist: Distribution) -> Draw {
-        let mut r = [0.0; 5];
-        for (slot, res) in r.iter_mut().zip(Resistor::ALL) {
-            let p = stage.part(res);
-            *slot = p.value * (1.0 + p.tol * self.deviation(dist));
-        }
+        let uniform = dist == Distribution::Uniform;
+        let mut vary = |p: crate::stage::Part| {
+            let d = if uniform {
+                self.symmetric()
+            } else {
+                self.deviation(dist)
+            };
+            p.value * (1.0 + p.tol * d)
+        };
+        let r = [
+            vary(stage.r1),
+            vary(stage.r2),
+            vary(stage.rc),
+            vary(stage.re1),
+            vary(stage.re2),
+        ];
         let vcc = stage.vcc.value * (1.0 + stage.vcc.tol * self.deviation(dist));
         let between = |d: &mut Self, k: usize| {
             let lo = b.lo.get(k).copied().unwrap_or(0.0);
@@ -1079,10 +1099,17 @@ pub fn monte_carlo_observed(
         let d = dev.draw(stage, &b, var.distribution);
         match evaluate(stage, profile, &d, signal) {
             Ok(s) => {
-                for n in Node::ALL {
-                    if n != Node::Gain || signal {
-                        mc.nodes.get_mut(n).add(*s.values.get(n));
-                    }
+                // Field by field: this is the hot loop of the run.
+                let (m, v) = (&mut mc.nodes, &s.values);
+                m.vb.add(v.vb);
+                m.ve.add(v.ve);
+                m.vc.add(v.vc);
+                m.vbe.add(v.vbe);
+                m.vce.add(v.vce);
+                m.ic.add(v.ic);
+                m.swing.add(v.swing);
+                if signal {
+                    m.gain.add(v.gain);
                 }
                 if s.region == Region::Active {
                     mc.active += 1;
