@@ -34,7 +34,8 @@ use parse::Mode;
 use record::Settings;
 use reply::{write_all, Fail, Reply, Text};
 
-pub use judge::LastCheck;
+pub use commands::Num;
+pub use judge::{LastCheck, LISTED_FAULTS};
 
 use crate::design::{Candidates, Requirement};
 use crate::device::{is_from_vbe, Profile};
