@@ -111,7 +111,11 @@ fn cmd<J: Jig>(c: &mut Console<J, MemoryStore, FixedClock>, line: &str) -> (Vec<
     let status = lines.pop().unwrap_or_default();
     assert!(is_status(&status), "{line:?} -> {status:?}");
     assert!(lines.iter().all(|l| !is_status(l)), "{line:?}: {lines:?}");
-    assert!(lines.len() <= MAX_DATA_LINES, "{line:?}: {} lines", lines.len());
+    assert!(
+        lines.len() <= MAX_DATA_LINES,
+        "{line:?}: {} lines",
+        lines.len()
+    );
     assert!(lines
         .iter()
         .chain([&status])
@@ -169,7 +173,10 @@ fn a_good_board_passes_with_the_core_windows() {
     let stage = default_stage();
     let rd = readings_of(&stage, None);
     let d = ok(&mut c, &check_line(&rd));
-    assert_eq!(d[0], format!("vcc=12 vb={} ve={} vc={} source=typed", rd.vb, rd.ve, rd.vc));
+    assert_eq!(
+        d[0],
+        format!("vcc=12 vb={} ve={} vc={} source=typed", rd.vb, rd.ve, rd.vc)
+    );
     assert_eq!(d[1], "verdict=pass");
     let lim = limits(
         &stage,
@@ -211,7 +218,10 @@ fn a_good_board_passes_with_the_core_windows() {
     // Human mode: a verdict for a glance.
     ok(&mut c, "mode human");
     let h = ok(&mut c, &check_line(&rd)).join("\n");
-    assert!(h.contains("PASS") && h.contains("window") && h.contains("hFE"), "{h}");
+    assert!(
+        h.contains("PASS") && h.contains("window") && h.contains("hFE"),
+        "{h}"
+    );
 }
 
 #[test]
@@ -228,7 +238,14 @@ fn a_faulty_board_fails_and_names_the_core_diagnosis() {
         let rd = readings_of(&stage, Some(fault));
         let d = ok(&mut c, &check_line(&rd));
         assert!(d[1].starts_with("verdict=fail explained="), "{d:?}");
-        let dg = diagnose(&stage, &profile, &rd, &Meter::default(), &Variation::at(25.0)).unwrap();
+        let dg = diagnose(
+            &stage,
+            &profile,
+            &rd,
+            &Meter::default(),
+            &Variation::at(25.0),
+        )
+        .unwrap();
         let listed: Vec<_> = dg.faults().take(6).collect();
         let shown: Vec<&String> = d.iter().filter(|l| l.starts_with("fault=")).collect();
         assert_eq!(shown.len(), listed.len());
@@ -270,7 +287,10 @@ fn a_faulty_board_fails_and_names_the_core_diagnosis() {
         );
         ok(&mut c, "mode human");
         let h = ok(&mut c, "diagnose").join("\n");
-        assert!(h.contains("Likely faults") || h.contains("No single fault"), "{h}");
+        assert!(
+            h.contains("Likely faults") || h.contains("No single fault"),
+            "{h}"
+        );
         assert!(h.contains("1. "), "{h}");
     }
 }
@@ -354,7 +374,8 @@ fn test_measures_then_checks() {
     let d = ok(&mut c, "test");
     assert_eq!(value(&d, "verdict"), "fail");
     assert!(
-        d.iter().any(|l| l.starts_with("fault=RC mode=open ") || l.contains("RC:open")),
+        d.iter()
+            .any(|l| l.starts_with("fault=RC mode=open ") || l.contains("RC:open")),
         "{d:?}"
     );
     err(&mut c, "test 0", "VALUE");
@@ -453,7 +474,11 @@ fn requirement_show_set_and_errors() {
     err(&mut c, "requirement series E7", "VALUE");
     err(&mut c, "requirement temp 80", "RANGE");
     err(&mut c, "requirement gain", "USAGE");
-    assert_eq!(c.requirement().gain, 20.0, "a refused change changes nothing");
+    assert_eq!(
+        c.requirement().gain,
+        20.0,
+        "a refused change changes nothing"
+    );
     ok(&mut c, "mode human");
     assert!(ok(&mut c, "requirement").join(" ").contains("gain 20"));
     ok(&mut c, "*RST");
@@ -479,7 +504,10 @@ fn design_and_pick_make_the_core_candidates_the_stage() {
     assert!(e.contains("allowed 1 to"), "{e}");
     let (_, s) = cmd(&mut c, "pick 1");
     let h = design_hash(&first.stage, &default_profile());
-    assert_eq!(s, format!("ok the stage is candidate 1, design hash {h:016x}"));
+    assert_eq!(
+        s,
+        format!("ok the stage is candidate 1, design hash {h:016x}")
+    );
     assert_eq!(value(&ok(&mut c, "hash"), "hash"), format!("{h:016x}"));
     let st = ok(&mut c, "stage");
     assert_eq!(value(&st, "r1"), first.stage.r1.value.to_string());
@@ -490,7 +518,10 @@ fn design_and_pick_make_the_core_candidates_the_stage() {
     assert_eq!(value(&ok(&mut c, &check_line(&rd)), "verdict"), "pass");
     // A requirement that cannot be met.
     ok(&mut c, "requirement ic-max 10u");
-    assert!(c.candidates().is_empty(), "a new requirement drops the candidates");
+    assert!(
+        c.candidates().is_empty(),
+        "a new requirement drops the candidates"
+    );
     let e = err(&mut c, "design", "NO_DESIGN");
     assert!(e.contains("budget") || e.contains("IC"), "{e}");
     err(&mut c, "pick 1", "NO_DESIGN");
@@ -524,10 +555,22 @@ fn spread_matches_the_spread_module() {
     .unwrap();
     for node in spread::Node::ALL {
         let n = node.name();
-        assert_eq!(num(&d, &format!("worst={n} "), "min"), wc.nodes.get(node).min);
-        assert_eq!(num(&d, &format!("worst={n} "), "max"), wc.nodes.get(node).max);
-        assert_eq!(num(&d, &format!("mc={n} "), "mean"), mc.nodes.get(node).mean);
-        assert_eq!(num(&d, &format!("mc={n} "), "std"), mc.nodes.get(node).std());
+        assert_eq!(
+            num(&d, &format!("worst={n} "), "min"),
+            wc.nodes.get(node).min
+        );
+        assert_eq!(
+            num(&d, &format!("worst={n} "), "max"),
+            wc.nodes.get(node).max
+        );
+        assert_eq!(
+            num(&d, &format!("mc={n} "), "mean"),
+            mc.nodes.get(node).mean
+        );
+        assert_eq!(
+            num(&d, &format!("mc={n} "), "std"),
+            mc.nodes.get(node).std()
+        );
     }
     assert_eq!(value(&d, "runs"), "200");
     assert_eq!(value(&d, "seed"), "7");

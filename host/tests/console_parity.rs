@@ -244,7 +244,11 @@ fn compare(label: &str, data: &[String], doc: &Value) {
     assert_eq!(nodes, 6, "{label}");
     let d = data.iter().find(|l| l.starts_with("derived ")).unwrap();
     for k in ["ic", "ib", "ie", "vbe", "vce", "beta"] {
-        same(&format!("{label} derived {k}"), get(d, k), &doc["derived"][k]);
+        same(
+            &format!("{label} derived {k}"),
+            get(d, k),
+            &doc["derived"][k],
+        );
     }
     assert_eq!(get(d, "region"), doc["derived"]["region"], "{label}");
     let faults: Vec<&String> = data.iter().filter(|l| l.starts_with("fault=")).collect();
@@ -254,12 +258,22 @@ fn compare(label: &str, data: &[String], doc: &Value) {
         assert_eq!(get(l, "fault"), f["part"], "{label}");
         assert_eq!(get(l, "mode"), f["mode"], "{label}");
         same(&format!("{label} score"), get(l, "score"), &f["score"]);
-        same(&format!("{label} estimate"), get(l, "estimate"), &f["estimate"]);
+        same(
+            &format!("{label} estimate"),
+            get(l, "estimate"),
+            &f["estimate"],
+        );
         let eq: Vec<String> = f["equivalent"]
             .as_array()
             .unwrap()
             .iter()
-            .map(|e| format!("{}:{}", e["part"].as_str().unwrap(), e["mode"].as_str().unwrap()))
+            .map(|e| {
+                format!(
+                    "{}:{}",
+                    e["part"].as_str().unwrap(),
+                    e["mode"].as_str().unwrap()
+                )
+            })
             .collect();
         let shown = get(l, "equivalent");
         if eq.is_empty() {
@@ -285,7 +299,11 @@ fn console_check_equals_check_json() {
         }
         let replies = console_session(&lines);
         for (data, status) in &replies[..setup] {
-            assert!(status.starts_with("ok"), "{}: setup {status} {data:?}", c.name);
+            assert!(
+                status.starts_with("ok"),
+                "{}: setup {status} {data:?}",
+                c.name
+            );
         }
         for ((rd, fault), (data, status)) in boards.iter().zip(FAULTS).zip(&replies[setup..]) {
             let label = format!("{} {fault:?}", c.name);
@@ -298,7 +316,11 @@ fn console_check_equals_check_json() {
             }
             assert_eq!(status, "ok", "{label}: {data:?}");
             let doc = doc.unwrap_or_else(|| panic!("{label}: no JSON: {stderr}"));
-            assert_eq!(code, if doc["verdict"] == "pass" { 0 } else { 1 }, "{label}");
+            assert_eq!(
+                code,
+                if doc["verdict"] == "pass" { 0 } else { 1 },
+                "{label}"
+            );
             compare(&label, data, &doc);
             if doc["verdict"] == "fail" {
                 failed_boards += 1;
@@ -308,7 +330,10 @@ fn console_check_equals_check_json() {
             }
         }
     }
-    assert!(failed_boards >= 8, "faulty boards were compared: {failed_boards}");
+    assert!(
+        failed_boards >= 8,
+        "faulty boards were compared: {failed_boards}"
+    );
 }
 
 #[test]

@@ -44,10 +44,7 @@ pub struct LastCheck {
 }
 
 fn refused(why: Implausible) -> Fail {
-    Fail::new(
-        Code::Implausible,
-        format_args!("readings refused: {why}"),
-    )
+    Fail::new(Code::Implausible, format_args!("readings refused: {why}"))
 }
 
 fn spread_fail(what: &str, e: SpreadError) -> Fail {

@@ -19,8 +19,8 @@
 //! (store records and the design hash).
 
 mod commands;
-mod judge;
 pub mod jig;
+mod judge;
 pub mod line;
 pub mod parse;
 pub mod record;
@@ -39,8 +39,8 @@ pub use judge::{LastCheck, LISTED_FAULTS};
 
 use crate::design::{Candidates, Requirement};
 use crate::device::{is_from_vbe, Profile};
-use crate::series::Series;
 use crate::limits::Meter;
+use crate::series::Series;
 use crate::stage::{Part, Polarity, Readings, Stage};
 
 /// Longest input line, bytes (without its line end).

@@ -396,7 +396,10 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
             Err(BoardError::Link(e)) => return Err(link_error(e)),
         };
         let time = boardlog::now_utc();
-        boardlog::append(log, &record(&serial, st.design_id(), st.hash, &reply, &time))?;
+        boardlog::append(
+            log,
+            &record(&serial, st.design_id(), st.hash, &reply, &time),
+        )?;
         write!(out, "{}", banner(&reply)).ok();
         boards += 1;
     }
@@ -650,7 +653,7 @@ mod tests {
             assert!(r["time"].as_str().unwrap().ends_with('Z'), "{r}");
             assert_eq!(r["readings"]["vcc"], 12.0);
             assert_eq!(r["nodes"].as_object().unwrap().len(), 6);
-            assert_eq!(r["derived"]["region"].is_string(), true);
+            assert!(r["derived"]["region"].is_string());
             if i % 2 == 1 {
                 let f = &r["faults"][0];
                 let named = f["part"] == "R2"
