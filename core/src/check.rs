@@ -225,8 +225,9 @@ pub fn plausible(stage: &Stage, meter: &Meter, r: &Readings) -> Result<(), Impla
             return Err(Implausible::BelowGround(node));
         }
     }
-    let same =
-        |a: f64, b: f64| libm::fabs(a - b) <= reading_error(meter, a) + reading_error(meter, b);
+    // Identical to the meter's resolution (its fixed offset), not merely close: single faults
+    // such as a collector-emitter short can put all three nodes within a few tens of millivolts.
+    let same = |a: f64, b: f64| libm::fabs(a - b) <= 2.0 * meter.offset;
     if same(r.vb, r.ve) && same(r.ve, r.vc) && same(r.vb, r.vc) {
         return Err(Implausible::AllEqual);
     }

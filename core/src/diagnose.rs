@@ -39,8 +39,9 @@ pub const CAPACITY: usize = 27;
 pub const FIT_PENALTY: f64 = 3.0;
 /// Above this χ² of the best hypothesis, no single fault explains the readings.
 pub const UNEXPLAINED_CHI2: f64 = 30.0;
-/// How far a `low` or `high` value is searched from the nominal: a factor each way.
-pub const VALUE_RANGE: f64 = 1000.0;
+/// How far a `low` or `high` value is searched from the nominal: a factor each way (two decades:
+/// beyond that a technician treats the part as open or shorted).
+pub const VALUE_RANGE: f64 = 100.0;
 /// Probe and reading noise assumed on top of the meter's error bound, V (standard deviation).
 pub const PROBE_NOISE_V: f64 = 0.002;
 /// Extra standard deviation of a node left floating by the fault (nothing but the meter holds

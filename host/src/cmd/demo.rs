@@ -34,9 +34,30 @@ pub struct Cmd {
 
 /// The demo requirement as command-line arguments (the scenario of the product brief).
 const REQUIREMENT: [&str; 24] = [
-    "--vcc", "12", "--gain", "15", "--rl", "15k", "--rs", "600", "--ic-max", "2m", "--f-low", "5",
-    "--temp-min", "-10", "--temp-max", "55", "--beta", "180", "--beta-min", "100", "--beta-max",
-    "300", "--series", "E24",
+    "--vcc",
+    "12",
+    "--gain",
+    "15",
+    "--rl",
+    "15k",
+    "--rs",
+    "600",
+    "--ic-max",
+    "2m",
+    "--f-low",
+    "5",
+    "--temp-min",
+    "-10",
+    "--temp-max",
+    "55",
+    "--beta",
+    "180",
+    "--beta-min",
+    "100",
+    "--beta-max",
+    "300",
+    "--series",
+    "E24",
 ];
 
 /// The invented transistor profile beyond hFE: VBE 0.65 V at 1 mA, VCE(sat) 0.2 V, 300 mW.
@@ -45,7 +66,10 @@ const TRANSISTOR: [&str; 6] = ["--vbe", "0.65", "--vce-sat", "0.2", "--power-rat
 /// Boards of the lot that carry a fault, by position, and the fault.
 fn planted_fault(index: u32, stage: &Stage) -> Option<(Option<Fault>, Option<DeviceFault>)> {
     match index {
-        7 => Some((Some(Fault::Value(Resistor::Rc, stage.rc.value * 10.0)), None)),
+        7 => Some((
+            Some(Fault::Value(Resistor::Rc, stage.rc.value * 10.0)),
+            None,
+        )),
         19 => Some((Some(Fault::Open(Resistor::Re2)), None)),
         31 => Some((None, Some(DeviceFault::BeShort))),
         _ => None,
@@ -54,7 +78,10 @@ fn planted_fault(index: u32, stage: &Stage) -> Option<(Option<Fault>, Option<Dev
 
 fn heading(title: &str) {
     println!();
-    println!("━━ {title} {}", "━".repeat(70usize.saturating_sub(title.chars().count())));
+    println!(
+        "━━ {title} {}",
+        "━".repeat(70usize.saturating_sub(title.chars().count()))
+    );
 }
 
 fn run(args: &[&str]) -> CmdResult {
@@ -91,10 +118,19 @@ fn board(
     if let Some(f) = rf {
         s = s.with_fault(f);
     }
-    let cond = Conditions { temp_c: temp, beta_25: beta, fault: df };
+    let cond = Conditions {
+        temp_c: temp,
+        beta_25: beta,
+        fault: df,
+    };
     let op = solve(&s, &doc.profile, cond).ok()?;
     let mut noisy = |v: f64| v + uniform(-0.003, 0.003);
-    Some(Readings { vcc: noisy(s.vcc.value), vb: noisy(op.vb), ve: noisy(op.ve), vc: noisy(op.vc) })
+    Some(Readings {
+        vcc: noisy(s.vcc.value),
+        vb: noisy(op.vb),
+        ve: noisy(op.ve),
+        vc: noisy(op.vc),
+    })
 }
 
 impl Cmd {
@@ -105,9 +141,15 @@ impl Cmd {
                 "--json: the demo prints a report for a person; run its commands with --json instead",
             ));
         }
-        let dir = self.out.clone().unwrap_or_else(|| std::env::temp_dir().join("biasjig-demo"));
+        let dir = self
+            .out
+            .clone()
+            .unwrap_or_else(|| std::env::temp_dir().join("biasjig-demo"));
         std::fs::create_dir_all(&dir).map_err(|e| {
-            CliError::usage(format!("--out: {}: cannot create the folder: {e}", dir.display()))
+            CliError::usage(format!(
+                "--out: {}: cannot create the folder: {e}",
+                dir.display()
+            ))
         })?;
         let design = dir.join("preamp.toml");
         let readings = dir.join("lot.csv");
@@ -116,7 +158,10 @@ impl Cmd {
         // A fresh log for every demo run, so the report speaks of this lot only.
         if log.exists() {
             std::fs::remove_file(&log).map_err(|e| {
-                CliError::usage(format!("--out: {}: cannot replace the log: {e}", log.display()))
+                CliError::usage(format!(
+                    "--out: {}: cannot replace the log: {e}",
+                    log.display()
+                ))
             })?;
         }
 
@@ -125,7 +170,9 @@ impl Cmd {
         println!("IC <= 2 mA, ambient -10 to +55 °C, E24 5 % resistors, E6 20 % capacitors;");
         println!("an invented small-signal NPN profile: hFE 100 to 300, VBE 0.65 V at 1 mA.");
         println!("Files go to {}.", dir.display());
-        println!("Safety: de-energise boards before changing probes or parts; keep jig inputs within");
+        println!(
+            "Safety: de-energise boards before changing probes or parts; keep jig inputs within"
+        );
         println!("their rated range; no mains-connected circuits without isolation.");
 
         heading("1. Design: from the requirement to standard parts");
@@ -138,8 +185,17 @@ impl Cmd {
 
         heading("2. Spread: tolerance, hFE spread and ambient");
         run(&[
-            "spread", "--design", &design_s, "--runs", "5000", "--seed", "7", "--temp-min", "-10",
-            "--temp-max", "55",
+            "spread",
+            "--design",
+            &design_s,
+            "--runs",
+            "5000",
+            "--seed",
+            "7",
+            "--temp-min",
+            "-10",
+            "--temp-max",
+            "55",
         ])?;
 
         heading("3. Test limits for the station (0.5 % + 5 mV meter)");
@@ -154,7 +210,11 @@ impl Cmd {
             let fault = planted_fault(i, &doc.stage);
             if let Some(r) = board(&doc, &mut rng, fault) {
                 let serial = format!("PM-{i:04}");
-                let _ = writeln!(csv, "{serial},{:.4},{:.4},{:.4},{:.4}", r.vcc, r.vb, r.ve, r.vc);
+                let _ = writeln!(
+                    csv,
+                    "{serial},{:.4},{:.4},{:.4},{:.4}",
+                    r.vcc, r.vb, r.ve, r.vc
+                );
                 if fault.is_some() && first_failed.is_none() {
                     first_failed = Some((serial, r));
                 }
@@ -177,18 +237,28 @@ impl Cmd {
 
         if let Some((serial, r)) = first_failed {
             heading("6. One failed board in detail");
-            let (vcc, vb, ve, vc) =
-                (format!("{:.4}", r.vcc), format!("{:.4}", r.vb), format!("{:.4}", r.ve), format!("{:.4}", r.vc));
+            let (vcc, vb, ve, vc) = (
+                format!("{:.4}", r.vcc),
+                format!("{:.4}", r.vb),
+                format!("{:.4}", r.ve),
+                format!("{:.4}", r.vc),
+            );
             let code = run(&[
-                "check", "--design", &design_s, "--vcc", &vcc, "--vb", &vb, "--ve", &ve, "--vc", &vc,
-                "--serial", &serial,
+                "check", "--design", &design_s, "--vcc", &vcc, "--vb", &vb, "--ve", &ve, "--vc",
+                &vc, "--serial", &serial,
             ])?;
             if code != EXIT_FAIL {
                 println!("(the planted fault on {serial} was not caught)");
             }
         }
         heading("Done");
-        println!("design {}, readings {}, log {}, report {}", design.display(), readings.display(), log.display(), html.display());
+        println!(
+            "design {}, readings {}, log {}, report {}",
+            design.display(),
+            readings.display(),
+            log.display(),
+            html.display()
+        );
         // The demo itself succeeded whether or not boards of the lot failed.
         let _ = lot;
         Ok(EXIT_OK)
