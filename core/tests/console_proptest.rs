@@ -35,15 +35,20 @@ const SEEDS: &[&str] = &[
     "predict",
     "hash",
     "requirement",
-    "design",
+    // The costly commands (design, spread, a judged check with its diagnosis) appear in forms
+    // the parser or the plausibility check answer at once, so that a million lines stay quick;
+    // their replies are covered by `judged_readings_keep_the_framing` and console_judge.rs.
+    "design now",
     "pick 2",
-    "spread",
+    "spread 0",
+    "spread 5000 1",
     "limits",
     "meter",
     "meter gain 1%",
     "measure",
     "measure 64",
-    "check 12 2.05 1.39 5.7",
+    "check 3 2.05 1.39 5.7",
+    "check 12 2.05 1.39",
     "test",
     "diagnose",
     "readings",
@@ -272,5 +277,33 @@ proptest! {
     #[test]
     fn parser_takes_any_text(s in "\\PC{0,140}") {
         let _ = parse::parse(&s);
+    }
+}
+
+proptest! {
+    // Few cases: each may run the limits and a diagnosis (about 1000 solves).
+    #![proptest_config(ProptestConfig { cases: 48, ..ProptestConfig::default() })]
+
+    #[test]
+    fn judged_readings_keep_the_framing(
+        vb in -1.0f64..13.0,
+        ve in -1.0f64..13.0,
+        vc in -1.0f64..13.0,
+        vcc in 8.0f64..16.0,
+        machine in any::<bool>(),
+    ) {
+        let mut c = Console::new(Identity::new("console", "0"), NoJig, MemoryStore::default(), Fixed);
+        let mut out = Out(Vec::new());
+        if machine {
+            c.feed(b"mode machine\n", &mut out).unwrap();
+        }
+        let line = format!("check {vcc} {vb} {ve} {vc}\ndiagnose\n");
+        c.feed(line.as_bytes(), &mut out).unwrap();
+        prop_assert_eq!(audit(&out.0), 2 + usize::from(machine));
+        let text = String::from_utf8(out.0).unwrap();
+        prop_assert!(!text.contains("cut at the size limit"), "{}", text);
+        if machine && !text.contains("err IMPLAUSIBLE") {
+            prop_assert!(text.contains("verdict="), "{}", text);
+        }
     }
 }

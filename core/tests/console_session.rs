@@ -354,27 +354,6 @@ fn limits_come_from_the_limits_module() {
 }
 
 #[test]
-fn seams_answer_not_built() {
-    let (mut c, _) = console();
-    for line in [
-        "requirement",
-        "requirement gain 15",
-        "design",
-        "pick 1",
-        "spread",
-        "check 12 2 1.35 5.5",
-        "test",
-        "diagnose",
-    ] {
-        let e = err(&mut c, line, "NOT_BUILT");
-        assert!(e.contains("not in this build"), "{e}");
-    }
-    err(&mut c, "pick 0", "VALUE");
-    err(&mut c, "check 12 2 1.35", "USAGE");
-    err(&mut c, "check 12 2 x 5", "VALUE");
-}
-
-#[test]
 fn meter_measure_readings_calibrate_inject() {
     let (mut c, _) = console();
     ok(&mut c, "mode machine");

@@ -4,7 +4,7 @@
 //! ```toml
 //! version = 1
 //! id = "pump-preamp-a"
-//! hash = "9c1e5d0b7a3f2e41"          # FNV-1a 64 over the parts and the transistor (optional)
+//! hash = "9c1e5d0b7a3f2e41"          # design hash of the parts and transistor (optional)
 //!
 //! [requirement]                       # optional: what the design was made for
 //! vcc = 12.0
@@ -36,10 +36,10 @@
 //! of a newer version is refused; a hash that does not match the parts and transistor is refused
 //! (the file was edited after it was written).
 
-use std::fmt::Write as _;
 use std::path::Path;
 
-use biasjig_core::design::{fnv1a64, Requirement};
+use biasjig_core::console::record::design_hash;
+use biasjig_core::design::Requirement;
 use biasjig_core::device::Profile;
 use biasjig_core::series::Series;
 use biasjig_core::stage::{Part, Polarity, Stage};
@@ -189,62 +189,12 @@ struct FileParts {
     ce: Option<FilePart>,
 }
 
-/// The canonical text the hash is taken over: polarity, supply, every part (value and
-/// tolerance), load, source and every transistor figure, in a fixed order, numbers in Rust's
-/// shortest round-trip form.
-pub fn canonical(stage: &Stage, profile: &Profile) -> String {
-    let mut s = String::new();
-    let pol = match stage.polarity {
-        Polarity::Npn => "npn",
-        Polarity::Pnp => "pnp",
-    };
-    let _ = write!(s, "polarity={pol};vcc={};", stage.vcc.value);
-    for (name, p) in [
-        ("r1", stage.r1),
-        ("r2", stage.r2),
-        ("rc", stage.rc),
-        ("re1", stage.re1),
-        ("re2", stage.re2),
-    ] {
-        let _ = write!(s, "{name}={}/{};", p.value, p.tol);
-    }
-    for (name, c) in [("cin", stage.cin), ("cout", stage.cout), ("ce", stage.ce)] {
-        match c {
-            Some(p) => {
-                let _ = write!(s, "{name}={}/{};", p.value, p.tol);
-            }
-            None => {
-                let _ = write!(s, "{name}=ideal;");
-            }
-        }
-    }
-    match stage.rl {
-        Some(rl) => {
-            let _ = write!(s, "rl={rl};");
-        }
-        None => s.push_str("rl=open;"),
-    }
-    let _ = write!(
-        s,
-        "rs={};beta={}/{}/{};beta_rev={};beta_tc={};is={};early={};vce_sat={};power={};tj_max={}",
-        stage.rs,
-        profile.beta_min,
-        profile.beta_typ,
-        profile.beta_max,
-        profile.beta_rev,
-        profile.beta_tc,
-        profile.is_25,
-        profile.early.map_or("none".to_string(), |v| v.to_string()),
-        profile.vce_sat,
-        profile.power_25,
-        profile.tj_max
-    );
-    s
-}
-
-/// The design hash: FNV-1a 64 of [`canonical`], 16 lower-case hex digits.
+/// The design hash: the core's one definition
+/// ([`biasjig_core::console::record::design_hash`], FNV-1a 64 over the canonical binary encoding
+/// of the stage and the transistor), as 16 lower-case hex digits. The instrument's `hash` answer
+/// and the board log carry the same number for the same stage and profile.
 pub fn hash(stage: &Stage, profile: &Profile) -> String {
-    format!("{:016x}", fnv1a64(canonical(stage, profile).as_bytes()))
+    format!("{:016x}", design_hash(stage, profile))
 }
 
 fn bad(path: &Path, key: &str, msg: impl std::fmt::Display) -> CliError {
@@ -548,6 +498,17 @@ mod tests {
             series: [e24, e24, e24, e24, e24, e6, e6, e6],
             predicted: None,
         }
+    }
+
+    #[test]
+    fn the_hash_is_the_instruments() {
+        let d = doc();
+        let h = hash(&d.stage, &d.profile);
+        assert_eq!(h, format!("{:016x}", design_hash(&d.stage, &d.profile)));
+        assert_eq!(h.len(), 16);
+        let mut other = d.stage;
+        other.rc.value = 36e3;
+        assert_ne!(hash(&other, &d.profile), h, "the hash follows the parts");
     }
 
     #[test]

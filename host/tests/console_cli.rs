@@ -85,3 +85,143 @@ fn ports_lists_without_failing() {
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert!(v["ports"].is_array());
 }
+
+fn biasjig(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_biasjig"))
+        .args(args)
+        .output()
+        .expect("biasjig runs")
+}
+
+/// VB, VE, VC the engine predicts for the design file with `extra` flags (a faulty part).
+fn predicted(design: &str, extra: &[&str]) -> [f64; 3] {
+    let mut args = vec!["analyze", "--design", design, "--json"];
+    args.extend_from_slice(extra);
+    let out = biasjig(&args);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let dc = &v["dc"];
+    [
+        dc["vb"].as_f64().unwrap(),
+        dc["ve"].as_f64().unwrap(),
+        dc["vc"].as_f64().unwrap(),
+    ]
+}
+
+#[test]
+fn station_manual_runs_end_to_end() {
+    let dir = std::env::temp_dir().join(format!("biasjig-manual-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let design = dir.join("demo.toml");
+    let log = dir.join("boards.jsonl");
+    let _ = std::fs::remove_file(&log);
+    let d = design.to_str().unwrap();
+    // The demo scenario's requirement (invented).
+    let out = biasjig(&[
+        "design",
+        "--vcc",
+        "12",
+        "--gain",
+        "15",
+        "--rl",
+        "15k",
+        "--rs",
+        "600",
+        "--f-low",
+        "5",
+        "--temp-min",
+        "-10",
+        "--temp-max",
+        "55",
+        "-o",
+        d,
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let file: toml::Table = std::fs::read_to_string(&design).unwrap().parse().unwrap();
+    let file_hash = file["hash"].as_str().unwrap().to_owned();
+    let rc = file["parts"]["rc"]["value"].as_float().unwrap();
+    let good = predicted(d, &[]);
+    let slip = format!("{}", rc * 10.0);
+    let bad = predicted(d, &["--rc", &slip]);
+    let line = |v: [f64; 3]| format!("12 {:?} {:?} {:?}", v[0], v[1], v[2]);
+    let input = format!(
+        "SN-1\n{}\nSN-2\n{}\nSN-3\n3 1 1 1\nSN-4\n12 x 1 1\n\n",
+        line(good),
+        line(bad)
+    );
+    let mut child = Command::new(env!("CARGO_BIN_EXE_biasjig"))
+        .args(["station", "--manual", "--design", d, "--log"])
+        .arg(&log)
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(input.as_bytes())
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    let screen = String::from_utf8_lossy(&out.stderr).into_owned();
+    assert_eq!(out.status.code(), Some(0), "{screen}");
+    assert!(
+        screen.contains("P A S S") && screen.contains("F A I L"),
+        "{screen}"
+    );
+    assert!(
+        screen.contains("not checked") && screen.contains("IMPLAUSIBLE"),
+        "{screen}"
+    );
+    assert!(screen.contains("2 boards logged"), "{screen}");
+    let text = std::fs::read_to_string(&log).unwrap();
+    let recs: Vec<serde_json::Value> = text
+        .lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect();
+    assert_eq!(recs.len(), 2, "{text}");
+    assert_eq!(recs[0]["serial"], "SN-1");
+    assert_eq!(recs[0]["verdict"], "pass");
+    assert_eq!(recs[1]["serial"], "SN-2");
+    assert_eq!(recs[1]["verdict"], "fail");
+    // One design hash: the file's, the log's and the instrument's.
+    for r in &recs {
+        assert_eq!(r["design"]["hash"], file_hash.as_str(), "{r}");
+        assert_eq!(r["readings"]["vcc"], 12.0);
+    }
+    // The record agrees with `biasjig check --json` for the same design and readings.
+    let (vb, ve, vc) = (
+        format!("{:?}", bad[0]),
+        format!("{:?}", bad[1]),
+        format!("{:?}", bad[2]),
+    );
+    let out = biasjig(&[
+        "check", "--design", d, "--vcc", "12", "--vb", &vb, "--ve", &ve, "--vc", &vc, "--json",
+    ]);
+    assert_eq!(out.status.code(), Some(1));
+    let want: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(recs[1]["verdict"], want["verdict"]);
+    assert_eq!(recs[1]["faults"][0]["part"], want["faults"][0]["part"]);
+    assert_eq!(recs[1]["faults"][0]["mode"], want["faults"][0]["mode"]);
+    assert_eq!(recs[1]["faults"][0]["part"], "RC", "{}", recs[1]);
+    for node in ["vb", "ve", "vc", "vbe", "vce", "ic"] {
+        let a = recs[1]["nodes"][node]["low"].as_f64().unwrap();
+        let b = want["nodes"][node]["low"].as_f64().unwrap();
+        assert!(
+            (a - b).abs() <= 1e-12 * b.abs().max(1e-9),
+            "{node}: {a} vs {b}"
+        );
+        assert_eq!(recs[1]["nodes"][node]["ok"], want["nodes"][node]["ok"]);
+    }
+}

@@ -65,7 +65,11 @@ pub const COMMANDS: [(&str, &str, &str); 27] = [
         "candidate part lists for the requirement",
     ),
     ("pick", "pick N", "take candidate N as the stage"),
-    ("spread", "spread", "worst case and Monte Carlo spread"),
+    (
+        "spread",
+        "spread [RUNS] [SEED]",
+        "worst case and Monte Carlo spread (runs 1..2000)",
+    ),
     (
         "limits",
         "limits",
@@ -81,9 +85,17 @@ pub const COMMANDS: [(&str, &str, &str); 27] = [
         "measure [SAMPLES]",
         "read the nodes with the jig (1..1024 averaged)",
     ),
-    ("check", "check VCC VB VE VC", "judge typed readings"),
+    (
+        "check",
+        "check VCC VB VE VC",
+        "judge typed readings; the likely fault when it fails",
+    ),
     ("test", "test [SAMPLES]", "measure, then check"),
-    ("diagnose", "diagnose", "likely faults of the last readings"),
+    (
+        "diagnose",
+        "diagnose",
+        "likely faults of the last board, again",
+    ),
     ("readings", "readings", "show the last readings"),
     (
         "calibrate",
@@ -139,7 +151,7 @@ impl fmt::Display for Num {
 }
 
 /// A name in capitals.
-struct Upper<'a>(&'a str);
+pub(super) struct Upper<'a>(pub(super) &'a str);
 
 impl fmt::Display for Upper<'_> {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -151,7 +163,7 @@ impl fmt::Display for Upper<'_> {
 }
 
 /// An optional number for machine data lines.
-struct Opt(Option<f64>);
+pub(super) struct Opt(pub(super) Option<f64>);
 
 impl fmt::Display for Opt {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -163,7 +175,7 @@ impl fmt::Display for Opt {
 }
 
 /// A value with unit for people, or `none`.
-struct Human(Option<f64>, &'static str);
+pub(super) struct Human(pub(super) Option<f64>, pub(super) &'static str);
 
 impl fmt::Display for Human {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -175,7 +187,7 @@ impl fmt::Display for Human {
 }
 
 /// A tolerance (fraction) as a percentage for people.
-struct Pct(f64);
+pub(super) struct Pct(pub(super) f64);
 
 impl fmt::Display for Pct {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -209,15 +221,8 @@ fn jig_fail(e: JigError) -> Fail {
     }
 }
 
-fn not_built(what: &str, waits_on: &str) -> Outcome {
-    Err(Fail::new(
-        Code::NotBuilt,
-        format_args!("{what}: not in this build (needs {waits_on})"),
-    ))
-}
-
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
-    fn editable(&self) -> Result<(), Fail> {
+    pub(super) fn editable(&self) -> Result<(), Fail> {
         if self.is_locked() {
             Err(Fail::new(
                 Code::Locked,
@@ -261,6 +266,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.editable()?;
                 self.settings = default_settings();
                 self.readings = None;
+                self.last = None;
+                self.requirement = super::default_requirement();
+                self.candidates.clear();
                 self.cal_low = [None; 4];
                 Ok(None)
             }
@@ -270,7 +278,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             }
             Command::Set(s) => {
                 self.editable()?;
-                self.set(s)
+                self.set(s)?;
+                self.last = None;
+                Ok(None)
             }
             Command::Profile => {
                 self.show_profile(r);
@@ -290,21 +300,23 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 }
                 Ok(None)
             }
-            Command::Requirement(set) => {
-                if set.is_some() {
-                    self.editable()?;
-                }
-                not_built("requirement", "the design module")
+            Command::Requirement(None) => {
+                self.show_requirement(r);
+                Ok(None)
+            }
+            Command::Requirement(Some(set)) => {
+                self.editable()?;
+                self.set_requirement(set)
             }
             Command::Design => {
                 self.editable()?;
-                not_built("design", "the design module")
+                self.design(r)
             }
-            Command::Pick(_) => {
+            Command::Pick(n) => {
                 self.editable()?;
-                not_built("pick", "the design module")
+                self.pick(n)
             }
-            Command::Spread => not_built("spread", "the spread module"),
+            Command::Spread(runs, seed) => self.spread(runs, seed, r),
             Command::Limits => self.show_limits(r),
             Command::Meter(None) => {
                 self.show_meter(r);
@@ -312,16 +324,27 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             }
             Command::Meter(Some(m)) => {
                 self.editable()?;
-                self.set_meter(m)
+                self.set_meter(m)?;
+                self.last = None;
+                Ok(None)
             }
             Command::Measure(n) => {
                 let rd = self.measure(n)?;
                 show_readings(&rd, Source::Measured, r);
                 Ok(None)
             }
-            Command::Check(_) => not_built("check", "the check module"),
-            Command::Test(_) => not_built("test", "the check module"),
-            Command::Diagnose => not_built("diagnose", "the diagnose module"),
+            Command::Check(rd) => {
+                self.judge(rd, Source::Typed)?;
+                self.show_check(r);
+                Ok(None)
+            }
+            Command::Test(n) => {
+                let rd = self.measure(n)?;
+                self.judge(rd, Source::Measured)?;
+                self.show_check(r);
+                Ok(None)
+            }
+            Command::Diagnose => self.diagnose(r),
             Command::Readings => match self.readings {
                 Some((rd, src)) => {
                     show_readings(&rd, src, r);
@@ -409,15 +432,39 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 *slot = v.map(|v| Part::new(v, tol.unwrap_or(old_tol)));
             }
             Setting::Polarity(p) => st.polarity = p,
-            Setting::Temp(t) => {
-                if !(t.is_finite() && (-55.0..=150.0).contains(&t)) {
-                    return Err(Fail::new(
-                        Code::Range,
-                        format_args!("temp: {t}: allowed -55 to 150 °C"),
-                    ));
-                }
-                next.temp_c = t;
+            Setting::Temp(t) | Setting::TempMin(t) | Setting::TempMax(t)
+                if !(t.is_finite() && (-55.0..=150.0).contains(&t)) =>
+            {
+                return Err(Fail::new(
+                    Code::Range,
+                    format_args!("temp: {t}: allowed -55 to 150 °C"),
+                ));
             }
+            Setting::Temp(t) => {
+                next.temp_c = t;
+                next.temp_min_c = t;
+                next.temp_max_c = t;
+            }
+            Setting::TempMin(t) if t > next.temp_c => {
+                return Err(Fail::new(
+                    Code::Range,
+                    format_args!(
+                        "temp-min: {t}: must be at most the ambient {} °C",
+                        Num(next.temp_c)
+                    ),
+                ));
+            }
+            Setting::TempMax(t) if t < next.temp_c => {
+                return Err(Fail::new(
+                    Code::Range,
+                    format_args!(
+                        "temp-max: {t}: must be at least the ambient {} °C",
+                        Num(next.temp_c)
+                    ),
+                ));
+            }
+            Setting::TempMin(t) => next.temp_min_c = t,
+            Setting::TempMax(t) => next.temp_max_c = t,
             Setting::Beta(b) => {
                 pr.beta_min = b;
                 pr.beta_typ = b;
@@ -480,7 +527,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(None)
     }
 
-    fn measure(&mut self, samples: u16) -> Result<Readings, Fail> {
+    pub(super) fn measure(&mut self, samples: u16) -> Result<Readings, Fail> {
         let rd = self.jig.measure(samples).map_err(jig_fail)?;
         if ![rd.vcc, rd.vb, rd.ve, rd.vc].iter().all(|v| v.is_finite()) {
             return Err(Fail::new(
@@ -640,10 +687,12 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         ];
         if r.machine() {
             r.data(format_args!(
-                "polarity={pol} vcc={} vcc_tol={} temp={}",
+                "polarity={pol} vcc={} vcc_tol={} temp={} temp_min={} temp_max={}",
                 Num(s.vcc.value),
                 Num(s.vcc.tol),
-                Num(self.settings.temp_c)
+                Num(self.settings.temp_c),
+                Num(self.settings.temp_min_c),
+                Num(self.settings.temp_max_c)
             ));
             for which in Resistor::ALL {
                 let p = s.part(which);
@@ -672,7 +721,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             ));
         } else {
             r.data(format_args!(
-                "{}  VCC {} ±{}  ambient {} °C",
+                "{}  VCC {} ±{}  ambient {} °C (range {} to {} °C)",
                 if s.polarity == Polarity::Npn {
                     "NPN"
                 } else {
@@ -680,7 +729,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 },
                 Eng::new(s.vcc.value, "V"),
                 Pct(s.vcc.tol),
-                Num(self.settings.temp_c)
+                Num(self.settings.temp_c),
+                Num(self.settings.temp_min_c),
+                Num(self.settings.temp_max_c)
             ));
             for which in Resistor::ALL {
                 let p = s.part(which);
@@ -835,7 +886,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
 
     fn show_limits<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
         let st = &self.settings;
-        let var = crate::spread::Variation::at(st.temp_c);
+        let var = st.variation();
         let l = crate::limits::limits(&st.stage, &st.profile, &var, &st.meter, st.stage.vcc.value)
             .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
         let rows = [
@@ -1029,7 +1080,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 }
 
-fn show_readings<W: Write>(rd: &Readings, src: Source, r: &mut Reply<'_, W>) {
+pub(super) fn show_readings<W: Write>(rd: &Readings, src: Source, r: &mut Reply<'_, W>) {
     let src = match src {
         Source::Measured => "measured",
         Source::Typed => "typed",

@@ -20,6 +20,7 @@
 
 mod commands;
 pub mod jig;
+mod judge;
 pub mod line;
 pub mod parse;
 pub mod record;
@@ -33,8 +34,13 @@ use parse::Mode;
 use record::Settings;
 use reply::{write_all, Fail, Reply, Text};
 
+pub use commands::Num;
+pub use judge::{LastCheck, LISTED_FAULTS};
+
+use crate::design::{Candidates, Requirement};
 use crate::device::{is_from_vbe, Profile};
 use crate::limits::Meter;
+use crate::series::Series;
 use crate::stage::{Part, Polarity, Readings, Stage};
 
 /// Longest input line, bytes (without its line end).
@@ -74,8 +80,6 @@ pub enum Code {
     Pin,
     /// Too many wrong PINs: wait before the next try.
     Wait,
-    /// This build has no such function yet.
-    NotBuilt,
     /// This unit's jig cannot do that.
     NotSupported,
     /// The jig failed.
@@ -86,6 +90,10 @@ pub enum Code {
     Store,
     /// No readings yet: measure or check first.
     NoReadings,
+    /// Readings that cannot come from a powered, correctly probed board: refused, not judged.
+    Implausible,
+    /// No design: the requirement cannot be met, or `pick` before `design`.
+    NoDesign,
 }
 
 impl Code {
@@ -102,17 +110,18 @@ impl Code {
             Self::Locked => "LOCKED",
             Self::Pin => "PIN",
             Self::Wait => "WAIT",
-            Self::NotBuilt => "NOT_BUILT",
             Self::NotSupported => "NOT_SUPPORTED",
             Self::Jig => "JIG",
             Self::Solve => "SOLVE",
             Self::Store => "STORE",
             Self::NoReadings => "NO_READINGS",
+            Self::Implausible => "IMPLAUSIBLE",
+            Self::NoDesign => "NO_DESIGN",
         }
     }
 
     /// Every code, for the protocol document and tests.
-    pub const ALL: [Code; 16] = [
+    pub const ALL: [Code; 17] = [
         Self::Unknown,
         Self::Usage,
         Self::Value,
@@ -123,12 +132,13 @@ impl Code {
         Self::Locked,
         Self::Pin,
         Self::Wait,
-        Self::NotBuilt,
         Self::NotSupported,
         Self::Jig,
         Self::Solve,
         Self::Store,
         Self::NoReadings,
+        Self::Implausible,
+        Self::NoDesign,
     ];
 }
 
@@ -222,9 +232,31 @@ pub fn default_settings() -> Settings {
         stage: default_stage(),
         profile: default_profile(),
         temp_c: 25.0,
+        temp_min_c: 25.0,
+        temp_max_c: 25.0,
         meter: Meter::default(),
         pin: None,
         pin_failures: 0,
+    }
+}
+
+/// The starting requirement: the demo scenario (invented): 12 V, gain magnitude 15 into
+/// 15 kΩ from 600 Ω, low corner at most 5 Hz, 2 mA budget, ambient -10 to 55 °C, E24 5 %
+/// resistors, E6 20 % capacitors.
+pub fn default_requirement() -> Requirement {
+    Requirement {
+        rl: Some(15e3),
+        rs: 600.0,
+        ic_max: 2e-3,
+        f_low: Some(5.0),
+        temp: 25.0,
+        temp_min: -10.0,
+        temp_max: 55.0,
+        series: Series::E24,
+        tol: 0.05,
+        cap_series: Series::E6,
+        cap_tol: 0.20,
+        ..Requirement::new(12.0, 15.0)
     }
 }
 
@@ -252,6 +284,10 @@ pub struct Console<J: Jig, S: Store, C: Clock> {
     /// Low calibration points taken: (applied V, raw V) per channel.
     cal_low: [Option<(f64, f64)>; 4],
     readings: Option<(Readings, Source)>,
+    /// The last judged board (cleared when the stage or the meter changes).
+    last: Option<LastCheck>,
+    requirement: Requirement,
+    candidates: Candidates,
     echo: bool,
     echo_after_cr: bool,
     mode: Mode,
@@ -273,6 +309,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             calibration: Calibration::default(),
             cal_low: [None; 4],
             readings: None,
+            last: None,
+            requirement: default_requirement(),
+            candidates: Candidates::new(),
             echo: false,
             echo_after_cr: false,
             mode: Mode::Human,
@@ -310,6 +349,21 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// The last readings and where they came from.
     pub fn readings(&self) -> Option<(Readings, Source)> {
         self.readings
+    }
+
+    /// The last judged board: readings, verdict and (when it failed) the diagnosis.
+    pub fn last_check(&self) -> Option<&LastCheck> {
+        self.last.as_ref()
+    }
+
+    /// The design requirement.
+    pub fn requirement(&self) -> &Requirement {
+        &self.requirement
+    }
+
+    /// The candidates of the last `design`, best first.
+    pub fn candidates(&self) -> &Candidates {
+        &self.candidates
     }
 
     /// The data-line style.

@@ -3,7 +3,7 @@
 
 use super::jig::Channel;
 use super::Code;
-use crate::series::BandCount;
+use crate::series::{BandCount, Series};
 use crate::stage::{Capacitor, DeviceFault, Fault, Polarity, Readings, Resistor};
 use crate::units;
 
@@ -13,6 +13,14 @@ pub const MAX_WORDS: usize = 8;
 pub const DEFAULT_SAMPLES: u16 = 16;
 /// Most conversions averaged by `measure` and `test`.
 pub const MAX_SAMPLES: u16 = 1024;
+/// Default number of Monte Carlo runs of `spread`.
+pub const DEFAULT_RUNS: u32 = 500;
+/// Most Monte Carlo runs of `spread` (bounded so that one reply stays within about a second on
+/// the instrument).
+pub const MAX_RUNS: u32 = 2000;
+/// Default seed of `spread`.
+pub const DEFAULT_SEED: u64 = 1;
+
 /// Shortest and longest PIN, digits.
 pub const PIN_DIGITS: core::ops::RangeInclusive<usize> = 4..=8;
 
@@ -33,8 +41,12 @@ pub enum Setting {
     Capacitor(Capacitor, Option<f64>, Option<f64>),
     /// NPN or PNP.
     Polarity(Polarity),
-    /// Ambient, °C.
+    /// Ambient, °C (the range collapses to it).
     Temp(f64),
+    /// Lowest ambient of the range, °C.
+    TempMin(f64),
+    /// Highest ambient of the range, °C.
+    TempMax(f64),
     /// hFE at 25 °C: min, typ and max all set to it.
     Beta(f64),
     /// Lowest hFE at 25 °C.
@@ -57,6 +69,98 @@ pub enum Setting {
     PowerRating(f64),
     /// Junction temperature where the derated power reaches zero, °C.
     TjMax(f64),
+}
+
+/// One change made by `requirement NAME VALUE`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ReqSetting {
+    /// NPN or PNP.
+    Polarity(Polarity),
+    /// Supply, V.
+    Vcc(f64),
+    /// Gain magnitude v(load)/v(source EMF).
+    Gain(f64),
+    /// Load, Ω (`None`: no load).
+    Load(Option<f64>),
+    /// Source resistance, Ω.
+    Source(f64),
+    /// Collector-current budget, A.
+    IcMax(f64),
+    /// Least undistorted peak-to-peak swing at the load, V.
+    Swing(f64),
+    /// Highest low corner, Hz (`None`: the design's default).
+    FLow(Option<f64>),
+    /// Nominal ambient, °C.
+    Temp(f64),
+    /// Lowest ambient, °C.
+    TempMin(f64),
+    /// Highest ambient, °C.
+    TempMax(f64),
+    /// Resistor series.
+    Series(Series),
+    /// Resistor tolerance, fraction.
+    Tol(f64),
+    /// Capacitor series.
+    CapSeries(Series),
+    /// Capacitor tolerance, fraction.
+    CapTol(f64),
+}
+
+/// The names `requirement NAME VALUE` accepts.
+pub const REQUIREMENT_NAMES: &str =
+    "polarity vcc gain rl rs ic-max swing f-low temp temp-min temp-max series tol cap-series cap-tol";
+
+fn requirement<'a>(name: &'a str, v: &'a str) -> Result<ReqSetting, ParseError<'a>> {
+    let n = |s: &str| name.eq_ignore_ascii_case(s);
+    let celsius = |v: &'a str| {
+        let t = v
+            .strip_suffix("°C")
+            .or_else(|| v.strip_suffix('C'))
+            .unwrap_or(v);
+        signed(name, t)
+    };
+    let series = |v: &'a str| {
+        Series::parse(v).map_err(|_| err(Code::Value, name, v, "E3 E6 E12 E24 E48 E96 or E192"))
+    };
+    Ok(if n("polarity") {
+        ReqSetting::Polarity(if v.eq_ignore_ascii_case("npn") {
+            Polarity::Npn
+        } else if v.eq_ignore_ascii_case("pnp") {
+            Polarity::Pnp
+        } else {
+            return Err(err(Code::Value, name, v, "npn or pnp"));
+        })
+    } else if n("vcc") {
+        ReqSetting::Vcc(value(name, v)?)
+    } else if n("gain") {
+        ReqSetting::Gain(value(name, v)?)
+    } else if n("rl") {
+        ReqSetting::Load(optional(name, v)?)
+    } else if n("rs") {
+        ReqSetting::Source(value(name, v)?)
+    } else if n("ic-max") {
+        ReqSetting::IcMax(value(name, v)?)
+    } else if n("swing") {
+        ReqSetting::Swing(value(name, v)?)
+    } else if n("f-low") {
+        ReqSetting::FLow(optional(name, v)?)
+    } else if n("temp") {
+        ReqSetting::Temp(celsius(v)?)
+    } else if n("temp-min") {
+        ReqSetting::TempMin(celsius(v)?)
+    } else if n("temp-max") {
+        ReqSetting::TempMax(celsius(v)?)
+    } else if n("series") {
+        ReqSetting::Series(series(v)?)
+    } else if n("tol") {
+        ReqSetting::Tol(percent(name, v)?)
+    } else if n("cap-series") {
+        ReqSetting::CapSeries(series(v)?)
+    } else if n("cap-tol") {
+        ReqSetting::CapTol(percent(name, v)?)
+    } else {
+        return Err(err(Code::Value, "requirement", name, REQUIREMENT_NAMES));
+    })
 }
 
 /// One change made by `meter`.
@@ -144,13 +248,13 @@ pub enum Command<'a> {
     /// `hash`: the design hash.
     Hash,
     /// `requirement [NAME VALUE]`.
-    Requirement(Option<(&'a str, &'a str)>),
+    Requirement(Option<ReqSetting>),
     /// `design`.
     Design,
     /// `pick N` (1-based).
     Pick(u8),
-    /// `spread`.
-    Spread,
+    /// `spread [RUNS] [SEED]`: Monte Carlo runs and seed.
+    Spread(u32, u64),
     /// `limits`.
     Limits,
     /// `meter [gain P | offset V | divider P]`.
@@ -289,8 +393,8 @@ fn capacitor(name: &str) -> Option<Capacitor> {
 }
 
 /// The names `set` accepts, for the help text and error messages.
-pub const SET_NAMES: &str = "vcc r1 r2 rc re1 re2 tol rl rs cin cout ce polarity temp beta \
-beta-min beta-max beta-rev beta-tc vbe is early vce-sat power-rating tj-max";
+pub const SET_NAMES: &str = "vcc r1 r2 rc re1 re2 tol rl rs cin cout ce polarity temp temp-min \
+temp-max beta beta-min beta-max beta-rev beta-tc vbe is early vce-sat power-rating tj-max";
 
 fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
     let usage = "set NAME VALUE [TOL%], NAME one of the names in `help set`";
@@ -333,12 +437,19 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
         } else {
             return Err(err(Code::Value, name, v, "npn or pnp"));
         })
-    } else if n("temp") {
+    } else if n("temp") || n("temp-min") || n("temp-max") {
         let t = v
             .strip_suffix("°C")
             .or_else(|| v.strip_suffix('C'))
             .unwrap_or(v);
-        Setting::Temp(signed(name, t)?)
+        let t = signed(name, t)?;
+        if n("temp") {
+            Setting::Temp(t)
+        } else if n("temp-min") {
+            Setting::TempMin(t)
+        } else {
+            Setting::TempMax(t)
+        }
     } else if n("beta") {
         Setting::Beta(value(name, v)?)
     } else if n("beta-min") {
@@ -454,7 +565,7 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
     if is("requirement") {
         return match args {
             [] => Ok(Command::Requirement(None)),
-            [n, v] => Ok(Command::Requirement(Some((n, v)))),
+            [n, v] => Ok(Command::Requirement(Some(requirement(n, v)?))),
             _ => Err(err(Code::Usage, word, "", "requirement [NAME VALUE]")),
         };
     }
@@ -471,7 +582,30 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
         };
     }
     if is("spread") {
-        return none(Command::Spread);
+        let runs = match args.first() {
+            None => DEFAULT_RUNS,
+            Some(t) => match t.parse::<u32>() {
+                Ok(n) if (1..=MAX_RUNS).contains(&n) => n,
+                _ => {
+                    return Err(err(
+                        Code::Value,
+                        "runs",
+                        t,
+                        "a whole number of runs from 1 to 2000",
+                    ))
+                }
+            },
+        };
+        let seed = match args.get(1) {
+            None => DEFAULT_SEED,
+            Some(t) => t
+                .parse::<u64>()
+                .map_err(|_| err(Code::Value, "seed", t, "a whole number from 0"))?,
+        };
+        if args.len() > 2 {
+            return Err(err(Code::Usage, word, "", "spread [RUNS] [SEED]"));
+        }
+        return Ok(Command::Spread(runs, seed));
     }
     if is("limits") {
         return none(Command::Limits);

@@ -20,7 +20,7 @@ use crate::limits::Meter;
 use crate::stage::{Part, Polarity, Stage};
 
 /// Record format version.
-const VERSION: u8 = 1;
+const VERSION: u8 = 2;
 /// FNV-1a 64 offset basis.
 const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
 /// FNV-1a 64 prime.
@@ -214,6 +214,10 @@ pub struct Settings {
     pub profile: Profile,
     /// Nominal ambient, °C.
     pub temp_c: f64,
+    /// Lowest ambient of the range the limits, spread and diagnosis cover, °C.
+    pub temp_min_c: f64,
+    /// Highest ambient of that range, °C.
+    pub temp_max_c: f64,
     /// Meter and jig accuracy.
     pub meter: Meter,
     /// The PIN while locked (`None`: unlocked).
@@ -257,12 +261,19 @@ fn slot_letter(slot: Slot) -> u8 {
 }
 
 impl Settings {
+    /// The ambient range as the spread, limits and diagnosis take it.
+    pub fn variation(&self) -> crate::spread::Variation {
+        crate::spread::Variation::between(self.temp_min_c, self.temp_max_c)
+    }
+
     /// Encode into a store record.
     pub fn encode(&self, rec: &mut [u8; RECORD_LEN]) {
-        // 295 bytes of 376: always fits (tested).
+        // 311 bytes of 376: always fits (tested).
         let _fits = seal(Slot::Settings, rec, |w| {
             put_design(w, &self.stage, &self.profile);
             w.f64(self.temp_c);
+            w.f64(self.temp_min_c);
+            w.f64(self.temp_max_c);
             w.f64(self.meter.gain_error);
             w.f64(self.meter.offset);
             w.f64(self.meter.divider_tol);
@@ -282,6 +293,8 @@ impl Settings {
         let mut r = open(Slot::Settings, rec)?;
         let (stage, profile) = get_design(&mut r)?;
         let temp_c = r.f64()?;
+        let temp_min_c = r.f64()?;
+        let temp_max_c = r.f64()?;
         let meter = Meter {
             gain_error: r.f64()?,
             offset: r.f64()?,
@@ -301,6 +314,8 @@ impl Settings {
             stage,
             profile,
             temp_c,
+            temp_min_c,
+            temp_max_c,
             meter,
             pin,
             pin_failures,

@@ -141,6 +141,11 @@ impl<'w, W: Write> Reply<'w, W> {
         self.emit(b"\r\n");
     }
 
+    /// Note that part of the reply was left out at the size limit (the status says so).
+    pub fn mark_cut(&mut self) {
+        self.cut = true;
+    }
+
     /// One data line (indented by two spaces in human mode).
     pub fn data(&mut self, args: fmt::Arguments<'_>) {
         self.put(true, args);

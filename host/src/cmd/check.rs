@@ -118,15 +118,9 @@ impl Station {
     }
 }
 
-/// A stable hash of the stage and profile (FNV-1a 64 of their exact values), hex.
+/// The design hash of the stage and profile (the one of design files and the instrument), hex.
 pub fn stage_hash(stage: &Stage, profile: &Profile) -> String {
-    let text = format!("{stage:?}{profile:?}");
-    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
-    for b in text.bytes() {
-        h ^= u64::from(b);
-        h = h.wrapping_mul(0x0000_0100_0000_01b3);
-    }
-    format!("{h:016x}")
+    crate::designfile::hash(stage, profile)
 }
 
 /// The pass windows at the measured supply (worst case over the parts, hFE and the ambient

@@ -6,8 +6,11 @@
 //! push the design again and repeat the board; a record is written only from one complete,
 //! verified reply, once, so nothing is lost or doubled. `--manual` runs the same loop against
 //! the console engine in this process, with the readings typed from a meter.
+//!
+//! The log is the board log of `biasjig check --log` ([`crate::boardlog`]: append-only JSON
+//! Lines, torn tails skipped), and each record has the shape of `biasjig check --json` plus
+//! `time`, `serial`, `design` (`id`, `hash`) and `readings`.
 
-use std::fs::OpenOptions;
 use std::io::{BufRead, Write};
 use std::path::{Path, PathBuf};
 use std::time::Duration;
@@ -17,6 +20,7 @@ use biasjig_core::device::Profile;
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
+use crate::boardlog;
 use crate::cmd::console::{link_error, local_console, sync_budget};
 use crate::designfile;
 use crate::error::{CliError, CmdResult, EXIT_OK};
@@ -49,9 +53,31 @@ pub struct Cmd {
     pub sync_timeout: f64,
 }
 
-/// The `set` lines that put a stage and profile on the instrument (exact values: shortest
-/// round-trip decimal forms).
-pub fn push_lines(stage: &Stage, profile: &Profile, temp_c: f64) -> Vec<String> {
+/// The ambient of a design: nominal, lowest and highest, °C.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Ambient {
+    /// Nominal ambient, °C.
+    pub nominal: f64,
+    /// Lowest ambient, °C.
+    pub min: f64,
+    /// Highest ambient, °C.
+    pub max: f64,
+}
+
+impl Ambient {
+    /// One ambient, no range.
+    pub fn at(t: f64) -> Self {
+        Self {
+            nominal: t,
+            min: t,
+            max: t,
+        }
+    }
+}
+
+/// The `set` lines that put a stage, profile and ambient range on the instrument (exact values:
+/// shortest round-trip decimal forms).
+pub fn push_lines(stage: &Stage, profile: &Profile, ambient: Ambient) -> Vec<String> {
     let pct = |t: f64| format!("{:e}%", t * 100.0);
     let mut v = vec![
         format!(
@@ -98,16 +124,19 @@ pub fn push_lines(stage: &Stage, profile: &Profile, temp_c: f64) -> Vec<String> 
     v.push(format!("set vce-sat {:e}", profile.vce_sat));
     v.push(format!("set power-rating {:e}", profile.power_25));
     v.push(format!("set tj-max {:e}", profile.tj_max));
-    v.push(format!("set temp {temp_c:e}"));
+    // `set temp` collapses the range; then widen it.
+    v.push(format!("set temp {:e}", ambient.nominal));
+    v.push(format!("set temp-min {:e}", ambient.min));
+    v.push(format!("set temp-max {:e}", ambient.max));
     v
 }
 
 /// The stage and profile exactly as the instrument holds them after [`push_lines`] (the text
 /// forms are parsed the same way), for the hash check.
-pub fn expected_hash(stage: &Stage, profile: &Profile, temp_c: f64) -> Option<u64> {
+pub fn expected_hash(stage: &Stage, profile: &Profile, ambient: Ambient) -> Option<u64> {
     let mut c = local_console();
     let mut sink = Vec::new();
-    for l in push_lines(stage, profile, temp_c) {
+    for l in push_lines(stage, profile, ambient) {
         let mut out = embedded_io_adapters::std::FromStd::new(&mut sink);
         c.line(&l, &mut out).ok()?;
     }
@@ -248,11 +277,14 @@ fn num(s: Option<&str>) -> Value {
 }
 
 /// The log record of one board from the machine reply of `test`/`check`: the shape of
-/// `biasjig check --json` plus serial, time, design and hash.
-pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, unix_s: f64) -> Value {
+/// `biasjig check --json` (`verdict`, `nodes`, `derived`, `faults`, `explained` when diagnosed)
+/// plus `time` (ISO 8601 UTC), `serial`, `design` (`id`, `hash`) and `readings`.
+pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) -> Value {
     let mut nodes = Map::new();
     let mut faults = Vec::new();
     let mut derived = Map::new();
+    let mut readings = Map::new();
+    let mut explained = None;
     for l in &reply.data {
         let kv: Map<String, Value> = l
             .split(' ')
@@ -278,42 +310,38 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, unix_s: f64)
                 .unwrap_or_default();
             faults.push(
                 json!({"part": part, "mode": get("mode"), "score": num(get("score")),
-                               "estimate": num(get("estimate")), "equivalent": equivalent}),
+                       "estimate": num(get("estimate")), "equivalent": equivalent}),
             );
-        } else if get("derived").is_some() {
-            for k in ["ic", "ib", "vbe", "vce", "beta"] {
+        } else if l.starts_with("derived ") {
+            for k in ["ic", "ib", "ie", "vbe", "vce", "beta"] {
                 derived.insert(k.into(), num(get(k)));
             }
             derived.insert(
                 "region".into(),
                 get("region").map_or(Value::Null, Value::from),
             );
+        } else if get("source").is_some() {
+            for k in ["vcc", "vb", "ve", "vc"] {
+                readings.insert(k.into(), num(get(k)));
+            }
+        } else if get("verdict").is_some() {
+            explained = get("explained").map(|e| e == "1");
         }
     }
-    json!({
-        "serial": serial,
-        "time": unix_s,
-        "design": design,
-        "hash": format!("{hash:016x}"),
+    let mut doc = json!({
         "verdict": reply.value("verdict"),
         "nodes": nodes,
         "derived": derived,
         "faults": faults,
-    })
-}
-
-/// Append one complete line to the log and flush it to the disk.
-pub fn append(log: &Path, rec: &Value) -> Result<(), CliError> {
-    let mut line = rec.to_string();
-    line.push('\n');
-    let mut f = OpenOptions::new()
-        .create(true)
-        .append(true)
-        .open(log)
-        .map_err(|e| CliError::usage(format!("--log: {}: {e}", log.display())))?;
-    f.write_all(line.as_bytes())
-        .and_then(|()| f.sync_data())
-        .map_err(|e| CliError::usage(format!("--log: {}: {e}", log.display())))
+        "time": time,
+        "serial": serial,
+        "design": {"id": design, "hash": format!("{hash:016x}")},
+        "readings": readings,
+    });
+    if let (Some(e), Some(obj)) = (explained, doc.as_object_mut()) {
+        obj.insert("explained".into(), json!(e));
+    }
+    doc
 }
 
 /// The verdict, large.
@@ -367,10 +395,11 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
             Err(BoardError::Refused(m)) => return Err(CliError::link(format!("instrument: {m}"))),
             Err(BoardError::Link(e)) => return Err(link_error(e)),
         };
-        let now = std::time::SystemTime::now()
-            .duration_since(std::time::UNIX_EPOCH)
-            .map_or(0.0, |d| d.as_secs_f64());
-        append(log, &record(&serial, st.design_id(), st.hash, &reply, now))?;
+        let time = boardlog::now_utc();
+        boardlog::append(
+            log,
+            &record(&serial, st.design_id(), st.hash, &reply, &time),
+        )?;
         write!(out, "{}", banner(&reply)).ok();
         boards += 1;
     }
@@ -382,8 +411,13 @@ impl Cmd {
     pub fn run(&self, _g: &Global) -> CmdResult {
         let budget = sync_budget(self.sync_timeout)?;
         let doc = designfile::load(&self.design)?;
-        let push = push_lines(&doc.stage, &doc.profile, doc.temp_c);
-        let hash = expected_hash(&doc.stage, &doc.profile, doc.temp_c).ok_or_else(|| {
+        let ambient = Ambient {
+            nominal: doc.temp_c,
+            min: doc.temp_min,
+            max: doc.temp_max,
+        };
+        let push = push_lines(&doc.stage, &doc.profile, ambient);
+        let hash = expected_hash(&doc.stage, &doc.profile, ambient).ok_or_else(|| {
             CliError::field(
                 "--design",
                 self.design.display(),
@@ -464,25 +498,41 @@ mod tests {
     use super::*;
     use biasjig_core::console::jig::MemoryStore;
     use biasjig_core::console::{default_profile, default_stage, Console, Identity, Jig, JigError};
-    use biasjig_core::stage::{Readings, Resistor};
+    use biasjig_core::solve::{solve, Conditions};
+    use biasjig_core::stage::{Fault, Readings, Resistor};
     use embedded_io_adapters::std::FromStd;
     use std::sync::atomic::{AtomicUsize, Ordering};
     use std::sync::Arc;
 
     use crate::cmd::console::StdClock;
 
-    /// Board i reads VB = 2.0 V when i is even (pass) and 0.5 V when odd (fail).
+    /// The stage the station pushes in these tests.
+    fn pushed() -> Stage {
+        let mut stage = default_stage();
+        stage.r1.value = 56e3;
+        stage
+    }
+
+    /// Board i is a good board when i is even and has R2 open when i is odd: its readings are
+    /// the engine's operating point of the pushed stage with that fault.
     struct Boards(Arc<AtomicUsize>);
 
     impl Jig for Boards {
         fn measure(&mut self, _samples: u16) -> Result<Readings, JigError> {
             let i = self.0.load(Ordering::SeqCst);
-            let vb = if i % 2 == 0 { 2.0 } else { 0.5 };
+            let stage = pushed();
+            let board = if i % 2 == 0 {
+                stage
+            } else {
+                stage.with_fault(Fault::Open(Resistor::R2))
+            };
+            let p = default_profile();
+            let op = solve(&board, &p, Conditions::typical(&p)).map_err(|_| JigError::Hardware)?;
             Ok(Readings {
-                vcc: 12.0,
-                vb,
-                ve: vb - 0.65,
-                vc: 6.0,
+                vcc: stage.vcc.value,
+                vb: op.vb,
+                ve: op.ve,
+                vc: op.vc,
             })
         }
     }
@@ -496,10 +546,10 @@ mod tests {
         )
     }
 
-    /// The fake instrument: the console engine behind a memory pair. It answers `test` from
-    /// `measure` (the engine's own `test` waits on the check module): verdict by VB. Every
-    /// `reset_every`-th `test` it resets instead (forgets the design, says a boot line of
-    /// garbage, answers nothing); every `garbage_every`-th `test` it answers garbage first.
+    /// The fake instrument: the real console engine behind a memory pair; `test` is the
+    /// engine's own (measure, check, diagnose). Every `reset_every`-th `test` it resets instead
+    /// (forgets the design, says a boot line of garbage, answers nothing); every
+    /// `garbage_every`-th `test` it answers garbage first.
     fn instrument(
         mut port: MemoryPort,
         board: Arc<AtomicUsize>,
@@ -532,28 +582,8 @@ mod tests {
                     if tests % garbage_every == 0 {
                         out.extend_from_slice(b"\x01\x02garbage\r\n");
                     }
-                    let mut data = Vec::new();
-                    c.line("measure", &mut FromStd::new(&mut data)).unwrap();
-                    let d = String::from_utf8(data).unwrap();
-                    let vb: f64 = d
-                        .split(' ')
-                        .find_map(|kv| kv.strip_prefix("vb="))
-                        .unwrap()
-                        .parse()
-                        .unwrap();
-                    let pass = (1.9..=2.1).contains(&vb);
-                    out.extend_from_slice(
-                        format!(
-                            "verdict={}\r\nnode=vb measured={vb} low=1.9 high=2.1 ok={}\r\n{}ok\r\n",
-                            if pass { "pass" } else { "fail" },
-                            u8::from(pass),
-                            if pass { "" } else { "fault=R2 mode=short score=0.9 estimate=none equivalent=none\r\n" }
-                        )
-                        .as_bytes(),
-                    );
-                } else {
-                    c.line(&text, &mut FromStd::new(&mut out)).unwrap();
                 }
+                c.line(&text, &mut FromStd::new(&mut out)).unwrap();
                 if port.send(&out).is_err() {
                     return;
                 }
@@ -567,21 +597,21 @@ mod tests {
         let board = Arc::new(AtomicUsize::new(0));
         let b2 = board.clone();
         std::thread::spawn(move || instrument(unit, b2, 4, 3));
-        let mut stage = default_stage();
-        stage.r1.value = 56e3;
+        let stage = pushed();
         let profile = default_profile();
-        let hash = expected_hash(&stage, &profile, 25.0).unwrap();
+        let ambient = Ambient::at(25.0);
+        let hash = expected_hash(&stage, &profile, ambient).unwrap();
         let mut host = Some(host.clone());
         let keep = host.clone();
         let mut st = Station::new(
             move || Ok(host.take().or_else(|| keep.clone()).unwrap()),
-            push_lines(&stage, &profile, 25.0),
+            push_lines(&stage, &profile, ambient),
             hash,
             "demo-1".into(),
             Duration::from_secs(5),
         )
         .unwrap();
-        st.set_reply_timeout(Duration::from_millis(400));
+        st.set_reply_timeout(Duration::from_millis(1500));
         st.prepare().unwrap();
         let dir = std::env::temp_dir().join(format!("biasjig-station-{}", std::process::id()));
         std::fs::create_dir_all(&dir).unwrap();
@@ -611,34 +641,51 @@ mod tests {
         let n = run_loop(&mut st, input, &mut screen, &log, false).unwrap();
         assert_eq!(n, 12);
         assert!(st.resyncs >= 2, "resets happened: {}", st.resyncs);
-        let text = std::fs::read_to_string(&log).unwrap();
-        let recs: Vec<Value> = text
-            .lines()
-            .map(|l| serde_json::from_str(l).unwrap())
-            .collect();
+        let c = boardlog::read(&log).unwrap();
+        assert!(c.warnings.is_empty(), "{:?}", c.warnings);
+        let recs = c.records;
         assert_eq!(recs.len(), 12, "no record lost or doubled");
         for (i, r) in recs.iter().enumerate() {
             assert_eq!(r["serial"], format!("SN-{i}"));
             assert_eq!(r["verdict"], if i % 2 == 0 { "pass" } else { "fail" });
-            assert_eq!(r["hash"], format!("{hash:016x}"));
-            assert_eq!(r["nodes"]["vb"]["ok"], i % 2 == 0);
+            assert_eq!(r["design"]["hash"], format!("{hash:016x}"));
+            assert_eq!(r["design"]["id"], "demo-1");
+            assert!(r["time"].as_str().unwrap().ends_with('Z'), "{r}");
+            assert_eq!(r["readings"]["vcc"], 12.0);
+            assert_eq!(r["nodes"].as_object().unwrap().len(), 6);
+            assert!(r["derived"]["region"].is_string());
+            if i % 2 == 1 {
+                let f = &r["faults"][0];
+                let named = f["part"] == "R2"
+                    || f["equivalent"]
+                        .as_array()
+                        .unwrap()
+                        .iter()
+                        .any(|e| e["part"] == "R2");
+                assert!(named, "R2 open named first: {r}");
+                assert!(r["explained"].is_boolean());
+            } else {
+                assert_eq!(r["faults"].as_array().unwrap().len(), 0);
+            }
         }
-        assert_eq!(recs[1]["faults"][0]["part"], "R2");
         let shown = String::from_utf8(screen).unwrap();
         assert!(
             shown.contains("P A S S") && shown.contains("F A I L"),
             "{shown}"
         );
-        let _ = Resistor::R1;
     }
 
     #[test]
-    fn pushed_design_hash_matches() {
-        let stage = default_stage();
+    fn pushed_design_hash_matches_the_design_file_hash() {
+        let stage = pushed();
         let profile = default_profile();
-        assert_eq!(
-            expected_hash(&stage, &profile, 25.0),
-            Some(design_hash(&stage, &profile))
-        );
+        let ambient = Ambient {
+            nominal: 25.0,
+            min: -10.0,
+            max: 55.0,
+        };
+        let h = expected_hash(&stage, &profile, ambient).unwrap();
+        assert_eq!(h, design_hash(&stage, &profile));
+        assert_eq!(format!("{h:016x}"), designfile::hash(&stage, &profile));
     }
 }

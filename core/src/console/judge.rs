@@ -1,0 +1,614 @@
+//! The commands that judge a board and design a stage: `check`, `test`, `diagnose`,
+//! `requirement`, `design`, `pick` and `spread`.
+//!
+//! `check` and `test` make the same core calls with the same choices as `biasjig check`: the
+//! plausibility refusals of [`check::plausible`], the limits of [`limits::limits`] at the
+//! measured supply over the ambient range of the settings, [`check::check`], and, when the
+//! board fails, [`diagnose::diagnose`] with the same meter and ambient range.
+#![expect(
+    clippy::result_large_err,
+    reason = "an outcome carries its status text in a fixed buffer, with no allocation"
+)]
+
+use core::fmt::{self, Write as _};
+
+use embedded_io::Write;
+
+use super::commands::{show_readings, Human, Num, Opt, Pct, Upper};
+use super::jig::{Clock, Jig, Store};
+use super::parse::ReqSetting;
+use super::reply::{Fail, Outcome, Reply, Text};
+use super::{Code, Console, Source, MAX_OUT_LINE};
+use crate::check::{self, Implausible, Verdict};
+use crate::design::{self, DesignError};
+use crate::diagnose::{self, Diagnosis, Hypothesis, ResistorMode, Suspect};
+use crate::limits;
+use crate::spread::{self, McSettings, Method, SpreadError};
+use crate::stage::{DeviceFault, Polarity, Readings, Resistor, Stage};
+use crate::units::{capacitor_code, resistor_code, Eng};
+
+/// How many fault hypotheses `check`, `test` and `diagnose` list at most (as `biasjig check`).
+pub const LISTED_FAULTS: usize = 6;
+
+/// The last judged board.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LastCheck {
+    /// The readings judged, V.
+    pub readings: Readings,
+    /// Where they came from.
+    pub source: Source,
+    /// The verdict per node and overall, with the derived quantities.
+    pub verdict: Verdict,
+    /// The ranked faults when the board failed.
+    pub diagnosis: Option<Diagnosis>,
+}
+
+fn refused(why: Implausible) -> Fail {
+    Fail::new(Code::Implausible, format_args!("readings refused: {why}"))
+}
+
+fn spread_fail(what: &str, e: SpreadError) -> Fail {
+    let code = match e {
+        SpreadError::Solve(_) => Code::Solve,
+        _ => Code::Range,
+    };
+    Fail::new(code, format_args!("{what}: {e}"))
+}
+
+/// A fault in plain words (what `biasjig check` says).
+struct Words<'a>(&'a Stage, &'a Hypothesis);
+
+impl fmt::Display for Words<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let h = self.1;
+        match h.suspect {
+            Suspect::Good => {
+                f.write_str("the readings are close to a good board: re-probe and measure again")
+            }
+            Suspect::Resistor(r, mode) => {
+                let nominal = self.0.resistor(r);
+                let name = r.name();
+                match (mode, h.estimate) {
+                    (ResistorMode::Open, _) => {
+                        write!(f, "{name} open (missing, cracked or a dry joint)")
+                    }
+                    (ResistorMode::Short, _) => {
+                        write!(f, "{name} shorted (a solder bridge or a wrong part)")
+                    }
+                    (_, Some(est)) => {
+                        let ratio = est / nominal;
+                        let why = if (0.08..0.125).contains(&ratio) || (8.0..12.5).contains(&ratio)
+                        {
+                            ": a decade slip"
+                        } else if (0.4..0.6).contains(&ratio) {
+                            ": about half its value"
+                        } else if (1.7..2.4).contains(&ratio) {
+                            ": about twice its value"
+                        } else {
+                            ""
+                        };
+                        write!(
+                            f,
+                            "{name} reads like {} instead of {}{why}",
+                            Eng::new(est, "Ω"),
+                            Eng::new(nominal, "Ω")
+                        )
+                    }
+                    (ResistorMode::Low, None) => write!(f, "{name} too low"),
+                    (ResistorMode::High, None) => write!(f, "{name} too high"),
+                }
+            }
+            Suspect::Device(d) => f.write_str(match d {
+                DeviceFault::BeOpen => "Q: base-emitter junction or emitter lead open",
+                DeviceFault::BcOpen => "Q: base-collector junction or collector lead open",
+                DeviceFault::BeShort => "Q: base shorted to emitter",
+                DeviceFault::BcShort => "Q: base shorted to collector",
+                DeviceFault::CeShort => "Q: collector shorted to emitter",
+                DeviceFault::Reversed => {
+                    "Q fitted the wrong way round (collector and emitter swapped)"
+                }
+            }),
+        }
+    }
+}
+
+/// The next measurement that separates a group of equivalent faults.
+struct Separate<'a>(&'a Diagnosis, &'a Hypothesis);
+
+impl fmt::Display for Separate<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let mut parts: heapless::Vec<Resistor, 5> = heapless::Vec::new();
+        let mut q = false;
+        let group = self
+            .0
+            .ranked
+            .iter()
+            .filter(|o| o.group == self.1.group && o.suspect.is_fault());
+        for h in group {
+            match h.suspect {
+                Suspect::Resistor(r, _) if !parts.contains(&r) => {
+                    let _ = parts.push(r);
+                }
+                Suspect::Device(_) => q = true,
+                _ => {}
+            }
+        }
+        f.write_str("power off")?;
+        let n = parts.len();
+        for (k, r) in parts.iter().enumerate() {
+            let sep = match k {
+                0 => ", measure ",
+                _ if k + 1 == n => " and ",
+                _ => ", ",
+            };
+            write!(f, "{sep}{}", r.name())?;
+        }
+        if q {
+            f.write_str(", check Q's junctions with a diode test and its orientation")?;
+        }
+        Ok(())
+    }
+}
+
+impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
+    /// Judge readings: plausibility, limits at the measured supply, verdict and, when the board
+    /// fails, the diagnosis. Keeps the result as the last check (nothing changes on an error).
+    pub(super) fn judge(&mut self, rd: Readings, src: Source) -> Result<(), Fail> {
+        let st = &self.settings;
+        let var = st.variation();
+        check::plausible(&st.stage, &st.meter, &rd).map_err(refused)?;
+        let lim = limits::limits(&st.stage, &st.profile, &var, &st.meter, rd.vcc)
+            .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
+        let verdict = check::check(&st.stage, &lim, &st.meter, &rd).map_err(refused)?;
+        let diagnosis = if verdict.pass {
+            None
+        } else {
+            Some(
+                diagnose::diagnose(&st.stage, &st.profile, &rd, &st.meter, &var)
+                    .map_err(|e| Fail::new(Code::Solve, format_args!("diagnosis: {e}")))?,
+            )
+        };
+        self.readings = Some((rd, src));
+        self.last = Some(LastCheck {
+            readings: rd,
+            source: src,
+            verdict,
+            diagnosis,
+        });
+        Ok(())
+    }
+
+    fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>) {
+        let word = if l.verdict.pass { "pass" } else { "fail" };
+        match &l.diagnosis {
+            Some(d) => r.data(format_args!(
+                "verdict={word} explained={}",
+                u8::from(d.explained)
+            )),
+            None => r.data(format_args!("verdict={word}")),
+        }
+    }
+
+    /// The last check: readings, verdict, nodes, derived quantities and the likely faults.
+    pub(super) fn show_check<W: Write>(&self, r: &mut Reply<'_, W>) {
+        let Some(l) = &self.last else { return };
+        show_readings(&l.readings, l.source, r);
+        let v = &l.verdict;
+        let dv = &v.derived;
+        if r.machine() {
+            Self::verdict_line(l, r);
+            for n in &v.nodes {
+                r.data(format_args!(
+                    "node={} measured={} low={} high={} ok={}",
+                    n.node.name(),
+                    Num(n.measured),
+                    Num(n.low),
+                    Num(n.high),
+                    u8::from(n.ok)
+                ));
+            }
+            r.data(format_args!(
+                "derived ic={} ib={} ie={} vbe={} vce={} beta={} region={}",
+                Num(dv.ic),
+                Num(dv.ib),
+                Opt(dv.ie),
+                Num(dv.vbe),
+                Num(dv.vce),
+                Opt(dv.beta),
+                dv.region.name()
+            ));
+        } else {
+            let failing = v.failing().count();
+            if v.pass {
+                r.data(format_args!("PASS   every node inside its window"));
+            } else {
+                r.data(format_args!(
+                    "FAIL   {failing} of {} out of window",
+                    v.nodes.len()
+                ));
+            }
+            for n in &v.nodes {
+                let u = n.node.unit();
+                r.data(format_args!(
+                    "{:<4} {:<10} window {} to {}{}",
+                    Upper(n.node.name()),
+                    Eng::new(n.measured, u),
+                    Eng::new(n.low, u),
+                    Eng::new(n.high, u),
+                    if n.ok { "" } else { "   OUT" }
+                ));
+            }
+            let mut beta = Text::default();
+            match dv.beta {
+                Some(b) => {
+                    let _ = write!(beta, "{b:.0}");
+                }
+                None => {
+                    let _ = beta.write_str("-");
+                }
+            }
+            r.data(format_args!(
+                "IC {}, IB {}, hFE {}, VBE {}, VCE {}, {}",
+                Eng::new(dv.ic, "A"),
+                Eng::new(dv.ib, "A"),
+                beta.as_str(),
+                Eng::new(dv.vbe, "V"),
+                Eng::new(dv.vce, "V"),
+                dv.region.name()
+            ));
+        }
+        if let Some(d) = &l.diagnosis {
+            self.show_faults(d, r);
+        }
+    }
+
+    fn show_faults<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
+        if r.machine() {
+            for h in d.faults().take(LISTED_FAULTS) {
+                let mut t = Text::default();
+                let _ = write!(
+                    t,
+                    "fault={} mode={} score={} estimate={} equivalent=",
+                    h.suspect.part(),
+                    h.suspect.mode(),
+                    Num(h.score),
+                    Opt(h.estimate)
+                );
+                let mut any = false;
+                for e in d.equivalents(h).filter(|e| e.suspect.is_fault()) {
+                    let mut item: heapless::String<24> = heapless::String::new();
+                    let _ = write!(
+                        item,
+                        "{}{}:{}",
+                        if any { "," } else { "" },
+                        e.suspect.part(),
+                        e.suspect.mode()
+                    );
+                    if t.as_str().len() + item.len() > MAX_OUT_LINE {
+                        r.mark_cut();
+                        break;
+                    }
+                    let _ = t.write_str(&item);
+                    any = true;
+                }
+                if !any {
+                    let _ = t.write_str("none");
+                }
+                r.data(format_args!("{}", t.as_str()));
+            }
+        } else {
+            if d.explained {
+                r.data(format_args!("Likely faults:"));
+            } else {
+                r.data(format_args!(
+                    "No single fault explains these readings (two faults, or a wrong transistor \
+                     type?). Nearest:"
+                ));
+            }
+            let mut shown: heapless::Vec<u8, LISTED_FAULTS> = heapless::Vec::new();
+            for (k, h) in d.faults().take(LISTED_FAULTS).enumerate() {
+                r.data(format_args!(
+                    "{}. {} ({:.0} %)",
+                    k + 1,
+                    Words(&self.settings.stage, h),
+                    100.0 * h.score
+                ));
+                let mut names = Text::default();
+                for e in d.equivalents(h).filter(|e| e.suspect.is_fault()) {
+                    let sep = if names.as_str().is_empty() { "" } else { ", " };
+                    let _ = write!(names, "{sep}{} {}", e.suspect.part(), e.suspect.mode());
+                }
+                if !names.as_str().is_empty() && !shown.contains(&h.group) {
+                    let _ = shown.push(h.group);
+                    r.data(format_args!(
+                        "   same readings as {}: to tell them apart, {}",
+                        names.as_str(),
+                        Separate(d, h)
+                    ));
+                }
+            }
+        }
+    }
+
+    /// `diagnose`: the last diagnosis again (the last readings are judged first when they were
+    /// only measured).
+    pub(super) fn diagnose<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
+        if self.last.is_none() {
+            match self.readings {
+                Some((rd, src)) => self.judge(rd, src)?,
+                None => {
+                    return Err(Fail::new(
+                        Code::NoReadings,
+                        format_args!("no readings yet: test, or check VCC VB VE VC"),
+                    ))
+                }
+            }
+        }
+        let Some(l) = &self.last else {
+            return Ok(None);
+        };
+        if r.machine() {
+            Self::verdict_line(l, r);
+        }
+        match &l.diagnosis {
+            Some(d) => {
+                self.show_faults(d, r);
+                Ok(None)
+            }
+            None => Ok(Some(Text::of(format_args!(
+                "the board passed: nothing to diagnose"
+            )))),
+        }
+    }
+
+    /// `requirement`: show the design requirement.
+    pub(super) fn show_requirement<W: Write>(&self, r: &mut Reply<'_, W>) {
+        let q = &self.requirement;
+        let pol = match q.polarity {
+            Polarity::Npn => "npn",
+            Polarity::Pnp => "pnp",
+        };
+        if r.machine() {
+            r.data(format_args!(
+                "polarity={pol} vcc={} gain={} rl={} rs={} ic_max={}",
+                Num(q.vcc),
+                Num(q.gain),
+                Opt(q.rl),
+                Num(q.rs),
+                Num(q.ic_max)
+            ));
+            r.data(format_args!(
+                "swing_pp={} f_low={} temp={} temp_min={} temp_max={}",
+                Num(q.swing_pp),
+                Opt(q.f_low),
+                Num(q.temp),
+                Num(q.temp_min),
+                Num(q.temp_max)
+            ));
+            r.data(format_args!(
+                "series={} tol={} cap_series={} cap_tol={}",
+                q.series.name(),
+                Num(q.tol),
+                q.cap_series.name(),
+                Num(q.cap_tol)
+            ));
+        } else {
+            r.data(format_args!(
+                "{} on {}, gain {} into {} from {}",
+                Upper(pol),
+                Eng::new(q.vcc, "V"),
+                Num(q.gain),
+                Human(q.rl, "Ω"),
+                Eng::new(q.rs, "Ω")
+            ));
+            r.data(format_args!(
+                "IC at most {}, swing at least {} peak-to-peak, low corner at most {}",
+                Eng::new(q.ic_max, "A"),
+                Eng::new(q.swing_pp, "V"),
+                Eng::new(q.f_low_or_default(), "Hz")
+            ));
+            r.data(format_args!(
+                "ambient {} °C ({} to {} °C), resistors {} ±{}, capacitors {} ±{}",
+                Num(q.temp),
+                Num(q.temp_min),
+                Num(q.temp_max),
+                q.series.name(),
+                Pct(q.tol),
+                q.cap_series.name(),
+                Pct(q.cap_tol)
+            ));
+        }
+    }
+
+    /// `requirement NAME VALUE`: change one field; the whole requirement must stay valid.
+    pub(super) fn set_requirement(&mut self, s: ReqSetting) -> Outcome {
+        let mut q = self.requirement;
+        match s {
+            ReqSetting::Polarity(p) => q.polarity = p,
+            ReqSetting::Vcc(v) => q.vcc = v,
+            ReqSetting::Gain(v) => q.gain = v,
+            ReqSetting::Load(v) => q.rl = v,
+            ReqSetting::Source(v) => q.rs = v,
+            ReqSetting::IcMax(v) => q.ic_max = v,
+            ReqSetting::Swing(v) => q.swing_pp = v,
+            ReqSetting::FLow(v) => q.f_low = v,
+            ReqSetting::Temp(v) => q.temp = v,
+            ReqSetting::TempMin(v) => q.temp_min = v,
+            ReqSetting::TempMax(v) => q.temp_max = v,
+            ReqSetting::Series(v) => q.series = v,
+            ReqSetting::Tol(v) => q.tol = v,
+            ReqSetting::CapSeries(v) => q.cap_series = v,
+            ReqSetting::CapTol(v) => q.cap_tol = v,
+        }
+        q.validate()
+            .map_err(|e| Fail::new(Code::Range, format_args!("{}: {e}", e.field())))?;
+        self.requirement = q;
+        self.candidates.clear();
+        Ok(None)
+    }
+
+    /// `design`: candidates for the requirement with the set transistor, best first.
+    pub(super) fn design<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
+        let found = design::design(&self.requirement, &self.settings.profile).map_err(|e| {
+            let code = match e {
+                DesignError::Invalid(_) | DesignError::Profile(_) => Code::Range,
+                _ => Code::NoDesign,
+            };
+            Fail::new(code, format_args!("{e}"))
+        })?;
+        self.candidates = found;
+        for (k, c) in self.candidates.iter().enumerate() {
+            let s = &c.stage;
+            let n = k + 1;
+            let cap = |p: Option<crate::stage::Part>| p.map(|p| p.value);
+            if r.machine() {
+                r.data(format_args!(
+                    "candidate={n} r1={} r2={} rc={} re1={} re2={} cin={} cout={} ce={}",
+                    Num(s.r1.value),
+                    Num(s.r2.value),
+                    Num(s.rc.value),
+                    Num(s.re1.value),
+                    Num(s.re2.value),
+                    Opt(cap(s.cin)),
+                    Opt(cap(s.cout)),
+                    Opt(cap(s.ce))
+                ));
+                r.data(format_args!(
+                    "candidate={n} gain={} swing_pp={} ic={} vce={} f_low={} score={}",
+                    Num(c.gain),
+                    Num(c.swing_pp),
+                    Num(c.op.ic),
+                    Num(c.op.vce),
+                    Num(c.f_low),
+                    Num(c.score)
+                ));
+            } else {
+                let mut caps = Text::default();
+                for (name, p) in [("CIN", s.cin), ("COUT", s.cout), ("CE", s.ce)] {
+                    match p {
+                        Some(p) => {
+                            let _ = write!(caps, "  {name} {}", capacitor_code(p.value));
+                        }
+                        None => {
+                            let _ = write!(caps, "  {name} ideal");
+                        }
+                    }
+                }
+                r.data(format_args!(
+                    "{n}. R1 {}  R2 {}  RC {}  RE1 {}  RE2 {}{}",
+                    resistor_code(s.r1.value),
+                    resistor_code(s.r2.value),
+                    resistor_code(s.rc.value),
+                    resistor_code(s.re1.value),
+                    resistor_code(s.re2.value),
+                    caps.as_str()
+                ));
+                r.data(format_args!(
+                    "   gain {:.2}, swing {} peak-to-peak, IC {}, VCE {}, low corner {}",
+                    c.gain,
+                    Eng::new(c.swing_pp, "V"),
+                    Eng::new(c.op.ic, "A"),
+                    Eng::new(c.op.vce, "V"),
+                    Eng::new(c.f_low, "Hz")
+                ));
+            }
+        }
+        Ok(Some(Text::of(format_args!(
+            "{} candidates, best first: pick N takes one",
+            self.candidates.len()
+        ))))
+    }
+
+    /// `pick N`: candidate N becomes the stage (with the requirement's ambient range).
+    pub(super) fn pick(&mut self, n: u8) -> Outcome {
+        if self.candidates.is_empty() {
+            return Err(Fail::new(
+                Code::NoDesign,
+                format_args!("no candidates: run design first"),
+            ));
+        }
+        let count = self.candidates.len();
+        let Some(c) = usize::from(n)
+            .checked_sub(1)
+            .and_then(|k| self.candidates.get(k))
+        else {
+            return Err(Fail::new(
+                Code::Value,
+                format_args!("pick: {n}: allowed 1 to {count}"),
+            ));
+        };
+        let mut next = self.settings;
+        next.stage = c.stage;
+        next.temp_c = self.requirement.temp;
+        next.temp_min_c = self.requirement.temp_min;
+        next.temp_max_c = self.requirement.temp_max;
+        next.stage
+            .validate()
+            .map_err(|e| Fail::new(Code::Range, format_args!("{e}")))?;
+        self.settings = next;
+        self.last = None;
+        Ok(Some(Text::of(format_args!(
+            "the stage is candidate {n}, design hash {:016x}",
+            self.design_hash()
+        ))))
+    }
+
+    /// `spread RUNS SEED`: the worst case over the corners and a seeded Monte Carlo summary.
+    pub(super) fn spread<W: Write>(&self, runs: u32, seed: u64, r: &mut Reply<'_, W>) -> Outcome {
+        let st = &self.settings;
+        let var = st.variation();
+        let wc = spread::worst_case(&st.stage, &st.profile, &var, Method::default())
+            .map_err(|e| spread_fail("spread", e))?;
+        let settings = McSettings {
+            runs,
+            seed,
+            signal: true,
+            requirement: spread::Requirement::default(),
+        };
+        let mc = spread::monte_carlo(&st.stage, &st.profile, &var, &wc, &settings, |_, _| {})
+            .map_err(|e| spread_fail("spread", e))?;
+        for node in spread::Node::ALL {
+            let w = wc.nodes.get(node);
+            let s = mc.nodes.get(node);
+            if r.machine() {
+                r.data(format_args!(
+                    "worst={} min={} max={}",
+                    node.name(),
+                    Num(w.min),
+                    Num(w.max)
+                ));
+                r.data(format_args!(
+                    "mc={} mean={} std={} min={} max={}",
+                    node.name(),
+                    Num(s.mean),
+                    Num(s.std()),
+                    Num(s.range.min),
+                    Num(s.range.max)
+                ));
+            } else {
+                let u = node.unit();
+                r.data(format_args!(
+                    "{:<6} worst {} to {}   Monte Carlo mean {}, std {}",
+                    node.label(),
+                    Eng::new(w.min, u),
+                    Eng::new(w.max, u),
+                    Eng::new(s.mean, u),
+                    Eng::new(s.std(), u)
+                ));
+            }
+        }
+        if r.machine() {
+            r.data(format_args!(
+                "runs={} failed={} active={} seed={seed} solves={}",
+                mc.runs, mc.failed, mc.active, wc.solves
+            ));
+        } else {
+            r.data(format_args!(
+                "{} runs (seed {seed}): {} without an operating point, {} active; worst case \
+                 from {} solves",
+                mc.runs, mc.failed, mc.active, wc.solves
+            ));
+        }
+        Ok(None)
+    }
+}
