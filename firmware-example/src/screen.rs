@@ -6,7 +6,7 @@ use crate::console::{label, FmtBuf};
 use crate::jig::reading;
 use biasjig_core::console::{Channel, JigError};
 use biasjig_core::stage::Readings;
-use embedded_graphics::mono_font::ascii::{FONT_10X20, FONT_6X10};
+use embedded_graphics::mono_font::ascii::FONT_6X10;
 use embedded_graphics::mono_font::{MonoFont, MonoTextStyle};
 use embedded_graphics::pixelcolor::BinaryColor;
 use embedded_graphics::prelude::*;
@@ -127,6 +127,48 @@ pub struct VerdictScreen<'a> {
 
 const CHARS_PER_LINE: usize = (WIDTH / 6) as usize;
 
+/// Draws on `D` at twice the size: each pixel becomes a 2x2 block. The large verdict is the
+/// small font doubled (12x20 per character), so the image carries one font only.
+struct Double<'a, D>(&'a mut D);
+
+impl<D: DrawTarget<Color = BinaryColor>> OriginDimensions for Double<'_, D> {
+    fn size(&self) -> Size {
+        let s = self.0.bounding_box().size;
+        Size::new(s.width / 2, s.height / 2)
+    }
+}
+
+impl<D: DrawTarget<Color = BinaryColor>> DrawTarget for Double<'_, D> {
+    type Color = BinaryColor;
+    type Error = D::Error;
+
+    fn draw_iter<I>(&mut self, pixels: I) -> Result<(), Self::Error>
+    where
+        I: IntoIterator<Item = Pixel<Self::Color>>,
+    {
+        self.0.draw_iter(pixels.into_iter().flat_map(|Pixel(p, c)| {
+            let q = Point::new(2 * p.x, 2 * p.y);
+            [(0, 0), (1, 0), (0, 1), (1, 1)].map(|(dx, dy)| Pixel(q + Point::new(dx, dy), c))
+        }))
+    }
+}
+
+/// Large text (the small font doubled), centred on `x` (full-size pixels), top at `y`.
+fn large<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    s: &str,
+    x: i32,
+    y: i32,
+) -> Result<(), D::Error> {
+    text(
+        &mut Double(d),
+        s,
+        &FONT_6X10,
+        Point::new(x / 2, y / 2),
+        Alignment::Center,
+    )
+}
+
 fn text<D: DrawTarget<Color = BinaryColor>>(
     d: &mut D,
     s: &str,
@@ -183,13 +225,7 @@ pub fn draw_verdict<D: DrawTarget<Color = BinaryColor>>(
         Verdict::Pass => "PASS",
         Verdict::Fail => "FAIL",
     };
-    text(
-        d,
-        word,
-        &FONT_10X20,
-        Point::new(WIDTH as i32 / 2, 0),
-        Alignment::Center,
-    )?;
+    large(d, word, WIDTH as i32 / 2, 0)?;
     let mut y = 22;
     if let Some(node) = s.failing_node {
         let mut b = FmtBuf::<24>::new();
@@ -237,13 +273,7 @@ pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
             }
         }
         Err(e) => {
-            text(
-                d,
-                "NO READ",
-                &FONT_10X20,
-                Point::new(WIDTH as i32 / 2, 0),
-                Alignment::Center,
-            )?;
+            large(d, "NO READ", WIDTH as i32 / 2, 0)?;
             let mut b = FmtBuf::<48>::new();
             let _ = core::fmt::Write::write_fmt(&mut b, format_args!("{e}"));
             let mut y = 24;

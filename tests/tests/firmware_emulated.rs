@@ -194,7 +194,6 @@ fn boot(elf: &Path) -> (Qemu, String) {
     );
 }
 
-
 /// The host program, built once (`cargo build -p biasjig`, same target directory and profile as
 /// this test).
 fn biasjig() -> PathBuf {
@@ -324,7 +323,11 @@ impl Session {
         let deadline = Instant::now() + Duration::from_secs(10);
         while Instant::now() < deadline {
             if let Ok(Some(st)) = self.child.0.try_wait() {
-                assert!(st.success(), "biasjig console exit {st}: {}", self.stderr_text());
+                assert!(
+                    st.success(),
+                    "biasjig console exit {st}: {}",
+                    self.stderr_text()
+                );
                 return;
             }
             std::thread::sleep(Duration::from_millis(50));
@@ -335,7 +338,9 @@ impl Session {
 
 /// `key=value` pairs of one machine-mode line.
 fn pairs(line: &str) -> HashMap<&str, &str> {
-    line.split(' ').filter_map(|kv| kv.split_once('=')).collect()
+    line.split(' ')
+        .filter_map(|kv| kv.split_once('='))
+        .collect()
 }
 
 fn num(s: &str) -> f64 {
@@ -438,7 +443,10 @@ fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &str)
         .unwrap_or_else(|e| panic!("{what}: check --json output is not JSON ({e}): {out}"));
     assert_eq!(j["verdict"], inst.verdict.as_str(), "{what}: verdict");
     assert_eq!(code == 0, inst.verdict == "pass", "{what}: exit status");
-    assert!(!inst.nodes.is_empty(), "{what}: the instrument listed no nodes");
+    assert!(
+        !inst.nodes.is_empty(),
+        "{what}: the instrument listed no nodes"
+    );
     for (node, (measured, low, high, ok)) in &inst.nodes {
         let h = &j["nodes"][node.as_str()];
         assert!(h.is_object(), "{what}: host has no node {node}: {j}");
@@ -483,7 +491,10 @@ fn write_design(dir: &Path) -> PathBuf {
 
 /// `biasjig station`: one board per serial number on stdin; gives the log records.
 fn station(pts: &str, design: &Path, log: &Path, serials: &[&str]) -> Vec<serde_json::Value> {
-    let before = std::fs::read_to_string(log).unwrap_or_default().lines().count();
+    let before = std::fs::read_to_string(log)
+        .unwrap_or_default()
+        .lines()
+        .count();
     let mut child = Guard(
         Command::new(biasjig())
             .args(["station", "--port", pts])
@@ -594,7 +605,10 @@ fn emulated_jig_end_to_end_through_the_host() {
     let pass_screen = fw(&mut s, "fw:screen?").join("\n");
     assert!(pass_screen.contains('#'), "the verdict is drawn");
 
-    let stage = pairs(&s.ok("stage").join(" ")).into_iter().map(|(k, v)| (k.to_owned(), v.to_owned())).collect::<HashMap<_, _>>();
+    let stage = pairs(&s.ok("stage").join(" "))
+        .into_iter()
+        .map(|(k, v)| (k.to_owned(), v.to_owned()))
+        .collect::<HashMap<_, _>>();
     let rc = num(&stage["rc"]);
     let re1 = num(&stage["re1"]);
     let slip_rc = format!("{}", rc * 10.0);
@@ -656,7 +670,10 @@ fn emulated_jig_end_to_end_through_the_host() {
     println!(
         "jig-emulated: stack high-water {used} B; test (measure + check + diagnosis) on a failing board: {ticks} SysTick ticks, {insns} instructions"
     );
-    assert!(used > 0 && used <= STACK_BUDGET, "stack high-water {used} B (budget {STACK_BUDGET} B)");
+    assert!(
+        used > 0 && used <= STACK_BUDGET,
+        "stack high-water {used} B (budget {STACK_BUDGET} B)"
+    );
     let _ = std::fs::remove_dir_all(&dir);
     assert!(
         started.elapsed() < Duration::from_secs(170),
@@ -695,7 +712,10 @@ fn emulated_jig_designs_on_the_part() {
         .and_then(|t| t.split_whitespace().next())
         .and_then(|t| t.parse().ok())
         .unwrap_or_else(|| panic!("stack: {st:?}"));
-    assert!(used <= STACK_BUDGET, "stack high-water {used} B after design");
+    assert!(
+        used <= STACK_BUDGET,
+        "stack high-water {used} B after design"
+    );
     s.close();
 }
 
@@ -707,10 +727,16 @@ fn images_fit_their_budgets() {
         let (flash, ram) = elf_sizes(&out_dir.join(image));
         println!("{image}: flash {flash} B, static RAM {ram} B");
         if flash > FLASH_BUDGET {
-            over.push(format!("{image}: flash {flash} B is {} B over {FLASH_BUDGET} B", flash - FLASH_BUDGET));
+            over.push(format!(
+                "{image}: flash {flash} B is {} B over {FLASH_BUDGET} B",
+                flash - FLASH_BUDGET
+            ));
         }
         if ram > RAM_BUDGET {
-            over.push(format!("{image}: static RAM {ram} B is {} B over {RAM_BUDGET} B", ram - RAM_BUDGET));
+            over.push(format!(
+                "{image}: static RAM {ram} B is {} B over {RAM_BUDGET} B",
+                ram - RAM_BUDGET
+            ));
         }
     }
     assert!(over.is_empty(), "over budget: {over:?}");
