@@ -1,249 +1,379 @@
-//! The four jig nodes, a jig read through ADC channels, and the emulated jig.
-use crate::adc::{ChannelConfig, ChannelError};
+//! The jig source behind the core console's [`Jig`] trait: four ADC channels through the jig's
+//! input dividers ([`AdcJig`], the hardware path) and the emulated board read through the very
+//! same channel math ([`EmulatedJig`], the QEMU image).
+//!
+//! A reading of `samples` conversions is taken in bursts of at most [`MAX_BURST`]; every burst
+//! is checked on its own (open probe: too much spread; over range: a sample at full scale) and
+//! the accepted bursts are averaged. The core's two-point calibration (volts = gain · raw +
+//! offset, raw being the node voltage after the divider ratio) is applied last.
+use crate::adc::{Calibration, ChannelConfig, ChannelError};
+use crate::board::BoardModel;
+use biasjig_core::console::record::Settings;
+use biasjig_core::console::{Calibration as CoreCalibration, Channel, Jig, JigError};
+use biasjig_core::stage::{Fault, Readings};
 
-/// A node of the board under test.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Node {
-    /// Supply.
-    Vcc,
-    /// Base.
-    Vb,
-    /// Emitter.
-    Ve,
-    /// Collector.
-    Vc,
-}
+/// Most samples in one burst (the open-probe and rail checks look at one burst at a time).
+pub const MAX_BURST: usize = 64;
 
-impl Node {
-    /// All nodes, in jig channel order.
-    pub const ALL: [Node; 4] = [Node::Vcc, Node::Vb, Node::Ve, Node::Vc];
-
-    /// Name as printed: `VCC`, `VB`, `VE`, `VC`.
-    pub fn name(self) -> &'static str {
-        match self {
-            Node::Vcc => "VCC",
-            Node::Vb => "VB",
-            Node::Ve => "VE",
-            Node::Vc => "VC",
-        }
-    }
-
-    /// Jig channel index (0..4).
-    pub fn index(self) -> usize {
-        self as usize
-    }
-}
-
-/// Measured node voltages, volts.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct NodeVoltages {
-    /// Supply.
-    pub vcc: f32,
-    /// Base.
-    pub vb: f32,
-    /// Emitter.
-    pub ve: f32,
-    /// Collector.
-    pub vc: f32,
-}
-
-impl NodeVoltages {
-    /// Voltage of one node.
-    pub fn get(&self, node: Node) -> f32 {
-        match node {
-            Node::Vcc => self.vcc,
-            Node::Vb => self.vb,
-            Node::Ve => self.ve,
-            Node::Vc => self.vc,
-        }
-    }
-
-    fn set(&mut self, node: Node, v: f32) {
-        match node {
-            Node::Vcc => self.vcc = v,
-            Node::Vb => self.vb = v,
-            Node::Ve => self.ve = v,
-            Node::Vc => self.vc = v,
-        }
-    }
-}
-
-/// A refused measurement: which node and why.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct JigError {
-    /// The node that could not be read.
-    pub node: Node,
-    /// Why.
-    pub error: ChannelError,
-}
-
-impl core::fmt::Display for JigError {
-    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
-        write!(f, "{}: {}", self.node.name(), self.error)
-    }
-}
+/// Divider ratio of the jig inputs: 100 kΩ from the probe over 10 kΩ to ground, (100 k + 10 k) /
+/// 10 k = 11, so the 3.3 V converter's full scale is 36.3 V at the probe and a 30 V supply
+/// reaches 2.73 V at the pin (firmware-example/README.md, wiring).
+pub const JIG_DIVIDER_RATIO: f32 = 11.0;
+/// ADC reference of the jig (VDDA), V.
+pub const JIG_VREF: f32 = 3.3;
+/// Below this measured supply, V, the board is taken as not powered ([`JigError::Supply`]).
+pub const MIN_SUPPLY: f64 = 1.0;
 
 /// Raw ADC samples of the jig's channels.
 pub trait SampleSource {
-    /// One conversion of a node's channel.
-    fn sample(&mut self, node: Node) -> u16;
+    /// One conversion of a channel, in codes.
+    fn sample(&mut self, channel: Channel) -> u16;
 }
 
-/// Most samples in one burst.
-pub const MAX_OVERSAMPLE: usize = 64;
+/// Firmware extras of a jig, beyond the core's [`Jig`]: follow the console's design (the
+/// emulated board is drawn around it) and answer `fw:board` queries. The defaults do nothing.
+pub trait FirmwareJig: Jig {
+    /// The console's settings changed (design hash or ambient): an emulated board redraws.
+    fn follow(&mut self, settings: &Settings) {
+        let _ = settings;
+    }
+    /// The emulated board, for `fw:board?` and `fw:board SEED`; `None` on hardware.
+    fn board(&mut self) -> Option<&mut BoardModel> {
+        None
+    }
+}
 
-/// A jig read through four ADC channels with oversampling.
-pub struct SampledJig<S> {
+/// The value of one channel in a set of readings, V.
+pub fn reading(r: &Readings, c: Channel) -> f64 {
+    match c {
+        Channel::Vcc => r.vcc,
+        Channel::Vb => r.vb,
+        Channel::Ve => r.ve,
+        Channel::Vc => r.vc,
+    }
+}
+
+fn set_reading(r: &mut Readings, c: Channel, v: f64) {
+    match c {
+        Channel::Vcc => r.vcc = v,
+        Channel::Vb => r.vb = v,
+        Channel::Ve => r.ve = v,
+        Channel::Vc => r.vc = v,
+    }
+}
+
+fn channel_error(c: Channel, e: ChannelError) -> JigError {
+    match e {
+        ChannelError::OpenProbe { .. } => JigError::OpenProbe(c),
+        ChannelError::OverRange => JigError::OutOfRange(c),
+        ChannelError::NoSamples => JigError::Hardware,
+    }
+}
+
+/// A jig read through four ADC channels (in [`Channel::ALL`] order) with oversampling.
+pub struct AdcJig<S> {
     /// Where the samples come from.
     pub source: S,
-    /// Channel configuration per node, in [`Node::ALL`] order.
+    /// Per channel: divider ratio, reference, open-probe threshold and calibration.
     pub channels: [ChannelConfig; 4],
-    /// Samples per reading (1..=[`MAX_OVERSAMPLE`]).
-    pub oversample: usize,
 }
 
-impl<S: SampleSource> SampledJig<S> {
-    /// Measures all four nodes; the first refused node stops the measurement.
-    pub fn measure(&mut self) -> Result<NodeVoltages, JigError> {
-        let mut v = NodeVoltages {
+impl<S: SampleSource> AdcJig<S> {
+    /// A jig on `source` with every channel behind the jig divider, uncalibrated.
+    pub fn new(source: S, vref: f32) -> Self {
+        AdcJig {
+            source,
+            channels: [ChannelConfig::new(JIG_DIVIDER_RATIO, vref); 4],
+        }
+    }
+
+    /// One channel averaged over `samples` conversions (clamped to 1 ..= 1024), V, with the
+    /// channel calibration (`calibrated`) or without it.
+    pub fn read(&mut self, c: Channel, samples: u16, calibrated: bool) -> Result<f64, JigError> {
+        let mut cfg = *self.channels.get(c.index()).ok_or(JigError::Hardware)?;
+        if !calibrated {
+            cfg.cal = Calibration::IDENTITY;
+        }
+        let mut left = usize::from(samples.clamp(1, 1024));
+        let (mut sum, mut count) = (0.0f64, 0usize);
+        while left > 0 {
+            let n = left.min(MAX_BURST);
+            let mut buf = [0u16; MAX_BURST];
+            let burst = buf.get_mut(..n).unwrap_or(&mut []);
+            for s in burst.iter_mut() {
+                *s = self.source.sample(c);
+            }
+            let r = cfg.convert(burst).map_err(|e| channel_error(c, e))?;
+            sum += f64::from(r.volts) * n as f64;
+            count += n;
+            left -= n;
+        }
+        Ok(sum / count.max(1) as f64)
+    }
+
+    /// Every node, calibrated; refuses a missing supply.
+    pub fn read_all(&mut self, samples: u16) -> Result<Readings, JigError> {
+        let mut r = Readings {
             vcc: 0.0,
             vb: 0.0,
             ve: 0.0,
             vc: 0.0,
         };
-        let n = self.oversample.clamp(1, MAX_OVERSAMPLE);
-        for (node, ch) in Node::ALL.into_iter().zip(self.channels.iter()) {
-            let mut buf = [0u16; MAX_OVERSAMPLE];
-            let burst = buf.get_mut(..n).unwrap_or(&mut []);
-            for s in burst.iter_mut() {
-                *s = self.source.sample(node);
-            }
-            let r = ch
-                .convert(burst)
-                .map_err(|error| JigError { node, error })?;
-            v.set(node, r.volts);
+        for c in Channel::ALL {
+            let v = self.read(c, samples, true)?;
+            set_reading(&mut r, c, v);
         }
-        Ok(v)
+        if r.vcc < MIN_SUPPLY {
+            return Err(JigError::Supply);
+        }
+        Ok(r)
+    }
+
+    /// Take the core's calibration into the channel configurations.
+    pub fn calibrate(&mut self, cal: &CoreCalibration) {
+        for (c, cfg) in Channel::ALL.into_iter().zip(self.channels.iter_mut()) {
+            let k = cal.get(c);
+            cfg.cal = Calibration {
+                gain: k.gain as f32,
+                offset: k.offset as f32,
+            };
+        }
     }
 }
 
-/// The emulated jig's node voltages: a healthy stage on a 12 V supply.
-pub const EMULATED_NODES: NodeVoltages = NodeVoltages {
-    vcc: 12.0,
-    vb: 2.10,
-    ve: 1.45,
-    vc: 6.80,
-};
-
-/// Divider ratio of the jig inputs (47 kΩ over 10 kΩ): 0..18.8 V on a 3.3 V converter.
-pub const JIG_DIVIDER_RATIO: f32 = 5.7;
-/// ADC reference of the jig, volts.
-pub const JIG_VREF: f32 = 3.3;
-
-/// Samples of a simulated board under test: each node's voltage turned into the code an ideal
-/// channel reads, plus a few codes of deterministic noise. A node set to `f32::NAN` is an open
-/// probe (codes all over the range).
-pub struct EmulatedSamples {
-    /// Simulated node voltages.
-    pub nodes: NodeVoltages,
-    /// Channel model used to turn volts into codes.
-    pub channel: ChannelConfig,
-    state: u32,
-}
-
-impl EmulatedSamples {
-    /// Simulated samples of the given nodes.
-    pub fn new(nodes: NodeVoltages) -> Self {
-        EmulatedSamples {
-            nodes,
-            channel: ChannelConfig::new(JIG_DIVIDER_RATIO, JIG_VREF),
-            state: 0x1234_5678,
-        }
+impl<S: SampleSource> Jig for AdcJig<S> {
+    fn measure(&mut self, samples: u16) -> Result<Readings, JigError> {
+        self.read_all(samples)
     }
 
-    fn next(&mut self) -> u32 {
-        // xorshift32: cheap, deterministic, no dependency.
-        let mut x = self.state;
+    fn raw(&mut self, channel: Channel, samples: u16) -> Result<f64, JigError> {
+        self.read(channel, samples, false)
+    }
+
+    fn set_calibration(&mut self, cal: &CoreCalibration) -> Result<(), JigError> {
+        self.calibrate(cal);
+        Ok(())
+    }
+}
+
+/// The hardware jig has no firmware extras.
+impl<S: SampleSource> FirmwareJig for AdcJig<S> {}
+
+/// A small deterministic generator (xorshift32) for reading noise.
+#[derive(Debug, Clone, Copy)]
+pub struct Noise(u32);
+
+impl Noise {
+    /// A generator from a non-zero state (0 is replaced).
+    pub const fn new(state: u32) -> Self {
+        Noise(if state == 0 { 0x1234_5678 } else { state })
+    }
+
+    /// The next 32 random bits.
+    pub fn next_u32(&mut self) -> u32 {
+        let mut x = self.0;
         x ^= x << 13;
         x ^= x >> 17;
         x ^= x << 5;
-        self.state = x;
+        self.0 = x;
         x
+    }
+
+    /// Uniform in -1 ..= 1.
+    pub fn unit(&mut self) -> f32 {
+        (self.next_u32() >> 8) as f32 / 8_388_607.5 - 1.0
     }
 }
 
+/// Emulated conversions: a node voltage plus a few mV of reading noise, turned into the code an
+/// ideal channel reads, with ±1 code of dither. A node at `NaN` is an open probe (codes all over
+/// the range).
+pub struct EmulatedSamples {
+    /// Node voltages of the emulated board, V (in [`Channel::ALL`] order).
+    pub nodes: [f32; 4],
+    /// Reading noise per channel for this measurement, V.
+    pub offset: [f32; 4],
+    /// The channel model (ideal: same divider and reference as the jig channels).
+    pub channel: ChannelConfig,
+    /// The noise generator.
+    pub noise: Noise,
+}
+
+/// Largest reading noise of the emulated jig, V (a few mV, well inside the default meter
+/// guard band of 0.5 % + 5 mV).
+pub const EMULATED_NOISE: f32 = 0.002;
+
 impl SampleSource for EmulatedSamples {
-    fn sample(&mut self, node: Node) -> u16 {
-        let v = self.nodes.get(node);
-        let r = self.next();
+    fn sample(&mut self, c: Channel) -> u16 {
+        let i = c.index();
+        let v = self.nodes.get(i).copied().unwrap_or(f32::NAN)
+            + self.offset.get(i).copied().unwrap_or(0.0);
+        let r = self.noise.next_u32();
         if v.is_nan() {
             return (r % 4096) as u16;
         }
-        let code = i32::from(self.channel.code_for(v)) + (r % 5) as i32 - 2;
+        let code = i32::from(self.channel.code_for(v)) + (r % 3) as i32 - 1;
         code.clamp(0, i32::from(self.channel.full_scale)) as u16
     }
 }
 
-/// The emulated jig: simulated samples through the same channel math as the hardware.
+/// The emulated jig: the board model's node voltages read through the same ADC math as the
+/// hardware ([`AdcJig`]); `inject` sets the model's fault.
 pub struct EmulatedJig {
-    jig: SampledJig<EmulatedSamples>,
+    /// The emulated board under test.
+    pub board: BoardModel,
+    /// The jig channels reading it.
+    pub adc: AdcJig<EmulatedSamples>,
 }
 
 impl EmulatedJig {
-    /// An emulated jig showing the given node voltages.
-    pub fn new(nodes: NodeVoltages) -> Self {
+    /// An emulated jig over a board drawn with `seed` around the console's default design.
+    pub fn new(seed: u64) -> Self {
         let channel = ChannelConfig::new(JIG_DIVIDER_RATIO, JIG_VREF);
         EmulatedJig {
-            jig: SampledJig {
-                source: EmulatedSamples::new(nodes),
+            board: BoardModel::new(seed),
+            adc: AdcJig {
+                source: EmulatedSamples {
+                    nodes: [f32::NAN; 4],
+                    offset: [0.0; 4],
+                    channel,
+                    noise: Noise::new(seed as u32 ^ 0x9e37_79b9),
+                },
                 channels: [channel; 4],
-                oversample: 16,
             },
         }
     }
 
-    /// Changes the simulated node voltages.
-    pub fn set_nodes(&mut self, nodes: NodeVoltages) {
-        self.jig.source.nodes = nodes;
+    fn load_nodes(&mut self) -> Result<(), JigError> {
+        // No operating point (the solver gave up): the jig reports a hardware failure rather
+        // than invent voltages.
+        let r = self.board.nodes().map_err(|_| JigError::Hardware)?;
+        let src = &mut self.adc.source;
+        for (c, (node, off)) in Channel::ALL
+            .into_iter()
+            .zip(src.nodes.iter_mut().zip(src.offset.iter_mut()))
+        {
+            *node = reading(&r, c) as f32;
+            *off = EMULATED_NOISE * src.noise.unit();
+        }
+        Ok(())
+    }
+}
+
+impl Jig for EmulatedJig {
+    fn measure(&mut self, samples: u16) -> Result<Readings, JigError> {
+        self.load_nodes()?;
+        self.adc.read_all(samples)
     }
 
-    /// Measures all four nodes.
-    pub fn measure(&mut self) -> Result<NodeVoltages, JigError> {
-        self.jig.measure()
+    fn raw(&mut self, channel: Channel, samples: u16) -> Result<f64, JigError> {
+        self.load_nodes()?;
+        self.adc.read(channel, samples, false)
+    }
+
+    fn set_calibration(&mut self, cal: &CoreCalibration) -> Result<(), JigError> {
+        self.adc.calibrate(cal);
+        Ok(())
+    }
+
+    fn inject(&mut self, fault: Option<Fault>) -> Result<(), JigError> {
+        self.board.set_fault(fault);
+        Ok(())
+    }
+}
+
+impl FirmwareJig for EmulatedJig {
+    fn follow(&mut self, settings: &Settings) {
+        self.board
+            .set_design(settings.stage, settings.profile, settings.temp_c);
+    }
+
+    fn board(&mut self) -> Option<&mut BoardModel> {
+        Some(&mut self.board)
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use biasjig_core::console::ChannelCal;
+    use biasjig_core::stage::{DeviceFault, Resistor};
 
     #[test]
-    fn emulated_jig_reads_back_its_nodes() {
-        let mut jig = EmulatedJig::new(EMULATED_NODES);
-        let v = jig.measure().unwrap();
-        for node in Node::ALL {
-            let err = (v.get(node) - EMULATED_NODES.get(node)).abs();
-            assert!(err < 0.01, "{} off by {err}", node.name());
-        }
-        assert_eq!(Node::Vc.index(), 3);
-        assert_eq!(Node::Vcc.name(), "VCC");
+    fn divider_is_100k_over_10k() {
+        assert!((crate::adc::divider_ratio(100e3, 10e3) - JIG_DIVIDER_RATIO).abs() < 1e-6);
+        let ch = ChannelConfig::new(JIG_DIVIDER_RATIO, JIG_VREF);
+        assert!((ch.ideal_volts(4095.0) - 36.3).abs() < 1e-3);
     }
 
     #[test]
-    fn emulated_open_probe_and_over_range() {
-        let mut jig = EmulatedJig::new(NodeVoltages {
-            ve: f32::NAN,
-            ..EMULATED_NODES
-        });
-        let e = jig.measure().unwrap_err();
-        assert_eq!(e.node, Node::Ve);
-        assert!(matches!(e.error, ChannelError::OpenProbe { .. }));
-        jig.set_nodes(NodeVoltages {
-            vcc: 30.0,
-            ..EMULATED_NODES
-        });
-        let e = jig.measure().unwrap_err();
-        assert_eq!((e.node, e.error), (Node::Vcc, ChannelError::OverRange));
-        assert_eq!(format!("{e}"), "VCC: over range");
+    fn good_board_reads_back_its_nodes() {
+        let mut jig = EmulatedJig::new(7);
+        let want = jig.board.nodes().unwrap();
+        let r = jig.measure(64).unwrap();
+        for c in Channel::ALL {
+            let err = (reading(&r, c) - reading(&want, c)).abs();
+            assert!(err < 0.008, "{} off by {err}", c.name());
+        }
+        // Deterministic: a second jig with the same seed reads the same.
+        let mut again = EmulatedJig::new(7);
+        assert_eq!(again.measure(64).unwrap(), r);
+    }
+
+    #[test]
+    fn injected_fault_moves_the_nodes() {
+        let mut jig = EmulatedJig::new(3);
+        let good = jig.measure(16).unwrap();
+        jig.inject(Some(Fault::Open(Resistor::R1))).unwrap();
+        let open = jig.measure(16).unwrap();
+        assert!(open.vb < 0.05 && open.vc > good.vc, "{open:?}");
+        jig.inject(Some(Fault::Device(DeviceFault::CeShort)))
+            .unwrap();
+        let ce = jig.measure(16).unwrap();
+        assert!((ce.vc - ce.ve).abs() < 0.05, "{ce:?}");
+        jig.inject(None).unwrap();
+        let back = jig.measure(16).unwrap();
+        assert!((back.vc - good.vc).abs() < 0.01);
+    }
+
+    #[test]
+    fn calibration_and_raw() {
+        let mut jig = EmulatedJig::new(1);
+        let raw = jig.raw(Channel::Vb, 64).unwrap();
+        let mut cal = CoreCalibration::default();
+        cal.set(
+            Channel::Vb,
+            ChannelCal {
+                gain: 1.1,
+                offset: -0.2,
+            },
+        );
+        jig.set_calibration(&cal).unwrap();
+        let m = jig.measure(64).unwrap();
+        assert!((m.vb - (1.1 * raw - 0.2)).abs() < 0.01, "{m:?} {raw}");
+        assert!((jig.raw(Channel::Vb, 64).unwrap() - raw).abs() < 0.008);
+    }
+
+    #[test]
+    fn open_probe_over_range_and_supply() {
+        struct Fixed([u16; 4], Noise);
+        impl SampleSource for Fixed {
+            fn sample(&mut self, c: Channel) -> u16 {
+                match self.0[c.index()] {
+                    u16::MAX => (self.1.next_u32() % 4096) as u16,
+                    v => v,
+                }
+            }
+        }
+        let mut jig = AdcJig::new(Fixed([1354, 200, 150, 700], Noise::new(5)), JIG_VREF);
+        let r = jig.measure(100).unwrap();
+        assert!((r.vcc - 12.0).abs() < 0.01, "{r:?}");
+        jig.source.0[2] = u16::MAX;
+        assert_eq!(jig.measure(16), Err(JigError::OpenProbe(Channel::Ve)));
+        jig.source.0[2] = 150;
+        jig.source.0[3] = 4095;
+        assert_eq!(jig.measure(16), Err(JigError::OutOfRange(Channel::Vc)));
+        jig.source.0 = [20, 0, 0, 0];
+        assert_eq!(jig.measure(16), Err(JigError::Supply));
     }
 }

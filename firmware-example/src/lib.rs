@@ -8,11 +8,11 @@
 //! | --- | --- |
 //! | [`serial`] | `embedded-io` 0.7 `Read`/`Write` over any non-blocking (`embedded-hal-nb`) UART |
 //! | [`button`] | debounced active-low push button |
-//! | [`line`] | line assembly from a byte stream: fixed buffer, CR, LF or CRLF endings, overlong lines |
-//! | [`console`] | the [`console::Console`] seam, the interim console, and the application loop [`console::App`] |
+//! | [`console`] | the application loop [`console::App`]: the core console engine, `fw:` queries, cost, verdict screen |
 //! | [`cost`] | elapsed ticks of the last command (SysTick under QEMU, DWT cycle counter on hardware) |
 //! | [`adc`] | ADC channel math: divider ratio, two-point calibration, oversampling, clipping, open probe |
-//! | [`jig`] | the four jig nodes (VCC, VB, VE, VC), a sampled jig, and the emulated jig |
+//! | [`jig`] | the core `Jig` over ADC channels ([`jig::AdcJig`]) and the emulated jig ([`jig::EmulatedJig`]) |
+//! | [`board`] | the emulated board under test: parts drawn within tolerance, a fault, the core engine's node voltages |
 //! | [`screen`] | a 128x64 one-bit framebuffer, its text art, and the verdict and measurement screens |
 //! | [`stack`] | stack painting and the high-water mark |
 //! | `target` | Cortex-M only: tick sources and stack painting on the real stack |
@@ -21,11 +21,11 @@
 #![deny(missing_docs)]
 
 pub mod adc;
+pub mod board;
 pub mod button;
 pub mod console;
 pub mod cost;
 pub mod jig;
-pub mod line;
 pub mod screen;
 pub mod serial;
 pub mod stack;
@@ -35,7 +35,5 @@ pub mod stack;
 #[allow(unsafe_code)]
 pub mod target;
 
-/// The identification line answered to `*IDN?` (manufacturer, model, serial, firmware version).
-pub const IDN_PREFIX: &str = "biasjig,jig-reader";
 /// Firmware version, from the crate.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

@@ -2,9 +2,11 @@
 //!
 //! The hardware image draws the layouts on an SSD1306 OLED; the emulated image draws the same
 //! layouts into [`FrameBuffer`], which can print itself as text art over the console.
-use crate::console::FmtBuf;
-use crate::jig::{JigError, Node, NodeVoltages};
-use embedded_graphics::mono_font::ascii::{FONT_10X20, FONT_6X10};
+use crate::console::{label, FmtBuf};
+use crate::jig::reading;
+use biasjig_core::console::{Channel, JigError};
+use biasjig_core::stage::Readings;
+use embedded_graphics::mono_font::ascii::FONT_6X10;
 use embedded_graphics::mono_font::{MonoFont, MonoTextStyle};
 use embedded_graphics::pixelcolor::BinaryColor;
 use embedded_graphics::prelude::*;
@@ -118,12 +120,54 @@ pub struct VerdictScreen<'a> {
     /// PASS or FAIL, drawn large.
     pub verdict: Verdict,
     /// The node that failed, if any.
-    pub failing_node: Option<Node>,
+    pub failing_node: Option<Channel>,
     /// Likely fault, a short text (wrapped over up to three lines).
     pub fault: &'a str,
 }
 
 const CHARS_PER_LINE: usize = (WIDTH / 6) as usize;
+
+/// Draws on `D` at twice the size: each pixel becomes a 2x2 block. The large verdict is the
+/// small font doubled (12x20 per character), so the image carries one font only.
+struct Double<'a, D>(&'a mut D);
+
+impl<D: DrawTarget<Color = BinaryColor>> OriginDimensions for Double<'_, D> {
+    fn size(&self) -> Size {
+        let s = self.0.bounding_box().size;
+        Size::new(s.width / 2, s.height / 2)
+    }
+}
+
+impl<D: DrawTarget<Color = BinaryColor>> DrawTarget for Double<'_, D> {
+    type Color = BinaryColor;
+    type Error = D::Error;
+
+    fn draw_iter<I>(&mut self, pixels: I) -> Result<(), Self::Error>
+    where
+        I: IntoIterator<Item = Pixel<Self::Color>>,
+    {
+        self.0.draw_iter(pixels.into_iter().flat_map(|Pixel(p, c)| {
+            let q = Point::new(2 * p.x, 2 * p.y);
+            [(0, 0), (1, 0), (0, 1), (1, 1)].map(|(dx, dy)| Pixel(q + Point::new(dx, dy), c))
+        }))
+    }
+}
+
+/// Large text (the small font doubled), centred on `x` (full-size pixels), top at `y`.
+fn large<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    s: &str,
+    x: i32,
+    y: i32,
+) -> Result<(), D::Error> {
+    text(
+        &mut Double(d),
+        s,
+        &FONT_6X10,
+        Point::new(x / 2, y / 2),
+        Alignment::Center,
+    )
+}
 
 fn text<D: DrawTarget<Color = BinaryColor>>(
     d: &mut D,
@@ -181,17 +225,11 @@ pub fn draw_verdict<D: DrawTarget<Color = BinaryColor>>(
         Verdict::Pass => "PASS",
         Verdict::Fail => "FAIL",
     };
-    text(
-        d,
-        word,
-        &FONT_10X20,
-        Point::new(WIDTH as i32 / 2, 0),
-        Alignment::Center,
-    )?;
+    large(d, word, WIDTH as i32 / 2, 0)?;
     let mut y = 22;
     if let Some(node) = s.failing_node {
         let mut b = FmtBuf::<24>::new();
-        let _ = core::fmt::Write::write_fmt(&mut b, format_args!("node {}", node.name()));
+        let _ = core::fmt::Write::write_fmt(&mut b, format_args!("node {}", label(node)));
         text(d, b.as_str(), &FONT_6X10, Point::new(0, y), Alignment::Left)?;
         y += 11;
     }
@@ -205,10 +243,9 @@ pub fn draw_verdict<D: DrawTarget<Color = BinaryColor>>(
 }
 
 /// Draws a measurement: the four node voltages, or the node that could not be read and why.
-/// (Until the core's check exists this is the screen the button shows; see the crate report.)
 pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
     d: &mut D,
-    r: &Result<NodeVoltages, JigError>,
+    r: &Result<Readings, JigError>,
 ) -> Result<(), D::Error> {
     d.clear(BinaryColor::Off)?;
     match r {
@@ -220,11 +257,11 @@ pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
                 Point::new(WIDTH as i32 / 2, 0),
                 Alignment::Center,
             )?;
-            for (i, node) in Node::ALL.into_iter().enumerate() {
+            for (i, node) in Channel::ALL.into_iter().enumerate() {
                 let mut b = FmtBuf::<24>::new();
                 let _ = core::fmt::Write::write_fmt(
                     &mut b,
-                    format_args!("{:<3} {:>7.3} V", node.name(), v.get(node)),
+                    format_args!("{:<3} {:>7.3} V", label(node), reading(v, node)),
                 );
                 text(
                     d,
@@ -236,13 +273,7 @@ pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
             }
         }
         Err(e) => {
-            text(
-                d,
-                "NO READ",
-                &FONT_10X20,
-                Point::new(WIDTH as i32 / 2, 0),
-                Alignment::Center,
-            )?;
+            large(d, "NO READ", WIDTH as i32 / 2, 0)?;
             let mut b = FmtBuf::<48>::new();
             let _ = core::fmt::Write::write_fmt(&mut b, format_args!("{e}"));
             let mut y = 24;
@@ -258,15 +289,19 @@ pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
 }
 
 /// Draws a measurement into the framebuffer (which cannot fail).
-pub fn draw_result(fb: &mut FrameBuffer, r: &Result<NodeVoltages, JigError>) {
+pub fn draw_result(fb: &mut FrameBuffer, r: &Result<Readings, JigError>) {
     let _ = draw_measurement(fb, r);
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::adc::ChannelError;
-    use crate::jig::EMULATED_NODES;
+    const NODES: Readings = Readings {
+        vcc: 12.0,
+        vb: 2.1,
+        ve: 1.45,
+        vc: 6.8,
+    };
 
     fn art(fb: &FrameBuffer) -> String {
         let mut v = Vec::new();
@@ -319,7 +354,7 @@ mod tests {
         let mut fb = FrameBuffer::new();
         let s = VerdictScreen {
             verdict: Verdict::Fail,
-            failing_node: Some(Node::Vc),
+            failing_node: Some(Channel::Vc),
             fault: "collector resistor open or transistor cut off",
         };
         draw_verdict(&mut fb, &s).unwrap();
@@ -344,16 +379,10 @@ mod tests {
     #[test]
     fn measurement_screens() {
         let mut fb = FrameBuffer::new();
-        draw_result(&mut fb, &Ok(EMULATED_NODES));
+        draw_result(&mut fb, &Ok(NODES));
         assert!(lit(&fb, 14, 62) > 150);
         let mut e = FrameBuffer::new();
-        draw_result(
-            &mut e,
-            &Err(JigError {
-                node: Node::Ve,
-                error: ChannelError::OverRange,
-            }),
-        );
+        draw_result(&mut e, &Err(JigError::OutOfRange(Channel::Ve)));
         assert!(lit(&e, 0, 20) > 100);
     }
 

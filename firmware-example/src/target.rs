@@ -90,16 +90,52 @@ pub mod ticks {
         }
     }
 
-    impl Ticks for SysTickTicks {
-        fn now(&mut self) -> u32 {
-            loop {
-                let w = SYSTICK_WRAPS.load(Ordering::Acquire);
-                let cur = SYST::get_current();
-                if SYSTICK_WRAPS.load(Ordering::Acquire) == w {
-                    return (w << 24) | (RELOAD - (cur & RELOAD));
-                }
+    /// SysTick ticks since [`SysTickTicks::start`], 56 bits (wraps counted in the exception).
+    pub fn now64() -> u64 {
+        loop {
+            let w = SYSTICK_WRAPS.load(Ordering::Acquire);
+            let cur = SYST::get_current();
+            if SYSTICK_WRAPS.load(Ordering::Acquire) == w {
+                return (u64::from(w) << 24) | u64::from(RELOAD - (cur & RELOAD));
             }
         }
+    }
+
+    impl Ticks for SysTickTicks {
+        fn now(&mut self) -> u32 {
+            now64() as u32
+        }
+    }
+
+    /// The console's millisecond clock from SysTick (started by [`SysTickTicks::start`]).
+    pub struct SysTickClock {
+        /// SysTick ticks per millisecond (the core clock in kHz).
+        pub ticks_per_ms: u32,
+    }
+
+    impl biasjig_core::console::Clock for SysTickClock {
+        fn now_ms(&mut self) -> u64 {
+            now64() / u64::from(self.ticks_per_ms.max(1))
+        }
+    }
+
+    /// Runs exactly `2 * n` instructions (a `subs` / `bne` loop) and gives the SysTick ticks they
+    /// took: under QEMU `-icount shift=0` this relates ticks to instructions.
+    pub fn ticks_for_loop(n: u32) -> u64 {
+        let start = now64();
+        if n > 0 {
+            // SAFETY: a register-only countdown loop; touches no memory and no stack.
+            unsafe {
+                core::arch::asm!(
+                    "1:",
+                    "subs {0}, #1",
+                    "bne 1b",
+                    inout(reg) n => _,
+                    options(nomem, nostack)
+                );
+            }
+        }
+        now64() - start
     }
 
     /// The DWT cycle counter (core cycles; hardware image).

@@ -1,5 +1,7 @@
-//! biasjig jig reader on QEMU's `netduinoplus2` (STM32F405): console on USART1, an emulated jig,
-//! the screen drawn into a RAM framebuffer.
+//! biasjig jig reader on QEMU's `netduinoplus2` (STM32F405): the core console on USART1, the
+//! emulated jig (a board drawn around the console's design, a fault set by `inject`, node
+//! voltages from the core engine through the hardware's ADC math), the screen drawn into a RAM
+//! framebuffer (`fw:screen?`), settings kept in RAM.
 //!
 //! Start-up is kept minimal for the emulator: no clock tree set-up (a HAL's clock set-up can wait
 //! forever under QEMU), only USART1 and SysTick are touched.
@@ -8,9 +10,11 @@
 #![no_std]
 #![no_main]
 
-use biasjig_firmware::console::{App, Board, InterimConsole};
-use biasjig_firmware::jig::{EmulatedJig, JigError, NodeVoltages, EMULATED_NODES};
-use biasjig_firmware::screen::{draw_result, FrameBuffer};
+use biasjig_core::console::jig::MemoryStore;
+use biasjig_core::console::{Console, Identity};
+use biasjig_firmware::console::{App, Board, Show};
+use biasjig_firmware::jig::EmulatedJig;
+use biasjig_firmware::screen::{draw_measurement, draw_verdict, FrameBuffer};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::target::{stack, ticks, usart1::Usart1};
 use cortex_m_rt::{entry, exception};
@@ -20,9 +24,16 @@ use panic_halt as _;
 // no device interrupt, so the F405 difference does not matter).
 use stm32f4xx_hal as _;
 
+/// QEMU's netduinoplus2 SYSCLK (SysTick's core clock), Hz.
+const SYSCLK_HZ: u32 = 168_000_000;
+/// The seed of the first emulated board (`fw:board SEED` draws another).
+const BOARD_SEED: u64 = 1;
+/// Iterations of the start-up tick-rate loop (two instructions each).
+const RATE_LOOP: u32 = 500_000;
+
 struct EmulatedBoard {
-    jig: EmulatedJig,
     fb: FrameBuffer,
+    rate: (u64, u64),
 }
 
 impl Board for EmulatedBoard {
@@ -32,16 +43,49 @@ impl Board for EmulatedBoard {
     fn stack_size(&self) -> usize {
         stack::size()
     }
-    fn measure(&mut self) -> Result<NodeVoltages, JigError> {
-        self.jig.measure()
-    }
-    fn show(&mut self, result: &Result<NodeVoltages, JigError>) {
-        draw_result(&mut self.fb, result);
+    fn show(&mut self, what: &Show<'_>) {
+        let _ = match what {
+            Show::Verdict(v) => draw_verdict(&mut self.fb, v),
+            Show::Measured(r) => draw_measurement(&mut self.fb, r),
+        };
     }
     fn screen_art<W: Write>(&mut self, out: &mut W) -> Result<bool, W::Error> {
         self.fb.write_art(out)?;
         Ok(true)
     }
+    fn tick_rate(&self) -> Option<(u64, u64)> {
+        Some(self.rate)
+    }
+}
+
+type EmuConsole = Console<EmulatedJig, MemoryStore, ticks::SysTickClock>;
+type EmuApp =
+    App<'static, EmulatedJig, MemoryStore, ticks::SysTickClock, EmulatedBoard, ticks::SysTickTicks>;
+
+fn halt() -> ! {
+    loop {
+        cortex_m::asm::wfi();
+    }
+}
+
+/// Builds the console and the application in static memory (kept out of `main`'s frame, so the
+/// stack holds only the frames of the command being served).
+#[inline(never)]
+fn init(cost_ticks: ticks::SysTickTicks) -> Option<&'static mut EmuApp> {
+    let rate = (2 * u64::from(RATE_LOOP), ticks::ticks_for_loop(RATE_LOOP));
+    let console: &'static mut EmuConsole = cortex_m::singleton!(: EmuConsole = Console::new(
+        Identity::new("jig-emulated", biasjig_firmware::VERSION),
+        EmulatedJig::new(BOARD_SEED),
+        MemoryStore::default(),
+        ticks::SysTickClock {
+            ticks_per_ms: SYSCLK_HZ / 1000,
+        },
+    ))?;
+    let board = EmulatedBoard {
+        fb: FrameBuffer::new(),
+        rate,
+    };
+    cortex_m::singleton!(: EmuApp = App::new(console, board, cost_ticks))
 }
 
 #[entry]
@@ -49,23 +93,10 @@ fn main() -> ! {
     stack::paint();
     let mut io = NbSerial::new(Usart1::init());
     let Some(cp) = cortex_m::Peripherals::take() else {
-        loop {
-            cortex_m::asm::wfi();
-        }
+        halt()
     };
-    let ticks = ticks::SysTickTicks::start(cp.SYST);
-    let board = EmulatedBoard {
-        jig: EmulatedJig::new(EMULATED_NODES),
-        fb: FrameBuffer::new(),
-    };
-    // Interim console: the core console engine replaces `InterimConsole` here when it exists.
-    let mut app = App::new(
-        InterimConsole {
-            model: "jig-emulated",
-        },
-        board,
-        ticks,
-    );
+    let cost_ticks = ticks::SysTickTicks::start(cp.SYST);
+    let Some(app) = init(cost_ticks) else { halt() };
     app.run(&mut io)
 }
 

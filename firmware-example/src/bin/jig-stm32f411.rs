@@ -1,21 +1,25 @@
-//! biasjig jig reader on an STM32F411 board: the console on USART2 (PA2 TX, PA3 RX, 115200 8N1;
-//! the ST-LINK virtual COM port on a Nucleo-F411RE), the jig's four node inputs through 47k/10k
-//! dividers on ADC1 (VCC PA0/IN0, VB PA1/IN1, VE PA4/IN4, VC PB0/IN8), an SSD1306 128x64 OLED on
-//! I2C1 (PB8 SCL, PB9 SDA, address 0x3C) and a measure button on PC13 (active low).
+//! biasjig jig reader on an STM32F411 board: the core console on USART2 (PA2 TX, PA3 RX, 115200
+//! 8N1; the ST-LINK virtual COM port on a Nucleo-F411RE), the jig's four node inputs through
+//! 100k/10k dividers (ratio 11, 36.3 V full scale) on ADC1 (VCC PA0/IN0, VB PA1/IN1, VE PA4/IN4,
+//! VC PB0/IN8), an SSD1306 128x64 OLED on I2C1 (PB8 SCL, PB9 SDA, address 0x3C) and a
+//! measure-and-check button on PC13 (active low).
+//!
+//! Settings and calibration are kept in RAM (`MemoryStore`): lost at power-off. A flash store
+//! needs a sector reserved in `memory.x` away from the image and a sector erase per `save`; it
+//! is not done here.
 #![no_std]
 #![no_main]
 
-use biasjig_firmware::adc::ChannelConfig;
+use biasjig_core::console::jig::MemoryStore;
+use biasjig_core::console::{Channel, Console, Identity};
 use biasjig_firmware::button::Debounce;
-use biasjig_firmware::console::{App, Board, InterimConsole};
+use biasjig_firmware::console::{App, Board, Show};
 use biasjig_firmware::cost::Ticks;
-use biasjig_firmware::jig::{
-    JigError, Node, NodeVoltages, SampleSource, SampledJig, JIG_DIVIDER_RATIO,
-};
-use biasjig_firmware::screen::draw_measurement;
+use biasjig_firmware::jig::{AdcJig, SampleSource};
+use biasjig_firmware::screen::{draw_measurement, draw_verdict};
 use biasjig_firmware::serial::NbSerial;
-use biasjig_firmware::target::{stack, ticks::DwtTicks};
-use cortex_m_rt::entry;
+use biasjig_firmware::target::{stack, ticks, ticks::DwtTicks};
+use cortex_m_rt::{entry, exception};
 use embedded_io::{ReadReady, Write};
 use panic_halt as _;
 use ssd1306::mode::BufferedGraphicsMode;
@@ -49,19 +53,18 @@ struct AdcSamples {
 }
 
 impl SampleSource for AdcSamples {
-    fn sample(&mut self, node: Node) -> u16 {
+    fn sample(&mut self, channel: Channel) -> u16 {
         let t = SampleTime::Cycles_480;
-        match node {
-            Node::Vcc => self.adc.convert(&self.vcc, t),
-            Node::Vb => self.adc.convert(&self.vb, t),
-            Node::Ve => self.adc.convert(&self.ve, t),
-            Node::Vc => self.adc.convert(&self.vc, t),
+        match channel {
+            Channel::Vcc => self.adc.convert(&self.vcc, t),
+            Channel::Vb => self.adc.convert(&self.vb, t),
+            Channel::Ve => self.adc.convert(&self.ve, t),
+            Channel::Vc => self.adc.convert(&self.vc, t),
         }
     }
 }
 
 struct JigBoard {
-    jig: SampledJig<AdcSamples>,
     display: Option<Display>,
 }
 
@@ -72,12 +75,12 @@ impl Board for JigBoard {
     fn stack_size(&self) -> usize {
         stack::size()
     }
-    fn measure(&mut self) -> Result<NodeVoltages, JigError> {
-        self.jig.measure()
-    }
-    fn show(&mut self, result: &Result<NodeVoltages, JigError>) {
+    fn show(&mut self, what: &Show<'_>) {
         if let Some(d) = self.display.as_mut() {
-            let _ = draw_measurement(d, result);
+            let _ = match what {
+                Show::Verdict(v) => draw_verdict(d, v),
+                Show::Measured(r) => draw_measurement(d, r),
+            };
             if d.flush().is_err() {
                 // The display stopped answering; stop drawing to it.
                 self.display = None;
@@ -87,6 +90,23 @@ impl Board for JigBoard {
     fn screen_art<W: Write>(&mut self, _out: &mut W) -> Result<bool, W::Error> {
         Ok(false)
     }
+}
+
+type HwConsole = Console<AdcJig<AdcSamples>, MemoryStore, ticks::SysTickClock>;
+type HwApp = App<'static, AdcJig<AdcSamples>, MemoryStore, ticks::SysTickClock, JigBoard, DwtTicks>;
+
+/// Builds the console and the application in static memory (kept out of `main`'s frame).
+#[inline(never)]
+fn init(jig: AdcJig<AdcSamples>, board: JigBoard) -> Option<&'static mut HwApp> {
+    let console: &'static mut HwConsole = cortex_m::singleton!(: HwConsole = Console::new(
+        identity(),
+        jig,
+        MemoryStore::default(),
+        ticks::SysTickClock {
+            ticks_per_ms: SYSCLK_HZ / 1000,
+        },
+    ))?;
+    cortex_m::singleton!(: HwApp = App::new(console, board, DwtTicks))
 }
 
 #[entry]
@@ -122,13 +142,8 @@ fn main() -> ! {
         ve: gpioa.pa4.into_analog(),
         vc: gpiob.pb0.into_analog(),
     };
-    // Per-channel two-point calibration goes into `channels[i].cal` (from the production
-    // calibration record; identity until one is stored).
-    let jig = SampledJig {
-        source: samples,
-        channels: [ChannelConfig::new(JIG_DIVIDER_RATIO, vref); 4],
-        oversample: 32,
-    };
+    // The console hands the jig its two-point calibration (`calibrate CH low|high V`).
+    let jig = AdcJig::new(samples, vref);
 
     let i2c = I2c::new(
         dp.I2C1,
@@ -149,14 +164,12 @@ fn main() -> ! {
 
     let mut poll_clock = DwtTicks::start(&mut cp.DCB, &mut cp.DWT);
     let mut last_poll = poll_clock.now();
-    // Interim console: the core console engine replaces `InterimConsole` here when it exists.
-    let mut app = App::new(
-        InterimConsole {
-            model: "jig-stm32f411",
-        },
-        JigBoard { jig, display },
-        DwtTicks,
-    );
+    let _systick = ticks::SysTickTicks::start(cp.SYST);
+    let Some(app) = init(jig, JigBoard { display }) else {
+        loop {
+            cortex_m::asm::wfi();
+        }
+    };
 
     loop {
         if matches!(io.read_ready(), Ok(true)) {
@@ -166,9 +179,33 @@ fn main() -> ! {
         if now.wrapping_sub(last_poll) >= BUTTON_POLL_CYCLES {
             last_poll = now;
             if debounce.update(button.is_low()) {
-                // Measure and show; the pass/fail check waits for the core's check module.
-                let _ = app.measure_and_show();
+                // Measure and check (the console's `test`), verdict on the screen.
+                app.button();
             }
         }
     }
+}
+
+/// The identification: the serial is the chip's 96-bit unique ID in hex.
+fn identity() -> Identity {
+    let mut id = Identity::new("jig-stm32f411", biasjig_firmware::VERSION);
+    let uid = stm32f4xx_hal::signature::Uid::get();
+    id.serial.clear();
+    let mut bytes = [0u8; 12];
+    let (x, y) = (uid.x(), uid.y());
+    bytes[..2].copy_from_slice(&x.to_le_bytes());
+    bytes[2..4].copy_from_slice(&y.to_le_bytes());
+    bytes[4] = uid.waf_num();
+    for (i, b) in uid.lot_num().bytes().take(7).enumerate() {
+        bytes[5 + i] = b;
+    }
+    for b in bytes {
+        let _ = core::fmt::Write::write_fmt(&mut id.serial, format_args!("{b:02x}"));
+    }
+    id
+}
+
+#[exception]
+fn SysTick() {
+    ticks::systick_wrapped();
 }

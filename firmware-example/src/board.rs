@@ -1,0 +1,193 @@
+//! The emulated board under test: part values drawn within their tolerance from a seed around
+//! the console's current design, an hFE within the profile's spread, one injected fault, and
+//! its node voltages from the core engine (`solve::solve`, the one circuit model).
+use biasjig_core::console::default_settings;
+use biasjig_core::device::Profile;
+use biasjig_core::solve::{solve, Conditions, SolveError};
+use biasjig_core::stage::{Fault, Readings, Resistor, Stage};
+
+/// The emulated bench supply sits within this fraction of the supply's own tolerance of its
+/// nominal value (a bench supply is set close to nominal).
+pub const SUPPLY_SPREAD: f64 = 0.2;
+
+/// splitmix64: the seed's stream of draws (deterministic on every platform).
+#[derive(Debug, Clone, Copy)]
+struct Draws(u64);
+
+impl Draws {
+    fn next(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+        z ^ (z >> 31)
+    }
+
+    /// Uniform in -1 ..= 1.
+    fn unit(&mut self) -> f64 {
+        (self.next() >> 11) as f64 / ((1u64 << 53) - 1) as f64 * 2.0 - 1.0
+    }
+}
+
+/// The emulated board: design, seed, drawn parts, fault, cached node voltages.
+#[derive(Debug, Clone)]
+pub struct BoardModel {
+    seed: u64,
+    design: Stage,
+    profile: Profile,
+    temp_c: f64,
+    fault: Option<Fault>,
+    /// The drawn board: parts within tolerance, and its hFE at 25 °C.
+    drawn: Option<(Stage, f64)>,
+    nodes: Option<Readings>,
+}
+
+impl BoardModel {
+    /// A good board drawn with `seed` around the console's default design.
+    pub fn new(seed: u64) -> Self {
+        let s = default_settings();
+        BoardModel {
+            seed,
+            design: s.stage,
+            profile: s.profile,
+            temp_c: s.temp_c,
+            fault: None,
+            drawn: None,
+            nodes: None,
+        }
+    }
+
+    /// The design to draw around (from the console); redraws when it differs.
+    pub fn set_design(&mut self, stage: Stage, profile: Profile, temp_c: f64) {
+        if stage != self.design
+            || profile != self.profile
+            || temp_c.to_bits() != self.temp_c.to_bits()
+        {
+            self.design = stage;
+            self.profile = profile;
+            self.temp_c = temp_c;
+            self.drawn = None;
+            self.nodes = None;
+        }
+    }
+
+    /// Draw a new board with `seed` (the fault stays).
+    pub fn set_seed(&mut self, seed: u64) {
+        self.seed = seed;
+        self.drawn = None;
+        self.nodes = None;
+    }
+
+    /// The seed of the drawn board.
+    pub fn seed(&self) -> u64 {
+        self.seed
+    }
+
+    /// The fault the board carries (`None`: a good board).
+    pub fn set_fault(&mut self, fault: Option<Fault>) {
+        self.fault = fault;
+        self.nodes = None;
+    }
+
+    /// The injected fault.
+    pub fn fault(&self) -> Option<Fault> {
+        self.fault
+    }
+
+    /// The drawn parts (nominal design, each within its tolerance) and the drawn hFE at 25 °C.
+    pub fn drawn(&mut self) -> (Stage, f64) {
+        if let Some(d) = self.drawn {
+            return d;
+        }
+        let mut g = Draws(self.seed);
+        let mut s = self.design;
+        s.vcc.value *= 1.0 + SUPPLY_SPREAD * s.vcc.tol * g.unit();
+        for r in Resistor::ALL {
+            let p = s.part_mut(r);
+            if p.value.is_finite() && p.value > 0.0 {
+                p.value *= 1.0 + p.tol * g.unit();
+            }
+        }
+        let p = &self.profile;
+        let t = 0.5 * (g.unit() + 1.0);
+        let beta = p.beta_min + t * (p.beta_max - p.beta_min);
+        self.drawn = Some((s, beta));
+        (s, beta)
+    }
+
+    /// The board's node voltages, V, from the core engine (drawn parts, the fault applied).
+    pub fn nodes(&mut self) -> Result<Readings, SolveError> {
+        if let Some(n) = self.nodes {
+            return Ok(n);
+        }
+        let (mut stage, beta_25) = self.drawn();
+        let mut device = None;
+        match self.fault {
+            Some(Fault::Device(d)) => device = Some(d),
+            Some(f) => stage = stage.with_fault(f),
+            None => {}
+        }
+        let op = solve(
+            &stage,
+            &self.profile,
+            Conditions {
+                temp_c: self.temp_c,
+                beta_25,
+                fault: device,
+            },
+        )?;
+        let r = Readings {
+            vcc: op.vcc,
+            vb: op.vb,
+            ve: op.ve,
+            vc: op.vc,
+        };
+        self.nodes = Some(r);
+        Ok(r)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use biasjig_core::stage::DeviceFault;
+
+    #[test]
+    fn draws_stay_within_tolerance_and_repeat() {
+        for seed in 0..50 {
+            let mut b = BoardModel::new(seed);
+            let (s, beta) = b.drawn();
+            let d = default_settings();
+            for r in Resistor::ALL {
+                let (got, nom) = (s.part(r).value, d.stage.part(r).value);
+                assert!(
+                    (got / nom - 1.0).abs() <= d.stage.part(r).tol + 1e-12,
+                    "{r:?}"
+                );
+            }
+            assert!((d.profile.beta_min..=d.profile.beta_max).contains(&beta));
+            assert_eq!(BoardModel::new(seed).drawn(), (s, beta));
+        }
+        let (a, _) = BoardModel::new(1).drawn();
+        let (b, _) = BoardModel::new(2).drawn();
+        assert_ne!(a, b);
+    }
+
+    #[test]
+    fn faults_come_from_the_engine() {
+        let mut b = BoardModel::new(9);
+        let good = b.nodes().unwrap();
+        assert!(good.vb > 1.0 && good.vc > good.ve && good.vc < good.vcc);
+        b.set_fault(Some(Fault::Short(Resistor::Re1)));
+        let short = b.nodes().unwrap();
+        assert_ne!(short, good);
+        b.set_fault(Some(Fault::Device(DeviceFault::BeOpen)));
+        let be = b.nodes().unwrap();
+        // No emitter current: the collector sits at the supply (within leakage).
+        assert!((be.vc - be.vcc).abs() < 0.01, "{be:?}");
+        b.set_fault(None);
+        assert_eq!(b.nodes().unwrap(), good);
+        b.set_seed(10);
+        assert_ne!(b.nodes().unwrap(), good);
+    }
+}
