@@ -106,7 +106,7 @@ pub fn warnings(w: &Warnings) -> Value {
 /// Print exactly one JSON document on stdout.
 pub fn print(v: &Value) {
     match serde_json::to_string_pretty(v) {
-        Ok(s) => println!("{s}"),
+        Ok(s) => outln!("{s}"),
         Err(e) => eprintln!("biasjig: error: could not write JSON: {e}"),
     }
 }

@@ -13,6 +13,23 @@ use clap::{Parser, Subcommand};
 
 use crate::error::{CliError, CmdResult};
 
+/// Like `println!`, but a closed standard output (a pipe whose reader went away) ends the
+/// output quietly instead of panicking.
+macro_rules! outln {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        let _ = writeln!(std::io::stdout(), $($arg)*);
+    }};
+}
+
+/// Like `print!`, with the same treatment of a closed standard output as [`outln!`].
+macro_rules! out {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        let _ = write!(std::io::stdout(), $($arg)*);
+    }};
+}
+
 mod boardlog;
 mod cmd;
 mod designfile;

@@ -28,9 +28,9 @@ impl Cmd {
         if g.json {
             json::print(&json::prediction(&p));
         } else {
-            println!("Parts");
-            print!("{}", text::parts(&r.stage));
-            print!("{}", text::prediction(&r.stage, &p, r.temp_c));
+            outln!("Parts");
+            out!("{}", text::parts(&r.stage));
+            out!("{}", text::prediction(&r.stage, &p, r.temp_c));
         }
         Ok(EXIT_OK)
     }

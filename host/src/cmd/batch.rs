@@ -144,7 +144,7 @@ impl Cmd {
                 }
                 boards.push(doc);
             } else {
-                println!(
+                outln!(
                     "{:<12} {:<8} {}",
                     serial,
                     o.word().to_uppercase(),
@@ -166,7 +166,7 @@ impl Cmd {
                             "refused": refused, "bad_rows": bad, "yield": yield_},
             }));
         } else {
-            println!(
+            outln!(
                 "\n{checked} boards checked: {passed} passed, {failed} failed, {refused} refused; \
                  yield {:.1} %; {bad} bad rows",
                 100.0 * yield_

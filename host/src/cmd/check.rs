@@ -451,7 +451,7 @@ impl Cmd {
                 if g.json {
                     json::print(&outcome_json(&o));
                 } else {
-                    print!("{}", outcome_text(&st, self.serial.as_deref(), &o));
+                    out!("{}", outcome_text(&st, self.serial.as_deref(), &o));
                 }
                 Ok(if v.pass { EXIT_OK } else { EXIT_FAIL })
             }

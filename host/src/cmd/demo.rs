@@ -77,8 +77,8 @@ fn planted_fault(index: u32, stage: &Stage) -> Option<(Option<Fault>, Option<Dev
 }
 
 fn heading(title: &str) {
-    println!();
-    println!(
+    outln!();
+    outln!(
         "━━ {title} {}",
         "━".repeat(70usize.saturating_sub(title.chars().count()))
     );
@@ -87,7 +87,7 @@ fn heading(title: &str) {
 fn run(args: &[&str]) -> CmdResult {
     let mut full = vec!["biasjig"];
     full.extend_from_slice(args);
-    println!("$ {}", full.join(" "));
+    outln!("$ {}", full.join(" "));
     crate::run_args(full)
 }
 
@@ -165,15 +165,15 @@ impl Cmd {
             })?;
         }
 
-        println!("biasjig demo: a vibration-sensor preamp for pump monitoring (invented scenario)");
-        println!("12 V rail, 15 kΩ load, gain 15 from a 600 Ω source, low corner <= 5 Hz,");
-        println!("IC <= 2 mA, ambient -10 to +55 °C, E24 5 % resistors, E6 20 % capacitors;");
-        println!("an invented small-signal NPN profile: hFE 100 to 300, VBE 0.65 V at 1 mA.");
-        println!("Files go to {}.", dir.display());
-        println!(
+        outln!("biasjig demo: a vibration-sensor preamp for pump monitoring (invented scenario)");
+        outln!("12 V rail, 15 kΩ load, gain 15 from a 600 Ω source, low corner <= 5 Hz,");
+        outln!("IC <= 2 mA, ambient -10 to +55 °C, E24 5 % resistors, E6 20 % capacitors;");
+        outln!("an invented small-signal NPN profile: hFE 100 to 300, VBE 0.65 V at 1 mA.");
+        outln!("Files go to {}.", dir.display());
+        outln!(
             "Safety: de-energise boards before changing probes or parts; keep jig inputs within"
         );
-        println!("their rated range; no mains-connected circuits without isolation.");
+        outln!("their rated range; no mains-connected circuits without isolation.");
 
         heading("1. Design: from the requirement to standard parts");
         let mut args: Vec<&str> = vec!["design"];
@@ -223,7 +223,7 @@ impl Cmd {
         std::fs::write(&readings, csv).map_err(|e| {
             CliError::usage(format!("--out: {}: cannot write: {e}", readings.display()))
         })?;
-        println!(
+        outln!(
             "{} boards simulated within tolerance (3 of them with a planted fault), read with ±3 mV noise",
             self.boards
         );
@@ -248,11 +248,11 @@ impl Cmd {
                 &vc, "--serial", &serial,
             ])?;
             if code != EXIT_FAIL {
-                println!("(the planted fault on {serial} was not caught)");
+                outln!("(the planted fault on {serial} was not caught)");
             }
         }
         heading("Done");
-        println!(
+        outln!(
             "design {}, readings {}, log {}, report {}",
             design.display(),
             readings.display(),

@@ -213,7 +213,7 @@ impl Cmd {
                 .collect();
             json::print(&json!({ "candidates": list }));
         } else {
-            print!("{}", self.report(&req, &shown, &preds));
+            out!("{}", self.report(&req, &shown, &preds));
         }
         Ok(EXIT_OK)
     }

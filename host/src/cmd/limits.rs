@@ -67,7 +67,7 @@ impl Cmd {
         if g.json {
             json::print(&to_json(&lim, &meter, &var));
         } else {
-            print!("{}", report(&lim, &meter, &var, &nominal, &r.stage));
+            out!("{}", report(&lim, &meter, &var, &nominal, &r.stage));
         }
         Ok(EXIT_OK)
     }

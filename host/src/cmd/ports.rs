@@ -28,7 +28,7 @@ impl Cmd {
             eprintln!("no serial ports found");
         } else {
             for p in &ports {
-                println!("{}  ({})", p.port_name, kind(&p.port_type));
+                outln!("{}  ({})", p.port_name, kind(&p.port_type));
             }
         }
         Ok(EXIT_OK)

@@ -321,7 +321,7 @@ impl Cmd {
                 "skipped_lines": contents.warnings.len(),
             }));
         } else {
-            print!("{text}");
+            out!("{text}");
         }
         Ok(EXIT_OK)
     }

@@ -233,9 +233,9 @@ impl Cmd {
         if g.json {
             json::print(&to_json(&sp, &nominal, &var, &settings, &req));
         } else {
-            print!("{}", report(&sp, &nominal, &var, &settings, &req, r.temp_c));
+            out!("{}", report(&sp, &nominal, &var, &settings, &req, r.temp_c));
             for p in &written {
-                println!("wrote {}", p.display());
+                outln!("wrote {}", p.display());
             }
         }
         Ok(EXIT_OK)
