@@ -234,3 +234,12 @@ pub fn warnings(stage: &Stage, p: &Prediction) -> String {
     }
     s
 }
+
+/// An ambient range in words: "25 °C" for a single temperature, else "-10 to 55 °C".
+pub fn ambient(min_c: f64, max_c: f64) -> String {
+    if min_c == max_c {
+        format!("{min_c} °C")
+    } else {
+        format!("{min_c} to {max_c} °C")
+    }
+}

@@ -107,10 +107,9 @@ pub fn report(
     let mut s = String::new();
     let _ = writeln!(
         s,
-        "Pass windows at {} supply, ambient {} to {} °C, meter {} % of reading + {} (divider {} %)",
+        "Pass windows at {} supply, ambient {}, meter {} % of reading + {} (divider {} %)",
         eng4(lim.vcc, "V"),
-        var.temp_min_c,
-        var.temp_max_c,
+        crate::text::ambient(var.temp_min_c, var.temp_max_c),
         100.0 * meter.gain_error,
         eng4(meter.offset, "V"),
         100.0 * meter.divider_tol

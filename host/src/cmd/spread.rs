@@ -358,8 +358,10 @@ pub fn report(
     };
     let _ = writeln!(
         s,
-        "Spread: ambient {} to {} °C, parts {dist}; {} Monte Carlo samples, seed {}",
-        var.temp_min_c, var.temp_max_c, m.runs, st.seed
+        "Spread: ambient {}, parts {dist}; {} Monte Carlo samples, seed {}",
+        crate::text::ambient(var.temp_min_c, var.temp_max_c),
+        m.runs,
+        st.seed
     );
     let _ = writeln!(
         s,
