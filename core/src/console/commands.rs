@@ -233,6 +233,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn save_settings(&mut self) -> Result<(), Fail> {
         let mut rec = [0u8; RECORD_LEN];
         self.settings.encode(&mut rec);
@@ -241,6 +242,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             .map_err(|e| Fail::new(Code::Store, format_args!("settings not kept: {e}")))
     }
 
+    #[inline(never)]
     fn save_calibration(&mut self) -> Result<(), Fail> {
         let mut rec = [0u8; RECORD_LEN];
         record::encode_calibration(&self.calibration, &mut rec);
@@ -262,16 +264,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 ));
                 Ok(None)
             }
-            Command::Reset => {
-                self.editable()?;
-                self.settings = default_settings();
-                self.readings = None;
-                self.last = None;
-                self.requirement = super::default_requirement();
-                self.candidates.clear();
-                self.cal_low = [None; 4];
-                Ok(None)
-            }
+            Command::Reset => self.reset(),
             Command::Stage => {
                 self.show_stage(r);
                 Ok(None)
@@ -328,22 +321,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.last = None;
                 Ok(None)
             }
-            Command::Measure(n) => {
-                let rd = self.measure(n)?;
-                show_readings(&rd, Source::Measured, r);
-                Ok(None)
-            }
-            Command::Check(rd) => {
-                self.judge(rd, Source::Typed)?;
-                self.show_check(r);
-                Ok(None)
-            }
-            Command::Test(n) => {
-                let rd = self.measure(n)?;
-                self.judge(rd, Source::Measured)?;
-                self.show_check(r);
-                Ok(None)
-            }
+            Command::Measure(n) => self.cmd_measure(n, r),
+            Command::Check(rd) => self.cmd_judge(rd, Source::Typed, r),
+            Command::Test(n) => self.cmd_test(n, r),
             Command::Diagnose => self.diagnose(r),
             Command::Readings => match self.readings {
                 Some((rd, src)) => {
@@ -360,19 +340,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.jig.inject(f).map_err(jig_fail)?;
                 Ok(None)
             }
-            Command::Lock(pin) => {
-                if self.is_locked() {
-                    return Err(Fail::new(Code::Locked, format_args!("already locked")));
-                }
-                self.settings.pin = Some(pin);
-                self.settings.pin_failures = 0;
-                match self.save_settings() {
-                    Ok(()) => Ok(Some(Text::of(format_args!("locked")))),
-                    Err(_) => Ok(Some(Text::of(format_args!(
-                        "locked until power-off (not kept)"
-                    )))),
-                }
-            }
+            Command::Lock(pin) => self.lock(pin),
             Command::Unlock(pin) => self.unlock(pin),
             Command::Echo(on) => {
                 self.echo = on;
@@ -402,6 +370,54 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
+    fn reset(&mut self) -> Outcome {
+        self.editable()?;
+        self.settings = default_settings();
+        self.readings = None;
+        self.last = None;
+        self.requirement = super::default_requirement();
+        self.candidates.clear();
+        self.cal_low = [None; 4];
+        Ok(None)
+    }
+
+    #[inline(never)]
+    fn lock(&mut self, pin: super::parse::Pin) -> Outcome {
+        if self.is_locked() {
+            return Err(Fail::new(Code::Locked, format_args!("already locked")));
+        }
+        self.settings.pin = Some(pin);
+        self.settings.pin_failures = 0;
+        match self.save_settings() {
+            Ok(()) => Ok(Some(Text::of(format_args!("locked")))),
+            Err(_) => Ok(Some(Text::of(format_args!(
+                "locked until power-off (not kept)"
+            )))),
+        }
+    }
+
+    #[inline(never)]
+    fn cmd_measure<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
+        let rd = self.measure(n)?;
+        show_readings(&rd, Source::Measured, r);
+        Ok(None)
+    }
+
+    #[inline(never)]
+    fn cmd_judge<W: Write>(&mut self, rd: Readings, src: Source, r: &mut Reply<'_, W>) -> Outcome {
+        self.judge(rd, src)?;
+        self.show_check(r);
+        Ok(None)
+    }
+
+    #[inline(never)]
+    fn cmd_test<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
+        let rd = self.measure(n)?;
+        self.cmd_judge(rd, Source::Measured, r)
+    }
+
+    #[inline(never)]
     fn set(&mut self, s: Setting) -> Outcome {
         let mut next: Settings = self.settings;
         let st = &mut next.stage;
@@ -499,6 +515,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(None)
     }
 
+    #[inline(never)]
     fn set_meter(&mut self, m: MeterSetting) -> Outcome {
         let meter = &mut self.settings.meter;
         match m {
@@ -527,6 +544,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(None)
     }
 
+    #[inline(never)]
     pub(super) fn measure(&mut self, samples: u16) -> Result<Readings, Fail> {
         let rd = self.jig.measure(samples).map_err(jig_fail)?;
         if ![rd.vcc, rd.vb, rd.ve, rd.vc].iter().all(|v| v.is_finite()) {
@@ -539,6 +557,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(rd)
     }
 
+    #[inline(never)]
     fn unlock(&mut self, pin: super::parse::Pin) -> Outcome {
         let Some(stored) = self.settings.pin else {
             return Ok(Some(Text::of(format_args!("not locked"))));
@@ -579,6 +598,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn calibrate<W: Write>(&mut self, step: CalibrateStep, r: &mut Reply<'_, W>) -> Outcome {
         match step {
             CalibrateStep::Show => {
@@ -674,6 +694,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn show_stage<W: Write>(&self, r: &mut Reply<'_, W>) {
         let s = &self.settings.stage;
         let pol = match s.polarity {
@@ -767,6 +788,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn show_profile<W: Write>(&self, r: &mut Reply<'_, W>) {
         let p = &self.settings.profile;
         if r.machine() {
@@ -811,6 +833,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn show_parts<W: Write>(&self, count: BandCount, r: &mut Reply<'_, W>) {
         let s = &self.settings.stage;
         for which in Resistor::ALL {
@@ -884,6 +907,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn show_limits<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
         let st = &self.settings;
         let var = st.variation();
@@ -921,6 +945,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(None)
     }
 
+    #[inline(never)]
     fn show_meter<W: Write>(&self, r: &mut Reply<'_, W>) {
         let m = &self.settings.meter;
         if r.machine() {
@@ -940,6 +965,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn predict<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
         let st = &self.settings;
         let cond = Conditions {
@@ -1080,6 +1106,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 }
 
+#[inline(never)]
 pub(super) fn show_readings<W: Write>(rd: &Readings, src: Source, r: &mut Reply<'_, W>) {
     let src = match src {
         Source::Measured => "measured",
@@ -1104,6 +1131,7 @@ pub(super) fn show_readings<W: Write>(rd: &Readings, src: Source, r: &mut Reply<
     }
 }
 
+#[inline(never)]
 fn help<W: Write>(topic: Option<&str>, r: &mut Reply<'_, W>) -> Outcome {
     match topic {
         None => {

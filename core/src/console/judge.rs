@@ -153,6 +153,7 @@ impl fmt::Display for Separate<'_> {
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// Judge readings: plausibility, limits at the measured supply, verdict and, when the board
     /// fails, the diagnosis. Keeps the result as the last check (nothing changes on an error).
+    #[inline(never)]
     pub(super) fn judge(&mut self, rd: Readings, src: Source) -> Result<(), Fail> {
         let st = &self.settings;
         let var = st.variation();
@@ -160,21 +161,29 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let lim = limits::limits(&st.stage, &st.profile, &var, &st.meter, rd.vcc)
             .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
         let verdict = check::check(&st.stage, &lim, &st.meter, &rd).map_err(refused)?;
-        let diagnosis = if verdict.pass {
-            None
+        if verdict.pass {
+            self.last = Some(LastCheck {
+                readings: rd,
+                source: src,
+                verdict,
+                diagnosis: None,
+            });
         } else {
-            Some(
-                diagnose::diagnose(&st.stage, &st.profile, &rd, &st.meter, &var)
-                    .map_err(|e| Fail::new(Code::Solve, format_args!("diagnosis: {e}")))?,
-            )
-        };
+            // The diagnosis (about 2 KB) goes straight into the session state: one value on
+            // the stack, no further copies.
+            match diagnose::diagnose(&st.stage, &st.profile, &rd, &st.meter, &var) {
+                Ok(d) => {
+                    self.last = Some(LastCheck {
+                        readings: rd,
+                        source: src,
+                        verdict,
+                        diagnosis: Some(d),
+                    });
+                }
+                Err(e) => return Err(Fail::new(Code::Solve, format_args!("diagnosis: {e}"))),
+            }
+        }
         self.readings = Some((rd, src));
-        self.last = Some(LastCheck {
-            readings: rd,
-            source: src,
-            verdict,
-            diagnosis,
-        });
         Ok(())
     }
 
@@ -190,6 +199,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     /// The last check: readings, verdict, nodes, derived quantities and the likely faults.
+    #[inline(never)]
     pub(super) fn show_check<W: Write>(&self, r: &mut Reply<'_, W>) {
         let Some(l) = &self.last else { return };
         show_readings(&l.readings, l.source, r);
@@ -262,6 +272,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[inline(never)]
     fn show_faults<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
         if r.machine() {
             for h in d.faults().take(LISTED_FAULTS) {
@@ -332,6 +343,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
 
     /// `diagnose`: the last diagnosis again (the last readings are judged first when they were
     /// only measured).
+    #[inline(never)]
     pub(super) fn diagnose<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
         if self.last.is_none() {
             match self.readings {
@@ -362,6 +374,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     /// `requirement`: show the design requirement.
+    #[inline(never)]
     pub(super) fn show_requirement<W: Write>(&self, r: &mut Reply<'_, W>) {
         let q = &self.requirement;
         let pol = match q.polarity {
@@ -421,6 +434,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     /// `requirement NAME VALUE`: change one field; the whole requirement must stay valid.
+    #[inline(never)]
     pub(super) fn set_requirement(&mut self, s: ReqSetting) -> Outcome {
         let mut q = self.requirement;
         match s {
@@ -448,6 +462,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     /// `design`: candidates for the requirement with the set transistor, best first.
+    #[inline(never)]
     pub(super) fn design<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
         let found = design::design(&self.requirement, &self.settings.profile).map_err(|e| {
             let code = match e {
@@ -520,6 +535,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     /// `pick N`: candidate N becomes the stage (with the requirement's ambient range).
+    #[inline(never)]
     pub(super) fn pick(&mut self, n: u8) -> Outcome {
         if self.candidates.is_empty() {
             return Err(Fail::new(
@@ -554,6 +570,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     /// `spread RUNS SEED`: the worst case over the corners and a seeded Monte Carlo summary.
+    #[inline(never)]
     pub(super) fn spread<W: Write>(&self, runs: u32, seed: u64, r: &mut Reply<'_, W>) -> Outcome {
         let st = &self.settings;
         let var = st.variation();

@@ -299,7 +299,17 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// A console; settings and calibration are loaded from the store (defaults when it has
     /// none or a damaged record) and the calibration is handed to the jig.
     pub fn new(identity: Identity, jig: J, store: S, clock: C) -> Self {
-        let mut c = Self {
+        let mut c = Self::unloaded(identity, jig, store, clock);
+        c.load();
+        c
+    }
+
+    /// A console with the default settings and calibration, nothing loaded yet: for building a
+    /// console in place in static memory (a console is several KB; a copy on a small stack
+    /// counts against its budget). Call [`Console::load_stored`] on it next.
+    #[inline(never)]
+    pub fn unloaded(identity: Identity, jig: J, store: S, clock: C) -> Self {
+        Self {
             jig,
             store,
             clock,
@@ -316,11 +326,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             echo_after_cr: false,
             mode: Mode::Human,
             retry_at_ms: 0,
-        };
-        c.load();
-        c
+        }
     }
 
+    /// Load the settings and calibration from the store (defaults stay when it has none or a
+    /// damaged record) and hand the calibration to the jig, as [`Console::new`] does.
+    pub fn load_stored(&mut self) {
+        self.load();
+    }
+
+    #[inline(never)]
     fn load(&mut self) {
         let mut rec = [0u8; jig::RECORD_LEN];
         if let Ok(true) = self.store.load(Slot::Settings, &mut rec) {

@@ -17,6 +17,7 @@ use biasjig_firmware::jig::EmulatedJig;
 use biasjig_firmware::screen::{draw_measurement, draw_verdict, FrameBuffer};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::target::{stack, ticks, usart1::Usart1};
+use core::mem::MaybeUninit;
 use cortex_m_rt::{entry, exception};
 use embedded_io::Write;
 use panic_halt as _;
@@ -73,19 +74,24 @@ fn halt() -> ! {
 #[inline(never)]
 fn init(cost_ticks: ticks::SysTickTicks) -> Option<&'static mut EmuApp> {
     let rate = (2 * u64::from(RATE_LOOP), ticks::ticks_for_loop(RATE_LOOP));
-    let console: &'static mut EmuConsole = cortex_m::singleton!(: EmuConsole = Console::new(
+    // Built in place in static memory (a console is about 8 KB: a copy on the stack
+    // would count against the stack budget).
+    let slot = cortex_m::singleton!(: MaybeUninit<EmuConsole> = MaybeUninit::uninit())?;
+    let console: &'static mut EmuConsole = slot.write(Console::unloaded(
         Identity::new("jig-emulated", biasjig_firmware::VERSION),
         EmulatedJig::new(BOARD_SEED),
         MemoryStore::default(),
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
         },
-    ))?;
+    ));
+    console.load_stored();
     let board = EmulatedBoard {
         fb: FrameBuffer::new(),
         rate,
     };
-    cortex_m::singleton!(: EmuApp = App::new(console, board, cost_ticks))
+    let app = cortex_m::singleton!(: MaybeUninit<EmuApp> = MaybeUninit::uninit())?;
+    Some(app.write(App::new(console, board, cost_ticks)))
 }
 
 #[entry]

@@ -19,6 +19,7 @@ use biasjig_firmware::jig::{AdcJig, SampleSource};
 use biasjig_firmware::screen::{draw_measurement, draw_verdict};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::target::{stack, ticks, ticks::DwtTicks};
+use core::mem::MaybeUninit;
 use cortex_m_rt::{entry, exception};
 use embedded_io::{ReadReady, Write};
 use panic_halt as _;
@@ -98,15 +99,20 @@ type HwApp = App<'static, AdcJig<AdcSamples>, MemoryStore, ticks::SysTickClock, 
 /// Builds the console and the application in static memory (kept out of `main`'s frame).
 #[inline(never)]
 fn init(jig: AdcJig<AdcSamples>, board: JigBoard) -> Option<&'static mut HwApp> {
-    let console: &'static mut HwConsole = cortex_m::singleton!(: HwConsole = Console::new(
+    // Built in place in static memory (a console is about 8 KB: a copy on the stack
+    // would count against the stack budget).
+    let slot = cortex_m::singleton!(: MaybeUninit<HwConsole> = MaybeUninit::uninit())?;
+    let console: &'static mut HwConsole = slot.write(Console::unloaded(
         identity(),
         jig,
         MemoryStore::default(),
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
         },
-    ))?;
-    cortex_m::singleton!(: HwApp = App::new(console, board, DwtTicks))
+    ));
+    console.load_stored();
+    let app = cortex_m::singleton!(: MaybeUninit<HwApp> = MaybeUninit::uninit())?;
+    Some(app.write(App::new(console, board, DwtTicks)))
 }
 
 #[entry]
