@@ -1302,6 +1302,9 @@ fn capacitors(
         }
     }
     match best {
+        // With no load given, COUT still blocks the DC toward whatever follows; it sets no pole
+        // here, so it takes CIN's value (a member of the series like every part).
+        Some(([cin, None, ce], _, f)) if stage.rl.is_none() => Ok(([cin, cin, ce], f)),
         Some((caps, _, f)) => Ok((caps, f)),
         None => Err(DesignError::LowCorner {
             f_low: req.f_low_or_default(),
