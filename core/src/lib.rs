@@ -22,6 +22,7 @@
 //! | job | [`limits`] | guard-banded pass windows per node |
 //! | job | [`check`] | measured against limits: verdict and derived quantities |
 //! | job | [`diagnose`] | ranked single-fault hypotheses |
+//! | job | [`explain`] | faults in plain words, the measurement that separates them |
 //! | front | [`console`] | the line console protocol over `embedded-io` |
 //!
 //! Units: SI base units everywhere inside (V, A, Ω, F, Hz, W, °C for ambient temperature). Tolerances
@@ -52,6 +53,7 @@ pub mod design;
 pub mod device;
 pub mod diagnose;
 pub mod estimate;
+pub mod explain;
 pub mod limits;
 pub mod lowfreq;
 pub mod power;

@@ -10,7 +10,7 @@
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
 )]
 
-use core::fmt::{self, Write as _};
+use core::fmt::Write as _;
 
 use embedded_io::Write;
 
@@ -21,10 +21,11 @@ use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::{self, Implausible, Verdict};
 use crate::design::{self, DesignError};
-use crate::diagnose::{self, Diagnosis, Hypothesis, ResistorMode, Suspect};
+use crate::diagnose::{self, Diagnosis};
+use crate::explain::{FaultWords, SeparatingStep};
 use crate::limits;
 use crate::spread::{self, McSettings, Method, SpreadError};
-use crate::stage::{DeviceFault, Polarity, Readings, Resistor, Stage};
+use crate::stage::{Polarity, Readings};
 use crate::units::{capacitor_code, resistor_code, Eng};
 
 /// How many fault hypotheses `check`, `test` and `diagnose` list at most (as `biasjig check`).
@@ -53,101 +54,6 @@ fn spread_fail(what: &str, e: SpreadError) -> Fail {
         _ => Code::Range,
     };
     Fail::new(code, format_args!("{what}: {e}"))
-}
-
-/// A fault in plain words (what `biasjig check` says).
-struct Words<'a>(&'a Stage, &'a Hypothesis);
-
-impl fmt::Display for Words<'_> {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let h = self.1;
-        match h.suspect {
-            Suspect::Good => {
-                f.write_str("the readings are close to a good board: re-probe and measure again")
-            }
-            Suspect::Resistor(r, mode) => {
-                let nominal = self.0.resistor(r);
-                let name = r.name();
-                match (mode, h.estimate) {
-                    (ResistorMode::Open, _) => {
-                        write!(f, "{name} open (missing, cracked or a dry joint)")
-                    }
-                    (ResistorMode::Short, _) => {
-                        write!(f, "{name} shorted (a solder bridge or a wrong part)")
-                    }
-                    (_, Some(est)) => {
-                        let ratio = est / nominal;
-                        let why = if (0.08..0.125).contains(&ratio) || (8.0..12.5).contains(&ratio)
-                        {
-                            ": a decade slip"
-                        } else if (0.4..0.6).contains(&ratio) {
-                            ": about half its value"
-                        } else if (1.7..2.4).contains(&ratio) {
-                            ": about twice its value"
-                        } else {
-                            ""
-                        };
-                        write!(
-                            f,
-                            "{name} reads like {} instead of {}{why}",
-                            Eng::new(est, "Ω"),
-                            Eng::new(nominal, "Ω")
-                        )
-                    }
-                    (ResistorMode::Low, None) => write!(f, "{name} too low"),
-                    (ResistorMode::High, None) => write!(f, "{name} too high"),
-                }
-            }
-            Suspect::Device(d) => f.write_str(match d {
-                DeviceFault::BeOpen => "Q: base-emitter junction or emitter lead open",
-                DeviceFault::BcOpen => "Q: base-collector junction or collector lead open",
-                DeviceFault::BeShort => "Q: base shorted to emitter",
-                DeviceFault::BcShort => "Q: base shorted to collector",
-                DeviceFault::CeShort => "Q: collector shorted to emitter",
-                DeviceFault::Reversed => {
-                    "Q fitted the wrong way round (collector and emitter swapped)"
-                }
-            }),
-        }
-    }
-}
-
-/// The next measurement that separates a group of equivalent faults.
-struct Separate<'a>(&'a Diagnosis, &'a Hypothesis);
-
-impl fmt::Display for Separate<'_> {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let mut parts: heapless::Vec<Resistor, 5> = heapless::Vec::new();
-        let mut q = false;
-        let group = self
-            .0
-            .ranked
-            .iter()
-            .filter(|o| o.group == self.1.group && o.suspect.is_fault());
-        for h in group {
-            match h.suspect {
-                Suspect::Resistor(r, _) if !parts.contains(&r) => {
-                    let _ = parts.push(r);
-                }
-                Suspect::Device(_) => q = true,
-                _ => {}
-            }
-        }
-        f.write_str("power off")?;
-        let n = parts.len();
-        for (k, r) in parts.iter().enumerate() {
-            let sep = match k {
-                0 => ", measure ",
-                _ if k + 1 == n => " and ",
-                _ => ", ",
-            };
-            write!(f, "{sep}{}", r.name())?;
-        }
-        if q {
-            f.write_str(", check Q's junctions with a diode test and its orientation")?;
-        }
-        Ok(())
-    }
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
@@ -321,7 +227,10 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 r.data(format_args!(
                     "{}. {} ({:.0} %)",
                     k + 1,
-                    Words(&self.settings.stage, h),
+                    FaultWords {
+                        stage: &self.settings.stage,
+                        hypothesis: h
+                    },
                     100.0 * h.score
                 ));
                 let mut names = Text::default();
@@ -334,7 +243,12 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     r.data(format_args!(
                         "   same readings as {}: to tell them apart, {}",
                         names.as_str(),
-                        Separate(d, h)
+                        SeparatingStep::of(
+                            d.ranked
+                                .iter()
+                                .filter(|o| o.group == h.group && o.suspect.is_fault())
+                                .map(|o| o.suspect)
+                        )
                     ));
                 }
             }

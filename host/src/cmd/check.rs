@@ -9,10 +9,11 @@ use std::path::PathBuf;
 
 use biasjig_core::check::{check, Implausible, Verdict};
 use biasjig_core::device::Profile;
-use biasjig_core::diagnose::{diagnose, Diagnosis, Hypothesis, ResistorMode, Suspect};
+use biasjig_core::diagnose::{diagnose, Diagnosis, Hypothesis, Suspect};
+use biasjig_core::explain::{FaultWords, SeparatingStep};
 use biasjig_core::limits::{self, Limits, Meter};
 use biasjig_core::spread::Variation;
-use biasjig_core::stage::{DeviceFault, Readings, Stage};
+use biasjig_core::stage::{Readings, Stage};
 use serde_json::{json, Value};
 
 use crate::boardlog;
@@ -259,81 +260,18 @@ fn unit_of(name: &str) -> &'static str {
     }
 }
 
-/// A fault in plain words.
+/// A fault in plain words (the core's wording, shared with the instrument's console).
 pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
-    match h.suspect {
-        Suspect::Good => {
-            "the readings are close to a good board: re-probe and measure again".into()
-        }
-        Suspect::Resistor(r, mode) => {
-            let nominal = stage.resistor(r);
-            let name = r.name();
-            match (mode, h.estimate) {
-                (ResistorMode::Open, _) => format!("{name} open (missing, cracked or a dry joint)"),
-                (ResistorMode::Short, _) => {
-                    format!("{name} shorted (a solder bridge or a wrong part)")
-                }
-                (_, Some(est)) => {
-                    let ratio = est / nominal;
-                    let why = if (0.08..0.125).contains(&ratio) || (8.0..12.5).contains(&ratio) {
-                        ": a decade slip"
-                    } else if (0.4..0.6).contains(&ratio) {
-                        ": about half its value"
-                    } else if (1.7..2.4).contains(&ratio) {
-                        ": about twice its value"
-                    } else {
-                        ""
-                    };
-                    format!(
-                        "{name} reads like {} instead of {}{why}",
-                        text::eng(est, "Ω"),
-                        text::eng(nominal, "Ω")
-                    )
-                }
-                (ResistorMode::Low, None) => format!("{name} too low"),
-                (ResistorMode::High, None) => format!("{name} too high"),
-            }
-        }
-        Suspect::Device(d) => match d {
-            DeviceFault::BeOpen => "Q: base-emitter junction or emitter lead open".into(),
-            DeviceFault::BcOpen => "Q: base-collector junction or collector lead open".into(),
-            DeviceFault::BeShort => "Q: base shorted to emitter".into(),
-            DeviceFault::BcShort => "Q: base shorted to collector".into(),
-            DeviceFault::CeShort => "Q: collector shorted to emitter".into(),
-            DeviceFault::Reversed => {
-                "Q fitted the wrong way round (collector and emitter swapped)".into()
-            }
-        },
+    FaultWords {
+        stage,
+        hypothesis: h,
     }
+    .to_string()
 }
 
 /// The next measurement that separates a group of equivalent faults.
 pub fn separate(group: &[Suspect]) -> String {
-    let mut parts: Vec<&str> = Vec::new();
-    let mut q = false;
-    for s in group {
-        match s {
-            Suspect::Resistor(r, _) => {
-                if !parts.contains(&r.name()) {
-                    parts.push(r.name());
-                }
-            }
-            Suspect::Device(_) => q = true,
-            Suspect::Good => {}
-        }
-    }
-    let mut out = String::from("power off");
-    if !parts.is_empty() {
-        let list = match parts.split_last() {
-            Some((last, rest)) if !rest.is_empty() => format!("{} and {last}", rest.join(", ")),
-            _ => parts.join(""),
-        };
-        out.push_str(&format!(", measure {list}"));
-    }
-    if q {
-        out.push_str(", check Q's junctions with a diode test and its orientation");
-    }
-    out
+    SeparatingStep::of(group.iter().copied()).to_string()
 }
 
 /// The human report of a checked board.
