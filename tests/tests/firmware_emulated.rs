@@ -21,8 +21,8 @@ const FLASH_BUDGET: u64 = 128 * 1024;
 const RAM_BUDGET: u64 = 32 * 1024;
 const STACK_BUDGET: usize = 16 * 1024;
 /// Regression guard, not the budget: product budget 128 KiB flash not met yet (see issue 7);
-/// the measured figure rounded up to the next KiB.
-const FLASH_CEILING: u64 = 191 * 1024;
+/// the measured figure (195 368 B) rounded up, with 1 KiB of room for small fixes.
+const FLASH_CEILING: u64 = 192 * 1024;
 /// Regression guard, not the budget: product budget 16 KiB stack not met yet after `design`
 /// (see issue 7: the core design search's own frame); the measured figure rounded up to the
 /// next KiB.
