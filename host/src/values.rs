@@ -4,7 +4,12 @@
 use biasjig_core::units;
 
 fn explain(e: units::ValueError) -> String {
-    format!("{e}; allowed: a number such as 4700, 4.7e3, 4.7k, 4k7, 470R, R47, 100n, 2.2M or 10u")
+    let what = e.to_string();
+    if what.contains("expected") {
+        what
+    } else {
+        format!("{what}; allowed: a number such as 4700, 4.7e3, 4.7k, 4k7, 470R, R47, 100n, 2.2M or 10u")
+    }
 }
 
 /// A non-negative value (parts, supply).
