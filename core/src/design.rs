@@ -1074,11 +1074,21 @@ fn evaluate(
     })
 }
 
+/// A part set kept by the search: what ranks it and what re-analyses it (the full record is
+/// rebuilt only for the part sets that are kept to the end, to keep the search's working set
+/// small on a target with little stack).
+#[derive(Debug, Clone, Copy)]
+struct Kept {
+    r: [f64; 5],
+    level: f64,
+    score: f64,
+}
+
 /// The best part sets found so far, best first, distinct.
 struct Best {
-    list: heapless::Vec<Eval, MAX_CANDIDATES>,
-    /// The closest part set that misses a requirement.
-    closest_miss: Option<Eval>,
+    list: heapless::Vec<Kept, MAX_CANDIDATES>,
+    /// The closest part set that misses a requirement: its score and what it misses.
+    closest_miss: Option<(f64, (Check, f64, f64))>,
 }
 
 impl Best {
@@ -1091,10 +1101,12 @@ impl Best {
         }
     }
 
-    fn offer(&mut self, ev: Eval) {
+    fn offer(&mut self, ev: &Eval) {
         if !ev.meets {
-            if ev.miss.is_some() && self.closest_miss.is_none_or(|c| ev.score < c.score) {
-                self.closest_miss = Some(ev);
+            if let Some(miss) = ev.miss {
+                if self.closest_miss.is_none_or(|c| ev.score < c.0) {
+                    self.closest_miss = Some((ev.score, miss));
+                }
             }
             return;
         }
@@ -1113,7 +1125,14 @@ impl Best {
             self.list.pop();
         }
         // Cannot fail: there is room after the pop.
-        let _ = self.list.insert(at, ev);
+        let _ = self.list.insert(
+            at,
+            Kept {
+                r: ev.r,
+                level: ev.level,
+                score: ev.score,
+            },
+        );
     }
 }
 
@@ -1193,7 +1212,7 @@ fn search_level(req: &Requirement, profile: &Profile, ideal: &Ideal, best: &mut 
                         best.bound(),
                         true,
                     ) {
-                        best.offer(ev);
+                        best.offer(&ev);
                     }
                 }
             }
@@ -1207,7 +1226,7 @@ const POLISH: usize = 4;
 /// Polish: around the best few part sets, every neighbour pair of RC and RE1 with their own
 /// bias resistors (the gain pair was chosen at the nominal divider, the bias may shift it).
 fn polish(req: &Requirement, profile: &Profile, best: &mut Best) {
-    let seeds: heapless::Vec<Eval, POLISH> = best.list.iter().take(POLISH).copied().collect();
+    let seeds: heapless::Vec<Kept, POLISH> = best.list.iter().take(POLISH).copied().collect();
     for seed in seeds.iter() {
         let [r1, r2, rc0, re10, re2] = seed.r;
         let rcs = around(req.series_of(Resistor::Rc), rc0, 1);
@@ -1225,7 +1244,7 @@ fn polish(req: &Requirement, profile: &Profile, best: &mut Best) {
                     best.bound(),
                     true,
                 ) {
-                    best.offer(ev);
+                    best.offer(&ev);
                 }
             }
         }
@@ -1378,6 +1397,19 @@ fn out_of_reach(req: &Requirement, profile: &Profile) -> DesignError {
 /// Design a stage for `req` with transistor `profile`: candidates best first, every one meeting
 /// every requirement at nominal, or the reason none can.
 pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, DesignError> {
+    let mut out = Candidates::new();
+    design_into(req, profile, &mut out)?;
+    Ok(out)
+}
+
+/// [`design`] writing the candidates into `out` in place (no copy of the list on the stack, for
+/// small targets): `out` holds the candidates best first on success and is empty on error.
+pub fn design_into(
+    req: &Requirement,
+    profile: &Profile,
+    out: &mut Candidates,
+) -> Result<(), DesignError> {
+    out.clear();
     req.validate().map_err(DesignError::Invalid)?;
     profile.validate().map_err(DesignError::Profile)?;
     // Which ladder currents the hand method can work at (independent of the budget).
@@ -1456,20 +1488,22 @@ pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, Design
     }
     polish(req, profile, &mut best);
     if best.list.is_empty() {
-        let (check, required, achieved) =
-            best.closest_miss
-                .and_then(|m| m.miss)
-                .unwrap_or((Check::Region, 0.0, 0.0));
+        let (check, required, achieved) = best
+            .closest_miss
+            .map_or((Check::Region, 0.0, 0.0), |(_, m)| m);
         return Err(DesignError::Shortfall {
             check,
             required,
             achieved,
         });
     }
-    let mut out = Candidates::new();
     let mut low_err = None;
     let f_req = req.f_low_or_default();
-    for ev in best.list.iter() {
+    for kept in best.list.iter() {
+        // The same analysis that ranked the set (deterministic: the same figures, bit for bit).
+        let Some(ev) = evaluate(req, profile, kept.r, kept.level, f64::INFINITY, true) else {
+            continue;
+        };
         let bare = build(req, ev.r, [None; 3]);
         match capacitors(req, &bare, &ev.op) {
             Ok((caps, f)) => {
@@ -1503,7 +1537,7 @@ pub fn design(req: &Requirement, profile: &Profile) -> Result<Candidates, Design
             required: f_req,
             achieved: f64::INFINITY,
         }),
-        _ => Ok(out),
+        _ => Ok(()),
     }
 }
 

@@ -378,14 +378,19 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// `design`: candidates for the requirement with the set transistor, best first.
     #[inline(never)]
     pub(super) fn design<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
-        let found = design::design(&self.requirement, &self.settings.profile).map_err(|e| {
+        // In place: the list is written straight into the console's own, never copied.
+        design::design_into(
+            &self.requirement,
+            &self.settings.profile,
+            &mut self.candidates,
+        )
+        .map_err(|e| {
             let code = match e {
                 DesignError::Invalid(_) | DesignError::Profile(_) => Code::Range,
                 _ => Code::NoDesign,
             };
             Fail::new(code, format_args!("{e}"))
         })?;
-        self.candidates = found;
         for (k, c) in self.candidates.iter().enumerate() {
             let s = &c.stage;
             let n = k + 1;
