@@ -102,6 +102,7 @@ fn histogram(
         .x_labels(7)
         .x_label_formatter(&|x| label_of(n, *x))
         .x_desc(n.label())
+        .y_label_formatter(&|y| format!("{y:.0}"))
         .y_desc("samples")
         .draw()?;
     let w = h.width();
