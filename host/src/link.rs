@@ -103,11 +103,6 @@ impl<P: Port> Link<P> {
         }
     }
 
-    /// The port.
-    pub fn port_mut(&mut self) -> &mut P {
-        &mut self.port
-    }
-
     fn io(e: io::Error) -> LinkError {
         LinkError::Disconnected(e.to_string())
     }
@@ -273,7 +268,7 @@ impl Port for SerialLink {
 /// One direction of an in-memory byte pipe.
 #[derive(Default)]
 pub struct Pipe {
-    bytes: Mutex<(VecDeque<u8>, bool)>,
+    bytes: Mutex<VecDeque<u8>>,
     ready: Condvar,
 }
 
@@ -281,33 +276,23 @@ impl Pipe {
     /// Put bytes in.
     pub fn put(&self, b: &[u8]) {
         if let Ok(mut g) = self.bytes.lock() {
-            g.0.extend(b);
+            g.extend(b);
             self.ready.notify_all();
         }
     }
 
-    /// Close: readers see a disconnect once the bytes are taken.
-    pub fn close(&self) {
-        if let Ok(mut g) = self.bytes.lock() {
-            g.1 = true;
-            self.ready.notify_all();
-        }
-    }
-
-    /// Take up to `buf.len()` bytes, waiting at most `wait`; `None` when closed and empty.
+    /// Take up to `buf.len()` bytes, waiting at most `wait` (0 when none came); `None` when the
+    /// pipe is unusable (a writer panicked holding it).
     pub fn take(&self, buf: &mut [u8], wait: Duration) -> Option<usize> {
         let deadline = Instant::now() + wait;
         let mut g = self.bytes.lock().ok()?;
         loop {
-            if !g.0.is_empty() {
-                let n = buf.len().min(g.0.len());
-                for (slot, b) in buf.iter_mut().zip(g.0.drain(..n)) {
+            if !g.is_empty() {
+                let n = buf.len().min(g.len());
+                for (slot, b) in buf.iter_mut().zip(g.drain(..n)) {
                     *slot = b;
                 }
                 return Some(n);
-            }
-            if g.1 {
-                return None;
             }
             let now = Instant::now();
             if now >= deadline {
@@ -320,7 +305,7 @@ impl Pipe {
     /// Drop what is held.
     pub fn clear(&self) {
         if let Ok(mut g) = self.bytes.lock() {
-            g.0.clear();
+            g.clear();
         }
     }
 }

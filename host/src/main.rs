@@ -5,8 +5,6 @@
 //! prints the result (human text, or exactly one JSON document with `--json`). One file per
 //! subcommand under `cmd/`.
 
-#![allow(dead_code)] // Lifted once every command is built.
-
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};

@@ -22,7 +22,7 @@ pub struct Cmd {
     #[arg(long, default_value_t = 115_200, requires = "port")]
     pub baud: u32,
     /// Seconds allowed to synchronise with the instrument after opening the port
-    #[arg(long = "sync-timeout", default_value_t = 10.0, value_name = "S")]
+    #[arg(long = "sync-timeout", default_value_t = crate::link::SYNC_TIMEOUT.as_secs_f64(), value_name = "S")]
     pub sync_timeout: f64,
 }
 

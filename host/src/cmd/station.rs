@@ -49,7 +49,7 @@ pub struct Cmd {
     #[arg(long, conflicts_with = "port")]
     pub manual: bool,
     /// Seconds allowed to synchronise with the instrument
-    #[arg(long = "sync-timeout", default_value_t = 10.0, value_name = "S")]
+    #[arg(long = "sync-timeout", default_value_t = crate::link::SYNC_TIMEOUT.as_secs_f64(), value_name = "S")]
     pub sync_timeout: f64,
 }
 
@@ -66,6 +66,7 @@ pub struct Ambient {
 
 impl Ambient {
     /// One ambient, no range.
+    #[cfg(test)]
     pub fn at(t: f64) -> Self {
         Self {
             nominal: t,
@@ -261,6 +262,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     }
 
     /// Time one reply may take.
+    #[cfg(test)]
     pub fn set_reply_timeout(&mut self, t: Duration) {
         self.link.reply_timeout = t;
     }
