@@ -21,8 +21,8 @@ const FLASH_BUDGET: u64 = 128 * 1024;
 const RAM_BUDGET: u64 = 32 * 1024;
 const STACK_BUDGET: usize = 16 * 1024;
 /// Regression guard, not the budget: product budget 128 KiB flash not met yet (see issue 7);
-/// the measured figure (195 368 B) rounded up, with 1 KiB of room for small fixes.
-const FLASH_CEILING: u64 = 192 * 1024;
+/// the measured figure (178 284 B) rounded up to the next KiB, with 1 KiB of room for small fixes.
+const FLASH_CEILING: u64 = 176 * 1024;
 const IMAGES: [&str; 2] = ["jig-stm32f411", "jig-emulated"];
 const TARGET: &str = "thumbv7em-none-eabihf";
 
