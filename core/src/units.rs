@@ -366,7 +366,9 @@ impl Big {
 }
 
 /// The `f64` nearest to `digits × 10^exp` (ties to even), where `digits` is 1 to 40 ASCII
-/// digits without leading zeros. Values of 1e312 and above give infinity and values below 1e-40
+/// digits without leading zeros. Our own rather than `str::parse::<f64>` only for the size of the
+/// instrument's image: the standard conversion brings about 16 KB of code and tables into the
+/// firmware; the tests check this one bit for bit against it. Values of 1e312 and above give infinity and values below 1e-40
 /// give 0 (the caller refuses both as out of range).
 fn decimal_to_f64(digits: &[u8], exp: i64) -> f64 {
     let n = digits.len() as i64;
