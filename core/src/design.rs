@@ -998,9 +998,11 @@ fn evaluate(
         power_ratio,
     };
     let mut ic_range = (op.ic, op.ic);
+    // Not analysed for drift (a set that cannot take a place in the list): a miss of its own.
+    let skipped = miss.is_none() && !(with_drift && score < bound);
     if miss.is_some() {
         score += weight::MISS;
-    } else if with_drift && score < bound {
+    } else if !skipped {
         let ic_at = |beta_25: f64, temp_c: f64| {
             solve(
                 &stage,
@@ -1038,25 +1040,11 @@ fn evaluate(
             miss = Some((Check::Drift, DRIFT_LIMIT, db));
             score += weight::MISS;
         }
-    } else {
-        // Not analysed for drift: it cannot take a place in the list.
-        score += weight::MISS;
-        return Some(Eval {
-            r,
-            op,
-            gain: mid.gain,
-            swing: mid.swing_pp,
-            clips: mid.clips,
-            supply: pw.supply_current,
-            ptr: pw.transistor,
-            ic_range,
-            margins,
-            score,
-            meets: false,
-            miss,
-            level,
-        });
     }
+    if skipped {
+        score += weight::MISS;
+    }
+    let meets = !skipped && miss.is_none();
     Some(Eval {
         r,
         op,
@@ -1068,7 +1056,7 @@ fn evaluate(
         ic_range,
         margins,
         score,
-        meets: miss.is_none(),
+        meets,
         miss,
         level,
     })
