@@ -21,47 +21,12 @@ pub const SATURATION_VCE: f64 = 0.3;
 /// IC below this fraction of the stage's full-on current VCC/(RC + RE) counts as cut off.
 pub const CUTOFF_FRACTION: f64 = 0.01;
 
-/// A measured node (or a quantity derived from the readings) with a pass window.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum Node {
-    /// Base voltage, V.
-    Vb,
-    /// Emitter voltage, V.
-    Ve,
-    /// Collector voltage, V.
-    Vc,
-    /// VB − VE, V (signed).
-    Vbe,
-    /// VC − VE, V (signed).
-    Vce,
-    /// Collector current derived from the readings, A.
-    Ic,
-}
+/// The nodes (measured, or derived from the readings) are the spread's: the check judges six of
+/// them, [`JUDGED`].
+pub use crate::spread::Node;
 
-impl Node {
-    /// Every judged node, in report order.
-    pub const ALL: [Node; 6] = [Self::Vb, Self::Ve, Self::Vc, Self::Vbe, Self::Vce, Self::Ic];
-
-    /// The machine name: "vb", "ve", "vc", "vbe", "vce", "ic".
-    pub fn name(self) -> &'static str {
-        match self {
-            Self::Vb => "vb",
-            Self::Ve => "ve",
-            Self::Vc => "vc",
-            Self::Vbe => "vbe",
-            Self::Vce => "vce",
-            Self::Ic => "ic",
-        }
-    }
-
-    /// The unit symbol: "V" or "A".
-    pub fn unit(self) -> &'static str {
-        match self {
-            Self::Ic => "A",
-            _ => "V",
-        }
-    }
-}
+/// Every judged node, in report order.
+pub const JUDGED: [Node; 6] = [Node::Vb, Node::Ve, Node::Vc, Node::Vbe, Node::Vce, Node::Ic];
 
 /// One node judged against its window.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -102,7 +67,7 @@ pub struct Derived {
 pub struct Verdict {
     /// Every node inside its window.
     pub pass: bool,
-    /// Per-node verdicts in the order of [`Node::ALL`].
+    /// Per-node verdicts in the order of [`JUDGED`].
     pub nodes: [NodeVerdict; 6],
     /// Derived quantities.
     pub derived: Derived,
@@ -155,29 +120,18 @@ impl core::fmt::Display for Implausible {
                 f,
                 "{} reads above the supply: check the probes (swapped leads, or the supply \
                  probe not on the supply rail)",
-                upper(*n)
+                n.label()
             ),
             Self::BelowGround(n) => write!(
                 f,
                 "{} reads below ground: check the ground lead and the probe polarity",
-                upper(*n)
+                n.label()
             ),
             Self::AllEqual => f.write_str(
                 "VB, VE and VC all read the same: a probe or the jig's ground lead is open; \
                  reseat the board and the ground lead",
             ),
         }
-    }
-}
-
-fn upper(n: Node) -> &'static str {
-    match n {
-        Node::Vb => "VB",
-        Node::Ve => "VE",
-        Node::Vc => "VC",
-        Node::Vbe => "VBE",
-        Node::Vce => "VCE",
-        Node::Ic => "IC",
     }
 }
 

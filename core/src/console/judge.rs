@@ -147,7 +147,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 let u = n.node.unit();
                 r.data(format_args!(
                     "{:<4} {:<10} window {} to {}{}",
-                    Upper(n.node.name()),
+                    n.node.label(),
                     Eng::new(n.measured, u),
                     Eng::new(n.low, u),
                     Eng::new(n.high, u),

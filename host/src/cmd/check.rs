@@ -248,18 +248,6 @@ const BIG_FAIL: &str = "\
   #      #   #    #    #
   #      #   #  #####  #####";
 
-fn upper(name: &str) -> String {
-    name.to_uppercase()
-}
-
-fn unit_of(name: &str) -> &'static str {
-    if name == "ic" {
-        "A"
-    } else {
-        "V"
-    }
-}
-
 /// A fault in plain words (the core's wording, shared with the instrument's console).
 pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
     FaultWords {
@@ -292,10 +280,10 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, o: &Outcome) -> String {
             if !failing.is_empty() {
                 out.push_str("Out of window:\n");
                 for n in failing {
-                    let u = unit_of(n.node.name());
+                    let u = n.node.unit();
                     out.push_str(&format!(
                         "  {:<4} {:>10}   window {} .. {}\n",
-                        upper(n.node.name()),
+                        n.node.label(),
                         text::eng4(n.measured, u),
                         text::eng4(n.low, u),
                         text::eng4(n.high, u)
