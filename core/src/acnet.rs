@@ -88,6 +88,36 @@ pub(crate) fn source_conductance(stage: &Stage) -> f64 {
     conductance(stage.rs)
 }
 
+/// The voltage of node `k` in a solution (0 for a node outside the network, such as ground).
+pub(crate) fn at(v: &[C; N], k: usize) -> C {
+    v.get(k).copied().unwrap_or(C::new(0.0, 0.0))
+}
+
+/// 1 A injected into node `into` and taken out of node `out_of` (ground when it is outside the
+/// network).
+pub(crate) fn injection(into: usize, out_of: usize) -> [C; N] {
+    let mut inject = [C::new(0.0, 0.0); N];
+    if let Some(s) = inject.get_mut(into) {
+        *s += C::new(1.0, 0.0);
+    }
+    if let Some(s) = inject.get_mut(out_of) {
+        *s -= C::new(1.0, 0.0);
+    }
+    inject
+}
+
+/// A 1 V source EMF behind RS, as its Norton current into `IN`.
+pub(crate) fn source_emf(stage: &Stage) -> [C; N] {
+    let mut inject = [C::new(0.0, 0.0); N];
+    if let Some(s) = inject.get_mut(IN) {
+        *s = C::new(source_conductance(stage), 0.0);
+    }
+    inject
+}
+
+/// Ground as a node index for [`injection`].
+pub(crate) const GROUND: usize = usize::MAX;
+
 /// Node voltages of the network for `setup`, or `None` if it is singular.
 #[expect(
     clippy::indexing_slicing,

@@ -8,8 +8,6 @@
 
 use core::f64::consts::PI;
 
-use num_complex::Complex64 as C;
-
 use crate::acnet::{self, Cap, Setup, B, IN, NODE_C, OUT, X};
 use crate::solve::OperatingPoint;
 use crate::stage::Stage;
@@ -36,21 +34,6 @@ pub struct LowCorner {
     pub f_estimate: Option<f64>,
 }
 
-fn dipole(from: usize, to: usize) -> [C; 6] {
-    let mut inject = [C::new(0.0, 0.0); 6];
-    if let Some(s) = inject.get_mut(from) {
-        *s += C::new(1.0, 0.0);
-    }
-    if let Some(s) = inject.get_mut(to) {
-        *s -= C::new(1.0, 0.0);
-    }
-    inject
-}
-
-fn at(v: &[C; 6], k: usize) -> C {
-    v.get(k).copied().unwrap_or(C::new(0.0, 0.0))
-}
-
 /// Resistance seen by one capacitor (removed), the other two shorted and the source at rest, Ω.
 fn seen_by(stage: &Stage, op: &OperatingPoint, which: usize) -> Option<f64> {
     let mut setup = Setup::midband();
@@ -65,12 +48,12 @@ fn seen_by(stage: &Stage, op: &OperatingPoint, which: usize) -> Option<f64> {
         }
         _ => {
             setup.ce = Cap::Open;
-            (X, usize::MAX)
+            (X, acnet::GROUND)
         }
     };
-    setup.inject = dipole(a, b);
+    setup.inject = acnet::injection(a, b);
     let v = acnet::solve(stage, &op.y, &setup)?;
-    let r = (at(&v, a) - at(&v, b)).re;
+    let r = (acnet::at(&v, a) - acnet::at(&v, b)).re;
     (r.is_finite() && r > 0.0).then_some(r)
 }
 
@@ -84,18 +67,14 @@ fn pole(r: Option<f64>, c: Option<f64>) -> Option<f64> {
 /// |v(load)/v(source)| at `f` Hz (`None`: all capacitors shorted).
 fn gain_at(stage: &Stage, op: &OperatingPoint, f: Option<f64>) -> Option<f64> {
     let cap = f.map_or(Cap::Short, Cap::At);
-    let mut inject = [C::new(0.0, 0.0); 6];
-    if let Some(s) = inject.get_mut(IN) {
-        *s = C::new(acnet::source_conductance(stage), 0.0);
-    }
     let setup = Setup {
         cin: cap,
         cout: cap,
         ce: cap,
-        inject,
+        inject: acnet::source_emf(stage),
         ..Setup::midband()
     };
-    acnet::solve(stage, &op.y, &setup).map(|v| at(&v, OUT).norm())
+    acnet::solve(stage, &op.y, &setup).map(|v| acnet::at(&v, OUT).norm())
 }
 
 /// The low-frequency figures of `stage` at `op`.

@@ -6,8 +6,6 @@
 //! two-port taken from the junction model at the operating point (gm, rπ, ro and the tiny
 //! feedback term all follow from the same Ebers-Moll equations that set the bias).
 
-use num_complex::Complex64 as C;
-
 use crate::acnet::{self, Setup, B, IN, OUT};
 use crate::device::Profile;
 use crate::solve::{OperatingPoint, Region};
@@ -69,16 +67,15 @@ impl core::fmt::Display for SignalError {
     }
 }
 
-fn node(v: &[C; 6], k: usize) -> C {
-    v.get(k).copied().unwrap_or(C::new(0.0, 0.0))
-}
-
-fn unit_at(k: usize) -> [C; 6] {
-    let mut inject = [C::new(0.0, 0.0); 6];
-    if let Some(slot) = inject.get_mut(k) {
-        *slot = C::new(1.0, 0.0);
-    }
-    inject
+/// v(load)/v(source EMF) at midband, signed, and v(base) for the same source; `None` when the
+/// network is singular.
+pub(crate) fn source_gain(stage: &Stage, y: &crate::solve::Admittance) -> Option<(f64, f64)> {
+    let setup = Setup {
+        inject: acnet::source_emf(stage),
+        ..Setup::midband()
+    };
+    let v = acnet::solve(stage, y, &setup)?;
+    Some((acnet::at(&v, OUT).re, acnet::at(&v, B).re))
 }
 
 /// Midband figures of `stage` at `op`.
@@ -88,24 +85,16 @@ pub fn midband(
     op: &OperatingPoint,
 ) -> Result<Midband, SignalError> {
     let y = &op.y;
-    // Gain: a 1 V source EMF behind RS, as a Norton current into IN.
-    let mut setup = Setup::midband();
-    let mut inject = [C::new(0.0, 0.0); 6];
-    if let Some(slot) = inject.get_mut(IN) {
-        *slot = C::new(acnet::source_conductance(stage), 0.0);
-    }
-    setup.inject = inject;
-    let v = acnet::solve(stage, y, &setup).ok_or(SignalError::Singular)?;
-    let gain = node(&v, OUT).re;
-    let vb = node(&v, B).re;
+    // Gain: a 1 V source EMF behind RS.
+    let (gain, vb) = source_gain(stage, y).ok_or(SignalError::Singular)?;
     let gain_stage = if vb != 0.0 { gain / vb } else { 0.0 };
     // Input impedance: no source, 1 A into the input.
     let zin_setup = Setup {
         with_source: false,
-        inject: unit_at(IN),
+        inject: acnet::injection(IN, acnet::GROUND),
         ..Setup::midband()
     };
-    let zin = node(
+    let zin = acnet::at(
         &acnet::solve(stage, y, &zin_setup).ok_or(SignalError::Singular)?,
         IN,
     )
@@ -113,10 +102,10 @@ pub fn midband(
     // Output impedance: source at rest behind RS, no load, 1 A into the output.
     let zout_setup = Setup {
         with_load: false,
-        inject: unit_at(OUT),
+        inject: acnet::injection(OUT, acnet::GROUND),
         ..Setup::midband()
     };
-    let zout = node(
+    let zout = acnet::at(
         &acnet::solve(stage, y, &zout_setup).ok_or(SignalError::Singular)?,
         OUT,
     )

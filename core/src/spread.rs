@@ -21,11 +21,9 @@
 //! Nodes: VB, VE, VC, VBE, VCE, IC (V and A, signed as in the operating point), the midband gain
 //! v(load)/v(source EMF) (signed) and the symmetrical swing at the load (V peak-to-peak).
 
-use num_complex::Complex64 as C;
 use rand_core::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
-use crate::acnet::{self, Setup, OUT};
 use crate::device::{Profile, ProfileError};
 use crate::signal::swing;
 use crate::solve::{solve, Conditions, Region, SolveError};
@@ -419,22 +417,9 @@ fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (one small-signal solve), or 0 when
 /// the network is singular or the transistor is not active.
 fn gain_of(stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
-    let mut setup = Setup::midband();
-    let mut inject = [C::new(0.0, 0.0); 6];
-    if let Some(slot) = inject.get_mut(acnet::IN) {
-        *slot = C::new(acnet::source_conductance(stage), 0.0);
-    }
-    setup.inject = inject;
-    match acnet::solve(stage, &op.y, &setup) {
-        Some(v) => {
-            let g = v.get(OUT).map_or(0.0, |c| c.re);
-            if g.is_finite() {
-                g
-            } else {
-                0.0
-            }
-        }
-        None => 0.0,
+    match crate::signal::source_gain(stage, &op.y) {
+        Some((g, _)) if g.is_finite() => g,
+        _ => 0.0,
     }
 }
 
