@@ -602,7 +602,7 @@ pub fn diagnose(
                 0.0
             }
     };
-    ranked.sort_unstable_by(|a, b| penalised(a).total_cmp(&penalised(b)));
+    crate::order::sort_by(&mut ranked, |a, b| penalised(a).total_cmp(&penalised(b)));
     let best = ranked.first().map_or(0.0, penalised);
     let explained = ranked.first().is_some_and(|h| h.chi2 <= UNEXPLAINED_CHI2);
     let mut total = 0.0;
@@ -634,7 +634,7 @@ pub fn diagnose(
         }
     }
     // Keep each group together, in the order of its best member, best first within a group.
-    ranked.sort_unstable_by(|a, b| {
+    crate::order::sort_by(&mut ranked, |a, b| {
         a.group
             .cmp(&b.group)
             .then(penalised(a).total_cmp(&penalised(b)))

@@ -56,6 +56,7 @@ pub mod estimate;
 pub mod explain;
 pub mod limits;
 pub mod lowfreq;
+mod order;
 pub mod power;
 pub mod predict;
 pub mod series;

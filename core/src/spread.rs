@@ -957,6 +957,8 @@ struct Deviates {
 const TWO_POW_M53: f64 = 1.0 / 9_007_199_254_740_992.0;
 /// Tries of the truncated normal before it clamps.
 const NORMAL_TRIES: u8 = 32;
+/// Tries of the polar method before it gives up (each fails with probability 1 − π/4).
+const POLAR_TRIES: u8 = 64;
 
 impl Deviates {
     fn new(seed: u64) -> Self {
@@ -976,11 +978,19 @@ impl Deviates {
         (self.rng.next_u64() >> 11) as f64 * (2.0 * TWO_POW_M53) - 1.0
     }
 
-    /// Standard normal by Box-Muller (cosine branch).
+    /// Standard normal by the polar form of Box-Muller (Marsaglia): a point uniform in the unit
+    /// disc, no trigonometry; the second normal of the pair is not used. A point is accepted with
+    /// probability π/4, so `POLAR_TRIES` rejections in a row (odds below 1e-40) give 0.
     fn normal(&mut self) -> f64 {
-        let u1 = 1.0 - self.unit(); // (0, 1]
-        let u2 = self.unit();
-        libm::sqrt(-2.0 * libm::log(u1)) * libm::cos(core::f64::consts::TAU * u2)
+        for _ in 0..POLAR_TRIES {
+            let x = self.symmetric();
+            let y = self.symmetric();
+            let s = x * x + y * y;
+            if s > 0.0 && s < 1.0 {
+                return x * libm::sqrt(-2.0 * libm::log(s) / s);
+            }
+        }
+        0.0
     }
 
     /// A relative deviation in [-1, 1] (times the tolerance gives the part's deviation).
@@ -1192,7 +1202,7 @@ pub fn sensitivity(
         for s in shares.iter_mut() {
             s.share = if total > 0.0 { s.variance / total } else { 0.0 };
         }
-        shares.sort_unstable_by(|a, b| {
+        crate::order::sort_by(&mut shares, |a, b| {
             b.share
                 .partial_cmp(&a.share)
                 .unwrap_or(core::cmp::Ordering::Equal)
