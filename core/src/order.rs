@@ -33,7 +33,7 @@ mod tests {
         #[test]
         fn matches_the_standard_stable_sort(mut v in proptest::collection::vec((0u8..8, any::<u16>()), 0..60)) {
             let mut expected = v.clone();
-            expected.sort_by(|a, b| a.0.cmp(&b.0));
+            expected.sort_by_key(|a| a.0);
             sort_by(&mut v, |a, b| a.0.cmp(&b.0));
             prop_assert_eq!(v, expected);
         }
