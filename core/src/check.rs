@@ -9,6 +9,7 @@
 use crate::limits::{derived_ic, Limits, Meter, Window};
 use crate::solve::Region;
 use crate::stage::{Polarity, Readings, Stage};
+use crate::units::Fixed;
 
 /// How far the measured supply may sit from the nominal before the board counts as not properly
 /// powered, as a fraction of the nominal (at least this, or the supply tolerance if wider).
@@ -113,8 +114,11 @@ impl core::fmt::Display for Implausible {
                 high,
             } => write!(
                 f,
-                "the supply reads {measured:.3} V, outside {low:.3} V to {high:.3} V: check that \
-                 the board is powered at the right voltage and the supply probe is on"
+                "the supply reads {} V, outside {} V to {} V: check that the board is powered \
+                 at the right voltage and the supply probe is on",
+                Fixed(*measured, 3),
+                Fixed(*low, 3),
+                Fixed(*high, 3)
             ),
             Self::AboveSupply(n) => write!(
                 f,

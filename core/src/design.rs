@@ -52,7 +52,7 @@ use crate::signal::{midband, Clip};
 use crate::solve::{solve, Conditions, OperatingPoint, Region};
 use crate::stage::{Part, Polarity, Resistor, Stage};
 use crate::thermal_voltage;
-use crate::units::Eng;
+use crate::units::{Eng, Fixed, Full};
 
 /// Most candidates a design returns.
 pub const MAX_CANDIDATES: usize = 8;
@@ -412,8 +412,9 @@ impl fmt::Display for DesignError {
                 budget,
             } => write!(
                 f,
-                "gain: {gain} {} needs IC >= {}; the budget is {}: raise the budget (--ic-max) \
+                "gain: {} {} needs IC >= {}; the budget is {}: raise the budget (--ic-max) \
                  or lower the gain",
+                Full(gain),
                 Load(rl),
                 e(needs_ic, "A"),
                 e(budget, "A")
@@ -434,8 +435,10 @@ impl fmt::Display for DesignError {
             ),
             Self::GainOutOfReach { gain, best } => write!(
                 f,
-                "gain: {gain} is out of reach with this supply, source, load and transistor; \
-                 about {best:.1} is the most: lower the gain, lower RS or raise RL"
+                "gain: {} is out of reach with this supply, source, load and transistor; \
+                 about {} is the most: lower the gain, lower RS or raise RL",
+                Full(gain),
+                Fixed(best, 1)
             ),
             Self::SwingOutOfReach {
                 swing,
@@ -451,8 +454,9 @@ impl fmt::Display for DesignError {
             ),
             Self::GainAndSwing { gain, swing } => write!(
                 f,
-                "gain and swing: gain {gain} and a swing of {} peak-to-peak are each reachable \
+                "gain and swing: gain {} and a swing of {} peak-to-peak are each reachable \
                  but not together: lower one of them or raise the supply",
+                Full(gain),
                 e(swing, "V")
             ),
             Self::Dissipation {
@@ -483,8 +487,10 @@ impl fmt::Display for DesignError {
             } => match check {
                 Check::Gain => write!(
                     f,
-                    "gain: no standard-value part set reaches {required} within 5 %; the closest \
-                     gives {achieved:.2}: try a finer series (--series E48) or another gain"
+                    "gain: no standard-value part set reaches {} within 5 %; the closest gives \
+                     {}: try a finer series (--series E48) or another gain",
+                    Full(required),
+                    Fixed(achieved, 2)
                 ),
                 Check::Swing => write!(
                     f,
@@ -501,10 +507,10 @@ impl fmt::Display for DesignError {
                 ),
                 Check::Drift => write!(
                     f,
-                    "hFE spread: no part set keeps IC within {:.0} % across hFE min..max; the \
-                     closest moves {:.1} %: narrow the hFE spread or raise the budget",
-                    required * 100.0,
-                    achieved * 100.0
+                    "hFE spread: no part set keeps IC within {} % across hFE min..max; the \
+                     closest moves {} %: narrow the hFE spread or raise the budget",
+                    Fixed(required * 100.0, 0),
+                    Fixed(achieved * 100.0, 1)
                 ),
                 Check::LowCorner => write!(
                     f,

@@ -482,18 +482,192 @@ impl Eng {
     }
 }
 
-/// Decimal digits and exponent of `v` (> 0, finite) rounded to `sig` significant digits:
-/// `(digits, exponent)` with `v ≈ d.ddd × 10^exponent`. Correctly rounded by `core::fmt`.
-fn sci_digits(v: f64, sig: usize) -> Option<(heapless::String<24>, i32)> {
-    let mut buf: heapless::String<40> = heapless::String::new();
-    write!(buf, "{:.*e}", sig.saturating_sub(1), v).ok()?;
-    let (mantissa, exponent) = buf.split_once('e')?;
-    let exponent: i32 = exponent.parse().ok()?;
-    let mut digits: heapless::String<24> = heapless::String::new();
-    for c in mantissa.chars().filter(char::is_ascii_digit) {
-        digits.push(c).ok()?;
+/// Decimal digits of a positive finite value: ASCII digits without leading zeros, and the power
+/// of ten of the first digit (`v ≈ d.ddd × 10^exp`). No digits stands for zero.
+struct Digits {
+    digits: heapless::Vec<u8, 32>,
+    exp: i32,
+}
+
+impl Digits {
+    /// The shortest digits that read back as exactly `v` (> 0, finite): the Ryū algorithm
+    /// (`ryu` crate), whose text is taken apart here so the layout stays ours.
+    fn shortest(v: f64) -> Option<Self> {
+        let mut buf = ryu::Buffer::new();
+        let text = buf.format_finite(v);
+        let (mantissa, exp) = match text.split_once('e') {
+            Some((m, e)) => (m, e.parse::<i32>().ok()?),
+            None => (text, 0),
+        };
+        let (int, frac) = mantissa.split_once('.').unwrap_or((mantissa, ""));
+        let mut exp = exp + i32::try_from(int.len()).ok()? - 1;
+        let mut digits = heapless::Vec::new();
+        for c in int.bytes().chain(frac.bytes()) {
+            if digits.is_empty() && c == b'0' {
+                exp -= 1;
+            } else {
+                digits.push(c).ok()?;
+            }
+        }
+        while digits.last() == Some(&b'0') {
+            digits.pop();
+        }
+        Some(Digits { digits, exp })
     }
-    Some((digits, exponent))
+
+    /// Round half-up to `keep` digits (none left for `keep` <= 0 unless the rounding carries).
+    /// Rounding the shortest digits, not the binary value: 0.1245 to 3 digits gives 0.125.
+    fn round_to(&mut self, keep: i32) {
+        let Ok(n) = usize::try_from(keep.max(0)) else {
+            return;
+        };
+        if self.digits.len() <= n {
+            return;
+        }
+        let first_dropped = if keep < 0 {
+            b'0'
+        } else {
+            self.digits.get(n).copied().unwrap_or(b'0')
+        };
+        self.digits.truncate(n);
+        if first_dropped < b'5' {
+            while self.digits.last() == Some(&b'0') {
+                self.digits.pop();
+            }
+            return;
+        }
+        // Carry from the last kept digit; trailing nines become zeros and are dropped.
+        loop {
+            match self.digits.pop() {
+                Some(b'9') => continue,
+                Some(d) => {
+                    let _ = self.digits.push(d + 1);
+                    return;
+                }
+                None => {
+                    let _ = self.digits.push(b'1');
+                    self.exp += 1;
+                    return;
+                }
+            }
+        }
+    }
+
+    /// The digits as text.
+    fn as_str(&self) -> &str {
+        core::str::from_utf8(&self.digits).unwrap_or("")
+    }
+}
+
+/// Decimal digits and exponent of `v` (> 0, finite) rounded to `sig` significant digits:
+/// `(digits, exponent)` with `v ≈ d.ddd × 10^exponent`, exactly `sig` digits.
+fn sci_digits(v: f64, sig: usize) -> Option<(heapless::String<24>, i32)> {
+    let mut d = Digits::shortest(v)?;
+    d.round_to(i32::try_from(sig).ok()?);
+    let mut digits: heapless::String<24> = heapless::String::new();
+    digits.push_str(d.as_str()).ok()?;
+    while digits.len() < sig {
+        digits.push('0').ok()?;
+    }
+    Some((digits, d.exp))
+}
+
+/// A number printed in full: the shortest digits that read back as exactly this `f64`, plain
+/// decimal for magnitudes from 1e-3 to below 1e6 (`0.0047`, `12`, `123456.5`), exponent form
+/// elsewhere (`4.7e-9`, `2e6`); `inf`, `-inf` or `NaN` when not finite.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Full(pub f64);
+
+impl fmt::Display for Full {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let v = self.0;
+        if v.is_nan() {
+            return f.write_str("NaN");
+        }
+        if v < 0.0 {
+            f.write_char('-')?;
+        }
+        let a = libm::fabs(v);
+        if a.is_infinite() {
+            return f.write_str("inf");
+        }
+        if a == 0.0 {
+            return f.write_char('0');
+        }
+        let d = Digits::shortest(a).ok_or(fmt::Error)?;
+        if (1e-3..1e6).contains(&a) {
+            write_fixed(f, d.as_str(), d.exp + 1)
+        } else {
+            let (first, rest) = d.as_str().split_at_checked(1).unwrap_or((d.as_str(), ""));
+            f.write_str(first)?;
+            if !rest.is_empty() {
+                f.write_char('.')?;
+                f.write_str(rest)?;
+            }
+            write!(f, "e{}", d.exp)
+        }
+    }
+}
+
+/// A number with a fixed count of decimals, rounded half-up from its shortest digits
+/// (`Fixed(2.5, 3)` prints `2.500`, `Fixed(14.96, 0)` prints `15`); `inf`, `-inf` or `NaN` when
+/// not finite. Honours the formatter's width and alignment.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Fixed(pub f64, pub u8);
+
+impl fmt::Display for Fixed {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let mut buf: heapless::String<64> = heapless::String::new();
+        if self.write_to(&mut buf).is_ok() {
+            f.pad(&buf)
+        } else {
+            self.write_to(f)
+        }
+    }
+}
+
+impl Fixed {
+    fn write_to<W: fmt::Write>(&self, out: &mut W) -> fmt::Result {
+        let Fixed(v, decimals) = *self;
+        if v.is_nan() {
+            return out.write_str("NaN");
+        }
+        let a = libm::fabs(v);
+        let mut d = if a == 0.0 || a.is_infinite() {
+            Digits {
+                digits: heapless::Vec::new(),
+                exp: 0,
+            }
+        } else {
+            Digits::shortest(a).ok_or(fmt::Error)?
+        };
+        d.round_to(d.exp.saturating_add(1).saturating_add(i32::from(decimals)));
+        if v < 0.0 && (!d.digits.is_empty() || a.is_infinite()) {
+            out.write_char('-')?;
+        }
+        if a.is_infinite() {
+            return out.write_str("inf");
+        }
+        // Digit at power of ten p, zero outside the digits.
+        let digit_at = |p: i32| -> char {
+            let i = d.exp - p;
+            usize::try_from(i)
+                .ok()
+                .and_then(|i| d.digits.get(i))
+                .map_or('0', |&c| char::from(c))
+        };
+        let top = if d.digits.is_empty() { 0 } else { d.exp.max(0) };
+        for p in (0..=top).rev() {
+            out.write_char(digit_at(p))?;
+        }
+        if decimals > 0 {
+            out.write_char('.')?;
+            for p in 1..=i32::from(decimals) {
+                out.write_char(digit_at(-p))?;
+            }
+        }
+        Ok(())
+    }
 }
 
 /// Write the digit string with the decimal point after `int_len` digits (`int_len` may be <= 0
@@ -832,5 +1006,88 @@ mod tests {
         assert_eq!(resistor_code(4700.0).as_str(), "4k7");
         assert_eq!(resistor_code(0.0047).as_str(), "R0047");
         assert_eq!(capacitor_code(4.7e-9).as_str(), "4n7");
+    }
+
+    /// Random doubles over the whole finite range and near the usual magnitudes.
+    fn sample_doubles() -> impl Iterator<Item = f64> {
+        let mut state = 0x2545_F491_4F6C_DD1Du64;
+        let mut next = move || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            state
+        };
+        (0..200_000).map(move |i| {
+            let bits = next();
+            if i % 2 == 0 {
+                f64::from_bits(bits % 0x7FF0_0000_0000_0000)
+            } else {
+                // Short decimals such as 4.7, 0.125, 2200: the values people type.
+                let digits = bits % 100_000;
+                let exp = i32::try_from(next() % 16).unwrap() - 8;
+                digits as f64 * 10f64.powi(exp)
+            }
+        })
+    }
+
+    #[test]
+    fn full_matches_the_standard_shortest_form() {
+        // Reference: Rust core's `{}` and `{:e}` print the shortest digits that read back
+        // exactly (Steele-White/Grisu with Dragon fallback); ours come from the Ryū algorithm.
+        for v in sample_doubles().chain([0.001, 999_999.9, 1e6, 5e-324, f64::MAX, 0.1, 100.0]) {
+            for v in [v, -v] {
+                let a = v.abs();
+                let want = if a == 0.0 {
+                    "0".into()
+                } else if (1e-3..1e6).contains(&a) {
+                    format!("{v}")
+                } else {
+                    format!("{v:e}")
+                };
+                let got = format!("{}", Full(v));
+                assert_eq!(got.parse::<f64>().unwrap(), v, "{got}");
+                // Where two shortest forms are equally near, Ryū takes the even digit and core
+                // may take the other: same length, both read back exactly.
+                if got != want {
+                    assert_eq!(got.len(), want.len(), "{v:e}: {got} against {want}");
+                }
+            }
+        }
+        assert_eq!(format!("{}", Full(f64::NAN)), "NaN");
+        assert_eq!(format!("{}", Full(f64::NEG_INFINITY)), "-inf");
+    }
+
+    #[test]
+    fn fixed_matches_the_standard_fixed_form_except_at_decimal_ties() {
+        // Reference: Rust core's `{:.N}` rounds the exact binary value (half to even). Ours rounds
+        // the shortest digits half-up, so the two differ only where those digits end in a 5 just
+        // past the last decimal kept (0.125 to 2 decimals: core 0.12, ours 0.13).
+        for v in sample_doubles().filter(|v| v.abs() < 1e15) {
+            for n in [0u8, 1, 2, 3, 6] {
+                let got = format!("{}", Fixed(v, n));
+                let want = format!("{v:.prec$}", prec = usize::from(n));
+                let plain = format!("{v}");
+                let frac = plain.split_once('.').map_or("", |(_, f)| f);
+                if frac.len() <= usize::from(n) {
+                    // Short enough: the shortest digits padded with zeros (core goes on with
+                    // the digits of the exact binary value instead).
+                    // Read back exactly, with exactly n decimals.
+                    let decimals = got.split_once('.').map_or(0, |(_, f)| f.len());
+                    assert_eq!(decimals, usize::from(n), "{v:e} to {n}: {got}");
+                    assert_eq!(got.parse::<f64>().unwrap(), v, "{v:e} to {n}: {got}");
+                } else if got != want {
+                    assert!(
+                        frac.len() == usize::from(n) + 1 && frac.ends_with('5'),
+                        "{v:e} to {n}: {got} against {want}"
+                    );
+                }
+            }
+        }
+        assert_eq!(format!("{}", Fixed(2.5, 3)), "2.500");
+        assert_eq!(format!("{}", Fixed(14.96, 0)), "15");
+        assert_eq!(format!("{}", Fixed(9.9996, 3)), "10.000");
+        assert_eq!(format!("{}", Fixed(-0.0004, 3)), "0.000");
+        assert_eq!(format!("{}", Fixed(-0.0006, 3)), "-0.001");
+        assert_eq!(format!("{:>8}", Fixed(1.5, 2)), "    1.50");
     }
 }

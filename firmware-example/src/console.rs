@@ -29,6 +29,7 @@ use crate::screen::{Verdict, VerdictScreen};
 use biasjig_core::console::parse::Mode;
 use biasjig_core::console::{Channel, Clock, Console, JigError, Store};
 use biasjig_core::stage::{Fault, Readings, Resistor};
+use biasjig_core::units::{Fixed, Full};
 use embedded_io::{ErrorType, Read, Write};
 
 /// Longest `fw:` query line, bytes.
@@ -635,7 +636,7 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
             match r {
                 Ok(v) => {
                     for c in Channel::ALL {
-                        say(out, format_args!("{} {:.3}\r\n", label(c), reading(&v, c)))?;
+                        say(out, format_args!("{} {}\r\n", label(c), Fixed(reading(&v, c), 3)))?;
                     }
                     out.write_all(b"ok\r\n")
                 }
@@ -664,13 +665,13 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
                         format_args!(
                             "seed={seed} fault={} vcc={} r1={} r2={} rc={} re1={} re2={} beta={}\r\nok\r\n",
                             f.as_str(),
-                            s.vcc.value,
-                            s.r1.value,
-                            s.r2.value,
-                            s.rc.value,
-                            s.re1.value,
-                            s.re2.value,
-                            beta
+                            Full(s.vcc.value),
+                            Full(s.r1.value),
+                            Full(s.r2.value),
+                            Full(s.rc.value),
+                            Full(s.re1.value),
+                            Full(s.re2.value),
+                            Full(beta)
                         ),
                     )
                 }
@@ -715,7 +716,7 @@ fn write_fault<const N: usize>(f: &mut FmtBuf<N>, fault: Option<Fault>) {
         None => f.write_str("none"),
         Some(Fault::Open(r)) => write!(f, "{}:open", name(r)),
         Some(Fault::Short(r)) => write!(f, "{}:short", name(r)),
-        Some(Fault::Value(r, v)) => write!(f, "{}:{v}", name(r)),
+        Some(Fault::Value(r, v)) => write!(f, "{}:{}", name(r), Full(v)),
         Some(Fault::Device(d)) => write!(f, "Q:{}", d.name()),
     };
 }

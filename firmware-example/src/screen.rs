@@ -6,6 +6,7 @@ use crate::console::{label, FmtBuf};
 use crate::jig::reading;
 use biasjig_core::console::{Channel, JigError};
 use biasjig_core::stage::Readings;
+use biasjig_core::units::Fixed;
 use embedded_graphics::mono_font::ascii::FONT_6X10;
 use embedded_graphics::mono_font::{MonoFont, MonoTextStyle};
 use embedded_graphics::pixelcolor::BinaryColor;
@@ -261,7 +262,7 @@ pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
                 let mut b = FmtBuf::<24>::new();
                 let _ = core::fmt::Write::write_fmt(
                     &mut b,
-                    format_args!("{:<3} {:>7.3} V", label(node), reading(v, node)),
+                    format_args!("{:<3} {:>7} V", label(node), Fixed(reading(v, node), 3)),
                 );
                 text(
                     d,

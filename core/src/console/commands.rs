@@ -18,7 +18,7 @@ use crate::predict::predict;
 use crate::series::{colour_bands, BandCount};
 use crate::solve::Conditions;
 use crate::stage::{Capacitor, Part, Polarity, Readings, Resistor};
-use crate::units::{capacitor_code, resistor_code, Eng};
+use crate::units::{capacitor_code, resistor_code, Eng, Fixed, Full};
 
 /// Conversions averaged for one calibration point.
 const CAL_SAMPLES: u16 = 64;
@@ -137,15 +137,12 @@ pub struct Num(pub f64);
 impl fmt::Display for Num {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         let v = self.0;
-        let a = libm::fabs(v);
         if !v.is_finite() {
             f.write_str("none")
         } else if v == 0.0 {
             f.write_str("0")
-        } else if (1e-3..1e6).contains(&a) {
-            write!(f, "{v}")
         } else {
-            write!(f, "{v:e}")
+            Full(v).fmt(f)
         }
     }
 }
@@ -453,7 +450,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             {
                 return Err(Fail::new(
                     Code::Range,
-                    format_args!("temp: {t}: allowed -55 to 150 °C"),
+                    format_args!("temp: {}: allowed -55 to 150 °C", Num(t)),
                 ));
             }
             Setting::Temp(t) => {
@@ -465,7 +462,8 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 return Err(Fail::new(
                     Code::Range,
                     format_args!(
-                        "temp-min: {t}: must be at most the ambient {} °C",
+                        "temp-min: {}: must be at most the ambient {} °C",
+                        Num(t),
                         Num(next.temp_c)
                     ),
                 ));
@@ -474,7 +472,8 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 return Err(Fail::new(
                     Code::Range,
                     format_args!(
-                        "temp-max: {t}: must be at least the ambient {} °C",
+                        "temp-max: {}: must be at least the ambient {} °C",
+                        Num(t),
                         Num(next.temp_c)
                     ),
                 ));
@@ -615,9 +614,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                         ));
                     } else {
                         r.data(format_args!(
-                            "{:<4} gain {:.6}  offset {}{}",
+                            "{:<4} gain {}  offset {}{}",
                             c.name(),
-                            k.gain,
+                            Fixed(k.gain, 6),
                             Eng::new(k.offset, "V"),
                             if pending { "  (low point taken)" } else { "" }
                         ));
@@ -673,9 +672,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     ));
                 } else {
                     r.data(format_args!(
-                        "{} gain {:.6}  offset {}",
+                        "{} gain {}  offset {}",
                         c.name(),
-                        k.gain,
+                        Fixed(k.gain, 6),
                         Eng::new(k.offset, "V")
                     ));
                 }
@@ -1079,9 +1078,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             ));
             if let Some(m) = &p.midband {
                 r.data(format_args!(
-                    "gain {:.3} (stage {:.3})  zin {}  zout {}",
-                    m.gain,
-                    m.gain_stage,
+                    "gain {} (stage {})  zin {}  zout {}",
+                    Fixed(m.gain, 3),
+                    Fixed(m.gain_stage, 3),
                     Eng::new(m.zin, "Ω"),
                     Eng::new(m.zout, "Ω")
                 ));

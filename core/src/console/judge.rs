@@ -26,7 +26,7 @@ use crate::explain::{FaultWords, SeparatingStep};
 use crate::limits;
 use crate::spread::{self, McSettings, Method, SpreadError};
 use crate::stage::{Polarity, Readings};
-use crate::units::{capacitor_code, resistor_code, Eng};
+use crate::units::{capacitor_code, resistor_code, Eng, Fixed};
 
 /// How many fault hypotheses `check`, `test` and `diagnose` list at most (as `biasjig check`).
 pub const LISTED_FAULTS: usize = 6;
@@ -157,7 +157,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             let mut beta = Text::default();
             match dv.beta {
                 Some(b) => {
-                    let _ = write!(beta, "{b:.0}");
+                    let _ = write!(beta, "{}", Fixed(b, 0));
                 }
                 None => {
                     let _ = beta.write_str("-");
@@ -225,13 +225,13 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             let mut shown: heapless::Vec<u8, LISTED_FAULTS> = heapless::Vec::new();
             for (k, h) in d.faults().take(LISTED_FAULTS).enumerate() {
                 r.data(format_args!(
-                    "{}. {} ({:.0} %)",
+                    "{}. {} ({} %)",
                     k + 1,
                     FaultWords {
                         stage: &self.settings.stage,
                         hypothesis: h
                     },
-                    100.0 * h.score
+                    Fixed(100.0 * h.score, 0)
                 ));
                 let mut names = Text::default();
                 for e in d.equivalents(h).filter(|e| e.suspect.is_fault()) {
@@ -438,8 +438,8 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     caps.as_str()
                 ));
                 r.data(format_args!(
-                    "   gain {:.2}, swing {} peak-to-peak, IC {}, VCE {}, low corner {}",
-                    c.gain,
+                    "   gain {}, swing {} peak-to-peak, IC {}, VCE {}, low corner {}",
+                    Fixed(c.gain, 2),
                     Eng::new(c.swing_pp, "V"),
                     Eng::new(c.op.ic, "A"),
                     Eng::new(c.op.vce, "V"),
