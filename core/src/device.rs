@@ -105,15 +105,18 @@ impl Default for Profile {
 }
 
 /// The saturation current at 25 °C that gives `vbe` volts at IC = 1 mA with VBC = 0, A.
+///
+/// `exp − 1` and `ln(1 + x)` are written out: in the profile's range (VBE from 0.2 V, so
+/// VBE/VT above 7) they lose nothing against `expm1`/`log1p`, whose code the instrument saves.
 pub fn is_from_vbe(vbe: f64) -> f64 {
     let vt = thermal_voltage(REFERENCE_TEMP_C);
-    VBE_REFERENCE_CURRENT / libm::expm1(vbe / vt)
+    VBE_REFERENCE_CURRENT / (libm::exp(vbe / vt) - 1.0)
 }
 
 /// VBE at IC = 1 mA and 25 °C for a saturation current `is_25`, V.
 pub fn vbe_from_is(is_25: f64) -> f64 {
     let vt = thermal_voltage(REFERENCE_TEMP_C);
-    vt * libm::log1p(VBE_REFERENCE_CURRENT / is_25)
+    vt * libm::log(1.0 + VBE_REFERENCE_CURRENT / is_25)
 }
 
 impl Profile {

@@ -62,12 +62,21 @@ const POW10: [f64; 23] = [
     1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
 ];
 
-/// 10^e for a non-negative exponent: exact up to 1e22, `libm::pow` beyond.
+/// 10^e for a non-negative exponent: exact up to 1e22, correctly rounded up to 1e44 (one
+/// product of exact powers), within a few ulps beyond; infinity past 1e308.
 fn pow10(e: i64) -> f64 {
-    match usize::try_from(e).ok().and_then(|i| POW10.get(i)) {
-        Some(p) => *p,
-        None => libm::pow(10.0, e as f64),
+    let mut p: f64 = 1.0;
+    let mut rest = e.max(0);
+    while rest > 22 && p.is_finite() {
+        p *= 1e22;
+        rest -= 22;
     }
+    let last = usize::try_from(rest)
+        .ok()
+        .and_then(|i| POW10.get(i))
+        .copied()
+        .unwrap_or(1.0);
+    p * last
 }
 
 /// `m × 10^e`, correctly rounded for |e| <= 22.
@@ -202,13 +211,21 @@ impl Series {
         (v.is_finite() && v > 0.0).then_some(v)
     }
 
-    /// Decade of a positive finite x: floor(log10(x)), corrected for rounding of log10.
+    /// Decade of a positive finite x: floor(log10(x)), with the logarithm's rounding corrected
+    /// so that powers of ten land in their own decade (exactly so from 1e-22 to 1e22).
     fn decade(x: f64) -> Option<i64> {
         if !(x.is_finite() && x > 0.0) {
             return None;
         }
         // |log10| <= 324 for finite positive f64, so the cast is exact.
-        Some(libm::floor(libm::log10(x)) as i64)
+        let d = libm::floor(libm::log(x) * core::f64::consts::LOG10_E) as i64;
+        Some(if scale(1.0, d + 1) <= x {
+            d + 1
+        } else if scale(1.0, d) > x {
+            d - 1
+        } else {
+            d
+        })
     }
 
     /// Global indices of the members in the three decades around x, ascending.
@@ -548,6 +565,20 @@ pub fn colour_bands(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn decades_of_powers_of_ten_and_their_neighbours() {
+        extern crate std;
+        for k in -22i64..=22 {
+            let p: f64 = std::format!("1e{k}").parse().unwrap();
+            assert_eq!(Series::decade(p), Some(k), "1e{k}");
+            assert_eq!(Series::decade(p.next_down()), Some(k - 1), "below 1e{k}");
+            assert_eq!(Series::decade(p.next_up()), Some(k), "above 1e{k}");
+            assert_eq!(Series::decade(p * 9.99), Some(k), "9.99e{k}");
+        }
+        assert_eq!(pow10(25), 1e25);
+        assert_eq!(pow10(400), f64::INFINITY);
+    }
 
     #[test]
     fn lookups() {
