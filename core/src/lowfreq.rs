@@ -74,7 +74,7 @@ fn gain_at(stage: &Stage, op: &OperatingPoint, f: Option<f64>) -> Option<f64> {
         inject: acnet::source_emf(stage),
         ..Setup::midband()
     };
-    acnet::solve(stage, &op.y, &setup).map(|v| acnet::at(&v, OUT).norm())
+    acnet::solve(stage, &op.y, &setup).map(|v| libm::sqrt(acnet::at(&v, OUT).norm_sqr()))
 }
 
 /// The low-frequency figures of `stage` at `op`.

@@ -208,6 +208,19 @@ fn lower(name: &str) -> Text {
     t
 }
 
+/// The refusal of a design-search command by a unit built without them (core feature
+/// `synthesis`, left out of the instrument's budget build).
+#[cfg(not(feature = "synthesis"))]
+fn no_synthesis(command: &str) -> Fail {
+    Fail::new(
+        Code::NotSupported,
+        format_args!(
+            "{command}: this unit does not search for designs (left out to fit its flash): run \
+             biasjig design on a PC and send the stage (biasjig station does)"
+        ),
+    )
+}
+
 fn jig_fail(e: JigError) -> Fail {
     match e {
         JigError::NotSupported => Fail::new(
@@ -290,18 +303,28 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 }
                 Ok(None)
             }
+            #[cfg(not(feature = "synthesis"))]
+            Command::Requirement(_) => Err(no_synthesis("requirement")),
+            #[cfg(not(feature = "synthesis"))]
+            Command::Design => Err(no_synthesis("design")),
+            #[cfg(not(feature = "synthesis"))]
+            Command::Pick(_) => Err(no_synthesis("pick")),
+            #[cfg(feature = "synthesis")]
             Command::Requirement(None) => {
                 self.show_requirement(r);
                 Ok(None)
             }
+            #[cfg(feature = "synthesis")]
             Command::Requirement(Some(set)) => {
                 self.editable()?;
                 self.set_requirement(set)
             }
+            #[cfg(feature = "synthesis")]
             Command::Design => {
                 self.editable()?;
                 self.design(r)
             }
+            #[cfg(feature = "synthesis")]
             Command::Pick(n) => {
                 self.editable()?;
                 self.pick(n)

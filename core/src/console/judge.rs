@@ -1,5 +1,5 @@
-//! The commands that judge a board and design a stage: `check`, `test`, `diagnose`,
-//! `requirement`, `design`, `pick` and `spread`.
+//! The commands that judge a board and spread a stage: `check`, `test`, `diagnose` and
+//! `spread`.
 //!
 //! `check` and `test` make the same core calls with the same choices as `biasjig check`: the
 //! plausibility refusals of [`check::plausible`], the limits of [`limits::limits`] at the
@@ -14,19 +14,19 @@ use core::fmt::Write as _;
 
 use embedded_io::Write;
 
-use super::commands::{show_readings, Human, Num, Opt, Pct, Upper};
+use super::commands::{show_readings, Num, Opt};
 use super::jig::{Clock, Jig, Store};
-use super::parse::ReqSetting;
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::{self, Implausible, Verdict};
-use crate::design::{self, DesignError};
 use crate::diagnose::{self, Diagnosis};
 use crate::explain::{FaultWords, SeparatingStep};
 use crate::limits;
-use crate::spread::{self, McSettings, Method, SpreadError};
-use crate::stage::{Polarity, Readings};
-use crate::units::{capacitor_code, resistor_code, Eng, Fixed};
+#[cfg(feature = "monte-carlo")]
+use crate::spread::McSettings;
+use crate::spread::{self, Method, SpreadError};
+use crate::stage::Readings;
+use crate::units::{Eng, Fixed};
 
 /// How many fault hypotheses `check`, `test` and `diagnose` list at most (as `biasjig check`).
 pub const LISTED_FAULTS: usize = 6;
@@ -287,207 +287,6 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
-    /// `requirement`: show the design requirement.
-    #[inline(never)]
-    pub(super) fn show_requirement<W: Write>(&self, r: &mut Reply<'_, W>) {
-        let q = &self.requirement;
-        let pol = match q.polarity {
-            Polarity::Npn => "npn",
-            Polarity::Pnp => "pnp",
-        };
-        if r.machine() {
-            r.data(format_args!(
-                "polarity={pol} vcc={} gain={} rl={} rs={} ic_max={}",
-                Num(q.vcc),
-                Num(q.gain),
-                Opt(q.rl),
-                Num(q.rs),
-                Num(q.ic_max)
-            ));
-            r.data(format_args!(
-                "swing_pp={} f_low={} temp={} temp_min={} temp_max={}",
-                Num(q.swing_pp),
-                Opt(q.f_low),
-                Num(q.temp),
-                Num(q.temp_min),
-                Num(q.temp_max)
-            ));
-            r.data(format_args!(
-                "series={} tol={} cap_series={} cap_tol={}",
-                q.series.name(),
-                Num(q.tol),
-                q.cap_series.name(),
-                Num(q.cap_tol)
-            ));
-        } else {
-            r.data(format_args!(
-                "{} on {}, gain {} into {} from {}",
-                Upper(pol),
-                Eng::new(q.vcc, "V"),
-                Num(q.gain),
-                Human(q.rl, "Ω"),
-                Eng::new(q.rs, "Ω")
-            ));
-            r.data(format_args!(
-                "IC at most {}, swing at least {} peak-to-peak, low corner at most {}",
-                Eng::new(q.ic_max, "A"),
-                Eng::new(q.swing_pp, "V"),
-                Eng::new(q.f_low_or_default(), "Hz")
-            ));
-            r.data(format_args!(
-                "ambient {} °C ({} to {} °C), resistors {} ±{}, capacitors {} ±{}",
-                Num(q.temp),
-                Num(q.temp_min),
-                Num(q.temp_max),
-                q.series.name(),
-                Pct(q.tol),
-                q.cap_series.name(),
-                Pct(q.cap_tol)
-            ));
-        }
-    }
-
-    /// `requirement NAME VALUE`: change one field; the whole requirement must stay valid.
-    #[inline(never)]
-    pub(super) fn set_requirement(&mut self, s: ReqSetting) -> Outcome {
-        let mut q = self.requirement;
-        match s {
-            ReqSetting::Polarity(p) => q.polarity = p,
-            ReqSetting::Vcc(v) => q.vcc = v,
-            ReqSetting::Gain(v) => q.gain = v,
-            ReqSetting::Load(v) => q.rl = v,
-            ReqSetting::Source(v) => q.rs = v,
-            ReqSetting::IcMax(v) => q.ic_max = v,
-            ReqSetting::Swing(v) => q.swing_pp = v,
-            ReqSetting::FLow(v) => q.f_low = v,
-            ReqSetting::Temp(v) => q.temp = v,
-            ReqSetting::TempMin(v) => q.temp_min = v,
-            ReqSetting::TempMax(v) => q.temp_max = v,
-            ReqSetting::Series(v) => q.series = v,
-            ReqSetting::Tol(v) => q.tol = v,
-            ReqSetting::CapSeries(v) => q.cap_series = v,
-            ReqSetting::CapTol(v) => q.cap_tol = v,
-        }
-        q.validate()
-            .map_err(|e| Fail::new(Code::Range, format_args!("{}: {e}", e.field())))?;
-        self.requirement = q;
-        self.candidates.clear();
-        Ok(None)
-    }
-
-    /// `design`: candidates for the requirement with the set transistor, best first.
-    #[inline(never)]
-    pub(super) fn design<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
-        // In place: the list is written straight into the console's own, never copied.
-        design::design_into(
-            &self.requirement,
-            &self.settings.profile,
-            &mut self.candidates,
-        )
-        .map_err(|e| {
-            let code = match e {
-                DesignError::Invalid(_) | DesignError::Profile(_) => Code::Range,
-                _ => Code::NoDesign,
-            };
-            Fail::new(code, format_args!("{e}"))
-        })?;
-        for (k, c) in self.candidates.iter().enumerate() {
-            let s = &c.stage;
-            let n = k + 1;
-            let cap = |p: Option<crate::stage::Part>| p.map(|p| p.value);
-            if r.machine() {
-                r.data(format_args!(
-                    "candidate={n} r1={} r2={} rc={} re1={} re2={} cin={} cout={} ce={}",
-                    Num(s.r1.value),
-                    Num(s.r2.value),
-                    Num(s.rc.value),
-                    Num(s.re1.value),
-                    Num(s.re2.value),
-                    Opt(cap(s.cin)),
-                    Opt(cap(s.cout)),
-                    Opt(cap(s.ce))
-                ));
-                r.data(format_args!(
-                    "candidate={n} gain={} swing_pp={} ic={} vce={} f_low={} score={}",
-                    Num(c.gain),
-                    Num(c.swing_pp),
-                    Num(c.op.ic),
-                    Num(c.op.vce),
-                    Num(c.f_low),
-                    Num(c.score)
-                ));
-            } else {
-                let mut caps = Text::default();
-                for (name, p) in [("CIN", s.cin), ("COUT", s.cout), ("CE", s.ce)] {
-                    match p {
-                        Some(p) => {
-                            let _ = write!(caps, "  {name} {}", capacitor_code(p.value));
-                        }
-                        None => {
-                            let _ = write!(caps, "  {name} ideal");
-                        }
-                    }
-                }
-                r.data(format_args!(
-                    "{n}. R1 {}  R2 {}  RC {}  RE1 {}  RE2 {}{}",
-                    resistor_code(s.r1.value),
-                    resistor_code(s.r2.value),
-                    resistor_code(s.rc.value),
-                    resistor_code(s.re1.value),
-                    resistor_code(s.re2.value),
-                    caps.as_str()
-                ));
-                r.data(format_args!(
-                    "   gain {}, swing {} peak-to-peak, IC {}, VCE {}, low corner {}",
-                    Fixed(c.gain, 2),
-                    Eng::new(c.swing_pp, "V"),
-                    Eng::new(c.op.ic, "A"),
-                    Eng::new(c.op.vce, "V"),
-                    Eng::new(c.f_low, "Hz")
-                ));
-            }
-        }
-        Ok(Some(Text::of(format_args!(
-            "{} candidates, best first: pick N takes one",
-            self.candidates.len()
-        ))))
-    }
-
-    /// `pick N`: candidate N becomes the stage (with the requirement's ambient range).
-    #[inline(never)]
-    pub(super) fn pick(&mut self, n: u8) -> Outcome {
-        if self.candidates.is_empty() {
-            return Err(Fail::new(
-                Code::NoDesign,
-                format_args!("no candidates: run design first"),
-            ));
-        }
-        let count = self.candidates.len();
-        let Some(c) = usize::from(n)
-            .checked_sub(1)
-            .and_then(|k| self.candidates.get(k))
-        else {
-            return Err(Fail::new(
-                Code::Value,
-                format_args!("pick: {n}: allowed 1 to {count}"),
-            ));
-        };
-        let mut next = self.settings;
-        next.stage = c.stage;
-        next.temp_c = self.requirement.temp;
-        next.temp_min_c = self.requirement.temp_min;
-        next.temp_max_c = self.requirement.temp_max;
-        next.stage
-            .validate()
-            .map_err(|e| Fail::new(Code::Range, format_args!("{e}")))?;
-        self.settings = next;
-        self.last = None;
-        Ok(Some(Text::of(format_args!(
-            "the stage is candidate {n}, design hash {:016x}",
-            self.design_hash()
-        ))))
-    }
-
     /// `spread RUNS SEED`: the worst case over the corners and a seeded Monte Carlo summary.
     #[inline(never)]
     pub(super) fn spread<W: Write>(&self, runs: u32, seed: u64, r: &mut Reply<'_, W>) -> Outcome {
@@ -495,13 +294,56 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let var = st.variation();
         let wc = spread::worst_case(&st.stage, &st.profile, &var, Method::default())
             .map_err(|e| spread_fail("spread", e))?;
+        #[cfg(not(feature = "monte-carlo"))]
+        {
+            let _ = (runs, seed);
+            for node in spread::Node::ALL {
+                let w = wc.nodes.get(node);
+                if r.machine() {
+                    r.data(format_args!(
+                        "worst={} min={} max={}",
+                        node.name(),
+                        Num(w.min),
+                        Num(w.max)
+                    ));
+                } else {
+                    let u = node.unit();
+                    r.data(format_args!(
+                        "{:<6} worst {} to {}",
+                        node.label(),
+                        Eng::new(w.min, u),
+                        Eng::new(w.max, u)
+                    ));
+                }
+            }
+            Ok(Some(Text::of(format_args!(
+                "worst case from {} solves; no Monte Carlo on this unit (kept out to fit its \
+                 flash): run biasjig spread on a PC",
+                wc.solves
+            ))))
+        }
+        #[cfg(feature = "monte-carlo")]
+        self.monte_carlo(&wc, runs, seed, r)
+    }
+
+    /// The Monte Carlo part of `spread`, beside the worst case `wc`.
+    #[cfg(feature = "monte-carlo")]
+    fn monte_carlo<W: Write>(
+        &self,
+        wc: &spread::WorstCase,
+        runs: u32,
+        seed: u64,
+        r: &mut Reply<'_, W>,
+    ) -> Outcome {
+        let st = &self.settings;
+        let var = st.variation();
         let settings = McSettings {
             runs,
             seed,
             signal: true,
             requirement: spread::Requirement::default(),
         };
-        let mc = spread::monte_carlo(&st.stage, &st.profile, &var, &wc, &settings, |_, _| {})
+        let mc = spread::monte_carlo(&st.stage, &st.profile, &var, wc, &settings, |_, _| {})
             .map_err(|e| spread_fail("spread", e))?;
         for node in spread::Node::ALL {
             let w = wc.nodes.get(node);

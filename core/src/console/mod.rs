@@ -25,6 +25,8 @@ pub mod line;
 pub mod parse;
 pub mod record;
 pub mod reply;
+#[cfg(feature = "synthesis")]
+mod synthesis;
 
 use embedded_io::{Read, Write};
 
