@@ -28,7 +28,7 @@ use heapless::Vec;
 use crate::check::reading_error;
 use crate::device::Profile;
 use crate::limits::Meter;
-use crate::solve::{solve, Conditions};
+use crate::solve::{solve_from, Conditions, Start};
 use crate::spread::Variation;
 use crate::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
 
@@ -259,6 +259,8 @@ struct Ctx<'a> {
     temp_c: f64,
     measured: [f64; 3],
     solves: u32,
+    /// The last solution, where the next solve starts (successive solves differ a little).
+    start: Option<Start>,
 }
 
 /// A change to the board for a sensitivity solve.
@@ -300,9 +302,9 @@ impl Ctx<'_> {
             beta_25: beta,
             fault,
         };
-        solve(&stage, self.profile, cond)
-            .ok()
-            .map(|op| [op.vb, op.ve, op.vc])
+        let (op, next) = solve_from(&stage, self.profile, cond, self.start.as_ref()).ok()?;
+        self.start = Some(next);
+        Some([op.vb, op.ve, op.vc])
     }
 
     fn chi2(&self, inv: &Sym3, y: Option<[f64; 3]>) -> f64 {
@@ -576,6 +578,7 @@ pub fn diagnose(
         temp_c: 0.5 * (var.temp_min_c + var.temp_max_c),
         measured: m,
         solves: 0,
+        start: None,
     };
     let mut ranked: Vec<Hypothesis, CAPACITY> = Vec::new();
     for suspect in dictionary(stage) {
