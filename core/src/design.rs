@@ -15,12 +15,13 @@
 //!    budget). Around each, neighbouring series values of every resistor are enumerated in two
 //!    bounded phases (RC and RE1 for the gain, then R1, R2 and RE2 for the bias) and every
 //!    combination is re-analysed with the exact engine ([`solve`](crate::solve::solve),
-//!    [`midband`](crate::signal::midband)): gain, swing, IC at hFE min and max and at both ends
+//!    the gain of [`midband`](crate::signal::midband)): gain, swing, IC at hFE min and max and at both ends
 //!    of the ambient range, supply draw and dissipation make up a [`score`](Candidate::score)
 //!    (lower is better). The best [`MAX_CANDIDATES`] distinct part sets that meet every
 //!    requirement are kept, best first; the result is deterministic for the same input.
 //! 3. **Capacitors**: for each kept candidate the resistances seen by CIN, COUT and CE come from
-//!    the engine's short-circuit time-constant computation ([`low_corner`]); the capacitor
+//!    the engine's short-circuit time-constant computation (as in
+//!    [`low_corner`](crate::lowfreq::low_corner)); the capacitor
 //!    series values with the smallest total capacitance whose pole sum stays at or below
 //!    [`F_LOW_MARGIN`] × the required low corner are chosen (CE dominates by itself because it
 //!    sees the smallest resistance).
@@ -33,8 +34,9 @@
 //! part sets with their own bias resistors. Levels depend on the requirement alone and are cut
 //! off at the budget, so a larger budget only adds part sets: the best score never gets worse.
 //!
-//! Cost: one E24 design is about 700 exact solves and 13.9 M instructions on x86-64 (demo scenario; see
-//! the `design` bench).
+//! Cost: one E24 design is about 1 400 exact solves (1.4 Newton iterations each), 600 gain
+//! solves of the small-signal network and 6.5 M instructions on x86-64 (demo scenario; see the
+//! `design` bench).
 
 #![expect(
     clippy::neg_cmp_op_on_partial_ord,
@@ -44,11 +46,11 @@
 use core::f64::consts::PI;
 use core::fmt;
 
+use crate::acnet::{self, Cap, Setup, B, IN, NODE_C, OUT, X};
 use crate::device::{Profile, ProfileError};
-use crate::lowfreq::low_corner;
 use crate::power::{power, RESISTOR_POWER_LIMIT};
 use crate::series::Series;
-use crate::signal::{midband, Clip};
+use crate::signal::{source_gain, swing, Clip};
 use crate::solve::{solve, Conditions, OperatingPoint, Region};
 use crate::stage::{Part, Polarity, Resistor, Stage};
 use crate::thermal_voltage;
@@ -916,6 +918,16 @@ fn pos(x: f64) -> f64 {
     }
 }
 
+/// The midband figures the search ranks by.
+struct Mid {
+    /// v(load)/v(source EMF), signed.
+    gain: f64,
+    /// Largest undistorted peak-to-peak swing at the load, V.
+    swing_pp: f64,
+    /// Which side clips first.
+    clips: Clip,
+}
+
 /// Exact analysis of one resistor set; `bound` skips the drift solves of a set that cannot beat
 /// it. `None` when the engine finds no operating point or no signal path.
 fn evaluate(
@@ -933,7 +945,15 @@ fn evaluate(
         fault: None,
     };
     let op = solve(&stage, profile, cond).ok()?;
-    let mid = midband(&stage, profile, &op).ok()?;
+    // Of the midband figures the design needs the gain (one small-signal solve: the same one
+    // `midband` makes for it, bit for bit) and the swing, not the impedances (two more solves).
+    let (gain, _) = source_gain(&stage, &op.y)?;
+    let (swing_pp, clips) = swing(&stage, profile, &op);
+    let mid = Mid {
+        gain,
+        swing_pp,
+        clips,
+    };
     let pw = power(&stage, profile, &op, req.temp);
     let hot_rating = profile.power_rating_at(req.temp_max);
     let gain_error = libm::fabs(mid.gain) / req.gain - 1.0;
@@ -1132,12 +1152,42 @@ impl Best {
 
 /// The neighbours of a value in a series: `steps` positions either side of the nearest member.
 fn around(series: Series, x: f64, steps: i32) -> heapless::Vec<f64, 5> {
+    // The nearest member once, then member by member either way (each look-up of a member's
+    // neighbour is cheaper than a nearest look-up): the same values as `series.step(x, k)`.
     let mut out = heapless::Vec::new();
-    for k in -steps..=steps {
-        if let Some(v) = series.step(x, k) {
-            if (R_MIN..=R_MAX).contains(&v) {
-                let _ = out.push(v);
+    let Some(mid) = series.nearest(x) else {
+        return out;
+    };
+    let mut below: heapless::Vec<f64, 2> = heapless::Vec::new();
+    let mut v = mid;
+    for _ in 0..steps {
+        match series.next_down(v) {
+            Some(d) if !below.is_full() => {
+                let _ = below.push(d);
+                v = d;
             }
+            _ => break,
+        }
+    }
+    let keep = |v: f64| (R_MIN..=R_MAX).contains(&v);
+    for &d in below.iter().rev() {
+        if keep(d) {
+            let _ = out.push(d);
+        }
+    }
+    if keep(mid) {
+        let _ = out.push(mid);
+    }
+    let mut v = mid;
+    for _ in 0..steps {
+        match series.next_up(v) {
+            Some(u) if !out.is_full() => {
+                if keep(u) {
+                    let _ = out.push(u);
+                }
+                v = u;
+            }
+            _ => break,
         }
     }
     out
@@ -1245,6 +1295,52 @@ fn polish(req: &Requirement, profile: &Profile, best: &mut Best) {
     }
 }
 
+/// The poles of CIN, COUT and CE (each of value `c`, F) by the short-circuit time-constant
+/// method, Hz: the resistance each one sees with the other two shorted and the source at rest,
+/// from the same small-signal network and in the same way as
+/// [`low_corner`](crate::lowfreq::low_corner) gives `f_cin`, `f_cout` and `f_ce` (bit for bit),
+/// without its search for the exact corner (some sixty more solves the choice does not use).
+fn probe_poles(stage: &Stage, op: &OperatingPoint, c: f64) -> [Option<f64>; 3] {
+    let seen_by = |which: usize| {
+        let mut setup = Setup::midband();
+        let (a, b) = match which {
+            0 => {
+                setup.cin = Cap::Open;
+                (IN, B)
+            }
+            1 => {
+                setup.cout = Cap::Open;
+                (NODE_C, OUT)
+            }
+            _ => {
+                setup.ce = Cap::Open;
+                (X, acnet::GROUND)
+            }
+        };
+        setup.inject = acnet::injection(a, b);
+        let v = acnet::solve(stage, &op.y, &setup)?;
+        let r = (acnet::at(&v, a) - acnet::at(&v, b)).re;
+        (r.is_finite() && r > 0.0).then_some(r)
+    };
+    let pole = |r: Option<f64>| match r {
+        Some(r) if r < 1e11 => Some(1.0 / (2.0 * PI * r * c)),
+        _ => None,
+    };
+    [
+        pole(seen_by(0)),
+        if stage.rl.is_some() {
+            pole(seen_by(1))
+        } else {
+            None
+        },
+        if stage.re2.value > 0.0 {
+            pole(seen_by(2))
+        } else {
+            None
+        },
+    ]
+}
+
 /// Capacitors for a candidate: the set with the least total capacitance whose pole sum is at or
 /// below `F_LOW_MARGIN` × the required low corner. Returns (CIN, COUT, CE, pole sum).
 fn capacitors(
@@ -1258,9 +1354,9 @@ fn capacitors(
     probe.cin = Some(Part::new(PROBE, 0.0));
     probe.cout = stage.rl.map(|_| Part::new(PROBE, 0.0));
     probe.ce = (stage.re2.value > 0.0).then_some(Part::new(PROBE, 0.0));
-    let lc = low_corner(&probe, op);
+    let [f_cin, f_cout, f_ce] = probe_poles(&probe, op, PROBE);
     let seen = |f: Option<f64>| f.map(|f| 1.0 / (2.0 * PI * f * PROBE));
-    let (r_in, r_out, r_e) = (seen(lc.f_cin), seen(lc.f_cout), seen(lc.f_ce));
+    let (r_in, r_out, r_e) = (seen(f_cin), seen(f_cout), seen(f_ce));
     let f_target = F_LOW_MARGIN * req.f_low_or_default();
     let series = req.cap_series;
     let pole = |r: Option<f64>, c: f64| r.map_or(0.0, |r| 1.0 / (2.0 * PI * r * c));

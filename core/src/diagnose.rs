@@ -21,14 +21,15 @@
 //! When even the best hypothesis misfits by more than [`UNEXPLAINED_CHI2`], the diagnosis says
 //! that no single fault explains the readings, and still ranks the nearest ones.
 //!
-//! Cost: 826 operating-point solves, about 2.5 M instructions (x86-64, callgrind) per diagnosis.
+//! Cost: about 570 operating-point solves, each started from the last one ([`solve_from`]: about
+//! 2 Newton iterations each), about 1.05 M instructions (x86-64, callgrind) per diagnosis.
 
 use heapless::Vec;
 
 use crate::check::reading_error;
 use crate::device::Profile;
 use crate::limits::Meter;
-use crate::solve::{solve, Conditions};
+use crate::solve::{solve_from, Conditions, Start};
 use crate::spread::Variation;
 use crate::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
 
@@ -259,6 +260,8 @@ struct Ctx<'a> {
     temp_c: f64,
     measured: [f64; 3],
     solves: u32,
+    /// The last solution, where the next solve starts (successive solves differ a little).
+    start: Option<Start>,
 }
 
 /// A change to the board for a sensitivity solve.
@@ -300,9 +303,9 @@ impl Ctx<'_> {
             beta_25: beta,
             fault,
         };
-        solve(&stage, self.profile, cond)
-            .ok()
-            .map(|op| [op.vb, op.ve, op.vc])
+        let (op, next) = solve_from(&stage, self.profile, cond, self.start.as_ref()).ok()?;
+        self.start = Some(next);
+        Some([op.vb, op.ve, op.vc])
     }
 
     fn chi2(&self, inv: &Sym3, y: Option<[f64; 3]>) -> f64 {
@@ -315,6 +318,87 @@ impl Ctx<'_> {
             None => f64::INFINITY,
         }
     }
+}
+
+/// Resolution of the 1-D searches in log(value) and log(hFE): 0.1 %, finer than the readings
+/// can tell apart (the meter error is some tenths of a percent of a reading, and a node moves
+/// by no more than the part value or hFE behind it).
+const SEARCH_RESOLUTION: f64 = 1e-3;
+/// Evaluations of the parabolic refinement after a three-point start.
+const REFINE_STEPS: u16 = 4;
+
+/// Index of the smallest f among the points (the first on a tie; 0 when none is below infinity).
+fn best_index(pts: &[(f64, f64)]) -> usize {
+    let mut best = (0, f64::INFINITY);
+    for (k, p) in pts.iter().enumerate() {
+        if p.1 < best.1 {
+            best = (k, p.1);
+        }
+    }
+    best.0
+}
+
+/// Successive parabolic interpolation from three points in increasing x, for at most `steps`
+/// evaluations of `f`. While the best point has a neighbour on either side, the vertex of the
+/// parabola through the three is evaluated if it falls inside their bracket (else the golden
+/// point of the larger half); when the best point is an end, the vertex is evaluated only if it
+/// falls between the end and its neighbour (otherwise the end is the minimum). It stops once
+/// the next point would come within [`SEARCH_RESOLUTION`] of a known one. The search never
+/// leaves the span of the three points. Returns the best (x, f(x)) seen.
+fn refine(mut f: impl FnMut(f64) -> f64, start: [(f64, f64); 3], steps: u16) -> (f64, f64) {
+    const GOLDEN: f64 = 0.381_966_011_250_105_1;
+    let mut pts: Vec<(f64, f64), 8> = Vec::new();
+    for p in start {
+        let _ = pts.push(p);
+    }
+    for _ in 0..steps {
+        let n = pts.len();
+        let k = best_index(&pts);
+        // The best point and its neighbours, or the three at the end where it lies.
+        let m = k.clamp(1, n.saturating_sub(2).max(1));
+        let (Some(&(x0, f0)), Some(&(x1, f1)), Some(&(x2, f2))) =
+            (pts.get(m - 1), pts.get(m), pts.get(m + 1))
+        else {
+            break;
+        };
+        if !(f0.is_finite() && f1.is_finite() && f2.is_finite()) {
+            break;
+        }
+        let (d0, d2) = (x1 - x0, x1 - x2);
+        let num = d0 * d0 * (f1 - f2) - d2 * d2 * (f1 - f0);
+        let den = d0 * (f1 - f2) - d2 * (f1 - f0);
+        let vertex = (den != 0.0).then(|| x1 - 0.5 * num / den);
+        // Where the minimum is: between the neighbours of an inner best, or between an end and
+        // its neighbour.
+        let (a, b) = if k == m {
+            (x0, x2)
+        } else if k < m {
+            (x0, x1)
+        } else {
+            (x1, x2)
+        };
+        let inside = |u: f64| u > a && u < b;
+        let u = match vertex {
+            Some(u) if inside(u) => u,
+            _ if k != m => break,
+            _ => {
+                if x1 - x0 > x2 - x1 {
+                    x1 - GOLDEN * (x1 - x0)
+                } else {
+                    x1 + GOLDEN * (x2 - x1)
+                }
+            }
+        };
+        if !(u.is_finite() && pts.iter().all(|p| libm::fabs(p.0 - u) >= SEARCH_RESOLUTION)) {
+            break;
+        }
+        let fu = f(u);
+        let at = pts.iter().position(|p| p.0 > u).unwrap_or(n);
+        if pts.insert(at, (u, fu)).is_err() {
+            break;
+        }
+    }
+    pts.get(best_index(&pts)).copied().unwrap_or(start[1])
 }
 
 /// Minimise `f` on [lo, hi]: a grid of `grid` points, then golden-section refinement of the best
@@ -459,6 +543,40 @@ fn crude_inverse(ctx: &Ctx<'_>, meter: &Meter) -> Sym3 {
     Sym3::diag(d)
 }
 
+/// The best fit of a hypothesis under the full error model so far.
+#[derive(Clone, Copy)]
+struct Top {
+    chi2: f64,
+    value: f64,
+    beta: f64,
+    y: [f64; 3],
+}
+
+impl Top {
+    /// Keep (`value`, `beta`) with its prediction `y` if it fits better; gives its χ².
+    fn offer(
+        &mut self,
+        ctx: &Ctx<'_>,
+        inv: &Sym3,
+        value: f64,
+        beta: f64,
+        y: Option<[f64; 3]>,
+    ) -> f64 {
+        let chi2 = ctx.chi2(inv, y);
+        if let Some(y) = y {
+            if chi2 < self.chi2 {
+                *self = Self {
+                    chi2,
+                    value,
+                    beta,
+                    y,
+                };
+            }
+        }
+        chi2
+    }
+}
+
 /// Fit one hypothesis; returns (χ², value, beta, prediction).
 fn fit(
     ctx: &mut Ctx<'_>,
@@ -469,9 +587,11 @@ fn fit(
     let p = ctx.profile;
     let (lb_lo, lb_hi) = (libm::log(p.beta_min), libm::log(p.beta_max));
     let beta_typ = p.beta_typ;
+    let lb_typ = libm::log(beta_typ);
     let beta_fits = lb_hi > lb_lo + 1e-9;
     let interval = value_interval(&ctx.stage, suspect);
-    // 1. Locate the part value with a crude error model at typical hFE.
+    // 1. Locate the part value with a crude error model at typical hFE (golden section: the
+    //    crude misfit is not smooth enough in the value for parabolic steps to find it as well).
     let mut value = 0.0;
     if let Some((_, lo, hi)) = interval {
         let crude = crude_inverse(ctx, meter);
@@ -490,48 +610,56 @@ fn fit(
     // 2. The full error model at that point.
     let y0 = ctx.predict(suspect, value, beta_typ, Tweak::None)?;
     let inv = covariance(ctx, meter, var, suspect, value, beta_typ, y0).inverse();
-    // 3. hFE within its spread, then the value again around the first find.
-    let mut beta = beta_typ;
-    let mut chi2 = ctx.chi2(&inv, Some(y0));
+    let mut top = Top {
+        chi2: f64::INFINITY,
+        value,
+        beta: beta_typ,
+        y: y0,
+    };
+    let c_typ = top.offer(ctx, &inv, value, beta_typ, Some(y0));
+    // 3. hFE within its spread (from its ends and the typical value), then the value again
+    //    around the first find, one grid step either way.
     if beta_fits {
-        let (lb, c) = minimise(
-            |lb| {
-                let y = ctx.predict(suspect, value, libm::exp(lb), Tweak::None);
-                ctx.chi2(&inv, y)
-            },
-            lb_lo,
-            lb_hi,
-            3,
-            7,
-        );
-        if c < chi2 {
-            beta = libm::exp(lb);
-            chi2 = c;
+        let mut at = |lb: f64| {
+            let b = libm::exp(lb);
+            let y = ctx.predict(suspect, value, b, Tweak::None);
+            top.offer(ctx, &inv, value, b, y)
+        };
+        let (lo, hi) = (at(lb_lo), at(lb_hi));
+        if lb_typ > lb_lo && lb_typ < lb_hi {
+            refine(
+                at,
+                [(lb_lo, lo), (lb_typ, c_typ), (lb_hi, hi)],
+                REFINE_STEPS,
+            );
+        } else {
+            let lb_mid = 0.5 * (lb_lo + lb_hi);
+            let mid = at(lb_mid);
+            refine(at, [(lb_lo, lo), (lb_mid, mid), (lb_hi, hi)], REFINE_STEPS);
         }
     }
     if let Some((_, lo, hi)) = interval {
-        let lv0 = libm::log(value);
+        let (lv0, beta, c0) = (libm::log(top.value), top.beta, top.chi2);
         let step = (hi - lo) / 12.0;
         let a = if lv0 - step > lo { lv0 - step } else { lo };
         let b = if lv0 + step < hi { lv0 + step } else { hi };
-        let (lv, c) = minimise(
-            |lv| {
-                let y = ctx.predict(suspect, libm::exp(lv), beta, Tweak::None);
-                ctx.chi2(&inv, y)
-            },
-            a,
-            b,
-            3,
-            10,
-        );
-        if c < chi2 {
-            value = libm::exp(lv);
-            chi2 = c;
+        let mut at = |lv: f64| {
+            let v = libm::exp(lv);
+            let y = ctx.predict(suspect, v, beta, Tweak::None);
+            top.offer(ctx, &inv, v, beta, y)
+        };
+        if a < lv0 && lv0 < b {
+            let (fa, fb) = (at(a), at(b));
+            refine(at, [(a, fa), (lv0, c0), (b, fb)], REFINE_STEPS);
+        } else {
+            minimise(at, a, b, 3, 10);
         }
     }
-    let y = ctx.predict(suspect, value, beta, Tweak::None)?;
-    let chi2 = ctx.chi2(&inv, Some(y)).min(chi2);
-    Some((chi2, interval.map(|_| value), beta, y))
+    if !top.chi2.is_finite() {
+        // Nothing fitted under the full model (every solve failed but the first): the first.
+        top.chi2 = c_typ;
+    }
+    Some((top.chi2, interval.map(|_| top.value), top.beta, top.y))
 }
 
 /// Every hypothesis of the dictionary for this stage (resistors of zero ohms are not fitted and
@@ -576,6 +704,7 @@ pub fn diagnose(
         temp_c: 0.5 * (var.temp_min_c + var.temp_max_c),
         measured: m,
         solves: 0,
+        start: None,
     };
     let mut ranked: Vec<Hypothesis, CAPACITY> = Vec::new();
     for suspect in dictionary(stage) {
@@ -670,6 +799,29 @@ mod tests {
         for (a, b) in back.iter().zip(x) {
             assert!((a - b).abs() < 1e-12, "{back:?}");
         }
+    }
+
+    #[test]
+    fn parabolic_refinement_finds_a_minimum_in_few_steps() {
+        let mut n = 0;
+        let mut f = |x: f64| {
+            n += 1;
+            (x - 0.37) * (x - 0.37) * (1.0 + 0.1 * x) + 2.0
+        };
+        let start = [-1.0, 0.2, 1.0].map(|x| (x, f(x)));
+        let (x, fx) = refine(&mut f, start, REFINE_STEPS);
+        assert!((x - 0.37).abs() < 2e-3, "{x}");
+        assert!((fx - 2.0).abs() < 1e-5);
+        assert!(n <= 3 + usize::from(REFINE_STEPS), "{n}");
+        // A minimum at an end of the span: the end.
+        let (x, _) = refine(|x| x, [(0.0, 0.0), (0.5, 0.5), (1.0, 1.0)], REFINE_STEPS);
+        assert_eq!(x, 0.0);
+        let (x, _) = refine(
+            |x| -x * x,
+            [(0.0, 0.0), (0.5, -0.25), (1.0, -1.0)],
+            REFINE_STEPS,
+        );
+        assert_eq!(x, 1.0);
     }
 
     #[test]

@@ -668,12 +668,20 @@ fn first_guess(p: &Problem) -> [f64; 2] {
     let ic = ie * alpha;
     let vb = vthb - rb * ie / (beta + 1.0);
     let vc = p.vcc - ic * rc;
-    let mut vbc = vb - vc;
+    let vbc = vb - vc;
     // Saturated: put VCE at about 0.1 V.
     if vbc > vbe - 0.1 {
-        vbc = vbe - 0.1;
+        [vbe, vbe - 0.1]
+    } else {
+        [vbe, vbc]
     }
-    [vbe, vbc]
+}
+
+/// The hand method's start is as good as a warm start where it says forward active with every
+/// terminal driven and a good transistor (Newton then settles in one or two iterations); elsewhere
+/// (saturation, a floating terminal, a transistor fault) it is only a rough start.
+fn guess_is_close(p: &Problem, x: [f64; 2]) -> bool {
+    p.free == [false; 3] && p.j.fault.is_none() && x[1] < x[0] - 0.2
 }
 
 /// Solve the DC operating point of `stage` with `profile` under `cond`.
@@ -685,6 +693,38 @@ pub fn solve(
     profile: &Profile,
     cond: Conditions,
 ) -> Result<OperatingPoint, SolveError> {
+    solve_from(stage, profile, cond, None).map(|(op, _)| op)
+}
+
+/// Where a warm-started solve begins: the solver's own unknowns at an earlier solution (the two
+/// junction voltages, NPN frame, V) and the saturation current it used. Obtained from
+/// [`solve_from`]; opaque, so that only a real solution can seed a solve.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Start {
+    /// VBE and VBC between the stage's base, emitter and collector nodes (NPN frame), V.
+    x: [f64; 2],
+    /// The ambient at which `is` was computed, °C.
+    temp_c: f64,
+    /// The profile's IS at 25 °C from which `is` was computed, A.
+    is_25: f64,
+    /// IS at `temp_c`, A.
+    is: f64,
+}
+
+/// [`solve`], with Newton's method started from an earlier solution `start` of a similar problem
+/// (the same stage with a part value, hFE, temperature or supply a little different, or another
+/// fault): a sequence of such solves, as in a fit, then needs a few iterations each instead of
+/// many where the hand estimate is a poor start (saturation, a floating terminal, a transistor
+/// fault). Where the hand estimate is close (forward active, every terminal driven, a good
+/// transistor) it is used instead. The convergence test and the fallbacks (the hand estimate,
+/// then the supply ramp) are those of [`solve`], so the answer is the same operating point within
+/// the convergence criterion. Also gives the start for the next solve.
+pub fn solve_from(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    start: Option<&Start>,
+) -> Result<(OperatingPoint, Start), SolveError> {
     let vcc = stage.vcc.value;
     let (r_top, r_bottom) = match stage.polarity {
         // In the mirrored NPN frame of a PNP stage, R1 (supply side) takes the place of R2.
@@ -695,7 +735,16 @@ pub fn solve(
     let re = stage.re_total();
     let temp = cond.temp_c;
     let vt = thermal_voltage(temp);
-    let is = profile.is_at(temp);
+    // The same temperature law for the same figures gives the same IS, bit for bit.
+    let is = match start {
+        Some(s)
+            if s.temp_c.to_bits() == temp.to_bits()
+                && s.is_25.to_bits() == profile.is_25.to_bits() =>
+        {
+            s.is
+        }
+        _ => profile.is_at(temp),
+    };
     let beta = profile.beta_at(cond.beta_25, temp);
     let j = Junction {
         vt,
@@ -737,12 +786,34 @@ pub fn solve(
         return Err(SolveError::NonFinite);
     }
     let mut iterations = 0u16;
-    let x0 = first_guess(&p);
-    let (x, cur) = match newton(&p, 1.0, x0, &mut iterations) {
+    // The hand estimate only where it may serve: it costs a logarithm.
+    let regular = p.free == [false; 3] && p.j.fault.is_none();
+    let x0 = (regular || start.is_none()).then(|| first_guess(&p));
+    let warm = start
+        .map(|s| s.x)
+        .filter(|x| x[0].is_finite() && x[1].is_finite())
+        .filter(|_| !x0.is_some_and(|x0| guess_is_close(&p, x0)));
+    let from_warm = warm.and_then(|x| newton(&p, 1.0, x, &mut iterations));
+    let settled = match from_warm {
+        Some(settled) => Some(settled),
+        None => newton(
+            &p,
+            1.0,
+            x0.unwrap_or_else(|| first_guess(&p)),
+            &mut iterations,
+        ),
+    };
+    let (x, cur) = match settled {
         Some(settled) => settled,
         None => ramp(&p, &mut iterations)?,
     };
-    finish(stage, &p, x, cur, beta, iterations)
+    let next = Start {
+        x,
+        temp_c: temp,
+        is_25: profile.is_25,
+        is,
+    };
+    finish(stage, &p, x, cur, beta, iterations).map(|op| (op, next))
 }
 
 /// Source stepping: raise the supply from a small fraction to full, each step from the last.

@@ -167,7 +167,7 @@ fn seeded_sweep_of_good_and_faulty_boards() {
     let (mut faulty, mut faulty_fail, mut detectable, mut detectable_fail) =
         (0u32, 0u32, 0u32, 0u32);
     let (mut ranked, mut first, mut top3) = (0u32, 0u32, 0u32);
-    let (mut solves_max, mut unexplained_true) = (0u32, 0u32);
+    let (mut solves_max, mut solves_all, mut unexplained_true) = (0u32, 0u64, 0u32);
     const BOARDS_PER_DESIGN: usize = 300;
     for (name, design, prof) in designs() {
         for _ in 0..BOARDS_PER_DESIGN {
@@ -236,6 +236,7 @@ fn seeded_sweep_of_good_and_faulty_boards() {
             row.failed += 1;
             let d = diagnose(&design, &prof, &r, &meter, &var).unwrap();
             solves_max = solves_max.max(d.solves);
+            solves_all += u64::from(d.solves);
             unexplained_true += u32::from(!d.explained);
             ranked += 1;
             let is_first = in_group(&d, 0, truth);
@@ -291,9 +292,11 @@ fn seeded_sweep_of_good_and_faulty_boards() {
     );
     println!(
         "true fault first {first}/{ranked} ({:.1} %), within three {top3}/{ranked} ({:.1} %); \
-         'no single fault' on {unexplained_true}; most solves in one diagnosis {solves_max}",
+         'no single fault' on {unexplained_true}; most solves in one diagnosis {solves_max}, \
+         {:.0} on average",
         pct(first, ranked),
-        pct(top3, ranked)
+        pct(top3, ranked),
+        solves_all as f64 / f64::from(ranked.max(1))
     );
     assert!(good + faulty >= 1000);
     assert!(pct(good_pass, good) >= 99.0);

@@ -5,7 +5,7 @@
 use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::estimate::estimate;
 use biasjig_core::predict::predict;
-use biasjig_core::solve::{solve, Conditions, OperatingPoint, Region};
+use biasjig_core::solve::{solve, solve_from, Conditions, OperatingPoint, Region};
 use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Resistor, Stage};
 use biasjig_core::thermal_voltage;
 use proptest::prelude::*;
@@ -459,4 +459,76 @@ proptest! {
         prop_assert!((b.ic - a.ic).abs() <= 1e-12 * a.ic.abs().max(1e-9));
         prop_assert_eq!(a.region, b.region);
     }
+}
+
+/// A warm-started solve (from the solution of a neighbouring problem) reaches the same operating
+/// point as a cold one within the convergence criterion, for every fault arrangement and for
+/// PNP too; where the hand estimate is a poor start (saturation, a floating terminal, a
+/// transistor fault) it needs far fewer Newton iterations.
+#[test]
+fn warm_start_gives_the_same_point_in_fewer_iterations() {
+    let base = npn(15.0, 68e3, 15e3, 3.9e3, 220.0, 820.0);
+    let pnp = Stage {
+        polarity: Polarity::Pnp,
+        ..npn(9.0, 12e3, 47e3, 2.7e3, 150.0, 820.0)
+    };
+    let p = profile(200.0, 0.66);
+    let mut cases: Vec<(Stage, Option<DeviceFault>)> = Vec::new();
+    for s in [base, pnp] {
+        cases.push((s, None));
+        for r in Resistor::ALL {
+            let v = s.resistor(r);
+            for f in [
+                Fault::Open(r),
+                Fault::Short(r),
+                Fault::Value(r, v * 10.0),
+                Fault::Value(r, v / 10.0),
+            ] {
+                cases.push((s.with_fault(f), None));
+            }
+        }
+        for d in DeviceFault::ALL {
+            cases.push((s, Some(d)));
+        }
+    }
+    let (mut cold_iters, mut warm_iters) = (0u32, 0u32);
+    for (s, fault) in cases {
+        let cond = |beta: f64, temp_c: f64| Conditions {
+            temp_c,
+            beta_25: beta,
+            fault,
+        };
+        // Neighbours: hFE 10 % higher, 10 °C warmer, R2 and RC 5 % higher.
+        let mut tweaked = s;
+        tweaked.r2.value *= 1.05;
+        tweaked.rc.value *= 1.05;
+        let neighbours = [
+            (s, cond(220.0, 25.0)),
+            (s, cond(200.0, 35.0)),
+            (tweaked, cond(200.0, 25.0)),
+        ];
+        let cold = solve(&s, &p, cond(200.0, 25.0)).expect("cold solve");
+        for (ns, nc) in neighbours {
+            let (_, start) = solve_from(&ns, &p, nc, None).expect("neighbour");
+            let (warm, _) = solve_from(&s, &p, cond(200.0, 25.0), Some(&start)).expect("warm");
+            // Both end within the criterion (a Newton step below 1 µV) of the same root; the
+            // node voltages then agree to a microvolt even where a 0.1 mΩ short inside the
+            // transistor multiplies a junction's last error by its conductance.
+            for (a, b) in [(warm.vb, cold.vb), (warm.ve, cold.ve), (warm.vc, cold.vc)] {
+                assert!((a - b).abs() < 1e-6, "{s:?} {fault:?}: {a} vs {b}");
+            }
+            assert!(
+                close(warm.ic, cold.ic, 1e-6, 1e-12),
+                "{fault:?}: {warm:?} {cold:?}"
+            );
+            assert_eq!(warm.region, cold.region);
+            cold_iters += u32::from(cold.iterations);
+            warm_iters += u32::from(warm.iterations);
+        }
+    }
+    println!("Newton iterations: warm {warm_iters}, cold {cold_iters}");
+    assert!(
+        2 * warm_iters < cold_iters,
+        "warm {warm_iters} against cold {cold_iters} Newton iterations"
+    );
 }
