@@ -617,12 +617,10 @@ pub struct Fixed(pub f64, pub u8);
 
 impl fmt::Display for Fixed {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let mut buf: heapless::String<64> = heapless::String::new();
-        if self.write_to(&mut buf).is_ok() {
-            f.pad(&buf)
-        } else {
-            self.write_to(f)
-        }
+        // Up to 21 digits before the point and 255 after: the text always fits.
+        let mut buf: heapless::String<280> = heapless::String::new();
+        self.write_to(&mut buf)?;
+        f.pad(&buf)
     }
 }
 
@@ -633,6 +631,10 @@ impl Fixed {
             return out.write_str("NaN");
         }
         let a = libm::fabs(v);
+        if a.is_finite() && a >= 1e21 {
+            // Beyond 21 digits before the point no decimal is meaningful: the full form.
+            return write!(out, "{}", Full(v));
+        }
         let mut d = if a == 0.0 || a.is_infinite() {
             Digits {
                 digits: heapless::Vec::new(),
@@ -771,8 +773,10 @@ impl Eng {
 impl fmt::Display for Eng {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         let sig = f.precision().unwrap_or(3).clamp(1, 17);
+        // Units are short symbols, so the text always fits (a failure is reported, not cut).
         let mut buf: heapless::String<96> = heapless::String::new();
-        if self.write_all(&mut buf, sig).is_ok() {
+        self.write_all(&mut buf, sig)?;
+        {
             // Pad by hand: `Formatter::pad` would treat the precision as a maximum width.
             let len = buf.chars().count();
             let pad = f.width().unwrap_or(0).saturating_sub(len);
@@ -790,9 +794,6 @@ impl fmt::Display for Eng {
                 f.write_char(fill)?;
             }
             Ok(())
-        } else {
-            // Too long for the local buffer (a long unit): write unpadded.
-            self.write_all(f, sig)
         }
     }
 }

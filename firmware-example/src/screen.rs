@@ -206,7 +206,7 @@ pub fn wrap<const N: usize>(s: &str, width: usize) -> [&str; N] {
                     .unwrap_or(0),
             }
         };
-        let (head, tail) = rest.split_at(cut);
+        let (head, tail) = rest.split_at_checked(cut).unwrap_or((rest, ""));
         *slot = head.trim_end();
         rest = tail.trim_start();
         if cut == 0 {
