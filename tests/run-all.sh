@@ -16,10 +16,13 @@ cargo fmt --all -- --check
 
 step "lint (warnings denied)"
 cargo clippy --workspace --all-targets --locked -- -D warnings
+# The core as the instrument's budget build uses it (no design search, no Monte Carlo console).
+cargo clippy --locked -p biasjig-core --no-default-features -- -D warnings
 
 step "core builds with no std and no alloc (Cortex-M0+ without FPU, Cortex-M4F)"
 cargo build --locked -p biasjig-core --target thumbv6m-none-eabi
 cargo build --locked -p biasjig-core --target thumbv7em-none-eabihf
+cargo build --locked -p biasjig-core --target thumbv7em-none-eabihf --no-default-features
 
 step "firmware: application unit tests on the host"
 (cd firmware-example && cargo test --locked --target x86_64-unknown-linux-gnu --lib)
