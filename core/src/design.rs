@@ -46,8 +46,8 @@
 use core::f64::consts::PI;
 use core::fmt;
 
-use crate::acnet::{self, Cap, Setup, B, IN, NODE_C, OUT, X};
 use crate::device::{Profile, ProfileError};
+use crate::lowfreq;
 use crate::power::{power, RESISTOR_POWER_LIMIT};
 use crate::series::Series;
 use crate::signal::{source_gain, swing, Clip};
@@ -1301,43 +1301,11 @@ fn polish(req: &Requirement, profile: &Profile, best: &mut Best) {
 /// [`low_corner`](crate::lowfreq::low_corner) gives `f_cin`, `f_cout` and `f_ce` (bit for bit),
 /// without its search for the exact corner (some sixty more solves the choice does not use).
 fn probe_poles(stage: &Stage, op: &OperatingPoint, c: f64) -> [Option<f64>; 3] {
-    let seen_by = |which: usize| {
-        let mut setup = Setup::midband();
-        let (a, b) = match which {
-            0 => {
-                setup.cin = Cap::Open;
-                (IN, B)
-            }
-            1 => {
-                setup.cout = Cap::Open;
-                (NODE_C, OUT)
-            }
-            _ => {
-                setup.ce = Cap::Open;
-                (X, acnet::GROUND)
-            }
-        };
-        setup.inject = acnet::injection(a, b);
-        let v = acnet::solve(stage, &op.y, &setup)?;
-        let r = (acnet::at(&v, a) - acnet::at(&v, b)).re;
-        (r.is_finite() && r > 0.0).then_some(r)
-    };
-    let pole = |r: Option<f64>| match r {
-        Some(r) if r < 1e11 => Some(1.0 / (2.0 * PI * r * c)),
-        _ => None,
-    };
+    let pole = |which: usize| lowfreq::pole(lowfreq::seen_by(stage, op, which), Some(c));
     [
-        pole(seen_by(0)),
-        if stage.rl.is_some() {
-            pole(seen_by(1))
-        } else {
-            None
-        },
-        if stage.re2.value > 0.0 {
-            pole(seen_by(2))
-        } else {
-            None
-        },
+        pole(0),
+        if stage.rl.is_some() { pole(1) } else { None },
+        if stage.re2.value > 0.0 { pole(2) } else { None },
     ]
 }
 

@@ -34,8 +34,9 @@ pub struct LowCorner {
     pub f_estimate: Option<f64>,
 }
 
-/// Resistance seen by one capacitor (removed), the other two shorted and the source at rest, Ω.
-fn seen_by(stage: &Stage, op: &OperatingPoint, which: usize) -> Option<f64> {
+/// Resistance seen by one capacitor (0 CIN, 1 COUT, 2 CE; removed), the other two shorted and
+/// the source at rest, Ω.
+pub(crate) fn seen_by(stage: &Stage, op: &OperatingPoint, which: usize) -> Option<f64> {
     let mut setup = Setup::midband();
     let (a, b) = match which {
         0 => {
@@ -57,7 +58,8 @@ fn seen_by(stage: &Stage, op: &OperatingPoint, which: usize) -> Option<f64> {
     (r.is_finite() && r > 0.0).then_some(r)
 }
 
-fn pole(r: Option<f64>, c: Option<f64>) -> Option<f64> {
+/// The pole 1/(2π·R·C) of a capacitor seeing `r`, Hz (`None` for no capacitor, or an open).
+pub(crate) fn pole(r: Option<f64>, c: Option<f64>) -> Option<f64> {
     match (r, c) {
         (Some(r), Some(c)) if r < 1e11 => Some(1.0 / (2.0 * PI * r * c)),
         _ => None,

@@ -294,60 +294,23 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let var = st.variation();
         let wc = spread::worst_case(&st.stage, &st.profile, &var, Method::default())
             .map_err(|e| spread_fail("spread", e))?;
-        #[cfg(not(feature = "monte-carlo"))]
-        {
-            let _ = (runs, seed);
-            for node in spread::Node::ALL {
-                let w = wc.nodes.get(node);
-                if r.machine() {
-                    r.data(format_args!(
-                        "worst={} min={} max={}",
-                        node.name(),
-                        Num(w.min),
-                        Num(w.max)
-                    ));
-                } else {
-                    let u = node.unit();
-                    r.data(format_args!(
-                        "{:<6} worst {} to {}",
-                        node.label(),
-                        Eng::new(w.min, u),
-                        Eng::new(w.max, u)
-                    ));
-                }
-            }
-            Ok(Some(Text::of(format_args!(
-                "worst case from {} solves; no Monte Carlo on this unit (kept out to fit its \
-                 flash): run biasjig spread on a PC",
-                wc.solves
-            ))))
-        }
         #[cfg(feature = "monte-carlo")]
-        self.monte_carlo(&wc, runs, seed, r)
-    }
-
-    /// The Monte Carlo part of `spread`, beside the worst case `wc`.
-    #[cfg(feature = "monte-carlo")]
-    fn monte_carlo<W: Write>(
-        &self,
-        wc: &spread::WorstCase,
-        runs: u32,
-        seed: u64,
-        r: &mut Reply<'_, W>,
-    ) -> Outcome {
-        let st = &self.settings;
-        let var = st.variation();
-        let settings = McSettings {
-            runs,
-            seed,
-            signal: true,
-            requirement: spread::Requirement::default(),
+        let mc = {
+            let settings = McSettings {
+                runs,
+                seed,
+                signal: true,
+                requirement: spread::Requirement::default(),
+            };
+            let mc = spread::monte_carlo(&st.stage, &st.profile, &var, &wc, &settings, |_, _| {})
+                .map_err(|e| spread_fail("spread", e))?;
+            Some(mc)
         };
-        let mc = spread::monte_carlo(&st.stage, &st.profile, &var, wc, &settings, |_, _| {})
-            .map_err(|e| spread_fail("spread", e))?;
+        #[cfg(not(feature = "monte-carlo"))]
+        let mc: Option<spread::MonteCarlo> = None;
         for node in spread::Node::ALL {
             let w = wc.nodes.get(node);
-            let s = mc.nodes.get(node);
+            let s = mc.as_ref().map(|mc| mc.nodes.get(node));
             if r.machine() {
                 r.data(format_args!(
                     "worst={} min={} max={}",
@@ -355,26 +318,38 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     Num(w.min),
                     Num(w.max)
                 ));
-                r.data(format_args!(
-                    "mc={} mean={} std={} min={} max={}",
-                    node.name(),
-                    Num(s.mean),
-                    Num(s.std()),
-                    Num(s.range.min),
-                    Num(s.range.max)
-                ));
+                if let Some(s) = s {
+                    r.data(format_args!(
+                        "mc={} mean={} std={} min={} max={}",
+                        node.name(),
+                        Num(s.mean),
+                        Num(s.std()),
+                        Num(s.range.min),
+                        Num(s.range.max)
+                    ));
+                }
             } else {
                 let u = node.unit();
-                r.data(format_args!(
-                    "{:<6} worst {} to {}   Monte Carlo mean {}, std {}",
-                    node.label(),
-                    Eng::new(w.min, u),
-                    Eng::new(w.max, u),
-                    Eng::new(s.mean, u),
-                    Eng::new(s.std(), u)
-                ));
+                let (lo, hi) = (Eng::new(w.min, u), Eng::new(w.max, u));
+                match s {
+                    Some(s) => r.data(format_args!(
+                        "{:<6} worst {lo} to {hi}   Monte Carlo mean {}, std {}",
+                        node.label(),
+                        Eng::new(s.mean, u),
+                        Eng::new(s.std(), u)
+                    )),
+                    None => r.data(format_args!("{:<6} worst {lo} to {hi}", node.label())),
+                }
             }
         }
+        let Some(mc) = mc else {
+            let _ = (runs, seed);
+            return Ok(Some(Text::of(format_args!(
+                "worst case from {} solves; no Monte Carlo on this unit (left out to fit its \
+                 flash): run biasjig spread on a PC",
+                wc.solves
+            ))));
+        };
         if r.machine() {
             r.data(format_args!(
                 "runs={} failed={} active={} seed={seed} solves={}",
