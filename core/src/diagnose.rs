@@ -26,7 +26,7 @@
 //! and any within [`SCREEN_MARGIN`] of the best get the full fit; the others keep their coarse
 //! fit, ranked no better than [`SCREEN_MARGIN`] above the best fully fitted χ².
 //!
-//! Cost: about 180 operating-point solves (at most about 420), each started from the last one
+//! Cost: about 165 operating-point solves (at most about 215), each started from the last one
 //! ([`solve_from`]: about 2 Newton iterations each).
 
 use heapless::Vec;
@@ -600,7 +600,7 @@ fn fit(
     // 1. Locate the part value with the crude error model at typical hFE, one step of the
     //    screen's grid either way of its find (golden section: the crude misfit is not smooth
     //    enough in the value for parabolic steps to find it as well).
-    let mut value = 0.0;
+    let mut at_typ = coarse;
     if let Some((lo, hi)) = interval {
         let step = (hi - lo) / f64::from(SCREEN_GRID - 1);
         let a = if coarse.lv - step > lo {
@@ -613,11 +613,13 @@ fn fit(
         } else {
             hi
         };
-        let found = locate(ctx, crude, suspect, interval, (a, b), LOCATE_GRID, 10);
-        value = libm::exp(found.map_or(coarse.lv, |c| c.lv));
+        if let Some(c) = locate(ctx, crude, suspect, interval, (a, b), LOCATE_GRID, 10) {
+            at_typ = c;
+        }
     }
-    // 2. The full error model at that point.
-    let y0 = ctx.predict(suspect, value, beta_typ, Tweak::None)?;
+    // 2. The full error model at that point (its prediction is the crude fit's).
+    let value = libm::exp(at_typ.lv);
+    let y0 = at_typ.y;
     let inv = covariance(ctx, meter, var, suspect, value, beta_typ, y0).inverse();
     let mut top = Top {
         chi2: f64::INFINITY,
@@ -678,7 +680,7 @@ fn fit(
 /// Hypotheses always given the full fit after the screen, at least.
 pub const SCREEN_KEEP: usize = 4;
 /// Coarse χ² (crude error model) within which of the best coarse one a hypothesis gets the full fit.
-pub const SCREEN_MARGIN: f64 = 20.0;
+pub const SCREEN_MARGIN: f64 = 5.0;
 /// Points of the screen's grid in log(value) for `low`/`high`.
 const SCREEN_GRID: u16 = 7;
 /// Points of the grid that locates a part value around the screen's find.
