@@ -21,12 +21,13 @@
 //! When even the best hypothesis misfits by more than [`UNEXPLAINED_CHI2`], the diagnosis says
 //! that no single fault explains the readings, and still ranks the nearest ones.
 //!
-//! A screen comes first: every hypothesis at typical hFE (a `low`/`high` one at the points of a
-//! coarse grid of its value) under a crude diagonal error model. Only the best [`SCREEN_KEEP`]
+//! A screen comes first: every hypothesis at typical hFE (a `low`/`high` one on a coarse grid of
+//! its value, with two golden-section steps around the best point) under a crude diagonal error
+//! model. Only the best [`SCREEN_KEEP`]
 //! and any within [`SCREEN_MARGIN`] of the best get the full fit; the others keep their coarse
 //! fit, ranked no better than [`SCREEN_MARGIN`] above the best fully fitted χ².
 //!
-//! Cost: about 165 operating-point solves (at most about 215), each started from the last one
+//! Cost: about 185 operating-point solves (at most about 255), each started from the last one
 //! ([`solve_from`]: about 2 Newton iterations each).
 
 use heapless::Vec;
@@ -683,6 +684,8 @@ pub const SCREEN_KEEP: usize = 4;
 pub const SCREEN_MARGIN: f64 = 5.0;
 /// Points of the screen's grid in log(value) for `low`/`high`.
 const SCREEN_GRID: u16 = 7;
+/// Golden-section steps of the screen after its grid.
+const SCREEN_STEPS: u16 = 2;
 /// Points of the grid that locates a part value around the screen's find.
 const LOCATE_GRID: u16 = 5;
 
@@ -728,7 +731,8 @@ fn locate(
     best
 }
 
-/// The screen of one hypothesis: typical hFE, a value fault at the points of a coarse grid.
+/// The screen of one hypothesis: typical hFE, a value fault at the points of a coarse grid and
+/// [`SCREEN_STEPS`] golden-section steps around the best of them.
 fn screen(ctx: &mut Ctx<'_>, crude: &Sym3, suspect: Suspect) -> Option<Coarse> {
     let span = value_interval(&ctx.stage, suspect);
     locate(
@@ -738,7 +742,7 @@ fn screen(ctx: &mut Ctx<'_>, crude: &Sym3, suspect: Suspect) -> Option<Coarse> {
         span,
         span.unwrap_or((0.0, 0.0)),
         SCREEN_GRID,
-        0,
+        SCREEN_STEPS,
     )
 }
 
