@@ -21,8 +21,14 @@
 //! When even the best hypothesis misfits by more than [`UNEXPLAINED_CHI2`], the diagnosis says
 //! that no single fault explains the readings, and still ranks the nearest ones.
 //!
-//! Cost: about 570 operating-point solves, each started from the last one ([`solve_from`]: about
-//! 2 Newton iterations each), about 1.05 M instructions (x86-64, callgrind) per diagnosis.
+//! A screen comes first: every hypothesis at typical hFE (a `low`/`high` one on a coarse grid of
+//! its value, with two golden-section steps around the best point) under a crude diagonal error
+//! model. Only the best [`SCREEN_KEEP`]
+//! and any within [`SCREEN_MARGIN`] of the best get the full fit; the others keep their coarse
+//! fit, ranked no better than [`SCREEN_MARGIN`] above the best fully fitted χ².
+//!
+//! Cost: about 185 operating-point solves (at most about 255), each started from the last one
+//! ([`solve_from`]: about 2 Newton iterations each).
 
 use heapless::Vec;
 
@@ -345,7 +351,7 @@ fn best_index(pts: &[(f64, f64)]) -> usize {
 /// falls between the end and its neighbour (otherwise the end is the minimum). It stops once
 /// the next point would come within [`SEARCH_RESOLUTION`] of a known one. The search never
 /// leaves the span of the three points. Returns the best (x, f(x)) seen.
-fn refine(mut f: impl FnMut(f64) -> f64, start: [(f64, f64); 3], steps: u16) -> (f64, f64) {
+fn refine(f: &mut dyn FnMut(f64) -> f64, start: [(f64, f64); 3], steps: u16) -> (f64, f64) {
     const GOLDEN: f64 = 0.381_966_011_250_105_1;
     let mut pts: Vec<(f64, f64), 8> = Vec::new();
     for p in start {
@@ -403,7 +409,7 @@ fn refine(mut f: impl FnMut(f64) -> f64, start: [(f64, f64); 3], steps: u16) -> 
 
 /// Minimise `f` on [lo, hi]: a grid of `grid` points, then golden-section refinement of the best
 /// bracket for `refine` steps. Returns (x, f(x)).
-fn minimise(mut f: impl FnMut(f64) -> f64, lo: f64, hi: f64, grid: u16, refine: u16) -> (f64, f64) {
+fn minimise(f: &mut dyn FnMut(f64) -> f64, lo: f64, hi: f64, grid: u16, refine: u16) -> (f64, f64) {
     if hi.is_nan() || lo.is_nan() || hi <= lo || grid < 2 {
         let m = 0.5 * (lo + hi);
         return (m, f(m));
@@ -454,7 +460,7 @@ fn minimise(mut f: impl FnMut(f64) -> f64, lo: f64, hi: f64, grid: u16, refine: 
 }
 
 /// The log-value search interval of a `low`/`high` fit, or `None` for other suspects.
-fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(Resistor, f64, f64)> {
+fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(f64, f64)> {
     match suspect {
         Suspect::Resistor(r, m @ (ResistorMode::Low | ResistorMode::High)) => {
             let p = stage.part(r);
@@ -462,9 +468,9 @@ fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(Resistor, f64, f64
             let span = libm::log(VALUE_RANGE);
             // Just outside the tolerance band, on the side the mode names.
             if m == ResistorMode::Low {
-                Some((r, ln - span, libm::log(1.0 - p.tol) + ln))
+                Some((ln - span, libm::log(1.0 - p.tol) + ln))
             } else {
-                Some((r, libm::log(1.0 + p.tol) + ln, ln + span))
+                Some((libm::log(1.0 + p.tol) + ln, ln + span))
             }
         }
         _ => None,
@@ -582,33 +588,39 @@ fn fit(
     ctx: &mut Ctx<'_>,
     meter: &Meter,
     var: &Variation,
+    crude: &Sym3,
     suspect: Suspect,
+    coarse: Coarse,
 ) -> Option<(f64, Option<f64>, f64, [f64; 3])> {
     let p = ctx.profile;
     let (lb_lo, lb_hi) = (libm::log(p.beta_min), libm::log(p.beta_max));
     let beta_typ = p.beta_typ;
     let lb_typ = libm::log(beta_typ);
     let beta_fits = lb_hi > lb_lo + 1e-9;
-    let interval = value_interval(&ctx.stage, suspect);
-    // 1. Locate the part value with a crude error model at typical hFE (golden section: the
-    //    crude misfit is not smooth enough in the value for parabolic steps to find it as well).
-    let mut value = 0.0;
-    if let Some((_, lo, hi)) = interval {
-        let crude = crude_inverse(ctx, meter);
-        let (lv, _) = minimise(
-            |lv| {
-                let y = ctx.predict(suspect, libm::exp(lv), beta_typ, Tweak::None);
-                ctx.chi2(&crude, y)
-            },
-            lo,
-            hi,
-            13,
-            10,
-        );
-        value = libm::exp(lv);
+    let interval = coarse.span;
+    // 1. Locate the part value with the crude error model at typical hFE, one step of the
+    //    screen's grid either way of its find (golden section: the crude misfit is not smooth
+    //    enough in the value for parabolic steps to find it as well).
+    let mut at_typ = coarse;
+    if let Some((lo, hi)) = interval {
+        let step = (hi - lo) / f64::from(SCREEN_GRID - 1);
+        let a = if coarse.lv - step > lo {
+            coarse.lv - step
+        } else {
+            lo
+        };
+        let b = if coarse.lv + step < hi {
+            coarse.lv + step
+        } else {
+            hi
+        };
+        if let Some(c) = locate(ctx, crude, suspect, interval, (a, b), LOCATE_GRID, 10) {
+            at_typ = c;
+        }
     }
-    // 2. The full error model at that point.
-    let y0 = ctx.predict(suspect, value, beta_typ, Tweak::None)?;
+    // 2. The full error model at that point (its prediction is the crude fit's).
+    let value = libm::exp(at_typ.lv);
+    let y0 = at_typ.y;
     let inv = covariance(ctx, meter, var, suspect, value, beta_typ, y0).inverse();
     let mut top = Top {
         chi2: f64::INFINITY,
@@ -628,17 +640,21 @@ fn fit(
         let (lo, hi) = (at(lb_lo), at(lb_hi));
         if lb_typ > lb_lo && lb_typ < lb_hi {
             refine(
-                at,
+                &mut at,
                 [(lb_lo, lo), (lb_typ, c_typ), (lb_hi, hi)],
                 REFINE_STEPS,
             );
         } else {
             let lb_mid = 0.5 * (lb_lo + lb_hi);
             let mid = at(lb_mid);
-            refine(at, [(lb_lo, lo), (lb_mid, mid), (lb_hi, hi)], REFINE_STEPS);
+            refine(
+                &mut at,
+                [(lb_lo, lo), (lb_mid, mid), (lb_hi, hi)],
+                REFINE_STEPS,
+            );
         }
     }
-    if let Some((_, lo, hi)) = interval {
+    if let Some((lo, hi)) = interval {
         let (lv0, beta, c0) = (libm::log(top.value), top.beta, top.chi2);
         let step = (hi - lo) / 12.0;
         let a = if lv0 - step > lo { lv0 - step } else { lo };
@@ -650,9 +666,9 @@ fn fit(
         };
         if a < lv0 && lv0 < b {
             let (fa, fb) = (at(a), at(b));
-            refine(at, [(a, fa), (lv0, c0), (b, fb)], REFINE_STEPS);
+            refine(&mut at, [(a, fa), (lv0, c0), (b, fb)], REFINE_STEPS);
         } else {
-            minimise(at, a, b, 3, 10);
+            minimise(&mut at, a, b, 3, 10);
         }
     }
     if !top.chi2.is_finite() {
@@ -660,6 +676,74 @@ fn fit(
         top.chi2 = c_typ;
     }
     Some((top.chi2, interval.map(|_| top.value), top.beta, top.y))
+}
+
+/// Hypotheses always given the full fit after the screen, at least.
+pub const SCREEN_KEEP: usize = 4;
+/// Coarse χ² (crude error model) within which of the best coarse one a hypothesis gets the full fit.
+pub const SCREEN_MARGIN: f64 = 5.0;
+/// Points of the screen's grid in log(value) for `low`/`high`.
+const SCREEN_GRID: u16 = 7;
+/// Golden-section steps of the screen after its grid.
+const SCREEN_STEPS: u16 = 2;
+/// Points of the grid that locates a part value around the screen's find.
+const LOCATE_GRID: u16 = 5;
+
+/// A crude fit of a hypothesis at typical hFE: its χ² under the crude error model, the search
+/// interval of log(value) (low/high) and the log(value) found, the prediction there.
+#[derive(Clone, Copy)]
+struct Coarse {
+    chi2: f64,
+    span: Option<(f64, f64)>,
+    lv: f64,
+    y: [f64; 3],
+}
+
+/// The crude fit of `suspect` at typical hFE over [lo, hi] of log(value) (`grid` points, then
+/// `steps` of golden section; without a value to fit, one solve).
+fn locate(
+    ctx: &mut Ctx<'_>,
+    crude: &Sym3,
+    suspect: Suspect,
+    span: Option<(f64, f64)>,
+    (lo, hi): (f64, f64),
+    grid: u16,
+    steps: u16,
+) -> Option<Coarse> {
+    let beta = ctx.profile.beta_typ;
+    let mut best: Option<Coarse> = None;
+    minimise(
+        &mut |lv| {
+            let y = ctx.predict(suspect, libm::exp(lv), beta, Tweak::None);
+            let chi2 = ctx.chi2(crude, y);
+            if let Some(y) = y {
+                if best.is_none_or(|b| chi2 < b.chi2) {
+                    best = Some(Coarse { chi2, span, lv, y });
+                }
+            }
+            chi2
+        },
+        lo,
+        hi,
+        grid,
+        steps,
+    );
+    best
+}
+
+/// The screen of one hypothesis: typical hFE, a value fault at the points of a coarse grid and
+/// [`SCREEN_STEPS`] golden-section steps around the best of them.
+fn screen(ctx: &mut Ctx<'_>, crude: &Sym3, suspect: Suspect) -> Option<Coarse> {
+    let span = value_interval(&ctx.stage, suspect);
+    locate(
+        ctx,
+        crude,
+        suspect,
+        span,
+        span.unwrap_or((0.0, 0.0)),
+        SCREEN_GRID,
+        SCREEN_STEPS,
+    )
 }
 
 /// Every hypothesis of the dictionary for this stage (resistors of zero ohms are not fitted and
@@ -706,18 +790,55 @@ pub fn diagnose(
         solves: 0,
         start: None,
     };
-    let mut ranked: Vec<Hypothesis, CAPACITY> = Vec::new();
+    // 1. The screen: every hypothesis at typical hFE (value faults at the points of a coarse
+    //    grid) under the crude error model.
+    let crude = crude_inverse(&ctx, meter);
+    let mut coarse: Vec<(Suspect, Coarse), CAPACITY> = Vec::new();
     for suspect in dictionary(stage) {
-        if let Some((chi2, estimate, beta, predicted)) = fit(&mut ctx, meter, var, suspect) {
-            let _ = ranked.push(Hypothesis {
-                suspect,
-                score: 0.0,
-                chi2: if chi2.is_finite() { chi2 } else { f64::MAX },
-                estimate,
-                beta,
-                predicted,
-                group: 0,
-            });
+        if let Some(c) = screen(&mut ctx, &crude, suspect) {
+            let _ = coarse.push((suspect, c));
+        }
+    }
+    let best_coarse = coarse.iter().fold(
+        f64::INFINITY,
+        |m, c| if c.1.chi2 < m { c.1.chi2 } else { m },
+    );
+    // 2. The full fit for every hypothesis the screen cannot rule out: the best SCREEN_KEEP and
+    //    any within SCREEN_MARGIN of the best. The rest keep their coarse fit.
+    let mut ranked: Vec<Hypothesis, CAPACITY> = Vec::new();
+    let mut rough = 0u32;
+    let mut floor = f64::INFINITY;
+    for &(suspect, c) in &coarse {
+        let better = coarse.iter().filter(|o| o.1.chi2 < c.chi2).count();
+        let full = if better < SCREEN_KEEP || c.chi2 <= best_coarse + SCREEN_MARGIN {
+            fit(&mut ctx, meter, var, &crude, suspect, c)
+        } else {
+            None
+        };
+        let (chi2, estimate, beta, predicted) = full.unwrap_or_else(|| {
+            rough |= 1 << ranked.len();
+            let estimate = c.span.map(|_| libm::exp(c.lv));
+            (c.chi2, estimate, profile.beta_typ, c.y)
+        });
+        if rough & (1 << ranked.len()) == 0 && chi2 < floor {
+            floor = chi2;
+        }
+        let _ = ranked.push(Hypothesis {
+            suspect,
+            score: 0.0,
+            chi2: if chi2.is_finite() { chi2 } else { f64::MAX },
+            estimate,
+            beta,
+            predicted,
+            group: 0,
+        });
+    }
+    // All the screen tells of a hypothesis it ruled out: it misfits by SCREEN_MARGIN more than
+    // the best fully fitted one, at least.
+    floor += SCREEN_MARGIN;
+    for (k, h) in ranked.iter_mut().enumerate() {
+        if rough & (1 << k) != 0 && h.chi2 < floor {
+            h.chi2 = floor;
         }
     }
     if ranked.is_empty() {
@@ -814,10 +935,14 @@ mod tests {
         assert!((fx - 2.0).abs() < 1e-5);
         assert!(n <= 3 + usize::from(REFINE_STEPS), "{n}");
         // A minimum at an end of the span: the end.
-        let (x, _) = refine(|x| x, [(0.0, 0.0), (0.5, 0.5), (1.0, 1.0)], REFINE_STEPS);
+        let (x, _) = refine(
+            &mut |x| x,
+            [(0.0, 0.0), (0.5, 0.5), (1.0, 1.0)],
+            REFINE_STEPS,
+        );
         assert_eq!(x, 0.0);
         let (x, _) = refine(
-            |x| -x * x,
+            &mut |x| -x * x,
             [(0.0, 0.0), (0.5, -0.25), (1.0, -1.0)],
             REFINE_STEPS,
         );
@@ -826,11 +951,11 @@ mod tests {
 
     #[test]
     fn golden_section_finds_a_parabola_minimum() {
-        let (x, fx) = minimise(|x| (x - 1.37) * (x - 1.37) + 2.0, -5.0, 5.0, 9, 25);
+        let (x, fx) = minimise(&mut |x| (x - 1.37) * (x - 1.37) + 2.0, -5.0, 5.0, 9, 25);
         assert!((x - 1.37).abs() < 1e-3, "{x}");
         assert!((fx - 2.0).abs() < 1e-6);
         // At the interval's edge.
-        let (x, _) = minimise(|x| x, 0.0, 1.0, 5, 10);
+        let (x, _) = minimise(&mut |x| x, 0.0, 1.0, 5, 10);
         assert!(x < 0.05, "{x}");
     }
 }
