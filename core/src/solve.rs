@@ -677,11 +677,18 @@ fn first_guess(p: &Problem) -> [f64; 2] {
     }
 }
 
-/// The hand method's start is as good as a warm start where it says forward active with every
-/// terminal driven and a good transistor (Newton then settles in one or two iterations); elsewhere
+impl Problem {
+    /// Every terminal driven and a good transistor: the case the hand method's start is made for.
+    fn is_regular(&self) -> bool {
+        self.free == [false; 3] && self.j.fault.is_none()
+    }
+}
+
+/// On a regular problem ([`Problem::is_regular`]), the hand method's start is as good as a warm
+/// start where it says forward active (Newton then settles in one or two iterations); elsewhere
 /// (saturation, a floating terminal, a transistor fault) it is only a rough start.
-fn guess_is_close(p: &Problem, x: [f64; 2]) -> bool {
-    p.free == [false; 3] && p.j.fault.is_none() && x[1] < x[0] - 0.2
+fn guess_is_close(x: [f64; 2]) -> bool {
+    x[1] < x[0] - 0.2
 }
 
 /// Solve the DC operating point of `stage` with `profile` under `cond`.
@@ -787,12 +794,12 @@ pub fn solve_from(
     }
     let mut iterations = 0u16;
     // The hand estimate only where it may serve: it costs a logarithm.
-    let regular = p.free == [false; 3] && p.j.fault.is_none();
+    let regular = p.is_regular();
     let x0 = (regular || start.is_none()).then(|| first_guess(&p));
     let warm = start
         .map(|s| s.x)
         .filter(|x| x[0].is_finite() && x[1].is_finite())
-        .filter(|_| !x0.is_some_and(|x0| guess_is_close(&p, x0)));
+        .filter(|_| !(regular && x0.is_some_and(guess_is_close)));
     let from_warm = warm.and_then(|x| newton(&p, 1.0, x, &mut iterations));
     let settled = match from_warm {
         Some(settled) => Some(settled),

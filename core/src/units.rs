@@ -609,16 +609,21 @@ impl fmt::Display for Full {
     }
 }
 
-/// A number with a fixed count of decimals, rounded half-up from its shortest digits
-/// (`Fixed(2.5, 3)` prints `2.500`, `Fixed(14.96, 0)` prints `15`); `inf`, `-inf` or `NaN` when
-/// not finite. Honours the formatter's width and alignment.
+/// A number with a fixed count of decimals (at most [`FIXED_MAX_DECIMALS`]; an `f64` has no more
+/// to give), rounded half-up from its shortest digits (`Fixed(2.5, 3)` prints `2.500`,
+/// `Fixed(14.96, 0)` prints `15`); `inf`, `-inf` or `NaN` when not finite. Honours the
+/// formatter's width and alignment.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Fixed(pub f64, pub u8);
 
+/// The most decimals [`Fixed`] prints (more are asked for, these are given).
+pub const FIXED_MAX_DECIMALS: u8 = 17;
+
 impl fmt::Display for Fixed {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        // Up to 21 digits before the point and 255 after: the text always fits.
-        let mut buf: heapless::String<280> = heapless::String::new();
+        // A sign, up to 21 digits before the point and the decimals: the text always fits.
+        let mut buf: heapless::String<{ 24 + FIXED_MAX_DECIMALS as usize }> =
+            heapless::String::new();
         self.write_to(&mut buf)?;
         f.pad(&buf)
     }
@@ -627,6 +632,7 @@ impl fmt::Display for Fixed {
 impl Fixed {
     fn write_to<W: fmt::Write>(&self, out: &mut W) -> fmt::Result {
         let Fixed(v, decimals) = *self;
+        let decimals = decimals.min(FIXED_MAX_DECIMALS);
         if v.is_nan() {
             return out.write_str("NaN");
         }
@@ -1090,5 +1096,6 @@ mod tests {
         assert_eq!(format!("{}", Fixed(-0.0004, 3)), "0.000");
         assert_eq!(format!("{}", Fixed(-0.0006, 3)), "-0.001");
         assert_eq!(format!("{:>8}", Fixed(1.5, 2)), "    1.50");
+        assert_eq!(format!("{}", Fixed(0.5, 40)), format!("0.{:0<17}", "5"));
     }
 }
