@@ -743,13 +743,15 @@ impl Histogram {
         (self.hi - self.lo) / BINS as f64
     }
 
-    /// Count one value.
+    /// Count one value (a bin counts at most `u32::MAX` values: one run's worth).
     pub fn add(&mut self, v: f64) {
         let pos = (v - self.lo) * self.scale;
         if pos >= 0.0 && pos < BINS as f64 {
             // In range, so the conversion is exact truncation below BINS.
+            // A plain increment (this is the Monte Carlo's hot loop): a run's count is a u32, so
+            // no bin of one run can pass u32::MAX.
             if let Some(b) = self.bins.get_mut(pos as usize) {
-                *b = b.saturating_add(1);
+                *b = b.wrapping_add(1);
             }
         } else if v < self.lo {
             self.below = self.below.saturating_add(1);
