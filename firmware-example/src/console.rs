@@ -636,7 +636,10 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
             match r {
                 Ok(v) => {
                     for c in Channel::ALL {
-                        say(out, format_args!("{} {}\r\n", label(c), Fixed(reading(&v, c), 3)))?;
+                        say(
+                            out,
+                            format_args!("{} {}\r\n", label(c), Fixed(reading(&v, c), 3)),
+                        )?;
                     }
                     out.write_all(b"ok\r\n")
                 }
@@ -805,6 +808,33 @@ mod tests {
         assert!(talk(&mut a, b"a\x01b\n").starts_with("err CONTROL"));
         assert_eq!(talk(&mut a, b"mode machine\r\n"), "ok\r\n");
         assert_eq!(talk(&mut a, b"mode\n"), "mode=machine\r\nok\r\n");
+    }
+
+    /// The budget build (no `full-console`): the design search is refused, the spread is the
+    /// worst case only; everything that judges a board stays.
+    #[cfg(not(feature = "full-console"))]
+    #[test]
+    fn budget_build_refuses_the_design_search_and_keeps_the_worst_case() {
+        let mut a = app();
+        talk(&mut a, b"mode machine\n");
+        for line in [
+            "design\n",
+            "pick 1\n",
+            "requirement\n",
+            "requirement vcc 9\n",
+        ] {
+            let t = talk(&mut a, line.as_bytes());
+            assert!(t.starts_with("err NOT_SUPPORTED"), "{line}: {t}");
+            assert!(t.contains("biasjig design"), "{line}: {t}");
+        }
+        let t = talk(&mut a, b"spread\n");
+        assert!(t.contains("worst=vb min="), "{t}");
+        assert!(!t.contains("mc="), "{t}");
+        assert!(
+            t.contains("ok worst case from") && t.contains("biasjig spread"),
+            "{t}"
+        );
+        assert!(talk(&mut a, b"limits\n").contains("node=vb low="));
     }
 
     #[test]
