@@ -91,10 +91,7 @@ fn relay_keeps_one_reply_per_line_with_cr_and_bad_bytes_inside() {
     input.extend_from_slice(b"stage\x07\nset r1 2k2\n");
     input.extend(vec![b'z'; 300]);
     input.extend_from_slice(b"\r\nhash\r\n\r\nidentify");
-    let (relayed, err, code) = run(
-        &["console", "--port", &path, "--sync-timeout", "5"],
-        &input,
-    );
+    let (relayed, err, code) = run(&["console", "--port", &path, "--sync-timeout", "5"], &input);
     stop.store(true, Ordering::SeqCst);
     fake.join().unwrap();
     drop(slave);
