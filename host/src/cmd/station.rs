@@ -11,12 +11,14 @@
 //! Lines, torn tails skipped), and each record has the shape of `biasjig check --json` plus
 //! `time`, `serial`, `design` (`id`, `hash`) and `readings`.
 
+use std::collections::HashMap;
 use std::io::{BufRead, Write};
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
 use biasjig_core::console::record::design_hash;
 use biasjig_core::device::Profile;
+use biasjig_core::explain::{listing, suspect_of, Listed};
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
@@ -164,6 +166,8 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     push: Vec<String>,
     hash: u64,
     design_id: String,
+    /// The stage pushed (for the fault words on the screen).
+    stage: Stage,
     budget: Duration,
     /// Resynchronisations done (resets, timeouts, garbage).
     pub resyncs: usize,
@@ -177,6 +181,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
         push: Vec<String>,
         hash: u64,
         design_id: String,
+        stage: Stage,
         budget: Duration,
     ) -> Result<Self, LinkError> {
         let port = reopen()?;
@@ -186,6 +191,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
             push,
             hash,
             design_id,
+            stage,
             budget,
             resyncs: 0,
         })
@@ -281,7 +287,14 @@ fn num(s: Option<&str>) -> Value {
 /// The log record of one board from the machine reply of `test`/`check`: the shape of
 /// `biasjig check --json` (`verdict`, `nodes`, `derived`, `faults`, `explained` when diagnosed)
 /// plus `time` (ISO 8601 UTC), `serial`, `design` (`id`, `hash`) and `readings`.
-pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) -> Value {
+pub fn record(
+    serial: &str,
+    design: &str,
+    hash: u64,
+    reply: &Reply,
+    time: &str,
+    retest: bool,
+) -> Value {
     let mut nodes = Map::new();
     let mut faults = Vec::new();
     let mut derived = Map::new();
@@ -339,6 +352,7 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) 
         "serial": serial,
         "design": {"id": design, "hash": format!("{hash:016x}")},
         "readings": readings,
+        "retest": retest,
     });
     if let (Some(e), Some(obj)) = (explained, doc.as_object_mut()) {
         obj.insert("explained".into(), json!(e));
@@ -346,19 +360,138 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) 
     doc
 }
 
-/// The verdict, large.
-pub fn banner(reply: &Reply) -> String {
+/// The log record of a board whose readings were refused before judgement (the shape of
+/// `biasjig check --json` for refused readings, `verdict` `refused` and `reason`, plus `time`,
+/// `serial`, `design`, `retest`, and `typed`: the readings as typed, in manual mode).
+pub fn refused_record(
+    serial: &str,
+    design: &str,
+    hash: u64,
+    reason: &str,
+    typed: Option<&str>,
+    time: &str,
+    retest: bool,
+) -> Value {
+    let mut doc = json!({
+        "verdict": "refused",
+        "reason": reason,
+        "time": time,
+        "serial": serial,
+        "design": {"id": design, "hash": format!("{hash:016x}")},
+        "retest": retest,
+    });
+    if let (Some(t), Some(obj)) = (typed, doc.as_object_mut()) {
+        obj.insert("typed".into(), json!(t));
+    }
+    doc
+}
+
+/// The verdict, large, with the likely faults in the words of `biasjig check` (the core's
+/// listing, from the reply's machine `fault=` lines and the stage the station pushed).
+pub fn banner(stage: &Stage, reply: &Reply) -> String {
     let verdict = reply.value("verdict").unwrap_or("?").to_uppercase();
-    let spaced: String = verdict.chars().flat_map(|c| [c, ' ']).collect();
-    let bar = "#".repeat(spaced.len() + 8);
-    let mut s = format!("{bar}\n##  {}  ##\n{bar}\n", spaced.trim_end());
-    if let Some(l) = reply.data.iter().find(|l| l.starts_with("fault=")) {
-        s.push_str(&format!("likely fault: {l}\n"));
+    let mut s = big(&verdict);
+    let items = listed_faults(reply);
+    if !items.is_empty() {
+        let explained = reply.value("explained") != Some("0");
+        listing(stage, explained, &items, &mut |a| {
+            s.push_str(&format!("{a}\n"));
+        });
     }
     s
 }
 
-/// Run the loop: serial numbers (and, manual, readings) from `input`.
+fn big(word: &str) -> String {
+    let spaced: String = word.chars().flat_map(|c| [c, ' ']).collect();
+    let bar = "#".repeat(spaced.len() + 8);
+    format!("{bar}\n##  {}  ##\n{bar}\n", spaced.trim_end())
+}
+
+/// The faults of a machine reply (`fault=PART mode=MODE score= estimate= equivalent=P:M,...`).
+pub fn listed_faults(reply: &Reply) -> Vec<Listed> {
+    let mut v = Vec::new();
+    for l in reply.data.iter().filter(|l| l.starts_with("fault=")) {
+        let get = |k: &str| {
+            l.split(' ')
+                .find_map(|kv| kv.strip_prefix(k).and_then(|r| r.strip_prefix('=')))
+        };
+        let Some(suspect) = get("fault")
+            .zip(get("mode"))
+            .and_then(|(p, m)| suspect_of(p, m))
+        else {
+            continue;
+        };
+        let mut same = heapless::Vec::new();
+        for (p, m) in get("equivalent")
+            .unwrap_or("none")
+            .split(',')
+            .filter_map(|pm| pm.split_once(':'))
+        {
+            if let Some(e) = suspect_of(p, m) {
+                let _ = same.push(e);
+            }
+        }
+        v.push(Listed {
+            suspect,
+            estimate: get("estimate").and_then(|e| e.parse().ok()),
+            score: get("score").and_then(|e| e.parse().ok()).unwrap_or(0.0),
+            same,
+        });
+    }
+    v
+}
+
+/// Status codes that say the typed line was not readings (typing errors: ask again, log nothing).
+const NOT_READINGS: [&str; 6] = [
+    "USAGE", "VALUE", "UNKNOWN", "TOO_LONG", "CONTROL", "ENCODING",
+];
+
+/// The code word of an `err CODE text` status.
+fn code_of(status: &str) -> &str {
+    status
+        .strip_prefix("err ")
+        .and_then(|r| r.split(' ').next())
+        .unwrap_or("")
+}
+
+/// A typed readings line the station sends: four words, no control characters (a CR inside
+/// would make a second command).
+fn readings_line(typed: &str) -> Result<String, String> {
+    if typed.chars().any(char::is_control) {
+        return Err("control characters in the line".into());
+    }
+    let words: Vec<&str> = typed.split_whitespace().collect();
+    if words.len() != 4 {
+        return Err(format!(
+            "{} word{}; four readings are needed: VCC VB VE VC",
+            words.len(),
+            if words.len() == 1 { "" } else { "s" }
+        ));
+    }
+    Ok(format!("check {}", words.join(" ")))
+}
+
+/// Serial numbers already in the log, with how many records each has.
+fn serials_in(log: &Path) -> HashMap<String, usize> {
+    let mut seen = HashMap::new();
+    if log.exists() {
+        if let Ok(c) = boardlog::read(log) {
+            for r in c.records {
+                if let Some(s) = r["serial"].as_str() {
+                    *seen.entry(s.to_owned()).or_insert(0) += 1;
+                }
+            }
+        }
+    }
+    seen
+}
+
+/// Run the loop: serial numbers (and, manual, readings) from `input`. A serial number already
+/// in the log (or done in this run) is said so and its record marked `retest`. Manual: a line
+/// that is not readings (a typing error) asks for the readings again; readings the instrument
+/// refuses (`IMPLAUSIBLE`) are logged as refused with the reason, and the readings are asked
+/// again (an empty line goes on to the next board). Instrument: a refused board (`IMPLAUSIBLE`,
+/// `JIG`) is logged as refused and the loop goes on. Returns the boards judged.
 pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
     st: &mut Station<P, F>,
     mut input: impl BufRead,
@@ -367,42 +500,103 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
     manual: bool,
 ) -> Result<usize, CliError> {
     let mut boards = 0;
+    let mut seen = serials_in(log);
     let mut ask = |out: &mut dyn Write, prompt: &str| -> Result<Option<String>, CliError> {
         write!(out, "{prompt}").ok();
         out.flush().ok();
-        let mut l = String::new();
+        let mut l = Vec::new();
         let n = input
-            .read_line(&mut l)
+            .read_until(b'\n', &mut l)
             .map_err(|e| CliError::usage(format!("stdin: {e}")))?;
-        Ok((n > 0).then(|| l.trim().to_owned()))
+        Ok((n > 0).then(|| String::from_utf8_lossy(&l).trim().to_owned()))
     };
-    while let Some(serial) = ask(out, "serial number (empty to stop): ")? {
+    'boards: while let Some(serial) = ask(out, "serial number (empty to stop): ")? {
         if serial.is_empty() {
             break;
         }
-        let action = if manual {
-            let Some(r) = ask(out, "readings VCC VB VE VC: ")? else {
-                break;
+        if serial.chars().any(char::is_control) {
+            writeln!(out, "not a serial number: control characters in {serial:?}").ok();
+            continue;
+        }
+        let earlier = seen.get(&serial).copied().unwrap_or(0);
+        let retest = earlier > 0;
+        if retest {
+            writeln!(
+                out,
+                "board {serial} was tested before ({earlier} record{} in the log): this test is \
+                 recorded as a retest",
+                if earlier == 1 { "" } else { "s" }
+            )
+            .ok();
+        }
+        let reply = loop {
+            let (action, typed) = if manual {
+                let Some(r) = ask(out, "readings VCC VB VE VC (empty: next board): ")? else {
+                    break 'boards;
+                };
+                if r.is_empty() {
+                    writeln!(out, "board {serial}: no readings, not logged").ok();
+                    continue 'boards;
+                }
+                match readings_line(&r) {
+                    Ok(a) => (a, Some(r)),
+                    Err(why) => {
+                        writeln!(out, "not readings: {why}; type them again").ok();
+                        continue;
+                    }
+                }
+            } else {
+                ("test".to_owned(), None)
             };
-            format!("check {r}")
-        } else {
-            "test".to_owned()
-        };
-        let reply = match st.board(&action) {
-            Ok(r) => r,
-            Err(BoardError::Refused(m)) if manual => {
-                writeln!(out, "not checked: {m}").ok();
-                continue;
+            match st.board(&action) {
+                Ok(r) => break r,
+                Err(BoardError::Refused(status)) if NOT_READINGS.contains(&code_of(&status)) => {
+                    if !manual {
+                        return Err(CliError::link(format!("instrument: {status}")));
+                    }
+                    writeln!(out, "not readings: {status}; type them again").ok();
+                }
+                Err(BoardError::Refused(status))
+                    if manual || ["IMPLAUSIBLE", "JIG"].contains(&code_of(&status)) =>
+                {
+                    let reason = status.strip_prefix("err ").unwrap_or(&status).to_owned();
+                    boardlog::append(
+                        log,
+                        &refused_record(
+                            &serial,
+                            st.design_id(),
+                            st.hash,
+                            &reason,
+                            typed.as_deref(),
+                            &boardlog::now_utc(),
+                            retest,
+                        ),
+                    )?;
+                    *seen.entry(serial.clone()).or_insert(0) += 1;
+                    write!(
+                        out,
+                        "{}not checked, logged as refused: {reason}\n",
+                        big("REFUSED")
+                    )
+                    .ok();
+                    if !manual {
+                        continue 'boards;
+                    }
+                    writeln!(out, "type the readings again (empty: next board)").ok();
+                }
+                Err(BoardError::Refused(m)) => {
+                    return Err(CliError::link(format!("instrument: {m}")))
+                }
+                Err(BoardError::Link(e)) => return Err(link_error(e)),
             }
-            Err(BoardError::Refused(m)) => return Err(CliError::link(format!("instrument: {m}"))),
-            Err(BoardError::Link(e)) => return Err(link_error(e)),
         };
         let time = boardlog::now_utc();
         boardlog::append(
             log,
-            &record(&serial, st.design_id(), st.hash, &reply, &time),
+            &record(&serial, st.design_id(), st.hash, &reply, &time, retest),
         )?;
-        write!(out, "{}", banner(&reply)).ok();
+        *seen.entry(serial.clone()).or_insert(0) += 1;
+        write!(out, "{}", banner(&st.stage, &reply)).ok();
         boards += 1;
     }
     Ok(boards)
@@ -440,6 +634,7 @@ impl Cmd {
                 push,
                 hash,
                 doc.id.clone(),
+                doc.stage,
                 budget,
             )
             .map_err(link_error)?;
@@ -453,6 +648,7 @@ impl Cmd {
                 push,
                 hash,
                 doc.id.clone(),
+                doc.stage,
                 budget,
             )
             .map_err(link_error)?;
@@ -460,7 +656,10 @@ impl Cmd {
             eprintln!("instrument: {id}; design {} pushed and verified", doc.id);
             run_loop(&mut st, stdin.lock(), &mut out, &self.log, false)?
         };
-        eprintln!("{boards} boards logged to {}", self.log.display());
+        eprintln!(
+            "{boards} boards judged and logged to {}",
+            self.log.display()
+        );
         Ok(EXIT_OK)
     }
 }
@@ -610,6 +809,7 @@ mod tests {
             push_lines(&stage, &profile, ambient),
             hash,
             "demo-1".into(),
+            stage,
             Duration::from_secs(5),
         )
         .unwrap();
