@@ -308,6 +308,7 @@ impl Ctx<'_> {
             temp_c,
             beta_25: beta,
             fault,
+            loads: Default::default(),
         };
         let (op, next) = solve_from(&stage, self.profile, cond, self.start.as_ref()).ok()?;
         self.start = Some(next);
