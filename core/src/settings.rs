@@ -39,12 +39,22 @@ pub const DEFAULT_SUPPLY_TOL: f64 = 0.05;
 pub const DEFAULT_TOL: f64 = 0.05;
 /// Default capacitor tolerance, fraction (E6 parts are 20 %, common practice).
 pub const DEFAULT_CAP_TOL: f64 = 0.20;
-/// Default typical hFE at 25 °C (the spread defaults to it alone, as the machine interface says).
-pub const DEFAULT_BETA: f64 = 200.0;
+/// The transistor every front end starts from: the core's generic small-signal profile (hFE 200
+/// with no spread unless one is given, as the machine interface's `--beta-min/--beta-max`
+/// default to `--beta`; VBE 0.65 V at 1 mA).
+pub fn default_profile() -> Profile {
+    Profile::default()
+}
 /// Lowest and highest test ambient accepted, °C.
 pub const TEMP_RANGE_C: (f64, f64) = (-55.0, 150.0);
 /// Lowest and highest measuring-input resistance accepted, Ω.
 pub const INPUT_R_RANGE: (f64, f64) = (1e3, 1e12);
+/// Largest meter gain error accepted, fraction of the reading.
+pub const METER_GAIN_MAX: f64 = 0.2;
+/// Largest meter offset accepted, V.
+pub const METER_OFFSET_MAX: f64 = 1.0;
+/// Largest jig divider tolerance accepted, fraction.
+pub const DIVIDER_TOL_MAX: f64 = 0.1;
 /// A supply tolerance above this is unusual (a warning, not a refusal), fraction.
 pub const UNUSUAL_SUPPLY_TOL: f64 = 0.10;
 /// A resistor tolerance above this is unusual (a warning, not a refusal), fraction.
@@ -173,11 +183,11 @@ impl Default for TestSettings {
 pub enum SettingsError {
     /// The test ambient must lie between -55 °C and 150 °C with min <= max.
     Ambient,
-    /// Meter gain error: 0 to 50 % of the reading.
+    /// Meter gain error: 0 to 20 % of the reading.
     MeterGain,
-    /// Meter offset: 0 V to 10 V.
+    /// Meter offset: 0 V to 1 V.
     MeterOffset,
-    /// Divider tolerance: 0 to 50 %.
+    /// Divider tolerance: 0 to 10 %.
     DividerTol,
     /// Input resistance: 1 kΩ to 1 TΩ (or none).
     InputR,
@@ -187,9 +197,9 @@ impl core::fmt::Display for SettingsError {
     fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
         f.write_str(match self {
             Self::Ambient => "test ambient: min and max between -55 °C and 150 °C, min <= max",
-            Self::MeterGain => "meter gain error: allowed 0 to 50 % of the reading",
-            Self::MeterOffset => "meter offset: allowed 0 V to 10 V",
-            Self::DividerTol => "divider tolerance: allowed 0 to 50 %",
+            Self::MeterGain => "meter gain error: allowed 0 to 20 % of the reading",
+            Self::MeterOffset => "meter offset: allowed 0 V to 1 V",
+            Self::DividerTol => "divider tolerance: allowed 0 to 10 %",
             Self::InputR => "input resistance: allowed 1 kΩ to 1 TΩ, or none (an ideal meter)",
         })
     }
@@ -216,14 +226,14 @@ impl TestSettings {
         if !(t(self.temp_min_c) && t(self.temp_max_c) && self.temp_min_c <= self.temp_max_c) {
             return Err(SettingsError::Ambient);
         }
-        let frac = |x: f64| x.is_finite() && (0.0..=0.5).contains(&x);
-        if !frac(self.meter.gain_error) {
+        let within = |x: f64, max: f64| x.is_finite() && (0.0..=max).contains(&x);
+        if !within(self.meter.gain_error, METER_GAIN_MAX) {
             return Err(SettingsError::MeterGain);
         }
-        if !(self.meter.offset.is_finite() && (0.0..=10.0).contains(&self.meter.offset)) {
+        if !within(self.meter.offset, METER_OFFSET_MAX) {
             return Err(SettingsError::MeterOffset);
         }
-        if !frac(self.meter.divider_tol) {
+        if !within(self.meter.divider_tol, DIVIDER_TOL_MAX) {
             return Err(SettingsError::DividerTol);
         }
         if let Some(r) = self.inputs.r {

@@ -4,6 +4,7 @@
 use super::jig::Channel;
 use super::Code;
 use crate::series::{BandCount, Series};
+use crate::settings::InputMode;
 use crate::stage::{Capacitor, DeviceFault, Fault, Polarity, Readings, Resistor};
 use crate::units;
 
@@ -69,6 +70,11 @@ pub enum Setting {
     PowerRating(f64),
     /// Junction temperature where the derated power reaches zero, °C.
     TjMax(f64),
+    /// Input resistance of the measuring inputs from each node read to ground, Ω (`None`: an
+    /// ideal meter).
+    InputR(Option<f64>),
+    /// How the measuring inputs are attached.
+    Inputs(InputMode),
 }
 
 /// One change made by `requirement NAME VALUE`.
@@ -248,6 +254,8 @@ pub enum Command<'a> {
     Predict,
     /// `hash`: the design hash.
     Hash,
+    /// `digest`: the settings digest (stage, transistor, test ambient, meter, inputs).
+    Digest,
     /// `requirement [NAME VALUE]`.
     Requirement(Option<ReqSetting>),
     /// `design`.
@@ -395,7 +403,8 @@ fn capacitor(name: &str) -> Option<Capacitor> {
 
 /// The names `set` accepts, for the help text and error messages.
 pub const SET_NAMES: &str = "vcc r1 r2 rc re1 re2 tol rl rs cin cout ce polarity temp temp-min \
-temp-max beta beta-min beta-max beta-rev beta-tc vbe is early vce-sat power-rating tj-max";
+temp-max beta beta-min beta-max beta-rev beta-tc vbe is early vce-sat power-rating tj-max input-r \
+inputs";
 
 fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
     let usage = "set NAME VALUE [TOL%], NAME one of the names in `help set`";
@@ -473,6 +482,10 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
         Setting::PowerRating(value(name, v)?)
     } else if n("tj-max") {
         Setting::TjMax(signed(name, v)?)
+    } else if n("input-r") {
+        Setting::InputR(optional(name, v)?)
+    } else if n("inputs") {
+        Setting::Inputs(InputMode::parse(v).ok_or(err(Code::Value, name, v, "together or one"))?)
     } else {
         return Err(err(Code::Value, "set", name, SET_NAMES));
     };
@@ -562,6 +575,9 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
     }
     if is("hash") {
         return none(Command::Hash);
+    }
+    if is("digest") {
+        return none(Command::Digest);
     }
     if is("requirement") {
         return match args {
