@@ -19,14 +19,18 @@ use std::time::Duration;
 use biasjig_core::console::record::design_hash;
 use biasjig_core::device::Profile;
 use biasjig_core::explain::{listing, suspect_of, Listed};
+use biasjig_core::settings::{digest, InputMode, Inputs, TestSettings, DEFAULT_TEMP_C};
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
 use crate::boardlog;
+use crate::cmd::check::MeterArgs;
 use crate::cmd::console::{link_error, local_console, sync_budget};
+use crate::cmd::spread::TempRange;
 use crate::designfile;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::link::{Link, LinkError, MemoryPort, Port, Reply, SerialLink};
+use crate::values;
 use crate::Global;
 
 /// Tries per board before the station gives up.
@@ -53,34 +57,51 @@ pub struct Cmd {
     /// Seconds allowed to synchronise with the instrument
     #[arg(long = "sync-timeout", default_value_t = crate::link::SYNC_TIMEOUT.as_secs_f64(), value_name = "S")]
     pub sync_timeout: f64,
+    /// Test ambient, °C (the station's, not the design's operating range) [default: 25]
+    #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Test settings")]
+    pub temp: Option<f64>,
+    #[command(flatten)]
+    pub range: TempRange,
+    /// Input resistance of the measuring inputs from each node read to ground [default: none, an
+    /// ideal meter]
+    #[arg(long = "input-r", value_parser = values::value, value_name = "R", help_heading = "Test settings")]
+    pub input_r: Option<f64>,
+    /// How the measuring inputs are attached: together (a jig) or one (a hand-held meter)
+    #[arg(long, value_name = "together|one", value_parser = input_mode, help_heading = "Test settings")]
+    pub inputs: Option<InputMode>,
+    #[command(flatten)]
+    pub meter: MeterArgs,
 }
 
-/// The ambient of a design: nominal, lowest and highest, °C.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Ambient {
-    /// Nominal ambient, °C.
-    pub nominal: f64,
-    /// Lowest ambient, °C.
-    pub min: f64,
-    /// Highest ambient, °C.
-    pub max: f64,
+fn input_mode(text: &str) -> Result<InputMode, String> {
+    InputMode::parse(text).ok_or_else(|| format!("{text:?}: allowed together or one"))
 }
 
-impl Ambient {
-    /// One ambient, no range.
-    #[cfg(test)]
-    pub fn at(t: f64) -> Self {
-        Self {
-            nominal: t,
-            min: t,
-            max: t,
-        }
+impl Cmd {
+    /// The test settings the station pushes: the core's defaults, changed by the flags.
+    pub fn test_settings(&self) -> Result<TestSettings, CliError> {
+        let temp = self.temp.unwrap_or(DEFAULT_TEMP_C);
+        let var = self.range.variation(temp)?;
+        let d = TestSettings::DEFAULT;
+        let ts = TestSettings {
+            temp_min_c: var.temp_min_c,
+            temp_max_c: var.temp_max_c,
+            meter: self.meter.meter(),
+            inputs: Inputs {
+                r: self.input_r.or(d.inputs.r),
+                mode: self.inputs.unwrap_or(d.inputs.mode),
+            },
+        };
+        ts.validate()
+            .map_err(|e| CliError::usage(format!("test settings: {e}")))?;
+        Ok(ts)
     }
 }
 
-/// The `set` lines that put a stage, profile and ambient range on the instrument (exact values:
-/// shortest round-trip decimal forms).
-pub fn push_lines(stage: &Stage, profile: &Profile, ambient: Ambient) -> Vec<String> {
+/// The lines that put everything a verdict depends on onto the instrument: the stage (parts,
+/// tolerances, supply tolerance), the transistor, the test ambient, the meter and the measuring
+/// inputs (exact values: shortest round-trip decimal forms).
+pub fn push_lines(stage: &Stage, profile: &Profile, settings: &TestSettings) -> Vec<String> {
     let pct = |t: f64| format!("{:e}%", t * 100.0);
     let mut v = vec![
         format!(
@@ -127,19 +148,36 @@ pub fn push_lines(stage: &Stage, profile: &Profile, ambient: Ambient) -> Vec<Str
     v.push(format!("set vce-sat {:e}", profile.vce_sat));
     v.push(format!("set power-rating {:e}", profile.power_25));
     v.push(format!("set tj-max {:e}", profile.tj_max));
-    // `set temp` collapses the range; then widen it.
-    v.push(format!("set temp {:e}", ambient.nominal));
-    v.push(format!("set temp-min {:e}", ambient.min));
-    v.push(format!("set temp-max {:e}", ambient.max));
+    // `set temp` collapses the range to one ambient inside it; then widen it.
+    let (lo, hi) = (settings.temp_min_c, settings.temp_max_c);
+    v.push(format!(
+        "set temp {:e}",
+        DEFAULT_TEMP_C.clamp(lo.min(hi), hi.max(lo))
+    ));
+    v.push(format!("set temp-min {lo:e}"));
+    v.push(format!("set temp-max {hi:e}"));
+    let m = &settings.meter;
+    v.push(format!("meter gain {}", pct(m.gain_error)));
+    v.push(format!("meter offset {:e}", m.offset));
+    v.push(format!("meter divider {}", pct(m.divider_tol)));
+    v.push(match settings.inputs.r {
+        Some(r) => format!("set input-r {r:e}"),
+        None => "set input-r none".into(),
+    });
+    v.push(format!("set inputs {}", settings.inputs.mode.name()));
     v
 }
 
-/// The stage and profile exactly as the instrument holds them after [`push_lines`] (the text
-/// forms are parsed the same way), for the hash check.
-pub fn expected_hash(stage: &Stage, profile: &Profile, ambient: Ambient) -> Option<u64> {
+/// The settings digest the instrument must report after [`push_lines`] (the text forms are
+/// parsed by the same engine), and the design hash of its stage and transistor.
+pub fn expected(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+) -> Option<(String, u64)> {
     let mut c = local_console();
     let mut sink = Vec::new();
-    for l in push_lines(stage, profile, ambient) {
+    for l in push_lines(stage, profile, settings) {
         let mut out = embedded_io_adapters::std::FromStd::new(&mut sink);
         c.line(&l, &mut out).ok()?;
     }
@@ -147,7 +185,11 @@ pub fn expected_hash(stage: &Stage, profile: &Profile, ambient: Ambient) -> Opti
     if text.lines().any(|l| l.starts_with("err ")) {
         return None;
     }
-    Some(design_hash(&c.settings().stage, &c.settings().profile))
+    let st = c.settings();
+    Some((
+        digest(&st.stage, &st.profile, &st.test_settings()).to_string(),
+        design_hash(&st.stage, &st.profile),
+    ))
 }
 
 /// Why one board could not be done.
@@ -164,7 +206,12 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     link: Link<P>,
     reopen: F,
     push: Vec<String>,
+    /// The settings digest the instrument must report (64 hex digits).
+    digest: String,
+    /// The design hash (stage and transistor), for the log.
     hash: u64,
+    /// The test settings pushed, for the log (`settings` of each record).
+    settings: Value,
     design_id: String,
     /// The stage pushed (for the fault words on the screen).
     stage: Stage,
@@ -174,12 +221,16 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
 }
 
 impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
-    /// A station on the port `reopen` opens; `push` are the `set` lines, `hash` the design hash
-    /// they give.
+    /// A station on the port `reopen` opens; `push` are the lines that put the design and the
+    /// test settings on the instrument and `digest` the settings digest they give
+    /// ([`expected`]), `hash` the design hash and `settings` the test settings for the log.
+    #[allow(clippy::too_many_arguments)]
     pub fn new(
         mut reopen: F,
         push: Vec<String>,
+        digest: String,
         hash: u64,
+        settings: &TestSettings,
         design_id: String,
         stage: Stage,
         budget: Duration,
@@ -189,7 +240,9 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
             link: Link::new(port),
             reopen,
             push,
+            digest,
             hash,
+            settings: settings_json(settings),
             design_id,
             stage,
             budget,
@@ -197,13 +250,15 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
         })
     }
 
-    fn hash_ok(&mut self) -> Result<bool, LinkError> {
-        let r = self.link.command("hash")?;
-        let want = format!("{:016x}", self.hash);
-        Ok(r.ok() && r.value("hash") == Some(want.as_str()))
+    /// The instrument reports the expected settings digest.
+    fn digest_ok(&mut self) -> Result<bool, LinkError> {
+        let r = self.link.command("digest")?;
+        Ok(r.ok() && r.value("digest") == Some(self.digest.as_str()))
     }
 
-    /// Synchronise, switch to machine mode, push the design and verify its hash.
+    /// Synchronise, switch to machine mode, and make sure the instrument holds the design and
+    /// every test setting: when its settings digest differs, push them all, then verify the
+    /// digest.
     pub fn prepare(&mut self) -> Result<String, BoardError> {
         let id = self.link.sync(self.budget).map_err(BoardError::Link)?;
         for l in ["echo off", "mode machine"] {
@@ -212,16 +267,16 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 return Err(BoardError::Refused(format!("{l}: {}", r.status)));
             }
         }
-        if !self.hash_ok().map_err(BoardError::Link)? {
+        if !self.digest_ok().map_err(BoardError::Link)? {
             for l in self.push.clone() {
                 let r = self.link.command(&l).map_err(BoardError::Link)?;
                 if !r.ok() {
                     return Err(BoardError::Refused(format!("{l}: {}", r.status)));
                 }
             }
-            if !self.hash_ok().map_err(BoardError::Link)? {
+            if !self.digest_ok().map_err(BoardError::Link)? {
                 return Err(BoardError::Refused(
-                    "the design did not take: hash differs".into(),
+                    "the settings did not take: the instrument's settings digest differs".into(),
                 ));
             }
         }
@@ -237,17 +292,21 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     }
 
     /// One board: `action` is `test` (instrument) or `check VCC VB VE VC` (typed). The reply
-    /// counts only when the design hash is right before and after it.
+    /// counts only when the settings digest is right before and after it.
     pub fn board(&mut self, action: &str) -> Result<Reply, BoardError> {
         let mut last = None;
         for _ in 0..TRIES {
             let attempt = (|| -> Result<Result<Reply, String>, LinkError> {
-                if !self.hash_ok()? {
-                    return Err(LinkError::Garbage("the instrument lost the design".into()));
+                if !self.digest_ok()? {
+                    return Err(LinkError::Garbage(
+                        "the instrument lost the settings".into(),
+                    ));
                 }
                 let r = self.link.command(action)?;
-                if !self.hash_ok()? {
-                    return Err(LinkError::Garbage("the instrument lost the design".into()));
+                if !self.digest_ok()? {
+                    return Err(LinkError::Garbage(
+                        "the instrument lost the settings".into(),
+                    ));
                 }
                 Ok(if r.ok() { Ok(r) } else { Err(r.status) })
             })();
@@ -277,6 +336,34 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     pub fn design_id(&self) -> &str {
         &self.design_id
     }
+
+    /// The settings digest verified on the instrument.
+    pub fn digest(&self) -> &str {
+        &self.digest
+    }
+
+    /// A record with the test settings it was judged under (`settings`: the digest verified on
+    /// the instrument, the ambient, the meter and the inputs).
+    pub fn stamp(&self, mut record: Value) -> Value {
+        let mut settings = self.settings.clone();
+        if let Some(o) = settings.as_object_mut() {
+            o.insert("digest".into(), json!(self.digest));
+        }
+        if let Some(o) = record.as_object_mut() {
+            o.insert("settings".into(), settings);
+        }
+        record
+    }
+}
+
+/// The test settings of a record: the digest's inputs besides the stage and transistor.
+fn settings_json(t: &TestSettings) -> Value {
+    json!({
+        "temp_min": t.temp_min_c, "temp_max": t.temp_max_c,
+        "meter_gain": t.meter.gain_error, "meter_offset": t.meter.offset,
+        "divider_tol": t.meter.divider_tol,
+        "input_r": t.inputs.r, "inputs": t.inputs.mode.name(),
+    })
 }
 
 fn num(s: Option<&str>) -> Value {
@@ -562,7 +649,7 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
                     let reason = status.strip_prefix("err ").unwrap_or(&status).to_owned();
                     boardlog::append(
                         log,
-                        &refused_record(
+                        &st.stamp(refused_record(
                             &serial,
                             st.design_id(),
                             st.hash,
@@ -570,7 +657,7 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
                             typed.as_deref(),
                             &boardlog::now_utc(),
                             retest,
-                        ),
+                        )),
                     )?;
                     *seen.entry(serial.clone()).or_insert(0) += 1;
                     write!(
@@ -593,7 +680,14 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
         let time = boardlog::now_utc();
         boardlog::append(
             log,
-            &record(&serial, st.design_id(), st.hash, &reply, &time, retest),
+            &st.stamp(record(
+                &serial,
+                st.design_id(),
+                st.hash,
+                &reply,
+                &time,
+                retest,
+            )),
         )?;
         *seen.entry(serial.clone()).or_insert(0) += 1;
         write!(out, "{}", banner(&st.stage, &reply)).ok();
@@ -607,13 +701,9 @@ impl Cmd {
     pub fn run(&self, _g: &Global) -> CmdResult {
         let budget = sync_budget(self.sync_timeout)?;
         let doc = designfile::load(&self.design)?;
-        let ambient = Ambient {
-            nominal: doc.temp_c,
-            min: doc.temp_min,
-            max: doc.temp_max,
-        };
-        let push = push_lines(&doc.stage, &doc.profile, ambient);
-        let hash = expected_hash(&doc.stage, &doc.profile, ambient).ok_or_else(|| {
+        let settings = self.test_settings()?;
+        let push = push_lines(&doc.stage, &doc.profile, &settings);
+        let (digest, hash) = expected(&doc.stage, &doc.profile, &settings).ok_or_else(|| {
             CliError::field(
                 "--design",
                 self.design.display(),
@@ -632,7 +722,9 @@ impl Cmd {
                         .ok_or(LinkError::Disconnected("in-process console".into()))
                 },
                 push,
+                digest,
                 hash,
+                &settings,
                 doc.id.clone(),
                 doc.stage,
                 budget,
@@ -646,14 +738,20 @@ impl Cmd {
             let mut st = Station::new(
                 || SerialLink::open(&path, baud),
                 push,
+                digest,
                 hash,
+                &settings,
                 doc.id.clone(),
                 doc.stage,
                 budget,
             )
             .map_err(link_error)?;
             let id = st.prepare().map_err(board_err)?;
-            eprintln!("instrument: {id}; design {} pushed and verified", doc.id);
+            eprintln!(
+                "instrument: {id}; design {} and test settings verified (settings digest {})",
+                doc.id,
+                st.digest()
+            );
             run_loop(&mut st, stdin.lock(), &mut out, &self.log, false)?
         };
         eprintln!(
@@ -800,14 +898,16 @@ mod tests {
         std::thread::spawn(move || instrument(unit, b2, 4, 3));
         let stage = pushed();
         let profile = default_profile();
-        let ambient = Ambient::at(25.0);
-        let hash = expected_hash(&stage, &profile, ambient).unwrap();
+        let settings = TestSettings::DEFAULT;
+        let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
         let mut host = Some(host.clone());
         let keep = host.clone();
         let mut st = Station::new(
             move || Ok(host.take().or_else(|| keep.clone()).unwrap()),
-            push_lines(&stage, &profile, ambient),
+            push_lines(&stage, &profile, &settings),
+            digest.clone(),
             hash,
+            &settings,
             "demo-1".into(),
             stage,
             Duration::from_secs(5),
@@ -851,6 +951,7 @@ mod tests {
             assert_eq!(r["serial"], format!("SN-{i}"));
             assert_eq!(r["verdict"], if i % 2 == 0 { "pass" } else { "fail" });
             assert_eq!(r["design"]["hash"], format!("{hash:016x}"));
+            assert_eq!(r["settings"]["digest"], digest.as_str());
             assert_eq!(r["design"]["id"], "demo-1");
             assert!(r["time"].as_str().unwrap().ends_with('Z'), "{r}");
             assert_eq!(r["readings"]["vcc"], 12.0);
@@ -881,13 +982,114 @@ mod tests {
     fn pushed_design_hash_matches_the_design_file_hash() {
         let stage = pushed();
         let profile = default_profile();
-        let ambient = Ambient {
-            nominal: 25.0,
-            min: -10.0,
-            max: 55.0,
+        let settings = TestSettings {
+            temp_min_c: -10.0,
+            temp_max_c: 55.0,
+            ..TestSettings::DEFAULT
         };
-        let h = expected_hash(&stage, &profile, ambient).unwrap();
+        let (d, h) = expected(&stage, &profile, &settings).unwrap();
         assert_eq!(h, design_hash(&stage, &profile));
         assert_eq!(format!("{h:016x}"), designfile::hash(&stage, &profile));
+        assert_eq!(d, digest(&stage, &profile, &settings).to_string());
+    }
+
+    /// Every setting the verdict depends on is pushed: each one changed alone changes the
+    /// digest the instrument reports after the push, and the digest of the pushed lines is the
+    /// core's digest of the values.
+    #[test]
+    fn every_setting_is_pushed_and_covered_by_the_digest() {
+        let stage = pushed();
+        let profile = default_profile();
+        let base = TestSettings::DEFAULT;
+        let mut variants = vec![base];
+        let mut t = base;
+        t.temp_min_c = 0.0;
+        t.temp_max_c = 40.0;
+        variants.push(t);
+        let mut t = base;
+        t.meter.gain_error = 0.01;
+        variants.push(t);
+        let mut t = base;
+        t.meter.offset = 0.002;
+        variants.push(t);
+        let mut t = base;
+        t.meter.divider_tol = 0.005;
+        variants.push(t);
+        let mut t = base;
+        t.inputs.r = Some(110e3);
+        variants.push(t);
+        let mut t = base;
+        t.inputs.r = Some(110e3);
+        t.inputs.mode = InputMode::One;
+        variants.push(t);
+        let mut s2 = stage;
+        s2.vcc.tol = 0.1;
+        let mut p2 = profile;
+        p2.beta_min = 100.0;
+        p2.beta_max = 300.0;
+        let mut seen = std::collections::HashSet::new();
+        for (st, pr, ts) in variants
+            .iter()
+            .map(|t| (stage, profile, *t))
+            .chain([(s2, profile, base), (stage, p2, base)])
+        {
+            let (d, _) = expected(&st, &pr, &ts).unwrap();
+            assert_eq!(d, digest(&st, &pr, &ts).to_string(), "{ts:?}");
+            assert!(seen.insert(d), "a setting not covered: {ts:?}");
+        }
+    }
+
+    /// A unit that holds other settings (another ambient, meter and inputs) is pushed to the
+    /// station's before any board, and a unit that changes behind the station's back makes it
+    /// push again.
+    #[test]
+    fn a_unit_with_other_settings_is_pushed_before_the_lot() {
+        let (host, unit) = MemoryPort::pair();
+        std::thread::spawn(move || serve(unit));
+        let stage = pushed();
+        let profile = default_profile();
+        let settings = TestSettings {
+            temp_min_c: 10.0,
+            temp_max_c: 40.0,
+            meter: biasjig_core::limits::Meter {
+                gain_error: 0.01,
+                offset: 0.002,
+                divider_tol: 0.002,
+            },
+            inputs: Inputs {
+                r: Some(1e6),
+                mode: InputMode::Together,
+            },
+        };
+        let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
+        let mut link = Link::new(host.clone());
+        link.sync(Duration::from_secs(5)).unwrap();
+        assert!(link.command("mode machine").unwrap().ok());
+        // The unit holds the same stage with another meter and ambient: the old stage hash alone
+        // would have let this pass.
+        for l in push_lines(&stage, &profile, &TestSettings::DEFAULT) {
+            assert!(link.command(&l).unwrap().ok(), "{l}");
+        }
+        let r = link.command("hash").unwrap();
+        assert_eq!(r.value("hash"), Some(format!("{hash:016x}").as_str()));
+        let mut h = Some(host);
+        let mut st = Station::new(
+            move || h.take().ok_or(LinkError::Disconnected("gone".into())),
+            push_lines(&stage, &profile, &settings),
+            digest.clone(),
+            hash,
+            &settings,
+            "demo-1".into(),
+            stage,
+            Duration::from_secs(5),
+        )
+        .unwrap();
+        st.prepare().unwrap();
+        assert!(st.digest_ok().unwrap());
+        let r = st.link.command("meter").unwrap();
+        assert_eq!(r.value("gain"), Some("0.01"), "{r:?}");
+        // Changed behind the station's back: the board is not judged under it.
+        assert!(st.link.command("set temp-max 50").unwrap().ok());
+        assert!(!st.digest_ok().unwrap());
     }
 }
