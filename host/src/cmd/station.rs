@@ -19,14 +19,13 @@ use std::time::Duration;
 use biasjig_core::console::record::design_hash;
 use biasjig_core::device::Profile;
 use biasjig_core::explain::{listing, suspect_of, Listed};
-use biasjig_core::settings::{digest, InputMode, Inputs, TestSettings, DEFAULT_TEMP_C};
+use biasjig_core::settings::{digest, InputMode, TestSettings, DEFAULT_TEMP_C};
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
 use crate::boardlog;
-use crate::cmd::check::MeterArgs;
 use crate::cmd::console::{link_error, local_console, sync_budget};
-use crate::cmd::spread::TempRange;
+use crate::stage_args::{settings_error, InputArgs, TestArgs};
 use crate::designfile;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::link::{Link, LinkError, MemoryPort, Port, Reply, SerialLink};
@@ -57,44 +56,55 @@ pub struct Cmd {
     /// Seconds allowed to synchronise with the instrument
     #[arg(long = "sync-timeout", default_value_t = crate::link::SYNC_TIMEOUT.as_secs_f64(), value_name = "S")]
     pub sync_timeout: f64,
-    /// Test ambient, °C (the station's, not the design's operating range) [default: 25]
-    #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Test settings")]
+    /// Test ambient, °C (the station's, not the design's operating range) [default: the design
+    /// file's test ambient, or 25]
+    #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Test ambient")]
     pub temp: Option<f64>,
     #[command(flatten)]
-    pub range: TempRange,
-    /// Input resistance of the measuring inputs from each node read to ground [default: none, an
-    /// ideal meter]
-    #[arg(long = "input-r", value_parser = values::value, value_name = "R", help_heading = "Test settings")]
-    pub input_r: Option<f64>,
-    /// How the measuring inputs are attached: together (a jig) or one (a hand-held meter)
-    #[arg(long, value_name = "together|one", value_parser = input_mode, help_heading = "Test settings")]
-    pub inputs: Option<InputMode>,
+    pub test: TestArgs,
     #[command(flatten)]
-    pub meter: MeterArgs,
-}
-
-fn input_mode(text: &str) -> Result<InputMode, String> {
-    InputMode::parse(text).ok_or_else(|| format!("{text:?}: allowed together or one"))
+    pub inputs: InputArgs,
 }
 
 impl Cmd {
-    /// The test settings the station pushes: the core's defaults, changed by the flags.
-    pub fn test_settings(&self) -> Result<TestSettings, CliError> {
-        let temp = self.temp.unwrap_or(DEFAULT_TEMP_C);
-        let var = self.range.variation(temp)?;
-        let d = TestSettings::DEFAULT;
-        let ts = TestSettings {
-            temp_min_c: var.temp_min_c,
-            temp_max_c: var.temp_max_c,
-            meter: self.meter.meter(),
-            inputs: Inputs {
-                r: self.input_r.or(d.inputs.r),
-                mode: self.inputs.unwrap_or(d.inputs.mode),
-            },
+    /// The test settings the station pushes: the design file's (or the core's defaults), changed
+    /// by the flags, and the flags that changed them (`overrides` of each record).
+    pub fn test_settings(&self, base: TestSettings) -> Result<(TestSettings, Value), CliError> {
+        let mut ts = base;
+        let mut over = Map::new();
+        let mut add = |flag: &str, v: Option<f64>| {
+            if let Some(v) = v {
+                over.insert(flag.to_owned(), json!(v));
+            }
         };
-        ts.validate()
-            .map_err(|e| CliError::usage(format!("test settings: {e}")))?;
-        Ok(ts)
+        if let Some(t) = self.temp {
+            ts.temp_min_c = t;
+            ts.temp_max_c = t;
+        }
+        add("--temp", self.temp);
+        let t = &self.test;
+        ts.temp_min_c = t.temp_min.unwrap_or(ts.temp_min_c);
+        ts.temp_max_c = t.temp_max.unwrap_or(ts.temp_max_c);
+        ts.meter.gain_error = t.meter.meter.unwrap_or(ts.meter.gain_error);
+        ts.meter.offset = t.meter.meter_offset.unwrap_or(ts.meter.offset);
+        ts.meter.divider_tol = t.meter.divider_tol.unwrap_or(ts.meter.divider_tol);
+        ts.inputs.r = self.inputs.input_r.or(ts.inputs.r);
+        ts.inputs.mode = self.inputs.inputs.unwrap_or(ts.inputs.mode);
+        add("--temp-min", t.temp_min);
+        add("--temp-max", t.temp_max);
+        add("--meter", t.meter.meter.map(|g| 100.0 * g));
+        add("--meter-offset", t.meter.meter_offset);
+        add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
+        add("--input-r", self.inputs.input_r);
+        add(
+            "--inputs",
+            self.inputs.inputs.map(|m| match m {
+                InputMode::Together => 0.0,
+                InputMode::One => 1.0,
+            }),
+        );
+        ts.validate().map_err(|e| settings_error(&ts, e))?;
+        Ok((ts, Value::Object(over)))
     }
 }
 
@@ -210,8 +220,9 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     digest: String,
     /// The design hash (stage and transistor), for the log.
     hash: u64,
-    /// The test settings pushed, for the log (`settings` of each record).
-    settings: Value,
+    /// What each record carries besides the board: `settings`, `overrides`, and the design
+    /// file's digest ([`provenance`]).
+    provenance: Value,
     design_id: String,
     /// The stage pushed (for the fault words on the screen).
     stage: Stage,
@@ -223,14 +234,15 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
 impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     /// A station on the port `reopen` opens; `push` are the lines that put the design and the
     /// test settings on the instrument and `digest` the settings digest they give
-    /// ([`expected`]), `hash` the design hash and `settings` the test settings for the log.
+    /// ([`expected`]), `hash` the design hash and `provenance` what every record carries besides
+    /// the board ([`provenance`]).
     #[allow(clippy::too_many_arguments)]
     pub fn new(
         mut reopen: F,
         push: Vec<String>,
         digest: String,
         hash: u64,
-        settings: &TestSettings,
+        provenance: Value,
         design_id: String,
         stage: Stage,
         budget: Duration,
@@ -242,7 +254,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
             push,
             digest,
             hash,
-            settings: settings_json(settings),
+            provenance,
             design_id,
             stage,
             budget,
@@ -342,27 +354,34 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
         &self.digest
     }
 
-    /// A record with the test settings it was judged under (`settings`: the digest verified on
-    /// the instrument, the ambient, the meter and the inputs).
+    /// A record with what judged it: `settings`, `digest` (verified on the instrument),
+    /// `overrides`, and `design.digest` (the design file's).
     pub fn stamp(&self, mut record: Value) -> Value {
-        let mut settings = self.settings.clone();
-        if let Some(o) = settings.as_object_mut() {
+        if let (Some(o), Some(p)) = (record.as_object_mut(), self.provenance.as_object()) {
+            for (k, v) in p {
+                match (k.as_str(), o.get_mut("design").and_then(Value::as_object_mut)) {
+                    ("design_digest", Some(d)) => {
+                        d.insert("digest".into(), v.clone());
+                    }
+                    _ => {
+                        o.insert(k.clone(), v.clone());
+                    }
+                }
+            }
             o.insert("digest".into(), json!(self.digest));
-        }
-        if let Some(o) = record.as_object_mut() {
-            o.insert("settings".into(), settings);
         }
         record
     }
 }
 
-/// The test settings of a record: the digest's inputs besides the stage and transistor.
-fn settings_json(t: &TestSettings) -> Value {
+/// What every record carries besides the board, in the shape of `biasjig check --log`:
+/// `settings` (test ambient, meter, inputs), `overrides` (the flags that changed the design
+/// file's settings) and the design file's digest.
+pub fn provenance(settings: &TestSettings, overrides: Value, design_digest: &str) -> Value {
     json!({
-        "temp_min": t.temp_min_c, "temp_max": t.temp_max_c,
-        "meter_gain": t.meter.gain_error, "meter_offset": t.meter.offset,
-        "divider_tol": t.meter.divider_tol,
-        "input_r": t.inputs.r, "inputs": t.inputs.mode.name(),
+        "settings": crate::cmd::check::settings_json(settings),
+        "overrides": overrides,
+        "design_digest": design_digest,
     })
 }
 
@@ -701,7 +720,8 @@ impl Cmd {
     pub fn run(&self, _g: &Global) -> CmdResult {
         let budget = sync_budget(self.sync_timeout)?;
         let doc = designfile::load(&self.design)?;
-        let settings = self.test_settings()?;
+        let (settings, overrides) = self.test_settings(doc.test)?;
+        let prov = provenance(&settings, overrides, &doc.digest);
         let push = push_lines(&doc.stage, &doc.profile, &settings);
         let (digest, hash) = expected(&doc.stage, &doc.profile, &settings).ok_or_else(|| {
             CliError::field(
@@ -724,7 +744,7 @@ impl Cmd {
                 push,
                 digest,
                 hash,
-                &settings,
+                prov.clone(),
                 doc.id.clone(),
                 doc.stage,
                 budget,
@@ -740,7 +760,7 @@ impl Cmd {
                 push,
                 digest,
                 hash,
-                &settings,
+                prov.clone(),
                 doc.id.clone(),
                 doc.stage,
                 budget,
@@ -907,7 +927,7 @@ mod tests {
             push_lines(&stage, &profile, &settings),
             digest.clone(),
             hash,
-            &settings,
+            provenance(&settings, json!({}), "file-digest"),
             "demo-1".into(),
             stage,
             Duration::from_secs(5),
@@ -951,7 +971,9 @@ mod tests {
             assert_eq!(r["serial"], format!("SN-{i}"));
             assert_eq!(r["verdict"], if i % 2 == 0 { "pass" } else { "fail" });
             assert_eq!(r["design"]["hash"], format!("{hash:016x}"));
-            assert_eq!(r["settings"]["digest"], digest.as_str());
+            assert_eq!(r["digest"], digest.as_str());
+            assert_eq!(r["design"]["digest"], "file-digest");
+            assert_eq!(r["settings"]["temp_min"], 25.0);
             assert_eq!(r["design"]["id"], "demo-1");
             assert!(r["time"].as_str().unwrap().ends_with('Z'), "{r}");
             assert_eq!(r["readings"]["vcc"], 12.0);
@@ -1056,7 +1078,7 @@ mod tests {
                 offset: 0.002,
                 divider_tol: 0.002,
             },
-            inputs: Inputs {
+            inputs: biasjig_core::settings::Inputs {
                 r: Some(1e6),
                 mode: InputMode::Together,
             },
@@ -1078,7 +1100,7 @@ mod tests {
             push_lines(&stage, &profile, &settings),
             digest.clone(),
             hash,
-            &settings,
+            provenance(&settings, json!({}), "file-digest"),
             "demo-1".into(),
             stage,
             Duration::from_secs(5),
