@@ -434,7 +434,7 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
                 "hash",
                 format!(
                     "{h} does not match the parts and transistor ({computed}): the file was changed \
-                     after it was written; check the parts, then fix or remove the hash line"
+                     after it was written; write it again with biasjig design -o"
                 ),
             ));
         }
@@ -734,6 +734,8 @@ mod tests {
             requirement: Some(req),
             series: [e24, e24, e24, e24, e24, e6, e6, e6],
             predicted: None,
+            test: TestSettings::DEFAULT,
+            digest: String::new(),
         }
     }
 
@@ -759,6 +761,80 @@ mod tests {
         assert_eq!(back.requirement, d.requirement);
         assert_eq!(back.series, d.series);
         assert_eq!(back.id, "test-a");
+        assert_eq!(back.test, d.test);
+        assert_eq!(back.digest, digest(&back).to_string());
+    }
+
+    /// Item 8 of issue 11: before the digest, an edited [ambient] kept its hash, a file with the
+    /// hash line deleted loaded with any edit, and a part without `series` took any value.
+    #[test]
+    fn no_edit_is_accepted() {
+        let text = to_text(&doc()).unwrap();
+        let p = Path::new("x.toml");
+        assert!(parse(p, &text).is_ok());
+        let err = |t: &str| parse(p, t).unwrap_err().message;
+        let no_hash: String = text
+            .lines()
+            .filter(|l| !l.starts_with("hash = "))
+            .map(|l| format!("{l}\n"))
+            .collect();
+        // Without the design hash line the file still loads: the digest still matches.
+        assert!(parse(p, &no_hash).is_ok());
+        let m = err(&text.replace("min = -10.0", "min = -20.0"));
+        assert!(m.contains("digest"), "an [ambient] edit: {m}");
+        let m = err(&no_hash.replace("value = 33000.0", "value = 36000.0"));
+        assert!(
+            m.contains("digest"),
+            "a part edit without the hash line: {m}"
+        );
+        let off_series = no_hash.replace(
+            "[parts.r1]\nvalue = 240000.0\nseries = \"E24\"\n",
+            "[parts.r1]\nvalue = 250000.0\n",
+        );
+        assert_ne!(off_series, no_hash);
+        let m = err(&off_series);
+        assert!(
+            m.contains("digest"),
+            "an off-series value without series: {m}"
+        );
+        let m = err(&text.replace("temp_max = 25.0", "temp_max = 40.0"));
+        assert!(m.contains("digest"), "a test ambient edit: {m}");
+        let m = err(&no_hash.replace("vcc_tol = 0.0", "vcc_tol = 0.2"));
+        assert!(m.contains("digest"), "a supply tolerance edit: {m}");
+        let no_digest: String = text
+            .lines()
+            .filter(|l| !l.starts_with("digest = "))
+            .map(|l| format!("{l}\n"))
+            .collect();
+        let m = err(&no_digest);
+        assert!(m.contains("digest") && m.contains("missing"), "{m}");
+    }
+
+    #[test]
+    fn oversized_input_is_refused_without_reading_it_whole() {
+        // /dev/zero never ends: the read stops one byte past the limit.
+        let e = load(Path::new("/dev/zero")).unwrap_err();
+        assert!(e.message.contains("at most"), "{}", e.message);
+    }
+
+    #[test]
+    fn save_refuses_to_overwrite_and_replaces_atomically() {
+        let dir = std::env::temp_dir().join(format!("biasjig-df-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("a.toml");
+        let _ = std::fs::remove_file(&path);
+        save(&path, &doc(), false).unwrap();
+        let e = save(&path, &doc(), false).unwrap_err();
+        assert!(e.message.contains("--force"), "{}", e.message);
+        save(&path, &doc(), true).unwrap();
+        assert!(load(&path).is_ok());
+        let left: Vec<_> = std::fs::read_dir(&dir)
+            .unwrap()
+            .filter_map(|e| e.ok())
+            .filter(|e| e.file_name().to_string_lossy().contains(".tmp-"))
+            .collect();
+        assert!(left.is_empty(), "no temporary file left behind");
+        let _ = std::fs::remove_dir_all(&dir);
     }
 
     #[test]
@@ -766,8 +842,10 @@ mod tests {
         let text = to_text(&doc()).unwrap();
         let p = Path::new("x.toml");
         let err = |t: &str| parse(p, t).unwrap_err().message;
-        let m = err(&text.replace("version = 1", "version = 2"));
+        let m = err(&text.replace("version = 2", "version = 3"));
         assert!(m.contains("version") && m.contains("newer"), "{m}");
+        let m = err(&text.replace("version = 2", "version = 1"));
+        assert!(m.contains("version") && m.contains("design -o"), "{m}");
         let m = err(&text.replace("[ambient]", "[ambient]\nhumidity = 3"));
         assert!(m.contains("humidity"), "{m}");
         let m = err(&text.replace("beta_min = 100.0\n", ""));
