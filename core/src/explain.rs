@@ -330,48 +330,39 @@ impl Group {
     }
 }
 
-/// The members as a list: "R1 open, R1 too high or R2 too low".
-/// The modes of one resistor run together: "RE1 shorted or too low, RC too high or CE leaky".
-fn write_names(f: &mut fmt::Formatter<'_>, members: &[Member]) -> fmt::Result {
-    let part = |m: &Member| match m {
-        Member::Fault(Suspect::Resistor(r, _)) => Some(*r),
-        _ => None,
-    };
-    // Heads: the first member of each part (other members stand alone).
-    let is_head = |k: usize, m: &Member| {
-        part(m).is_none_or(|r| !members.iter().take(k).any(|o| part(o) == Some(r)))
-    };
-    let heads = members
-        .iter()
-        .enumerate()
-        .filter(|(k, m)| is_head(*k, m))
-        .count();
-    let mut h = 0;
-    for (k, m) in members.iter().enumerate() {
-        if !is_head(k, m) {
-            continue;
-        }
-        let sep = match h {
+/// The members `keep` takes, as a list: "R1 open, R1 too high or R2 too low".
+fn write_names(
+    f: &mut fmt::Formatter<'_>,
+    members: &[Member],
+    keep: fn(&Member) -> bool,
+) -> fmt::Result {
+    let n = members.iter().filter(|m| keep(m)).count();
+    for (k, m) in members.iter().filter(|m| keep(m)).enumerate() {
+        let sep = match k {
             0 => "",
-            _ if h + 1 == heads => " or ",
+            _ if k + 1 == n => " or ",
             _ => ", ",
         };
-        h += 1;
         write!(f, "{sep}{m}")?;
-        if let Some(r) = part(m) {
-            for o in members.iter().skip(k + 1).filter(|o| part(o) == Some(r)) {
-                if let Member::Fault(Suspect::Resistor(_, mode)) = o {
-                    write!(f, " or {}", Member::mode_words(*mode))?;
-                }
-            }
-        }
     }
     Ok(())
 }
 
+fn any(_: &Member) -> bool {
+    true
+}
+
+fn is_ce(m: &Member) -> bool {
+    matches!(m, Member::CeShorted | Member::CeLeaky)
+}
+
+fn not_ce(m: &Member) -> bool {
+    !is_ce(m)
+}
+
 impl fmt::Display for Group {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        write_names(f, &self.members)
+        write_names(f, &self.members, any)
     }
 }
 
@@ -450,42 +441,33 @@ impl Outcome<'_> {
         let settled = self.group.settled_by(self.step);
         if self.otherwise {
             f.write_str("otherwise: ")?;
-            return write_names(f, &settled);
+            return write_names(f, &settled, any);
         }
         match self.step {
             Step::Measure(r, way) => {
                 let p = self.stage.part(r);
-                let (lo, hi) = (p.value * (1.0 - p.tol), p.value * (1.0 + p.tol));
-                match way {
-                    Way::Low => write!(f, "{} below {}: ", r.name(), Eng::new(lo, "Ω"))?,
-                    Way::High => write!(f, "{} above {}: ", r.name(), Eng::new(hi, "Ω"))?,
-                    Way::Both => write!(
-                        f,
-                        "{} outside {} .. {}: ",
-                        r.name(),
-                        Eng::new(lo, "Ω"),
-                        Eng::new(hi, "Ω")
-                    )?,
-                }
-                write_names(f, &settled)
+                let (word, edge) = match way {
+                    Way::Low => ("below", p.value * (1.0 - p.tol)),
+                    Way::High => ("above", p.value * (1.0 + p.tol)),
+                    Way::Both => ("off", p.value),
+                };
+                write!(f, "{} {word} {}: ", r.name(), Eng::new(edge, "Ω"))?;
             }
-            Step::DiodeTest => {
-                f.write_str("a junction open, shorted or the wrong way round: ")?;
-                write_names(f, &settled)
-            }
+            Step::DiodeTest => f.write_str("a junction open, shorted or the wrong way round: ")?,
             Step::LiftCe => {
                 let p = self.stage.part(Resistor::Re2);
-                let lo = p.value * (1.0 - p.tol);
-                let (ce, re2): (Vec<Member, GROUP_MAX>, Vec<Member, GROUP_MAX>) = settled
-                    .iter()
-                    .partition(|m| matches!(m, Member::CeShorted | Member::CeLeaky));
-                write!(f, "RE2 at least {} with CE lifted: ", Eng::new(lo, "Ω"))?;
-                write_names(f, &ce)?;
+                write!(
+                    f,
+                    "RE2 at least {} with CE lifted: ",
+                    Eng::new(p.value * (1.0 - p.tol), "Ω")
+                )?;
+                write_names(f, &settled, is_ce)?;
                 f.write_str("; still below: ")?;
-                write_names(f, &re2)?;
-                f.write_str(" (or a bridge across it)")
+                write_names(f, &settled, not_ce)?;
+                return f.write_str(" (or a bridge across it)");
             }
         }
+        write_names(f, &settled, any)
     }
 }
 

@@ -97,6 +97,7 @@ fn readings_of(s: &Stage, p: &Profile, beta: f64, fault: Option<Fault>) -> Optio
             temp_c: 25.0,
             beta_25: beta,
             fault: dev,
+            loads: Default::default(),
         },
     )
     .ok()?;
@@ -193,7 +194,7 @@ fn follow(outcomes: &[String], truth: Member) -> String {
         let hit = match w.next().unwrap() {
             "below" => r < 0,
             "above" => r > 0,
-            "outside" => r != 0,
+            "off" => r != 0,
             other => panic!("unknown condition {other:?} in {l:?}"),
         };
         assert!(
