@@ -261,7 +261,7 @@ fn every_group_gets_an_in_circuit_action_that_leads_each_member_to_itself() {
                     seen.insert(key.join(" | "));
                     // The group's own listing: first line and the lines under it.
                     let mut lines = Vec::new();
-                    listing(&design, true, &[l.clone()], &mut |a| {
+                    listing(&design, true, std::slice::from_ref(&l), &mut |a| {
                         lines.push(a.to_string())
                     });
                     let first = &lines[1];

@@ -25,10 +25,10 @@ use serde_json::{json, Map, Value};
 
 use crate::boardlog;
 use crate::cmd::console::{link_error, local_console, sync_budget};
-use crate::stage_args::{settings_error, InputArgs, TestArgs};
 use crate::designfile;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::link::{Link, LinkError, MemoryPort, Port, Reply, SerialLink};
+use crate::stage_args::{settings_error, InputArgs, TestArgs};
 use crate::values;
 use crate::Global;
 
@@ -359,7 +359,10 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     pub fn stamp(&self, mut record: Value) -> Value {
         if let (Some(o), Some(p)) = (record.as_object_mut(), self.provenance.as_object()) {
             for (k, v) in p {
-                match (k.as_str(), o.get_mut("design").and_then(Value::as_object_mut)) {
+                match (
+                    k.as_str(),
+                    o.get_mut("design").and_then(Value::as_object_mut),
+                ) {
                     ("design_digest", Some(d)) => {
                         d.insert("digest".into(), v.clone());
                     }
@@ -679,9 +682,9 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
                         )),
                     )?;
                     *seen.entry(serial.clone()).or_insert(0) += 1;
-                    write!(
+                    writeln!(
                         out,
-                        "{}not checked, logged as refused: {reason}\n",
+                        "{}not checked, logged as refused: {reason}",
                         big("REFUSED")
                     )
                     .ok();
