@@ -1117,4 +1117,100 @@ mod tests {
         assert!(st.link.command("set temp-max 50").unwrap().ok());
         assert!(!st.digest_ok().unwrap());
     }
+
+    /// A jig whose probe is open on every board whose number is a multiple of 3.
+    struct OpenProbeEvery3(Arc<AtomicUsize>);
+
+    impl Jig for OpenProbeEvery3 {
+        fn measure(&mut self, samples: u16) -> Result<Readings, JigError> {
+            if self.0.load(Ordering::SeqCst) % 3 == 0 {
+                return Err(JigError::OpenProbe(biasjig_core::console::Channel::Vb));
+            }
+            Boards(self.0.clone()).measure(samples)
+        }
+    }
+
+    /// An instrument run goes on past a board the jig cannot read: it is logged as refused with
+    /// the unit's reason, and the next boards are judged.
+    #[test]
+    fn a_refused_board_is_logged_and_the_run_goes_on() {
+        let (host, mut unit) = MemoryPort::pair();
+        let board = Arc::new(AtomicUsize::new(1));
+        let b2 = board.clone();
+        std::thread::spawn(move || {
+            let mut c = Console::new(
+                Identity::new("fake", "1"),
+                OpenProbeEvery3(b2),
+                MemoryStore::default(),
+                StdClock::default(),
+            );
+            let mut buf = [0u8; 256];
+            while let Ok(n) = unit.recv(&mut buf, Duration::from_secs(30)) {
+                let mut out = Vec::new();
+                let _ = c.feed(&buf[..n], &mut FromStd::new(&mut out));
+                if unit.send(&out).is_err() {
+                    return;
+                }
+            }
+        });
+        let stage = pushed();
+        let profile = default_profile();
+        let settings = TestSettings::DEFAULT;
+        let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
+        let mut h = Some(host);
+        let mut st = Station::new(
+            move || h.take().ok_or(LinkError::Disconnected("gone".into())),
+            push_lines(&stage, &profile, &settings),
+            digest,
+            hash,
+            provenance(&settings, json!({}), "file-digest"),
+            "demo-1".into(),
+            stage,
+            Duration::from_secs(5),
+        )
+        .unwrap();
+        st.prepare().unwrap();
+        let dir = std::env::temp_dir().join(format!("biasjig-refused-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let log = dir.join("boards.jsonl");
+        let _ = std::fs::remove_file(&log);
+        // Serials SN-2, SN-3 (open probe), SN-4; the jig's board follows the serial.
+        struct Feed(Arc<AtomicUsize>, Vec<&'static str>);
+        impl std::io::Read for Feed {
+            fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+                let Some(s) = self.1.first().copied() else {
+                    return Ok(0);
+                };
+                self.1.remove(0);
+                if let Some(n) = s.strip_prefix("SN-").and_then(|n| n.trim().parse().ok()) {
+                    self.0.store(n, Ordering::SeqCst);
+                }
+                buf[..s.len()].copy_from_slice(s.as_bytes());
+                Ok(s.len())
+            }
+        }
+        let input =
+            std::io::BufReader::with_capacity(64, Feed(board, vec!["SN-2\n", "SN-3\n", "SN-4\n"]));
+        let mut screen = Vec::new();
+        let n = run_loop(&mut st, input, &mut screen, &log, false).unwrap();
+        assert_eq!(n, 2, "two boards judged");
+        let recs = boardlog::read(&log).unwrap().records;
+        let v: Vec<(&str, &str)> = recs
+            .iter()
+            .map(|r| {
+                (
+                    r["serial"].as_str().unwrap(),
+                    r["verdict"].as_str().unwrap(),
+                )
+            })
+            .collect();
+        assert_eq!(v, [("SN-2", "pass"), ("SN-3", "refused"), ("SN-4", "pass")]);
+        let reason = recs[1]["reason"].as_str().unwrap();
+        assert!(
+            reason.starts_with("JIG") && reason.contains("open"),
+            "{reason}"
+        );
+        let shown = String::from_utf8(screen).unwrap();
+        assert!(shown.contains("R E F U S E D"), "{shown}");
+    }
 }
