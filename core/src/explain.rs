@@ -200,6 +200,12 @@ impl Group {
         Self { members }
     }
 
+    /// Its separating action measures a resistor in circuit (see [`IN_CIRCUIT`]).
+    pub fn measures_in_circuit(&self) -> bool {
+        let steps = self.steps();
+        steps.len() > 1 && steps.iter().any(|s| matches!(s, Step::Measure(..)))
+    }
+
     /// More than one fault reads alike: the technician must tell them apart.
     pub fn is_shared(&self) -> bool {
         self.members.len() > 1
@@ -292,7 +298,7 @@ impl Group {
     }
 
     /// The separating action for the first line: "power off, lift one end of CE and measure
-    /// RE2 (meter leads both ways, the higher reading counts)".
+    /// RE2 (take the higher of both lead directions)"; the lines under it give the next ones.
     pub fn action(&self) -> Action<'_> {
         Action { group: self }
     }
@@ -471,6 +477,11 @@ impl Outcome<'_> {
     }
 }
 
+/// The last line of a listing whose actions measure resistors in circuit: what such a reading
+/// proves (other parts of the board, such as loads on the supply rail, lie in parallel).
+pub const IN_CIRCUIT: &str = "In circuit, parallel parts only lower a reading: above the band is \
+sure; confirm a reading below it, or an 'otherwise', with one end lifted";
+
 /// One listed fault: from a diagnosis, or from a machine `fault=` line.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Listed {
@@ -520,6 +531,7 @@ pub fn listing(
         ));
     }
     let mut number = 0u32;
+    let mut in_circuit = false;
     for (k, it) in items.iter().enumerate() {
         let earlier = items.get(..k).unwrap_or(&[]);
         if earlier
@@ -551,12 +563,16 @@ pub fn listing(
             "{number}. {group}: same readings ({pct} %); {}",
             group.action()
         ));
+        in_circuit |= group.measures_in_circuit();
         for o in group.outcomes(stage) {
             line(format_args!("   {o}"));
         }
         if it.estimate.is_some() {
             line(format_args!("   closest fit: {words}"));
         }
+    }
+    if in_circuit {
+        line(format_args!("{IN_CIRCUIT}"));
     }
 }
 
