@@ -171,6 +171,8 @@ enum Step {
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Group {
     members: Vec<Member, GROUP_MAX>,
+    /// The separating measurements, in order.
+    steps: Vec<Step, 8>,
 }
 
 impl Group {
@@ -197,13 +199,17 @@ impl Group {
         for m in ce {
             let _ = members.push(m);
         }
-        Self { members }
+        let mut g = Self {
+            members,
+            steps: Vec::new(),
+        };
+        g.steps = g.plan();
+        g
     }
 
     /// Its separating action measures a resistor in circuit (see [`IN_CIRCUIT`]).
     pub fn measures_in_circuit(&self) -> bool {
-        let steps = self.steps();
-        steps.len() > 1 && steps.iter().any(|s| matches!(s, Step::Measure(..)))
+        self.steps.len() > 1 && self.steps.iter().any(|s| matches!(s, Step::Measure(..)))
     }
 
     /// More than one fault reads alike: the technician must tell them apart.
@@ -255,17 +261,19 @@ impl Group {
 
     /// The measurements in order: parts suspected low first (a reading at its value clears
     /// them), then the others, then the transistor, then CE lifted (solder work) last.
-    fn steps(&self) -> Vec<Step, 8> {
+    fn plan(&self) -> Vec<Step, 8> {
         let mut v: Vec<Step, 8> = Vec::new();
         let ce = self.has_ce();
-        let parts = self.parts();
+        let ways: Vec<(Resistor, Way), 5> = self
+            .parts()
+            .into_iter()
+            .filter(|r| !(ce && *r == Resistor::Re2))
+            .map(|r| (r, self.way(r)))
+            .collect();
         for want in [Way::Low, Way::High, Way::Both] {
-            for r in parts.iter().copied() {
-                if ce && r == Resistor::Re2 {
-                    continue;
-                }
-                if self.way(r) == want {
-                    let _ = v.push(Step::Measure(r, want));
+            for (r, w) in &ways {
+                if *w == want {
+                    let _ = v.push(Step::Measure(*r, want));
                 }
             }
         }
@@ -306,33 +314,21 @@ impl Group {
     /// What each result of the action means, one line each (without indentation): "RE1 above
     /// 231 Ω: RE1 open", ..., "otherwise: RE2 open".
     pub fn outcomes<'a>(&'a self, stage: &'a Stage) -> impl Iterator<Item = Outcome<'a>> + 'a {
-        let mut steps = self.steps();
-        if matches!(steps.as_slice(), [Step::Measure(..) | Step::DiodeTest]) {
-            // One part either way: nothing to tell apart.
-            steps.clear();
-        }
-        // The last plain step needs no measurement: it is what remains.
-        let last_free = matches!(steps.last(), Some(Step::Measure(..) | Step::DiodeTest));
-        let n = steps.len();
-        let next: Vec<Option<Step>, 8> = (0..n)
-            .map(|k| {
-                steps
-                    .get(k + 1)
-                    .copied()
-                    .filter(|_| !(last_free && k + 2 == n))
-            })
-            .collect();
-        steps
-            .into_iter()
-            .zip(next)
-            .enumerate()
-            .map(move |(k, (step, next))| Outcome {
-                group: self,
-                stage,
-                step,
-                otherwise: last_free && k + 1 == n,
-                next,
-            })
+        // One part either way: nothing to tell apart.
+        let n = match self.steps.as_slice() {
+            [Step::Measure(..) | Step::DiodeTest] => 0,
+            s => s.len(),
+        };
+        (0..n).map(move |k| Outcome {
+            group: self,
+            stage,
+            k,
+        })
+    }
+
+    /// The last plain step needs no measurement: it is what remains.
+    fn last_free(&self) -> bool {
+        matches!(self.steps.last(), Some(Step::Measure(..) | Step::DiodeTest))
     }
 }
 
@@ -380,7 +376,7 @@ pub struct Action<'a> {
 
 impl fmt::Display for Action<'_> {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let steps = self.group.steps();
+        let steps = &self.group.steps;
         let plain = match steps.as_slice() {
             [Step::Measure(r, _)] => Some(r.name()),
             [Step::DiodeTest] => Some("Q"),
@@ -426,30 +422,36 @@ impl fmt::Display for StepWords {
 pub struct Outcome<'a> {
     group: &'a Group,
     stage: &'a Stage,
-    step: Step,
-    otherwise: bool,
-    /// The measurement that follows when this one clears its part.
-    next: Option<Step>,
+    /// Which step of the group's.
+    k: usize,
 }
 
 impl fmt::Display for Outcome<'_> {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         self.result(f)?;
-        match self.next {
-            Some(n) => write!(f, "; otherwise {}", StepWords(n)),
-            None => Ok(()),
+        let steps = &self.group.steps;
+        let n = steps.len();
+        match steps.get(self.k + 1) {
+            Some(s) if !(self.group.last_free() && self.k + 2 == n) => {
+                write!(f, "; otherwise {}", StepWords(*s))
+            }
+            _ => Ok(()),
         }
     }
 }
 
 impl Outcome<'_> {
     fn result(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let settled = self.group.settled_by(self.step);
-        if self.otherwise {
+        let steps = &self.group.steps;
+        let Some(&step) = steps.get(self.k) else {
+            return Ok(());
+        };
+        let settled = self.group.settled_by(step);
+        if self.group.last_free() && self.k + 1 == steps.len() {
             f.write_str("otherwise: ")?;
             return write_names(f, &settled, any);
         }
-        match self.step {
+        match step {
             Step::Measure(r, way) => {
                 let p = self.stage.part(r);
                 let (word, edge) = match way {
