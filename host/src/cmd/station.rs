@@ -269,8 +269,19 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
 
     /// The instrument reports the expected settings digest.
     fn digest_ok(&mut self) -> Result<bool, LinkError> {
+        Ok(self.digest_reply()?.value("digest") == Some(self.digest.as_str()))
+    }
+
+    fn digest_reply(&mut self) -> Result<Reply, LinkError> {
         let r = self.link.command("digest")?;
-        Ok(r.ok() && r.value("digest") == Some(self.digest.as_str()))
+        Ok(if r.ok() {
+            r
+        } else {
+            Reply {
+                data: Vec::new(),
+                status: r.status,
+            }
+        })
     }
 
     /// Synchronise, switch to machine mode, and make sure the instrument holds the design and
@@ -284,7 +295,15 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 return Err(BoardError::Refused(format!("{l}: {}", r.status)));
             }
         }
-        if !self.digest_ok().map_err(BoardError::Link)? {
+        let first = self.digest_reply().map_err(BoardError::Link)?;
+        if code_of(&first.status) == "UNKNOWN" {
+            return Err(BoardError::Refused(format!(
+                "the instrument has no digest command ({}): its firmware is older than the \
+                 settings digest; update it",
+                first.status
+            )));
+        }
+        if first.value("digest") != Some(self.digest.as_str()) {
             for l in self.push.clone() {
                 let r = self.link.command(&l).map_err(BoardError::Link)?;
                 if !r.ok() {
