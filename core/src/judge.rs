@@ -210,6 +210,29 @@ pub fn judge(
     settings: &TestSettings,
     readings: &Readings,
 ) -> Result<Judgement, JudgeError> {
+    let (windows, verdict) = verdict(stage, profile, settings, readings)?;
+    let diagnosis = if verdict.pass {
+        None
+    } else {
+        Some(diagnosis(stage, profile, settings, readings).map_err(JudgeError::Diagnose)?)
+    };
+    Ok(Judgement {
+        windows,
+        verdict,
+        diagnosis,
+    })
+}
+
+/// Steps 1 to 5 of [`judge`] without the diagnosis: the windows and the verdict. A small
+/// instrument calls this and then [`diagnosis`] for a failed board, keeping the diagnosis (a
+/// few KB) where it is stored instead of moving it through a [`Judgement`].
+#[inline(never)]
+pub fn verdict(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+) -> Result<(Windows, Verdict), JudgeError> {
     settings.validate().map_err(JudgeError::Settings)?;
     let r = readings;
     if ![r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
@@ -225,17 +248,26 @@ pub fn judge(
     usable(stage, profile, settings)?;
     let meter = &settings.meter;
     check::plausible(stage, meter, r).map_err(JudgeError::Implausible)?;
-    let var = variation(settings);
-    let limits = limits::limits(stage, profile, &var, meter, r.vcc).map_err(JudgeError::Limits)?;
+    let limits = limits::limits(stage, profile, &variation(settings), meter, r.vcc)
+        .map_err(JudgeError::Limits)?;
     let verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
-    let diagnosis = if verdict.pass {
-        None
-    } else {
-        Some(diagnose::diagnose(stage, profile, r, meter, &var).map_err(JudgeError::Diagnose)?)
-    };
-    Ok(Judgement {
-        windows: Windows { supply, limits },
-        verdict,
-        diagnosis,
-    })
+    Ok((Windows { supply, limits }, verdict))
+}
+
+/// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
+/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place.)
+#[inline]
+pub fn diagnosis(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+) -> Result<Diagnosis, DiagnoseError> {
+    diagnose::diagnose(
+        stage,
+        profile,
+        readings,
+        &settings.meter,
+        &variation(settings),
+    )
 }

@@ -61,21 +61,39 @@ fn spread_fail(what: &str, e: SpreadError) -> Fail {
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
-    /// Judge readings through the one judging path ([`crate::judge::judge`]: the supply window,
+    /// Judge readings through the one judging path ([`crate::judge::verdict`], then for a failed
+    /// board [`crate::judge::diagnosis`]: the steps of [`crate::judge::judge`]; the supply window,
     /// the nominal region, plausibility, windows at the measured supply over the test ambient
     /// with the measuring inputs attached, verdict and, when the board fails, the diagnosis).
     /// Keeps the result as the last check (nothing changes on an error).
     #[inline(never)]
     pub(super) fn judge(&mut self, rd: Readings, src: Source) -> Result<(), Fail> {
         let st = &self.settings;
-        let j = crate::judge::judge(&st.stage, &st.profile, &st.test_settings(), &rd)
-            .map_err(judge_fail)?;
-        self.last = Some(LastCheck {
-            readings: rd,
-            source: src,
-            verdict: j.verdict,
-            diagnosis: j.diagnosis,
-        });
+        let ts = st.test_settings();
+        let (_, verdict) =
+            crate::judge::verdict(&st.stage, &st.profile, &ts, &rd).map_err(judge_fail)?;
+        if verdict.pass {
+            self.last = Some(LastCheck {
+                readings: rd,
+                source: src,
+                verdict,
+                diagnosis: None,
+            });
+        } else {
+            // The diagnosis (about 2 KB) goes straight into the session state: one value on
+            // the stack, no further copies.
+            match crate::judge::diagnosis(&st.stage, &st.profile, &ts, &rd) {
+                Ok(d) => {
+                    self.last = Some(LastCheck {
+                        readings: rd,
+                        source: src,
+                        verdict,
+                        diagnosis: Some(d),
+                    });
+                }
+                Err(e) => return Err(judge_fail(crate::judge::JudgeError::Diagnose(e))),
+            }
+        }
         self.readings = Some((rd, src));
         Ok(())
     }
