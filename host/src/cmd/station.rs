@@ -24,7 +24,7 @@ use std::time::Duration;
 use biasjig_core::console::record::design_hash;
 use biasjig_core::device::Profile;
 use biasjig_core::explain::{listing, suspect_of, Listed};
-use biasjig_core::settings::{digest, InputMode, TestSettings, DEFAULT_TEMP_C};
+use biasjig_core::settings::{digest, InputMode, Inputs, TestSettings, DEFAULT_TEMP_C};
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
@@ -232,8 +232,22 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     /// The stage pushed (for the fault words on the screen).
     stage: Stage,
     budget: Duration,
+    /// When no measuring inputs were stated: the transistor and the test settings, to take the
+    /// instrument's own inputs into them ([`Station::inputs_from_unit`]).
+    adopt: Option<Adopt>,
+    /// The measuring inputs in the pushed settings.
+    inputs_used: Inputs,
     /// Resynchronisations done (resets, timeouts, garbage).
     pub resyncs: usize,
+}
+
+/// What the station needs to take the instrument's own measuring inputs.
+#[derive(Debug, Clone, Copy)]
+struct Adopt {
+    profile: Profile,
+    settings: TestSettings,
+    /// `--inputs` was given: keep its mode.
+    mode_stated: bool,
 }
 
 impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
@@ -263,8 +277,64 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
             design_id,
             stage,
             budget,
+            adopt: None,
+            inputs_used: Inputs::IDEAL,
             resyncs: 0,
         })
+    }
+
+    /// No measuring inputs were stated (neither the design file nor `--input-r`): the inputs are
+    /// the instrument's own (its jig's dividers, from its `meter` answer), and the pushed lines,
+    /// the digest and the records follow them. `mode_stated`: `--inputs` was given.
+    pub fn inputs_from_unit(
+        mut self,
+        profile: Profile,
+        settings: TestSettings,
+        mode_stated: bool,
+    ) -> Self {
+        self.adopt = Some(Adopt {
+            profile,
+            settings,
+            mode_stated,
+        });
+        self
+    }
+
+    /// Take the instrument's own measuring inputs (see [`Station::inputs_from_unit`]).
+    fn adopt_inputs(&mut self) -> Result<(), BoardError> {
+        let Some(a) = self.adopt else {
+            return Ok(());
+        };
+        let r = self.link.command("meter").map_err(BoardError::Link)?;
+        if !r.ok() {
+            return Ok(());
+        }
+        let mut ts = a.settings;
+        ts.inputs.r = r.value("input_r").and_then(|v| v.parse::<f64>().ok());
+        if ts.inputs.r.is_some() && !a.mode_stated {
+            if let Some(m) = r.value("inputs").and_then(InputMode::parse) {
+                ts.inputs.mode = m;
+            }
+        }
+        let (digest, hash) = expected(&self.stage, &a.profile, &ts).ok_or_else(|| {
+            BoardError::Refused(format!(
+                "the instrument's own measuring inputs ({:?}) are not accepted",
+                r.data
+            ))
+        })?;
+        self.push = push_lines(&self.stage, &a.profile, &ts);
+        self.digest = digest;
+        self.hash = hash;
+        if let Some(o) = self.provenance.as_object_mut() {
+            o.insert("settings".into(), crate::cmd::check::settings_json(&ts));
+        }
+        self.inputs_used = ts.inputs;
+        Ok(())
+    }
+
+    /// The measuring inputs the station judges with (after [`Station::prepare`]).
+    pub fn inputs(&self) -> Inputs {
+        self.inputs_used
     }
 
     /// The instrument reports the expected settings digest.
@@ -295,6 +365,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 return Err(BoardError::Refused(format!("{l}: {}", r.status)));
             }
         }
+        self.adopt_inputs()?;
         let first = self.digest_reply().map_err(BoardError::Link)?;
         if code_of(&first.status) == "UNKNOWN" {
             return Err(BoardError::Refused(format!(
@@ -757,6 +828,9 @@ impl Cmd {
                 "a stage the console accepts",
             )
         })?;
+        // Inputs stated by neither the design file nor a flag: the instrument's own.
+        let adopt = doc.test.inputs.r.is_none() && self.inputs.input_r.is_none();
+        let mode_stated = self.inputs.inputs.is_some();
         let stdin = std::io::stdin();
         let mut out = std::io::stderr();
         let boards = if self.manual {
@@ -777,6 +851,9 @@ impl Cmd {
                 budget,
             )
             .map_err(link_error)?;
+            if adopt {
+                st = st.inputs_from_unit(doc.profile, settings, mode_stated);
+            }
             st.prepare().map_err(board_err)?;
             run_loop(&mut st, stdin.lock(), &mut out, &self.log, true)?
         } else {
@@ -793,11 +870,23 @@ impl Cmd {
                 budget,
             )
             .map_err(link_error)?;
+            if adopt {
+                st = st.inputs_from_unit(doc.profile, settings, mode_stated);
+            }
             let id = st.prepare().map_err(board_err)?;
+            let inputs = if adopt { st.inputs() } else { settings.inputs };
             eprintln!(
-                "instrument: {id}; design {} and test settings verified (settings digest {})",
+                "instrument: {id}; design {} and test settings verified (settings digest {}); \
+                 measuring inputs {}{}",
                 doc.id,
-                st.digest()
+                st.digest(),
+                inputs
+                    .r
+                    .map_or("none (an ideal meter)".to_string(), |r| format!(
+                        "{r} Ω to ground, {}",
+                        inputs.mode.name()
+                    )),
+                if adopt { " (the instrument's own)" } else { "" }
             );
             run_loop(&mut st, stdin.lock(), &mut out, &self.log, false)?
         };
@@ -1236,5 +1325,72 @@ mod tests {
         );
         let shown = String::from_utf8(screen).unwrap();
         assert!(shown.contains("R E F U S E D"), "{shown}");
+    }
+
+    /// A jig reader whose inputs load every node with 11 MΩ.
+    struct LoadingJig(Arc<AtomicUsize>);
+
+    impl Jig for LoadingJig {
+        fn measure(&mut self, samples: u16) -> Result<Readings, JigError> {
+            Boards(self.0.clone()).measure(samples)
+        }
+        fn input_r(&self) -> Option<f64> {
+            Some(11e6)
+        }
+    }
+
+    /// With no measuring inputs stated, the station judges with the instrument's own (its jig's
+    /// dividers), pushes them back as they are, and the digest and records carry them.
+    #[test]
+    fn unstated_inputs_are_the_instruments_own() {
+        let (host, mut unit) = MemoryPort::pair();
+        std::thread::spawn(move || {
+            let mut c = Console::new(
+                Identity::new("fake", "1"),
+                LoadingJig(Arc::new(AtomicUsize::new(0))),
+                MemoryStore::default(),
+                StdClock::default(),
+            );
+            let mut buf = [0u8; 256];
+            while let Ok(n) = unit.recv(&mut buf, Duration::from_secs(30)) {
+                let mut out = Vec::new();
+                let _ = c.feed(&buf[..n], &mut FromStd::new(&mut out));
+                if unit.send(&out).is_err() {
+                    return;
+                }
+            }
+        });
+        let stage = pushed();
+        let profile = default_profile();
+        let settings = TestSettings::DEFAULT;
+        let (digest0, hash) = expected(&stage, &profile, &settings).unwrap();
+        let mut h = Some(host);
+        let mut st = Station::new(
+            move || h.take().ok_or(LinkError::Disconnected("gone".into())),
+            push_lines(&stage, &profile, &settings),
+            digest0.clone(),
+            hash,
+            provenance(&settings, json!({}), "file-digest"),
+            "demo-1".into(),
+            stage,
+            Duration::from_secs(5),
+        )
+        .unwrap()
+        .inputs_from_unit(profile, settings, false);
+        st.prepare().unwrap();
+        assert_eq!(st.inputs().r, Some(11e6));
+        let with_jig = TestSettings {
+            inputs: biasjig_core::settings::Inputs {
+                r: Some(11e6),
+                mode: InputMode::Together,
+            },
+            ..settings
+        };
+        assert_eq!(st.digest(), digest(&stage, &profile, &with_jig).to_string());
+        assert_ne!(st.digest(), digest0);
+        let r = st.link.command("meter").unwrap();
+        assert_eq!(r.value("input_r"), Some("1.1e7"), "{r:?}");
+        let rec = st.stamp(json!({"design": {}}));
+        assert_eq!(rec["settings"]["inputs"]["r"], 11e6);
     }
 }
