@@ -219,15 +219,22 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 r.data(format_args!("{}", t.as_str()));
             }
         } else {
-            let items: heapless::Vec<Listed, LISTED_FAULTS> = d
-                .faults()
-                .take(LISTED_FAULTS)
-                .map(|h| Listed::of(d, h))
-                .collect();
-            listing(&self.settings.stage, d.explained, &items, &mut |a| {
-                r.data(a)
-            });
+            self.show_fault_words(d, r);
         }
+    }
+
+    /// The likely faults in words (human mode), in a frame of its own: the machine path does
+    /// not carry the listing's stack.
+    #[inline(never)]
+    fn show_fault_words<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
+        let items: heapless::Vec<Listed, LISTED_FAULTS> = d
+            .faults()
+            .take(LISTED_FAULTS)
+            .map(|h| Listed::of(d, h))
+            .collect();
+        listing(&self.settings.stage, d.explained, &items, &mut |a| {
+            r.data(a)
+        });
     }
 
     /// `diagnose`: the last diagnosis again (the last readings are judged first when they were
