@@ -254,9 +254,31 @@ pub fn verdict(
     Ok((Windows { supply, limits }, verdict))
 }
 
+/// [`diagnosis`] written into `out`: the instrument keeps it in its session state, never on its
+/// stack.
+#[inline(never)]
+pub fn diagnosis_into(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    diagnose::diagnose_into(
+        stage,
+        profile,
+        readings,
+        &settings.meter,
+        &variation(settings),
+        out,
+    )
+}
+
 /// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
-/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place.)
-#[inline]
+/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place; not
+/// inlined, so that the diagnosis's working storage is not part of its caller's frame while the
+/// windows are computed.)
+#[inline(never)]
 pub fn diagnosis(
     stage: &Stage,
     profile: &Profile,
