@@ -250,7 +250,8 @@ pub fn verdict(
     check::plausible(stage, meter, r).map_err(JudgeError::Implausible)?;
     let limits = limits::limits(stage, profile, &variation(settings), meter, r.vcc)
         .map_err(JudgeError::Limits)?;
-    let verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
+    let verdict = check::check_through(stage, &limits, meter, &settings.inputs, r)
+        .map_err(JudgeError::Implausible)?;
     Ok((Windows { supply, limits }, verdict))
 }
 
