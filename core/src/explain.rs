@@ -25,6 +25,11 @@ use crate::units::{Eng, Fixed};
 /// the diagnosis).
 pub const GROUP_MAX: usize = 12;
 
+/// Said after a shorted or low RE2: a shorted or leaky CE across it gives the same readings, and
+/// RE2 reads low in circuit through it.
+const CE_NOTE: &str =
+    ", or CE shorted or leaky (same readings): lift one end of CE before measuring RE2";
+
 /// A fault in plain words for the technician: "RC reads like 47 kΩ instead of 4.7 kΩ: a decade
 /// slip".
 #[derive(Debug, Clone, Copy)]
@@ -62,7 +67,11 @@ impl fmt::Display for FaultWords<'_> {
                         write!(f, "{name} open (missing, cracked or a dry joint)")
                     }
                     (ResistorMode::Short, _) => {
-                        write!(f, "{name} shorted (a solder bridge or a wrong part)")
+                        write!(f, "{name} shorted (a solder bridge or a wrong part)")?;
+                        if r == Resistor::Re2 {
+                            f.write_str(CE_NOTE)?;
+                        }
+                        Ok(())
                     }
                     (_, Some(est)) => {
                         let ratio = est / nominal;
@@ -81,7 +90,11 @@ impl fmt::Display for FaultWords<'_> {
                             "{name} reads like {} instead of {}{why}",
                             Eng::new(est, "Ω"),
                             Eng::new(nominal, "Ω")
-                        )
+                        )?;
+                        if r == Resistor::Re2 && mode == ResistorMode::Low {
+                            f.write_str(CE_NOTE)?;
+                        }
+                        Ok(())
                     }
                     (ResistorMode::Low, None) => write!(f, "{name} too low"),
                     (ResistorMode::High, None) => write!(f, "{name} too high"),
@@ -180,24 +193,22 @@ impl Group {
     /// brings CE shorted or leaky in with it.
     pub fn of(faults: impl IntoIterator<Item = Suspect>) -> Self {
         let mut members: Vec<Member, GROUP_MAX> = Vec::new();
-        let mut ce: Vec<Member, 2> = Vec::new();
+        let (mut shorted, mut leaky) = (false, false);
         for s in faults {
             if !s.is_fault() || members.contains(&Member::Fault(s)) {
                 continue;
             }
             let _ = members.push(Member::Fault(s));
-            match s {
-                Suspect::Resistor(Resistor::Re2, ResistorMode::Short) => {
-                    let _ = ce.push(Member::CeShorted);
-                }
-                Suspect::Resistor(Resistor::Re2, ResistorMode::Low) => {
-                    let _ = ce.push(Member::CeLeaky);
-                }
-                _ => {}
+            if let Suspect::Resistor(Resistor::Re2, m) = s {
+                shorted |= m == ResistorMode::Short;
+                leaky |= m == ResistorMode::Low;
             }
         }
-        for m in ce {
-            let _ = members.push(m);
+        if shorted {
+            let _ = members.push(Member::CeShorted);
+        }
+        if leaky {
+            let _ = members.push(Member::CeLeaky);
         }
         let mut g = Self {
             members,
@@ -220,18 +231,6 @@ impl Group {
     /// The members, best first (CE after the faults of the diagnosis).
     pub fn members(&self) -> &[Member] {
         &self.members
-    }
-
-    fn parts(&self) -> Vec<Resistor, 5> {
-        let mut v: Vec<Resistor, 5> = Vec::new();
-        for m in &self.members {
-            if let Member::Fault(Suspect::Resistor(r, _)) = m {
-                if !v.contains(r) {
-                    let _ = v.push(*r);
-                }
-            }
-        }
-        v
     }
 
     fn has_ce(&self) -> bool {
@@ -264,24 +263,25 @@ impl Group {
     fn plan(&self) -> Vec<Step, 8> {
         let mut v: Vec<Step, 8> = Vec::new();
         let ce = self.has_ce();
-        let ways: Vec<(Resistor, Way), 5> = self
-            .parts()
-            .into_iter()
-            .filter(|r| !(ce && *r == Resistor::Re2))
-            .map(|r| (r, self.way(r)))
-            .collect();
+        let mut device = false;
         for want in [Way::Low, Way::High, Way::Both] {
-            for (r, w) in &ways {
-                if *w == want {
-                    let _ = v.push(Step::Measure(*r, want));
+            for (k, m) in self.members.iter().enumerate() {
+                match m {
+                    Member::Fault(Suspect::Resistor(r, _)) => {
+                        let first =
+                            !self.members.iter().take(k).any(
+                                |o| matches!(o, Member::Fault(Suspect::Resistor(p, _)) if p == r),
+                            );
+                        if first && !(ce && *r == Resistor::Re2) && self.way(*r) == want {
+                            let _ = v.push(Step::Measure(*r, want));
+                        }
+                    }
+                    Member::Fault(Suspect::Device(_)) => device = true,
+                    _ => {}
                 }
             }
         }
-        if self
-            .members
-            .iter()
-            .any(|m| matches!(m, Member::Fault(Suspect::Device(_))))
-        {
+        if device {
             let _ = v.push(Step::DiodeTest);
         }
         if ce {
@@ -536,10 +536,30 @@ pub fn listing(
     let mut in_circuit = false;
     for (k, it) in items.iter().enumerate() {
         let earlier = items.get(..k).unwrap_or(&[]);
-        if earlier
-            .iter()
-            .any(|e| e.same.contains(&it.suspect) || it.same.contains(&e.suspect))
-        {
+        // Groups are symmetric: a later member is in the earlier one's list.
+        let named = earlier.iter().any(|e| e.same.contains(&it.suspect));
+        if !cfg!(feature = "fault-detail") {
+            // The budget instrument: each fault in words (a shorted or low RE2 names CE and
+            // says to lift it), and the other members of a group named once.
+            line(format_args!(
+                "{}. {} ({} %)",
+                k + 1,
+                FaultWords {
+                    stage,
+                    suspect: it.suspect,
+                    estimate: it.estimate,
+                },
+                Fixed(100.0 * it.score, 0)
+            ));
+            if !named && !it.same.is_empty() {
+                line(format_args!(
+                    "   same readings as {}",
+                    MachineNames(&it.same)
+                ));
+            }
+            continue;
+        }
+        if named {
             continue;
         }
         number += 1;
@@ -565,6 +585,9 @@ pub fn listing(
             "{number}. {group}: same readings ({pct} %); {}",
             group.action()
         ));
+        if !cfg!(feature = "fault-detail") {
+            continue;
+        }
         in_circuit |= group.measures_in_circuit();
         for o in group.outcomes(stage) {
             line(format_args!("   {o}"));
@@ -575,6 +598,19 @@ pub fn listing(
     }
     if in_circuit {
         line(format_args!("{IN_CIRCUIT}"));
+    }
+}
+
+/// Faults by their machine names: "R1 open, R2 short".
+struct MachineNames<'a>(&'a [Suspect]);
+
+impl fmt::Display for MachineNames<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for (k, s) in self.0.iter().enumerate() {
+            let sep = if k == 0 { "" } else { ", " };
+            write!(f, "{sep}{} {}", s.part(), s.mode())?;
+        }
+        Ok(())
     }
 }
 
@@ -627,6 +663,7 @@ mod tests {
     }
 
     #[test]
+    #[cfg(feature = "fault-detail")]
     fn a_shorted_re2_names_ce_and_lifts_it() {
         let l = lines(&[Listed {
             suspect: r(Resistor::Re2, ResistorMode::Short),
@@ -637,6 +674,23 @@ mod tests {
         assert!(l[1].starts_with("1. RE2 shorted or CE shorted: same readings (90 %); "));
         assert!(l[1].contains("lift one end of CE and measure RE2"), "{l:?}");
         assert!(l[2].contains("CE shorted") && l[2].contains("still below: RE2 shorted"));
+    }
+
+    /// The budget instrument's listing still names CE with a shorted RE2 and says to lift it.
+    #[test]
+    #[cfg(not(feature = "fault-detail"))]
+    fn the_budget_listing_names_ce_with_re2() {
+        let l = lines(&[Listed {
+            suspect: r(Resistor::Re2, ResistorMode::Short),
+            estimate: None,
+            score: 0.9,
+            same: Vec::new(),
+        }]);
+        assert!(l[1].starts_with("1. RE2 shorted"), "{l:?}");
+        assert!(
+            l[1].contains("CE shorted or leaky") && l[1].contains("lift one end of CE"),
+            "{l:?}"
+        );
     }
 
     #[test]

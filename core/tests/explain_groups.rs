@@ -7,6 +7,8 @@
 //! transistor's junctions when the higher of the two lead directions is taken), except that CE
 //! lies across RE2: a shorted or leaky CE makes RE2 read low until one end of CE is lifted.
 
+#![cfg(feature = "fault-detail")]
+
 use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::diagnose::{diagnose, ResistorMode, Suspect};
 use biasjig_core::explain::{listing, Group, Listed, Member};
