@@ -207,7 +207,14 @@ fn negative_readings_are_values_and_a_shorted_emitter_is_found() {
 fn implausible_readings_are_refused_with_what_to_fix() {
     let out = check([15.0, 2.5, 1.9, 16.5], &["--json"]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(out.stdout.is_empty());
+    // docs/interface.md: refused "the same way" as a supply outside its window: `--json` still
+    // prints one document, `"verdict": "refused"` with the reason.
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["verdict"], "refused", "{v}");
+    assert!(
+        v["reason"].as_str().unwrap().contains("VC reads above the supply"),
+        "{v}"
+    );
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(
         err.contains("VC reads above the supply") && err.contains("probe"),

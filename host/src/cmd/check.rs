@@ -88,7 +88,11 @@ impl Station {
             let list: Vec<String> = r
                 .overrides
                 .iter()
-                .map(|(f, v)| format!("{f} {v}"))
+                .map(|(f, v)| match override_value(f, *v) {
+                    Value::String(w) => format!("{f} {w}"),
+                    Value::Bool(_) => f.clone(),
+                    other => format!("{f} {other}"),
+                })
                 .collect();
             eprintln!(
                 "biasjig: warning: flags override the design file ({}); recorded with every \
@@ -127,6 +131,44 @@ pub fn judge_error(e: JudgeError) -> CliError {
 /// The windows the station applies at the measured supply (the core's [`judge::windows`]).
 pub fn board_windows(st: &Station, vcc: f64) -> Result<Windows, CliError> {
     judge::windows(&st.stage, &st.profile, &st.settings, vcc).map_err(judge_error)
+}
+
+/// A warning about what the windows rest on: a machine word for `--json` (`warnings`) and a
+/// sentence for people (stderr).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Warning {
+    /// Machine word, such as `inputs_move_the_stage_to_saturation`.
+    pub code: String,
+    /// The sentence for a person.
+    pub text: String,
+}
+
+/// When the measuring inputs move the stage out of the forward-active region at its nominal
+/// point (the stage itself is active: [`judge::nominal_region`]), the windows describe a stage the
+/// jig has pulled off its bias: say so, and what would do better.
+pub fn inputs_region_warning(st: &Station) -> Option<Warning> {
+    use biasjig_core::solve::Region;
+    let rin = st.settings.inputs.r?;
+    let bare = judge::nominal_region(&st.stage, &st.profile, &st.settings).ok()?;
+    let region = judge::nominal_region_through(&st.stage, &st.profile, &st.settings).ok()?;
+    if bare != Region::Active || region == Region::Active {
+        return None;
+    }
+    let (r1, r2) = (st.stage.r1.value, st.stage.r2.value);
+    let rth = r1 * r2 / (r1 + r2);
+    Some(Warning {
+        code: format!("inputs_move_the_stage_to_{}", region.name()),
+        text: format!(
+            "the {} measuring inputs ({}) put the stage in {} while it is read (without them it \
+             is active): the windows hold for a board read that way, but a good board and \
+             several faults then read alike. Use inputs of at least {} (100 × R1 ‖ R2) or \
+             buffered ones",
+            text::eng(rin, "Ω"),
+            st.settings.inputs.mode.name(),
+            region.name(),
+            text::eng(100.0 * rth, "Ω")
+        ),
+    })
 }
 
 /// The result of checking one board.
@@ -236,11 +278,21 @@ pub fn outcome_json(o: &Outcome, measured_vcc: f64) -> Value {
     }
 }
 
+/// One override as JSON: a number in SI units (percent for the percentage flags), `--inputs`
+/// by its word and a switch such as `--pnp` as `true` (they are kept as numbers inside).
+fn override_value(flag: &str, v: f64) -> Value {
+    match flag {
+        "--inputs" => json!(if v == 0.0 { "together" } else { "one" }),
+        "--pnp" => json!(true),
+        _ => json::num(v),
+    }
+}
+
 /// The overrides in force as JSON: flag -> value as given.
 pub fn overrides_json(st: &Station) -> Value {
     let mut m = serde_json::Map::new();
     for (flag, v) in &st.overrides {
-        m.insert(flag.clone(), json::num(*v));
+        m.insert(flag.clone(), override_value(flag, *v));
     }
     Value::Object(m)
 }
@@ -274,19 +326,23 @@ pub fn log_record(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome)
     doc
 }
 
-const BIG_PASS: &str = "\
-  ####    ###    ####   ####
-  #   #  #   #  #      #
-  ####   #####   ###    ###
-  #      #   #      #      #
-  #      #   #  ####   ####";
+// (`concat!` keeps the first row's indent: a `\` line continuation would strip it and shear
+// the letters.)
+const BIG_PASS: &str = concat!(
+    "  ####    ###    ####   ####\n",
+    "  #   #  #   #  #      #\n",
+    "  ####   #####   ###    ###\n",
+    "  #      #   #      #      #\n",
+    "  #      #   #  ####   ####"
+);
 
-const BIG_FAIL: &str = "\
-  #####   ###   #####  #
-  #      #   #    #    #
-  ####   #####    #    #
-  #      #   #    #    #
-  #      #   #  #####  #####";
+const BIG_FAIL: &str = concat!(
+    "  #####   ###   #####  #\n",
+    "  #      #   #    #    #\n",
+    "  ####   #####    #    #\n",
+    "  #      #   #    #    #\n",
+    "  #      #   #  #####  #####"
+);
 
 /// A fault in plain words (the core's wording, shared with the instrument's console).
 pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
@@ -312,12 +368,24 @@ pub fn settings_text(t: &TestSettings) -> String {
     )
 }
 
-/// The human report of a checked board.
-pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome) -> String {
+/// The human report of a checked board. `supply_judged` is false when no nominal supply was
+/// given for a stage by flags (its window is then centred on the measured supply itself).
+pub fn outcome_text(
+    st: &Station,
+    serial: Option<&str>,
+    r: &Readings,
+    o: &Outcome,
+    supply_judged: bool,
+) -> String {
     let mut out = String::new();
+    let design = if st.file_digest.is_some() {
+        format!("design {}", st.id)
+    } else {
+        "stage given by flags".to_string()
+    };
     let head = match serial {
-        Some(s) => format!("board {s} · design {}", st.id),
-        None => format!("design {}", st.id),
+        Some(s) => format!("board {s} · {design}"),
+        None => design,
     };
     match o {
         Outcome::Refused(why) => {
@@ -328,13 +396,21 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcom
             out.push_str(if v.pass { BIG_PASS } else { BIG_FAIL });
             out.push_str(&format!("\n\n{head}\n{}\n", settings_text(&st.settings)));
             let sw = &j.windows.supply;
-            out.push_str(&format!(
-                "  {:<4} {:>10}   window {} .. {}\n",
-                "VCC",
-                text::eng4(r.vcc, "V"),
-                text::eng4(sw.low, "V"),
-                text::eng4(sw.high, "V")
-            ));
+            if supply_judged {
+                out.push_str(&format!(
+                    "  {:<4} {:>10}   window {} .. {}\n",
+                    "VCC",
+                    text::eng4(r.vcc, "V"),
+                    text::eng4(sw.low, "V"),
+                    text::eng4(sw.high, "V")
+                ));
+            } else {
+                out.push_str(&format!(
+                    "  {:<4} {:>10}   not judged: no nominal supply given (--vcc-nominal V)\n",
+                    "VCC",
+                    text::eng4(r.vcc, "V"),
+                ));
+            }
             for n in &v.nodes {
                 let u = n.node.unit();
                 out.push_str(&format!(
@@ -347,7 +423,7 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcom
                 ));
             }
             let dv = &v.derived;
-            let beta = dv.beta.map_or("-".to_string(), |b| format!("{b:.0}"));
+            let beta = dv.beta.map_or("not derived".to_string(), |b| format!("{b:.0}"));
             out.push_str(&format!(
                 "IC {}, IB {}, hFE {beta}, VBE {}, VCE {}, {}\n",
                 text::eng(dv.ic, "A"),
@@ -397,6 +473,9 @@ impl Cmd {
         }
         let resolved = args.resolve_with(Some(&self.inputs), Some(&self.test))?;
         let st = Station::new(&resolved);
+        if let Some(w) = inputs_region_warning(&st) {
+            eprintln!("biasjig: warning: {}", w.text);
+        }
         let r = Readings {
             vcc: measured_vcc,
             vb: self.vb,
@@ -408,17 +487,30 @@ impl Cmd {
             boardlog::append(path, &log_record(&st, self.serial.as_deref(), &r, &o))?;
         }
         match &o {
-            Outcome::Refused(why) => Err(CliError::usage(format!(
-                "not judged (vcc {} V, vb {} V, ve {} V, vc {} V): {why}",
-                r.vcc, r.vb, r.ve, r.vc
-            ))),
+            Outcome::Refused(why) => {
+                // The document still says what happened ("refused", the supply window): a
+                // station script reads why the board was not judged from stdout too.
+                if g.json {
+                    let mut doc = outcome_json(&o, r.vcc);
+                    add_provenance(&st, &mut doc);
+                    json::print(&doc);
+                }
+                Err(CliError::usage(format!(
+                    "not judged (vcc {} V, vb {} V, ve {} V, vc {} V): {why}",
+                    r.vcc, r.vb, r.ve, r.vc
+                )))
+            }
             Outcome::Judged(j) => {
                 if g.json {
                     let mut doc = outcome_json(&o, r.vcc);
                     add_provenance(&st, &mut doc);
                     json::print(&doc);
                 } else {
-                    out!("{}", outcome_text(&st, self.serial.as_deref(), &r, &o));
+                    let supply_judged = self.stage.design.is_some() || self.vcc_nominal.is_some();
+                    out!(
+                        "{}",
+                        outcome_text(&st, self.serial.as_deref(), &r, &o, supply_judged)
+                    );
                 }
                 Ok(if j.verdict.pass { EXIT_OK } else { EXIT_FAIL })
             }

@@ -7,11 +7,14 @@
 use std::fmt::Write as _;
 
 use biasjig_core::judge::Windows;
-use biasjig_core::settings::TestSettings;
+use biasjig_core::settings::{InputMode, TestSettings};
 use biasjig_core::spread::{centre, Node, Sample, Variation};
 use serde_json::{json, Map, Value};
 
-use crate::cmd::check::{board_windows, overrides_json, settings_json, settings_text, Station};
+use crate::cmd::check::{
+    board_windows, inputs_region_warning, overrides_json, settings_json, settings_text, Station,
+    Warning,
+};
 use crate::cmd::spread::spread_error;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::stage_args::{InputArgs, StageArgs, TestArgs};
@@ -51,6 +54,25 @@ impl Cmd {
             ));
         }
         let w = board_windows(&st, vcc)?;
+        let mut warnings = Vec::new();
+        if !w.supply.contains(vcc) {
+            // The node windows are the ones `check --vcc V` would apply to a stage of that
+            // nominal; against this stage's nominal and supply tolerance, check refuses the board.
+            warnings.push(Warning {
+                code: "supply_outside_window".into(),
+                text: format!(
+                    "--at-vcc {}: outside the supply window {} to {} (nominal ± supply \
+                     tolerance): `check` does not judge a board whose supply reads that",
+                    eng4(vcc, "V"),
+                    eng4(w.supply.low, "V"),
+                    eng4(w.supply.high, "V")
+                ),
+            });
+        }
+        warnings.extend(inputs_region_warning(&st));
+        for wn in &warnings {
+            eprintln!("biasjig: warning: {}", wn.text);
+        }
         let mut at = r.stage;
         at.vcc.value = vcc;
         let t = &r.settings;
@@ -65,6 +87,10 @@ impl Cmd {
             if let Some(obj) = doc.as_object_mut() {
                 obj.insert("digest".into(), json!(st.digest.to_string()));
                 obj.insert("overrides".into(), overrides_json(&st));
+                obj.insert(
+                    "warnings".into(),
+                    json!(warnings.iter().map(|w| w.code.as_str()).collect::<Vec<_>>()),
+                );
             }
             json::print(&doc);
         } else {
@@ -163,5 +189,12 @@ pub fn report(
         s,
         "  (IC is derived from the readings as the tester does: through the nominal RC)"
     );
+    if t.inputs.r.is_some() && t.inputs.mode == InputMode::One {
+        let _ = writeln!(
+            s,
+            "  (VBE and VCE are differences of readings taken one node at a time, each node \
+             loaded by its own input alone: they are not the transistor's junction voltages)"
+        );
+    }
     s
 }
