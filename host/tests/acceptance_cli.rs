@@ -297,3 +297,40 @@ fn overrides_keep_their_words() {
     assert_eq!(d["overrides"]["--input-r"].as_f64(), Some(10e6), "{d}");
     assert!(stderr(&o).contains("--inputs one"), "{}", stderr(&o));
 }
+
+/// CONTRACT.md (Windows): "A value whose unit letters do not fit the field ... exits 2". The
+/// temperatures and the hFE temperature coefficient took any letters (`--temp 25V`,
+/// `--temp-min 20A`, `--tj-max 150A`, `--beta-tc 0.5V`), and `--temp 25K` was read as 25 000 °C.
+#[test]
+fn temperatures_and_coefficients_refuse_other_units() {
+    for (flag, value) in [
+        ("--temp", "25V"),
+        ("--temp", "25K"),
+        ("--temp-min", "20A"),
+        ("--temp-max", "30F"),
+        ("--tj-max", "150A"),
+        ("--beta-tc", "0.5V"),
+    ] {
+        let mut a = vec!["limits", "--vcc", "12", flag, value];
+        a.extend(NPN);
+        let o = run(&a);
+        assert_eq!(o.status.code(), Some(2), "{flag} {value}: {}", stderr(&o));
+        let e = stderr(&o);
+        assert!(
+            e.contains(flag) && e.contains(value) && e.contains("allowed"),
+            "{e}"
+        );
+    }
+    // The field's own unit, and plain numbers, stay accepted.
+    for (flag, value) in [
+        ("--temp", "25°C"),
+        ("--temp", "-10"),
+        ("--temp-min", "24.9C"),
+        ("--beta-tc", "-0.2%"),
+    ] {
+        let mut a = vec!["limits", "--vcc", "12", flag, value];
+        a.extend(NPN);
+        let o = run(&a);
+        assert_eq!(o.status.code(), Some(0), "{flag} {value}: {}", stderr(&o));
+    }
+}

@@ -90,13 +90,14 @@ impl Cmd {
             let r1 = r.stage.r1.value;
             let r2 = r.stage.r2.value;
             eprintln!(
-                "biasjig: warning: the divider's Thévenin resistance R1 ‖ R2 = {} is {:.1} % of the \
-                 {} measuring inputs: they pull VB by about that fraction; the windows and the \
-                 diagnosis model them, but each input's own tolerance then moves VB too. Use \
-                 inputs of at least {} (100 × R1 ‖ R2) or buffered ones",
+                "biasjig: warning: the {} measuring inputs load the base divider: its Thévenin \
+                 resistance R1 ‖ R2 = {} is {:.1} % of theirs (more than 1 %), so they move VB \
+                 while it is read; the windows and the diagnosis model them, but each input's \
+                 own tolerance then moves VB too. Use inputs of at least {} (100 × R1 ‖ R2) or \
+                 buffered ones",
+                text::eng(rin, "Ω"),
                 text::eng(r1 * r2 / (r1 + r2), "Ω"),
                 100.0 * k,
-                text::eng(rin, "Ω"),
                 text::eng(100.0 * r1 * r2 / (r1 + r2), "Ω")
             );
         }
