@@ -94,8 +94,7 @@ pub fn signed_percent(text: &str) -> Result<f64, String> {
 /// temperature or a percentage has no SI prefix, and `25K` or `25V` must not pass for 25 °C).
 fn plain_number(t: &str) -> bool {
     !t.is_empty()
-        && t
-            .bytes()
+        && t.bytes()
             .all(|b| b.is_ascii_digit() || matches!(b, b'+' | b'-' | b'.' | b'e' | b'E'))
 }
 

@@ -179,8 +179,21 @@ fn a_tolerance_out_of_range_names_its_flag_and_value() {
 #[test]
 fn inputs_that_saturate_the_stage_are_warned_about() {
     let stage = [
-        "--pnp", "--vcc", "12", "--r1", "100k", "--r2", "470k", "--rc", "47k", "--re1", "1k",
-        "--re2", "8k2", "--input-r", "110k",
+        "--pnp",
+        "--vcc",
+        "12",
+        "--r1",
+        "100k",
+        "--r2",
+        "470k",
+        "--rc",
+        "47k",
+        "--re1",
+        "1k",
+        "--re2",
+        "8k2",
+        "--input-r",
+        "110k",
     ];
     let mut a = vec!["limits", "--json"];
     a.extend(stage);
@@ -269,8 +282,8 @@ fn the_check_screen_reads_right() {
     a.extend(["--vcc-nominal", "12"]);
     let text = stdout(&run(&a));
     assert!(
-        text.lines().any(|l| l.trim_start().starts_with("VCC")
-            && l.contains("window 11.4 V .. 12.6 V")),
+        text.lines()
+            .any(|l| l.trim_start().starts_with("VCC") && l.contains("window 11.4 V .. 12.6 V")),
         "{text}"
     );
     assert!(!text.contains("hFE -"), "{text}");

@@ -212,7 +212,10 @@ fn implausible_readings_are_refused_with_what_to_fix() {
     let v: Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v["verdict"], "refused", "{v}");
     assert!(
-        v["reason"].as_str().unwrap().contains("VC reads above the supply"),
+        v["reason"]
+            .as_str()
+            .unwrap()
+            .contains("VC reads above the supply"),
         "{v}"
     );
     let err = String::from_utf8_lossy(&out.stderr);

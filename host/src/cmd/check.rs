@@ -423,7 +423,9 @@ pub fn outcome_text(
                 ));
             }
             let dv = &v.derived;
-            let beta = dv.beta.map_or("not derived".to_string(), |b| format!("{b:.0}"));
+            let beta = dv
+                .beta
+                .map_or("not derived".to_string(), |b| format!("{b:.0}"));
             out.push_str(&format!(
                 "IC {}, IB {}, hFE {beta}, VBE {}, VCE {}, {}\n",
                 text::eng(dv.ic, "A"),
