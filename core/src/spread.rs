@@ -24,6 +24,7 @@
 use rand_core::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
+use crate::acnet::MidbandFixed;
 use crate::device::{Profile, ProfileError};
 use crate::signal::swing;
 use crate::solve::{solve, Conditions, Region, SolveError};
@@ -414,10 +415,10 @@ fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
     )
 }
 
-/// Midband gain v(load)/v(source EMF) of `stage` at `op` (one small-signal solve), or 0 when
-/// the network is singular or the transistor is not active.
-fn gain_of(stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
-    match crate::signal::source_gain(stage, &op.y) {
+/// Midband gain v(load)/v(source EMF) of `stage` at `op` (the midband network in closed form),
+/// or 0 when the network is singular.
+fn gain_of(fixed: &MidbandFixed, stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
+    match fixed.solve(stage, &op.y) {
         Some((g, _)) if g.is_finite() => g,
         _ => 0.0,
     }
@@ -430,10 +431,22 @@ fn evaluate(
     d: &Draw,
     signal: bool,
 ) -> Result<Sample, SolveError> {
+    let fixed = signal.then(|| MidbandFixed::new(stage));
+    evaluate_with(stage, profile, d, fixed.as_ref())
+}
+
+/// [`evaluate`] with the fixed part of the midband network worked out once (RS and RL do not
+/// vary): the gain when `signal` is given.
+fn evaluate_with(
+    stage: &Stage,
+    profile: &Profile,
+    d: &Draw,
+    signal: Option<&MidbandFixed>,
+) -> Result<Sample, SolveError> {
     let (s, cond) = apply(stage, d);
     let op = solve(&s, profile, cond)?;
     let (sw, _) = swing(&s, profile, &op);
-    let gain = if signal { gain_of(&s, &op) } else { 0.0 };
+    let gain = signal.map_or(0.0, |f| gain_of(f, &s, &op));
     Ok(Sample {
         values: Nodes {
             vb: op.vb,
@@ -750,7 +763,7 @@ impl Histogram {
             // In range, so the conversion is exact truncation below BINS.
             // A plain increment (this is the Monte Carlo's hot loop): a run's count is a u32, so
             // no bin of one run can pass u32::MAX.
-            if let Some(b) = self.bins.get_mut(pos as usize) {
+            if let Some(b) = self.bins.get_mut(pos as u32 as usize) {
                 *b = b.wrapping_add(1);
             }
         } else if v < self.lo {
@@ -1092,9 +1105,10 @@ pub fn monte_carlo_observed(
         nodes,
     };
     let mut dev = Deviates::new(settings.seed);
+    let fixed = signal.then(|| MidbandFixed::new(stage));
     for i in 0..settings.runs {
         let d = dev.draw(stage, &b, var.distribution);
-        match evaluate(stage, profile, &d, signal) {
+        match evaluate_with(stage, profile, &d, fixed.as_ref()) {
             Ok(s) => {
                 // Field by field: this is the hot loop of the run.
                 let (m, v) = (&mut mc.nodes, &s.values);
