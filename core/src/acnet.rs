@@ -254,12 +254,15 @@ impl MidbandFixed {
     /// v(OUT) and v(B) for a 1 V source EMF, with the bias resistors of `stage` and the
     /// transistor two-port `y` (see [`midband_source`]).
     pub(crate) fn solve(&self, stage: &Stage, y: &Admittance) -> Option<(f64, f64)> {
-        let g_bb = conductance(parallel(stage.r1.value, stage.r2.value)) + self.g_b_in;
+        // `conductance` of a value that is not NaN (a validated stage): 0 Ω a short, an open
+        // (infinite) resistor 1/∞ = 0, in one branch.
+        let g = |ohms: f64| if ohms > 0.0 { 1.0 / ohms } else { SHORT };
+        let g_bb = g(parallel(stage.r1.value, stage.r2.value)) + self.g_b_in;
         // Emitter: RE1 from E to X, RE2 and CE's short from X to ground.
-        let g_e1 = conductance(stage.re1.value);
-        let g_x = conductance(stage.re2.value) + SHORT;
+        let g_e1 = g(stage.re1.value);
+        let g_x = g(stage.re2.value) + SHORT;
         let g_ee = g_e1 * g_x / (g_e1 + g_x);
-        let g_cc = conductance(stage.rc.value) + self.g_c_out;
+        let g_cc = g(stage.rc.value) + self.g_c_out;
         // Nodal equations in vb, ve, vc (ib = y11·vbe + y12·vce, ic = y21·vbe + y22·vce):
         //   B: (g_bb + y11)·vb − (y11 + y12)·ve + y12·vc = i_b
         //   C: y21·vb − (y21 + y22)·ve + (g_cc + y22)·vc = 0

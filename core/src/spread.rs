@@ -395,26 +395,6 @@ fn draw_of(x: &[f64; FACTORS]) -> Draw {
     }
 }
 
-/// The stage and conditions of one draw.
-fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
-    let mut s = *stage;
-    let [r1, r2, rc, re1, re2] = d.r;
-    s.r1.value = r1;
-    s.r2.value = r2;
-    s.rc.value = rc;
-    s.re1.value = re1;
-    s.re2.value = re2;
-    s.vcc.value = d.vcc;
-    (
-        s,
-        Conditions {
-            temp_c: d.temp_c,
-            beta_25: d.beta_25,
-            fault: None,
-        },
-    )
-}
-
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (the midband network in closed form),
 /// or 0 when the network is singular.
 fn gain_of(fixed: &MidbandFixed, stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
@@ -443,10 +423,34 @@ fn evaluate_with(
     d: &Draw,
     signal: Option<&MidbandFixed>,
 ) -> Result<Sample, SolveError> {
-    let (s, cond) = apply(stage, d);
-    let op = solve(&s, profile, cond)?;
-    let (sw, _) = swing(&s, profile, &op);
-    let gain = signal.map_or(0.0, |f| gain_of(f, &s, &op));
+    let mut s = *stage;
+    evaluate_in(&mut s, profile, d, signal)
+}
+
+/// [`evaluate_with`] on a working copy of the stage (only the drawn values are written: the
+/// Monte Carlo's hot loop keeps one copy instead of copying the stage per sample).
+fn evaluate_in(
+    s: &mut Stage,
+    profile: &Profile,
+    d: &Draw,
+    signal: Option<&MidbandFixed>,
+) -> Result<Sample, SolveError> {
+    let [r1, r2, rc, re1, re2] = d.r;
+    s.r1.value = r1;
+    s.r2.value = r2;
+    s.rc.value = rc;
+    s.re1.value = re1;
+    s.re2.value = re2;
+    s.vcc.value = d.vcc;
+    let cond = Conditions {
+        temp_c: d.temp_c,
+        beta_25: d.beta_25,
+        fault: None,
+    };
+    let s = &*s;
+    let op = solve(s, profile, cond)?;
+    let (sw, _) = swing(s, profile, &op);
+    let gain = signal.map_or(0.0, |f| gain_of(f, s, &op));
     Ok(Sample {
         values: Nodes {
             vb: op.vb,
@@ -829,6 +833,12 @@ pub struct Stats {
     pub range: Range,
     /// Histogram over the worst-case range.
     pub histogram: Histogram,
+    /// The value the sums of [`Stats::add_sum`] are taken about (the histogram's centre).
+    shift: f64,
+    /// Sum of (value − shift).
+    s1: f64,
+    /// Sum of (value − shift)².
+    s2: f64,
 }
 
 impl Stats {
@@ -840,7 +850,49 @@ impl Stats {
             m2: 0.0,
             range: Range::EMPTY,
             histogram: Histogram::new(lo, hi),
+            shift: 0.5 * (lo + hi),
+            s1: 0.0,
+            s2: 0.0,
         }
+    }
+
+    /// Add one value to shifted sums instead of the running mean (non-finite values are
+    /// ignored): no division per value, for the Monte Carlo's hot loop; [`Stats::finish_sums`]
+    /// sets `mean` and the deviation afterwards. The sums are taken about the histogram's centre,
+    /// so nothing cancels for values inside the worst-case range.
+    #[inline]
+    pub fn add_sum(&mut self, v: f64) {
+        if v.is_finite() {
+            self.add_finite(v);
+        }
+    }
+
+    /// [`Stats::add_sum`] of a value known to be finite (a run counts at most `u32::MAX`
+    /// values).
+    #[inline(always)]
+    fn add_finite(&mut self, v: f64) {
+        self.count = self.count.wrapping_add(1);
+        let d = v - self.shift;
+        self.s1 += d;
+        self.s2 += d * d;
+        if v < self.range.min {
+            self.range.min = v;
+        }
+        if v > self.range.max {
+            self.range.max = v;
+        }
+        self.histogram.add(v);
+    }
+
+    /// The mean and the sum of squared deviations from the sums of [`Stats::add_sum`].
+    pub fn finish_sums(&mut self) {
+        if self.count == 0 {
+            return;
+        }
+        let n = f64::from(self.count);
+        let m = self.s1 / n;
+        self.mean = self.shift + m;
+        self.m2 = libm::fmax(0.0, self.s2 - m * self.s1);
     }
 
     /// Add one value (non-finite values are ignored).
@@ -1044,7 +1096,13 @@ impl Deviates {
             vary(stage.re1),
             vary(stage.re2),
         ];
-        let vcc = stage.vcc.value * (1.0 + stage.vcc.tol * self.deviation(dist));
+        // The same deviate as `deviation(dist)` (uniform: `symmetric`), without the call.
+        let dv = if uniform {
+            self.symmetric()
+        } else {
+            self.deviation(dist)
+        };
+        let vcc = stage.vcc.value * (1.0 + stage.vcc.tol * dv);
         let between = |d: &mut Self, k: usize| {
             let lo = b.lo.get(k).copied().unwrap_or(0.0);
             let hi = b.hi.get(k).copied().unwrap_or(0.0);
@@ -1106,21 +1164,33 @@ pub fn monte_carlo_observed(
     };
     let mut dev = Deviates::new(settings.seed);
     let fixed = signal.then(|| MidbandFixed::new(stage));
+    let mut scratch = *stage;
     for i in 0..settings.runs {
         let d = dev.draw(stage, &b, var.distribution);
-        match evaluate_with(stage, profile, &d, fixed.as_ref()) {
+        match evaluate_in(&mut scratch, profile, &d, fixed.as_ref()) {
             Ok(s) => {
-                // Field by field: this is the hot loop of the run.
+                // Field by field: this is the hot loop of the run. The solver's operating point
+                // is finite, the swing and the gain too: one check for all of them.
                 let (m, v) = (&mut mc.nodes, &s.values);
-                m.vb.add(v.vb);
-                m.ve.add(v.ve);
-                m.vc.add(v.vc);
-                m.vbe.add(v.vbe);
-                m.vce.add(v.vce);
-                m.ic.add(v.ic);
-                m.swing.add(v.swing);
-                if signal {
-                    m.gain.add(v.gain);
+                let finite =
+                    (v.vb + v.ve + v.vc + v.vbe + v.vce + v.ic + v.swing + v.gain).is_finite();
+                if finite {
+                    m.vb.add_finite(v.vb);
+                    m.ve.add_finite(v.ve);
+                    m.vc.add_finite(v.vc);
+                    m.vbe.add_finite(v.vbe);
+                    m.vce.add_finite(v.vce);
+                    m.ic.add_finite(v.ic);
+                    m.swing.add_finite(v.swing);
+                    if signal {
+                        m.gain.add_finite(v.gain);
+                    }
+                } else {
+                    for n in Node::ALL {
+                        if signal || n != Node::Gain {
+                            m.get_mut(n).add_sum(*v.get(n));
+                        }
+                    }
                 }
                 if s.region == Region::Active {
                     mc.active += 1;
@@ -1136,6 +1206,9 @@ pub fn monte_carlo_observed(
         if done % PROGRESS_EVERY == 0 || done == settings.runs {
             progress(done, settings.runs);
         }
+    }
+    for n in Node::ALL {
+        mc.nodes.get_mut(n).finish_sums();
     }
     Ok(mc)
 }
