@@ -39,7 +39,7 @@
 use std::path::Path;
 
 use biasjig_core::console::record::design_hash;
-use biasjig_core::design::Requirement;
+use biasjig_core::design::{Hold, Requirement};
 use biasjig_core::device::Profile;
 use biasjig_core::series::Series;
 use biasjig_core::stage::{Part, Polarity, Stage};
@@ -73,6 +73,8 @@ pub struct DesignDoc {
     pub series: [Option<Series>; 8],
     /// The predicted figures at nominal when the file was written.
     pub predicted: Option<Predicted>,
+    /// What the design holds over the spread when the file was written.
+    pub held: Option<HeldFigures>,
 }
 
 /// Figures predicted at nominal (SI units).
@@ -115,6 +117,8 @@ struct FileDoc {
     parts: FileParts,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     predicted: Option<Predicted>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    held: Option<HeldFigures>,
 }
 
 #[derive(Debug, Serialize, Deserialize)]
@@ -133,6 +137,26 @@ struct FileRequirement {
     tol: f64,
     cap_series: String,
     cap_tol: f64,
+    /// "worst-case" or "nominal" (absent in files of the first round: nominal).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    hold: Option<String>,
+    /// Gain tolerance, fraction (absent: the first round's 5 %).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    gain_tol: Option<f64>,
+}
+
+/// What the design holds at every corner of the spread when it was written (SI units).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct HeldFigures {
+    /// Least |gain| over the corners.
+    pub gain_min: f64,
+    /// Largest |gain| over the corners.
+    pub gain_max: f64,
+    /// Least peak-to-peak swing at the load over the corners, V.
+    pub swing_pp_min: f64,
+    /// Largest IC over the corners, A.
+    pub ic_max: f64,
 }
 
 #[derive(Debug, Serialize, Deserialize)]
@@ -354,6 +378,18 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
             q.tol = r.tol;
             q.cap_series = series_of(path, "requirement.cap_series", &r.cap_series)?;
             q.cap_tol = r.cap_tol;
+            if let Some(h) = &r.hold {
+                q.hold = Hold::parse(h).ok_or_else(|| {
+                    bad(
+                        path,
+                        "requirement.hold",
+                        format!("{h:?}: allowed: \"worst-case\" or \"nominal\""),
+                    )
+                })?;
+            }
+            if let Some(t) = r.gain_tol {
+                q.gain_tol = t;
+            }
             q.validate().map_err(|e| {
                 bad(
                     path,
@@ -376,6 +412,7 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
         requirement,
         series,
         predicted: f.predicted,
+        held: f.held,
     })
 }
 
@@ -407,6 +444,8 @@ pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
             tol: r.tol,
             cap_series: r.cap_series.name().to_string(),
             cap_tol: r.cap_tol,
+            hold: Some(r.hold.name().to_string()),
+            gain_tol: Some(r.gain_tol),
         }),
         transistor: FileTransistor {
             beta_min: doc.profile.beta_min,
@@ -443,6 +482,7 @@ pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
             ce: s.ce.map(|p| file_part(p, sr(7))),
         },
         predicted: doc.predicted,
+        held: doc.held,
     };
     toml::to_string(&f).map_err(|e| CliError::usage(format!("design file: cannot write: {e}")))
 }
