@@ -1136,6 +1136,7 @@ struct Mid {
 /// it. `None` when the engine finds no operating point or no signal path.
 fn evaluate(
     req: &Requirement,
+    real: &Requirement,
     profile: &Profile,
     r: [f64; 5],
     level: f64,
@@ -1312,7 +1313,7 @@ fn evaluate(
             est.gain_hi += d_g;
             est.swing_lo -= d_sw;
             let (terms, wc_miss) = worst_terms(
-                req,
+                real,
                 est.gain_lo,
                 est.gain_hi,
                 est.swing_lo,
@@ -1506,7 +1507,13 @@ fn around(series: Series, x: f64, steps: i32) -> heapless::Vec<f64, 5> {
 }
 
 /// The search around one first pass.
-fn search_level(req: &Requirement, profile: &Profile, ideal: &Ideal, best: &mut Best) {
+fn search_level(
+    req: &Requirement,
+    real: &Requirement,
+    profile: &Profile,
+    ideal: &Ideal,
+    best: &mut Best,
+) {
     let s = |r: Resistor| req.series_of(r);
     let near = |r: Resistor, x: f64| s(r).nearest(x).unwrap_or(x);
     let (r1n, r2n, re2n) = (
@@ -1533,6 +1540,7 @@ fn search_level(req: &Requirement, profile: &Profile, ideal: &Ideal, best: &mut 
         for re1 in around(s(Resistor::Re1), re1_exact, 1) {
             let Some(ev) = evaluate(
                 req,
+                real,
                 profile,
                 [r1n, r2n, rc, re1, re2n],
                 ideal.ic,
@@ -1562,6 +1570,7 @@ fn search_level(req: &Requirement, profile: &Profile, ideal: &Ideal, best: &mut 
                 for &re2 in re2s.iter() {
                     if let Some(ev) = evaluate(
                         req,
+                        real,
                         profile,
                         [r1, r2, rc, re1, re2],
                         ideal.ic,
@@ -1585,7 +1594,7 @@ const POLISH: usize = 4;
 
 /// Polish: around the best few part sets, every neighbour pair of RC and RE1 with their own
 /// bias resistors (the gain pair was chosen at the nominal divider, the bias may shift it).
-fn polish(req: &Requirement, profile: &Profile, best: &mut Best) {
+fn polish(req: &Requirement, real: &Requirement, profile: &Profile, best: &mut Best) {
     let seeds: heapless::Vec<Kept, POLISH> = best.list.iter().take(POLISH).copied().collect();
     for seed in seeds.iter() {
         let [r1, r2, rc0, re10, re2] = seed.r;
@@ -1598,6 +1607,7 @@ fn polish(req: &Requirement, profile: &Profile, best: &mut Best) {
                 }
                 if let Some(ev) = evaluate(
                     req,
+                    real,
                     profile,
                     [r1, r2, rc, re1, re2],
                     seed.level,
@@ -1787,6 +1797,43 @@ pub fn design_into(
     out.clear();
     req.validate().map_err(DesignError::Invalid)?;
     profile.validate().map_err(DesignError::Profile)?;
+    let first = search(req, req, profile, out);
+    // With the worst case asked, a gain window that is narrow enough but off centre: once more,
+    // aiming the nominal gain so that the corners' range centres on the requirement.
+    match first {
+        Err(DesignError::NotHeld {
+            check: Check::Gain,
+            gain_range: (lo, hi),
+            ..
+        }) if req.hold == Hold::WorstCase
+            && lo > 0.0
+            && hi - lo <= 2.0 * req.gain_tol * req.gain * RECENTRE_WIDTH =>
+        {
+            let mut aimed = *req;
+            aimed.gain = req.gain * 2.0 * req.gain / (lo + hi);
+            if aimed.validate().is_ok() && search(&aimed, req, profile, out).is_ok() {
+                return Ok(());
+            }
+            out.clear();
+            first
+        }
+        other => other,
+    }
+}
+
+/// A second, re-centred search is tried when the closest part set's gain range is at most this
+/// multiple of the window's width.
+const RECENTRE_WIDTH: f64 = 1.0;
+
+/// The search for `real`, aiming the nominal gain at `req.gain` (the same requirement, or one
+/// with its gain moved to centre the corners' range on `real`'s window).
+fn search(
+    req: &Requirement,
+    real: &Requirement,
+    profile: &Profile,
+    out: &mut Candidates,
+) -> Result<(), DesignError> {
+    out.clear();
     // Which ladder currents the hand method can work at (independent of the budget).
     let mut levels: heapless::Vec<(f64, Ideal), MAX_LEVELS> = heapless::Vec::new();
     let mut last_miss: Option<(f64, FirstPassMiss)> = None;
@@ -1860,9 +1907,9 @@ pub fn design_into(
         near: heapless::Vec::new(),
     };
     for ideal in threshold.iter().chain(levels.iter().map(|(_, i)| i)) {
-        search_level(req, profile, ideal, &mut best);
+        search_level(req, real, profile, ideal, &mut best);
     }
-    polish(req, profile, &mut best);
+    polish(req, real, profile, &mut best);
     let worst = req.hold == Hold::WorstCase;
     if best.list.is_empty() && !(worst && !best.near.is_empty()) {
         let (check, required, achieved) = best
@@ -1878,9 +1925,9 @@ pub fn design_into(
     // The closest part set that does not hold: its margin and what it holds.
     let mut closest: Option<(f64, Held)> = None;
     for kept in best.list.iter() {
-        match finish(req, profile, kept) {
+        match finish(req, real, profile, kept) {
             Ok(Finished::Holds(c)) => push_ranked(out, c),
-            Ok(Finished::Misses(h)) => note_closest(req, &mut closest, h),
+            Ok(Finished::Misses(h)) => note_closest(real, &mut closest, h),
             Err(e) => {
                 low_err.get_or_insert(e);
             }
@@ -1889,9 +1936,9 @@ pub fn design_into(
     if worst && out.is_empty() {
         // No kept set holds: the near misses of the estimate, judged at the exact corners.
         for kept in best.near.iter() {
-            match finish(req, profile, kept) {
+            match finish(req, real, profile, kept) {
                 Ok(Finished::Holds(c)) => push_ranked(out, c),
-                Ok(Finished::Misses(h)) => note_closest(req, &mut closest, h),
+                Ok(Finished::Misses(h)) => note_closest(real, &mut closest, h),
                 Err(e) => {
                     low_err.get_or_insert(e);
                 }
@@ -1902,13 +1949,13 @@ pub fn design_into(
         return Ok(());
     }
     if let Some((_, h)) = closest {
-        if let Some((check, required, held)) = h.binding(req) {
+        if let Some((check, required, held)) = h.binding(real) {
             return Err(DesignError::NotHeld {
                 check,
                 required,
                 held,
-                gain: req.gain,
-                gain_tol: req.gain_tol,
+                gain: real.gain,
+                gain_tol: real.gain_tol,
                 gain_range: (h.gain_min, h.gain_max),
             });
         }
@@ -1956,10 +2003,15 @@ const CAP_RETRIES: usize = 2;
 
 /// Re-analyse a kept part set, choose its capacitors and (with [`Hold::WorstCase`]) check it at
 /// every corner; the score of a held set is its own figures' with the exact worst case.
-fn finish(req: &Requirement, profile: &Profile, kept: &Kept) -> Result<Finished, DesignError> {
+fn finish(
+    req: &Requirement,
+    real: &Requirement,
+    profile: &Profile,
+    kept: &Kept,
+) -> Result<Finished, DesignError> {
     let f_req = req.f_low_or_default();
     // The same analysis that ranked the set (deterministic: the same figures, bit for bit).
-    let Some(ev) = evaluate(req, profile, kept.r, kept.level, f64::INFINITY, true) else {
+    let Some(ev) = evaluate(req, real, profile, kept.r, kept.level, f64::INFINITY, true) else {
         return Err(DesignError::Shortfall {
             check: Check::Region,
             required: 0.0,
@@ -1974,10 +2026,10 @@ fn finish(req: &Requirement, profile: &Profile, kept: &Kept) -> Result<Finished,
     loop {
         let (caps, f) = capacitors(req, &bare, &ev.op, scale)?;
         let stage = build(req, ev.r, caps);
-        let h = worst.then(|| held(req, profile, &stage));
+        let h = worst.then(|| held(real, profile, &stage));
         let mut score = ev.score;
         if let Some(h) = h {
-            match h.binding(req) {
+            match h.binding(real) {
                 Some((Check::LowCorner, _, got)) if tries < CAP_RETRIES && got > 0.0 => {
                     scale *= 0.98 * f_req / got;
                     tries += 1;
@@ -1987,7 +2039,7 @@ fn finish(req: &Requirement, profile: &Profile, kept: &Kept) -> Result<Finished,
                 None => {}
             }
             let (terms, _) = worst_terms(
-                req,
+                real,
                 h.gain_min,
                 h.gain_max,
                 h.swing_pp_min,
