@@ -952,13 +952,85 @@ impl Requirement {
 
     /// Whether a sample meets the requirement.
     pub fn met(&self, s: &Sample) -> bool {
-        let g = libm::fabs(s.values.gain);
-        s.region == Region::Active
-            && self.gain_min.is_none_or(|m| g >= m)
-            && self.gain_max.is_none_or(|m| g <= m)
-            && self.swing_min.is_none_or(|m| s.values.swing >= m)
-            && self.ic_max.is_none_or(|m| s.values.ic <= m)
+        self.each(s).all()
     }
+
+    /// Which requirements a sample meets, one by one (a requirement not given is met).
+    #[inline]
+    pub fn each(&self, s: &Sample) -> MetEach {
+        let g = libm::fabs(s.values.gain);
+        MetEach {
+            active: s.region == Region::Active,
+            gain: self.gain_min.is_none_or(|m| g >= m) && self.gain_max.is_none_or(|m| g <= m),
+            swing: self.swing_min.is_none_or(|m| s.values.swing >= m),
+            ic: self.ic_max.is_none_or(|m| s.values.ic <= m),
+        }
+    }
+}
+
+/// A requirement as plain bounds (a requirement not given is an infinite bound): the same
+/// judgement as [`Requirement::each`] for finite values, without the branches of the options.
+#[derive(Debug, Clone, Copy)]
+struct Bounds {
+    gain_min: f64,
+    gain_max: f64,
+    swing_min: f64,
+    ic_max: f64,
+}
+
+impl Bounds {
+    fn of(r: &Requirement) -> Self {
+        Self {
+            gain_min: r.gain_min.unwrap_or(f64::NEG_INFINITY),
+            gain_max: r.gain_max.unwrap_or(f64::INFINITY),
+            swing_min: r.swing_min.unwrap_or(f64::NEG_INFINITY),
+            ic_max: r.ic_max.unwrap_or(f64::INFINITY),
+        }
+    }
+
+    #[inline(always)]
+    fn each(&self, s: &Sample) -> MetEach {
+        let g = libm::fabs(s.values.gain);
+        MetEach {
+            active: s.region == Region::Active,
+            gain: (g >= self.gain_min) & (g <= self.gain_max),
+            swing: s.values.swing >= self.swing_min,
+            ic: s.values.ic <= self.ic_max,
+        }
+    }
+}
+
+/// Which requirements one sample meets.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct MetEach {
+    /// Forward active.
+    pub active: bool,
+    /// |gain| within the window.
+    pub gain: bool,
+    /// Swing at least the least asked.
+    pub swing: bool,
+    /// IC within the budget.
+    pub ic: bool,
+}
+
+impl MetEach {
+    /// Every requirement met.
+    pub fn all(&self) -> bool {
+        self.active && self.gain && self.swing && self.ic
+    }
+}
+
+/// Samples that met each requirement on its own.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct PassedEach {
+    /// Forward active.
+    pub active: u32,
+    /// |gain| within the window.
+    pub gain: u32,
+    /// Swing at least the least asked.
+    pub swing: u32,
+    /// IC within the budget.
+    pub ic: u32,
 }
 
 /// Monte Carlo settings.
@@ -996,6 +1068,8 @@ pub struct MonteCarlo {
     pub failed: u32,
     /// Samples that met the requirement.
     pub passed: u32,
+    /// Samples that met each requirement on its own.
+    pub passed_each: PassedEach,
     /// Samples with the transistor forward active.
     pub active: u32,
     /// Whether the gain statistics were computed.
@@ -1158,6 +1232,7 @@ pub fn monte_carlo_observed(
         runs: settings.runs,
         failed: 0,
         passed: 0,
+        passed_each: PassedEach::default(),
         active: 0,
         signal,
         nodes,
@@ -1165,6 +1240,7 @@ pub fn monte_carlo_observed(
     let mut dev = Deviates::new(settings.seed);
     let fixed = signal.then(|| MidbandFixed::new(stage));
     let mut scratch = *stage;
+    let bounds = Bounds::of(&settings.requirement);
     for i in 0..settings.runs {
         let d = dev.draw(stage, &b, var.distribution);
         match evaluate_in(&mut scratch, profile, &d, fixed.as_ref()) {
@@ -1192,12 +1268,14 @@ pub fn monte_carlo_observed(
                         }
                     }
                 }
-                if s.region == Region::Active {
-                    mc.active += 1;
-                }
-                if settings.requirement.met(&s) {
-                    mc.passed += 1;
-                }
+                let met = bounds.each(&s);
+                let each = &mut mc.passed_each;
+                each.active += u32::from(met.active);
+                each.gain += u32::from(met.gain);
+                each.swing += u32::from(met.swing);
+                each.ic += u32::from(met.ic);
+                mc.active += u32::from(met.active);
+                mc.passed += u32::from(met.all());
                 on_sample(&s);
             }
             Err(_) => mc.failed += 1,
