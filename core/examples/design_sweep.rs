@@ -25,6 +25,7 @@ fn holds(req: &Requirement, p: &Profile, stage: &Stage) -> bool {
             temp_c: if bit(6) { req.temp_max } else { req.temp_min },
             beta_25: if bit(5) { p.beta_max } else { p.beta_min },
             fault: None,
+            loads: biasjig_core::solve::NodeLoads::NONE,
         };
         let Ok(op) = solve(&s, p, cond) else { return false };
         let Ok(m) = midband(&s, p, &op) else { return false };

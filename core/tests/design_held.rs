@@ -33,6 +33,7 @@ fn corners(req: &Requirement, p: &Profile, stage: &Stage) -> (f64, f64, f64, f64
             temp_c: if bit(6) { req.temp_max } else { req.temp_min },
             beta_25: if bit(5) { p.beta_max } else { p.beta_min },
             fault: None,
+            loads: biasjig_core::solve::NodeLoads::NONE,
         };
         let Ok(op) = solve(&s, p, cond) else {
             out.4 = false;

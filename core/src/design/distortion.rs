@@ -45,6 +45,7 @@ pub fn second_harmonic(
         temp_c,
         beta_25: profile.beta_typ,
         fault: None,
+        loads: crate::solve::NodeLoads::NONE,
     };
     let op = solve(stage, profile, cond).ok()?;
     if op.region != Region::Active || !(swing_pp > 0.0) {

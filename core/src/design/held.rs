@@ -142,6 +142,7 @@ fn corner(
         temp_c: req.temp,
         beta_25: profile.beta_typ,
         fault: None,
+        loads: crate::solve::NodeLoads::NONE,
     };
     for (i, f) in factors.iter().enumerate() {
         let high = mask & (1 << i) != 0;
@@ -238,6 +239,7 @@ pub fn held(req: &Requirement, profile: &Profile, stage: &Stage) -> Held {
         temp_c: req.temp,
         beta_25: profile.beta_typ,
         fault: None,
+        loads: crate::solve::NodeLoads::NONE,
     };
     see(&mut h, stage, nominal);
     let n = 1u32 << factors.len();
