@@ -257,7 +257,9 @@ impl MidbandFixed {
         // `conductance` of a value that is not NaN (a validated stage): 0 Ω a short, an open
         // (infinite) resistor 1/∞ = 0, in one branch.
         let g = |ohms: f64| if ohms > 0.0 { 1.0 / ohms } else { SHORT };
-        let g_bb = g(parallel(stage.r1.value, stage.r2.value)) + self.g_b_in;
+        // R1 ‖ R2 as the sum of the two conductances (the same to rounding as the general
+        // solve's conductance of the parallel value, without its branches).
+        let g_bb = g(stage.r1.value) + g(stage.r2.value) + self.g_b_in;
         // Emitter: RE1 from E to X, RE2 and CE's short from X to ground.
         let g_e1 = g(stage.re1.value);
         let g_x = g(stage.re2.value) + SHORT;

@@ -465,32 +465,36 @@ fn evaluate_in(
         loads: crate::solve::NodeLoads::NONE,
     };
     let s = &*s;
-    let (op, ve, vc) = match inputs.common_loads() {
+    // The sample from the operating point and the emitter and collector as read (each branch
+    // builds it in place: no copy of the operating point).
+    let sample = |op: &crate::solve::OperatingPoint, ve: f64, vc: f64| {
+        let (sw, _) = swing(s, profile, op);
+        let gain = signal.map_or(0.0, |f| gain_of(f, s, op));
+        Sample {
+            values: Nodes {
+                vb: op.vb,
+                ve,
+                vc,
+                vbe: op.vb - ve,
+                vce: vc - ve,
+                ic: op.ic,
+                gain,
+                swing: sw,
+            },
+            region: op.region,
+        }
+    };
+    match inputs.common_loads() {
         Some(loads) => {
             let op = solve(s, profile, cond.loaded(loads))?;
-            (op, op.ve, op.vc)
+            Ok(sample(&op, op.ve, op.vc))
         }
         None => {
             let at = |n: ReadNode| solve(s, profile, cond.loaded(inputs.loads_reading(n)));
             let op = at(ReadNode::Base)?;
-            (op, at(ReadNode::Emitter)?.ve, at(ReadNode::Collector)?.vc)
+            Ok(sample(&op, at(ReadNode::Emitter)?.ve, at(ReadNode::Collector)?.vc))
         }
-    };
-    let (sw, _) = swing(s, profile, &op);
-    let gain = signal.map_or(0.0, |f| gain_of(f, s, &op));
-    Ok(Sample {
-        values: Nodes {
-            vb: op.vb,
-            ve,
-            vc,
-            vbe: op.vb - ve,
-            vce: vc - ve,
-            ic: op.ic,
-            gain,
-            swing: sw,
-        },
-        region: op.region,
-    })
+    }
 }
 
 fn validate(stage: &Stage, profile: &Profile, var: &Variation) -> Result<(), SpreadError> {
