@@ -785,6 +785,7 @@ mod tests {
             requirement: Some(req),
             series: [e24, e24, e24, e24, e24, e6, e6, e6],
             predicted: None,
+            held: None,
             test: TestSettings::DEFAULT,
             digest: String::new(),
         }
