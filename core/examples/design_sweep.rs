@@ -19,7 +19,11 @@ fn holds(req: &Requirement, p: &Profile, stage: &Stage) -> bool {
             .into_iter()
             .enumerate()
         {
-            part.value *= if bit(k as u32) { 1.0 + part.tol } else { 1.0 - part.tol };
+            part.value *= if bit(k as u32) {
+                1.0 + part.tol
+            } else {
+                1.0 - part.tol
+            };
         }
         let cond = Conditions {
             temp_c: if bit(6) { req.temp_max } else { req.temp_min },
@@ -27,8 +31,12 @@ fn holds(req: &Requirement, p: &Profile, stage: &Stage) -> bool {
             fault: None,
             loads: biasjig_core::solve::NodeLoads::NONE,
         };
-        let Ok(op) = solve(&s, p, cond) else { return false };
-        let Ok(m) = midband(&s, p, &op) else { return false };
+        let Ok(op) = solve(&s, p, cond) else {
+            return false;
+        };
+        let Ok(m) = midband(&s, p, &op) else {
+            return false;
+        };
         let g = m.gain.abs();
         if op.region != Region::Active
             || g < req.gain * (1.0 - req.gain_tol) * (1.0 - 1e-9)
@@ -70,8 +78,8 @@ fn main() {
                             r.temp_min = -10.0;
                             r.temp_max = 55.0;
                             n += 1;
-                                let t = by_tol.entry((tol * 100.0).round() as u32).or_default();
-                                t.0 += 1;
+                            let t = by_tol.entry((tol * 100.0).round() as u32).or_default();
+                            t.0 += 1;
                             match design(&r, &p) {
                                 Ok(c) => {
                                     t.1 += 1;
@@ -83,7 +91,11 @@ fn main() {
                                     }
                                 }
                                 Err(e) => {
-                                    if let DesignError::NotHeld { gain_range: (lo, hi), .. } = e {
+                                    if let DesignError::NotHeld {
+                                        gain_range: (lo, hi),
+                                        ..
+                                    } = e
+                                    {
                                         if std::env::var("SWEEP_VERBOSE").is_ok() {
                                             println!("refused {pnp} {vcc} {gain} {tol} {rl} {swing}: {:.1} {:.1} % ({e})", (lo / gain - 1.0) * 100.0, (hi / gain - 1.0) * 100.0);
                                         }
@@ -92,7 +104,12 @@ fn main() {
                                         DesignError::NotHeld { check, .. } => {
                                             format!("not held: {}", check.name())
                                         }
-                                        other => other.to_string().split(':').next().unwrap_or("").to_string(),
+                                        other => other
+                                            .to_string()
+                                            .split(':')
+                                            .next()
+                                            .unwrap_or("")
+                                            .to_string(),
                                     };
                                     *refused.entry(key).or_default() += 1;
                                 }

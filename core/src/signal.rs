@@ -6,9 +6,9 @@
 //! two-port taken from the junction model at the operating point (gm, rπ, ro and the tiny
 //! feedback term all follow from the same Ebers-Moll equations that set the bias).
 
-use crate::acnet::{self, Setup, IN, OUT};
 #[cfg(test)]
 use crate::acnet::B;
+use crate::acnet::{self, Setup, IN, OUT};
 use crate::device::Profile;
 use crate::solve::{OperatingPoint, Region};
 use crate::stage::{Polarity, Stage};

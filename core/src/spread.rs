@@ -492,7 +492,11 @@ fn evaluate_in(
         None => {
             let at = |n: ReadNode| solve(s, profile, cond.loaded(inputs.loads_reading(n)));
             let op = at(ReadNode::Base)?;
-            Ok(sample(&op, at(ReadNode::Emitter)?.ve, at(ReadNode::Collector)?.vc))
+            Ok(sample(
+                &op,
+                at(ReadNode::Emitter)?.ve,
+                at(ReadNode::Collector)?.vc,
+            ))
         }
     }
 }

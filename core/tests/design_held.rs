@@ -185,7 +185,10 @@ fn gain_within_one_percent_with_5_percent_parts_is_refused_naming_the_gain() {
         other => panic!("{other}"),
     }
     let msg = e.to_string();
-    assert!(msg.starts_with("gain:") && msg.contains("--gain-tol"), "{msg}");
+    assert!(
+        msg.starts_with("gain:") && msg.contains("--gain-tol"),
+        "{msg}"
+    );
 }
 
 #[test]
@@ -286,5 +289,8 @@ fn first_pass_reproduces_malvino_emitter_voltage_rule_and_held_design_is_stiffer
     let c = design(&req, &p).unwrap_or_else(|e| panic!("{e}"));
     let h = c[0].held.unwrap();
     assert!(h.ic_max <= 12e-3 && h.active, "{h:?}");
-    assert!(h.ic_max / h.ic_min < by_book.ic_max / by_book.ic_min, "{h:?} {by_book:?}");
+    assert!(
+        h.ic_max / h.ic_min < by_book.ic_max / by_book.ic_min,
+        "{h:?} {by_book:?}"
+    );
 }

@@ -145,7 +145,10 @@ fn histogram(
             )?
             .label("requirement")
             .legend(|(x, y)| {
-                PathElement::new(vec![(x, y), (x + 16, y)], RGBColor(230, 120, 0).stroke_width(2))
+                PathElement::new(
+                    vec![(x, y), (x + 16, y)],
+                    RGBColor(230, 120, 0).stroke_width(2),
+                )
             });
     }
     chart

@@ -109,7 +109,11 @@ fn ten_percent_on_the_demo_is_refused_with_figures() {
     args.push("--hold");
     args.push("nominal");
     let out = run(&args);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
 }
 
 #[test]
@@ -121,7 +125,11 @@ fn supply_24v_gain_10_at_300ua_into_47k_is_designed() {
     let mut args = base.to_vec();
     args.extend_from_slice(&["--hold", "nominal"]);
     let out = run(&args);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let c = &v["candidates"][0];
     assert!(c["predicted"]["dc"]["ic"].as_f64().unwrap() <= 300e-6);
@@ -129,7 +137,11 @@ fn supply_24v_gain_10_at_300ua_into_47k_is_designed() {
     assert!((g / 10.0 - 1.0).abs() <= 0.10, "{g}");
     // Held at every corner too (fixed hFE and ambient by default: the resistor corners).
     let out = run(&base);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let h = &v["candidates"][0]["held"];
     assert!(h["ic_max"].as_f64().unwrap() <= 300e-6);
@@ -140,7 +152,15 @@ fn supply_24v_gain_10_at_300ua_into_47k_is_designed() {
 fn impossible_gain_tolerance_is_refused_naming_the_gain() {
     // Gain ±1 % with 5 % resistors: the ratio RC‖RL/RE1 alone moves several percent.
     let out = run(&[
-        "design", "--vcc", "12", "--gain", "10", "--rl", "22k", "--gain-tol", "1",
+        "design",
+        "--vcc",
+        "12",
+        "--gain",
+        "10",
+        "--rl",
+        "22k",
+        "--gain-tol",
+        "1",
     ]);
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);

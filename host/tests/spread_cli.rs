@@ -220,11 +220,37 @@ fn spread_of_a_design_follows_its_ambient_and_requirement() {
     let file = dir.join("d.toml");
     let f = file.to_str().unwrap();
     let out = run(&[
-        "design", "--vcc", "12", "--gain", "15", "--gain-tol", "12", "--rl", "15k", "--rs",
-        "600", "--temp-min", "-10", "--temp-max", "55", "--beta", "180", "--beta-min", "100",
-        "--beta-max", "300", "--swing", "1", "-o", f,
+        "design",
+        "--vcc",
+        "12",
+        "--gain",
+        "15",
+        "--gain-tol",
+        "12",
+        "--rl",
+        "15k",
+        "--rs",
+        "600",
+        "--temp-min",
+        "-10",
+        "--temp-max",
+        "55",
+        "--beta",
+        "180",
+        "--beta-min",
+        "100",
+        "--beta-max",
+        "300",
+        "--swing",
+        "1",
+        "-o",
+        f,
     ]);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let v = json_of(&["spread", "--design", f, "--runs", "400", "--json"]);
     // The design's ambient range, not 25 °C alone.
     assert_eq!(v["temperature"]["min"], -10.0);
@@ -245,7 +271,14 @@ fn spread_of_a_design_follows_its_ambient_and_requirement() {
     // A tighter window given on the command line replaces the design's; the text report draws
     // the requirement's lines under the histograms.
     let v = json_of(&[
-        "spread", "--design", f, "--runs", "400", "--json", "--gain-min", "14.9",
+        "spread",
+        "--design",
+        f,
+        "--runs",
+        "400",
+        "--json",
+        "--gain-min",
+        "14.9",
     ]);
     assert!(v["yield"]["fraction"].as_f64().unwrap() < 1.0);
     let out = run(&["spread", "--design", f, "--runs", "200"]);

@@ -1913,7 +1913,7 @@ fn search(
     }
     polish(req, real, profile, &mut best);
     let worst = req.hold == Hold::WorstCase;
-    if best.list.is_empty() && !(worst && !best.near.is_empty()) {
+    if best.list.is_empty() && (!worst || best.near.is_empty()) {
         let (check, required, achieved) = best
             .closest_miss
             .map_or((Check::Region, 0.0, 0.0), |(_, m)| m);
@@ -1970,6 +1970,10 @@ fn search(
 }
 
 /// A kept part set, finished.
+#[expect(
+    clippy::large_enum_variant,
+    reason = "a short-lived return value, moved once into the list; no allocation in core"
+)]
 enum Finished {
     /// With capacitors, holding every requirement (at every corner with [`Hold::WorstCase`]).
     Holds(Candidate),
@@ -2040,14 +2044,8 @@ fn finish(
                 Some(_) => return Ok(Finished::Misses(h)),
                 None => {}
             }
-            let (terms, _) = worst_terms(
-                real,
-                h.gain_min,
-                h.gain_max,
-                h.swing_pp_min,
-                h.ic_max,
-                0.0,
-            );
+            let (terms, _) =
+                worst_terms(real, h.gain_min, h.gain_max, h.swing_pp_min, h.ic_max, 0.0);
             score = ev.base + terms;
         }
         let mut margins = ev.margins;

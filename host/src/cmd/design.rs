@@ -7,8 +7,7 @@ use std::path::PathBuf;
 use biasjig_core::design::distortion::{second_harmonic, Distortion, HD2_LIMIT};
 use biasjig_core::design::warnings::{warnings, Warning};
 use biasjig_core::design::{
-    design, held, Candidate, DesignError, Held, Hold, Requirement, RequirementError,
-    MAX_CANDIDATES,
+    design, held, Candidate, DesignError, Held, Hold, Requirement, RequirementError, MAX_CANDIDATES,
 };
 use biasjig_core::predict::{predict, Prediction};
 use biasjig_core::series::Series;
@@ -237,7 +236,11 @@ impl Cmd {
         if let (Some(path), Some(best), Some(p), Some(x)) =
             (&self.output, shown.first(), preds.first(), extras.first())
         {
-            designfile::save(path, &self.doc(&req, &profile, best, p, &x.held), self.force)?;
+            designfile::save(
+                path,
+                &self.doc(&req, &profile, best, p, &x.held),
+                self.force,
+            )?;
             if !g.json {
                 eprintln!("biasjig: wrote the best candidate to {}", path.display());
             }
@@ -381,7 +384,8 @@ impl Cmd {
             s,
             "Held: {} (gain within ±{} %{})",
             match req.hold {
-                Hold::WorstCase => "at every corner of the resistor tolerance, hFE min..max and the ambient range",
+                Hold::WorstCase =>
+                    "at every corner of the resistor tolerance, hFE min..max and the ambient range",
                 Hold::Nominal => "at the nominal point (worst case shown beside it)",
             },
             fmt_pct(req.gain_tol),
@@ -483,21 +487,19 @@ impl Cmd {
         });
         row("transistor power", &|c| eng(c.transistor_power, "W"));
         row("2nd harmonic", &|c| {
-            x_of(c)
-                .and_then(|x| x.distortion)
-                .map_or("-".into(), |d| {
-                    format!(
-                        "{:.1} %{}",
-                        100.0 * d.hd2,
-                        if d.clips {
-                            " CLIPS"
-                        } else if d.hd2 > HD2_LIMIT {
-                            " HIGH"
-                        } else {
-                            ""
-                        }
-                    )
-                })
+            x_of(c).and_then(|x| x.distortion).map_or("-".into(), |d| {
+                format!(
+                    "{:.1} %{}",
+                    100.0 * d.hd2,
+                    if d.clips {
+                        " CLIPS"
+                    } else if d.hd2 > HD2_LIMIT {
+                        " HIGH"
+                    } else {
+                        ""
+                    }
+                )
+            })
         });
         row("  at swing p-p", &|c| {
             x_of(c)

@@ -209,9 +209,7 @@ impl Cmd {
                 temps.temp_max = Some(d.temp_max);
             }
         }
-        let mut var = temps
-            .variation(r.temp_c)?
-            .read_through(r.settings.inputs);
+        let mut var = temps.variation(r.temp_c)?.read_through(r.settings.inputs);
         if let Some(k) = self.normal {
             if !(k.is_finite() && (0.5..=10.0).contains(&k)) {
                 return Err(CliError::field(
@@ -233,8 +231,7 @@ impl Cmd {
         let req = self.requirement_from(design_req.as_ref())?;
         r.stage.validate().map_err(|e| stage_error(&r.stage, e))?;
         let low = design_req.and_then(|d| {
-            let has_caps =
-                r.stage.cin.is_some() || r.stage.cout.is_some() || r.stage.ce.is_some();
+            let has_caps = r.stage.cin.is_some() || r.stage.cout.is_some() || r.stage.ce.is_some();
             has_caps.then(|| {
                 let mut d = d;
                 d.temp_min = var.temp_min_c;
