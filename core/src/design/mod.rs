@@ -34,9 +34,20 @@
 //! part sets with their own bias resistors. Levels depend on the requirement alone and are cut
 //! off at the budget, so a larger budget only adds part sets: the best score never gets worse.
 //!
-//! Cost: one E24 design is about 1 400 exact solves (1.4 Newton iterations each), 600 gain
-//! solves of the small-signal network and 6.5 M instructions on x86-64 (demo scenario; see the
-//! `design` bench).
+//! **Held over the spread** ([`Hold::WorstCase`]): every requirement must hold at every corner of
+//! the resistor tolerance, hFE min..max and the ambient range. The search then ranks part sets by
+//! a cheap bound of their worst case (the hFE and ambient ends solved, each resistor's effect at
+//! +tol added in the unfavourable direction: five more solves per competitive set) and its margins
+//! (gain window centred, swing and IC budget with room); the best [`MAX_CANDIDATES`] are confirmed
+//! with the exact engine at every corner ([`held`], up to 129 solves each, the capacitors chosen
+//! for their low tolerance) and ranked by the exact worst case. When the closest set's gain range
+//! fits the window but off centre, a second search aims the nominal gain to centre it. A
+//! requirement that no set holds is refused as [`DesignError::NotHeld`] with the closest set's
+//! figures. [`Hold::Nominal`] is the first round's design at the nominal point.
+//!
+//! Cost: a nominal E24 design is about 1 400 exact solves (1.4 Newton iterations each) and 6.5 M
+//! instructions on x86-64 (demo scenario); held at every corner, 8.9 M (the `design` bench); the
+//! dearest of our ±10 % sweep (a refusal after the re-centred search) about 18.5 M.
 
 #![expect(
     clippy::neg_cmp_op_on_partial_ord,
@@ -1799,7 +1810,7 @@ pub fn design_into(
     out.clear();
     req.validate().map_err(DesignError::Invalid)?;
     profile.validate().map_err(DesignError::Profile)?;
-    let first = search(req, req, profile, out);
+    let first = search(req, req, profile, MAX_CANDIDATES, out);
     // With the worst case asked, a gain window that is narrow enough but off centre: once more,
     // aiming the nominal gain so that the corners' range centres on the requirement.
     match first {
@@ -1813,7 +1824,9 @@ pub fn design_into(
         {
             let mut aimed = *req;
             aimed.gain = req.gain * 2.0 * req.gain / (lo + hi);
-            if aimed.validate().is_ok() && search(&aimed, req, profile, out).is_ok() {
+            if aimed.validate().is_ok()
+                && search(&aimed, req, profile, RECENTRED_FINALISTS, out).is_ok()
+            {
                 return Ok(());
             }
             out.clear();
@@ -1822,6 +1835,10 @@ pub fn design_into(
         other => other,
     }
 }
+
+/// How many of the re-centred search's best part sets go to the exact corners (its cost stays
+/// within the design's budget of instructions).
+const RECENTRED_FINALISTS: usize = 4;
 
 /// A second, re-centred search is tried when the closest part set's gain range is at most this
 /// multiple of the window's width.
@@ -1833,6 +1850,7 @@ fn search(
     req: &Requirement,
     real: &Requirement,
     profile: &Profile,
+    finalists: usize,
     out: &mut Candidates,
 ) -> Result<(), DesignError> {
     out.clear();
@@ -1926,7 +1944,7 @@ fn search(
     let mut low_err = None;
     // The closest part set that does not hold: its margin and what it holds.
     let mut closest: Option<(f64, Held)> = None;
-    for kept in best.list.iter() {
+    for kept in best.list.iter().take(finalists) {
         match finish(req, real, profile, kept) {
             Ok(Finished::Holds(c)) => push_ranked(out, c),
             Ok(Finished::Misses(h)) => note_closest(real, &mut closest, h),
@@ -1935,7 +1953,7 @@ fn search(
             }
         }
     }
-    if worst && out.is_empty() {
+    if worst && out.is_empty() && finalists == MAX_CANDIDATES {
         // No kept set holds: the near misses of the estimate, judged at the exact corners.
         for kept in best.near.iter() {
             match finish(req, real, profile, kept) {
