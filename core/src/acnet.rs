@@ -254,6 +254,23 @@ impl MidbandFixed {
     /// v(OUT) and v(B) for a 1 V source EMF, with the bias resistors of `stage` and the
     /// transistor two-port `y` (see [`midband_source`]).
     pub(crate) fn solve(&self, stage: &Stage, y: &Admittance) -> Option<(f64, f64)> {
+        let (k, c11, c13) = self.cofactors(stage, y)?;
+        let vb = k * c11;
+        let v_out = k * c13 * self.out_ratio;
+        (v_out.is_finite() && vb.is_finite()).then_some((v_out, vb))
+    }
+
+    /// v(OUT) alone for a 1 V source EMF (see [`MidbandFixed::solve`]; the same number).
+    #[inline]
+    pub(crate) fn gain(&self, stage: &Stage, y: &Admittance) -> Option<f64> {
+        let (k, _, c13) = self.cofactors(stage, y)?;
+        let v_out = k * c13 * self.out_ratio;
+        v_out.is_finite().then_some(v_out)
+    }
+
+    /// i_b/det and the first-row cofactors C11 (for v(B)) and C13 (for v(C)) of the 3×3 system.
+    #[inline(always)]
+    fn cofactors(&self, stage: &Stage, y: &Admittance) -> Option<(f64, f64, f64)> {
         // `conductance` of a value that is not NaN (a validated stage): 0 Ω a short, an open
         // (infinite) resistor 1/∞ = 0, in one branch.
         let g = |ohms: f64| if ohms > 0.0 { 1.0 / ohms } else { SHORT };
@@ -281,10 +298,7 @@ impl MidbandFixed {
         if !(det.is_finite() && det != 0.0) {
             return None;
         }
-        let k = self.i_b / det;
-        let vb = k * c11;
-        let v_out = k * c13 * self.out_ratio;
-        (v_out.is_finite() && vb.is_finite()).then_some((v_out, vb))
+        Some((self.i_b / det, c11, c13))
     }
 }
 

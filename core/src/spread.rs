@@ -409,10 +409,7 @@ fn draw_of(x: &[f64; FACTORS]) -> Draw {
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (the midband network in closed form),
 /// or 0 when the network is singular.
 fn gain_of(fixed: &MidbandFixed, stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
-    match fixed.solve(stage, &op.y) {
-        Some((g, _)) if g.is_finite() => g,
-        _ => 0.0,
-    }
+    fixed.gain(stage, &op.y).unwrap_or(0.0)
 }
 
 /// Evaluate one draw as read through `inputs`: one exact solve (three when each node is read
@@ -824,21 +821,24 @@ impl Histogram {
     /// Count one value (a bin counts at most `u32::MAX` values: one run's worth).
     pub fn add(&mut self, v: f64) {
         let pos = (v - self.lo) * self.scale;
-        if pos >= 0.0 && pos < BINS as f64 {
-            // In range, so the conversion is exact truncation below BINS.
-            // A plain increment (this is the Monte Carlo's hot loop): a run's count is a u32, so
-            // no bin of one run can pass u32::MAX.
+        if pos >= 0.0 {
+            // At or above the low edge: the bin by truncation (a position past the last bin, or
+            // too large for u32, finds no bin). A plain increment (this is the Monte Carlo's hot
+            // loop): a run's count is a u32, so no bin of one run can pass u32::MAX.
             if let Some(b) = self.bins.get_mut(pos as u32 as usize) {
                 *b = b.wrapping_add(1);
+            } else if v <= self.hi {
+                // v == hi (or within rounding of it): the last bin is closed.
+                if let Some(b) = self.bins.last_mut() {
+                    *b = b.saturating_add(1);
+                }
+            } else {
+                self.above = self.above.saturating_add(1);
             }
         } else if v < self.lo {
             self.below = self.below.saturating_add(1);
-        } else if v <= self.hi {
-            // v == hi (or within rounding of it): the last bin is closed.
-            if let Some(b) = self.bins.last_mut() {
-                *b = b.saturating_add(1);
-            }
         } else {
+            // NaN.
             self.above = self.above.saturating_add(1);
         }
     }
@@ -924,15 +924,15 @@ impl Stats {
     #[inline]
     pub fn add_sum(&mut self, v: f64) {
         if v.is_finite() {
-            self.add_finite(v);
+            self.count = self.count.saturating_add(1);
+            self.add_uncounted(v);
         }
     }
 
-    /// [`Stats::add_sum`] of a value known to be finite (a run counts at most `u32::MAX`
-    /// values).
+    /// [`Stats::add_sum`] of a value known to be finite, without counting it: the Monte Carlo
+    /// counts its finite samples once and adds them with [`Stats::count_more`].
     #[inline(always)]
-    fn add_finite(&mut self, v: f64) {
-        self.count = self.count.wrapping_add(1);
+    fn add_uncounted(&mut self, v: f64) {
         let d = v - self.shift;
         self.s1 += d;
         self.s2 += d * d;
@@ -943,6 +943,11 @@ impl Stats {
             self.range.max = v;
         }
         self.histogram.add(v);
+    }
+
+    /// Count `n` more values (added with `add_uncounted`).
+    fn count_more(&mut self, n: u32) {
+        self.count = self.count.saturating_add(n);
     }
 
     /// The mean and the sum of squared deviations from the sums of [`Stats::add_sum`].
@@ -1302,6 +1307,8 @@ pub fn monte_carlo_observed(
     let fixed = signal.then(|| MidbandFixed::new(stage));
     let mut scratch = *stage;
     let bounds = Bounds::of(&settings.requirement);
+    // Samples whose every value was finite (counted once for all the nodes).
+    let mut finite_samples: u32 = 0;
     for i in 0..settings.runs {
         let d = dev.draw(stage, &b, var.distribution);
         match evaluate_in(&mut scratch, profile, &d, fixed.as_ref(), &var.inputs) {
@@ -1312,15 +1319,16 @@ pub fn monte_carlo_observed(
                 let finite =
                     (v.vb + v.ve + v.vc + v.vbe + v.vce + v.ic + v.swing + v.gain).is_finite();
                 if finite {
-                    m.vb.add_finite(v.vb);
-                    m.ve.add_finite(v.ve);
-                    m.vc.add_finite(v.vc);
-                    m.vbe.add_finite(v.vbe);
-                    m.vce.add_finite(v.vce);
-                    m.ic.add_finite(v.ic);
-                    m.swing.add_finite(v.swing);
+                    finite_samples += 1;
+                    m.vb.add_uncounted(v.vb);
+                    m.ve.add_uncounted(v.ve);
+                    m.vc.add_uncounted(v.vc);
+                    m.vbe.add_uncounted(v.vbe);
+                    m.vce.add_uncounted(v.vce);
+                    m.ic.add_uncounted(v.ic);
+                    m.swing.add_uncounted(v.swing);
                     if signal {
-                        m.gain.add_finite(v.gain);
+                        m.gain.add_uncounted(v.gain);
                     }
                 } else {
                     for n in Node::ALL {
@@ -1347,7 +1355,11 @@ pub fn monte_carlo_observed(
         }
     }
     for n in Node::ALL {
-        mc.nodes.get_mut(n).finish_sums();
+        let st = mc.nodes.get_mut(n);
+        if signal || n != Node::Gain {
+            st.count_more(finite_samples);
+        }
+        st.finish_sums();
     }
     Ok(mc)
 }
