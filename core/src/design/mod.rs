@@ -46,7 +46,7 @@
 //! figures. [`Hold::Nominal`] is the first round's design at the nominal point.
 //!
 //! Cost: a nominal E24 design is about 1 400 exact solves (1.4 Newton iterations each) and 6.5 M
-//! instructions on x86-64 (demo scenario); held at every corner, 8.9 M (the `design` bench); the
+//! instructions on x86-64 (demo scenario); held at every corner, 8.8 M (the `design` bench); the
 //! dearest of our ±10 % sweep (a refusal after the re-centred search) about 18.5 M.
 
 #![expect(
