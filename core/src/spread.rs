@@ -407,7 +407,9 @@ fn draw_of(x: &[f64; FACTORS]) -> Draw {
 }
 
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (the midband network in closed form),
-/// or 0 when the network is singular.
+/// or 0 when the network is singular. (Out of line: one copy in flash, and its storage stays
+/// out of every evaluation's frame on the instrument.)
+#[inline(never)]
 fn gain_of(fixed: &MidbandFixed, stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
     fixed.gain(stage, &op.y).unwrap_or(0.0)
 }
@@ -487,15 +489,25 @@ fn evaluate_in(
             Ok(sample(&op, op.ve, op.vc))
         }
         None => {
-            let at = |n: ReadNode| solve(s, profile, cond.loaded(inputs.loads_reading(n)));
-            let op = at(ReadNode::Base)?;
-            Ok(sample(
-                &op,
-                at(ReadNode::Emitter)?.ve,
-                at(ReadNode::Collector)?.vc,
-            ))
+            let (op, ve, vc) = one_at_a_time(s, profile, cond, inputs)?;
+            Ok(sample(&op, ve, vc))
         }
     }
+}
+
+/// Each node read with only its own input attached: the operating point with the base's, and the
+/// emitter and collector voltages with theirs. (Out of line, so that its three solves do not
+/// enlarge every evaluation's stack frame on the instrument.)
+#[inline(never)]
+fn one_at_a_time(
+    s: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    inputs: &Inputs,
+) -> Result<(crate::solve::OperatingPoint, f64, f64), SolveError> {
+    let at = |n: ReadNode| solve(s, profile, cond.loaded(inputs.loads_reading(n)));
+    let op = at(ReadNode::Base)?;
+    Ok((op, at(ReadNode::Emitter)?.ve, at(ReadNode::Collector)?.vc))
 }
 
 fn validate(stage: &Stage, profile: &Profile, var: &Variation) -> Result<(), SpreadError> {
