@@ -407,9 +407,8 @@ fn draw_of(x: &[f64; FACTORS]) -> Draw {
 }
 
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (the midband network in closed form),
-/// or 0 when the network is singular. (Out of line: one copy in flash, and its storage stays
-/// out of every evaluation's frame on the instrument.)
-#[inline(never)]
+/// or 0 when the network is singular. (Inline: the closed form keeps a dozen numbers, not the
+/// general solve's 6×6 complex matrix, so it adds little to an evaluation's frame.)
 fn gain_of(fixed: &MidbandFixed, stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
     fixed.gain(stage, &op.y).unwrap_or(0.0)
 }
