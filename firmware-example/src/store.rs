@@ -153,6 +153,27 @@ pub struct RamFlash<'a> {
     mem: &'a mut [u8],
 }
 
+/// Marks a [`RamFlash`] memory as formatted (erased once): RAM comes up zero (or arbitrary),
+/// which is not an erased flash.
+pub const RAM_FLASH_MAGIC: [u8; 16] = *b"biasjig-nor-v1\0\0";
+
+impl<'a> RamFlash<'a> {
+    /// The model over `mem`, of which the last [`RAM_PAGE`] holds the format mark: when the
+    /// mark is missing (first power-up), the rest is erased and the mark written. The flash is
+    /// then `mem` less that page.
+    pub fn formatted(mem: &'a mut [u8]) -> Self {
+        let split = mem.len().saturating_sub(RAM_PAGE);
+        let (flash, mark) = mem.split_at_mut(split);
+        if let Some(m) = mark.get_mut(..RAM_FLASH_MAGIC.len()) {
+            if *m != RAM_FLASH_MAGIC {
+                flash.fill(0xFF);
+                m.copy_from_slice(&RAM_FLASH_MAGIC);
+            }
+        }
+        RamFlash { mem: flash }
+    }
+}
+
 /// A misuse of the flash model (what a real flash would refuse too).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum RamFlashError {

@@ -331,3 +331,21 @@ fn ram_flash_behaves_as_nor() {
     drop(s);
     assert!(FlashStore::new(RamFlash::new(&mut mem), 0..RAM_PAGE as u32).is_err());
 }
+
+#[test]
+fn ram_flash_is_erased_once_on_first_power_up_and_kept_after() {
+    let mut mem = vec![0u8; 8 * RAM_PAGE];
+    {
+        let f = RamFlash::formatted(&mut mem);
+        assert_eq!(f.capacity(), 7 * RAM_PAGE);
+        let mut s = FlashStore::new(f, 0..(7 * RAM_PAGE) as u32).unwrap();
+        s.save(Slot::Settings, &record(Slot::Settings, 3)).unwrap();
+    }
+    assert!(mem[..7 * RAM_PAGE].iter().any(|&b| b != 0xFF));
+    assert_eq!(&mem[7 * RAM_PAGE..7 * RAM_PAGE + 16], &RAM_FLASH_MAGIC);
+    // A "reset": the same memory, formatted again: the record stays.
+    let mut s = FlashStore::new(RamFlash::formatted(&mut mem), 0..(7 * RAM_PAGE) as u32).unwrap();
+    let mut r = [0u8; RECORD_LEN];
+    assert_eq!(s.load(Slot::Settings, &mut r), Ok(true));
+    assert_eq!(version_of(Slot::Settings, &r), Some(3));
+}
