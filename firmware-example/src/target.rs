@@ -197,20 +197,26 @@ pub mod usart1 {
     /// virtual clock runs on in real time while the core sleeps, so the console's clock (the
     /// PIN back-off) follows real time between commands; busy polling would stretch it.
     pub fn idle() {
-        cortex_m::interrupt::free(|_| {
-            wr(CR1, rd(CR1) | CR1_RXNEIE);
-            if rd(SR) & SR_RXNE == 0 {
-                // With interrupts masked, a pending interrupt still ends the wait; it is taken
-                // when the mask is lifted.
-                cortex_m::asm::wfi();
-            }
-        });
+        use cortex_m::peripheral::NVIC;
+        use stm32f4xx_hal::pac::Interrupt;
+        wr(CR1, rd(CR1) | CR1_RXNEIE);
+        NVIC::unpend(Interrupt::USART1);
+        // SAFETY: the handler (`on_interrupt`) only masks this interrupt again; it shares no
+        // data with the code it interrupts.
+        unsafe { NVIC::unmask(Interrupt::USART1) };
+        if rd(SR) & SR_RXNE == 0 {
+            // A byte arriving now raises the interrupt, which ends the wait. (One arriving
+            // between the test and the WFI is taken by the handler first; the WFI then ends at
+            // the next SysTick wrap, at most 0.1 s later.)
+            cortex_m::asm::wfi();
+        }
+        NVIC::mask(Interrupt::USART1);
     }
 
-    /// Call from the USART1 interrupt handler: turns the receive interrupt off again (the byte
-    /// stays for the polling reader).
+    /// Call from the USART1 interrupt handler: masks the interrupt (the USART holds its line up
+    /// until the byte is read, and the byte is left for the polling reader).
     pub fn on_interrupt() {
-        wr(CR1, rd(CR1) & !CR1_RXNEIE);
+        cortex_m::peripheral::NVIC::mask(stm32f4xx_hal::pac::Interrupt::USART1);
     }
 
     /// A receive error of the raw USART.
@@ -235,13 +241,6 @@ pub mod usart1 {
             wr(RCC_APB2ENR, rd(RCC_APB2ENR) | (1 << 4));
             wr(BRR, 0x2D9);
             wr(CR1, CR1_UE | CR1_TE | CR1_RE);
-            // The receive interrupt only wakes the core from `idle` (its handler turns itself
-            // off); the bytes are still read by polling.
-            // SAFETY: the USART1 handler (`on_interrupt`) touches only USART1's CR1 and shares
-            // no data with the code it interrupts.
-            unsafe {
-                cortex_m::peripheral::NVIC::unmask(stm32f4xx_hal::pac::Interrupt::USART1);
-            }
             Usart1 { _private: () }
         }
     }
