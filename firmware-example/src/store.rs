@@ -229,7 +229,10 @@ impl NorFlash for RamFlash<'_> {
     const ERASE_SIZE: usize = RAM_PAGE;
 
     fn erase(&mut self, from: u32, to: u32) -> Result<(), RamFlashError> {
-        if from as usize % RAM_PAGE != 0 || to as usize % RAM_PAGE != 0 || to < from {
+        if !(from as usize).is_multiple_of(RAM_PAGE)
+            || !(to as usize).is_multiple_of(RAM_PAGE)
+            || to < from
+        {
             return Err(RamFlashError::NotAligned);
         }
         self.span(from, (to - from) as usize)?.fill(0xFF);
@@ -237,7 +240,7 @@ impl NorFlash for RamFlash<'_> {
     }
 
     fn write(&mut self, offset: u32, bytes: &[u8]) -> Result<(), RamFlashError> {
-        if offset % 4 != 0 || bytes.len() % 4 != 0 {
+        if !offset.is_multiple_of(4) || !bytes.len().is_multiple_of(4) {
             return Err(RamFlashError::NotAligned);
         }
         for (cell, b) in self.span(offset, bytes.len())?.iter_mut().zip(bytes) {
