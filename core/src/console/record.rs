@@ -17,10 +17,12 @@ use super::jig::{Calibration, ChannelCal, Slot, RECORD_LEN};
 use super::parse::{Name, Pin, NAME_MAX};
 use crate::device::Profile;
 use crate::limits::Meter;
+use crate::settings::{InputMode, Inputs, TestSettings};
 use crate::stage::{Part, Polarity, Stage};
 
-/// Record format version (3: the name of the chosen design in the settings; design records).
-const VERSION: u8 = 3;
+/// Record format version (4: measuring inputs in the settings, the name of the chosen design;
+/// design records).
+const VERSION: u8 = 4;
 /// FNV-1a 64 offset basis.
 const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
 /// FNV-1a 64 prime.
@@ -220,6 +222,8 @@ pub struct Settings {
     pub temp_max_c: f64,
     /// Meter and jig accuracy.
     pub meter: Meter,
+    /// The measuring inputs attached while the nodes are read.
+    pub inputs: Inputs,
     /// The PIN while locked (`None`: unlocked).
     pub pin: Option<Pin>,
     /// Wrong PINs given since the last right one.
@@ -285,7 +289,8 @@ fn get_name(r: &mut Reader<'_>) -> Option<Option<Name>> {
     }
 }
 
-/// The part of the settings a kept design carries: stage, transistor, ambient range, meter.
+/// The part of the settings a kept design carries: stage, transistor, ambient range, meter,
+/// measuring inputs.
 fn put_setup(w: &mut Writer<'_>, s: &Settings) {
     put_design(w, &s.stage, &s.profile);
     w.f64(s.temp_c);
@@ -294,6 +299,11 @@ fn put_setup(w: &mut Writer<'_>, s: &Settings) {
     w.f64(s.meter.gain_error);
     w.f64(s.meter.offset);
     w.f64(s.meter.divider_tol);
+    w.opt(s.inputs.r);
+    w.u8(match s.inputs.mode {
+        InputMode::Together => 0,
+        InputMode::One => 1,
+    });
 }
 
 /// Reads what [`put_setup`] wrote into settings with no PIN and no design name.
@@ -307,6 +317,14 @@ fn get_setup(r: &mut Reader<'_>) -> Option<Settings> {
         offset: r.f64()?,
         divider_tol: r.f64()?,
     };
+    let inputs = Inputs {
+        r: r.opt()?,
+        mode: match r.u8()? {
+            0 => InputMode::Together,
+            1 => InputMode::One,
+            _ => return None,
+        },
+    };
     Some(Settings {
         stage,
         profile,
@@ -314,6 +332,7 @@ fn get_setup(r: &mut Reader<'_>) -> Option<Settings> {
         temp_min_c,
         temp_max_c,
         meter,
+        inputs,
         pin: None,
         pin_failures: 0,
         design: None,
@@ -341,9 +360,19 @@ pub fn decode_design(slot: u8, rec: &[u8; RECORD_LEN]) -> Option<(Name, Settings
 }
 
 impl Settings {
-    /// The ambient range as the spread, limits and diagnosis take it.
+    /// The ambient range as the spread, limits and diagnosis take it, read through the inputs.
     pub fn variation(&self) -> crate::spread::Variation {
-        crate::spread::Variation::between(self.temp_min_c, self.temp_max_c)
+        crate::judge::variation(&self.test_settings())
+    }
+
+    /// The test settings the verdict depends on besides the stage and profile.
+    pub fn test_settings(&self) -> TestSettings {
+        TestSettings {
+            temp_min_c: self.temp_min_c,
+            temp_max_c: self.temp_max_c,
+            meter: self.meter,
+            inputs: self.inputs,
+        }
     }
 
     /// Encode into a store record.
