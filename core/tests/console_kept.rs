@@ -177,3 +177,20 @@ fn a_damaged_design_record_is_left_out_not_loaded() {
     assert_eq!(list.len(), 1, "{list:?}");
     assert!(list[0].starts_with("design=a "));
 }
+
+#[test]
+fn a_kept_design_carries_the_measuring_inputs() {
+    let mut c = unit(MemoryStore::default());
+    ok(&mut c, "set input-r 110k");
+    ok(&mut c, "keep jig110k");
+    ok(&mut c, "set input-r 10M");
+    ok(&mut c, "keep meter10M");
+    assert!(ok(&mut c, "meter")[0].contains("input_r=1e7"));
+    ok(&mut c, "choose jig110k");
+    let mut c = restart(c);
+    assert!(
+        ok(&mut c, "meter")[0].contains("input_r=110000"),
+        "{:?}",
+        ok(&mut c, "meter")
+    );
+}
