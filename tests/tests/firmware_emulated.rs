@@ -535,6 +535,17 @@ fn write_design(dir: &Path) -> PathBuf {
 
 /// `biasjig station`: one board per serial number on stdin; gives the log records.
 fn station(pts: &str, design: &Path, log: &Path, serials: &[&str]) -> Vec<serde_json::Value> {
+    station_with(pts, design, log, serials, &[])
+}
+
+/// As [`station`], with more options.
+fn station_with(
+    pts: &str,
+    design: &Path,
+    log: &Path,
+    serials: &[&str],
+    extra: &[&str],
+) -> Vec<serde_json::Value> {
     let before = std::fs::read_to_string(log)
         .unwrap_or_default()
         .lines()
@@ -546,6 +557,7 @@ fn station(pts: &str, design: &Path, log: &Path, serials: &[&str]) -> Vec<serde_
             .arg(design)
             .arg("--log")
             .arg(log)
+            .args(extra)
             .stdin(Stdio::piped())
             .stdout(Stdio::piped())
             .stderr(Stdio::piped())
@@ -625,8 +637,9 @@ fn emulated_jig_end_to_end_through_the_host() {
     println!("jig-emulated: {}", clock.join(" "));
     s.close();
 
-    // The station pushes the design, verifies its hash and tests a good board: pass.
-    let recs = station(&pts, &design, &log, &["GOOD-1"]);
+    // The station pushes the design, keeps it on the unit by name, verifies its hash and tests a
+    // good board: pass.
+    let recs = station_with(&pts, &design, &log, &["GOOD-1"], &["--keep", "preamp"]);
     assert_eq!(recs[0]["verdict"], "pass", "good board: {}", recs[0]);
     assert_eq!(recs[0]["serial"], "GOOD-1");
 
@@ -644,6 +657,12 @@ fn emulated_jig_end_to_end_through_the_host() {
         hash[0],
         format!("hash={logged}"),
         "the station's design is on the instrument"
+    );
+    let kept = s.ok("designs");
+    assert!(
+        kept.iter()
+            .any(|l| l.starts_with("design=preamp ") && l.contains(&format!("hash={logged} "))),
+        "the station kept its design on the unit: {kept:?}"
     );
     let good = parse_result(&s.ok("test"));
     assert_eq!(good.verdict, "pass", "good board: {good:?}");

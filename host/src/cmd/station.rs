@@ -51,6 +51,10 @@ pub struct Cmd {
     /// Seconds allowed to synchronise with the instrument
     #[arg(long = "sync-timeout", default_value_t = crate::link::SYNC_TIMEOUT.as_secs_f64(), value_name = "S")]
     pub sync_timeout: f64,
+    /// Also keep the pushed design on the instrument under NAME (its `keep NAME`), so that the
+    /// unit starts on it and can choose it again with no PC
+    #[arg(long, value_name = "NAME")]
+    pub keep: Option<String>,
 }
 
 /// The ambient of a design: nominal, lowest and highest, °C.
@@ -420,7 +424,17 @@ impl Cmd {
             min: doc.test.temp_min_c,
             max: doc.test.temp_max_c,
         };
-        let push = push_lines(&doc.stage, &doc.profile, ambient);
+        let mut push = push_lines(&doc.stage, &doc.profile, ambient);
+        if let Some(name) = &self.keep {
+            if biasjig_core::console::parse::Name::parse(name).is_none() {
+                return Err(CliError::field(
+                    "--keep",
+                    name,
+                    "a name of 1 to 16 letters, digits, - _ or .",
+                ));
+            }
+            push.push(format!("keep {name}"));
+        }
         let hash = expected_hash(&doc.stage, &doc.profile, ambient).ok_or_else(|| {
             CliError::field(
                 "--design",
