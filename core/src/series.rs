@@ -366,6 +366,18 @@ impl Series {
         self.member(k.checked_add(i64::from(steps))?)
     }
 
+    /// The members from `below` positions under `nearest(x)` to `above` positions over it,
+    /// ascending, across decades (one nearest look-up; members that are not positive finite
+    /// numbers are left out). The same values as [`Series::step`] for each step.
+    pub fn around(self, x: f64, below: u8, above: u8) -> impl Iterator<Item = f64> {
+        let k = self.index_nearest(x);
+        let (lo, hi) = match k {
+            Some(k) => (k - i64::from(below), k + i64::from(above)),
+            None => (1, 0),
+        };
+        (lo..=hi).filter_map(move |i| self.member(i))
+    }
+
     /// Whether x is a member of the series in any decade (relative 1e-6).
     pub fn contains(self, x: f64) -> bool {
         self.nearest(x)
