@@ -210,6 +210,29 @@ pub fn judge(
     settings: &TestSettings,
     readings: &Readings,
 ) -> Result<Judgement, JudgeError> {
+    let (windows, verdict) = verdict(stage, profile, settings, readings)?;
+    let diagnosis = if verdict.pass {
+        None
+    } else {
+        Some(diagnosis(stage, profile, settings, readings).map_err(JudgeError::Diagnose)?)
+    };
+    Ok(Judgement {
+        windows,
+        verdict,
+        diagnosis,
+    })
+}
+
+/// Steps 1 to 5 of [`judge`] without the diagnosis: the windows and the verdict. A small
+/// instrument calls this and then [`diagnosis`] for a failed board, keeping the diagnosis (a
+/// few KB) where it is stored instead of moving it through a [`Judgement`].
+#[inline(never)]
+pub fn verdict(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+) -> Result<(Windows, Verdict), JudgeError> {
     settings.validate().map_err(JudgeError::Settings)?;
     let r = readings;
     if ![r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
@@ -225,17 +248,49 @@ pub fn judge(
     usable(stage, profile, settings)?;
     let meter = &settings.meter;
     check::plausible(stage, meter, r).map_err(JudgeError::Implausible)?;
-    let var = variation(settings);
-    let limits = limits::limits(stage, profile, &var, meter, r.vcc).map_err(JudgeError::Limits)?;
-    let verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
-    let diagnosis = if verdict.pass {
-        None
-    } else {
-        Some(diagnose::diagnose(stage, profile, r, meter, &var).map_err(JudgeError::Diagnose)?)
-    };
-    Ok(Judgement {
-        windows: Windows { supply, limits },
-        verdict,
-        diagnosis,
-    })
+    let limits = limits::limits(stage, profile, &variation(settings), meter, r.vcc)
+        .map_err(JudgeError::Limits)?;
+    let verdict = check::check_through(stage, &limits, meter, &settings.inputs, r)
+        .map_err(JudgeError::Implausible)?;
+    Ok((Windows { supply, limits }, verdict))
+}
+
+/// [`diagnosis`] written into `out`: the instrument keeps it in its session state, never on its
+/// stack.
+#[inline(never)]
+pub fn diagnosis_into(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    diagnose::diagnose_into(
+        stage,
+        profile,
+        readings,
+        &settings.meter,
+        &variation(settings),
+        out,
+    )
+}
+
+/// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
+/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place; not
+/// inlined, so that the diagnosis's working storage is not part of its caller's frame while the
+/// windows are computed.)
+#[inline(never)]
+pub fn diagnosis(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+) -> Result<Diagnosis, DiagnoseError> {
+    diagnose::diagnose(
+        stage,
+        profile,
+        readings,
+        &settings.meter,
+        &variation(settings),
+    )
 }
