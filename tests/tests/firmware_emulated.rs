@@ -1000,14 +1000,27 @@ fn kept_designs_survive_a_reset_and_the_button_chooses() {
         "the design chosen with the button is kept"
     );
 
-    // Wrong PINs: counted in the store; the back-off waits in real time.
+    // Wrong PINs: counted in the store; the back-off (1 s after the third, doubling with each
+    // further one) waits in real time while the unit idles.
     s.ok("lock 2468");
     for _ in 0..3 {
         let (_, st) = s.ask("unlock 1111");
         assert!(st.starts_with("err PIN"), "{st}");
     }
-    let (_, st) = s.ask("unlock 2468");
-    assert!(st.starts_with("err WAIT"), "{st}");
+    let (_, st) = s.ask("unlock 1111");
+    assert!(
+        st.starts_with("err WAIT"),
+        "a try within the back-off is refused: {st}"
+    );
+    for wait_ms in [1300, 2300] {
+        std::thread::sleep(Duration::from_millis(wait_ms));
+        let (_, st) = s.ask("unlock 1111");
+        assert!(
+            st.starts_with("err PIN"),
+            "after {wait_ms} ms of real time: {st}"
+        );
+    }
+    // Five wrong PINs: 4 s of back-off, also after a reset (it starts again at power-up).
     s.close();
     monitor(&sock, "system_reset");
     let mut s = Session::open(&pts);
@@ -1016,11 +1029,11 @@ fn kept_designs_survive_a_reset_and_the_button_chooses() {
         st.starts_with("err WAIT"),
         "the wrong-PIN count survives a reset: {st}"
     );
-    std::thread::sleep(Duration::from_millis(1600));
+    std::thread::sleep(Duration::from_millis(4500));
     let (_, st) = s.ask("unlock 2468");
     assert_eq!(
         st, "ok unlocked",
-        "1 s of back-off passed in real time while the unit waited"
+        "4 s of back-off passed in real time while the unit waited"
     );
     s.close();
     let _ = std::fs::remove_dir_all(&dir);
