@@ -159,7 +159,7 @@ impl core::fmt::Display for JudgeError {
 
 /// The variation the windows and the diagnosis cover: the test ambient, read through the inputs.
 pub fn variation(settings: &TestSettings) -> Variation {
-    settings.variation().read_through(settings.inputs)
+    settings.variation()
 }
 
 /// The stage is valid, its settings are, and it is forward active at its nominal point.

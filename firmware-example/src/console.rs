@@ -789,13 +789,7 @@ fn fault_words<J: FirmwareJig, S: Store, C: Clock, const N: usize>(
     let _ = match d.faults().next() {
         Some(h) if d.explained => core::fmt::Write::write_fmt(
             &mut ascii,
-            format_args!(
-                "{}",
-                FaultWords {
-                    stage: &console.settings().stage,
-                    hypothesis: h,
-                }
-            ),
+            format_args!("{}", FaultWords::of(&console.settings().stage, h)),
         ),
         _ => core::fmt::Write::write_str(&mut ascii, "no single fault explains the readings"),
     };
