@@ -46,8 +46,8 @@
 //! figures. [`Hold::Nominal`] is the first round's design at the nominal point.
 //!
 //! Cost: a nominal E24 design is about 1 400 exact solves (1.4 Newton iterations each) and 6.5 M
-//! instructions on x86-64 (demo scenario); held at every corner, 8.8 M (the `design` bench); the
-//! dearest of our ±10 % sweep (a refusal after the re-centred search) about 18.5 M.
+//! instructions on x86-64 (demo scenario); held at every corner, 7.7 M (the `design` bench); the
+//! dearest of our ±10 % sweep (a refusal after the re-centred search) about 16.2 M.
 
 #![expect(
     clippy::neg_cmp_op_on_partial_ord,
