@@ -533,7 +533,8 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
                 "digest",
                 format!(
                     "{d} does not match the file's contents: the file was changed after it was \
-                     written; write it again with biasjig design -o (no edit is accepted)"
+                     written (or written by an earlier build whose digest covered less); write it \
+                     again with biasjig design -o (no edit is accepted)"
                 ),
             ))
         }
