@@ -695,6 +695,34 @@ pub(crate) fn each_corner_at_supply(
     Ok(solves)
 }
 
+/// Every corner of the factor box with the supply fixed at `vcc` (V, tolerance zero), and the
+/// centre first: `f(drawn stage, conditions, operating point)` for each. Returns the number of
+/// solves.
+pub(crate) fn each_corner_solved(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    vcc: f64,
+    mut f: impl FnMut(&Stage, &Conditions, &crate::solve::OperatingPoint),
+) -> Result<u32, SpreadError> {
+    let mut s = *stage;
+    s.vcc.value = vcc;
+    s.vcc.tol = 0.0;
+    validate(&s, profile, var)?;
+    let b = Box8::new(&s, profile, var);
+    let mut solves = 0u32;
+    let mut one = |x: &[f64; FACTORS]| -> Result<(), SpreadError> {
+        let (drawn, cond) = apply(&s, &draw_of(x));
+        let op = solve(&drawn, profile, cond)?;
+        f(&drawn, &cond, &op);
+        solves += 1;
+        Ok(())
+    };
+    one(&b.centre)?;
+    for_each_corner(active_mask(&b), |c| one(&b.corner(c, 0)))?;
+    Ok(solves)
+}
+
 /// Number of histogram bins.
 pub const BINS: usize = 40;
 
