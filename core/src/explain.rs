@@ -4,7 +4,7 @@
 use core::fmt;
 
 use crate::diagnose::{Hypothesis, ResistorMode, Suspect};
-use crate::stage::{DeviceFault, Resistor, Stage};
+use crate::stage::{Capacitor, DeviceFault, Resistor, Stage};
 use crate::units::Eng;
 
 /// A fault in plain words for the technician: "RC reads like 47 kΩ instead of 4.7 kΩ: a decade
@@ -57,6 +57,31 @@ impl fmt::Display for FaultWords<'_> {
                     (ResistorMode::High, None) => write!(f, "{name} too high"),
                 }
             }
+            Suspect::Capacitor(c, mode) => {
+                let name = c.name();
+                match (mode, h.estimate, self.stage.capacitor(c)) {
+                    (ResistorMode::Open, _, _) => write!(
+                        f,
+                        "{name} open (missing, a dry joint or a broken lead): {}",
+                        match c {
+                            Capacitor::Ce => "the emitter is not bypassed",
+                            _ => "no signal passes",
+                        }
+                    ),
+                    (ResistorMode::Short, _, _) => write!(
+                        f,
+                        "{name} shorted (a solder bridge or a broken-down capacitor)"
+                    ),
+                    (_, Some(est), Some(p)) => write!(
+                        f,
+                        "{name} acts like {} instead of {}",
+                        Eng::new(est, "F"),
+                        Eng::new(p.value, "F")
+                    ),
+                    (ResistorMode::High, ..) => write!(f, "{name} too large"),
+                    _ => write!(f, "{name} too small"),
+                }
+            }
             Suspect::Device(d) => f.write_str(match d {
                 DeviceFault::BeOpen => "Q: base-emitter junction or emitter lead open",
                 DeviceFault::BcOpen => "Q: base-collector junction or collector lead open",
@@ -76,6 +101,7 @@ impl fmt::Display for FaultWords<'_> {
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct SeparatingStep {
     parts: heapless::Vec<Resistor, 5>,
+    caps: heapless::Vec<Capacitor, 3>,
     transistor: bool,
 }
 
@@ -83,17 +109,25 @@ impl SeparatingStep {
     /// The step for the faults `group` (resistors in first-seen order).
     pub fn of(group: impl IntoIterator<Item = Suspect>) -> Self {
         let mut parts: heapless::Vec<Resistor, 5> = heapless::Vec::new();
+        let mut caps: heapless::Vec<Capacitor, 3> = heapless::Vec::new();
         let mut transistor = false;
         for s in group {
             match s {
                 Suspect::Resistor(r, _) if !parts.contains(&r) => {
                     let _ = parts.push(r);
                 }
+                Suspect::Capacitor(c, _) if !caps.contains(&c) => {
+                    let _ = caps.push(c);
+                }
                 Suspect::Device(_) => transistor = true,
                 _ => {}
             }
         }
-        Self { parts, transistor }
+        Self {
+            parts,
+            caps,
+            transistor,
+        }
     }
 }
 
@@ -108,6 +142,23 @@ impl fmt::Display for SeparatingStep {
                 _ => ", ",
             };
             write!(f, "{sep}{}", r.name())?;
+        }
+        let n = self.caps.len();
+        for (k, c) in self.caps.iter().enumerate() {
+            let sep = match k {
+                0 if self.parts.is_empty() => ", lift ",
+                0 => "; lift ",
+                _ if k + 1 == n => " and ",
+                _ => ", ",
+            };
+            write!(f, "{sep}{}", c.name())?;
+        }
+        if n > 0 {
+            f.write_str(if n == 1 {
+                " and measure its capacitance (or read the gain at another frequency)"
+            } else {
+                " and measure their capacitance (or read the gain at another frequency)"
+            })?;
         }
         if self.transistor {
             f.write_str(", check Q's junctions with a diode test and its orientation")?;

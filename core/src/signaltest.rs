@@ -263,6 +263,20 @@ pub fn windows(
     Ok(out)
 }
 
+/// Judge gain readings against their windows: `ok` per reading, in order (a reading without a
+/// window of its frequency fails).
+pub fn judge(windows: &[ToneWindow], readings: &[ToneReading]) -> Vec<bool, MAX_TONES> {
+    let mut out: Vec<bool, MAX_TONES> = Vec::new();
+    for r in readings {
+        let ok = windows
+            .iter()
+            .find(|w| w.f == r.f)
+            .is_some_and(|w| w.contains(r.gain));
+        let _ = out.push(ok);
+    }
+    out
+}
+
 /// Mean, standard deviation and range of the gain at one frequency over a Monte Carlo run.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ToneStats {
