@@ -387,6 +387,7 @@ impl Ctx<'_> {
             temp_c,
             beta_25: beta,
             fault,
+            loads: Default::default(),
         };
         let (op, next) = solve_from(&dc_stage, self.profile, cond, self.start.as_ref()).ok()?;
         self.start = Some(next);

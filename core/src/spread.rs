@@ -410,6 +410,7 @@ fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
             temp_c: d.temp_c,
             beta_25: d.beta_25,
             fault: None,
+            loads: Default::default(),
         },
     )
 }

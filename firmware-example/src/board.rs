@@ -134,6 +134,7 @@ impl BoardModel {
                 temp_c: self.temp_c,
                 beta_25,
                 fault: device,
+                loads: Default::default(),
             },
         )?;
         let r = Readings {
