@@ -37,7 +37,7 @@ use crate::device::Profile;
 use crate::limits::Meter;
 use crate::response::{self, CapState, Caps};
 use crate::signaltest::{SignalMeter, ToneReading, MAX_TONES};
-use crate::solve::{solve_from, Conditions, Start};
+use crate::solve::{solve_from, Conditions, NodeLoads, Start};
 use crate::spread::Variation;
 use crate::stage::{Capacitor, DeviceFault, Fault, Readings, Resistor, Stage};
 
@@ -300,6 +300,11 @@ impl Sym {
     }
 }
 
+/// A load `r` (Ω) added in parallel with an existing one.
+fn parallel_load(existing: Option<f64>, r: f64) -> Option<f64> {
+    Some(existing.map_or(r, |e| crate::acnet::parallel(e, r)))
+}
+
 /// The fixed parts of one diagnosis.
 struct Ctx<'a> {
     stage: Stage,
@@ -370,15 +375,27 @@ impl Ctx<'_> {
             }
         };
         // The DC test set-up: the source's RS stays on the input and RL on the output, so a
-        // shorted coupling capacitor loads the base or the collector; a shorted bypass
-        // capacitor shorts RE2.
+        // shorted coupling capacitor loads the base (with RS) or the collector (with RL); a
+        // shorted bypass capacitor shorts RE2.
+        let mut loads = NodeLoads::NONE;
         let dc_stage = match suspect {
             Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short) => {
                 ac_stage.with_fault(Fault::Short(Resistor::Re2))
             }
             Suspect::Capacitor(Capacitor::Cin, ResistorMode::Short) => {
-                let r2 = crate::acnet::parallel(ac_stage.r2.value, ac_stage.rs);
-                ac_stage.with_fault(Fault::Value(Resistor::R2, r2))
+                if ac_stage.rs > 0.0 {
+                    loads.base = parallel_load(loads.base, ac_stage.rs);
+                    ac_stage
+                } else {
+                    // An ideal source holds the base at ground.
+                    ac_stage.with_fault(Fault::Short(Resistor::R2))
+                }
+            }
+            Suspect::Capacitor(Capacitor::Cout, ResistorMode::Short) => {
+                if let Some(rl) = ac_stage.rl {
+                    loads.collector = parallel_load(loads.collector, rl);
+                }
+                ac_stage
             }
             _ => ac_stage,
         };
@@ -387,7 +404,7 @@ impl Ctx<'_> {
             temp_c,
             beta_25: beta,
             fault,
-            loads: Default::default(),
+            loads,
         };
         let (op, next) = solve_from(&dc_stage, self.profile, cond, self.start.as_ref()).ok()?;
         self.start = Some(next);

@@ -336,6 +336,7 @@ pub fn monte_carlo(
             temp_c: temp,
             beta_25: beta,
             fault: None,
+            loads: Default::default(),
         };
         let Ok(op) = solve(&s, profile, cond) else {
             continue;

@@ -15,7 +15,7 @@ use biasjig_core::diagnose::{diagnose_with_signal, Diagnosis, ResistorMode, Susp
 use biasjig_core::limits::{limits, Meter, Window};
 use biasjig_core::response::{magnitude_at, CapState, Caps};
 use biasjig_core::signaltest::{judge, propose, windows, SignalMeter, ToneReading};
-use biasjig_core::solve::{solve, Conditions};
+use biasjig_core::solve::{solve, Conditions, NodeLoads};
 use biasjig_core::spread::Variation;
 use biasjig_core::stage::{Capacitor, DeviceFault, Fault, Part, Polarity, Readings, Resistor, Stage};
 
@@ -131,11 +131,17 @@ fn readings_of(
         }
         None => (*s, None),
     };
+    // The DC test set-up: RS on the input and RL on the output stay connected.
+    let mut loads = NodeLoads::NONE;
     let dc = match fault {
         Some(BoardFault::Cap(Capacitor::Ce, CapState::Short)) => ac.with_fault(Fault::Short(Resistor::Re2)),
         Some(BoardFault::Cap(Capacitor::Cin, CapState::Short)) => {
-            let r2 = ac.r2.value * ac.rs / (ac.r2.value + ac.rs);
-            ac.with_fault(Fault::Value(Resistor::R2, r2))
+            loads.base = Some(ac.rs);
+            ac
+        }
+        Some(BoardFault::Cap(Capacitor::Cout, CapState::Short)) => {
+            loads.collector = ac.rl;
+            ac
         }
         _ => ac,
     };
@@ -146,6 +152,7 @@ fn readings_of(
             temp_c: 25.0,
             beta_25: beta,
             fault: dev,
+            loads,
         },
     )
     .ok()?;
@@ -167,10 +174,7 @@ fn faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, BoardFault)> {
         for c in Capacitor::ALL {
             let nominal = s.capacitor(c).unwrap().value;
             v.push((Suspect::Capacitor(c, ResistorMode::Open), BoardFault::Cap(c, CapState::Open)));
-            if c != Capacitor::Cout {
-                // COUT short needs the collector load at DC (the solver's node loads).
-                v.push((Suspect::Capacitor(c, ResistorMode::Short), BoardFault::Cap(c, CapState::Short)));
-            }
+            v.push((Suspect::Capacitor(c, ResistorMode::Short), BoardFault::Cap(c, CapState::Short)));
             let low = rng.pick(&[0.1, 0.05, 0.2, 0.3, 0.01]);
             v.push((
                 Suspect::Capacitor(c, ResistorMode::Low),
