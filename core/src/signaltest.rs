@@ -76,6 +76,51 @@ pub struct ToneReading {
     pub gain: f64,
 }
 
+/// Up to [`MAX_TONES`] gain readings, in the order given (a small `Copy` list).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ToneSet {
+    items: [ToneReading; MAX_TONES],
+    len: u8,
+}
+
+impl Default for ToneSet {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl ToneSet {
+    /// No readings.
+    pub const fn new() -> Self {
+        Self {
+            items: [ToneReading { f: 0.0, gain: 0.0 }; MAX_TONES],
+            len: 0,
+        }
+    }
+
+    /// Add a reading; gives it back when the set is full.
+    pub fn push(&mut self, r: ToneReading) -> Result<(), ToneReading> {
+        match self.items.get_mut(usize::from(self.len)) {
+            Some(slot) => {
+                *slot = r;
+                self.len += 1;
+                Ok(())
+            }
+            None => Err(r),
+        }
+    }
+
+    /// The readings.
+    pub fn as_slice(&self) -> &[ToneReading] {
+        self.items.get(..usize::from(self.len)).unwrap_or(&[])
+    }
+
+    /// Whether there is no reading.
+    pub fn is_empty(&self) -> bool {
+        self.len == 0
+    }
+}
+
 /// The pass window of one test frequency.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ToneWindow {

@@ -15,6 +15,7 @@ use core::fmt::Write as _;
 use embedded_io::Write;
 
 use super::commands::{show_readings, Num, Opt};
+use super::parse::Tones;
 use super::jig::{Clock, Jig, Store};
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
@@ -22,6 +23,7 @@ use crate::check::{self, Implausible, Verdict};
 use crate::diagnose::{self, Diagnosis};
 use crate::explain::{FaultWords, SeparatingStep};
 use crate::limits;
+use crate::signaltest::{self, SignalMeter, ToneWindow, MAX_TONES};
 #[cfg(feature = "monte-carlo")]
 use crate::spread::McSettings;
 use crate::spread::{self, Method, SpreadError};
@@ -42,6 +44,10 @@ pub struct LastCheck {
     pub verdict: Verdict,
     /// The ranked faults when the board failed.
     pub diagnosis: Option<Diagnosis>,
+    /// The gain readings judged (signal test), in order.
+    pub tones: Tones,
+    /// Their windows, in the same order.
+    pub windows: heapless::Vec<ToneWindow, MAX_TONES>,
 }
 
 fn refused(why: Implausible) -> Fail {
@@ -60,30 +66,55 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// Judge readings: plausibility, limits at the measured supply, verdict and, when the board
     /// fails, the diagnosis. Keeps the result as the last check (nothing changes on an error).
     #[inline(never)]
-    pub(super) fn judge(&mut self, rd: Readings, src: Source) -> Result<(), Fail> {
+    pub(super) fn judge(&mut self, rd: Readings, tones: &Tones, src: Source) -> Result<(), Fail> {
         let st = &self.settings;
         let var = st.variation();
         check::plausible(&st.stage, &st.meter, &rd).map_err(refused)?;
         let lim = limits::limits(&st.stage, &st.profile, &var, &st.meter, rd.vcc)
             .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
-        let verdict = check::check(&st.stage, &lim, &st.meter, &rd).map_err(refused)?;
+        let mut verdict = check::check(&st.stage, &lim, &st.meter, &rd).map_err(refused)?;
+        // The signal test: each gain reading against its window (the same call as `biasjig
+        // check --ac`).
+        let signal = SignalMeter::default();
+        let freqs: heapless::Vec<f64, MAX_TONES> = tones.as_slice().iter().map(|t| t.f).collect();
+        let windows = if tones.is_empty() {
+            heapless::Vec::new()
+        } else {
+            signaltest::windows(&st.stage, &st.profile, &var, &signal, rd.vcc, &freqs)
+                .map_err(|e| Fail::new(Code::Range, format_args!("signal windows: {e}")))?
+        };
+        if signaltest::judge(&windows, tones.as_slice()).iter().any(|ok| !ok) {
+            verdict.pass = false;
+        }
         if verdict.pass {
             self.last = Some(LastCheck {
                 readings: rd,
                 source: src,
                 verdict,
                 diagnosis: None,
+                tones: *tones,
+                windows,
             });
         } else {
             // The diagnosis (about 2 KB) goes straight into the session state: one value on
             // the stack, no further copies.
-            match diagnose::diagnose(&st.stage, &st.profile, &rd, &st.meter, &var) {
+            match diagnose::diagnose_with_signal(
+                &st.stage,
+                &st.profile,
+                &rd,
+                tones.as_slice(),
+                &st.meter,
+                &signal,
+                &var,
+            ) {
                 Ok(d) => {
                     self.last = Some(LastCheck {
                         readings: rd,
                         source: src,
                         verdict,
                         diagnosis: Some(d),
+                        tones: *tones,
+                        windows,
                     });
                 }
                 Err(e) => return Err(Fail::new(Code::Solve, format_args!("diagnosis: {e}"))),
@@ -123,6 +154,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     u8::from(n.ok)
                 ));
             }
+            for (t, w) in l.tones.as_slice().iter().zip(&l.windows) {
+                r.data(format_args!(
+                    "ac f={} measured={} low={} high={} ok={}",
+                    Num(t.f),
+                    Num(t.gain),
+                    Num(w.low),
+                    Num(w.high),
+                    u8::from(w.contains(t.gain))
+                ));
+            }
             r.data(format_args!(
                 "derived ic={} ib={} ie={} vbe={} vce={} beta={} region={}",
                 Num(dv.ic),
@@ -152,6 +193,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     Eng::new(n.low, u),
                     Eng::new(n.high, u),
                     if n.ok { "" } else { "   OUT" }
+                ));
+            }
+            for (t, w) in l.tones.as_slice().iter().zip(&l.windows) {
+                r.data(format_args!(
+                    "gain at {}: {} window {} to {}{}",
+                    Eng::new(t.f, "Hz"),
+                    Fixed(t.gain, 3),
+                    Fixed(w.low, 3),
+                    Fixed(w.high, 3),
+                    if w.contains(t.gain) { "" } else { "   OUT" }
                 ));
             }
             let mut beta = Text::default();
@@ -261,7 +312,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     pub(super) fn diagnose<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
         if self.last.is_none() {
             match self.readings {
-                Some((rd, src)) => self.judge(rd, src)?,
+                Some((rd, src)) => self.judge(rd, &Tones::new(), src)?,
                 None => {
                     return Err(Fail::new(
                         Code::NoReadings,

@@ -4,6 +4,8 @@
 use super::jig::Channel;
 use super::Code;
 use crate::series::{BandCount, Series};
+use crate::response::CapState;
+use crate::signaltest::ToneReading;
 use crate::stage::{Capacitor, DeviceFault, Fault, Polarity, Readings, Resistor};
 use crate::units;
 
@@ -262,8 +264,8 @@ pub enum Command<'a> {
     Meter(Option<MeterSetting>),
     /// `measure [SAMPLES]`.
     Measure(u16),
-    /// `check VCC VB VE VC`.
-    Check(Readings),
+    /// `check VCC VB VE VC [F:G ...]`: DC readings and gain readings.
+    Check(Readings, Tones),
     /// `test [SAMPLES]`: measure and check.
     Test(u16),
     /// `diagnose`: the likely faults of the last readings.
@@ -274,6 +276,8 @@ pub enum Command<'a> {
     Calibrate(CalibrateStep),
     /// `inject FAULT | none` (emulated jigs).
     Inject(Option<Fault>),
+    /// `inject CIN|COUT|CE open|short|VALUE` (emulated jigs).
+    InjectCapacitor(Capacitor, CapState),
     /// `lock PIN`.
     Lock(Pin),
     /// `unlock PIN`.
@@ -285,6 +289,9 @@ pub enum Command<'a> {
     /// `save`: keep the settings in the store.
     Save,
 }
+
+/// Gain readings typed with `check`: |v(load)/v(source EMF)| at a test frequency each.
+pub type Tones = crate::signaltest::ToneSet;
 
 /// Why a line is not a command: a code, the field, the offending text and what is allowed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -480,8 +487,8 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
 }
 
 fn fault<'a>(words: &[&'a str]) -> Result<Option<Fault>, ParseError<'a>> {
-    let allowed = "none, PART open|short|VALUE (PART r1 r2 rc re1 re2), or q be_open|bc_open|\
-be_short|bc_short|ce_short|reversed";
+    let allowed = "none, PART open|short|VALUE (PART r1 r2 rc re1 re2 cin cout ce), or q \
+be_open|bc_open|be_short|bc_short|ce_short|reversed";
     match words {
         [w] if w.eq_ignore_ascii_case("none") => Ok(None),
         [part, mode] => {
@@ -648,13 +655,43 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
     }
     if is("check") {
         return match args {
-            [vcc, vb, ve, vc] => Ok(Command::Check(Readings {
-                vcc: signed("vcc", vcc)?,
-                vb: signed("vb", vb)?,
-                ve: signed("ve", ve)?,
-                vc: signed("vc", vc)?,
-            })),
-            _ => Err(err(Code::Usage, word, "", "check VCC VB VE VC (volts)")),
+            [vcc, vb, ve, vc, rest @ ..] => {
+                let mut tones = Tones::new();
+                for t in rest {
+                    let allowed = "F:G (test frequency in Hz, gain magnitude)";
+                    let (f, g) = t.split_once(':').ok_or(err(Code::Value, "ac", t, allowed))?;
+                    let reading = ToneReading {
+                        f: value("ac", f)?,
+                        gain: value("ac", g)?,
+                    };
+                    if crate::signaltest::validate_reading(&reading).is_err() {
+                        return Err(err(
+                            Code::Range,
+                            "ac",
+                            t,
+                            "F 0.1 Hz to 100 kHz, G 0 to 100000",
+                        ));
+                    }
+                    tones
+                        .push(reading)
+                        .map_err(|_| err(Code::Usage, "ac", t, "at most 4 gain readings"))?;
+                }
+                Ok(Command::Check(
+                    Readings {
+                        vcc: signed("vcc", vcc)?,
+                        vb: signed("vb", vb)?,
+                        ve: signed("ve", ve)?,
+                        vc: signed("vc", vc)?,
+                    },
+                    tones,
+                ))
+            }
+            _ => Err(err(
+                Code::Usage,
+                word,
+                "",
+                "check VCC VB VE VC [F:G ...] (volts; gain G at F Hz)",
+            )),
         };
     }
     if is("diagnose") {
@@ -685,6 +722,18 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
         };
     }
     if is("inject") {
+        if let [part, mode] = args {
+            if let Some(c) = capacitor(part) {
+                let state = if mode.eq_ignore_ascii_case("open") {
+                    CapState::Open
+                } else if mode.eq_ignore_ascii_case("short") {
+                    CapState::Short
+                } else {
+                    CapState::Fitted(value(part, mode)?)
+                };
+                return Ok(Command::InjectCapacitor(c, state));
+            }
+        }
         return fault(args).map(Command::Inject);
     }
     if is("lock") || is("unlock") {
