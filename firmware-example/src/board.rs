@@ -1,10 +1,15 @@
 //! The emulated board under test: part values drawn within their tolerance from a seed around
 //! the console's current design, an hFE within the profile's spread, one injected fault, and
-//! its node voltages from the core engine (`solve::solve`, the one circuit model).
+//! its node voltages from the core engine (`solve::solve`, the one circuit model). The
+//! capacitors are drawn within their tolerance too, and one of them may carry a fault of its own
+//! (open, short, a wrong value): its signal response comes from `response::gain_at`, and a short
+//! shows at DC as in the jig's set-up (RS stays on the input and RL on the output while the
+//! nodes are read).
 use biasjig_core::console::default_settings;
 use biasjig_core::device::Profile;
-use biasjig_core::solve::{solve, Conditions, SolveError};
-use biasjig_core::stage::{Fault, Readings, Resistor, Stage};
+use biasjig_core::response::{CapState, Caps};
+use biasjig_core::solve::{solve, Conditions, NodeLoads, OperatingPoint, SolveError};
+use biasjig_core::stage::{Capacitor, Fault, Readings, Resistor, Stage};
 
 /// The emulated bench supply sits within this fraction of the supply's own tolerance of its
 /// nominal value (a bench supply is set close to nominal).
@@ -37,6 +42,8 @@ pub struct BoardModel {
     profile: Profile,
     temp_c: f64,
     fault: Option<Fault>,
+    /// A capacitor fault (on top of `fault`, normally alone).
+    cap_fault: Option<(Capacitor, CapState)>,
     /// The drawn board: parts within tolerance, and its hFE at 25 °C.
     drawn: Option<(Stage, f64)>,
     nodes: Option<Readings>,
@@ -52,6 +59,7 @@ impl BoardModel {
             profile: s.profile,
             temp_c: s.temp_c,
             fault: None,
+            cap_fault: None,
             drawn: None,
             nodes: None,
         }
@@ -94,6 +102,17 @@ impl BoardModel {
         self.fault
     }
 
+    /// Put `state` in a capacitor's place (`None`: every capacitor as drawn).
+    pub fn set_cap_fault(&mut self, fault: Option<(Capacitor, CapState)>) {
+        self.cap_fault = fault;
+        self.nodes = None;
+    }
+
+    /// The injected capacitor fault.
+    pub fn cap_fault(&self) -> Option<(Capacitor, CapState)> {
+        self.cap_fault
+    }
+
     /// The drawn parts (nominal design, each within its tolerance) and the drawn hFE at 25 °C.
     pub fn drawn(&mut self) -> (Stage, f64) {
         if let Some(d) = self.drawn {
@@ -111,15 +130,17 @@ impl BoardModel {
         let p = &self.profile;
         let t = 0.5 * (g.unit() + 1.0);
         let beta = p.beta_min + t * (p.beta_max - p.beta_min);
+        // The capacitors after hFE, so that the resistor and hFE draws stay as they were.
+        for c in [&mut s.cin, &mut s.cout, &mut s.ce].into_iter().flatten() {
+            c.value *= 1.0 + c.tol * g.unit();
+        }
         self.drawn = Some((s, beta));
         (s, beta)
     }
 
-    /// The board's node voltages, V, from the core engine (drawn parts, the fault applied).
-    pub fn nodes(&mut self) -> Result<Readings, SolveError> {
-        if let Some(n) = self.nodes {
-            return Ok(n);
-        }
+    /// The board as the signal sees it (drawn parts, a resistor fault applied), its capacitors
+    /// (drawn, a capacitor fault applied) and its operating point in the jig's DC set-up.
+    pub fn solved(&mut self) -> Result<(Stage, Caps, OperatingPoint), SolveError> {
         let (mut stage, beta_25) = self.drawn();
         let mut device = None;
         match self.fault {
@@ -127,16 +148,39 @@ impl BoardModel {
             Some(f) => stage = stage.with_fault(f),
             None => {}
         }
+        let mut caps = Caps::nominal(&stage);
+        let mut dc = stage;
+        let mut loads = NodeLoads::NONE;
+        if let Some((c, state)) = self.cap_fault {
+            caps = caps.with(c, state);
+            if state == CapState::Short {
+                match c {
+                    Capacitor::Ce => dc = dc.with_fault(Fault::Short(Resistor::Re2)),
+                    Capacitor::Cin if stage.rs > 0.0 => loads.base = Some(stage.rs),
+                    Capacitor::Cin => dc = dc.with_fault(Fault::Short(Resistor::R2)),
+                    Capacitor::Cout => loads.collector = stage.rl,
+                }
+            }
+        }
         let op = solve(
-            &stage,
+            &dc,
             &self.profile,
             Conditions {
                 temp_c: self.temp_c,
                 beta_25,
                 fault: device,
-                loads: Default::default(),
+                loads,
             },
         )?;
+        Ok((stage, caps, op))
+    }
+
+    /// The board's node voltages, V, from the core engine (drawn parts, the fault applied).
+    pub fn nodes(&mut self) -> Result<Readings, SolveError> {
+        if let Some(n) = self.nodes {
+            return Ok(n);
+        }
+        let (_, _, op) = self.solved()?;
         let r = Readings {
             vcc: op.vcc,
             vb: op.vb,

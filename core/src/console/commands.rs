@@ -446,9 +446,11 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
     fn cmd_test<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
         let rd = self.measure(n)?;
+        #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
         let mut tones = super::parse::Tones::new();
-        let st = &self.settings;
-        if st.stage.rl.is_some() {
+        #[cfg(feature = "signal-test")]
+        if self.settings.stage.rl.is_some() {
+            let st = &self.settings;
             if let Ok(p) = crate::signaltest::propose(
                 &st.stage,
                 &st.profile,

@@ -76,12 +76,10 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         // The signal test: each gain reading against its window (the same call as `biasjig
         // check --ac`).
         let signal = SignalMeter::default();
-        let freqs: heapless::Vec<f64, MAX_TONES> = tones.as_slice().iter().map(|t| t.f).collect();
         let windows = if tones.is_empty() {
             heapless::Vec::new()
         } else {
-            signaltest::windows(&st.stage, &st.profile, &var, &signal, rd.vcc, &freqs)
-                .map_err(|e| Fail::new(Code::Range, format_args!("signal windows: {e}")))?
+            Self::tone_windows(st, &var, &signal, rd.vcc, tones)?
         };
         if signaltest::judge(&windows, tones.as_slice()).iter().any(|ok| !ok) {
             verdict.pass = false;
@@ -122,6 +120,38 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
         self.readings = Some((rd, src));
         Ok(())
+    }
+
+    /// The windows of the gain readings `tones` at the measured supply `vcc` (V).
+    #[cfg(feature = "signal-test")]
+    fn tone_windows(
+        st: &super::record::Settings,
+        var: &spread::Variation,
+        signal: &SignalMeter,
+        vcc: f64,
+        tones: &Tones,
+    ) -> Result<heapless::Vec<ToneWindow, MAX_TONES>, Fail> {
+        let freqs: heapless::Vec<f64, MAX_TONES> =
+            tones.as_slice().iter().map(|t| t.f).collect();
+        signaltest::windows(&st.stage, &st.profile, var, signal, vcc, &freqs)
+            .map_err(|e| Fail::new(Code::Range, format_args!("signal windows: {e}")))
+    }
+
+    /// Without the signal test (the budget build), gain readings are refused.
+    #[cfg(not(feature = "signal-test"))]
+    fn tone_windows(
+        _: &super::record::Settings,
+        _: &spread::Variation,
+        _: &SignalMeter,
+        _: f64,
+        _: &Tones,
+    ) -> Result<heapless::Vec<ToneWindow, MAX_TONES>, Fail> {
+        Err(Fail::new(
+            Code::Usage,
+            format_args!(
+                "no signal test on this unit (left out to fit its flash): run biasjig check --ac on a PC"
+            ),
+        ))
     }
 
     fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>) {
