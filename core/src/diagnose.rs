@@ -36,8 +36,10 @@ use crate::check::reading_error;
 use crate::device::Profile;
 use crate::limits::Meter;
 use crate::response::{self, CapState, Caps};
+use crate::settings::Inputs;
+use crate::settings::ReadNode;
 use crate::signaltest::{SignalMeter, ToneReading, MAX_TONES};
-use crate::solve::{solve_from, Conditions, NodeLoads, Start};
+use crate::solve::{solve_from, Conditions, NodeLoads, OperatingPoint, Start};
 use crate::spread::Variation;
 use crate::stage::{Capacitor, DeviceFault, Fault, Readings, Resistor, Stage};
 
@@ -318,6 +320,8 @@ struct Ctx<'a> {
     signal: SignalMeter,
     /// The test frequencies, Hz.
     tones: [f64; MAX_TONES],
+    /// The measuring inputs attached while the nodes are read.
+    inputs: Inputs,
     solves: u32,
     /// The last solution, where the next solve starts (successive solves differ a little).
     start: Option<Start>,
@@ -399,22 +403,48 @@ impl Ctx<'_> {
             }
             _ => ac_stage,
         };
-        self.solves = self.solves.saturating_add(1);
         let cond = Conditions {
             temp_c,
             beta_25: beta,
             fault,
-            loads,
+            loads: NodeLoads::NONE,
         };
-        let (op, next) = solve_from(&dc_stage, self.profile, cond, self.start.as_ref()).ok()?;
-        self.start = Some(next);
+        // The measuring inputs' loads, with the fault's own (a shorted coupling capacitor).
+        let with = |l: NodeLoads| NodeLoads {
+            base: match loads.base {
+                Some(r) => parallel_load(l.base, r),
+                None => l.base,
+            },
+            collector: match loads.collector {
+                Some(r) => parallel_load(l.collector, r),
+                None => l.collector,
+            },
+            emitter: l.emitter,
+        };
+        let (vb, ve, vc, op) = match self.inputs.common_loads() {
+            Some(l) => {
+                let op = self.solve(&dc_stage, cond.loaded(with(l)))?;
+                (op.vb, op.ve, op.vc, op)
+            }
+            None => {
+                // Each node read with only its own input attached: one solve per node.
+                let mut at = |n: ReadNode| {
+                    let l = self.inputs.loads_reading(n);
+                    self.solve(&dc_stage, cond.loaded(with(l)))
+                };
+                let b = at(ReadNode::Base)?;
+                let ve = at(ReadNode::Emitter)?.ve;
+                let vc = at(ReadNode::Collector)?.vc;
+                (b.vb, ve, vc, b)
+            }
+        };
         let mut y = [0.0; DIM];
         let tones = self.n.saturating_sub(3);
         for (k, slot) in y.iter_mut().enumerate() {
             *slot = match k {
-                0 => op.vb,
-                1 => op.ve,
-                2 => op.vc,
+                0 => vb,
+                1 => ve,
+                2 => vc,
                 _ if k - 3 < tones => {
                     let f = self.tones.get(k - 3).copied().unwrap_or(0.0);
                     response::magnitude_at(&ac_stage, &op, &caps, f)
@@ -423,6 +453,14 @@ impl Ctx<'_> {
             };
         }
         Some(y)
+    }
+
+    /// One solve, started from the last one.
+    fn solve(&mut self, stage: &Stage, cond: Conditions) -> Option<OperatingPoint> {
+        self.solves = self.solves.saturating_add(1);
+        let (op, next) = solve_from(stage, self.profile, cond, self.start.as_ref()).ok()?;
+        self.start = Some(next);
+        Some(op)
     }
 
     fn chi2(&self, inv: &Sym, y: Option<[f64; DIM]>) -> f64 {
@@ -619,7 +657,13 @@ fn covariance(
     y0: [f64; DIM],
 ) -> Sym {
     const INV_SQRT3: f64 = 0.577_350_269_189_625_8;
-    let float = floating(suspect);
+    // A node a fault leaves floating is held by the measuring input where one is modelled (the
+    // prediction then includes it); only an ideal meter's reading of it is uncertain.
+    let float = if ctx.inputs.is_ideal() {
+        floating(suspect)
+    } else {
+        [false; 3]
+    };
     let mut diag = [0.0; DIM];
     for (k, (d, m)) in diag.iter_mut().zip(ctx.measured).enumerate() {
         if k < 3 {
@@ -922,8 +966,8 @@ fn dictionary(stage: &Stage, signal: bool) -> Vec<Suspect, CAPACITY> {
 /// Rank the single-fault hypotheses against a board's readings.
 ///
 /// `stage` is the design (nominal parts and tolerances; its supply is replaced by the measured
-/// one), `var` gives the ambient range (parts and hFE spread come from the stage and profile),
-/// `meter` the accuracy of the readings.
+/// one), `var` gives the ambient range and the measuring inputs attached while the nodes were
+/// read (every hypothesis is solved with them), `meter` the accuracy of the readings.
 pub fn diagnose(
     stage: &Stage,
     profile: &Profile,
@@ -990,6 +1034,7 @@ pub fn diagnose_with_signal(
         n,
         tones: freqs,
         signal: *signal,
+        inputs: var.inputs,
         solves: 0,
         start: None,
     };

@@ -22,6 +22,8 @@
 //! | job | [`spread`] | worst case, Monte Carlo and sensitivity |
 //! | job | [`limits`] | guard-banded pass windows per node |
 //! | job | [`signaltest`] | test tones: the gain's spread, windows, proposed frequencies |
+//! | job | [`settings`] | the test settings (ambient, meter, measuring inputs), defaults, digest |
+//! | job | [`judge`] | the one judging path: supply, windows, verdict, diagnosis |
 //! | job | [`check`] | measured against limits: verdict and derived quantities |
 //! | job | [`diagnose`] | ranked single-fault hypotheses |
 //! | job | [`explain`] | faults in plain words, the measurement that separates them |
@@ -57,6 +59,7 @@ pub mod device;
 pub mod diagnose;
 pub mod estimate;
 pub mod explain;
+pub mod judge;
 pub mod limits;
 pub mod lowfreq;
 mod order;
@@ -65,6 +68,7 @@ pub mod predict;
 pub mod response;
 pub mod series;
 pub mod goertzel;
+pub mod settings;
 pub mod signaltest;
 pub mod signal;
 pub mod solve;

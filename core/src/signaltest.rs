@@ -38,16 +38,19 @@ pub struct SignalMeter {
 }
 
 impl Default for SignalMeter {
-    /// 2 % of the reading plus 0.02 V/V.
+    /// [`SignalMeter::DEFAULT`].
     fn default() -> Self {
-        Self {
-            gain_error: 0.02,
-            floor: 0.02,
-        }
+        Self::DEFAULT
     }
 }
 
 impl SignalMeter {
+    /// 2 % of the reading plus 0.02 V/V.
+    pub const DEFAULT: SignalMeter = SignalMeter {
+        gain_error: 0.02,
+        floor: 0.02,
+    };
+
     /// Check the fields: gain error between 0 and 50 %, floor between 0 and 10 V/V.
     pub fn validate(&self) -> Result<(), SignalTestError> {
         let ok = self.gain_error.is_finite()

@@ -1,10 +1,8 @@
 //! The commands that judge a board and spread a stage: `check`, `test`, `diagnose` and
 //! `spread`.
 //!
-//! `check` and `test` make the same core calls with the same choices as `biasjig check`: the
-//! plausibility refusals of [`check::plausible`], the limits of [`limits::limits`] at the
-//! measured supply over the ambient range of the settings, [`check::check`], and, when the
-//! board fails, [`diagnose::diagnose`] with the same meter and ambient range.
+//! `check` and `test` call the one judging path of `biasjig check`, [`crate::judge::judge`], with
+//! the console's stage, transistor and test settings (ambient, meter, measuring inputs).
 #![expect(
     clippy::result_large_err,
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
@@ -19,11 +17,11 @@ use super::parse::Tones;
 use super::jig::{Clock, Jig, Store};
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
-use crate::check::{self, Implausible, Verdict};
-use crate::diagnose::{self, Diagnosis};
+use crate::check::Verdict;
+use crate::diagnose::Diagnosis;
 use crate::explain::{FaultWords, SeparatingStep};
-use crate::limits;
-use crate::signaltest::{self, SignalMeter, ToneWindow, MAX_TONES};
+use crate::judge::{JudgeError, ToneVerdict};
+use crate::signaltest::MAX_TONES;
 #[cfg(feature = "monte-carlo")]
 use crate::spread::McSettings;
 use crate::spread::{self, Method, SpreadError};
@@ -44,14 +42,18 @@ pub struct LastCheck {
     pub verdict: Verdict,
     /// The ranked faults when the board failed.
     pub diagnosis: Option<Diagnosis>,
-    /// The gain readings judged (signal test), in order.
-    pub tones: Tones,
-    /// Their windows, in the same order.
-    pub windows: heapless::Vec<ToneWindow, MAX_TONES>,
+    /// The gain readings judged (signal test), with their windows, in order.
+    pub tones: heapless::Vec<ToneVerdict, MAX_TONES>,
 }
 
-fn refused(why: Implausible) -> Fail {
-    Fail::new(Code::Implausible, format_args!("readings refused: {why}"))
+/// The status of a board the judging path did not judge.
+pub(super) fn judge_fail(e: JudgeError) -> Fail {
+    let code = match e {
+        JudgeError::Implausible(_) | JudgeError::Supply { .. } => Code::Implausible,
+        JudgeError::Settings(_) | JudgeError::Stage(_) | JudgeError::NotActive(_) => Code::Range,
+        _ => Code::Solve,
+    };
+    Fail::new(code, format_args!("{e}"))
 }
 
 fn spread_fail(what: &str, e: SpreadError) -> Fail {
@@ -63,95 +65,39 @@ fn spread_fail(what: &str, e: SpreadError) -> Fail {
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
-    /// Judge readings: plausibility, limits at the measured supply, verdict and, when the board
-    /// fails, the diagnosis. Keeps the result as the last check (nothing changes on an error).
+    /// Judge readings through the one judging path ([`crate::judge::judge`]: the supply window,
+    /// the nominal region, plausibility, windows at the measured supply over the test ambient
+    /// with the measuring inputs attached, verdict and, when the board fails, the diagnosis).
+    /// Keeps the result as the last check (nothing changes on an error).
     #[inline(never)]
     pub(super) fn judge(&mut self, rd: Readings, tones: &Tones, src: Source) -> Result<(), Fail> {
         let st = &self.settings;
-        let var = st.variation();
-        check::plausible(&st.stage, &st.meter, &rd).map_err(refused)?;
-        let lim = limits::limits(&st.stage, &st.profile, &var, &st.meter, rd.vcc)
-            .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
-        let mut verdict = check::check(&st.stage, &lim, &st.meter, &rd).map_err(refused)?;
-        // The signal test: each gain reading against its window (the same call as `biasjig
-        // check --ac`).
-        let signal = SignalMeter::default();
-        let windows = if tones.is_empty() {
-            heapless::Vec::new()
-        } else {
-            Self::tone_windows(st, &var, &signal, rd.vcc, tones)?
-        };
-        if signaltest::judge(&windows, tones.as_slice()).iter().any(|ok| !ok) {
-            verdict.pass = false;
+        if cfg!(not(feature = "signal-test")) && !tones.is_empty() {
+            return Err(Fail::new(
+                Code::Usage,
+                format_args!(
+                    "no signal test on this unit (left out to fit its flash): run biasjig check \
+                     --ac on a PC"
+                ),
+            ));
         }
-        if verdict.pass {
-            self.last = Some(LastCheck {
-                readings: rd,
-                source: src,
-                verdict,
-                diagnosis: None,
-                tones: *tones,
-                windows,
-            });
-        } else {
-            // The diagnosis (about 2 KB) goes straight into the session state: one value on
-            // the stack, no further copies.
-            match diagnose::diagnose_with_signal(
-                &st.stage,
-                &st.profile,
-                &rd,
-                tones.as_slice(),
-                &st.meter,
-                &signal,
-                &var,
-            ) {
-                Ok(d) => {
-                    self.last = Some(LastCheck {
-                        readings: rd,
-                        source: src,
-                        verdict,
-                        diagnosis: Some(d),
-                        tones: *tones,
-                        windows,
-                    });
-                }
-                Err(e) => return Err(Fail::new(Code::Solve, format_args!("diagnosis: {e}"))),
-            }
-        }
+        let j = crate::judge::judge_with_signal(
+            &st.stage,
+            &st.profile,
+            &st.test_settings(),
+            &rd,
+            tones.as_slice(),
+        )
+        .map_err(judge_fail)?;
+        self.last = Some(LastCheck {
+            readings: rd,
+            source: src,
+            verdict: j.verdict,
+            diagnosis: j.diagnosis,
+            tones: j.tones,
+        });
         self.readings = Some((rd, src));
         Ok(())
-    }
-
-    /// The windows of the gain readings `tones` at the measured supply `vcc` (V).
-    #[cfg(feature = "signal-test")]
-    fn tone_windows(
-        st: &super::record::Settings,
-        var: &spread::Variation,
-        signal: &SignalMeter,
-        vcc: f64,
-        tones: &Tones,
-    ) -> Result<heapless::Vec<ToneWindow, MAX_TONES>, Fail> {
-        let freqs: heapless::Vec<f64, MAX_TONES> =
-            tones.as_slice().iter().map(|t| t.f).collect();
-        signaltest::windows(&st.stage, &st.profile, var, signal, vcc, &freqs)
-            .map_err(|e| Fail::new(Code::Range, format_args!("signal windows: {e}")))
-    }
-
-    /// Without the signal test (the budget build), gain readings are refused.
-    #[cfg(not(feature = "signal-test"))]
-    fn tone_windows(
-        _: &super::record::Settings,
-        _: &spread::Variation,
-        _: &SignalMeter,
-        _: f64,
-        _: &Tones,
-    ) -> Result<heapless::Vec<ToneWindow, MAX_TONES>, Fail> {
-        Err(Fail::new(
-            Code::Usage,
-            format_args!(
-                "no signal test on this unit (left out to fit its flash): run biasjig check --ac on a PC"
-            ),
-        ))
     }
 
     fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>) {
@@ -184,14 +130,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     u8::from(n.ok)
                 ));
             }
-            for (t, w) in l.tones.as_slice().iter().zip(&l.windows) {
+            for t in &l.tones {
                 r.data(format_args!(
                     "ac f={} measured={} low={} high={} ok={}",
-                    Num(t.f),
-                    Num(t.gain),
-                    Num(w.low),
-                    Num(w.high),
-                    u8::from(w.contains(t.gain))
+                    Num(t.reading.f),
+                    Num(t.reading.gain),
+                    Num(t.window.low),
+                    Num(t.window.high),
+                    u8::from(t.ok)
                 ));
             }
             r.data(format_args!(
@@ -225,14 +171,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     if n.ok { "" } else { "   OUT" }
                 ));
             }
-            for (t, w) in l.tones.as_slice().iter().zip(&l.windows) {
+            for t in &l.tones {
                 r.data(format_args!(
                     "gain at {}: {} window {} to {}{}",
-                    Eng::new(t.f, "Hz"),
-                    Fixed(t.gain, 3),
-                    Fixed(w.low, 3),
-                    Fixed(w.high, 3),
-                    if w.contains(t.gain) { "" } else { "   OUT" }
+                    Eng::new(t.reading.f, "Hz"),
+                    Fixed(t.reading.gain, 3),
+                    Fixed(t.window.low, 3),
+                    Fixed(t.window.high, 3),
+                    if t.ok { "" } else { "   OUT" }
                 ));
             }
             let mut beta = Text::default();

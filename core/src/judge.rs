@@ -1,0 +1,273 @@
+//! The one judging path: from a stage, its transistor, the test settings and a board's readings
+//! to the windows, the verdict and the diagnosis. `biasjig check`, `batch`, the station and the
+//! console's `check`/`test` all call [`judge`]; `biasjig limits` and the console's `limits`
+//! publish [`windows`], the very windows [`judge`] applies at the same supply.
+//!
+//! In order:
+//! 1. the test settings are checked ([`TestSettings::validate`]);
+//! 2. the measured supply must lie in the supply window (the stage's nominal ± its supply
+//!    tolerance, [`supply_window`]): outside it the board is not judged ([`JudgeError::Supply`]);
+//! 3. the stage must be forward active at its nominal point ([`nominal_region`]): a stage that
+//!    does not work gets no windows ([`JudgeError::NotActive`]);
+//! 4. readings that cannot come from a powered, correctly probed board are refused
+//!    ([`check::plausible`]);
+//! 5. the windows at the measured supply over the test ambient with the measuring inputs
+//!    attached ([`limits::limits`]), the verdict ([`check::check`]) and, for a failed board, the
+//!    diagnosis with the same meter, ambient and inputs ([`diagnose::diagnose`]).
+
+use crate::check::{self, Implausible, Verdict};
+use crate::device::Profile;
+use crate::diagnose::{self, DiagnoseError, Diagnosis};
+use crate::limits::{self, Limits, LimitsError, Window};
+use crate::settings::{SettingsError, TestSettings};
+use crate::solve::{solve, Conditions, Region, SolveError};
+use crate::spread::Variation;
+use crate::signaltest::{self, SignalTestError, ToneReading, ToneWindow, MAX_TONES};
+use crate::stage::{Readings, Stage, StageError};
+
+/// The supply window: the stage's nominal supply ± its supply tolerance (`Stage::vcc.tol`), V.
+/// A measured supply outside it is never a pass.
+pub fn supply_window(stage: &Stage) -> Window {
+    let v = stage.vcc.value;
+    let t = stage.vcc.tol;
+    Window {
+        low: v * (1.0 - t),
+        high: v * (1.0 + t),
+    }
+}
+
+/// The operating region of the stage at its nominal point: nominal parts and supply, typical
+/// hFE, the middle of the test ambient, nothing attached.
+pub fn nominal_region(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+) -> Result<Region, SolveError> {
+    let temp = 0.5 * (settings.temp_min_c + settings.temp_max_c);
+    solve(stage, profile, Conditions::typical(profile).at(temp)).map(|op| op.region)
+}
+
+/// The windows a board is judged against at one measured supply.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Windows {
+    /// The supply window (not widened by the meter: a supply read outside it is refused), V.
+    pub supply: Window,
+    /// The node windows at the measured supply.
+    pub limits: Limits,
+}
+
+/// Why a board was not judged, or no windows could be given.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[non_exhaustive]
+pub enum JudgeError {
+    /// A test setting is out of range.
+    Settings(SettingsError),
+    /// The stage or transistor is out of range.
+    Stage(StageError),
+    /// The measured supply lies outside the supply window: the board is not judged.
+    Supply {
+        /// The measured supply, V.
+        measured: f64,
+        /// The supply window, V.
+        window: Window,
+    },
+    /// The stage is not forward active at its nominal point: it gets no windows.
+    NotActive(Region),
+    /// The readings cannot come from a powered, correctly probed board.
+    Implausible(Implausible),
+    /// The windows could not be computed.
+    Limits(LimitsError),
+    /// The diagnosis could not be made.
+    Diagnose(DiagnoseError),
+    /// The nominal point could not be solved.
+    Solve(SolveError),
+    /// The signal test's windows could not be given (a frequency or gain out of range, no
+    /// load, too many readings).
+    Signal(SignalTestError),
+}
+
+impl core::fmt::Display for JudgeError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        use crate::units::Fixed;
+        match self {
+            Self::Settings(e) => write!(f, "{e}"),
+            Self::Stage(e) => write!(f, "stage: {e}"),
+            Self::Supply { measured, window } => write!(
+                f,
+                "the supply reads {} V, outside its window {} V to {} V (nominal ± supply \
+                 tolerance): the board is not judged; set the supply and test again",
+                Fixed(*measured, 3),
+                Fixed(window.low, 3),
+                Fixed(window.high, 3)
+            ),
+            Self::NotActive(r) => write!(
+                f,
+                "the stage is not forward active at its nominal point (region: {}): it gets no \
+                 windows; change the bias parts",
+                r.name()
+            ),
+            Self::Implausible(e) => write!(f, "readings refused: {e}"),
+            Self::Limits(e) => write!(f, "limits: {e}"),
+            Self::Diagnose(e) => write!(f, "diagnosis: {e}"),
+            Self::Solve(e) => write!(f, "nominal point: {e}"),
+            Self::Signal(e) => write!(f, "signal test: {e}"),
+        }
+    }
+}
+
+/// The variation the windows and the diagnosis cover: the test ambient, read through the inputs.
+pub fn variation(settings: &TestSettings) -> Variation {
+    settings.variation().read_through(settings.inputs)
+}
+
+/// The stage is valid, its settings are, and it is forward active at its nominal point.
+fn usable(stage: &Stage, profile: &Profile, settings: &TestSettings) -> Result<(), JudgeError> {
+    settings.validate().map_err(JudgeError::Settings)?;
+    stage.validate().map_err(JudgeError::Stage)?;
+    profile.validate().map_err(|e| {
+        JudgeError::Limits(LimitsError::Spread(crate::spread::SpreadError::Profile(e)))
+    })?;
+    match nominal_region(stage, profile, settings).map_err(JudgeError::Solve)? {
+        Region::Active => Ok(()),
+        r => Err(JudgeError::NotActive(r)),
+    }
+}
+
+/// The windows [`judge`] applies to a board whose supply reads `vcc` (V). `biasjig limits`
+/// publishes these (at the nominal supply unless told `--at-vcc`).
+pub fn windows(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    vcc: f64,
+) -> Result<Windows, JudgeError> {
+    usable(stage, profile, settings)?;
+    let limits = limits::limits(stage, profile, &variation(settings), &settings.meter, vcc)
+        .map_err(JudgeError::Limits)?;
+    Ok(Windows {
+        supply: supply_window(stage),
+        limits,
+    })
+}
+
+/// The signal test's windows [`judge_with_signal`] applies at the measured supply `vcc` (V) for
+/// the test frequencies `freqs` (Hz, at most [`MAX_TONES`]). `biasjig limits --ac-f` publishes
+/// these.
+pub fn tone_windows(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    vcc: f64,
+    freqs: &[f64],
+) -> Result<heapless::Vec<ToneWindow, MAX_TONES>, JudgeError> {
+    usable(stage, profile, settings)?;
+    signaltest::windows(
+        stage,
+        profile,
+        &variation(settings),
+        &settings.signal,
+        vcc,
+        freqs,
+    )
+    .map_err(JudgeError::Signal)
+}
+
+/// One gain reading judged.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ToneVerdict {
+    /// The reading.
+    pub reading: ToneReading,
+    /// Its window.
+    pub window: ToneWindow,
+    /// Inside the window.
+    pub ok: bool,
+}
+
+/// One judged board.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Judgement {
+    /// The windows applied.
+    pub windows: Windows,
+    /// The verdict per node and overall (failed when a gain reading fails too), with the
+    /// derived quantities.
+    pub verdict: Verdict,
+    /// The ranked faults when the board failed.
+    pub diagnosis: Option<Diagnosis>,
+    /// The gain readings judged, in the order given.
+    pub tones: heapless::Vec<ToneVerdict, MAX_TONES>,
+}
+
+/// Judge one board by its DC readings (see the module notes for the order of the steps).
+pub fn judge(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+) -> Result<Judgement, JudgeError> {
+    judge_with_signal(stage, profile, settings, readings, &[])
+}
+
+/// Judge one board by its DC readings and its gain readings `tones` (the signal test): each gain
+/// against its window ([`tone_windows`]), the verdict failed when any window fails, and the
+/// diagnosis on DC and signal readings together ([`diagnose::diagnose_with_signal`]).
+pub fn judge_with_signal(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+) -> Result<Judgement, JudgeError> {
+    settings.validate().map_err(JudgeError::Settings)?;
+    if tones.len() > MAX_TONES {
+        return Err(JudgeError::Signal(SignalTestError::TooMany));
+    }
+    for t in tones {
+        signaltest::validate_reading(t).map_err(JudgeError::Signal)?;
+    }
+    let r = readings;
+    if ![r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
+        return Err(JudgeError::Implausible(Implausible::NotFinite));
+    }
+    let supply = supply_window(stage);
+    if !supply.contains(r.vcc) {
+        return Err(JudgeError::Supply {
+            measured: r.vcc,
+            window: supply,
+        });
+    }
+    usable(stage, profile, settings)?;
+    let meter = &settings.meter;
+    check::plausible(stage, meter, r).map_err(JudgeError::Implausible)?;
+    let var = variation(settings);
+    let limits = limits::limits(stage, profile, &var, meter, r.vcc).map_err(JudgeError::Limits)?;
+    let mut verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
+    let mut judged: heapless::Vec<ToneVerdict, MAX_TONES> = heapless::Vec::new();
+    if !tones.is_empty() {
+        let freqs: heapless::Vec<f64, MAX_TONES> = tones.iter().map(|t| t.f).collect();
+        let w = signaltest::windows(stage, profile, &var, &settings.signal, r.vcc, &freqs)
+            .map_err(JudgeError::Signal)?;
+        for (t, w) in tones.iter().zip(w) {
+            let ok = w.contains(t.gain);
+            verdict.pass &= ok;
+            let _ = judged.push(ToneVerdict {
+                reading: *t,
+                window: w,
+                ok,
+            });
+        }
+    }
+    let diagnosis = if verdict.pass {
+        None
+    } else {
+        Some(
+            diagnose::diagnose_with_signal(stage, profile, r, tones, meter, &settings.signal, &var)
+                .map_err(JudgeError::Diagnose)?,
+        )
+    };
+    Ok(Judgement {
+        windows: Windows { supply, limits },
+        verdict,
+        diagnosis,
+        tones: judged,
+    })
+}
