@@ -47,6 +47,53 @@ pub fn nominal_region(
     solve(stage, profile, Conditions::typical(profile).at(temp)).map(|op| op.region)
 }
 
+/// What the measuring inputs read at the stage's nodes under `cond` (its loads are replaced by
+/// the inputs'): one solve with every input attached (`together`), or one per node with only
+/// its own (`one`). The supply reading is the stage's supply.
+pub fn readings_through(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    inputs: &crate::settings::Inputs,
+) -> Result<Readings, SolveError> {
+    use crate::settings::ReadNode;
+    let (vb, ve, vc) = match inputs.common_loads() {
+        Some(loads) => {
+            let op = solve(stage, profile, cond.loaded(loads))?;
+            (op.vb, op.ve, op.vc)
+        }
+        None => {
+            let at = |n: ReadNode| solve(stage, profile, cond.loaded(inputs.loads_reading(n)));
+            (
+                at(ReadNode::Base)?.vb,
+                at(ReadNode::Emitter)?.ve,
+                at(ReadNode::Collector)?.vc,
+            )
+        }
+    };
+    Ok(Readings {
+        vcc: stage.vcc.value,
+        vb,
+        ve,
+        vc,
+    })
+}
+
+/// Above this ratio of the divider's Thévenin resistance (R1 ‖ R2) to the measuring-input
+/// resistance, the inputs pull the base noticeably (about the ratio itself, as a fraction of
+/// the base's distance from the rail it is pulled to): 1 % (common practice: a meter at least a
+/// hundred times the source resistance).
+pub const INPUT_LOADING_LIMIT: f64 = 0.01;
+
+/// The ratio of the divider's Thévenin resistance R1 ‖ R2 to the input resistance, when inputs
+/// are modelled (see [`INPUT_LOADING_LIMIT`]).
+pub fn input_loading(stage: &Stage, inputs: &crate::settings::Inputs) -> Option<f64> {
+    let rin = inputs.r?;
+    let (r1, r2) = (stage.r1.value, stage.r2.value);
+    let rth = r1 * r2 / (r1 + r2);
+    Some(rth / rin)
+}
+
 /// The windows a board is judged against at one measured supply.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Windows {

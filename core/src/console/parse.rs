@@ -348,7 +348,11 @@ fn value_in<'a>(field: &'a str, text: &'a str, unit: Unit) -> Result<f64, ParseE
 }
 
 /// A value of a field of `unit`, or `none`.
-fn optional_in<'a>(field: &'a str, text: &'a str, unit: Unit) -> Result<Option<f64>, ParseError<'a>> {
+fn optional_in<'a>(
+    field: &'a str,
+    text: &'a str,
+    unit: Unit,
+) -> Result<Option<f64>, ParseError<'a>> {
     if text.eq_ignore_ascii_case("none") {
         Ok(None)
     } else {
@@ -437,7 +441,11 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
         return Ok(Setting::Resistor(r, value_in(name, v, Unit::Ohm)?, tol));
     }
     if let Some(c) = capacitor(name) {
-        return Ok(Setting::Capacitor(c, optional_in(name, v, Unit::Farad)?, tol));
+        return Ok(Setting::Capacitor(
+            c,
+            optional_in(name, v, Unit::Farad)?,
+            tol,
+        ));
     }
     if n("vcc") {
         return Ok(Setting::Vcc(value_in(name, v, Unit::Volt)?, tol));

@@ -13,9 +13,9 @@ use biasjig_core::units;
 use serde_json::{json, Value};
 
 use crate::boardlog;
-use crate::cmd::check::{evaluate, log_record, outcome_json, MeterArgs, Outcome, Station};
+use crate::cmd::check::{evaluate, log_record, outcome_json, Outcome, Station};
 use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK, EXIT_USAGE};
-use crate::stage_args::StageArgs;
+use crate::stage_args::{InputArgs, StageArgs, TestArgs};
 use crate::{json, Global};
 
 /// `biasjig batch`: the stage by flags (`--vcc` the nominal supply) or `--design FILE`.
@@ -30,7 +30,9 @@ pub struct Cmd {
     #[arg(long, value_name = "FILE")]
     log: Option<PathBuf>,
     #[command(flatten)]
-    meter: MeterArgs,
+    test: TestArgs,
+    #[command(flatten)]
+    inputs: InputArgs,
 }
 
 /// One readings row, or why it is bad.
@@ -104,8 +106,10 @@ pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
 impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
-        let resolved = self.stage.resolve()?;
-        let st = Station::new(&resolved, self.meter.meter());
+        let resolved = self
+            .stage
+            .resolve_with(Some(&self.inputs), Some(&self.test))?;
+        let st = Station::new(&resolved);
         let text = std::fs::read_to_string(&self.readings).map_err(|e| {
             CliError::usage(format!(
                 "{}: cannot read the readings: {e}",
@@ -132,12 +136,12 @@ impl Cmd {
                 boardlog::append(path, &log_record(&st, Some(&serial), &r, &o))?;
             }
             match &o {
-                Outcome::Judged(v, _) if v.pass => passed += 1,
+                Outcome::Judged(j) if j.verdict.pass => passed += 1,
                 Outcome::Judged(..) => failed += 1,
                 Outcome::Refused(_) => refused += 1,
             }
             if g.json {
-                let mut doc = outcome_json(&o);
+                let mut doc = outcome_json(&o, r.vcc);
                 if let Some(obj) = doc.as_object_mut() {
                     obj.insert("serial".into(), json!(serial));
                     obj.insert("line".into(), json!(line));
@@ -185,11 +189,11 @@ impl Cmd {
 fn summary_line(st: &Station, o: &Outcome) -> String {
     match o {
         Outcome::Refused(why) => why.to_string(),
-        Outcome::Judged(_, None) => String::new(),
-        Outcome::Judged(_, Some(d)) => d
-            .faults()
-            .next()
-            .map_or(String::new(), |h| crate::cmd::check::describe(&st.stage, h)),
+        Outcome::Judged(j) => j.diagnosis.as_ref().map_or(String::new(), |d| {
+            d.faults()
+                .next()
+                .map_or(String::new(), |h| crate::cmd::check::describe(&st.stage, h))
+        }),
     }
 }
 
