@@ -131,7 +131,7 @@ impl Cmd {
                     continue;
                 }
             };
-            let o = evaluate(&st, &r)?;
+            let o = evaluate(&st, &r, &[])?;
             if let Some(path) = &self.log {
                 boardlog::append(path, &log_record(&st, Some(&serial), &r, &o))?;
             }
