@@ -35,7 +35,9 @@ use heapless::Vec;
 use crate::check::reading_error;
 use crate::device::Profile;
 use crate::limits::Meter;
-use crate::response::{self, CapState, Caps};
+#[cfg(feature = "signal-test")]
+use crate::response;
+use crate::response::{CapState, Caps};
 use crate::settings::Inputs;
 use crate::settings::ReadNode;
 use crate::signaltest::{SignalMeter, ToneReading, MAX_TONES};
@@ -218,7 +220,8 @@ struct Sym {
 
 #[expect(
     clippy::indexing_slicing,
-    reason = "fixed DIM×DIM arrays indexed by loop counters below n <= DIM"
+    clippy::needless_range_loop,
+    reason = "fixed DIM×DIM arrays indexed by loop counters below n <= DIM (row and column)"
 )]
 impl Sym {
     fn diag(v: [f64; DIM], n: usize) -> Self {
@@ -319,6 +322,7 @@ struct Ctx<'a> {
     /// The accuracy of a gain reading.
     signal: SignalMeter,
     /// The test frequencies, Hz.
+    #[cfg_attr(not(feature = "signal-test"), expect(dead_code))]
     tones: [f64; MAX_TONES],
     /// The measuring inputs attached while the nodes are read.
     inputs: Inputs,
@@ -352,13 +356,11 @@ impl Ctx<'_> {
         match tweak {
             Tweak::None => {}
             Tweak::Scale(r, k) => stage.part_mut(r).value *= k,
-            Tweak::ScaleCap(c, k) => {
-                match c {
-                    Capacitor::Cin => stage.cin.iter_mut().for_each(|p| p.value *= k),
-                    Capacitor::Cout => stage.cout.iter_mut().for_each(|p| p.value *= k),
-                    Capacitor::Ce => stage.ce.iter_mut().for_each(|p| p.value *= k),
-                }
-            }
+            Tweak::ScaleCap(c, k) => match c {
+                Capacitor::Cin => stage.cin.iter_mut().for_each(|p| p.value *= k),
+                Capacitor::Cout => stage.cout.iter_mut().for_each(|p| p.value *= k),
+                Capacitor::Ce => stage.ce.iter_mut().for_each(|p| p.value *= k),
+            },
             Tweak::Temp(t) => temp_c = t,
             Tweak::Supply(v) => stage.vcc.value = v,
         }
@@ -439,21 +441,25 @@ impl Ctx<'_> {
             }
         };
         let mut y = [0.0; DIM];
-        let tones = self.n.saturating_sub(3);
-        for (k, slot) in y.iter_mut().enumerate() {
-            *slot = match k {
-                0 => vb,
-                1 => ve,
-                2 => vc,
-                _ if k - 3 < tones => {
-                    let f = self.tones.get(k - 3).copied().unwrap_or(0.0);
-                    response::magnitude_at(&ac_stage, &op, &caps, f)
-                }
-                _ => 0.0,
-            };
+        for (slot, v) in y.iter_mut().zip([vb, ve, vc]) {
+            *slot = v;
         }
+        self.signal_readings(&mut y, &ac_stage, &op, &caps);
         Some(y)
     }
+
+    /// The gains at the test frequencies into `y[3..n]`.
+    #[cfg(feature = "signal-test")]
+    fn signal_readings(&self, y: &mut [f64; DIM], stage: &Stage, op: &OperatingPoint, caps: &Caps) {
+        let tones = self.n.saturating_sub(3);
+        for (slot, f) in y.iter_mut().skip(3).zip(self.tones.iter()).take(tones) {
+            *slot = response::magnitude_at(stage, op, caps, *f);
+        }
+    }
+
+    /// Without the signal test there are no gain readings.
+    #[cfg(not(feature = "signal-test"))]
+    fn signal_readings(&self, _: &mut [f64; DIM], _: &Stage, _: &OperatingPoint, _: &Caps) {}
 
     /// One solve, started from the last one.
     fn solve(&mut self, stage: &Stage, cond: Conditions) -> Option<OperatingPoint> {
@@ -1004,6 +1010,7 @@ pub fn diagnose_with_signal(
         && readings.vc.is_finite()
         && readings.vcc.is_finite())
         || tones.len() > MAX_TONES
+        || (cfg!(not(feature = "signal-test")) && !tones.is_empty())
         || tones
             .iter()
             .any(|t| crate::signaltest::validate_reading(t).is_err())

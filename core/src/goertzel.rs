@@ -116,7 +116,9 @@ mod tests {
 
     /// A small seeded generator for the noise.
     fn noise(state: &mut u64) -> f32 {
-        *state = state.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+        *state = state
+            .wrapping_mul(6_364_136_223_846_793_005)
+            .wrapping_add(1);
         ((*state >> 40) as f32 / (1u64 << 24) as f32) - 0.5
     }
 

@@ -20,9 +20,9 @@ use crate::device::Profile;
 use crate::diagnose::{self, DiagnoseError, Diagnosis};
 use crate::limits::{self, Limits, LimitsError, Window};
 use crate::settings::{SettingsError, TestSettings};
+use crate::signaltest::{self, SignalTestError, ToneReading, ToneWindow, MAX_TONES};
 use crate::solve::{solve, Conditions, Region, SolveError};
 use crate::spread::Variation;
-use crate::signaltest::{self, SignalTestError, ToneReading, ToneWindow, MAX_TONES};
 use crate::stage::{Readings, Stage, StageError};
 
 /// The supply window: the stage's nominal supply ± its supply tolerance (`Stage::vcc.tol`), V.
@@ -287,8 +287,15 @@ pub fn judge_with_signal(
     check::plausible(stage, meter, r).map_err(JudgeError::Implausible)?;
     let var = variation(settings);
     let limits = limits::limits(stage, profile, &var, meter, r.vcc).map_err(JudgeError::Limits)?;
+    #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
     let mut verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
+    #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
     let mut judged: heapless::Vec<ToneVerdict, MAX_TONES> = heapless::Vec::new();
+    #[cfg(not(feature = "signal-test"))]
+    if !tones.is_empty() {
+        return Err(JudgeError::Signal(SignalTestError::NotBuilt));
+    }
+    #[cfg(feature = "signal-test")]
     if !tones.is_empty() {
         let freqs: heapless::Vec<f64, MAX_TONES> = tones.iter().map(|t| t.f).collect();
         let w = signaltest::windows(stage, profile, &var, &settings.signal, r.vcc, &freqs)

@@ -39,7 +39,9 @@ pub struct Caps {
 impl Caps {
     /// The stage's own capacitors at their nominal values (an ideal one is a short).
     pub fn nominal(stage: &Stage) -> Self {
-        let of = |p: Option<crate::stage::Part>| p.map_or(CapState::Short, |p| CapState::Fitted(p.value));
+        let of = |p: Option<crate::stage::Part>| {
+            p.map_or(CapState::Short, |p| CapState::Fitted(p.value))
+        };
         Self {
             cin: of(stage.cin),
             cout: of(stage.cout),

@@ -166,6 +166,8 @@ pub enum SignalTestError {
     Spread(SpreadError),
     /// The nominal board is not forward active, or its network is singular.
     NotActive,
+    /// This build leaves the signal test out (the core feature `signal-test`).
+    NotBuilt,
 }
 
 impl core::fmt::Display for SignalTestError {
@@ -180,6 +182,9 @@ impl core::fmt::Display for SignalTestError {
             Self::NoLoad => f.write_str("the signal test needs the load RL (the gain is read at it)"),
             Self::Spread(e) => write!(f, "{e}"),
             Self::NotActive => f.write_str("the nominal board is not forward active"),
+            Self::NotBuilt => f.write_str(
+                "this build has no signal test (left out to fit its flash): run biasjig check --ac on a PC",
+            ),
         }
     }
 }
@@ -245,7 +250,12 @@ fn each_cap_corner(stage: &Stage, op: &OperatingPoint, freq: f64, mut f: impl Fn
     let mask = cap_mask(stage);
     let mut sub: u8 = 0;
     loop {
-        f(response::magnitude_at(stage, op, &cap_corner(stage, mask, sub), freq));
+        f(response::magnitude_at(
+            stage,
+            op,
+            &cap_corner(stage, mask, sub),
+            freq,
+        ));
         if sub == mask {
             return;
         }
@@ -354,7 +364,9 @@ pub fn monte_carlo(
     seed: u64,
 ) -> Result<(Vec<ToneStats, MAX_TONES>, u32), SignalTestError> {
     check_inputs(stage, freqs)?;
-    stage.validate().map_err(|e| SpreadError::Stage(e).into_signal())?;
+    stage
+        .validate()
+        .map_err(|e| SpreadError::Stage(e).into_signal())?;
     profile
         .validate()
         .map_err(|e| SpreadError::Profile(e).into_signal())?;
@@ -461,7 +473,9 @@ pub fn propose(
     meter: &SignalMeter,
 ) -> Result<Proposal, SignalTestError> {
     check_inputs(stage, &[])?;
-    stage.validate().map_err(|e| SpreadError::Stage(e).into_signal())?;
+    stage
+        .validate()
+        .map_err(|e| SpreadError::Stage(e).into_signal())?;
     var.validate()?;
     let cond = Conditions {
         temp_c: var.temp_centre_c(),

@@ -58,7 +58,10 @@ fn par(a: f64, b: f64) -> f64 {
 /// Complex division of two gains.
 fn ratio(a: Gain, b: Gain) -> (f64, f64) {
     let d = b.re * b.re + b.im * b.im;
-    ((a.re * b.re + a.im * b.im) / d, (a.im * b.re - a.re * b.im) / d)
+    (
+        (a.re * b.re + a.im * b.im) / d,
+        (a.im * b.re - a.re * b.im) / d,
+    )
 }
 
 fn close(a: f64, b: f64, rel: f64) -> bool {
@@ -103,7 +106,10 @@ fn input_coupling_alone_is_a_first_order_high_pass() {
         let (re, im) = ratio(gain_at(&s, &op, &Caps::nominal(&s), f).unwrap(), mid);
         // jx/(1 + jx), x = f/fp.
         let want = (k * k / (1.0 + k * k), k / (1.0 + k * k));
-        assert!(close(re, want.0, 0.01) && close(im, want.1, 0.01), "{k}: {re} {im} vs {want:?}");
+        assert!(
+            close(re, want.0, 0.01) && close(im, want.1, 0.01),
+            "{k}: {re} {im} vs {want:?}"
+        );
     }
 }
 

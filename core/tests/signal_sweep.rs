@@ -17,7 +17,9 @@ use biasjig_core::response::{magnitude_at, CapState, Caps};
 use biasjig_core::signaltest::{judge, propose, windows, SignalMeter, ToneReading};
 use biasjig_core::solve::{solve, Conditions, NodeLoads};
 use biasjig_core::spread::Variation;
-use biasjig_core::stage::{Capacitor, DeviceFault, Fault, Part, Polarity, Readings, Resistor, Stage};
+use biasjig_core::stage::{
+    Capacitor, DeviceFault, Fault, Part, Polarity, Readings, Resistor, Stage,
+};
 
 /// SplitMix64, the same numbers on every platform.
 struct Rng(u64);
@@ -42,14 +44,7 @@ impl Rng {
 }
 
 #[allow(clippy::too_many_arguments)]
-fn stage(
-    polarity: Polarity,
-    vcc: f64,
-    r: [f64; 5],
-    rl: f64,
-    rs: f64,
-    c: [f64; 3],
-) -> Stage {
+fn stage(polarity: Polarity, vcc: f64, r: [f64; 5], rl: f64, rs: f64, c: [f64; 3]) -> Stage {
     Stage {
         polarity,
         vcc: Part::new(vcc, 0.0),
@@ -134,7 +129,9 @@ fn readings_of(
     // The DC test set-up: RS on the input and RL on the output stay connected.
     let mut loads = NodeLoads::NONE;
     let dc = match fault {
-        Some(BoardFault::Cap(Capacitor::Ce, CapState::Short)) => ac.with_fault(Fault::Short(Resistor::Re2)),
+        Some(BoardFault::Cap(Capacitor::Ce, CapState::Short)) => {
+            ac.with_fault(Fault::Short(Resistor::Re2))
+        }
         Some(BoardFault::Cap(Capacitor::Cin, CapState::Short)) => {
             loads.base = Some(ac.rs);
             ac
@@ -156,7 +153,10 @@ fn readings_of(
         },
     )
     .ok()?;
-    let gains = tones.iter().map(|f| magnitude_at(&ac, &op, &caps, *f)).collect();
+    let gains = tones
+        .iter()
+        .map(|f| magnitude_at(&ac, &op, &caps, *f))
+        .collect();
     Some((
         Readings {
             vcc: op.vcc,
@@ -173,8 +173,14 @@ fn faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, BoardFault)> {
     if rng.unit() < 0.5 {
         for c in Capacitor::ALL {
             let nominal = s.capacitor(c).unwrap().value;
-            v.push((Suspect::Capacitor(c, ResistorMode::Open), BoardFault::Cap(c, CapState::Open)));
-            v.push((Suspect::Capacitor(c, ResistorMode::Short), BoardFault::Cap(c, CapState::Short)));
+            v.push((
+                Suspect::Capacitor(c, ResistorMode::Open),
+                BoardFault::Cap(c, CapState::Open),
+            ));
+            v.push((
+                Suspect::Capacitor(c, ResistorMode::Short),
+                BoardFault::Cap(c, CapState::Short),
+            ));
             let low = rng.pick(&[0.1, 0.05, 0.2, 0.3, 0.01]);
             v.push((
                 Suspect::Capacitor(c, ResistorMode::Low),
@@ -190,8 +196,14 @@ fn faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, BoardFault)> {
     }
     for r in Resistor::ALL {
         let nominal = s.resistor(r);
-        v.push((Suspect::Resistor(r, ResistorMode::Open), BoardFault::Engine(Fault::Open(r))));
-        v.push((Suspect::Resistor(r, ResistorMode::Short), BoardFault::Engine(Fault::Short(r))));
+        v.push((
+            Suspect::Resistor(r, ResistorMode::Open),
+            BoardFault::Engine(Fault::Open(r)),
+        ));
+        v.push((
+            Suspect::Resistor(r, ResistorMode::Short),
+            BoardFault::Engine(Fault::Short(r)),
+        ));
         let low = rng.pick(&[0.1, 0.5, 0.3, 0.01, 0.2]);
         v.push((
             Suspect::Resistor(r, ResistorMode::Low),
@@ -242,7 +254,10 @@ fn seeded_sweep_with_capacitor_faults() {
     let (mut detectable, mut detectable_fail) = (0u32, 0u32);
     let (mut ranked, mut first, mut top3) = (0u32, 0u32, 0u32);
     let mut solves_all = 0u64;
-    let boards: usize = std::env::var("SWEEP_BOARDS").ok().and_then(|s| s.parse().ok()).unwrap_or(250);
+    let boards: usize = std::env::var("SWEEP_BOARDS")
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(250);
     for (name, design, prof) in designs() {
         let prop = propose(&design, &prof, &var, &signal).unwrap();
         let tones = [prop.midband, prop.poles];
@@ -282,7 +297,8 @@ fn seeded_sweep_with_capacitor_faults() {
                 .zip(&gains)
                 .map(|(f, g)| ToneReading {
                     f: *f,
-                    gain: (g * (1.0 + rng.range(-0.005, 0.005)) + rng.range(-0.002, 0.002)).max(0.0),
+                    gain: (g * (1.0 + rng.range(-0.005, 0.005)) + rng.range(-0.002, 0.002))
+                        .max(0.0),
                 })
                 .collect();
             let lim = limits(&design, &prof, &var, &meter, r.vcc).unwrap();
@@ -333,7 +349,10 @@ fn seeded_sweep_with_capacitor_faults() {
             row.first += u32::from(is_first);
             row.top3 += u32::from(is_top3);
             if !is_first {
-                let pick = d.faults().next().map_or("none".to_string(), |h| label(h.suspect));
+                let pick = d
+                    .faults()
+                    .next()
+                    .map_or("none".to_string(), |h| label(h.suspect));
                 *row.wrong.entry(format!("{name}:{pick}")).or_default() += 1;
                 if std::env::var_os("SWEEP_DETAIL").is_some() {
                     let t = d.ranked.iter().find(|h| h.suspect == truth);

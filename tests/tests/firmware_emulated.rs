@@ -827,7 +827,11 @@ fn assert_signal_parity(
 ) {
     let line = readings.first().map(String::as_str).unwrap_or("");
     let p = pairs(line);
-    let get = |k: &str| (*p.get(k).unwrap_or_else(|| panic!("{what}: no {k} in {line:?}"))).to_owned();
+    let get = |k: &str| {
+        (*p.get(k)
+            .unwrap_or_else(|| panic!("{what}: no {k} in {line:?}")))
+        .to_owned()
+    };
     let ac = ac_lines(data);
     assert_eq!(ac.len(), 2, "{what}: two gain readings in {data:?}");
     let d = design.to_str().expect("utf-8 path");
@@ -845,19 +849,28 @@ fn assert_signal_parity(
     }
     let argv: Vec<&str> = args.iter().map(String::as_str).collect();
     let (code, out, err) = run_host(&argv);
-    assert!(code == 0 || code == 1, "{what}: biasjig check exit {code}: {err}");
+    assert!(
+        code == 0 || code == 1,
+        "{what}: biasjig check exit {code}: {err}"
+    );
     let j: serde_json::Value = serde_json::from_str(&out)
         .unwrap_or_else(|e| panic!("{what}: check --json output is not JSON ({e}): {out}"));
     assert_eq!(j["verdict"], inst.verdict.as_str(), "{what}: verdict");
     for (node, (_, low, high, _)) in &inst.nodes {
         let h = &j["nodes"][node.as_str()];
         let f = |k: &str| h[k].as_f64().unwrap_or(f64::NAN);
-        assert!(close(f("low"), *low) && close(f("high"), *high), "{what}: window of {node}");
+        assert!(
+            close(f("low"), *low) && close(f("high"), *high),
+            "{what}: window of {node}"
+        );
     }
     for (k, (f, g, low, high, ok)) in ac.iter().enumerate() {
         let h = &j["ac"][k];
         let v = |key: &str| h[key].as_f64().unwrap_or(f64::NAN);
-        assert!(close(v("f"), num(f)) && close(v("measured"), num(g)), "{what}: ac {k}: {h}");
+        assert!(
+            close(v("f"), num(f)) && close(v("measured"), num(g)),
+            "{what}: ac {k}: {h}"
+        );
         assert!(
             close(v("low"), *low) && close(v("high"), *high),
             "{what}: gain window at {f} Hz: instrument {low}..{high}, host {}..{}",
@@ -917,7 +930,11 @@ fn emulated_jig_names_capacitor_faults() {
         s.ok(inject);
         let data = s.ok("test");
         let r = parse_result(&data);
-        println!("{inject}: {:?} faults {:?}", ac_lines(&data), r.faults.first());
+        println!(
+            "{inject}: {:?} faults {:?}",
+            ac_lines(&data),
+            r.faults.first()
+        );
         assert_eq!(r.verdict, "fail", "{inject}: {data:?}");
         assert!(
             names_first(&r, part, mode),

@@ -13,8 +13,8 @@ use core::fmt::Write as _;
 use embedded_io::Write;
 
 use super::commands::{show_readings, Num, Opt};
-use super::parse::Tones;
 use super::jig::{Clock, Jig, Store};
+use super::parse::Tones;
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::Verdict;

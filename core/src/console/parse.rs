@@ -3,10 +3,10 @@
 
 use super::jig::Channel;
 use super::Code;
-use crate::series::{BandCount, Series};
 use crate::response::CapState;
-use crate::signaltest::ToneReading;
+use crate::series::{BandCount, Series};
 use crate::settings::InputMode;
+use crate::signaltest::ToneReading;
 use crate::stage::{Capacitor, DeviceFault, Fault, Polarity, Readings, Resistor};
 use crate::units::{self, Unit};
 
@@ -685,7 +685,9 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
                 let mut tones = Tones::new();
                 for t in rest {
                     let allowed = "F:G (test frequency in Hz, gain magnitude)";
-                    let (f, g) = t.split_once(':').ok_or(err(Code::Value, "ac", t, allowed))?;
+                    let (f, g) = t
+                        .split_once(':')
+                        .ok_or(err(Code::Value, "ac", t, allowed))?;
                     let reading = ToneReading {
                         f: value("ac", f)?,
                         gain: value("ac", g)?,

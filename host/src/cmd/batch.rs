@@ -249,13 +249,39 @@ mod tests {
         assert_eq!(rows.len(), 4);
         let (line, ok) = &rows[0];
         assert_eq!(*line, 2);
-        let (serial, r) = ok.as_ref().unwrap();
+        let (serial, r, tones) = ok.as_ref().unwrap();
         assert_eq!(serial, "A1");
+        assert!(tones.is_empty());
         assert_eq!((r.vcc, r.vb, r.ve, r.vc), (15.0, 2.55, 1.9, 8.0));
         assert_eq!(rows[1].0, 3);
         assert!(rows[1].1.as_ref().unwrap_err().contains("column vb: 'abc'"));
         assert_eq!(rows[2].1.as_ref().unwrap().1.ve, -0.0012);
         assert!(rows[3].1.as_ref().unwrap_err().contains("serial"));
         assert!(parse("serial,vb,ve,vc\n").unwrap_err().contains("'vcc'"));
+    }
+
+    #[test]
+    fn gain_columns_by_frequency() {
+        let text = "serial,vcc,vb,ve,vc,gain@1k,Gain@20Hz\n\
+                    A1,12,2.05,1.39,5.74,13.7,13.5\n\
+                    A2,12,2.05,1.39,5.74,,3.2\n\
+                    A3,12,2.05,1.39,5.74,x,1\n";
+        let rows = parse(text).unwrap();
+        let (_, _, t) = rows[0].1.as_ref().unwrap();
+        assert_eq!(t.len(), 2);
+        assert_eq!(
+            (t[0].f, t[0].gain, t[1].f, t[1].gain),
+            (1000.0, 13.7, 20.0, 13.5)
+        );
+        let (_, _, t) = rows[1].1.as_ref().unwrap();
+        assert_eq!((t.len(), t[0].f), (1, 20.0));
+        assert!(rows[2]
+            .1
+            .as_ref()
+            .unwrap_err()
+            .contains("column gain@1k: 'x'"));
+        assert!(parse("serial,vcc,vb,ve,vc,gain@9M\n")
+            .unwrap_err()
+            .contains("gain@9M"));
     }
 }

@@ -68,7 +68,8 @@ pub fn tone_reading(text: &str) -> Result<ToneReading, String> {
     let (f, g) = text
         .split_once(':')
         .ok_or_else(|| format!("{text:?}: {allowed}"))?;
-    let f = values::value(f.trim().trim_end_matches("Hz")).map_err(|e| format!("{text:?}: frequency: {e}; {allowed}"))?;
+    let f = values::value(f.trim().trim_end_matches("Hz"))
+        .map_err(|e| format!("{text:?}: frequency: {e}; {allowed}"))?;
     let g: f64 = g
         .trim()
         .parse()
@@ -315,7 +316,9 @@ pub fn log_record(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome)
                 let ac: Vec<Value> = j
                     .tones
                     .iter()
-                    .map(|t| json!({"f": json::num(t.reading.f), "gain": json::num(t.reading.gain)}))
+                    .map(
+                        |t| json!({"f": json::num(t.reading.f), "gain": json::num(t.reading.gain)}),
+                    )
                     .collect();
                 if let Some(rd) = obj.get_mut("readings").and_then(|v| v.as_object_mut()) {
                     rd.insert("ac".into(), Value::Array(ac));

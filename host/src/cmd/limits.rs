@@ -7,8 +7,8 @@
 use std::fmt::Write as _;
 
 use biasjig_core::judge::{self, Windows};
-use biasjig_core::signaltest::{self, Proposal, ToneWindow, MAX_TONES};
 use biasjig_core::settings::TestSettings;
+use biasjig_core::signaltest::{self, Proposal, ToneWindow, MAX_TONES};
 use biasjig_core::spread::{centre, Node, Sample, Variation};
 use serde_json::{json, Map, Value};
 
@@ -77,8 +77,7 @@ impl Cmd {
                 ));
             }
             for f in &self.ac_f {
-                signaltest::validate_frequency(*f)
-                    .map_err(|e| CliError::field("--ac-f", f, e))?;
+                signaltest::validate_frequency(*f).map_err(|e| CliError::field("--ac-f", f, e))?;
             }
             Some(
                 judge::tone_windows(&r.stage, &r.profile, t, vcc, &self.ac_f)
@@ -86,7 +85,9 @@ impl Cmd {
             )
         };
         let proposal = match (&tones, r.stage.rl) {
-            (None, Some(_)) => signaltest::propose(&r.stage, &r.profile, &judge::variation(t), &t.signal).ok(),
+            (None, Some(_)) => {
+                signaltest::propose(&r.stage, &r.profile, &judge::variation(t), &t.signal).ok()
+            }
             _ => None,
         };
         if g.json {
