@@ -9,12 +9,13 @@
 
 use std::collections::BTreeMap;
 
-use biasjig_core::check::check;
 use biasjig_core::device::{is_from_vbe, Profile};
-use biasjig_core::diagnose::{diagnose_with_signal, Diagnosis, ResistorMode, Suspect};
-use biasjig_core::limits::{limits, Meter, Window};
+use biasjig_core::diagnose::{Diagnosis, ResistorMode, Suspect};
+use biasjig_core::judge::{judge_with_signal, JudgeError};
+use biasjig_core::limits::Window;
 use biasjig_core::response::{magnitude_at, CapState, Caps};
-use biasjig_core::signaltest::{judge, propose, windows, SignalMeter, ToneReading};
+use biasjig_core::settings::TestSettings;
+use biasjig_core::signaltest::{propose, ToneReading};
 use biasjig_core::solve::{solve, Conditions, NodeLoads};
 use biasjig_core::spread::Variation;
 use biasjig_core::stage::{
@@ -47,7 +48,7 @@ impl Rng {
 fn stage(polarity: Polarity, vcc: f64, r: [f64; 5], rl: f64, rs: f64, c: [f64; 3]) -> Stage {
     Stage {
         polarity,
-        vcc: Part::new(vcc, 0.0),
+        vcc: Part::new(vcc, 0.1),
         r1: Part::new(r[0], 0.05),
         r2: Part::new(r[1], 0.05),
         rc: Part::new(r[2], 0.05),
@@ -245,8 +246,8 @@ struct Row {
 
 #[test]
 fn seeded_sweep_with_capacitor_faults() {
-    let meter = Meter::default();
-    let signal = SignalMeter::default();
+    let settings = TestSettings::DEFAULT;
+    let signal = settings.signal;
     let var = Variation::at(25.0);
     let mut rng = Rng(0x5EED_70E5_0001);
     let mut table: BTreeMap<String, Row> = BTreeMap::new();
@@ -301,22 +302,33 @@ fn seeded_sweep_with_capacitor_faults() {
                         .max(0.0),
                 })
                 .collect();
-            let lim = limits(&design, &prof, &var, &meter, r.vcc).unwrap();
-            let win = windows(&design, &prof, &var, &signal, r.vcc, &tones).unwrap();
-            let dc = check(&design, &lim, &meter, &r);
-            let ac_ok = judge(&win, &read).iter().all(|ok| *ok);
-            let pass = matches!(&dc, Ok(v) if v.pass) && ac_ok;
+            // The one judging path: windows, verdict and diagnosis, DC and signal together.
+            let judged = judge_with_signal(&design, &prof, &settings, &r, &read);
+            let j = match judged {
+                Ok(j) => Some(j),
+                Err(JudgeError::Implausible(_)) => None,
+                Err(e) => panic!("{name}: {e}"),
+            };
+            let pass = j.as_ref().is_some_and(|j| j.verdict.pass);
             let Some((truth, _)) = fault else {
                 good += 1;
                 good_pass += u32::from(pass);
                 if !pass && std::env::var_os("SWEEP_DETAIL").is_some() {
-                    println!("good fails: {r:?} {read:?} {win:?}");
+                    println!("good fails: {r:?} {read:?}");
                 }
                 continue;
             };
             let row = table.entry(label(truth)).or_default();
             row.boards += 1;
+            // Refused as implausible (no judgement): a detected fault without a diagnosis.
+            let Some(j) = j else {
+                row.detectable += 1;
+                detectable += 1;
+                detectable_fail += 1;
+                continue;
+            };
             // Detectable: the noise-free readings leave a window by more than twice the noise.
+            let lim = &j.windows.limits;
             let margin = |v: f64, w: Window| (w.low - v).max(v - w.high);
             let dc_out = [
                 margin(clean.vb, lim.vb),
@@ -325,10 +337,11 @@ fn seeded_sweep_with_capacitor_faults() {
             ]
             .iter()
             .any(|m| *m > 2.0 * noise);
-            let ac_out = win
+            let ac_out = j
+                .tones
                 .iter()
                 .zip(&gains)
-                .any(|(w, g)| (w.low - g).max(g - w.high) > 0.01 * g + 0.004);
+                .any(|(t, g)| (t.window.low - g).max(g - t.window.high) > 0.01 * g + 0.004);
             if !(dc_out || ac_out) {
                 continue;
             }
@@ -339,7 +352,7 @@ fn seeded_sweep_with_capacitor_faults() {
                 continue;
             }
             row.failed += 1;
-            let d = diagnose_with_signal(&design, &prof, &r, &read, &meter, &signal, &var).unwrap();
+            let d = j.diagnosis.expect("a failed board is diagnosed");
             solves_all += u64::from(d.solves);
             ranked += 1;
             let is_first = in_group(&d, 0, truth);
