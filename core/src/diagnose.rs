@@ -1163,6 +1163,62 @@ pub fn diagnose_with_signal(
     })
 }
 
+/// The test frequency, Hz, at which the gains predicted for the hypotheses `group` (their fits as
+/// the diagnosis left them) differ most, in units of the signal meter's error: the further
+/// reading that would tell them apart. `None` when no frequency separates every pair by more than
+/// twice the error (two open coupling capacitors: lift a part instead), or for fewer than two.
+/// `stage` is the design, `vcc` the measured supply, V.
+#[cfg(feature = "signal-test")]
+pub fn separating_tone(
+    stage: &Stage,
+    profile: &Profile,
+    vcc: f64,
+    signal: &SignalMeter,
+    var: &Variation,
+    group: &[Hypothesis],
+) -> Option<f64> {
+    if group.len() < 2 {
+        return None;
+    }
+    let mut at_supply = *stage;
+    at_supply.vcc.value = vcc;
+    let mut ctx = Ctx {
+        stage: at_supply,
+        profile,
+        temp_c: 0.5 * (var.temp_min_c + var.temp_max_c),
+        measured: [0.0; DIM],
+        n: 4,
+        tones: [0.0; MAX_TONES],
+        signal: *signal,
+        inputs: var.inputs,
+        solves: 0,
+        start: None,
+    };
+    let mut best: Option<(f64, f64)> = None;
+    for f in crate::signaltest::candidates() {
+        if let Some(t) = ctx.tones.first_mut() {
+            *t = f;
+        }
+        let mut g: Vec<f64, 8> = Vec::new();
+        for h in group.iter().take(8) {
+            let value = h.estimate.unwrap_or(0.0);
+            let y = ctx.predict(h.suspect, value, h.beta, Tweak::None)?;
+            let _ = g.push(y.get(3).copied().unwrap_or(0.0));
+        }
+        let mut sep = f64::INFINITY;
+        for (i, a) in g.iter().enumerate() {
+            for b in g.iter().skip(i + 1) {
+                let err = signal.error(*a) + signal.error(*b);
+                sep = libm::fmin(sep, libm::fabs(a - b) / err);
+            }
+        }
+        if sep > 2.0 && best.is_none_or(|(_, s)| sep > s) {
+            best = Some((f, sep));
+        }
+    }
+    best.map(|(f, _)| f)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

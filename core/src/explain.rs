@@ -155,9 +155,9 @@ impl fmt::Display for SeparatingStep {
         }
         if n > 0 {
             f.write_str(if n == 1 {
-                " and measure its capacitance (or read the gain at another frequency)"
+                " and measure its capacitance"
             } else {
-                " and measure their capacitance (or read the gain at another frequency)"
+                " and measure their capacitance"
             })?;
         }
         if self.transistor {

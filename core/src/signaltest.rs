@@ -458,7 +458,7 @@ pub struct Proposal {
 const PER_DECADE: [f64; 6] = [1.0, 1.5, 2.0, 3.0, 5.0, 7.0];
 
 /// The candidate frequencies from 0.1 Hz to 100 kHz in order.
-fn candidates() -> impl Iterator<Item = f64> {
+pub(crate) fn candidates() -> impl Iterator<Item = f64> {
     (-1..5).flat_map(|d| {
         let decade = crate::series::pow10(d);
         PER_DECADE.iter().map(move |m| m * decade)

@@ -263,6 +263,47 @@ pub fn outcome_json(o: &Outcome, measured_vcc: f64) -> Value {
     }
 }
 
+/// The test frequency whose gain reading tells `h` and its equivalents apart, if any (only
+/// when a capacitor is among them: the gain is what a capacitor changes).
+pub fn separating_tone(st: &Station, vcc: f64, d: &Diagnosis, h: &Hypothesis) -> Option<f64> {
+    let mut group: Vec<Hypothesis> = vec![*h];
+    group.extend(d.equivalents(h).filter(|e| e.suspect.is_fault()).copied());
+    if group.len() < 2
+        || !group
+            .iter()
+            .any(|g| matches!(g.suspect, Suspect::Capacitor(..)))
+    {
+        return None;
+    }
+    biasjig_core::diagnose::separating_tone(
+        &st.stage,
+        &st.profile,
+        vcc,
+        &st.settings.signal,
+        &judge::variation(&st.settings),
+        &group,
+    )
+}
+
+/// Add `"separating_f"` (Hz, or null) to each listed fault with equivalents.
+fn add_separation(st: &Station, vcc: f64, o: &Outcome, doc: &mut Value) {
+    let Outcome::Judged(j) = o else { return };
+    let Some(d) = &j.diagnosis else { return };
+    let Some(faults) = doc.get_mut("faults").and_then(|f| f.as_array_mut()) else {
+        return;
+    };
+    for (h, f) in listed(d).into_iter().zip(faults.iter_mut()) {
+        if d.equivalents(h).any(|e| e.suspect.is_fault()) {
+            if let Some(obj) = f.as_object_mut() {
+                obj.insert(
+                    "separating_f".into(),
+                    json::opt(separating_tone(st, vcc, d, h)),
+                );
+            }
+        }
+    }
+}
+
 /// The judged gain readings: `[{"f","measured","low","high","ok"}]` in the order given.
 pub fn ac_json(j: &Judgement) -> Value {
     Value::Array(
@@ -465,6 +506,12 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcom
                             names.join(", "),
                             separate(&all)
                         ));
+                        if let Some(f) = separating_tone(st, r.vcc, d, h) {
+                            out.push_str(&format!(
+                                "     a gain reading at {} tells them apart\n",
+                                text::eng4(f, "Hz")
+                            ));
+                        }
                     }
                 }
             }
@@ -516,6 +563,7 @@ impl Cmd {
                 if g.json {
                     let mut doc = outcome_json(&o, r.vcc);
                     add_provenance(&st, &mut doc);
+                    add_separation(&st, r.vcc, &o, &mut doc);
                     json::print(&doc);
                 } else {
                     out!("{}", outcome_text(&st, self.serial.as_deref(), &r, &o));
