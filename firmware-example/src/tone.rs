@@ -81,7 +81,7 @@ pub enum ToneError {
 /// [`SAMPLES_PER_PERIOD`].
 pub fn samples_per_period(f_hz: f32) -> u32 {
     let (lo, hi) = SAMPLES_PER_PERIOD;
-    if !(f_hz > 0.0) {
+    if f_hz.is_nan() || f_hz <= 0.0 {
         return lo;
     }
     let p = (MAX_RATE_HZ / f_hz) as u32;
