@@ -264,6 +264,49 @@ pub fn judge_with_signal(
     readings: &Readings,
     tones: &[ToneReading],
 ) -> Result<Judgement, JudgeError> {
+    let (windows, verdict, judged) =
+        verdict_with_signal(stage, profile, settings, readings, tones)?;
+    let diagnosis = if verdict.pass {
+        None
+    } else {
+        Some(
+            diagnosis_with_signal(stage, profile, settings, readings, tones)
+                .map_err(JudgeError::Diagnose)?,
+        )
+    };
+    Ok(Judgement {
+        windows,
+        verdict,
+        diagnosis,
+        tones: judged,
+    })
+}
+
+/// Steps 1 to 5 of [`judge`] without the diagnosis: the windows and the verdict. A small
+/// instrument calls this and then [`diagnosis`] for a failed board, keeping the diagnosis (a
+/// few KB) where it is stored instead of moving it through a [`Judgement`].
+pub fn verdict(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+) -> Result<(Windows, Verdict), JudgeError> {
+    verdict_with_signal(stage, profile, settings, readings, &[]).map(|(w, v, _)| (w, v))
+}
+
+/// The gain readings judged against their windows.
+pub type ToneVerdicts = heapless::Vec<ToneVerdict, MAX_TONES>;
+
+/// [`verdict`] with gain readings `tones`: each against its window ([`tone_windows`]); the
+/// verdict fails when any window fails.
+#[inline(never)]
+pub fn verdict_with_signal(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+) -> Result<(Windows, Verdict, ToneVerdicts), JudgeError> {
     settings.validate().map_err(JudgeError::Settings)?;
     if tones.len() > MAX_TONES {
         return Err(JudgeError::Signal(SignalTestError::TooMany));
@@ -290,7 +333,7 @@ pub fn judge_with_signal(
     #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
     let mut verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
     #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
-    let mut judged: heapless::Vec<ToneVerdict, MAX_TONES> = heapless::Vec::new();
+    let mut judged = ToneVerdicts::new();
     #[cfg(not(feature = "signal-test"))]
     if !tones.is_empty() {
         return Err(JudgeError::Signal(SignalTestError::NotBuilt));
@@ -310,18 +353,37 @@ pub fn judge_with_signal(
             });
         }
     }
-    let diagnosis = if verdict.pass {
-        None
-    } else {
-        Some(
-            diagnose::diagnose_with_signal(stage, profile, r, tones, meter, &settings.signal, &var)
-                .map_err(JudgeError::Diagnose)?,
-        )
-    };
-    Ok(Judgement {
-        windows: Windows { supply, limits },
-        verdict,
-        diagnosis,
-        tones: judged,
-    })
+    Ok((Windows { supply, limits }, verdict, judged))
+}
+
+/// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
+/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place.)
+#[inline]
+pub fn diagnosis(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+) -> Result<Diagnosis, DiagnoseError> {
+    diagnosis_with_signal(stage, profile, settings, readings, &[])
+}
+
+/// [`diagnosis`] on DC and gain readings together.
+#[inline]
+pub fn diagnosis_with_signal(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+) -> Result<Diagnosis, DiagnoseError> {
+    diagnose::diagnose_with_signal(
+        stage,
+        profile,
+        readings,
+        tones,
+        &settings.meter,
+        &settings.signal,
+        &variation(settings),
+    )
 }

@@ -313,20 +313,23 @@ impl Canonical {
         Self(Sha256::new())
     }
 
-    /// Raw bytes.
+    /// Raw bytes. (Not inlined: the encoding makes some forty calls, and each inlined copy of the
+    /// hash's buffering would cost the instrument flash.)
+    #[inline(never)]
     pub fn bytes(&mut self, b: &[u8]) {
         self.0.update(b);
     }
 
     /// One byte.
     pub fn u8(&mut self, v: u8) {
-        self.0.update([v]);
+        self.bytes(&[v]);
     }
 
     /// A number as binary64 little-endian, −0 as +0.
+    #[inline(never)]
     pub fn f64(&mut self, v: f64) {
         let v = if v == 0.0 { 0.0 } else { v };
-        self.0.update(v.to_le_bytes());
+        self.bytes(&v.to_le_bytes());
     }
 
     /// An optional number: 0, or 1 and the number.
@@ -343,13 +346,19 @@ impl Canonical {
     /// A text: its length (u32 little-endian) and its UTF-8 bytes.
     pub fn str(&mut self, s: &str) {
         let n = u32::try_from(s.len()).unwrap_or(u32::MAX);
-        self.0.update(n.to_le_bytes());
-        self.0.update(s.as_bytes());
+        self.bytes(&n.to_le_bytes());
+        self.bytes(s.as_bytes());
     }
 
     fn part(&mut self, p: Part) {
         self.f64(p.value);
         self.f64(p.tol);
+    }
+
+    fn all(&mut self, v: &[f64]) {
+        for x in v {
+            self.f64(*x);
+        }
     }
 
     fn opt_part(&mut self, p: Option<Part>) {
@@ -363,6 +372,7 @@ impl Canonical {
     }
 
     /// The stage, the profile and the test settings, in the order of the module notes.
+    #[inline(never)]
     pub fn settings(&mut self, stage: &Stage, profile: &Profile, settings: &TestSettings) {
         self.bytes(b"biasjig-settings");
         self.u8(ENCODING_VERSION);
@@ -380,25 +390,23 @@ impl Canonical {
         for c in [stage.cin, stage.cout, stage.ce] {
             self.opt_part(c);
         }
-        for v in [
+        self.all(&[
             profile.beta_min,
             profile.beta_typ,
             profile.beta_max,
             profile.beta_rev,
             profile.beta_tc,
             profile.is_25,
-        ] {
-            self.f64(v);
-        }
+        ]);
         self.opt(profile.early);
-        for v in [profile.vce_sat, profile.power_25, profile.tj_max] {
-            self.f64(v);
-        }
-        self.f64(settings.temp_min_c);
-        self.f64(settings.temp_max_c);
-        self.f64(settings.meter.gain_error);
-        self.f64(settings.meter.offset);
-        self.f64(settings.meter.divider_tol);
+        self.all(&[profile.vce_sat, profile.power_25, profile.tj_max]);
+        self.all(&[
+            settings.temp_min_c,
+            settings.temp_max_c,
+            settings.meter.gain_error,
+            settings.meter.offset,
+            settings.meter.divider_tol,
+        ]);
         self.opt(settings.inputs.r);
         self.u8(match settings.inputs.mode {
             InputMode::Together => 0,

@@ -1,6 +1,7 @@
 //! The emulated board under test: part values drawn within their tolerance from a seed around
 //! the console's current design, an hFE within the profile's spread, one injected fault, and
-//! its node voltages from the core engine (`solve::solve`, the one circuit model). The
+//! its node voltages from the core engine (`solve::solve`, the one circuit model) with the jig's
+//! inputs attached to every node, as on the real jig ([`crate::jig::JIG_INPUT_R`]). The
 //! capacitors are drawn within their tolerance too, and one of them may carry a fault of its own
 //! (open, short, a wrong value): its signal response comes from `response::gain_at`, and a short
 //! shows at DC as in the jig's set-up (RS stays on the input and RL on the output while the
@@ -44,6 +45,8 @@ pub struct BoardModel {
     fault: Option<Fault>,
     /// A capacitor fault (on top of `fault`, normally alone).
     cap_fault: Option<(Capacitor, CapState)>,
+    /// The jig inputs' resistance from each node to ground, Ω (`None`: no loading).
+    input_r: Option<f64>,
     /// The drawn board: parts within tolerance, and its hFE at 25 °C.
     drawn: Option<(Stage, f64)>,
     nodes: Option<Readings>,
@@ -60,9 +63,22 @@ impl BoardModel {
             temp_c: s.temp_c,
             fault: None,
             cap_fault: None,
+            input_r: Some(crate::jig::JIG_INPUT_R),
             drawn: None,
             nodes: None,
         }
+    }
+
+    /// The resistance of the jig inputs the board is read through, Ω.
+    pub fn input_r(&self) -> Option<f64> {
+        self.input_r
+    }
+
+    /// Read the board through inputs of another resistance (`None`: inputs that do not load),
+    /// as a jig with another front end would.
+    pub fn set_input_r(&mut self, r: Option<f64>) {
+        self.input_r = r;
+        self.nodes = None;
     }
 
     /// The design to draw around (from the console); redraws when it differs.
@@ -150,15 +166,22 @@ impl BoardModel {
         }
         let mut caps = Caps::nominal(&stage);
         let mut dc = stage;
-        let mut loads = NodeLoads::NONE;
+        // Every jig input stays connected while the nodes are read; a shorted coupling capacitor
+        // adds RS at the base or RL at the collector.
+        let mut loads = NodeLoads::each(self.input_r);
+        let add = |l: Option<f64>, r: f64| Some(l.map_or(r, |l| l * r / (l + r)));
         if let Some((c, state)) = self.cap_fault {
             caps = caps.with(c, state);
             if state == CapState::Short {
                 match c {
                     Capacitor::Ce => dc = dc.with_fault(Fault::Short(Resistor::Re2)),
-                    Capacitor::Cin if stage.rs > 0.0 => loads.base = Some(stage.rs),
+                    Capacitor::Cin if stage.rs > 0.0 => loads.base = add(loads.base, stage.rs),
                     Capacitor::Cin => dc = dc.with_fault(Fault::Short(Resistor::R2)),
-                    Capacitor::Cout => loads.collector = stage.rl,
+                    Capacitor::Cout => {
+                        if let Some(rl) = stage.rl {
+                            loads.collector = add(loads.collector, rl);
+                        }
+                    }
                 }
             }
         }
@@ -234,5 +257,20 @@ mod tests {
         assert_eq!(b.nodes().unwrap(), good);
         b.set_seed(10);
         assert_ne!(b.nodes().unwrap(), good);
+    }
+
+    #[test]
+    fn the_jig_inputs_load_the_nodes() {
+        let mut b = BoardModel::new(4);
+        let jig = b.nodes().unwrap();
+        b.set_input_r(None);
+        let bare = b.nodes().unwrap();
+        // 11 MΩ beside the default design's 10 kΩ R2: the base drops by about R1 ‖ R2 / 11 MΩ.
+        let shift = (bare.vb - jig.vb) / bare.vb;
+        assert!(shift > 0.0 && shift < 2e-3, "{shift}");
+        // A jig with 110 kΩ inputs pulls it down far more.
+        b.set_input_r(Some(110e3));
+        let old = b.nodes().unwrap();
+        assert!((bare.vb - old.vb) / bare.vb > 0.05, "{old:?} {bare:?}");
     }
 }

@@ -13,7 +13,7 @@ use super::jig::{Channel, ChannelCal, Clock, Jig, JigError, Slot, Store, RECORD_
 use super::parse::{CalibrateStep, Command, MeterSetting, Mode, Setting, SET_NAMES};
 use super::record::{self, Settings};
 use super::reply::{Fail, Outcome, Reply, Text};
-use super::{default_settings, Code, Console, Source, PIN_FREE_TRIES};
+use super::{Code, Console, Source, PIN_FREE_TRIES};
 use crate::device::is_from_vbe;
 use crate::predict::predict;
 use crate::series::{colour_bands, BandCount};
@@ -414,7 +414,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
     fn reset(&mut self) -> Outcome {
         self.editable()?;
-        self.settings = default_settings();
+        self.settings = Self::defaults_for(&self.jig);
         self.readings = None;
         self.last = None;
         self.requirement = super::default_requirement();

@@ -65,7 +65,8 @@ fn spread_fail(what: &str, e: SpreadError) -> Fail {
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
-    /// Judge readings through the one judging path ([`crate::judge::judge`]: the supply window,
+    /// Judge readings through the one judging path ([`crate::judge::verdict`], then for a failed
+    /// board [`crate::judge::diagnosis`]: the steps of [`crate::judge::judge`]; the supply window,
     /// the nominal region, plausibility, windows at the measured supply over the test ambient
     /// with the measuring inputs attached, verdict and, when the board fails, the diagnosis).
     /// Keeps the result as the last check (nothing changes on an error).
@@ -81,21 +82,40 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 ),
             ));
         }
-        let j = crate::judge::judge_with_signal(
-            &st.stage,
-            &st.profile,
-            &st.test_settings(),
-            &rd,
-            tones.as_slice(),
-        )
-        .map_err(judge_fail)?;
-        self.last = Some(LastCheck {
-            readings: rd,
-            source: src,
-            verdict: j.verdict,
-            diagnosis: j.diagnosis,
-            tones: j.tones,
-        });
+        let ts = st.test_settings();
+        let (_, verdict, tv) =
+            crate::judge::verdict_with_signal(&st.stage, &st.profile, &ts, &rd, tones.as_slice())
+                .map_err(judge_fail)?;
+        if verdict.pass {
+            self.last = Some(LastCheck {
+                readings: rd,
+                source: src,
+                verdict,
+                diagnosis: None,
+                tones: tv,
+            });
+        } else {
+            // The diagnosis (about 2 KB) goes straight into the session state: one value on
+            // the stack, no further copies.
+            match crate::judge::diagnosis_with_signal(
+                &st.stage,
+                &st.profile,
+                &ts,
+                &rd,
+                tones.as_slice(),
+            ) {
+                Ok(d) => {
+                    self.last = Some(LastCheck {
+                        readings: rd,
+                        source: src,
+                        verdict,
+                        diagnosis: Some(d),
+                        tones: tv,
+                    });
+                }
+                Err(e) => return Err(judge_fail(crate::judge::JudgeError::Diagnose(e))),
+            }
+        }
         self.readings = Some((rd, src));
         Ok(())
     }

@@ -308,13 +308,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// counts against its budget). Call [`Console::load_stored`] on it next.
     #[inline(never)]
     pub fn unloaded(identity: Identity, jig: J, store: S, clock: C) -> Self {
+        let settings = Self::defaults_for(&jig);
         Self {
             jig,
             store,
             clock,
             identity,
             lines: LineBuf::new(),
-            settings: default_settings(),
+            settings,
             calibration: Calibration::default(),
             cal_low: [None; 4],
             readings: None,
@@ -326,6 +327,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             mode: Mode::Human,
             retry_at_ms: 0,
         }
+    }
+
+    /// The default settings on this jig: [`default_settings`] with the jig's own measuring
+    /// inputs ([`Jig::input_r`], attached together).
+    pub(crate) fn defaults_for(jig: &J) -> Settings {
+        let mut s = default_settings();
+        s.inputs.r = jig.input_r();
+        s
     }
 
     /// Load the settings and calibration from the store (defaults stay when it has none or a

@@ -276,7 +276,7 @@ impl Cmd {
                 .map_err(|e| CliError::usage(format!("--svg-dir: {}: {e}", dir.display())))?;
             for (name, svg) in &svgs {
                 let p = dir.join(format!("{name}.svg"));
-                std::fs::write(&p, svg)
+                crate::designfile::write_atomic(&p, svg.as_bytes())
                     .map_err(|e| CliError::usage(format!("--svg-dir: {}: {e}", p.display())))?;
             }
         }
@@ -292,7 +292,8 @@ impl Cmd {
                 page.push_str(&format!("<figure>{svg}</figure>\n"));
             }
             page.push_str("</body></html>\n");
-            std::fs::write(path, page)
+            // Whole or not at all: a temporary file beside it, then a rename.
+            crate::designfile::write_atomic(path, page.as_bytes())
                 .map_err(|e| CliError::usage(format!("--html: {}: {e}", path.display())))?;
         }
         if g.json {
