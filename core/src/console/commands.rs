@@ -359,7 +359,11 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Ok(None)
             }
             Command::Measure(n) => self.cmd_measure(n, r),
-            Command::Check(rd, tones) => self.cmd_judge(rd, &tones, Source::Typed, r),
+            Command::Check(rd, text) => {
+                // Checked by the parser already.
+                let tones = super::parse::tones(text).unwrap_or_default();
+                self.cmd_judge(rd, &tones, Source::Typed, r)
+            }
             Command::Test(n) => self.cmd_test(n, r),
             Command::Diagnose => self.diagnose(r),
             Command::Readings => match self.readings {

@@ -272,8 +272,9 @@ pub enum Command<'a> {
     Meter(Option<MeterSetting>),
     /// `measure [SAMPLES]`.
     Measure(u16),
-    /// `check VCC VB VE VC [F:G ...]`: DC readings and gain readings.
-    Check(Readings, Tones),
+    /// `check VCC VB VE VC [F:G ...]`: DC readings, and the gain readings as typed (read them
+    /// with [`tones`]).
+    Check(Readings, &'a str),
     /// `test [SAMPLES]`: measure and check.
     Test(u16),
     /// `diagnose`: the likely faults of the last readings.
@@ -300,6 +301,38 @@ pub enum Command<'a> {
 
 /// Gain readings typed with `check`: |v(load)/v(source EMF)| at a test frequency each.
 pub type Tones = crate::signaltest::ToneSet;
+
+/// The byte offset of `word` (a slice of `line`) in `line`.
+fn offset_in(line: &str, word: &str) -> usize {
+    (word.as_ptr() as usize).saturating_sub(line.as_ptr() as usize)
+}
+
+/// The gain readings `F:G ...` of a `check` line (F in Hz, G the gain magnitude), at most
+/// [`crate::signaltest::MAX_TONES`].
+pub fn tones(text: &str) -> Result<Tones, ParseError<'_>> {
+    let mut out = Tones::new();
+    for t in text.split_ascii_whitespace() {
+        let allowed = "F:G (test frequency in Hz, gain magnitude)";
+        let (f, g) = t
+            .split_once(':')
+            .ok_or(err(Code::Value, "ac", t, allowed))?;
+        let reading = ToneReading {
+            f: value("ac", f)?,
+            gain: value("ac", g)?,
+        };
+        if crate::signaltest::validate_reading(&reading).is_err() {
+            return Err(err(
+                Code::Range,
+                "ac",
+                t,
+                "F 0.1 Hz to 100 kHz, G 0 to 100000",
+            ));
+        }
+        out.push(reading)
+            .map_err(|_| err(Code::Usage, "ac", t, "at most 4 gain readings"))?;
+    }
+    Ok(out)
+}
 
 /// Why a line is not a command: a code, the field, the offending text and what is allowed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -682,28 +715,13 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
     if is("check") {
         return match args {
             [vcc, vb, ve, vc, rest @ ..] => {
-                let mut tones = Tones::new();
-                for t in rest {
-                    let allowed = "F:G (test frequency in Hz, gain magnitude)";
-                    let (f, g) = t
-                        .split_once(':')
-                        .ok_or(err(Code::Value, "ac", t, allowed))?;
-                    let reading = ToneReading {
-                        f: value("ac", f)?,
-                        gain: value("ac", g)?,
-                    };
-                    if crate::signaltest::validate_reading(&reading).is_err() {
-                        return Err(err(
-                            Code::Range,
-                            "ac",
-                            t,
-                            "F 0.1 Hz to 100 kHz, G 0 to 100000",
-                        ));
-                    }
-                    tones
-                        .push(reading)
-                        .map_err(|_| err(Code::Usage, "ac", t, "at most 4 gain readings"))?;
-                }
+                // The gain readings stay text here (a short command value on the stack); they
+                // are checked now and read again by the command.
+                let tail = match rest.first() {
+                    Some(w) => line.get(offset_in(line, w)..).unwrap_or(""),
+                    None => "",
+                };
+                tones(tail)?;
                 Ok(Command::Check(
                     Readings {
                         vcc: signed("vcc", vcc)?,
@@ -711,7 +729,7 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
                         ve: signed("ve", ve)?,
                         vc: signed("vc", vc)?,
                     },
-                    tones,
+                    tail,
                 ))
             }
             _ => Err(err(
