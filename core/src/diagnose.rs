@@ -47,9 +47,20 @@ use crate::stage::{Capacitor, DeviceFault, Fault, Readings, Resistor, Stage};
 
 /// Hypotheses in one diagnosis at most: the good board, 5 resistors × 4 modes, 6 transistor
 /// faults, 3 capacitors × 4 modes.
-pub const CAPACITY: usize = 39;
+pub const CAPACITY: usize = if cfg!(feature = "signal-test") {
+    39
+} else {
+    // Without the signal test a capacitor can only be `short` (seen at DC).
+    30
+};
+/// Gain readings in one diagnosis at most (none without the signal test).
+pub const GAIN_SLOTS: usize = if cfg!(feature = "signal-test") {
+    MAX_TONES
+} else {
+    0
+};
 /// Readings in one diagnosis at most: VB, VE, VC and the gain at each test frequency.
-const DIM: usize = 3 + MAX_TONES;
+const DIM: usize = 3 + GAIN_SLOTS;
 /// Noise of a gain reading on top of the signal meter's error bound, V/V (standard deviation).
 pub const GAIN_NOISE: f64 = 0.005;
 /// χ² added for a fitted part value (`low`/`high`), so that a fit never beats a plain fault
@@ -151,7 +162,7 @@ pub struct Hypothesis {
     pub predicted: [f64; 3],
     /// The gain at each test frequency predicted at the fit, V/V (in the readings' order; 0
     /// beyond them).
-    pub gains: [f64; MAX_TONES],
+    pub gains: [f64; GAIN_SLOTS],
     /// Equivalence group: hypotheses with the same number cannot be told apart by the readings
     /// given (DC and signal).
     pub group: u8,
@@ -323,7 +334,7 @@ struct Ctx<'a> {
     signal: SignalMeter,
     /// The test frequencies, Hz.
     #[cfg_attr(not(feature = "signal-test"), expect(dead_code))]
-    tones: [f64; MAX_TONES],
+    tones: [f64; GAIN_SLOTS],
     /// The measuring inputs attached while the nodes are read.
     inputs: Inputs,
     solves: u32,
@@ -1009,7 +1020,7 @@ pub fn diagnose_with_signal(
         && readings.ve.is_finite()
         && readings.vc.is_finite()
         && readings.vcc.is_finite())
-        || tones.len() > MAX_TONES
+        || tones.len() > GAIN_SLOTS
         || (cfg!(not(feature = "signal-test")) && !tones.is_empty())
         || tones
             .iter()
@@ -1019,7 +1030,7 @@ pub fn diagnose_with_signal(
     }
     let n = 3 + tones.len();
     let mut m = [0.0; DIM];
-    let mut freqs = [0.0; MAX_TONES];
+    let mut freqs = [0.0; GAIN_SLOTS];
     for (k, slot) in m.iter_mut().enumerate() {
         *slot = match k {
             0 => readings.vb,
@@ -1128,26 +1139,34 @@ pub fn diagnose_with_signal(
             signal.error(v)
         }
     });
-    let mut leaders: Vec<([f64; DIM], u8), CAPACITY> = Vec::new();
-    for h in ranked.iter_mut() {
-        let mine: [f64; DIM] = core::array::from_fn(|k| match k {
-            0..=2 => h.predicted.get(k).copied().unwrap_or(0.0),
-            _ => h.gains.get(k - 3).copied().unwrap_or(0.0),
-        });
-        let same = |p: &[f64; DIM]| {
-            p.iter()
-                .zip(mine)
-                .zip(tol)
+    // Leaders by their place in `ranked` (no copies of their predictions on the stack).
+    let readings_of = |h: &Hypothesis, k: usize| match k {
+        0..=2 => h.predicted.get(k).copied().unwrap_or(0.0),
+        _ => h.gains.get(k - 3).copied().unwrap_or(0.0),
+    };
+    let mut leaders: Vec<(u8, u8), CAPACITY> = Vec::new();
+    for i in 0..ranked.len() {
+        let Some(h) = ranked.get(i) else { break };
+        let same = |p: &Hypothesis| {
+            tol.iter()
+                .enumerate()
                 .take(n)
-                .all(|((a, b), t)| libm::fabs(a - b) <= t)
+                .all(|(k, t)| libm::fabs(readings_of(p, k) - readings_of(h, k)) <= *t)
         };
-        match leaders.iter().find(|(p, _)| same(p)) {
-            Some((_, g)) => h.group = *g,
+        let found = leaders
+            .iter()
+            .find(|(at, _)| ranked.get(usize::from(*at)).is_some_and(same))
+            .map(|(_, g)| *g);
+        let g = match found {
+            Some(g) => g,
             None => {
                 let g = u8::try_from(leaders.len()).unwrap_or(u8::MAX);
-                h.group = g;
-                let _ = leaders.push((mine, g));
+                let _ = leaders.push((u8::try_from(i).unwrap_or(u8::MAX), g));
+                g
             }
+        };
+        if let Some(h) = ranked.get_mut(i) {
+            h.group = g;
         }
     }
     // Keep each group together, in the order of its best member, best first within a group.

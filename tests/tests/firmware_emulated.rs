@@ -881,7 +881,7 @@ fn assert_signal_parity(
     let ac = ac_lines(data);
     assert_eq!(ac.len(), 2, "{what}: two gain readings in {data:?}");
     let d = design.to_str().expect("utf-8 path");
-    let mut args: Vec<String> = ["check", "--design", d, "--json"]
+    let mut args: Vec<String> = ["check", "--design", d, "--json", "--input-r", JIG_INPUT_R]
         .iter()
         .map(|s| (*s).to_owned())
         .collect();
