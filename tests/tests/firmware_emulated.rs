@@ -990,6 +990,12 @@ fn emulated_jig_names_capacitor_faults() {
         let rd = s.ok("readings");
         assert_signal_parity(&design, &rd, &data, &r, inject);
     }
+    let (ticks, insns) = cost_of(&mut s);
+    let st = fw(&mut s, "fw:stack?");
+    println!(
+        "jig-emulated --features full-console: test with two tones and a diagnosis: {ticks} SysTick ticks, {insns} instructions; {}",
+        st.join(" ")
+    );
     s.close();
     let _ = std::fs::remove_dir_all(&dir);
 }
