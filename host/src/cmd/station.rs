@@ -287,6 +287,7 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) 
     let mut derived = Map::new();
     let mut readings = Map::new();
     let mut explained = None;
+    let mut ac = Vec::new();
     for l in &reply.data {
         let kv: Map<String, Value> = l
             .split(' ')
@@ -314,6 +315,11 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) 
                 json!({"part": part, "mode": get("mode"), "score": num(get("score")),
                        "estimate": num(get("estimate")), "equivalent": equivalent}),
             );
+        } else if l.starts_with("ac ") {
+            // The signal test's gain readings and windows (as `check --json`'s "ac").
+            ac.push(json!({"f": num(get("f")), "measured": num(get("measured")),
+                       "low": num(get("low")), "high": num(get("high")),
+                       "ok": get("ok") == Some("1")}));
         } else if l.starts_with("derived ") {
             for k in ["ic", "ib", "ie", "vbe", "vce", "beta"] {
                 derived.insert(k.into(), num(get(k)));
@@ -342,6 +348,9 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) 
     });
     if let (Some(e), Some(obj)) = (explained, doc.as_object_mut()) {
         obj.insert("explained".into(), json!(e));
+    }
+    if let (false, Some(obj)) = (ac.is_empty(), doc.as_object_mut()) {
+        obj.insert("ac".into(), Value::Array(ac));
     }
     doc
 }
@@ -677,6 +686,31 @@ mod tests {
             shown.contains("P A S S") && shown.contains("F A I L"),
             "{shown}"
         );
+    }
+
+    #[test]
+    fn gain_lines_go_into_the_record_as_check_gives_them() {
+        let reply = crate::link::Reply {
+            data: vec![
+                "vcc=12 vb=2.05 ve=1.39 vc=5.74 source=measured".into(),
+                "verdict=fail explained=1".into(),
+                "ac f=30 measured=2.68 low=13.25 high=16.61 ok=0".into(),
+                "ac f=1 measured=2.44 low=3.15 high=5.03 ok=0".into(),
+                "fault=CE mode=open score=1 estimate=none equivalent=none".into(),
+            ],
+            status: "ok".into(),
+        };
+        let r = record("S1", "d", 7, &reply, "t");
+        assert_eq!(r["ac"][0]["f"], 30.0);
+        assert_eq!(r["ac"][1]["measured"], 2.44);
+        assert_eq!(r["ac"][1]["ok"], false);
+        assert_eq!(r["faults"][0]["part"], "CE");
+        // Without gain lines there is no "ac" key (as check without --ac).
+        let dc = crate::link::Reply {
+            data: vec!["verdict=pass".into()],
+            status: "ok".into(),
+        };
+        assert!(record("S2", "d", 7, &dc, "t").get("ac").is_none());
     }
 
     #[test]
