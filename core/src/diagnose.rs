@@ -801,7 +801,7 @@ fn fit(
     let beta_typ = p.beta_typ;
     let lb_typ = libm::log(beta_typ);
     let beta_fits = lb_hi > lb_lo + 1e-9;
-    let interval = coarse.span;
+    let interval = value_interval(&ctx.stage, suspect);
     // 1. Locate the part value with the crude error model at typical hFE, one step of the
     //    screen's grid either way of its find (golden section: the crude misfit is not smooth
     //    enough in the value for parabolic steps to find it as well).
@@ -818,7 +818,7 @@ fn fit(
         } else {
             hi
         };
-        if let Some(c) = locate(ctx, crude, suspect, interval, (a, b), LOCATE_GRID, 10) {
+        if let Some(c) = locate(ctx, crude, suspect, (a, b), LOCATE_GRID, 10) {
             at_typ = c;
         }
     }
@@ -893,12 +893,12 @@ const SCREEN_STEPS: u16 = 2;
 /// Points of the grid that locates a part value around the screen's find.
 const LOCATE_GRID: u16 = 5;
 
-/// A crude fit of a hypothesis at typical hFE: its χ² under the crude error model, the search
-/// interval of log(value) (low/high) and the log(value) found, the prediction there.
+/// A crude fit of a hypothesis at typical hFE: its χ² under the crude error model, the
+/// log(value) found (low/high; the search interval is [`value_interval`]'s), the prediction
+/// there.
 #[derive(Clone, Copy)]
 struct Coarse {
     chi2: f64,
-    span: Option<(f64, f64)>,
     lv: f64,
     y: [f64; DIM],
 }
@@ -909,7 +909,6 @@ fn locate(
     ctx: &mut Ctx<'_>,
     crude: &Sym,
     suspect: Suspect,
-    span: Option<(f64, f64)>,
     (lo, hi): (f64, f64),
     grid: u16,
     steps: u16,
@@ -922,7 +921,7 @@ fn locate(
             let chi2 = ctx.chi2(crude, y);
             if let Some(y) = y {
                 if best.is_none_or(|b| chi2 < b.chi2) {
-                    best = Some(Coarse { chi2, span, lv, y });
+                    best = Some(Coarse { chi2, lv, y });
                 }
             }
             chi2
@@ -943,7 +942,6 @@ fn screen(ctx: &mut Ctx<'_>, crude: &Sym, suspect: Suspect) -> Option<Coarse> {
         ctx,
         crude,
         suspect,
-        span,
         span.unwrap_or((0.0, 0.0)),
         SCREEN_GRID,
         SCREEN_STEPS,
@@ -1083,7 +1081,7 @@ pub fn diagnose_with_signal(
         };
         let (chi2, estimate, beta, predicted) = full.unwrap_or_else(|| {
             rough |= 1 << ranked.len();
-            let estimate = c.span.map(|_| libm::exp(c.lv));
+            let estimate = value_interval(&ctx.stage, suspect).map(|_| libm::exp(c.lv));
             (c.chi2, estimate, profile.beta_typ, c.y)
         });
         if rough & (1 << ranked.len()) == 0 && chi2 < floor {
