@@ -161,8 +161,9 @@ pub struct Hypothesis {
     /// VB, VE, VC predicted at the fit, V.
     pub predicted: [f64; 3],
     /// The gain at each test frequency predicted at the fit, V/V (in the readings' order; 0
-    /// beyond them).
-    pub gains: [f64; GAIN_SLOTS],
+    /// beyond them). Single precision is ample beside a gain reading's error of some percent,
+    /// and keeps a diagnosis small on the instrument's stack.
+    pub gains: [f32; GAIN_SLOTS],
     /// Equivalence group: hypotheses with the same number cannot be told apart by the readings
     /// given (DC and signal).
     pub group: u8,
@@ -1094,7 +1095,7 @@ pub fn diagnose_with_signal(
             estimate,
             beta,
             predicted: [predicted[0], predicted[1], predicted[2]],
-            gains: core::array::from_fn(|k| predicted.get(3 + k).copied().unwrap_or(0.0)),
+            gains: core::array::from_fn(|k| predicted.get(3 + k).copied().unwrap_or(0.0) as f32),
             group: 0,
         });
     }
@@ -1140,7 +1141,7 @@ pub fn diagnose_with_signal(
     // Leaders by their place in `ranked` (no copies of their predictions on the stack).
     let readings_of = |h: &Hypothesis, k: usize| match k {
         0..=2 => h.predicted.get(k).copied().unwrap_or(0.0),
-        _ => h.gains.get(k - 3).copied().unwrap_or(0.0),
+        _ => h.gains.get(k - 3).map_or(0.0, |g| f64::from(*g)),
     };
     let mut leaders: Vec<(u8, u8), CAPACITY> = Vec::new();
     for i in 0..ranked.len() {

@@ -241,7 +241,7 @@ pub struct Judgement {
     /// The ranked faults when the board failed.
     pub diagnosis: Option<Diagnosis>,
     /// The gain readings judged, in the order given.
-    pub tones: heapless::Vec<ToneVerdict, MAX_TONES>,
+    pub tones: ToneVerdicts,
 }
 
 /// Judge one board by its DC readings (see the module notes for the order of the steps).
@@ -295,7 +295,15 @@ pub fn verdict(
 }
 
 /// The gain readings judged against their windows.
-pub type ToneVerdicts = heapless::Vec<ToneVerdict, MAX_TONES>;
+pub type ToneVerdicts = heapless::Vec<ToneVerdict, TONE_SLOTS>;
+
+/// Gain readings a judgement holds at most (none without the signal test: a small instrument
+/// keeps no room for them).
+pub const TONE_SLOTS: usize = if cfg!(feature = "signal-test") {
+    MAX_TONES
+} else {
+    0
+};
 
 /// [`verdict`] with gain readings `tones`: each against its window ([`tone_windows`]); the
 /// verdict fails when any window fails.

@@ -20,8 +20,7 @@ use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::Verdict;
 use crate::diagnose::Diagnosis;
 use crate::explain::{FaultWords, SeparatingStep};
-use crate::judge::{JudgeError, ToneVerdict};
-use crate::signaltest::MAX_TONES;
+use crate::judge::JudgeError;
 #[cfg(feature = "monte-carlo")]
 use crate::spread::McSettings;
 use crate::spread::{self, Method, SpreadError};
@@ -43,7 +42,7 @@ pub struct LastCheck {
     /// The ranked faults when the board failed.
     pub diagnosis: Option<Diagnosis>,
     /// The gain readings judged (signal test), with their windows, in order.
-    pub tones: heapless::Vec<ToneVerdict, MAX_TONES>,
+    pub tones: crate::judge::ToneVerdicts,
 }
 
 /// The status of a board the judging path did not judge.
