@@ -971,10 +971,14 @@ fn emulated_jig_names_capacitor_faults() {
         ("inject cin open".into(), "CIN", "open"),
         (format!("inject ce {}", ce / 10.0), "CE", "low"),
     ];
+    let mut cost = None;
     for (inject, part, mode) in &cases {
         s.ok("inject none");
         s.ok(inject);
         let data = s.ok("test");
+        if cost.is_none() {
+            cost = Some(cost_of(&mut s));
+        }
         let r = parse_result(&data);
         println!(
             "{inject}: {:?} faults {:?}",
@@ -990,10 +994,10 @@ fn emulated_jig_names_capacitor_faults() {
         let rd = s.ok("readings");
         assert_signal_parity(&design, &rd, &data, &r, inject);
     }
-    let (ticks, insns) = cost_of(&mut s);
+    let (ticks, insns) = cost.expect("cost measured");
     let st = fw(&mut s, "fw:stack?");
     println!(
-        "jig-emulated --features full-console: test with two tones and a diagnosis: {ticks} SysTick ticks, {insns} instructions; {}",
+        "jig-emulated --features full-console: test (DC, two tones, windows, diagnosis) on CE open: {ticks} SysTick ticks, {insns} instructions; {}",
         st.join(" ")
     );
     s.close();
