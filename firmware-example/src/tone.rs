@@ -153,6 +153,10 @@ pub struct EmulatedTone {
     op: OperatingPoint,
     /// Radians per sample of the fundamental.
     w: f32,
+    /// The fundamental's phasor e^(jθ) at the next sample (cos, sin), advanced by `step`.
+    phasor: (f32, f32),
+    /// e^(jω): one sample's rotation.
+    step: (f32, f32),
     n: u32,
     noise: Noise,
     /// Gain error of the load input against the source input (what calibration removes).
@@ -168,6 +172,8 @@ impl EmulatedTone {
             caps,
             op,
             w: 0.0,
+            phasor: (1.0, 0.0),
+            step: (1.0, 0.0),
             n: 0,
             noise,
             load_input_gain: 1.0,
@@ -188,6 +194,8 @@ impl ToneDriver for EmulatedTone {
             *g = gain_at(&self.stage, &self.op, &self.caps, f64::from(f_hz) * h).unwrap_or_default();
         }
         self.w = 2.0 * core::f32::consts::PI / samples_per_period as f32;
+        self.step = (libm::cosf(self.w), libm::sinf(self.w));
+        self.phasor = (libm::cosf(0.5 * self.w), libm::sinf(0.5 * self.w));
         self.n = 0;
         f_hz
     }
@@ -196,21 +204,29 @@ impl ToneDriver for EmulatedTone {
 
     fn sample_pair(&mut self) -> (u16, u16) {
         // Square wave ±A = Σ over odd k of (4A/(πk))·sin(kθ); the load is each harmonic through
-        // the board's complex gain. Sampled half a sample after the edges.
-        let theta = self.w * (self.n as f32 + 0.5);
+        // the board's complex gain. Sampled half a sample after the edges. The phasor e^(jθ)
+        // advances by one rotation a sample (renormalised each period), and e^(jhθ) is its
+        // power: no sine or cosine per sample.
+        let (c1, s1) = self.phasor;
         self.n = self.n.wrapping_add(1);
-        let src = if libm::sinf(theta) >= 0.0 {
-            DRIVE_PEAK_V
-        } else {
-            -DRIVE_PEAK_V
-        };
+        let (cw, sw) = self.step;
+        let mut next = (c1 * cw - s1 * sw, c1 * sw + s1 * cw);
+        if self.n % 1024 == 0 {
+            let r = libm::sqrtf(next.0 * next.0 + next.1 * next.1);
+            next = (next.0 / r, next.1 / r);
+        }
+        self.phasor = next;
+        let src = if s1 >= 0.0 { DRIVE_PEAK_V } else { -DRIVE_PEAK_V };
+        // e^(j2θ), to step from one odd harmonic to the next.
+        let (c2, s2) = (c1 * c1 - s1 * s1, 2.0 * c1 * s1);
+        let (mut ch, mut sh) = (c1, s1);
         let mut load = 0.0f32;
         for (k, g) in self.gains.iter().enumerate() {
             let h = (2 * k + 1) as f32;
             let a = 4.0 * DRIVE_PEAK_V / (core::f32::consts::PI * h);
             // a·Im((re + j·im)·e^(j·hθ)) = a·(re·sin hθ + im·cos hθ)
-            let (s, c) = (libm::sinf(h * theta), libm::cosf(h * theta));
-            load += a * (g.re as f32 * s + g.im as f32 * c);
+            load += a * (g.re as f32 * sh + g.im as f32 * ch);
+            (ch, sh) = (ch * c2 - sh * s2, ch * s2 + sh * c2);
         }
         let n1 = 0.0005 * self.noise.unit();
         let n2 = 0.0005 * self.noise.unit();
