@@ -30,12 +30,12 @@ pub mod jig;
 pub mod screen;
 pub mod serial;
 pub mod stack;
-pub mod tone;
 #[cfg(target_os = "none")]
 // Register access (USART1, SysTick, DWT) and stack painting need raw pointers; every unsafe block
 // there says why it is sound.
 #[allow(unsafe_code)]
 pub mod target;
+pub mod tone;
 
 /// Firmware version, from the crate.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

@@ -191,7 +191,8 @@ impl ToneDriver for EmulatedTone {
     fn start(&mut self, f_hz: f32, samples_per_period: u32) -> f32 {
         for (k, g) in self.gains.iter_mut().enumerate() {
             let h = (2 * k + 1) as f64;
-            *g = gain_at(&self.stage, &self.op, &self.caps, f64::from(f_hz) * h).unwrap_or_default();
+            *g =
+                gain_at(&self.stage, &self.op, &self.caps, f64::from(f_hz) * h).unwrap_or_default();
         }
         self.w = 2.0 * core::f32::consts::PI / samples_per_period as f32;
         self.step = (libm::cosf(self.w), libm::sinf(self.w));
@@ -216,7 +217,11 @@ impl ToneDriver for EmulatedTone {
             next = (next.0 / r, next.1 / r);
         }
         self.phasor = next;
-        let src = if s1 >= 0.0 { DRIVE_PEAK_V } else { -DRIVE_PEAK_V };
+        let src = if s1 >= 0.0 {
+            DRIVE_PEAK_V
+        } else {
+            -DRIVE_PEAK_V
+        };
         // e^(j2θ), to step from one odd harmonic to the next.
         let (c2, s2) = (c1 * c1 - s1 * s1, 2.0 * c1 * s1);
         let (mut ch, mut sh) = (c1, s1);
@@ -264,14 +269,20 @@ mod tests {
         for f in [5.0, 20.0, 150.0, 1000.0] {
             let want = magnitude_at(&s, &op, &caps, f);
             let got = emulated_gain(s, caps, op, Noise::new(3), f, &SignalCal::default()).unwrap();
-            assert!((got - want).abs() < 0.01 * want + 0.01, "{f} Hz: {got} vs {want}");
+            assert!(
+                (got - want).abs() < 0.01 * want + 0.01,
+                "{f} Hz: {got} vs {want}"
+            );
         }
         // CE open: the gain drops to the unbypassed one.
         b.set_cap_fault(Some((Capacitor::Ce, CapState::Open)));
         let (s, caps, op) = b.solved().unwrap();
         let want = magnitude_at(&s, &op, &caps, 150.0);
         let got = emulated_gain(s, caps, op, Noise::new(3), 150.0, &SignalCal::default()).unwrap();
-        assert!(want < 5.0 && (got - want).abs() < 0.02 * want + 0.01, "{got} vs {want}");
+        assert!(
+            want < 5.0 && (got - want).abs() < 0.02 * want + 0.01,
+            "{got} vs {want}"
+        );
     }
 
     #[test]

@@ -19,11 +19,10 @@ use biasjig_firmware::button::Debounce;
 use biasjig_firmware::console::{App, Board, Show};
 use biasjig_firmware::cost::Ticks;
 use biasjig_firmware::jig::{AdcJig, SampleSource};
-use biasjig_firmware::tone::ToneDriver;
-use stm32f4xx_hal::rcc::Enable;
 use biasjig_firmware::screen::{draw_measurement, draw_verdict};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::target::{stack, ticks, ticks::DwtTicks};
+use biasjig_firmware::tone::ToneDriver;
 use core::mem::MaybeUninit;
 use cortex_m_rt::{entry, exception};
 use embedded_io::{ReadReady, Write};
@@ -38,6 +37,7 @@ use stm32f4xx_hal::i2c::{I2c, Mode};
 use stm32f4xx_hal::pac;
 use stm32f4xx_hal::prelude::*;
 use stm32f4xx_hal::rcc::Config;
+use stm32f4xx_hal::rcc::Enable;
 
 /// Core clock, Hz.
 const SYSCLK_HZ: u32 = 84_000_000;
@@ -80,7 +80,8 @@ impl ToneDriver for AdcSamples {
         t.psc().write(|w| unsafe { w.bits(d - 1) });
         t.arr().write(|w| unsafe { w.bits(p - 1) });
         t.ccr1().write(|w| unsafe { w.bits(p / 2) });
-        t.ccmr1_output().modify(|_, w| w.oc1m().pwm_mode1().oc1pe().set_bit());
+        t.ccmr1_output()
+            .modify(|_, w| w.oc1m().pwm_mode1().oc1pe().set_bit());
         t.ccer().modify(|_, w| w.cc1e().set_bit());
         t.egr().write(|w| w.ug().set_bit());
         // Sampling: an update every D clocks.
