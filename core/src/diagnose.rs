@@ -474,6 +474,7 @@ impl Ctx<'_> {
     fn signal_readings(&self, _: &mut [f64; DIM], _: &Stage, _: &OperatingPoint, _: &Caps) {}
 
     /// One solve, started from the last one.
+    #[inline(always)]
     fn solve(&mut self, stage: &Stage, cond: Conditions) -> Option<OperatingPoint> {
         self.solves = self.solves.saturating_add(1);
         let (op, next) = solve_from(stage, self.profile, cond, self.start.as_ref()).ok()?;
@@ -991,14 +992,34 @@ pub fn diagnose(
     meter: &Meter,
     var: &Variation,
 ) -> Result<Diagnosis, DiagnoseError> {
-    diagnose_with_signal(
+    let mut d = Diagnosis {
+        ranked: Vec::new(),
+        explained: false,
+        solves: 0,
+    };
+    diagnose_into(stage, profile, readings, meter, var, &mut d)?;
+    Ok(d)
+}
+
+/// [`diagnose`] written into `out` (a few KB): an instrument keeps the result where it is stored
+/// instead of moving it through its stack. On an error `out` holds nothing useful.
+pub fn diagnose_into(
+    stage: &Stage,
+    profile: &Profile,
+    readings: &Readings,
+    meter: &Meter,
+    var: &Variation,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    diagnose_with_signal_into(
         stage,
         profile,
         readings,
         &[],
         meter,
-        &SignalMeter::default(),
+        &SignalMeter::DEFAULT,
         var,
+        out,
     )
 }
 
@@ -1015,6 +1036,34 @@ pub fn diagnose_with_signal(
     signal: &SignalMeter,
     var: &Variation,
 ) -> Result<Diagnosis, DiagnoseError> {
+    let mut d = Diagnosis {
+        ranked: Vec::new(),
+        explained: false,
+        solves: 0,
+    };
+    diagnose_with_signal_into(stage, profile, readings, tones, meter, signal, var, &mut d)?;
+    Ok(d)
+}
+
+/// [`diagnose_with_signal`] written into `out` (a few KB): an instrument keeps the result where
+/// it is stored instead of moving it through its stack. On an error `out` holds nothing useful.
+#[expect(
+    clippy::too_many_arguments,
+    reason = "the readings of both kinds and the accuracy of each, as the public entry points"
+)]
+pub fn diagnose_with_signal_into(
+    stage: &Stage,
+    profile: &Profile,
+    readings: &Readings,
+    tones: &[ToneReading],
+    meter: &Meter,
+    signal: &SignalMeter,
+    var: &Variation,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    out.ranked.clear();
+    out.explained = false;
+    out.solves = 0;
     if !(readings.vb.is_finite()
         && readings.ve.is_finite()
         && readings.vc.is_finite()
@@ -1070,7 +1119,7 @@ pub fn diagnose_with_signal(
     );
     // 2. The full fit for every hypothesis the screen cannot rule out: the best SCREEN_KEEP and
     //    any within SCREEN_MARGIN of the best. The rest keep their coarse fit.
-    let mut ranked: Vec<Hypothesis, CAPACITY> = Vec::new();
+    let ranked = &mut out.ranked;
     let mut rough = 0u64;
     let mut floor = f64::INFINITY;
     for &(suspect, c) in &coarse {
@@ -1118,7 +1167,7 @@ pub fn diagnose_with_signal(
                 0.0
             }
     };
-    crate::order::sort_by(&mut ranked, |a, b| penalised(a).total_cmp(&penalised(b)));
+    crate::order::sort_by(ranked, |a, b| penalised(a).total_cmp(&penalised(b)));
     let best = ranked.first().map_or(0.0, penalised);
     let explained = ranked.first().is_some_and(|h| h.chi2 <= UNEXPLAINED_CHI2);
     let mut total = 0.0;
@@ -1169,16 +1218,14 @@ pub fn diagnose_with_signal(
         }
     }
     // Keep each group together, in the order of its best member, best first within a group.
-    crate::order::sort_by(&mut ranked, |a, b| {
+    crate::order::sort_by(ranked, |a, b| {
         a.group
             .cmp(&b.group)
             .then(penalised(a).total_cmp(&penalised(b)))
     });
-    Ok(Diagnosis {
-        ranked,
-        explained,
-        solves: ctx.solves,
-    })
+    out.explained = explained;
+    out.solves = ctx.solves;
+    Ok(())
 }
 
 /// The test frequency, Hz, at which the gains predicted for the hypotheses `group` (their fits as

@@ -164,7 +164,7 @@ impl core::fmt::Display for JudgeError {
 
 /// The variation the windows and the diagnosis cover: the test ambient, read through the inputs.
 pub fn variation(settings: &TestSettings) -> Variation {
-    settings.variation().read_through(settings.inputs)
+    settings.variation()
 }
 
 /// The stage is valid, its settings are, and it is forward active at its nominal point.
@@ -339,7 +339,8 @@ pub fn verdict_with_signal(
     let var = variation(settings);
     let limits = limits::limits(stage, profile, &var, meter, r.vcc).map_err(JudgeError::Limits)?;
     #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
-    let mut verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
+    let mut verdict = check::check_through(stage, &limits, meter, &settings.inputs, r)
+        .map_err(JudgeError::Implausible)?;
     #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
     let mut judged = ToneVerdicts::new();
     #[cfg(not(feature = "signal-test"))]
@@ -364,9 +365,46 @@ pub fn verdict_with_signal(
     Ok((Windows { supply, limits }, verdict, judged))
 }
 
+/// [`diagnosis`] written into `out`: the instrument keeps it in its session state, never on its
+/// stack.
+#[inline(never)]
+pub fn diagnosis_into(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    diagnosis_with_signal_into(stage, profile, settings, readings, &[], out)
+}
+
+/// [`diagnosis_into`] on DC and gain readings together.
+#[inline(never)]
+pub fn diagnosis_with_signal_into(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    diagnose::diagnose_with_signal_into(
+        stage,
+        profile,
+        readings,
+        tones,
+        &settings.meter,
+        &settings.signal,
+        &variation(settings),
+        out,
+    )
+}
+
 /// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
-/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place.)
-#[inline]
+/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place; not
+/// inlined, so that the diagnosis's working storage is not part of its caller's frame while the
+/// windows are computed.)
+#[inline(never)]
 pub fn diagnosis(
     stage: &Stage,
     profile: &Profile,
