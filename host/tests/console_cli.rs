@@ -184,19 +184,24 @@ fn station_manual_runs_end_to_end() {
         screen.contains("not checked") && screen.contains("IMPLAUSIBLE"),
         "{screen}"
     );
-    assert!(screen.contains("2 boards logged"), "{screen}");
+    assert!(screen.contains("2 boards judged"), "{screen}");
     let text = std::fs::read_to_string(&log).unwrap();
     let recs: Vec<serde_json::Value> = text
         .lines()
         .map(|l| serde_json::from_str(l).unwrap())
         .collect();
-    assert_eq!(recs.len(), 2, "{text}");
+    // SN-3's implausible readings are logged as refused; "SN-4" and "12 x 1 1" are then
+    // typing errors asked again, and the empty line goes on to the next board.
+    assert_eq!(recs.len(), 3, "{text}");
+    assert_eq!(recs[2]["serial"], "SN-3");
+    assert_eq!(recs[2]["verdict"], "refused");
+    let recs = &recs[..2];
     assert_eq!(recs[0]["serial"], "SN-1");
     assert_eq!(recs[0]["verdict"], "pass");
     assert_eq!(recs[1]["serial"], "SN-2");
     assert_eq!(recs[1]["verdict"], "fail");
     // One design hash: the file's, the log's and the instrument's.
-    for r in &recs {
+    for r in recs {
         assert_eq!(r["design"]["hash"], file_hash.as_str(), "{r}");
         assert_eq!(r["readings"]["vcc"], 12.0);
     }

@@ -19,7 +19,7 @@ use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::Verdict;
 use crate::diagnose::Diagnosis;
-use crate::explain::{FaultWords, SeparatingStep};
+use crate::explain::{listing, Listed};
 use crate::judge::JudgeError;
 #[cfg(feature = "monte-carlo")]
 use crate::spread::McSettings;
@@ -273,45 +273,22 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 r.data(format_args!("{}", t.as_str()));
             }
         } else {
-            if d.explained {
-                r.data(format_args!("Likely faults:"));
-            } else {
-                r.data(format_args!(
-                    "No single fault explains these readings (two faults, or a wrong transistor \
-                     type?). Nearest:"
-                ));
-            }
-            let mut shown: heapless::Vec<u8, LISTED_FAULTS> = heapless::Vec::new();
-            for (k, h) in d.faults().take(LISTED_FAULTS).enumerate() {
-                r.data(format_args!(
-                    "{}. {} ({} %)",
-                    k + 1,
-                    FaultWords {
-                        stage: &self.settings.stage,
-                        hypothesis: h
-                    },
-                    Fixed(100.0 * h.score, 0)
-                ));
-                let mut names = Text::default();
-                for e in d.equivalents(h).filter(|e| e.suspect.is_fault()) {
-                    let sep = if names.as_str().is_empty() { "" } else { ", " };
-                    let _ = write!(names, "{sep}{} {}", e.suspect.part(), e.suspect.mode());
-                }
-                if !names.as_str().is_empty() && !shown.contains(&h.group) {
-                    let _ = shown.push(h.group);
-                    r.data(format_args!(
-                        "   same readings as {}: to tell them apart, {}",
-                        names.as_str(),
-                        SeparatingStep::of(
-                            d.ranked
-                                .iter()
-                                .filter(|o| o.group == h.group && o.suspect.is_fault())
-                                .map(|o| o.suspect)
-                        )
-                    ));
-                }
-            }
+            self.show_fault_words(d, r);
         }
+    }
+
+    /// The likely faults in words (human mode), in a frame of its own: the machine path does
+    /// not carry the listing's stack.
+    #[inline(never)]
+    fn show_fault_words<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
+        let items: heapless::Vec<Listed, LISTED_FAULTS> = d
+            .faults()
+            .take(LISTED_FAULTS)
+            .map(|h| Listed::of(d, h))
+            .collect();
+        listing(&self.settings.stage, d.explained, &items, &mut |a| {
+            r.data(a)
+        });
     }
 
     /// `diagnose`: the last diagnosis again (the last readings are judged first when they were

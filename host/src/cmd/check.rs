@@ -10,8 +10,8 @@
 use std::path::PathBuf;
 
 use biasjig_core::device::Profile;
-use biasjig_core::diagnose::{Diagnosis, Hypothesis, Suspect};
-use biasjig_core::explain::{FaultWords, SeparatingStep};
+use biasjig_core::diagnose::{Diagnosis, Hypothesis};
+use biasjig_core::explain::{listing, FaultWords, Listed};
 use biasjig_core::judge::{self, JudgeError, Judgement, Windows};
 use biasjig_core::limits::Window;
 use biasjig_core::settings::{Digest, TestSettings};
@@ -271,7 +271,7 @@ pub fn separating_tone(st: &Station, vcc: f64, d: &Diagnosis, h: &Hypothesis) ->
     if group.len() < 2
         || !group
             .iter()
-            .any(|g| matches!(g.suspect, Suspect::Capacitor(..)))
+            .any(|g| matches!(g.suspect, biasjig_core::diagnose::Suspect::Capacitor(..)))
     {
         return None;
     }
@@ -386,16 +386,7 @@ const BIG_FAIL: &str = "\
 
 /// A fault in plain words (the core's wording, shared with the instrument's console).
 pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
-    FaultWords {
-        stage,
-        hypothesis: h,
-    }
-    .to_string()
-}
-
-/// The next measurement that separates a group of equivalent faults.
-pub fn separate(group: &[Suspect]) -> String {
-    SeparatingStep::of(group.iter().copied()).to_string()
+    FaultWords::of(stage, h).to_string()
 }
 
 /// One line of the test settings for a person: ambient, meter, inputs.
@@ -472,48 +463,19 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcom
                 dv.region.name()
             ));
             if let Some(d) = &j.diagnosis {
-                if !d.explained {
-                    out.push_str(
-                        "No single fault explains these readings (two faults, or a wrong \
-                         transistor type?). Nearest:\n",
-                    );
-                } else {
-                    out.push_str("Likely faults:\n");
-                }
-                let mut seen: Vec<u8> = Vec::new();
-                for (k, h) in listed(d).into_iter().enumerate() {
-                    out.push_str(&format!(
-                        "  {}. {} ({:.0} %)\n",
-                        k + 1,
-                        describe(&st.stage, h),
-                        100.0 * h.score
-                    ));
-                    let eq: Vec<Suspect> = d
-                        .equivalents(h)
-                        .filter(|e| e.suspect.is_fault())
-                        .map(|e| e.suspect)
-                        .collect();
-                    if !eq.is_empty() && !seen.contains(&h.group) {
-                        seen.push(h.group);
-                        let names: Vec<String> = eq
-                            .iter()
-                            .map(|s| format!("{} {}", s.part(), s.mode()))
-                            .collect();
-                        let mut all = eq.clone();
-                        all.push(h.suspect);
-                        out.push_str(&format!(
-                            "     same readings as {}: to tell them apart, {}\n",
-                            names.join(", "),
-                            separate(&all)
-                        ));
-                        if let Some(f) = separating_tone(st, r.vcc, d, h) {
-                            out.push_str(&format!(
-                                "     a gain reading at {} tells them apart\n",
-                                text::eng4(f, "Hz")
-                            ));
-                        }
-                    }
-                }
+                let items: Vec<Listed> = listed(d)
+                    .into_iter()
+                    .map(|h| Listed::of(d, h).with_tone(separating_tone(st, r.vcc, d, h)))
+                    .collect();
+                listing(&st.stage, d.explained, &items, &mut |a| {
+                    let l = a.to_string();
+                    let indent = if l.starts_with("Likely") || l.starts_with("No single") {
+                        ""
+                    } else {
+                        "  "
+                    };
+                    out.push_str(&format!("{indent}{l}\n"));
+                });
             }
         }
     }

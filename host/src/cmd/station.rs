@@ -1,22 +1,30 @@
-//! `biasjig station`: the technician's loop. Push the design to the instrument and verify it
-//! took (design hash), then per board: read the serial number, trigger measure and check, show
-//! the verdict large with the likely fault, append one complete JSON line to the log.
+//! `biasjig station`: the technician's loop. Push the design and every test setting (test
+//! ambient, meter, measuring inputs) to the instrument and verify the one settings digest, then
+//! per board: read the serial number (one already in the log is said and recorded as a retest),
+//! trigger measure and check, show the verdict large with the likely faults in the words of
+//! `biasjig check`, append one complete JSON line to the log.
 //!
-//! An instrument reset, a timeout or garbage on the line makes the station synchronise again,
-//! push the design again and repeat the board; a record is written only from one complete,
-//! verified reply, once, so nothing is lost or doubled. `--manual` runs the same loop against
-//! the console engine in this process, with the readings typed from a meter.
+//! An instrument reset, a timeout, garbage on the line or another settings digest makes the
+//! station synchronise again, push again and repeat the board; a record is written only from
+//! one complete reply with the right digest before and after it, once, so nothing is lost or
+//! doubled. `--manual` runs the same loop against the console engine in this process, with the
+//! readings typed from a meter: a line that is not readings is asked again, readings the engine
+//! refuses are logged as refused with the reason.
 //!
 //! The log is the board log of `biasjig check --log` ([`crate::boardlog`]: append-only JSON
 //! Lines, torn tails skipped), and each record has the shape of `biasjig check --json` plus
-//! `time`, `serial`, `design` (`id`, `hash`) and `readings`.
+//! `time`, `serial`, `design` (`id`, `hash`, `digest`), `readings`, `settings`, `digest`,
+//! `overrides` and `retest`.
 
+use std::collections::HashMap;
 use std::io::{BufRead, Write};
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
 use biasjig_core::console::record::design_hash;
 use biasjig_core::device::Profile;
+use biasjig_core::explain::{listing, suspect_of, Listed};
+use biasjig_core::settings::{digest, InputMode, Inputs, TestSettings, DEFAULT_TEMP_C};
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
@@ -25,6 +33,8 @@ use crate::cmd::console::{link_error, local_console, sync_budget};
 use crate::designfile;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::link::{Link, LinkError, MemoryPort, Port, Reply, SerialLink};
+use crate::stage_args::{settings_error, InputArgs, TestArgs};
+use crate::values;
 use crate::Global;
 
 /// Tries per board before the station gives up.
@@ -51,34 +61,62 @@ pub struct Cmd {
     /// Seconds allowed to synchronise with the instrument
     #[arg(long = "sync-timeout", default_value_t = crate::link::SYNC_TIMEOUT.as_secs_f64(), value_name = "S")]
     pub sync_timeout: f64,
+    /// Test ambient, °C (the station's, not the design's operating range) [default: the design
+    /// file's test ambient, or 25]
+    #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Test ambient")]
+    pub temp: Option<f64>,
+    #[command(flatten)]
+    pub test: TestArgs,
+    #[command(flatten)]
+    pub inputs: InputArgs,
 }
 
-/// The ambient of a design: nominal, lowest and highest, °C.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Ambient {
-    /// Nominal ambient, °C.
-    pub nominal: f64,
-    /// Lowest ambient, °C.
-    pub min: f64,
-    /// Highest ambient, °C.
-    pub max: f64,
-}
-
-impl Ambient {
-    /// One ambient, no range.
-    #[cfg(test)]
-    pub fn at(t: f64) -> Self {
-        Self {
-            nominal: t,
-            min: t,
-            max: t,
+impl Cmd {
+    /// The test settings the station pushes: the design file's (or the core's defaults), changed
+    /// by the flags, and the flags that changed them (`overrides` of each record).
+    pub fn test_settings(&self, base: TestSettings) -> Result<(TestSettings, Value), CliError> {
+        let mut ts = base;
+        let mut over = Map::new();
+        let mut add = |flag: &str, v: Option<f64>| {
+            if let Some(v) = v {
+                over.insert(flag.to_owned(), json!(v));
+            }
+        };
+        if let Some(t) = self.temp {
+            ts.temp_min_c = t;
+            ts.temp_max_c = t;
         }
+        add("--temp", self.temp);
+        let t = &self.test;
+        ts.temp_min_c = t.temp_min.unwrap_or(ts.temp_min_c);
+        ts.temp_max_c = t.temp_max.unwrap_or(ts.temp_max_c);
+        ts.meter.gain_error = t.meter.meter.unwrap_or(ts.meter.gain_error);
+        ts.meter.offset = t.meter.meter_offset.unwrap_or(ts.meter.offset);
+        ts.meter.divider_tol = t.meter.divider_tol.unwrap_or(ts.meter.divider_tol);
+        ts.inputs.r = self.inputs.input_r.or(ts.inputs.r);
+        ts.inputs.mode = self.inputs.inputs.unwrap_or(ts.inputs.mode);
+        add("--temp-min", t.temp_min);
+        add("--temp-max", t.temp_max);
+        add("--meter", t.meter.meter.map(|g| 100.0 * g));
+        add("--meter-offset", t.meter.meter_offset);
+        add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
+        add("--input-r", self.inputs.input_r);
+        add(
+            "--inputs",
+            self.inputs.inputs.map(|m| match m {
+                InputMode::Together => 0.0,
+                InputMode::One => 1.0,
+            }),
+        );
+        ts.validate().map_err(|e| settings_error(&ts, e))?;
+        Ok((ts, Value::Object(over)))
     }
 }
 
-/// The `set` lines that put a stage, profile and ambient range on the instrument (exact values:
-/// shortest round-trip decimal forms).
-pub fn push_lines(stage: &Stage, profile: &Profile, ambient: Ambient) -> Vec<String> {
+/// The lines that put everything a verdict depends on onto the instrument: the stage (parts,
+/// tolerances, supply tolerance), the transistor, the test ambient, the meter and the measuring
+/// inputs (exact values: shortest round-trip decimal forms).
+pub fn push_lines(stage: &Stage, profile: &Profile, settings: &TestSettings) -> Vec<String> {
     let pct = |t: f64| format!("{:e}%", t * 100.0);
     let mut v = vec![
         format!(
@@ -125,19 +163,36 @@ pub fn push_lines(stage: &Stage, profile: &Profile, ambient: Ambient) -> Vec<Str
     v.push(format!("set vce-sat {:e}", profile.vce_sat));
     v.push(format!("set power-rating {:e}", profile.power_25));
     v.push(format!("set tj-max {:e}", profile.tj_max));
-    // `set temp` collapses the range; then widen it.
-    v.push(format!("set temp {:e}", ambient.nominal));
-    v.push(format!("set temp-min {:e}", ambient.min));
-    v.push(format!("set temp-max {:e}", ambient.max));
+    // `set temp` collapses the range to one ambient inside it; then widen it.
+    let (lo, hi) = (settings.temp_min_c, settings.temp_max_c);
+    v.push(format!(
+        "set temp {:e}",
+        DEFAULT_TEMP_C.clamp(lo.min(hi), hi.max(lo))
+    ));
+    v.push(format!("set temp-min {lo:e}"));
+    v.push(format!("set temp-max {hi:e}"));
+    let m = &settings.meter;
+    v.push(format!("meter gain {}", pct(m.gain_error)));
+    v.push(format!("meter offset {:e}", m.offset));
+    v.push(format!("meter divider {}", pct(m.divider_tol)));
+    v.push(match settings.inputs.r {
+        Some(r) => format!("set input-r {r:e}"),
+        None => "set input-r none".into(),
+    });
+    v.push(format!("set inputs {}", settings.inputs.mode.name()));
     v
 }
 
-/// The stage and profile exactly as the instrument holds them after [`push_lines`] (the text
-/// forms are parsed the same way), for the hash check.
-pub fn expected_hash(stage: &Stage, profile: &Profile, ambient: Ambient) -> Option<u64> {
+/// The settings digest the instrument must report after [`push_lines`] (the text forms are
+/// parsed by the same engine), and the design hash of its stage and transistor.
+pub fn expected(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+) -> Option<(String, u64)> {
     let mut c = local_console();
     let mut sink = Vec::new();
-    for l in push_lines(stage, profile, ambient) {
+    for l in push_lines(stage, profile, settings) {
         let mut out = embedded_io_adapters::std::FromStd::new(&mut sink);
         c.line(&l, &mut out).ok()?;
     }
@@ -145,7 +200,11 @@ pub fn expected_hash(stage: &Stage, profile: &Profile, ambient: Ambient) -> Opti
     if text.lines().any(|l| l.starts_with("err ")) {
         return None;
     }
-    Some(design_hash(&c.settings().stage, &c.settings().profile))
+    let st = c.settings();
+    Some((
+        digest(&st.stage, &st.profile, &st.test_settings()).to_string(),
+        design_hash(&st.stage, &st.profile),
+    ))
 }
 
 /// Why one board could not be done.
@@ -162,21 +221,49 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     link: Link<P>,
     reopen: F,
     push: Vec<String>,
+    /// The settings digest the instrument must report (64 hex digits).
+    digest: String,
+    /// The design hash (stage and transistor), for the log.
     hash: u64,
+    /// What each record carries besides the board: `settings`, `overrides`, and the design
+    /// file's digest ([`provenance`]).
+    provenance: Value,
     design_id: String,
+    /// The stage pushed (for the fault words on the screen).
+    stage: Stage,
     budget: Duration,
+    /// When no measuring inputs were stated: the transistor and the test settings, to take the
+    /// instrument's own inputs into them ([`Station::inputs_from_unit`]).
+    adopt: Option<Adopt>,
+    /// The measuring inputs in the pushed settings.
+    inputs_used: Inputs,
     /// Resynchronisations done (resets, timeouts, garbage).
     pub resyncs: usize,
 }
 
+/// What the station needs to take the instrument's own measuring inputs.
+#[derive(Debug, Clone, Copy)]
+struct Adopt {
+    profile: Profile,
+    settings: TestSettings,
+    /// `--inputs` was given: keep its mode.
+    mode_stated: bool,
+}
+
 impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
-    /// A station on the port `reopen` opens; `push` are the `set` lines, `hash` the design hash
-    /// they give.
+    /// A station on the port `reopen` opens; `push` are the lines that put the design and the
+    /// test settings on the instrument and `digest` the settings digest they give
+    /// ([`expected`]), `hash` the design hash and `provenance` what every record carries besides
+    /// the board ([`provenance`]).
+    #[allow(clippy::too_many_arguments)]
     pub fn new(
         mut reopen: F,
         push: Vec<String>,
+        digest: String,
         hash: u64,
+        provenance: Value,
         design_id: String,
+        stage: Stage,
         budget: Duration,
     ) -> Result<Self, LinkError> {
         let port = reopen()?;
@@ -184,20 +271,92 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
             link: Link::new(port),
             reopen,
             push,
+            digest,
             hash,
+            provenance,
             design_id,
+            stage,
             budget,
+            adopt: None,
+            inputs_used: Inputs::IDEAL,
             resyncs: 0,
         })
     }
 
-    fn hash_ok(&mut self) -> Result<bool, LinkError> {
-        let r = self.link.command("hash")?;
-        let want = format!("{:016x}", self.hash);
-        Ok(r.ok() && r.value("hash") == Some(want.as_str()))
+    /// No measuring inputs were stated (neither the design file nor `--input-r`): the inputs are
+    /// the instrument's own (its jig's dividers, from its `meter` answer), and the pushed lines,
+    /// the digest and the records follow them. `mode_stated`: `--inputs` was given.
+    pub fn inputs_from_unit(
+        mut self,
+        profile: Profile,
+        settings: TestSettings,
+        mode_stated: bool,
+    ) -> Self {
+        self.adopt = Some(Adopt {
+            profile,
+            settings,
+            mode_stated,
+        });
+        self
     }
 
-    /// Synchronise, switch to machine mode, push the design and verify its hash.
+    /// Take the instrument's own measuring inputs (see [`Station::inputs_from_unit`]).
+    fn adopt_inputs(&mut self) -> Result<(), BoardError> {
+        let Some(a) = self.adopt else {
+            return Ok(());
+        };
+        let r = self.link.command("meter").map_err(BoardError::Link)?;
+        if !r.ok() {
+            return Ok(());
+        }
+        let mut ts = a.settings;
+        ts.inputs.r = r.value("input_r").and_then(|v| v.parse::<f64>().ok());
+        if ts.inputs.r.is_some() && !a.mode_stated {
+            if let Some(m) = r.value("inputs").and_then(InputMode::parse) {
+                ts.inputs.mode = m;
+            }
+        }
+        let (digest, hash) = expected(&self.stage, &a.profile, &ts).ok_or_else(|| {
+            BoardError::Refused(format!(
+                "the instrument's own measuring inputs ({:?}) are not accepted",
+                r.data
+            ))
+        })?;
+        self.push = push_lines(&self.stage, &a.profile, &ts);
+        self.digest = digest;
+        self.hash = hash;
+        if let Some(o) = self.provenance.as_object_mut() {
+            o.insert("settings".into(), crate::cmd::check::settings_json(&ts));
+        }
+        self.inputs_used = ts.inputs;
+        Ok(())
+    }
+
+    /// The measuring inputs the station judges with (after [`Station::prepare`]).
+    pub fn inputs(&self) -> Inputs {
+        self.inputs_used
+    }
+
+    /// The instrument reports the expected settings digest.
+    fn digest_ok(&mut self) -> Result<bool, LinkError> {
+        Ok(self.digest_reply()?.value("digest") == Some(self.digest.as_str()))
+    }
+
+    fn digest_reply(&mut self) -> Result<Reply, LinkError> {
+        let r = self.link.command("digest")?;
+        Ok(if r.ok() {
+            r
+        } else {
+            Reply {
+                data: Vec::new(),
+                status: r.status,
+            }
+        })
+    }
+
+    /// Synchronise, switch to machine mode, and make sure the instrument holds the design and
+    /// every test setting: when its settings digest differs, push them all, then verify the
+    /// digest.
     pub fn prepare(&mut self) -> Result<String, BoardError> {
         let id = self.link.sync(self.budget).map_err(BoardError::Link)?;
         for l in ["echo off", "mode machine"] {
@@ -206,16 +365,25 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 return Err(BoardError::Refused(format!("{l}: {}", r.status)));
             }
         }
-        if !self.hash_ok().map_err(BoardError::Link)? {
+        self.adopt_inputs()?;
+        let first = self.digest_reply().map_err(BoardError::Link)?;
+        if code_of(&first.status) == "UNKNOWN" {
+            return Err(BoardError::Refused(format!(
+                "the instrument has no digest command ({}): its firmware is older than the \
+                 settings digest; update it",
+                first.status
+            )));
+        }
+        if first.value("digest") != Some(self.digest.as_str()) {
             for l in self.push.clone() {
                 let r = self.link.command(&l).map_err(BoardError::Link)?;
                 if !r.ok() {
                     return Err(BoardError::Refused(format!("{l}: {}", r.status)));
                 }
             }
-            if !self.hash_ok().map_err(BoardError::Link)? {
+            if !self.digest_ok().map_err(BoardError::Link)? {
                 return Err(BoardError::Refused(
-                    "the design did not take: hash differs".into(),
+                    "the settings did not take: the instrument's settings digest differs".into(),
                 ));
             }
         }
@@ -231,17 +399,21 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     }
 
     /// One board: `action` is `test` (instrument) or `check VCC VB VE VC` (typed). The reply
-    /// counts only when the design hash is right before and after it.
+    /// counts only when the settings digest is right before and after it.
     pub fn board(&mut self, action: &str) -> Result<Reply, BoardError> {
         let mut last = None;
         for _ in 0..TRIES {
             let attempt = (|| -> Result<Result<Reply, String>, LinkError> {
-                if !self.hash_ok()? {
-                    return Err(LinkError::Garbage("the instrument lost the design".into()));
+                if !self.digest_ok()? {
+                    return Err(LinkError::Garbage(
+                        "the instrument lost the settings".into(),
+                    ));
                 }
                 let r = self.link.command(action)?;
-                if !self.hash_ok()? {
-                    return Err(LinkError::Garbage("the instrument lost the design".into()));
+                if !self.digest_ok()? {
+                    return Err(LinkError::Garbage(
+                        "the instrument lost the settings".into(),
+                    ));
                 }
                 Ok(if r.ok() { Ok(r) } else { Err(r.status) })
             })();
@@ -271,6 +443,44 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     pub fn design_id(&self) -> &str {
         &self.design_id
     }
+
+    /// The settings digest verified on the instrument.
+    pub fn digest(&self) -> &str {
+        &self.digest
+    }
+
+    /// A record with what judged it: `settings`, `digest` (verified on the instrument),
+    /// `overrides`, and `design.digest` (the design file's).
+    pub fn stamp(&self, mut record: Value) -> Value {
+        if let (Some(o), Some(p)) = (record.as_object_mut(), self.provenance.as_object()) {
+            for (k, v) in p {
+                match (
+                    k.as_str(),
+                    o.get_mut("design").and_then(Value::as_object_mut),
+                ) {
+                    ("design_digest", Some(d)) => {
+                        d.insert("digest".into(), v.clone());
+                    }
+                    _ => {
+                        o.insert(k.clone(), v.clone());
+                    }
+                }
+            }
+            o.insert("digest".into(), json!(self.digest));
+        }
+        record
+    }
+}
+
+/// What every record carries besides the board, in the shape of `biasjig check --log`:
+/// `settings` (test ambient, meter, inputs), `overrides` (the flags that changed the design
+/// file's settings) and the design file's digest.
+pub fn provenance(settings: &TestSettings, overrides: Value, design_digest: &str) -> Value {
+    json!({
+        "settings": crate::cmd::check::settings_json(settings),
+        "overrides": overrides,
+        "design_digest": design_digest,
+    })
 }
 
 fn num(s: Option<&str>) -> Value {
@@ -281,7 +491,14 @@ fn num(s: Option<&str>) -> Value {
 /// The log record of one board from the machine reply of `test`/`check`: the shape of
 /// `biasjig check --json` (`verdict`, `nodes`, `derived`, `faults`, `explained` when diagnosed)
 /// plus `time` (ISO 8601 UTC), `serial`, `design` (`id`, `hash`) and `readings`.
-pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) -> Value {
+pub fn record(
+    serial: &str,
+    design: &str,
+    hash: u64,
+    reply: &Reply,
+    time: &str,
+    retest: bool,
+) -> Value {
     let mut nodes = Map::new();
     let mut faults = Vec::new();
     let mut derived = Map::new();
@@ -345,6 +562,7 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) 
         "serial": serial,
         "design": {"id": design, "hash": format!("{hash:016x}")},
         "readings": readings,
+        "retest": retest,
     });
     if let (Some(e), Some(obj)) = (explained, doc.as_object_mut()) {
         obj.insert("explained".into(), json!(e));
@@ -355,19 +573,139 @@ pub fn record(serial: &str, design: &str, hash: u64, reply: &Reply, time: &str) 
     doc
 }
 
-/// The verdict, large.
-pub fn banner(reply: &Reply) -> String {
+/// The log record of a board whose readings were refused before judgement (the shape of
+/// `biasjig check --json` for refused readings, `verdict` `refused` and `reason`, plus `time`,
+/// `serial`, `design`, `retest`, and `typed`: the readings as typed, in manual mode).
+pub fn refused_record(
+    serial: &str,
+    design: &str,
+    hash: u64,
+    reason: &str,
+    typed: Option<&str>,
+    time: &str,
+    retest: bool,
+) -> Value {
+    let mut doc = json!({
+        "verdict": "refused",
+        "reason": reason,
+        "time": time,
+        "serial": serial,
+        "design": {"id": design, "hash": format!("{hash:016x}")},
+        "retest": retest,
+    });
+    if let (Some(t), Some(obj)) = (typed, doc.as_object_mut()) {
+        obj.insert("typed".into(), json!(t));
+    }
+    doc
+}
+
+/// The verdict, large, with the likely faults in the words of `biasjig check` (the core's
+/// listing, from the reply's machine `fault=` lines and the stage the station pushed).
+pub fn banner(stage: &Stage, reply: &Reply) -> String {
     let verdict = reply.value("verdict").unwrap_or("?").to_uppercase();
-    let spaced: String = verdict.chars().flat_map(|c| [c, ' ']).collect();
-    let bar = "#".repeat(spaced.len() + 8);
-    let mut s = format!("{bar}\n##  {}  ##\n{bar}\n", spaced.trim_end());
-    if let Some(l) = reply.data.iter().find(|l| l.starts_with("fault=")) {
-        s.push_str(&format!("likely fault: {l}\n"));
+    let mut s = big(&verdict);
+    let items = listed_faults(reply);
+    if !items.is_empty() {
+        let explained = reply.value("explained") != Some("0");
+        listing(stage, explained, &items, &mut |a| {
+            s.push_str(&format!("{a}\n"));
+        });
     }
     s
 }
 
-/// Run the loop: serial numbers (and, manual, readings) from `input`.
+fn big(word: &str) -> String {
+    let spaced: String = word.chars().flat_map(|c| [c, ' ']).collect();
+    let bar = "#".repeat(spaced.len() + 8);
+    format!("{bar}\n##  {}  ##\n{bar}\n", spaced.trim_end())
+}
+
+/// The faults of a machine reply (`fault=PART mode=MODE score= estimate= equivalent=P:M,...`).
+pub fn listed_faults(reply: &Reply) -> Vec<Listed> {
+    let mut v = Vec::new();
+    for l in reply.data.iter().filter(|l| l.starts_with("fault=")) {
+        let get = |k: &str| {
+            l.split(' ')
+                .find_map(|kv| kv.strip_prefix(k).and_then(|r| r.strip_prefix('=')))
+        };
+        let Some(suspect) = get("fault")
+            .zip(get("mode"))
+            .and_then(|(p, m)| suspect_of(p, m))
+        else {
+            continue;
+        };
+        let mut same = heapless::Vec::new();
+        for (p, m) in get("equivalent")
+            .unwrap_or("none")
+            .split(',')
+            .filter_map(|pm| pm.split_once(':'))
+        {
+            if let Some(e) = suspect_of(p, m) {
+                let _ = same.push(e);
+            }
+        }
+        v.push(Listed {
+            suspect,
+            estimate: get("estimate").and_then(|e| e.parse().ok()),
+            score: get("score").and_then(|e| e.parse().ok()).unwrap_or(0.0),
+            same,
+            tone: None,
+        });
+    }
+    v
+}
+
+/// Status codes that say the typed line was not readings (typing errors: ask again, log nothing).
+const NOT_READINGS: [&str; 6] = [
+    "USAGE", "VALUE", "UNKNOWN", "TOO_LONG", "CONTROL", "ENCODING",
+];
+
+/// The code word of an `err CODE text` status.
+fn code_of(status: &str) -> &str {
+    status
+        .strip_prefix("err ")
+        .and_then(|r| r.split(' ').next())
+        .unwrap_or("")
+}
+
+/// A typed readings line the station sends: four words, no control characters (a CR inside
+/// would make a second command).
+fn readings_line(typed: &str) -> Result<String, String> {
+    if typed.chars().any(char::is_control) {
+        return Err("control characters in the line".into());
+    }
+    let words: Vec<&str> = typed.split_whitespace().collect();
+    if words.len() != 4 {
+        return Err(format!(
+            "{} word{}; four readings are needed: VCC VB VE VC",
+            words.len(),
+            if words.len() == 1 { "" } else { "s" }
+        ));
+    }
+    Ok(format!("check {}", words.join(" ")))
+}
+
+/// Serial numbers already in the log, with how many records each has.
+fn serials_in(log: &Path) -> HashMap<String, usize> {
+    let mut seen = HashMap::new();
+    if log.exists() {
+        if let Ok(c) = boardlog::read(log) {
+            for r in c.records {
+                if let Some(s) = r["serial"].as_str() {
+                    *seen.entry(s.to_owned()).or_insert(0) += 1;
+                }
+            }
+        }
+    }
+    seen
+}
+
+/// Run the loop: serial numbers (and, manual, readings) from `input`. A serial number already
+/// in the log (or done in this run) is said so and its record marked `retest`. Manual: a line
+/// that is not readings (a typing error) asks for the readings again; readings the instrument
+/// refuses (`IMPLAUSIBLE`) are logged as refused with the reason, and the readings are asked
+/// again (an empty line goes on to the next board). Instrument: a refused board (`IMPLAUSIBLE`,
+/// `JIG`) is logged as refused and the loop goes on. Returns the boards judged.
 pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
     st: &mut Station<P, F>,
     mut input: impl BufRead,
@@ -376,42 +714,110 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
     manual: bool,
 ) -> Result<usize, CliError> {
     let mut boards = 0;
+    let mut seen = serials_in(log);
     let mut ask = |out: &mut dyn Write, prompt: &str| -> Result<Option<String>, CliError> {
         write!(out, "{prompt}").ok();
         out.flush().ok();
-        let mut l = String::new();
+        let mut l = Vec::new();
         let n = input
-            .read_line(&mut l)
+            .read_until(b'\n', &mut l)
             .map_err(|e| CliError::usage(format!("stdin: {e}")))?;
-        Ok((n > 0).then(|| l.trim().to_owned()))
+        Ok((n > 0).then(|| String::from_utf8_lossy(&l).trim().to_owned()))
     };
-    while let Some(serial) = ask(out, "serial number (empty to stop): ")? {
+    'boards: while let Some(serial) = ask(out, "serial number (empty to stop): ")? {
         if serial.is_empty() {
             break;
         }
-        let action = if manual {
-            let Some(r) = ask(out, "readings VCC VB VE VC: ")? else {
-                break;
+        if serial.chars().any(char::is_control) {
+            writeln!(out, "not a serial number: control characters in {serial:?}").ok();
+            continue;
+        }
+        let earlier = seen.get(&serial).copied().unwrap_or(0);
+        let retest = earlier > 0;
+        if retest {
+            writeln!(
+                out,
+                "board {serial} was tested before ({earlier} record{} in the log): this test is \
+                 recorded as a retest",
+                if earlier == 1 { "" } else { "s" }
+            )
+            .ok();
+        }
+        let reply = loop {
+            let (action, typed) = if manual {
+                let Some(r) = ask(out, "readings VCC VB VE VC (empty: next board): ")? else {
+                    break 'boards;
+                };
+                if r.is_empty() {
+                    writeln!(out, "board {serial}: no readings, not logged").ok();
+                    continue 'boards;
+                }
+                match readings_line(&r) {
+                    Ok(a) => (a, Some(r)),
+                    Err(why) => {
+                        writeln!(out, "not readings: {why}; type them again").ok();
+                        continue;
+                    }
+                }
+            } else {
+                ("test".to_owned(), None)
             };
-            format!("check {r}")
-        } else {
-            "test".to_owned()
-        };
-        let reply = match st.board(&action) {
-            Ok(r) => r,
-            Err(BoardError::Refused(m)) if manual => {
-                writeln!(out, "not checked: {m}").ok();
-                continue;
+            match st.board(&action) {
+                Ok(r) => break r,
+                Err(BoardError::Refused(status)) if NOT_READINGS.contains(&code_of(&status)) => {
+                    if !manual {
+                        return Err(CliError::link(format!("instrument: {status}")));
+                    }
+                    writeln!(out, "not readings: {status}; type them again").ok();
+                }
+                Err(BoardError::Refused(status))
+                    if manual || ["IMPLAUSIBLE", "JIG"].contains(&code_of(&status)) =>
+                {
+                    let reason = status.strip_prefix("err ").unwrap_or(&status).to_owned();
+                    boardlog::append(
+                        log,
+                        &st.stamp(refused_record(
+                            &serial,
+                            st.design_id(),
+                            st.hash,
+                            &reason,
+                            typed.as_deref(),
+                            &boardlog::now_utc(),
+                            retest,
+                        )),
+                    )?;
+                    *seen.entry(serial.clone()).or_insert(0) += 1;
+                    writeln!(
+                        out,
+                        "{}not checked, logged as refused: {reason}",
+                        big("REFUSED")
+                    )
+                    .ok();
+                    if !manual {
+                        continue 'boards;
+                    }
+                    writeln!(out, "type the readings again (empty: next board)").ok();
+                }
+                Err(BoardError::Refused(m)) => {
+                    return Err(CliError::link(format!("instrument: {m}")))
+                }
+                Err(BoardError::Link(e)) => return Err(link_error(e)),
             }
-            Err(BoardError::Refused(m)) => return Err(CliError::link(format!("instrument: {m}"))),
-            Err(BoardError::Link(e)) => return Err(link_error(e)),
         };
         let time = boardlog::now_utc();
         boardlog::append(
             log,
-            &record(&serial, st.design_id(), st.hash, &reply, &time),
+            &st.stamp(record(
+                &serial,
+                st.design_id(),
+                st.hash,
+                &reply,
+                &time,
+                retest,
+            )),
         )?;
-        write!(out, "{}", banner(&reply)).ok();
+        *seen.entry(serial.clone()).or_insert(0) += 1;
+        write!(out, "{}", banner(&st.stage, &reply)).ok();
         boards += 1;
     }
     Ok(boards)
@@ -422,21 +828,19 @@ impl Cmd {
     pub fn run(&self, _g: &Global) -> CmdResult {
         let budget = sync_budget(self.sync_timeout)?;
         let doc = designfile::load(&self.design)?;
-        // The test ambient the file states (what `check --design` applies), not the design's
-        // operating range.
-        let ambient = Ambient {
-            nominal: doc.temp_c.clamp(doc.test.temp_min_c, doc.test.temp_max_c),
-            min: doc.test.temp_min_c,
-            max: doc.test.temp_max_c,
-        };
-        let push = push_lines(&doc.stage, &doc.profile, ambient);
-        let hash = expected_hash(&doc.stage, &doc.profile, ambient).ok_or_else(|| {
+        let (settings, overrides) = self.test_settings(doc.test)?;
+        let prov = provenance(&settings, overrides, &doc.digest);
+        let push = push_lines(&doc.stage, &doc.profile, &settings);
+        let (digest, hash) = expected(&doc.stage, &doc.profile, &settings).ok_or_else(|| {
             CliError::field(
                 "--design",
                 self.design.display(),
                 "a stage the console accepts",
             )
         })?;
+        // Inputs stated by neither the design file nor a flag: the instrument's own.
+        let adopt = doc.test.inputs.r.is_none() && self.inputs.input_r.is_none();
+        let mode_stated = self.inputs.inputs.is_some();
         let stdin = std::io::stdin();
         let mut out = std::io::stderr();
         let boards = if self.manual {
@@ -449,11 +853,17 @@ impl Cmd {
                         .ok_or(LinkError::Disconnected("in-process console".into()))
                 },
                 push,
+                digest,
                 hash,
+                prov.clone(),
                 doc.id.clone(),
+                doc.stage,
                 budget,
             )
             .map_err(link_error)?;
+            if adopt {
+                st = st.inputs_from_unit(doc.profile, settings, mode_stated);
+            }
             st.prepare().map_err(board_err)?;
             run_loop(&mut st, stdin.lock(), &mut out, &self.log, true)?
         } else {
@@ -462,16 +872,38 @@ impl Cmd {
             let mut st = Station::new(
                 || SerialLink::open(&path, baud),
                 push,
+                digest,
                 hash,
+                prov.clone(),
                 doc.id.clone(),
+                doc.stage,
                 budget,
             )
             .map_err(link_error)?;
+            if adopt {
+                st = st.inputs_from_unit(doc.profile, settings, mode_stated);
+            }
             let id = st.prepare().map_err(board_err)?;
-            eprintln!("instrument: {id}; design {} pushed and verified", doc.id);
+            let inputs = if adopt { st.inputs() } else { settings.inputs };
+            eprintln!(
+                "instrument: {id}; design {} and test settings verified (settings digest {}); \
+                 measuring inputs {}{}",
+                doc.id,
+                st.digest(),
+                inputs
+                    .r
+                    .map_or("none (an ideal meter)".to_string(), |r| format!(
+                        "{r} Ω to ground, {}",
+                        inputs.mode.name()
+                    )),
+                if adopt { " (the instrument's own)" } else { "" }
+            );
             run_loop(&mut st, stdin.lock(), &mut out, &self.log, false)?
         };
-        eprintln!("{boards} boards logged to {}", self.log.display());
+        eprintln!(
+            "{boards} boards judged and logged to {}",
+            self.log.display()
+        );
         Ok(EXIT_OK)
     }
 }
@@ -612,15 +1044,18 @@ mod tests {
         std::thread::spawn(move || instrument(unit, b2, 4, 3));
         let stage = pushed();
         let profile = default_profile();
-        let ambient = Ambient::at(25.0);
-        let hash = expected_hash(&stage, &profile, ambient).unwrap();
+        let settings = TestSettings::DEFAULT;
+        let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
         let mut host = Some(host.clone());
         let keep = host.clone();
         let mut st = Station::new(
             move || Ok(host.take().or_else(|| keep.clone()).unwrap()),
-            push_lines(&stage, &profile, ambient),
+            push_lines(&stage, &profile, &settings),
+            digest.clone(),
             hash,
+            provenance(&settings, json!({}), "file-digest"),
             "demo-1".into(),
+            stage,
             Duration::from_secs(5),
         )
         .unwrap();
@@ -662,6 +1097,9 @@ mod tests {
             assert_eq!(r["serial"], format!("SN-{i}"));
             assert_eq!(r["verdict"], if i % 2 == 0 { "pass" } else { "fail" });
             assert_eq!(r["design"]["hash"], format!("{hash:016x}"));
+            assert_eq!(r["digest"], digest.as_str());
+            assert_eq!(r["design"]["digest"], "file-digest");
+            assert_eq!(r["settings"]["temp_min"], 25.0);
             assert_eq!(r["design"]["id"], "demo-1");
             assert!(r["time"].as_str().unwrap().ends_with('Z'), "{r}");
             assert_eq!(r["readings"]["vcc"], 12.0);
@@ -717,13 +1155,277 @@ mod tests {
     fn pushed_design_hash_matches_the_design_file_hash() {
         let stage = pushed();
         let profile = default_profile();
-        let ambient = Ambient {
-            nominal: 25.0,
-            min: -10.0,
-            max: 55.0,
+        let settings = TestSettings {
+            temp_min_c: -10.0,
+            temp_max_c: 55.0,
+            ..TestSettings::DEFAULT
         };
-        let h = expected_hash(&stage, &profile, ambient).unwrap();
+        let (d, h) = expected(&stage, &profile, &settings).unwrap();
         assert_eq!(h, design_hash(&stage, &profile));
         assert_eq!(format!("{h:016x}"), designfile::hash(&stage, &profile));
+        assert_eq!(d, digest(&stage, &profile, &settings).to_string());
+    }
+
+    /// Every setting the verdict depends on is pushed: each one changed alone changes the
+    /// digest the instrument reports after the push, and the digest of the pushed lines is the
+    /// core's digest of the values.
+    #[test]
+    fn every_setting_is_pushed_and_covered_by_the_digest() {
+        let stage = pushed();
+        let profile = default_profile();
+        let base = TestSettings::DEFAULT;
+        let mut variants = vec![base];
+        let mut t = base;
+        t.temp_min_c = 0.0;
+        t.temp_max_c = 40.0;
+        variants.push(t);
+        let mut t = base;
+        t.meter.gain_error = 0.01;
+        variants.push(t);
+        let mut t = base;
+        t.meter.offset = 0.002;
+        variants.push(t);
+        let mut t = base;
+        t.meter.divider_tol = 0.005;
+        variants.push(t);
+        let mut t = base;
+        t.inputs.r = Some(110e3);
+        variants.push(t);
+        let mut t = base;
+        t.inputs.r = Some(110e3);
+        t.inputs.mode = InputMode::One;
+        variants.push(t);
+        let mut s2 = stage;
+        s2.vcc.tol = 0.1;
+        let mut p2 = profile;
+        p2.beta_min = 100.0;
+        p2.beta_max = 300.0;
+        let mut seen = std::collections::HashSet::new();
+        for (st, pr, ts) in variants
+            .iter()
+            .map(|t| (stage, profile, *t))
+            .chain([(s2, profile, base), (stage, p2, base)])
+        {
+            let (d, _) = expected(&st, &pr, &ts).unwrap();
+            assert_eq!(d, digest(&st, &pr, &ts).to_string(), "{ts:?}");
+            assert!(seen.insert(d), "a setting not covered: {ts:?}");
+        }
+    }
+
+    /// A unit that holds other settings (another ambient, meter and inputs) is pushed to the
+    /// station's before any board, and a unit that changes behind the station's back makes it
+    /// push again.
+    #[test]
+    fn a_unit_with_other_settings_is_pushed_before_the_lot() {
+        let (host, unit) = MemoryPort::pair();
+        std::thread::spawn(move || serve(unit));
+        let stage = pushed();
+        let profile = default_profile();
+        let settings = TestSettings {
+            temp_min_c: 10.0,
+            temp_max_c: 40.0,
+            meter: biasjig_core::limits::Meter {
+                gain_error: 0.01,
+                offset: 0.002,
+                divider_tol: 0.002,
+            },
+            inputs: biasjig_core::settings::Inputs {
+                r: Some(1e6),
+                mode: InputMode::Together,
+            },
+        };
+        let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
+        let mut link = Link::new(host.clone());
+        link.sync(Duration::from_secs(5)).unwrap();
+        assert!(link.command("mode machine").unwrap().ok());
+        // The unit holds the same stage with another meter and ambient: the old stage hash alone
+        // would have let this pass.
+        for l in push_lines(&stage, &profile, &TestSettings::DEFAULT) {
+            assert!(link.command(&l).unwrap().ok(), "{l}");
+        }
+        let r = link.command("hash").unwrap();
+        assert_eq!(r.value("hash"), Some(format!("{hash:016x}").as_str()));
+        let mut h = Some(host);
+        let mut st = Station::new(
+            move || h.take().ok_or(LinkError::Disconnected("gone".into())),
+            push_lines(&stage, &profile, &settings),
+            digest.clone(),
+            hash,
+            provenance(&settings, json!({}), "file-digest"),
+            "demo-1".into(),
+            stage,
+            Duration::from_secs(5),
+        )
+        .unwrap();
+        st.prepare().unwrap();
+        assert!(st.digest_ok().unwrap());
+        let r = st.link.command("meter").unwrap();
+        assert_eq!(r.value("gain"), Some("0.01"), "{r:?}");
+        // Changed behind the station's back: the board is not judged under it.
+        assert!(st.link.command("set temp-max 50").unwrap().ok());
+        assert!(!st.digest_ok().unwrap());
+    }
+
+    /// A jig whose probe is open on every board whose number is a multiple of 3.
+    struct OpenProbeEvery3(Arc<AtomicUsize>);
+
+    impl Jig for OpenProbeEvery3 {
+        fn measure(&mut self, samples: u16) -> Result<Readings, JigError> {
+            if self.0.load(Ordering::SeqCst) % 3 == 0 {
+                return Err(JigError::OpenProbe(biasjig_core::console::Channel::Vb));
+            }
+            Boards(self.0.clone()).measure(samples)
+        }
+    }
+
+    /// An instrument run goes on past a board the jig cannot read: it is logged as refused with
+    /// the unit's reason, and the next boards are judged.
+    #[test]
+    fn a_refused_board_is_logged_and_the_run_goes_on() {
+        let (host, mut unit) = MemoryPort::pair();
+        let board = Arc::new(AtomicUsize::new(1));
+        let b2 = board.clone();
+        std::thread::spawn(move || {
+            let mut c = Console::new(
+                Identity::new("fake", "1"),
+                OpenProbeEvery3(b2),
+                MemoryStore::default(),
+                StdClock::default(),
+            );
+            let mut buf = [0u8; 256];
+            while let Ok(n) = unit.recv(&mut buf, Duration::from_secs(30)) {
+                let mut out = Vec::new();
+                let _ = c.feed(&buf[..n], &mut FromStd::new(&mut out));
+                if unit.send(&out).is_err() {
+                    return;
+                }
+            }
+        });
+        let stage = pushed();
+        let profile = default_profile();
+        let settings = TestSettings::DEFAULT;
+        let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
+        let mut h = Some(host);
+        let mut st = Station::new(
+            move || h.take().ok_or(LinkError::Disconnected("gone".into())),
+            push_lines(&stage, &profile, &settings),
+            digest,
+            hash,
+            provenance(&settings, json!({}), "file-digest"),
+            "demo-1".into(),
+            stage,
+            Duration::from_secs(5),
+        )
+        .unwrap();
+        st.prepare().unwrap();
+        let dir = std::env::temp_dir().join(format!("biasjig-refused-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let log = dir.join("boards.jsonl");
+        let _ = std::fs::remove_file(&log);
+        // Serials SN-2, SN-3 (open probe), SN-4; the jig's board follows the serial.
+        struct Feed(Arc<AtomicUsize>, Vec<&'static str>);
+        impl std::io::Read for Feed {
+            fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+                let Some(s) = self.1.first().copied() else {
+                    return Ok(0);
+                };
+                self.1.remove(0);
+                if let Some(n) = s.strip_prefix("SN-").and_then(|n| n.trim().parse().ok()) {
+                    self.0.store(n, Ordering::SeqCst);
+                }
+                buf[..s.len()].copy_from_slice(s.as_bytes());
+                Ok(s.len())
+            }
+        }
+        let input =
+            std::io::BufReader::with_capacity(64, Feed(board, vec!["SN-2\n", "SN-3\n", "SN-4\n"]));
+        let mut screen = Vec::new();
+        let n = run_loop(&mut st, input, &mut screen, &log, false).unwrap();
+        assert_eq!(n, 2, "two boards judged");
+        let recs = boardlog::read(&log).unwrap().records;
+        let v: Vec<(&str, &str)> = recs
+            .iter()
+            .map(|r| {
+                (
+                    r["serial"].as_str().unwrap(),
+                    r["verdict"].as_str().unwrap(),
+                )
+            })
+            .collect();
+        assert_eq!(v, [("SN-2", "pass"), ("SN-3", "refused"), ("SN-4", "pass")]);
+        let reason = recs[1]["reason"].as_str().unwrap();
+        assert!(
+            reason.starts_with("JIG") && reason.contains("open"),
+            "{reason}"
+        );
+        let shown = String::from_utf8(screen).unwrap();
+        assert!(shown.contains("R E F U S E D"), "{shown}");
+    }
+
+    /// A jig reader whose inputs load every node with 11 MΩ.
+    struct LoadingJig(Arc<AtomicUsize>);
+
+    impl Jig for LoadingJig {
+        fn measure(&mut self, samples: u16) -> Result<Readings, JigError> {
+            Boards(self.0.clone()).measure(samples)
+        }
+        fn input_r(&self) -> Option<f64> {
+            Some(11e6)
+        }
+    }
+
+    /// With no measuring inputs stated, the station judges with the instrument's own (its jig's
+    /// dividers), pushes them back as they are, and the digest and records carry them.
+    #[test]
+    fn unstated_inputs_are_the_instruments_own() {
+        let (host, mut unit) = MemoryPort::pair();
+        std::thread::spawn(move || {
+            let mut c = Console::new(
+                Identity::new("fake", "1"),
+                LoadingJig(Arc::new(AtomicUsize::new(0))),
+                MemoryStore::default(),
+                StdClock::default(),
+            );
+            let mut buf = [0u8; 256];
+            while let Ok(n) = unit.recv(&mut buf, Duration::from_secs(30)) {
+                let mut out = Vec::new();
+                let _ = c.feed(&buf[..n], &mut FromStd::new(&mut out));
+                if unit.send(&out).is_err() {
+                    return;
+                }
+            }
+        });
+        let stage = pushed();
+        let profile = default_profile();
+        let settings = TestSettings::DEFAULT;
+        let (digest0, hash) = expected(&stage, &profile, &settings).unwrap();
+        let mut h = Some(host);
+        let mut st = Station::new(
+            move || h.take().ok_or(LinkError::Disconnected("gone".into())),
+            push_lines(&stage, &profile, &settings),
+            digest0.clone(),
+            hash,
+            provenance(&settings, json!({}), "file-digest"),
+            "demo-1".into(),
+            stage,
+            Duration::from_secs(5),
+        )
+        .unwrap()
+        .inputs_from_unit(profile, settings, false);
+        st.prepare().unwrap();
+        assert_eq!(st.inputs().r, Some(11e6));
+        let with_jig = TestSettings {
+            inputs: biasjig_core::settings::Inputs {
+                r: Some(11e6),
+                mode: InputMode::Together,
+            },
+            ..settings
+        };
+        assert_eq!(st.digest(), digest(&stage, &profile, &with_jig).to_string());
+        assert_ne!(st.digest(), digest0);
+        let r = st.link.command("meter").unwrap();
+        assert_eq!(r.value("input_r"), Some("1.1e7"), "{r:?}");
+        let rec = st.stamp(json!({"design": {}}));
+        assert_eq!(rec["settings"]["inputs"]["r"], 11e6);
     }
 }

@@ -1,0 +1,322 @@
+//! Fault wording for faults that share their readings (issue 11, item 7): every group the
+//! diagnosis produces is named on its first line with an in-circuit separating action, and the
+//! lines under it lead each member, followed as a technician would, to itself.
+//!
+//! The in-circuit rules the walk assumes (common practice): with the power off, a part reads its
+//! value unless it is faulty (parallel paths through the other parts are blocked by the
+//! transistor's junctions when the higher of the two lead directions is taken), except that CE
+//! lies across RE2: a shorted or leaky CE makes RE2 read low until one end of CE is lifted.
+
+#![cfg(feature = "fault-detail")]
+
+use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::diagnose::{diagnose, ResistorMode, Suspect};
+use biasjig_core::explain::{listing, Group, Listed, Member};
+use biasjig_core::limits::Meter;
+use biasjig_core::solve::{solve, Conditions};
+use biasjig_core::spread::Variation;
+use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Readings, Resistor, Stage};
+
+/// A small seeded generator (SplitMix64), the same numbers on every platform.
+struct Rng(u64);
+
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    fn pick<T: Copy>(&mut self, v: &[T]) -> T {
+        v[(self.next() % v.len() as u64) as usize]
+    }
+}
+
+fn stage(polarity: Polarity, vcc: f64, r: [f64; 5]) -> Stage {
+    Stage {
+        polarity,
+        vcc: Part::new(vcc, 0.0),
+        r1: Part::new(r[0], 0.05),
+        r2: Part::new(r[1], 0.05),
+        rc: Part::new(r[2], 0.05),
+        re1: Part::new(r[3], 0.05),
+        re2: Part::new(r[4], 0.05),
+        rl: None,
+        rs: 0.0,
+        cin: None,
+        cout: None,
+        ce: None,
+    }
+}
+
+fn profile(min: f64, typ: f64, max: f64, vbe: f64) -> Profile {
+    Profile {
+        beta_min: min,
+        beta_typ: typ,
+        beta_max: max,
+        is_25: is_from_vbe(vbe),
+        ..Profile::default()
+    }
+}
+
+/// Invented test designs (not from any book): two NPN, two PNP, one without RE1.
+fn designs() -> Vec<(&'static str, Stage, Profile)> {
+    vec![
+        (
+            "npn15",
+            stage(Polarity::Npn, 15.0, [68e3, 15e3, 3.9e3, 220.0, 820.0]),
+            profile(120.0, 210.0, 360.0, 0.66),
+        ),
+        (
+            "pnp9",
+            stage(Polarity::Pnp, 9.0, [12e3, 47e3, 2.7e3, 150.0, 820.0]),
+            profile(100.0, 180.0, 300.0, 0.64),
+        ),
+        (
+            "npn24",
+            stage(Polarity::Npn, 24.0, [150e3, 18e3, 10e3, 0.0, 1.5e3]),
+            profile(80.0, 150.0, 250.0, 0.68),
+        ),
+        (
+            "pnp5",
+            stage(Polarity::Pnp, 5.0, [10e3, 18e3, 1e3, 47.0, 470.0]),
+            profile(150.0, 250.0, 450.0, 0.62),
+        ),
+    ]
+}
+
+fn readings_of(s: &Stage, p: &Profile, beta: f64, fault: Option<Fault>) -> Option<Readings> {
+    let (st, dev) = match fault {
+        Some(Fault::Device(d)) => (*s, Some(d)),
+        Some(f) => (s.with_fault(f), None),
+        None => (*s, None),
+    };
+    let op = solve(
+        &st,
+        p,
+        Conditions {
+            temp_c: 25.0,
+            beta_25: beta,
+            fault: dev,
+            loads: Default::default(),
+        },
+    )
+    .ok()?;
+    Some(Readings {
+        vcc: op.vcc,
+        vb: op.vb,
+        ve: op.ve,
+        vc: op.vc,
+    })
+}
+
+fn all_faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, Fault)> {
+    let mut v = Vec::new();
+    for r in Resistor::ALL {
+        let nominal = s.resistor(r);
+        if nominal == 0.0 {
+            continue;
+        }
+        v.push((Suspect::Resistor(r, ResistorMode::Open), Fault::Open(r)));
+        v.push((Suspect::Resistor(r, ResistorMode::Short), Fault::Short(r)));
+        let low = rng.pick(&[0.1, 0.5, 0.3, 0.01, 0.2]);
+        v.push((
+            Suspect::Resistor(r, ResistorMode::Low),
+            Fault::Value(r, nominal * low),
+        ));
+        let high = rng.pick(&[10.0, 2.0, 3.0, 100.0, 5.0]);
+        v.push((
+            Suspect::Resistor(r, ResistorMode::High),
+            Fault::Value(r, nominal * high),
+        ));
+    }
+    for d in DeviceFault::ALL {
+        v.push((Suspect::Device(d), Fault::Device(d)));
+    }
+    v
+}
+
+/// What the technician's meter shows for `part` when `truth` is the fault: -1 below its band,
+/// +1 above, 0 within.
+fn reading(part: &str, truth: Member, ce_lifted: bool) -> i32 {
+    match truth {
+        Member::Fault(Suspect::Resistor(r, m)) if r.name() == part => match m {
+            ResistorMode::Low | ResistorMode::Short => -1,
+            ResistorMode::High | ResistorMode::Open => 1,
+        },
+        Member::CeShorted | Member::CeLeaky if part == "RE2" && !ce_lifted => -1,
+        _ => 0,
+    }
+}
+
+fn words(m: Member) -> (String, String) {
+    match m {
+        Member::Fault(Suspect::Resistor(r, mode)) => (
+            r.name().to_string(),
+            match mode {
+                ResistorMode::Open => "open",
+                ResistorMode::Short => "shorted",
+                ResistorMode::Low => "too low",
+                ResistorMode::High => "too high",
+            }
+            .to_string(),
+        ),
+        Member::CeShorted => ("CE".into(), "shorted".into()),
+        Member::CeLeaky => ("CE".into(), "leaky".into()),
+        other => ("Q".into(), other.to_string()),
+    }
+}
+
+/// Follow the outcome lines for `truth`; the names the first matching line gives.
+fn follow(outcomes: &[String], truth: Member) -> String {
+    for l in outcomes {
+        if let Some(rest) = l.strip_prefix("otherwise: ") {
+            return rest.to_string();
+        }
+        if let Some((_, rest)) = l.split_once(" with CE lifted: ") {
+            let (ce, re2) = rest.split_once("; still below: ").expect("both results");
+            return if reading("RE2", truth, true) < 0 {
+                re2
+            } else {
+                ce
+            }
+            .to_string();
+        }
+        if let Some(rest) = l.strip_prefix("a junction open, shorted or the wrong way round: ") {
+            if matches!(truth, Member::Fault(Suspect::Device(_))) {
+                return rest.to_string();
+            }
+            continue;
+        }
+        let (cond, names) = l.split_once(": ").expect("condition: names");
+        let mut w = cond.split(' ');
+        let part = w.next().unwrap();
+        let r = reading(part, truth, false);
+        let hit = match w.next().unwrap() {
+            "below" => r < 0,
+            "above" => r > 0,
+            "off" => r != 0,
+            other => panic!("unknown condition {other:?} in {l:?}"),
+        };
+        assert!(
+            !(part == "RE2" && matches!(truth, Member::CeShorted | Member::CeLeaky)),
+            "RE2 measured with CE in circuit: {l}"
+        );
+        if hit {
+            return names.split("; otherwise ").next().unwrap().to_string();
+        }
+    }
+    panic!("no outcome line for {truth} in {outcomes:?}");
+}
+
+#[test]
+fn a_ce_short_is_named_with_re2_short_and_ce_is_lifted_first() {
+    // A shorted CE bypasses RE2 at DC: the readings are those of RE2 shorted.
+    let (_, s, p) = designs().remove(0);
+    let r = readings_of(&s, &p, p.beta_typ, Some(Fault::Short(Resistor::Re2))).unwrap();
+    let d = diagnose(&s, &p, &r, &Meter::default(), &Variation::at(25.0)).unwrap();
+    let items: Vec<Listed> = d.faults().take(6).map(|h| Listed::of(&d, h)).collect();
+    let mut lines = Vec::new();
+    listing(&s, d.explained, &items, &mut |a| lines.push(a.to_string()));
+    let first = &lines[1];
+    assert!(first.starts_with("1. "), "{lines:#?}");
+    assert!(
+        first.contains("RE2 shorted") && first.contains("CE shorted"),
+        "the group is named: {lines:#?}"
+    );
+    assert!(
+        first.contains("power off, lift one end of CE and measure RE2"),
+        "{lines:#?}"
+    );
+    assert!(
+        !lines.iter().any(|l| l.contains("measure RE2 in circuit")),
+        "RE2 is never measured with CE in circuit: {lines:#?}"
+    );
+    assert!(
+        lines[2].contains("with CE lifted: CE shorted"),
+        "{lines:#?}"
+    );
+}
+
+#[test]
+fn every_group_gets_an_in_circuit_action_that_leads_each_member_to_itself() {
+    let meter = Meter::default();
+    let var = Variation::at(25.0);
+    let mut rng = Rng(0x00C1_2C17);
+    let mut seen = std::collections::BTreeSet::new();
+    for (name, design, prof) in designs() {
+        for beta in [prof.beta_min, prof.beta_typ, prof.beta_max] {
+            for (_, f) in all_faults(&design, &mut rng) {
+                let Some(r) = readings_of(&design, &prof, beta, Some(f)) else {
+                    continue;
+                };
+                let d = diagnose(&design, &prof, &r, &meter, &var).unwrap();
+                for h in d.faults().take(6) {
+                    let l = Listed::of(&d, h);
+                    let g = Group::of(std::iter::once(l.suspect).chain(l.same.iter().copied()));
+                    if !g.is_shared() {
+                        continue;
+                    }
+                    let mut key: Vec<String> = g.members().iter().map(|m| m.to_string()).collect();
+                    key.sort();
+                    seen.insert(key.join(" | "));
+                    // The group's own listing: first line and the lines under it.
+                    let mut lines = Vec::new();
+                    listing(&design, true, std::slice::from_ref(&l), &mut |a| {
+                        lines.push(a.to_string())
+                    });
+                    let first = &lines[1];
+                    for m in g.members() {
+                        let (part, mode) = words(*m);
+                        assert!(
+                            first.contains(&part) && first.contains(&mode),
+                            "{name}: {m} named on the first line: {first}"
+                        );
+                    }
+                    assert!(first.contains("power off"), "{name}: {first}");
+                    // A reading in circuit comes with what it proves.
+                    if first.contains("in circuit measure") {
+                        assert!(
+                            lines
+                                .last()
+                                .unwrap()
+                                .starts_with("In circuit, parallel parts"),
+                            "{name}: {lines:#?}"
+                        );
+                    }
+                    // One console line (200 bytes) even with the command line's indentation.
+                    assert!(lines.iter().all(|l| l.len() <= 196), "{name}: {lines:#?}");
+                    let outcomes: Vec<String> = lines[2..]
+                        .iter()
+                        .map(|l| l.trim().to_string())
+                        .filter(|l| !l.starts_with("closest fit") && !l.starts_with("In circuit"))
+                        .collect();
+                    let parts: std::collections::BTreeSet<String> =
+                        g.members().iter().map(|m| words(*m).0).collect();
+                    if parts.len() == 1 {
+                        assert!(first.contains("either way"), "{name}: {first}");
+                        assert!(outcomes.is_empty(), "{name}: {lines:?}");
+                        continue;
+                    }
+                    for m in g.members() {
+                        let verdict = follow(&outcomes, *m);
+                        let (part, mode) = words(*m);
+                        assert!(
+                            verdict.contains(&part) && verdict.contains(&mode),
+                            "{name}: {m} followed the lines to {verdict:?}: {lines:#?}"
+                        );
+                    }
+                }
+            }
+        }
+    }
+    println!(
+        "{} groups:\n{}",
+        seen.len(),
+        seen.iter().cloned().collect::<Vec<_>>().join("\n")
+    );
+    // Every group of the census (RE1/RE2, R1/R2, RC/emitter, RE2/CE ...) was met.
+    assert!(seen.len() >= 15, "{seen:?}");
+    assert!(seen.iter().any(|g| g.contains("CE shorted")), "{seen:?}");
+}
