@@ -627,29 +627,24 @@ fn minimise(f: &mut dyn FnMut(f64) -> f64, lo: f64, hi: f64, grid: u16, refine: 
 
 /// The log-value search interval of a `low`/`high` fit, or `None` for other suspects.
 fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(f64, f64)> {
-    match suspect {
-        Suspect::Resistor(r, m @ (ResistorMode::Low | ResistorMode::High)) => {
-            let p = stage.part(r);
-            let ln = libm::log(p.value);
-            let span = libm::log(VALUE_RANGE);
-            // Just outside the tolerance band, on the side the mode names.
-            if m == ResistorMode::Low {
-                Some((ln - span, libm::log(1.0 - p.tol) + ln))
-            } else {
-                Some((libm::log(1.0 + p.tol) + ln, ln + span))
-            }
+    // One interval for resistors and capacitors (a capacitor's value is fitted only with gain
+    // readings).
+    let (p, m) = match suspect {
+        Suspect::Resistor(r, m @ (ResistorMode::Low | ResistorMode::High)) => (stage.part(r), m),
+        Suspect::Capacitor(c, m @ (ResistorMode::Low | ResistorMode::High))
+            if cfg!(feature = "signal-test") =>
+        {
+            (stage.capacitor(c)?, m)
         }
-        Suspect::Capacitor(c, m @ (ResistorMode::Low | ResistorMode::High)) => {
-            let p = stage.capacitor(c)?;
-            let ln = libm::log(p.value);
-            let span = libm::log(VALUE_RANGE);
-            if m == ResistorMode::Low {
-                Some((ln - span, libm::log(1.0 - p.tol) + ln))
-            } else {
-                Some((libm::log(1.0 + p.tol) + ln, ln + span))
-            }
-        }
-        _ => None,
+        _ => return None,
+    };
+    let ln = libm::log(p.value);
+    let span = libm::log(VALUE_RANGE);
+    // Just outside the tolerance band, on the side the mode names.
+    if m == ResistorMode::Low {
+        Some((ln - span, libm::log(1.0 - p.tol) + ln))
+    } else {
+        Some((libm::log(1.0 + p.tol) + ln, ln + span))
     }
 }
 
@@ -685,7 +680,7 @@ fn covariance(
     };
     let mut diag = [0.0; DIM];
     for (k, (d, m)) in diag.iter_mut().zip(ctx.measured).enumerate() {
-        if k < 3 {
+        if k < 3 || !cfg!(feature = "signal-test") {
             let s = reading_error(meter, m) * INV_SQRT3;
             let extra = if float.get(k).copied().unwrap_or(false) {
                 FLOATING_NODE_V
@@ -719,7 +714,8 @@ fn covariance(
         // A step to the tolerance edge; a uniform spread has σ = tol/√3.
         add(ctx, Tweak::Scale(r, 1.0 + p.tol), INV_SQRT3);
     }
-    if ctx.n > 3 {
+    // Capacitor tolerances move the gain readings only (none without the signal test).
+    if cfg!(feature = "signal-test") && ctx.n > 3 {
         for c in Capacitor::ALL {
             let fitted_cap = matches!(suspect, Suspect::Capacitor(x, _) if x == c);
             match ctx.stage.capacitor(c) {

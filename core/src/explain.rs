@@ -856,6 +856,49 @@ mod tests {
         );
     }
 
+    /// A real CE short (signal test) stands in for the implied one: named once, settled by
+    /// lifting CE; coupling capacitors get their own capacitance step, and the separating tone
+    /// is said under the group.
+    #[test]
+    #[cfg(feature = "fault-detail")]
+    fn capacitor_members_have_their_own_step() {
+        let ce = Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short);
+        let g = Group::of([r(Resistor::Re2, ResistorMode::Short), ce]);
+        assert_eq!(g.members().len(), 2, "{:?}", g.members());
+        assert!(!g.members().contains(&Member::CeShorted));
+        assert_eq!(g.to_string(), "RE2 shorted or CE shorted");
+        let s = stage();
+        let o: StdVec<String> = g.outcomes(&s).map(|o| o.to_string()).collect();
+        assert_eq!(o.len(), 1, "{o:?}");
+        assert!(
+            o[0].contains("with CE lifted: CE shorted; still below: RE2 shorted"),
+            "{o:?}"
+        );
+
+        let mut same: Vec<Suspect, GROUP_MAX> = Vec::new();
+        let _ = same.push(Suspect::Capacitor(Capacitor::Cin, ResistorMode::Low));
+        let l = lines(&[Listed {
+            suspect: Suspect::Capacitor(Capacitor::Cin, ResistorMode::Open),
+            estimate: None,
+            score: 0.6,
+            same,
+            tone: Some(20.0),
+        }]);
+        assert!(
+            l[1].starts_with("1. CIN open or CIN too small: same readings (60 %); power off, lift one end of CIN and measure its capacitance"),
+            "{l:?}"
+        );
+        assert!(
+            l[2].contains("CIN reads next to nothing: CIN open"),
+            "{l:?}"
+        );
+        assert!(l[2].contains("CIN too small"), "{l:?}");
+        assert!(
+            l[3].contains("a gain reading at 20 Hz tells them apart"),
+            "{l:?}"
+        );
+    }
+
     #[test]
     fn machine_names_parse_back() {
         for s in [
