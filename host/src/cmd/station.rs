@@ -1138,7 +1138,7 @@ mod tests {
             ],
             status: "ok".into(),
         };
-        let r = record("S1", "d", 7, &reply, "t");
+        let r = record("S1", "d", 7, &reply, "t", false);
         assert_eq!(r["ac"][0]["f"], 30.0);
         assert_eq!(r["ac"][1]["measured"], 2.44);
         assert_eq!(r["ac"][1]["ok"], false);
@@ -1148,7 +1148,7 @@ mod tests {
             data: vec!["verdict=pass".into()],
             status: "ok".into(),
         };
-        assert!(record("S2", "d", 7, &dc, "t").get("ac").is_none());
+        assert!(record("S2", "d", 7, &dc, "t", false).get("ac").is_none());
     }
 
     #[test]
@@ -1233,6 +1233,7 @@ mod tests {
                 r: Some(1e6),
                 mode: InputMode::Together,
             },
+            signal: biasjig_core::signaltest::SignalMeter::DEFAULT,
         };
         let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
         let mut link = Link::new(host.clone());
