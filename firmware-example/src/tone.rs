@@ -212,7 +212,7 @@ impl ToneDriver for EmulatedTone {
         self.n = self.n.wrapping_add(1);
         let (cw, sw) = self.step;
         let mut next = (c1 * cw - s1 * sw, c1 * sw + s1 * cw);
-        if self.n % 1024 == 0 {
+        if self.n.is_multiple_of(1024) {
             let r = libm::sqrtf(next.0 * next.0 + next.1 * next.1);
             next = (next.0 / r, next.1 / r);
         }
