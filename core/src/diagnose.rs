@@ -35,14 +35,34 @@ use heapless::Vec;
 use crate::check::reading_error;
 use crate::device::Profile;
 use crate::limits::Meter;
+#[cfg(feature = "signal-test")]
+use crate::response;
+use crate::response::{CapState, Caps};
 use crate::settings::Inputs;
 use crate::settings::ReadNode;
+use crate::signaltest::{SignalMeter, ToneReading, MAX_TONES};
 use crate::solve::{solve_from, Conditions, NodeLoads, OperatingPoint, Start};
 use crate::spread::Variation;
-use crate::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
+use crate::stage::{Capacitor, DeviceFault, Fault, Readings, Resistor, Stage};
 
-/// Hypotheses in one diagnosis at most: the good board, 5 resistors × 4 modes, 6 transistor faults.
-pub const CAPACITY: usize = 27;
+/// Hypotheses in one diagnosis at most: the good board, 5 resistors × 4 modes, 6 transistor
+/// faults, 3 capacitors × 4 modes.
+pub const CAPACITY: usize = if cfg!(feature = "signal-test") {
+    39
+} else {
+    // Without the signal test a capacitor can only be `short` (seen at DC).
+    30
+};
+/// Gain readings in one diagnosis at most (none without the signal test).
+pub const GAIN_SLOTS: usize = if cfg!(feature = "signal-test") {
+    MAX_TONES
+} else {
+    0
+};
+/// Readings in one diagnosis at most: VB, VE, VC and the gain at each test frequency.
+const DIM: usize = 3 + GAIN_SLOTS;
+/// Noise of a gain reading on top of the signal meter's error bound, V/V (standard deviation).
+pub const GAIN_NOISE: f64 = 0.005;
 /// χ² added for a fitted part value (`low`/`high`), so that a fit never beats a plain fault
 /// that explains the readings as well.
 pub const FIT_PENALTY: f64 = 3.0;
@@ -94,15 +114,19 @@ pub enum Suspect {
     Resistor(Resistor, ResistorMode),
     /// A transistor fault.
     Device(DeviceFault),
+    /// A capacitor fault (the modes mean the same as for a resistor; a value in F).
+    Capacitor(Capacitor, ResistorMode),
 }
 
 impl Suspect {
-    /// The part's machine name: "R1", "R2", "RC", "RE1", "RE2", "Q" (or "none" for a good board).
+    /// The part's machine name: "R1", "R2", "RC", "RE1", "RE2", "Q", "CIN", "COUT", "CE" (or
+    /// "none" for a good board).
     pub fn part(self) -> &'static str {
         match self {
             Self::Good => "none",
             Self::Resistor(r, _) => r.name(),
             Self::Device(_) => "Q",
+            Self::Capacitor(c, _) => c.name(),
         }
     }
 
@@ -110,7 +134,7 @@ impl Suspect {
     pub fn mode(self) -> &'static str {
         match self {
             Self::Good => "none",
-            Self::Resistor(_, m) => m.name(),
+            Self::Resistor(_, m) | Self::Capacitor(_, m) => m.name(),
             Self::Device(d) => d.name(),
         }
     }
@@ -130,13 +154,18 @@ pub struct Hypothesis {
     pub score: f64,
     /// Misfit χ² of the best fit (without the fit penalty).
     pub chi2: f64,
-    /// The part's fitted actual value for `low`/`high`, Ω.
+    /// The part's fitted actual value for `low`/`high`, Ω (a capacitor's in F).
     pub estimate: Option<f64>,
     /// The fitted hFE at 25 °C.
     pub beta: f64,
     /// VB, VE, VC predicted at the fit, V.
     pub predicted: [f64; 3],
-    /// Equivalence group: hypotheses with the same number cannot be told apart by DC readings.
+    /// The gain at each test frequency predicted at the fit, V/V (in the readings' order; 0
+    /// beyond them). Single precision is ample beside a gain reading's error of some percent,
+    /// and keeps a diagnosis small on the instrument's stack.
+    pub gains: [f32; GAIN_SLOTS],
+    /// Equivalence group: hypotheses with the same number cannot be told apart by the readings
+    /// given (DC and signal).
     pub group: u8,
 }
 
@@ -179,7 +208,7 @@ impl Diagnosis {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[non_exhaustive]
 pub enum DiagnoseError {
-    /// A reading is not finite.
+    /// A reading is not finite (or a test frequency or gain is out of range).
     Readings,
     /// Not one hypothesis could be solved (the stage or profile is not valid).
     NothingSolved,
@@ -194,71 +223,103 @@ impl core::fmt::Display for DiagnoseError {
     }
 }
 
-/// A symmetric 3×3 matrix (xx, yy, zz, xy, xz, yz).
-#[derive(Debug, Clone, Copy, Default)]
-struct Sym3 {
-    a: f64,
-    b: f64,
-    c: f64,
-    d: f64,
-    e: f64,
-    f: f64,
+/// A symmetric matrix over the first `n` of [`DIM`] readings (the rest unused).
+#[derive(Debug, Clone, Copy)]
+struct Sym {
+    m: [[f64; DIM]; DIM],
+    n: usize,
 }
 
-impl Sym3 {
-    fn diag(v: [f64; 3]) -> Self {
-        let [a, b, c] = v;
-        Self {
-            a,
-            b,
-            c,
-            ..Self::default()
+#[expect(
+    clippy::indexing_slicing,
+    clippy::needless_range_loop,
+    reason = "fixed DIM×DIM arrays indexed by loop counters below n <= DIM (row and column)"
+)]
+impl Sym {
+    fn diag(v: [f64; DIM], n: usize) -> Self {
+        let mut m = [[0.0; DIM]; DIM];
+        for k in 0..n.min(DIM) {
+            m[k][k] = v[k];
         }
+        Self { m, n: n.min(DIM) }
     }
 
     /// Add the outer product s·sᵀ.
-    fn add_outer(&mut self, s: [f64; 3]) {
-        let [x, y, z] = s;
-        self.a += x * x;
-        self.b += y * y;
-        self.c += z * z;
-        self.d += x * y;
-        self.e += x * z;
-        self.f += y * z;
+    fn add_outer(&mut self, s: [f64; DIM]) {
+        for i in 0..self.n {
+            for j in 0..self.n {
+                self.m[i][j] += s[i] * s[j];
+            }
+        }
     }
 
-    /// The inverse (the matrix is positive definite by construction), or a diagonal fallback.
+    /// The inverse (the matrix is positive definite by construction) by Gauss-Jordan with
+    /// partial pivoting, or the inverse of the diagonal when it is singular.
     fn inverse(&self) -> Self {
-        let Self { a, b, c, d, e, f } = *self;
-        let ca = b * c - f * f;
-        let cb = a * c - e * e;
-        let cc = a * b - d * d;
-        let cd = e * f - d * c;
-        let ce = d * f - b * e;
-        let cf = d * e - a * f;
-        let det = a * ca + d * cd + e * ce;
-        if det > 0.0 && det.is_finite() {
-            Self {
-                a: ca / det,
-                b: cb / det,
-                c: cc / det,
-                d: cd / det,
-                e: ce / det,
-                f: cf / det,
+        let n = self.n;
+        let mut a = self.m;
+        let mut inv = [[0.0; DIM]; DIM];
+        for k in 0..n {
+            inv[k][k] = 1.0;
+        }
+        let mut ok = true;
+        for col in 0..n {
+            let mut p = col;
+            for row in col + 1..n {
+                if libm::fabs(a[row][col]) > libm::fabs(a[p][col]) {
+                    p = row;
+                }
             }
+            let piv = a[p][col];
+            if !(piv.is_finite() && libm::fabs(piv) > 0.0) {
+                ok = false;
+                break;
+            }
+            a.swap(col, p);
+            inv.swap(col, p);
+            let r = 1.0 / piv;
+            for j in 0..n {
+                a[col][j] *= r;
+                inv[col][j] *= r;
+            }
+            for row in 0..n {
+                if row != col {
+                    let f = a[row][col];
+                    if f != 0.0 {
+                        for j in 0..n {
+                            a[row][j] -= f * a[col][j];
+                            inv[row][j] -= f * inv[col][j];
+                        }
+                    }
+                }
+            }
+        }
+        if ok && inv.iter().flatten().all(|v| v.is_finite()) {
+            Self { m: inv, n }
         } else {
-            Self::diag([1.0 / a, 1.0 / b, 1.0 / c])
+            let mut d = [0.0; DIM];
+            for k in 0..n {
+                d[k] = 1.0 / self.m[k][k];
+            }
+            Self::diag(d, n)
         }
     }
 
     /// rᵀ·M·r.
-    fn quad(&self, r: [f64; 3]) -> f64 {
-        let [x, y, z] = r;
-        self.a * x * x
-            + self.b * y * y
-            + self.c * z * z
-            + 2.0 * (self.d * x * y + self.e * x * z + self.f * y * z)
+    fn quad(&self, r: [f64; DIM]) -> f64 {
+        let mut q = 0.0;
+        for i in 0..self.n {
+            for j in 0..self.n {
+                q += r[i] * self.m[i][j] * r[j];
+            }
+        }
+        q
     }
+}
+
+/// A load `r` (Ω) added in parallel with an existing one.
+fn parallel_load(existing: Option<f64>, r: f64) -> Option<f64> {
+    Some(existing.map_or(r, |e| crate::acnet::parallel(e, r)))
 }
 
 /// The fixed parts of one diagnosis.
@@ -266,7 +327,15 @@ struct Ctx<'a> {
     stage: Stage,
     profile: &'a Profile,
     temp_c: f64,
-    measured: [f64; 3],
+    /// VB, VE, VC and the gain readings, then zeros.
+    measured: [f64; DIM],
+    /// Readings in use: 3 + the test frequencies.
+    n: usize,
+    /// The accuracy of a gain reading.
+    signal: SignalMeter,
+    /// The test frequencies, Hz.
+    #[cfg_attr(not(feature = "signal-test"), expect(dead_code))]
+    tones: [f64; GAIN_SLOTS],
     /// The measuring inputs attached while the nodes are read.
     inputs: Inputs,
     solves: u32,
@@ -279,33 +348,74 @@ struct Ctx<'a> {
 enum Tweak {
     None,
     Scale(Resistor, f64),
+    ScaleCap(Capacitor, f64),
     Temp(f64),
     Supply(f64),
 }
 
 impl Ctx<'_> {
-    /// VB, VE, VC for `suspect` with the part value `value` (low/high) and hFE `beta`.
+    /// VB, VE, VC and the gains at the test frequencies for `suspect` with the part value
+    /// `value` (low/high) and hFE `beta`.
     fn predict(
         &mut self,
         suspect: Suspect,
         value: f64,
         beta: f64,
         tweak: Tweak,
-    ) -> Option<[f64; 3]> {
+    ) -> Option<[f64; DIM]> {
         let mut stage = self.stage;
         let mut temp_c = self.temp_c;
         match tweak {
             Tweak::None => {}
             Tweak::Scale(r, k) => stage.part_mut(r).value *= k,
+            Tweak::ScaleCap(c, k) => match c {
+                Capacitor::Cin => stage.cin.iter_mut().for_each(|p| p.value *= k),
+                Capacitor::Cout => stage.cout.iter_mut().for_each(|p| p.value *= k),
+                Capacitor::Ce => stage.ce.iter_mut().for_each(|p| p.value *= k),
+            },
             Tweak::Temp(t) => temp_c = t,
             Tweak::Supply(v) => stage.vcc.value = v,
         }
-        let (stage, fault) = match suspect {
+        let mut caps = Caps::nominal(&stage);
+        let (ac_stage, fault) = match suspect {
             Suspect::Good => (stage, None),
             Suspect::Resistor(r, ResistorMode::Open) => (stage.with_fault(Fault::Open(r)), None),
             Suspect::Resistor(r, ResistorMode::Short) => (stage.with_fault(Fault::Short(r)), None),
             Suspect::Resistor(r, _) => (stage.with_fault(Fault::Value(r, value)), None),
             Suspect::Device(d) => (stage, Some(d)),
+            Suspect::Capacitor(c, m) => {
+                *caps.get_mut(c) = match m {
+                    ResistorMode::Open => CapState::Open,
+                    ResistorMode::Short => CapState::Short,
+                    _ => CapState::Fitted(value),
+                };
+                (stage, None)
+            }
+        };
+        // The DC test set-up: the source's RS stays on the input and RL on the output, so a
+        // shorted coupling capacitor loads the base (with RS) or the collector (with RL); a
+        // shorted bypass capacitor shorts RE2.
+        let mut loads = NodeLoads::NONE;
+        let dc_stage = match suspect {
+            Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short) => {
+                ac_stage.with_fault(Fault::Short(Resistor::Re2))
+            }
+            Suspect::Capacitor(Capacitor::Cin, ResistorMode::Short) => {
+                if ac_stage.rs > 0.0 {
+                    loads.base = parallel_load(loads.base, ac_stage.rs);
+                    ac_stage
+                } else {
+                    // An ideal source holds the base at ground.
+                    ac_stage.with_fault(Fault::Short(Resistor::R2))
+                }
+            }
+            Suspect::Capacitor(Capacitor::Cout, ResistorMode::Short) => {
+                if let Some(rl) = ac_stage.rl {
+                    loads.collector = parallel_load(loads.collector, rl);
+                }
+                ac_stage
+            }
+            _ => ac_stage,
         };
         let cond = Conditions {
             temp_c,
@@ -313,28 +423,55 @@ impl Ctx<'_> {
             fault,
             loads: NodeLoads::NONE,
         };
-        match self.inputs.common_loads() {
-            Some(loads) => {
-                let op = self.solve(&stage, cond.loaded(loads))?;
-                Some([op.vb, op.ve, op.vc])
+        // The measuring inputs' loads, with the fault's own (a shorted coupling capacitor).
+        let with = |l: NodeLoads| NodeLoads {
+            base: match loads.base {
+                Some(r) => parallel_load(l.base, r),
+                None => l.base,
+            },
+            collector: match loads.collector {
+                Some(r) => parallel_load(l.collector, r),
+                None => l.collector,
+            },
+            emitter: l.emitter,
+        };
+        let (vb, ve, vc, op) = match self.inputs.common_loads() {
+            Some(l) => {
+                let op = self.solve(&dc_stage, cond.loaded(with(l)))?;
+                (op.vb, op.ve, op.vc, op)
             }
-            None => self.one_at_a_time(&stage, cond),
+            None => {
+                // Each node read with only its own input attached: one solve per node.
+                let mut at = |n: ReadNode| {
+                    let l = self.inputs.loads_reading(n);
+                    self.solve(&dc_stage, cond.loaded(with(l)))
+                };
+                let b = at(ReadNode::Base)?;
+                let ve = at(ReadNode::Emitter)?.ve;
+                let vc = at(ReadNode::Collector)?.vc;
+                (b.vb, ve, vc, b)
+            }
+        };
+        let mut y = [0.0; DIM];
+        for (slot, v) in y.iter_mut().zip([vb, ve, vc]) {
+            *slot = v;
+        }
+        self.signal_readings(&mut y, &ac_stage, &op, &caps);
+        Some(y)
+    }
+
+    /// The gains at the test frequencies into `y[3..n]`.
+    #[cfg(feature = "signal-test")]
+    fn signal_readings(&self, y: &mut [f64; DIM], stage: &Stage, op: &OperatingPoint, caps: &Caps) {
+        let tones = self.n.saturating_sub(3);
+        for (slot, f) in y.iter_mut().skip(3).zip(self.tones.iter()).take(tones) {
+            *slot = response::magnitude_at(stage, op, caps, *f);
         }
     }
 
-    /// Each node read with only its own input attached: one solve per node. (Out of line: its
-    /// solves stay out of `predict`'s frame on the instrument.)
-    #[inline(never)]
-    fn one_at_a_time(&mut self, stage: &Stage, cond: Conditions) -> Option<[f64; 3]> {
-        let mut at = |n: ReadNode| {
-            let loads = self.inputs.loads_reading(n);
-            self.solve(stage, cond.loaded(loads))
-        };
-        let vb = at(ReadNode::Base)?.vb;
-        let ve = at(ReadNode::Emitter)?.ve;
-        let vc = at(ReadNode::Collector)?.vc;
-        Some([vb, ve, vc])
-    }
+    /// Without the signal test there are no gain readings.
+    #[cfg(not(feature = "signal-test"))]
+    fn signal_readings(&self, _: &mut [f64; DIM], _: &Stage, _: &OperatingPoint, _: &Caps) {}
 
     /// One solve, started from the last one.
     #[inline(always)]
@@ -345,13 +482,11 @@ impl Ctx<'_> {
         Some(op)
     }
 
-    fn chi2(&self, inv: &Sym3, y: Option<[f64; 3]>) -> f64 {
+    fn chi2(&self, inv: &Sym, y: Option<[f64; DIM]>) -> f64 {
         match y {
-            Some(y) => {
-                let [a, b, c] = self.measured;
-                let [p, q, r] = y;
-                inv.quad([a - p, b - q, c - r])
-            }
+            Some(y) => inv.quad(core::array::from_fn(|k| {
+                self.measured.get(k).copied().unwrap_or(0.0) - y.get(k).copied().unwrap_or(0.0)
+            })),
             None => f64::INFINITY,
         }
     }
@@ -492,19 +627,24 @@ fn minimise(f: &mut dyn FnMut(f64) -> f64, lo: f64, hi: f64, grid: u16, refine: 
 
 /// The log-value search interval of a `low`/`high` fit, or `None` for other suspects.
 fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(f64, f64)> {
-    match suspect {
-        Suspect::Resistor(r, m @ (ResistorMode::Low | ResistorMode::High)) => {
-            let p = stage.part(r);
-            let ln = libm::log(p.value);
-            let span = libm::log(VALUE_RANGE);
-            // Just outside the tolerance band, on the side the mode names.
-            if m == ResistorMode::Low {
-                Some((ln - span, libm::log(1.0 - p.tol) + ln))
-            } else {
-                Some((libm::log(1.0 + p.tol) + ln, ln + span))
-            }
+    // One interval for resistors and capacitors (a capacitor's value is fitted only with gain
+    // readings).
+    let (p, m) = match suspect {
+        Suspect::Resistor(r, m @ (ResistorMode::Low | ResistorMode::High)) => (stage.part(r), m),
+        Suspect::Capacitor(c, m @ (ResistorMode::Low | ResistorMode::High))
+            if cfg!(feature = "signal-test") =>
+        {
+            (stage.capacitor(c)?, m)
         }
-        _ => None,
+        _ => return None,
+    };
+    let ln = libm::log(p.value);
+    let span = libm::log(VALUE_RANGE);
+    // Just outside the tolerance band, on the side the mode names.
+    if m == ResistorMode::Low {
+        Some((ln - span, libm::log(1.0 - p.tol) + ln))
+    } else {
+        Some((libm::log(1.0 + p.tol) + ln, ln + span))
     }
 }
 
@@ -528,8 +668,8 @@ fn covariance(
     suspect: Suspect,
     value: f64,
     beta: f64,
-    y0: [f64; 3],
-) -> Sym3 {
+    y0: [f64; DIM],
+) -> Sym {
     const INV_SQRT3: f64 = 0.577_350_269_189_625_8;
     // A node a fault leaves floating is held by the measuring input where one is modelled (the
     // prediction then includes it); only an ideal meter's reading of it is uncertain.
@@ -538,22 +678,31 @@ fn covariance(
     } else {
         [false; 3]
     };
-    let mut diag = [0.0; 3];
-    for ((d, m), fl) in diag.iter_mut().zip(ctx.measured).zip(float) {
-        let s = reading_error(meter, m) * INV_SQRT3;
-        let extra = if fl { FLOATING_NODE_V } else { 0.0 };
-        *d = s * s + PROBE_NOISE_V * PROBE_NOISE_V + extra * extra;
+    let mut diag = [0.0; DIM];
+    for (k, (d, m)) in diag.iter_mut().zip(ctx.measured).enumerate() {
+        if k < 3 || !cfg!(feature = "signal-test") {
+            let s = reading_error(meter, m) * INV_SQRT3;
+            let extra = if float.get(k).copied().unwrap_or(false) {
+                FLOATING_NODE_V
+            } else {
+                0.0
+            };
+            *d = s * s + PROBE_NOISE_V * PROBE_NOISE_V + extra * extra;
+        } else {
+            let s = ctx.signal.error(m) * INV_SQRT3;
+            *d = s * s + GAIN_NOISE * GAIN_NOISE;
+        }
     }
-    let mut cov = Sym3::diag(diag);
+    let mut cov = Sym::diag(diag, ctx.n);
     let fitted = match suspect {
         Suspect::Resistor(r, _) => Some(r),
         _ => None,
     };
     let mut add = |ctx: &mut Ctx<'_>, tweak: Tweak, k: f64| {
         if let Some(y) = ctx.predict(suspect, value, beta, tweak) {
-            let [a, b, c] = y;
-            let [p, q, r] = y0;
-            cov.add_outer([(a - p) * k, (b - q) * k, (c - r) * k]);
+            cov.add_outer(core::array::from_fn(|i| {
+                (y.get(i).copied().unwrap_or(0.0) - y0.get(i).copied().unwrap_or(0.0)) * k
+            }));
         }
     };
     for r in Resistor::ALL {
@@ -564,6 +713,18 @@ fn covariance(
         }
         // A step to the tolerance edge; a uniform spread has σ = tol/√3.
         add(ctx, Tweak::Scale(r, 1.0 + p.tol), INV_SQRT3);
+    }
+    // Capacitor tolerances move the gain readings only (none without the signal test).
+    if cfg!(feature = "signal-test") && ctx.n > 3 {
+        for c in Capacitor::ALL {
+            let fitted_cap = matches!(suspect, Suspect::Capacitor(x, _) if x == c);
+            match ctx.stage.capacitor(c) {
+                Some(p) if !fitted_cap && p.tol > 0.0 => {
+                    add(ctx, Tweak::ScaleCap(c, 1.0 + p.tol), INV_SQRT3);
+                }
+                _ => {}
+            }
+        }
     }
     if var.temp_max_c > var.temp_min_c {
         // Half the range as the step; a uniform spread over the range has σ = half/√3.
@@ -576,14 +737,18 @@ fn covariance(
 }
 
 /// A crude diagonal error model used to locate a part value before the full one is built.
-fn crude_inverse(ctx: &Ctx<'_>, meter: &Meter) -> Sym3 {
+fn crude_inverse(ctx: &Ctx<'_>, meter: &Meter) -> Sym {
     let vcc = ctx.stage.vcc.value;
-    let mut d = [0.0; 3];
-    for (d, m) in d.iter_mut().zip(ctx.measured) {
-        let s = reading_error(meter, m) + 0.03 * libm::fabs(m) + 0.01 * vcc;
+    let mut d = [0.0; DIM];
+    for (k, (d, m)) in d.iter_mut().zip(ctx.measured).enumerate() {
+        let s = if k < 3 {
+            reading_error(meter, m) + 0.03 * libm::fabs(m) + 0.01 * vcc
+        } else {
+            ctx.signal.error(m) + 0.05 * libm::fabs(m) + 0.02
+        };
         *d = 1.0 / (s * s);
     }
-    Sym3::diag(d)
+    Sym::diag(d, ctx.n)
 }
 
 /// The best fit of a hypothesis under the full error model so far.
@@ -592,7 +757,7 @@ struct Top {
     chi2: f64,
     value: f64,
     beta: f64,
-    y: [f64; 3],
+    y: [f64; DIM],
 }
 
 impl Top {
@@ -600,10 +765,10 @@ impl Top {
     fn offer(
         &mut self,
         ctx: &Ctx<'_>,
-        inv: &Sym3,
+        inv: &Sym,
         value: f64,
         beta: f64,
-        y: Option<[f64; 3]>,
+        y: Option<[f64; DIM]>,
     ) -> f64 {
         let chi2 = ctx.chi2(inv, y);
         if let Some(y) = y {
@@ -625,16 +790,16 @@ fn fit(
     ctx: &mut Ctx<'_>,
     meter: &Meter,
     var: &Variation,
-    crude: &Sym3,
+    crude: &Sym,
     suspect: Suspect,
     coarse: Coarse,
-) -> Option<(f64, Option<f64>, f64, [f64; 3])> {
+) -> Option<(f64, Option<f64>, f64, [f64; DIM])> {
     let p = ctx.profile;
     let (lb_lo, lb_hi) = (libm::log(p.beta_min), libm::log(p.beta_max));
     let beta_typ = p.beta_typ;
     let lb_typ = libm::log(beta_typ);
     let beta_fits = lb_hi > lb_lo + 1e-9;
-    let interval = coarse.span;
+    let interval = value_interval(&ctx.stage, suspect);
     // 1. Locate the part value with the crude error model at typical hFE, one step of the
     //    screen's grid either way of its find (golden section: the crude misfit is not smooth
     //    enough in the value for parabolic steps to find it as well).
@@ -651,7 +816,7 @@ fn fit(
         } else {
             hi
         };
-        if let Some(c) = locate(ctx, crude, suspect, interval, (a, b), LOCATE_GRID, 10) {
+        if let Some(c) = locate(ctx, crude, suspect, (a, b), LOCATE_GRID, 10) {
             at_typ = c;
         }
     }
@@ -726,23 +891,22 @@ const SCREEN_STEPS: u16 = 2;
 /// Points of the grid that locates a part value around the screen's find.
 const LOCATE_GRID: u16 = 5;
 
-/// A crude fit of a hypothesis at typical hFE: its χ² under the crude error model, the search
-/// interval of log(value) (low/high) and the log(value) found, the prediction there.
+/// A crude fit of a hypothesis at typical hFE: its χ² under the crude error model, the
+/// log(value) found (low/high; the search interval is [`value_interval`]'s), the prediction
+/// there.
 #[derive(Clone, Copy)]
 struct Coarse {
     chi2: f64,
-    span: Option<(f64, f64)>,
     lv: f64,
-    y: [f64; 3],
+    y: [f64; DIM],
 }
 
 /// The crude fit of `suspect` at typical hFE over [lo, hi] of log(value) (`grid` points, then
 /// `steps` of golden section; without a value to fit, one solve).
 fn locate(
     ctx: &mut Ctx<'_>,
-    crude: &Sym3,
+    crude: &Sym,
     suspect: Suspect,
-    span: Option<(f64, f64)>,
     (lo, hi): (f64, f64),
     grid: u16,
     steps: u16,
@@ -755,7 +919,7 @@ fn locate(
             let chi2 = ctx.chi2(crude, y);
             if let Some(y) = y {
                 if best.is_none_or(|b| chi2 < b.chi2) {
-                    best = Some(Coarse { chi2, span, lv, y });
+                    best = Some(Coarse { chi2, lv, y });
                 }
             }
             chi2
@@ -770,13 +934,12 @@ fn locate(
 
 /// The screen of one hypothesis: typical hFE, a value fault at the points of a coarse grid and
 /// [`SCREEN_STEPS`] golden-section steps around the best of them.
-fn screen(ctx: &mut Ctx<'_>, crude: &Sym3, suspect: Suspect) -> Option<Coarse> {
+fn screen(ctx: &mut Ctx<'_>, crude: &Sym, suspect: Suspect) -> Option<Coarse> {
     let span = value_interval(&ctx.stage, suspect);
     locate(
         ctx,
         crude,
         suspect,
-        span,
         span.unwrap_or((0.0, 0.0)),
         SCREEN_GRID,
         SCREEN_STEPS,
@@ -784,8 +947,10 @@ fn screen(ctx: &mut Ctx<'_>, crude: &Sym3, suspect: Suspect) -> Option<Coarse> {
 }
 
 /// Every hypothesis of the dictionary for this stage (resistors of zero ohms are not fitted and
-/// are left out).
-fn dictionary(stage: &Stage) -> Vec<Suspect, CAPACITY> {
+/// are left out). Capacitors that the stage has (not ideal) add their `short` (it shows at DC in
+/// the test set-up), and with signal readings (`signal`) also `open`, `low` and `high`; CE only
+/// where RE2 is fitted.
+fn dictionary(stage: &Stage, signal: bool) -> Vec<Suspect, CAPACITY> {
     let mut v: Vec<Suspect, CAPACITY> = Vec::new();
     let _ = v.push(Suspect::Good);
     for r in Resistor::ALL {
@@ -797,6 +962,16 @@ fn dictionary(stage: &Stage) -> Vec<Suspect, CAPACITY> {
     }
     for d in DeviceFault::ALL {
         let _ = v.push(Suspect::Device(d));
+    }
+    for c in Capacitor::ALL {
+        if stage.capacitor(c).is_none() || (c == Capacitor::Ce && stage.re2.value <= 0.0) {
+            continue;
+        }
+        for m in ResistorMode::ALL {
+            if signal || m == ResistorMode::Short {
+                let _ = v.push(Suspect::Capacitor(c, m));
+            }
+        }
     }
     v
 }
@@ -832,12 +1007,84 @@ pub fn diagnose_into(
     var: &Variation,
     out: &mut Diagnosis,
 ) -> Result<(), DiagnoseError> {
+    diagnose_with_signal_into(
+        stage,
+        profile,
+        readings,
+        &[],
+        meter,
+        &SignalMeter::DEFAULT,
+        var,
+        out,
+    )
+}
+
+/// Rank the single-fault hypotheses against a board's DC readings and its gain readings
+/// `tones` (at most [`MAX_TONES`], each judged with the accuracy `signal`). With gain readings
+/// the dictionary adds the capacitors' `open`, `low` and `high`, and hypotheses are grouped as
+/// equivalent only when every reading, DC and signal, agrees within its error.
+pub fn diagnose_with_signal(
+    stage: &Stage,
+    profile: &Profile,
+    readings: &Readings,
+    tones: &[ToneReading],
+    meter: &Meter,
+    signal: &SignalMeter,
+    var: &Variation,
+) -> Result<Diagnosis, DiagnoseError> {
+    let mut d = Diagnosis {
+        ranked: Vec::new(),
+        explained: false,
+        solves: 0,
+    };
+    diagnose_with_signal_into(stage, profile, readings, tones, meter, signal, var, &mut d)?;
+    Ok(d)
+}
+
+/// [`diagnose_with_signal`] written into `out` (a few KB): an instrument keeps the result where
+/// it is stored instead of moving it through its stack. On an error `out` holds nothing useful.
+#[expect(
+    clippy::too_many_arguments,
+    reason = "the readings of both kinds and the accuracy of each, as the public entry points"
+)]
+pub fn diagnose_with_signal_into(
+    stage: &Stage,
+    profile: &Profile,
+    readings: &Readings,
+    tones: &[ToneReading],
+    meter: &Meter,
+    signal: &SignalMeter,
+    var: &Variation,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
     out.ranked.clear();
     out.explained = false;
     out.solves = 0;
-    let m = [readings.vb, readings.ve, readings.vc];
-    if !(m.iter().all(|v| v.is_finite()) && readings.vcc.is_finite()) {
+    if !(readings.vb.is_finite()
+        && readings.ve.is_finite()
+        && readings.vc.is_finite()
+        && readings.vcc.is_finite())
+        || tones.len() > GAIN_SLOTS
+        || (cfg!(not(feature = "signal-test")) && !tones.is_empty())
+        || tones
+            .iter()
+            .any(|t| crate::signaltest::validate_reading(t).is_err())
+    {
         return Err(DiagnoseError::Readings);
+    }
+    let n = 3 + tones.len();
+    let mut m = [0.0; DIM];
+    let mut freqs = [0.0; GAIN_SLOTS];
+    for (k, slot) in m.iter_mut().enumerate() {
+        *slot = match k {
+            0 => readings.vb,
+            1 => readings.ve,
+            2 => readings.vc,
+            _ => tones.get(k - 3).map_or(0.0, |t| t.gain),
+        };
+    }
+    for (slot, t) in freqs.iter_mut().zip(tones) {
+        *slot = t.f;
     }
     let mut at_supply = *stage;
     at_supply.vcc.value = readings.vcc;
@@ -846,6 +1093,9 @@ pub fn diagnose_into(
         profile,
         temp_c: 0.5 * (var.temp_min_c + var.temp_max_c),
         measured: m,
+        n,
+        tones: freqs,
+        signal: *signal,
         inputs: var.inputs,
         solves: 0,
         start: None,
@@ -854,7 +1104,7 @@ pub fn diagnose_into(
     //    grid) under the crude error model.
     let crude = crude_inverse(&ctx, meter);
     let mut coarse: Vec<(Suspect, Coarse), CAPACITY> = Vec::new();
-    for suspect in dictionary(stage) {
+    for suspect in dictionary(stage, !tones.is_empty()) {
         if let Some(c) = screen(&mut ctx, &crude, suspect) {
             let _ = coarse.push((suspect, c));
         }
@@ -866,7 +1116,7 @@ pub fn diagnose_into(
     // 2. The full fit for every hypothesis the screen cannot rule out: the best SCREEN_KEEP and
     //    any within SCREEN_MARGIN of the best. The rest keep their coarse fit.
     let ranked = &mut out.ranked;
-    let mut rough = 0u32;
+    let mut rough = 0u64;
     let mut floor = f64::INFINITY;
     for &(suspect, c) in &coarse {
         let better = coarse.iter().filter(|o| o.1.chi2 < c.chi2).count();
@@ -877,7 +1127,7 @@ pub fn diagnose_into(
         };
         let (chi2, estimate, beta, predicted) = full.unwrap_or_else(|| {
             rough |= 1 << ranked.len();
-            let estimate = c.span.map(|_| libm::exp(c.lv));
+            let estimate = value_interval(&ctx.stage, suspect).map(|_| libm::exp(c.lv));
             (c.chi2, estimate, profile.beta_typ, c.y)
         });
         if rough & (1 << ranked.len()) == 0 && chi2 < floor {
@@ -889,7 +1139,8 @@ pub fn diagnose_into(
             chi2: if chi2.is_finite() { chi2 } else { f64::MAX },
             estimate,
             beta,
-            predicted,
+            predicted: [predicted[0], predicted[1], predicted[2]],
+            gains: core::array::from_fn(|k| predicted.get(3 + k).copied().unwrap_or(0.0) as f32),
             group: 0,
         });
     }
@@ -924,23 +1175,42 @@ pub fn diagnose_into(
         h.score /= total;
     }
     // Group: each joins the first earlier leader it cannot be told apart from.
-    let tol: [f64; 3] =
-        core::array::from_fn(|k| m.get(k).map_or(0.0, |v| reading_error(meter, *v)));
-    let mut leaders: Vec<([f64; 3], u8), CAPACITY> = Vec::new();
-    for h in ranked.iter_mut() {
-        let same = |p: &[f64; 3]| {
-            p.iter()
-                .zip(h.predicted)
-                .zip(tol)
-                .all(|((a, b), t)| libm::fabs(a - b) <= t)
+    let tol: [f64; DIM] = core::array::from_fn(|k| {
+        let v = m.get(k).copied().unwrap_or(0.0);
+        if k < 3 {
+            reading_error(meter, v)
+        } else {
+            signal.error(v)
+        }
+    });
+    // Leaders by their place in `ranked` (no copies of their predictions on the stack).
+    let readings_of = |h: &Hypothesis, k: usize| match k {
+        0..=2 => h.predicted.get(k).copied().unwrap_or(0.0),
+        _ => h.gains.get(k - 3).map_or(0.0, |g| f64::from(*g)),
+    };
+    let mut leaders: Vec<(u8, u8), CAPACITY> = Vec::new();
+    for i in 0..ranked.len() {
+        let Some(h) = ranked.get(i) else { break };
+        let same = |p: &Hypothesis| {
+            tol.iter()
+                .enumerate()
+                .take(n)
+                .all(|(k, t)| libm::fabs(readings_of(p, k) - readings_of(h, k)) <= *t)
         };
-        match leaders.iter().find(|(p, _)| same(p)) {
-            Some((_, g)) => h.group = *g,
+        let found = leaders
+            .iter()
+            .find(|(at, _)| ranked.get(usize::from(*at)).is_some_and(same))
+            .map(|(_, g)| *g);
+        let g = match found {
+            Some(g) => g,
             None => {
                 let g = u8::try_from(leaders.len()).unwrap_or(u8::MAX);
-                h.group = g;
-                let _ = leaders.push((h.predicted, g));
+                let _ = leaders.push((u8::try_from(i).unwrap_or(u8::MAX), g));
+                g
             }
+        };
+        if let Some(h) = ranked.get_mut(i) {
+            h.group = g;
         }
     }
     // Keep each group together, in the order of its best member, best first within a group.
@@ -954,15 +1224,96 @@ pub fn diagnose_into(
     Ok(())
 }
 
+/// The test frequency, Hz, at which the gains predicted for the hypotheses `group` (their fits as
+/// the diagnosis left them) differ most, in units of the signal meter's error: the further
+/// reading that would tell them apart. `None` when no frequency separates every pair by more than
+/// twice the error (two open coupling capacitors: lift a part instead), or for fewer than two.
+/// `stage` is the design, `vcc` the measured supply, V.
+#[cfg(feature = "signal-test")]
+pub fn separating_tone(
+    stage: &Stage,
+    profile: &Profile,
+    vcc: f64,
+    signal: &SignalMeter,
+    var: &Variation,
+    group: &[Hypothesis],
+) -> Option<f64> {
+    if group.len() < 2 {
+        return None;
+    }
+    let mut at_supply = *stage;
+    at_supply.vcc.value = vcc;
+    let mut ctx = Ctx {
+        stage: at_supply,
+        profile,
+        temp_c: 0.5 * (var.temp_min_c + var.temp_max_c),
+        measured: [0.0; DIM],
+        n: 4,
+        tones: [0.0; MAX_TONES],
+        signal: *signal,
+        inputs: var.inputs,
+        solves: 0,
+        start: None,
+    };
+    let mut best: Option<(f64, f64)> = None;
+    for f in crate::signaltest::candidates() {
+        if let Some(t) = ctx.tones.first_mut() {
+            *t = f;
+        }
+        let mut g: Vec<f64, 8> = Vec::new();
+        for h in group.iter().take(8) {
+            let value = h.estimate.unwrap_or(0.0);
+            let y = ctx.predict(h.suspect, value, h.beta, Tweak::None)?;
+            let _ = g.push(y.get(3).copied().unwrap_or(0.0));
+        }
+        let mut sep = f64::INFINITY;
+        for (i, a) in g.iter().enumerate() {
+            for b in g.iter().skip(i + 1) {
+                let err = signal.error(*a) + signal.error(*b);
+                sep = libm::fmin(sep, libm::fabs(a - b) / err);
+            }
+        }
+        if sep > 2.0 && best.is_none_or(|(_, s)| sep > s) {
+            best = Some((f, sep));
+        }
+    }
+    best.map(|(f, _)| f)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
 
+    struct Sym3 {
+        a: f64,
+        b: f64,
+        c: f64,
+        d: f64,
+        e: f64,
+        f: f64,
+    }
+
     #[test]
     fn inverse_of_a_symmetric_matrix() {
-        let mut m = Sym3::diag([2.0, 3.0, 4.0]);
-        m.add_outer([1.0, 0.5, -0.25]);
+        let mut m = Sym::diag([2.0, 3.0, 4.0, 0.0, 0.0, 0.0, 0.0], 3);
+        m.add_outer([1.0, 0.5, -0.25, 0.0, 0.0, 0.0, 0.0]);
         let inv = m.inverse();
+        let m = Sym3 {
+            a: m.m[0][0],
+            b: m.m[1][1],
+            c: m.m[2][2],
+            d: m.m[0][1],
+            e: m.m[0][2],
+            f: m.m[1][2],
+        };
+        let inv = Sym3 {
+            a: inv.m[0][0],
+            b: inv.m[1][1],
+            c: inv.m[2][2],
+            d: inv.m[0][1],
+            e: inv.m[0][2],
+            f: inv.m[1][2],
+        };
         // M·M⁻¹ = I, checked through quadratic forms: (x)ᵀ M⁻¹ (M x) = xᵀ x.
         let x = [0.3, -1.2, 0.7];
         let mx = [

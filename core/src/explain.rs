@@ -18,7 +18,7 @@ use core::fmt;
 use heapless::Vec;
 
 use crate::diagnose::{Diagnosis, Hypothesis, ResistorMode, Suspect};
-use crate::stage::{DeviceFault, Resistor, Stage};
+use crate::stage::{Capacitor, DeviceFault, Resistor, Stage};
 use crate::units::{Eng, Fixed};
 
 /// Faults named in one group at most (further members are left out of the words, never out of
@@ -100,6 +100,31 @@ impl fmt::Display for FaultWords<'_> {
                     (ResistorMode::High, None) => write!(f, "{name} too high"),
                 }
             }
+            Suspect::Capacitor(c, mode) => {
+                let name = c.name();
+                match (mode, self.estimate, self.stage.capacitor(c)) {
+                    (ResistorMode::Open, _, _) => write!(
+                        f,
+                        "{name} open (missing, a dry joint or a broken lead): {}",
+                        match c {
+                            Capacitor::Ce => "the emitter is not bypassed",
+                            _ => "no signal passes",
+                        }
+                    ),
+                    (ResistorMode::Short, _, _) => write!(
+                        f,
+                        "{name} shorted (a solder bridge or a broken-down capacitor)"
+                    ),
+                    (_, Some(est), Some(p)) => write!(
+                        f,
+                        "{name} acts like {} instead of {}",
+                        Eng::new(est, "F"),
+                        Eng::new(p.value, "F")
+                    ),
+                    (ResistorMode::High, ..) => write!(f, "{name} too large"),
+                    _ => write!(f, "{name} too small"),
+                }
+            }
             Suspect::Device(d) => f.write_str(match d {
                 DeviceFault::BeOpen => "Q: base-emitter junction or emitter lead open",
                 DeviceFault::BcOpen => "Q: base-collector junction or collector lead open",
@@ -146,6 +171,15 @@ impl fmt::Display for Member {
             Self::Fault(Suspect::Resistor(r, m)) => {
                 write!(f, "{} {}", r.name(), Self::mode_words(*m))
             }
+            Self::Fault(Suspect::Capacitor(c, m)) => {
+                let words = match m {
+                    ResistorMode::Open => "open",
+                    ResistorMode::Short => "shorted",
+                    ResistorMode::Low => "too small",
+                    ResistorMode::High => "too large",
+                };
+                write!(f, "{} {words}", c.name())
+            }
             Self::Fault(Suspect::Device(d)) => f.write_str(match d {
                 DeviceFault::BeOpen => "Q base-emitter open",
                 DeviceFault::BcOpen => "Q base-collector open",
@@ -178,6 +212,8 @@ enum Step {
     DiodeTest,
     /// Lift one end of CE and measure RE2.
     LiftCe,
+    /// Lift one end of this capacitor and measure its capacitance.
+    Capacitance(Capacitor),
 }
 
 /// Faults with the same readings, and how to tell them apart with the board in circuit.
@@ -204,7 +240,9 @@ impl Group {
                 leaky |= m == ResistorMode::Low;
             }
         }
-        if shorted {
+        // A real CE short of the signal test stands in for the implied one.
+        let ce_short = Member::Fault(Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short));
+        if shorted && !members.contains(&ce_short) {
             let _ = members.push(Member::CeShorted);
         }
         if leaky {
@@ -233,10 +271,23 @@ impl Group {
         &self.members
     }
 
+    /// CE is in the group shorted or leaky, beside a shorted or low RE2: lifting CE and
+    /// measuring RE2 settles both.
     fn has_ce(&self) -> bool {
-        self.members
-            .iter()
-            .any(|m| matches!(m, Member::CeShorted | Member::CeLeaky))
+        let re2 = self.members.iter().any(|m| {
+            matches!(
+                m,
+                Member::Fault(Suspect::Resistor(
+                    Resistor::Re2,
+                    ResistorMode::Short | ResistorMode::Low
+                ))
+            )
+        });
+        self.members.iter().any(|m| {
+            matches!(m, Member::CeShorted | Member::CeLeaky)
+                || (re2
+                    && *m == Member::Fault(Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short)))
+        })
     }
 
     fn way(&self, r: Resistor) -> Way {
@@ -284,6 +335,18 @@ impl Group {
         if device {
             let _ = v.push(Step::DiodeTest);
         }
+        // Capacitors in drawing order; a shorted CE is settled by lifting it for RE2.
+        for c in Capacitor::ALL {
+            let any = self.members.iter().any(|m| match m {
+                Member::Fault(Suspect::Capacitor(p, mode)) => {
+                    *p == c && !(ce && c == Capacitor::Ce && *mode == ResistorMode::Short)
+                }
+                _ => false,
+            });
+            if any {
+                let _ = v.push(Step::Capacitance(c));
+            }
+        }
         if ce {
             let _ = v.push(Step::LiftCe);
         }
@@ -300,6 +363,14 @@ impl Group {
                 (Step::DiodeTest, Member::Fault(Suspect::Device(_))) => true,
                 (Step::LiftCe, Member::Fault(Suspect::Resistor(Resistor::Re2, _))) => true,
                 (Step::LiftCe, Member::CeShorted | Member::CeLeaky) => true,
+                (
+                    Step::LiftCe,
+                    Member::Fault(Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short)),
+                ) => true,
+                (Step::Capacitance(c), Member::Fault(Suspect::Capacitor(p, mode))) => {
+                    *p == c
+                        && !(c == Capacitor::Ce && *mode == ResistorMode::Short && self.has_ce())
+                }
                 _ => false,
             })
             .collect()
@@ -355,7 +426,28 @@ fn any(_: &Member) -> bool {
 }
 
 fn is_ce(m: &Member) -> bool {
-    matches!(m, Member::CeShorted | Member::CeLeaky)
+    matches!(
+        m,
+        Member::CeShorted | Member::CeLeaky | Member::Fault(Suspect::Capacitor(Capacitor::Ce, _))
+    )
+}
+
+fn cap_open(m: &Member) -> bool {
+    matches!(m, Member::Fault(Suspect::Capacitor(_, ResistorMode::Open)))
+}
+
+fn cap_small(m: &Member) -> bool {
+    matches!(m, Member::Fault(Suspect::Capacitor(_, ResistorMode::Low)))
+}
+
+fn cap_other(m: &Member) -> bool {
+    matches!(
+        m,
+        Member::Fault(Suspect::Capacitor(
+            _,
+            ResistorMode::Short | ResistorMode::High
+        ))
+    )
 }
 
 fn not_ce(m: &Member) -> bool {
@@ -413,6 +505,13 @@ impl fmt::Display for StepWords {
             Step::Measure(r, _) => write!(f, "in circuit measure {}", r.name()),
             Step::DiodeTest => f.write_str("diode-test Q in circuit"),
             Step::LiftCe => f.write_str("lift one end of CE and measure RE2"),
+            Step::Capacitance(c) => {
+                write!(
+                    f,
+                    "lift one end of {} and measure its capacitance",
+                    c.name()
+                )
+            }
         }
     }
 }
@@ -474,9 +573,51 @@ impl Outcome<'_> {
                 write_names(f, &settled, not_ce)?;
                 return f.write_str(" (or a bridge across it)");
             }
+            Step::Capacitance(c) => return cap_result(f, self.stage, c, &settled),
         }
         write_names(f, &settled, any)
     }
+}
+
+/// What a capacitance reading of `c` (one end lifted) means for the members it settles: an
+/// open capacitor reads next to nothing, a too small one below its band, a shorted one reads as
+/// a short on the ohms range (a too large one above its band).
+fn cap_result(
+    f: &mut fmt::Formatter<'_>,
+    stage: &Stage,
+    c: Capacitor,
+    settled: &[Member],
+) -> fmt::Result {
+    let name = c.name();
+    let mut first = true;
+    let mut sep = |f: &mut fmt::Formatter<'_>| -> fmt::Result {
+        let s = if first { "" } else { "; " };
+        first = false;
+        f.write_str(s)
+    };
+    if settled.iter().any(cap_open) {
+        sep(f)?;
+        write!(f, "{name} reads next to nothing: ")?;
+        write_names(f, settled, cap_open)?;
+    }
+    if settled.iter().any(cap_small) {
+        sep(f)?;
+        match stage.capacitor(c) {
+            Some(p) => write!(
+                f,
+                "{name} below {}: ",
+                Eng::new(p.value * (1.0 - p.tol), "F")
+            )?,
+            None => write!(f, "{name} below its value: ")?,
+        }
+        write_names(f, settled, cap_small)?;
+    }
+    if settled.iter().any(cap_other) {
+        sep(f)?;
+        write!(f, "{name} shorted on the ohms range or above its band: ")?;
+        write_names(f, settled, cap_other)?;
+    }
+    Ok(())
 }
 
 /// The last line of a listing whose actions measure resistors in circuit: what such a reading
@@ -495,6 +636,9 @@ pub struct Listed {
     pub score: f64,
     /// The other faults with the same readings.
     pub same: Vec<Suspect, GROUP_MAX>,
+    /// A further tone whose gain reading tells the group apart, Hz (the signal test's
+    /// separating tone), if any.
+    pub tone: Option<f64>,
 }
 
 impl Listed {
@@ -509,7 +653,14 @@ impl Listed {
             estimate: h.estimate,
             score: h.score,
             same,
+            tone: None,
         }
+    }
+
+    /// The same, with the further tone that tells its group apart, Hz.
+    pub fn with_tone(mut self, tone: Option<f64>) -> Self {
+        self.tone = tone;
+        self
     }
 }
 
@@ -592,6 +743,12 @@ pub fn listing(
         for o in group.outcomes(stage) {
             line(format_args!("   {o}"));
         }
+        if let Some(f) = it.tone {
+            line(format_args!(
+                "   a gain reading at {} tells them apart too",
+                Eng::new(f, "Hz")
+            ));
+        }
         if it.estimate.is_some() {
             line(format_args!("   closest fit: {words}"));
         }
@@ -614,8 +771,9 @@ impl fmt::Display for MachineNames<'_> {
     }
 }
 
-/// The fault a machine line names: part `R1 R2 RC RE1 RE2 Q`, mode `open short low high` or
-/// `be_open bc_open be_short bc_short ce_short reversed` (case as sent).
+/// The fault a machine line names: part `R1 R2 RC RE1 RE2 CIN COUT CE Q`, mode
+/// `open short low high` or `be_open bc_open be_short bc_short ce_short reversed` (case as
+/// sent).
 pub fn suspect_of(part: &str, mode: &str) -> Option<Suspect> {
     if part == "Q" {
         return DeviceFault::ALL
@@ -623,8 +781,11 @@ pub fn suspect_of(part: &str, mode: &str) -> Option<Suspect> {
             .find(|d| d.name() == mode)
             .map(Suspect::Device);
     }
-    let r = Resistor::ALL.into_iter().find(|r| r.name() == part)?;
     let m = ResistorMode::ALL.into_iter().find(|m| m.name() == mode)?;
+    if let Some(c) = Capacitor::ALL.into_iter().find(|c| c.name() == part) {
+        return Some(Suspect::Capacitor(c, m));
+    }
+    let r = Resistor::ALL.into_iter().find(|r| r.name() == part)?;
     Some(Suspect::Resistor(r, m))
 }
 
@@ -670,6 +831,7 @@ mod tests {
             estimate: None,
             score: 0.9,
             same: Vec::new(),
+            tone: None,
         }]);
         assert!(l[1].starts_with("1. RE2 shorted or CE shorted: same readings (90 %); "));
         assert!(l[1].contains("lift one end of CE and measure RE2"), "{l:?}");
@@ -685,10 +847,54 @@ mod tests {
             estimate: None,
             score: 0.9,
             same: Vec::new(),
+            tone: None,
         }]);
         assert!(l[1].starts_with("1. RE2 shorted"), "{l:?}");
         assert!(
             l[1].contains("CE shorted or leaky") && l[1].contains("lift one end of CE"),
+            "{l:?}"
+        );
+    }
+
+    /// A real CE short (signal test) stands in for the implied one: named once, settled by
+    /// lifting CE; coupling capacitors get their own capacitance step, and the separating tone
+    /// is said under the group.
+    #[test]
+    #[cfg(feature = "fault-detail")]
+    fn capacitor_members_have_their_own_step() {
+        let ce = Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short);
+        let g = Group::of([r(Resistor::Re2, ResistorMode::Short), ce]);
+        assert_eq!(g.members().len(), 2, "{:?}", g.members());
+        assert!(!g.members().contains(&Member::CeShorted));
+        assert_eq!(g.to_string(), "RE2 shorted or CE shorted");
+        let s = stage();
+        let o: StdVec<String> = g.outcomes(&s).map(|o| o.to_string()).collect();
+        assert_eq!(o.len(), 1, "{o:?}");
+        assert!(
+            o[0].contains("with CE lifted: CE shorted; still below: RE2 shorted"),
+            "{o:?}"
+        );
+
+        let mut same: Vec<Suspect, GROUP_MAX> = Vec::new();
+        let _ = same.push(Suspect::Capacitor(Capacitor::Cin, ResistorMode::Low));
+        let l = lines(&[Listed {
+            suspect: Suspect::Capacitor(Capacitor::Cin, ResistorMode::Open),
+            estimate: None,
+            score: 0.6,
+            same,
+            tone: Some(20.0),
+        }]);
+        assert!(
+            l[1].starts_with("1. CIN open or CIN too small: same readings (60 %); power off, lift one end of CIN and measure its capacitance"),
+            "{l:?}"
+        );
+        assert!(
+            l[2].contains("CIN reads next to nothing: CIN open"),
+            "{l:?}"
+        );
+        assert!(l[2].contains("CIN too small"), "{l:?}");
+        assert!(
+            l[3].contains("a gain reading at 20 Hz tells them apart"),
             "{l:?}"
         );
     }
@@ -698,6 +904,9 @@ mod tests {
         for s in [
             r(Resistor::Re1, ResistorMode::High),
             Suspect::Device(DeviceFault::CeShort),
+            Suspect::Capacitor(Capacitor::Cin, ResistorMode::Open),
+            Suspect::Capacitor(Capacitor::Cout, ResistorMode::Low),
+            Suspect::Capacitor(Capacitor::Ce, ResistorMode::Short),
         ] {
             assert_eq!(suspect_of(s.part(), s.mode()), Some(s));
         }

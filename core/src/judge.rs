@@ -20,6 +20,7 @@ use crate::device::Profile;
 use crate::diagnose::{self, DiagnoseError, Diagnosis};
 use crate::limits::{self, Limits, LimitsError, Window};
 use crate::settings::{SettingsError, TestSettings};
+use crate::signaltest::{self, SignalTestError, ToneReading, ToneWindow, MAX_TONES};
 use crate::solve::{solve, Conditions, Region, SolveError};
 use crate::spread::Variation;
 use crate::stage::{Readings, Stage, StageError};
@@ -168,6 +169,9 @@ pub enum JudgeError {
     Diagnose(DiagnoseError),
     /// The nominal point could not be solved.
     Solve(SolveError),
+    /// The signal test's windows could not be given (a frequency or gain out of range, no
+    /// load, too many readings).
+    Signal(SignalTestError),
 }
 
 impl core::fmt::Display for JudgeError {
@@ -194,6 +198,7 @@ impl core::fmt::Display for JudgeError {
             Self::Limits(e) => write!(f, "limits: {e}"),
             Self::Diagnose(e) => write!(f, "diagnosis: {e}"),
             Self::Solve(e) => write!(f, "nominal point: {e}"),
+            Self::Signal(e) => write!(f, "signal test: {e}"),
         }
     }
 }
@@ -233,48 +238,131 @@ pub fn windows(
     })
 }
 
+/// The signal test's windows [`judge_with_signal`] applies at the measured supply `vcc` (V) for
+/// the test frequencies `freqs` (Hz, at most [`MAX_TONES`]). `biasjig limits --ac-f` publishes
+/// these.
+pub fn tone_windows(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    vcc: f64,
+    freqs: &[f64],
+) -> Result<heapless::Vec<ToneWindow, MAX_TONES>, JudgeError> {
+    usable(stage, profile, settings)?;
+    signaltest::windows(
+        stage,
+        profile,
+        &variation(settings),
+        &settings.signal,
+        vcc,
+        freqs,
+    )
+    .map_err(JudgeError::Signal)
+}
+
+/// One gain reading judged.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ToneVerdict {
+    /// The reading.
+    pub reading: ToneReading,
+    /// Its window.
+    pub window: ToneWindow,
+    /// Inside the window.
+    pub ok: bool,
+}
+
 /// One judged board.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Judgement {
     /// The windows applied.
     pub windows: Windows,
-    /// The verdict per node and overall, with the derived quantities.
+    /// The verdict per node and overall (failed when a gain reading fails too), with the
+    /// derived quantities.
     pub verdict: Verdict,
     /// The ranked faults when the board failed.
     pub diagnosis: Option<Diagnosis>,
+    /// The gain readings judged, in the order given.
+    pub tones: ToneVerdicts,
 }
 
-/// Judge one board (see the module notes for the order of the steps).
+/// Judge one board by its DC readings (see the module notes for the order of the steps).
 pub fn judge(
     stage: &Stage,
     profile: &Profile,
     settings: &TestSettings,
     readings: &Readings,
 ) -> Result<Judgement, JudgeError> {
-    let (windows, verdict) = verdict(stage, profile, settings, readings)?;
+    judge_with_signal(stage, profile, settings, readings, &[])
+}
+
+/// Judge one board by its DC readings and its gain readings `tones` (the signal test): each gain
+/// against its window ([`tone_windows`]), the verdict failed when any window fails, and the
+/// diagnosis on DC and signal readings together ([`diagnose::diagnose_with_signal`]).
+pub fn judge_with_signal(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+) -> Result<Judgement, JudgeError> {
+    let (windows, verdict, judged) =
+        verdict_with_signal(stage, profile, settings, readings, tones)?;
     let diagnosis = if verdict.pass {
         None
     } else {
-        Some(diagnosis(stage, profile, settings, readings).map_err(JudgeError::Diagnose)?)
+        Some(
+            diagnosis_with_signal(stage, profile, settings, readings, tones)
+                .map_err(JudgeError::Diagnose)?,
+        )
     };
     Ok(Judgement {
         windows,
         verdict,
         diagnosis,
+        tones: judged,
     })
 }
 
 /// Steps 1 to 5 of [`judge`] without the diagnosis: the windows and the verdict. A small
 /// instrument calls this and then [`diagnosis`] for a failed board, keeping the diagnosis (a
 /// few KB) where it is stored instead of moving it through a [`Judgement`].
-#[inline(never)]
 pub fn verdict(
     stage: &Stage,
     profile: &Profile,
     settings: &TestSettings,
     readings: &Readings,
 ) -> Result<(Windows, Verdict), JudgeError> {
+    verdict_with_signal(stage, profile, settings, readings, &[]).map(|(w, v, _)| (w, v))
+}
+
+/// The gain readings judged against their windows.
+pub type ToneVerdicts = heapless::Vec<ToneVerdict, TONE_SLOTS>;
+
+/// Gain readings a judgement holds at most (none without the signal test: a small instrument
+/// keeps no room for them).
+pub const TONE_SLOTS: usize = if cfg!(feature = "signal-test") {
+    MAX_TONES
+} else {
+    0
+};
+
+/// [`verdict`] with gain readings `tones`: each against its window ([`tone_windows`]); the
+/// verdict fails when any window fails.
+#[inline(never)]
+pub fn verdict_with_signal(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+) -> Result<(Windows, Verdict, ToneVerdicts), JudgeError> {
     settings.validate().map_err(JudgeError::Settings)?;
+    if tones.len() > MAX_TONES {
+        return Err(JudgeError::Signal(SignalTestError::TooMany));
+    }
+    for t in tones {
+        signaltest::validate_reading(t).map_err(JudgeError::Signal)?;
+    }
     let r = readings;
     if ![r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
         return Err(JudgeError::Implausible(Implausible::NotFinite));
@@ -289,11 +377,33 @@ pub fn verdict(
     usable(stage, profile, settings)?;
     let meter = &settings.meter;
     check::plausible(stage, meter, r).map_err(JudgeError::Implausible)?;
-    let limits = limits::limits(stage, profile, &variation(settings), meter, r.vcc)
-        .map_err(JudgeError::Limits)?;
-    let verdict = check::check_through(stage, &limits, meter, &settings.inputs, r)
+    let var = variation(settings);
+    let limits = limits::limits(stage, profile, &var, meter, r.vcc).map_err(JudgeError::Limits)?;
+    #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
+    let mut verdict = check::check_through(stage, &limits, meter, &settings.inputs, r)
         .map_err(JudgeError::Implausible)?;
-    Ok((Windows { supply, limits }, verdict))
+    #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
+    let mut judged = ToneVerdicts::new();
+    #[cfg(not(feature = "signal-test"))]
+    if !tones.is_empty() {
+        return Err(JudgeError::Signal(SignalTestError::NotBuilt));
+    }
+    #[cfg(feature = "signal-test")]
+    if !tones.is_empty() {
+        let freqs: heapless::Vec<f64, MAX_TONES> = tones.iter().map(|t| t.f).collect();
+        let w = signaltest::windows(stage, profile, &var, &settings.signal, r.vcc, &freqs)
+            .map_err(JudgeError::Signal)?;
+        for (t, w) in tones.iter().zip(w) {
+            let ok = w.contains(t.gain);
+            verdict.pass &= ok;
+            let _ = judged.push(ToneVerdict {
+                reading: *t,
+                window: w,
+                ok,
+            });
+        }
+    }
+    Ok((Windows { supply, limits }, verdict, judged))
 }
 
 /// [`diagnosis`] written into `out`: the instrument keeps it in its session state, never on its
@@ -306,11 +416,26 @@ pub fn diagnosis_into(
     readings: &Readings,
     out: &mut Diagnosis,
 ) -> Result<(), DiagnoseError> {
-    diagnose::diagnose_into(
+    diagnosis_with_signal_into(stage, profile, settings, readings, &[], out)
+}
+
+/// [`diagnosis_into`] on DC and gain readings together.
+#[inline(never)]
+pub fn diagnosis_with_signal_into(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    diagnose::diagnose_with_signal_into(
         stage,
         profile,
         readings,
+        tones,
         &settings.meter,
+        &settings.signal,
         &variation(settings),
         out,
     )
@@ -327,11 +452,25 @@ pub fn diagnosis(
     settings: &TestSettings,
     readings: &Readings,
 ) -> Result<Diagnosis, DiagnoseError> {
-    diagnose::diagnose(
+    diagnosis_with_signal(stage, profile, settings, readings, &[])
+}
+
+/// [`diagnosis`] on DC and gain readings together.
+#[inline]
+pub fn diagnosis_with_signal(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    tones: &[ToneReading],
+) -> Result<Diagnosis, DiagnoseError> {
+    diagnose::diagnose_with_signal(
         stage,
         profile,
         readings,
+        tones,
         &settings.meter,
+        &settings.signal,
         &variation(settings),
     )
 }

@@ -15,16 +15,19 @@
 //! | engine | [`estimate`] | the hand estimate practitioners compare with |
 //! | engine | [`signal`] | midband small-signal gain, impedances and swing |
 //! | engine | [`lowfreq`] | low-frequency poles and the -3 dB corner |
+//! | engine | [`response`] | the complex gain at any frequency, good or with a faulty capacitor |
 //! | engine | [`power`] | dissipation and supply current |
 //! | engine | [`predict`] | all of the above for one stage in one call |
 //! | job | [`design`] | from a requirement to ranked standard-value part lists |
 //! | job | [`spread`] | worst case, Monte Carlo and sensitivity |
 //! | job | [`limits`] | guard-banded pass windows per node |
+//! | job | [`signaltest`] | test tones: the gain's spread, windows, proposed frequencies |
 //! | job | [`settings`] | the test settings (ambient, meter, measuring inputs), defaults, digest |
 //! | job | [`judge`] | the one judging path: supply, windows, verdict, diagnosis |
 //! | job | [`check`] | measured against limits: verdict and derived quantities |
 //! | job | [`diagnose`] | ranked single-fault hypotheses |
 //! | job | [`explain`] | faults in plain words, the measurement that separates them |
+//! | numbers | [`goertzel`] | the amplitude of one tone in sampled data (single precision) |
 //! | front | [`console`] | the line console protocol over `embedded-io` |
 //!
 //! Units: SI base units everywhere inside (V, A, Ω, F, Hz, W, °C for ambient temperature). Tolerances
@@ -56,15 +59,18 @@ pub mod device;
 pub mod diagnose;
 pub mod estimate;
 pub mod explain;
+pub mod goertzel;
 pub mod judge;
 pub mod limits;
 pub mod lowfreq;
 mod order;
 pub mod power;
 pub mod predict;
+pub mod response;
 pub mod series;
 pub mod settings;
 pub mod signal;
+pub mod signaltest;
 pub mod solve;
 pub mod spread;
 pub mod stage;

@@ -64,7 +64,7 @@ const POW10: [f64; 23] = [
 
 /// 10^e for a non-negative exponent: exact up to 1e22, correctly rounded up to 1e44 (one
 /// product of exact powers), within a few ulps beyond; infinity past 1e308.
-fn pow10(e: i64) -> f64 {
+pub(crate) fn pow10(e: i64) -> f64 {
     let mut p: f64 = 1.0;
     let mut rest = e.max(0);
     while rest > 22 && p.is_finite() {

@@ -168,6 +168,8 @@ pub struct TestSettings {
     pub meter: Meter,
     /// The measuring inputs.
     pub inputs: Inputs,
+    /// The accuracy of a gain reading of the signal test.
+    pub signal: crate::signaltest::SignalMeter,
 }
 
 impl Default for TestSettings {
@@ -191,6 +193,8 @@ pub enum SettingsError {
     DividerTol,
     /// Input resistance: 1 kΩ to 1 TΩ (or none).
     InputR,
+    /// Signal meter: gain error 0 to 50 %, floor 0 to 10 V/V.
+    Signal,
 }
 
 impl core::fmt::Display for SettingsError {
@@ -201,6 +205,9 @@ impl core::fmt::Display for SettingsError {
             Self::MeterOffset => "meter offset: allowed 0 V to 1 V",
             Self::DividerTol => "divider tolerance: allowed 0 to 10 %",
             Self::InputR => "input resistance: allowed 1 kΩ to 1 TΩ, or none (an ideal meter)",
+            Self::Signal => {
+                "signal meter: gain error allowed 0 to 50 % of the reading, floor 0 to 10 V/V"
+            }
         })
     }
 }
@@ -213,6 +220,7 @@ impl TestSettings {
         temp_max_c: DEFAULT_TEMP_C,
         meter: Meter::DEFAULT,
         inputs: Inputs::IDEAL,
+        signal: crate::signaltest::SignalMeter::DEFAULT,
     };
 
     /// The test ambient as the spread, limits and diagnosis take it, the nodes read through the
@@ -242,6 +250,7 @@ impl TestSettings {
                 return Err(SettingsError::InputR);
             }
         }
+        self.signal.validate().map_err(|_| SettingsError::Signal)?;
         Ok(())
     }
 }
@@ -404,6 +413,12 @@ impl Canonical {
             InputMode::Together => 0,
             InputMode::One => 1,
         });
+        // The signal meter only when it is not the default (digests of earlier settings stay).
+        if settings.signal != crate::signaltest::SignalMeter::DEFAULT {
+            self.bytes(b"signal");
+            self.f64(settings.signal.gain_error);
+            self.f64(settings.signal.floor);
+        }
     }
 
     /// The SHA-256 of everything encoded.

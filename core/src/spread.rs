@@ -406,6 +406,27 @@ fn draw_of(x: &[f64; FACTORS]) -> Draw {
     }
 }
 
+/// The stage and conditions of one draw (no measuring inputs attached).
+fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
+    let mut s = *stage;
+    let [r1, r2, rc, re1, re2] = d.r;
+    s.r1.value = r1;
+    s.r2.value = r2;
+    s.rc.value = rc;
+    s.re1.value = re1;
+    s.re2.value = re2;
+    s.vcc.value = d.vcc;
+    (
+        s,
+        Conditions {
+            temp_c: d.temp_c,
+            beta_25: d.beta_25,
+            fault: None,
+            loads: crate::solve::NodeLoads::NONE,
+        },
+    )
+}
+
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (the midband network in closed form),
 /// or 0 when the network is singular. (Inline: the closed form keeps a dozen numbers, not the
 /// general solve's 6×6 complex matrix, so it adds little to an evaluation's frame.)
@@ -778,6 +799,34 @@ pub(crate) fn each_corner_at_supply(
         solves += 1;
         Ok(())
     })?;
+    Ok(solves)
+}
+
+/// Every corner of the factor box with the supply fixed at `vcc` (V, tolerance zero), and the
+/// centre first: `f(drawn stage, conditions, operating point)` for each. Returns the number of
+/// solves.
+pub(crate) fn each_corner_solved(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    vcc: f64,
+    mut f: impl FnMut(&Stage, &Conditions, &crate::solve::OperatingPoint),
+) -> Result<u32, SpreadError> {
+    let mut s = *stage;
+    s.vcc.value = vcc;
+    s.vcc.tol = 0.0;
+    validate(&s, profile, var)?;
+    let b = Box8::new(&s, profile, var);
+    let mut solves = 0u32;
+    let mut one = |x: &[f64; FACTORS]| -> Result<(), SpreadError> {
+        let (drawn, cond) = apply(&s, &draw_of(x));
+        let op = solve(&drawn, profile, cond)?;
+        f(&drawn, &cond, &op);
+        solves += 1;
+        Ok(())
+    };
+    one(&b.centre)?;
+    for_each_corner(active_mask(&b), |c| one(&b.corner(c, 0)))?;
     Ok(solves)
 }
 

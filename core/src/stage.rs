@@ -65,6 +65,20 @@ pub enum Capacitor {
     Ce,
 }
 
+impl Capacitor {
+    /// Every capacitor, in drawing order.
+    pub const ALL: [Capacitor; 3] = [Self::Cin, Self::Cout, Self::Ce];
+
+    /// The reference designator: "CIN", "COUT", "CE".
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Cin => "CIN",
+            Self::Cout => "COUT",
+            Self::Ce => "CE",
+        }
+    }
+}
+
 /// A part value with its tolerance.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Part {
@@ -194,15 +208,7 @@ impl core::fmt::Display for StageError {
             },
             Self::Load => f.write_str("RL must be positive"),
             Self::Source => f.write_str("RS must be zero or positive"),
-            Self::Capacitor(c) => write!(
-                f,
-                "{} must be positive",
-                match c {
-                    Capacitor::Cin => "CIN",
-                    Capacitor::Cout => "COUT",
-                    Capacitor::Ce => "CE",
-                }
-            ),
+            Self::Capacitor(c) => write!(f, "{} must be positive", c.name()),
             Self::Tolerance => f.write_str("tolerance must be between 0 and 50 %"),
         }
     }
@@ -215,6 +221,15 @@ impl Stage {
     /// The nominal value of a resistor, Ω.
     pub fn resistor(&self, which: Resistor) -> f64 {
         self.part(which).value
+    }
+
+    /// A capacitor part (`None`: ideal).
+    pub fn capacitor(&self, which: Capacitor) -> Option<Part> {
+        match which {
+            Capacitor::Cin => self.cin,
+            Capacitor::Cout => self.cout,
+            Capacitor::Ce => self.ce,
+        }
     }
 
     /// A resistor part.

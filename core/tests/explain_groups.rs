@@ -320,3 +320,175 @@ fn every_group_gets_an_in_circuit_action_that_leads_each_member_to_itself() {
     assert!(seen.len() >= 15, "{seen:?}");
     assert!(seen.iter().any(|g| g.contains("CE shorted")), "{seen:?}");
 }
+
+/// What the technician's capacitance reading of `cap` (one end lifted) shows when `truth` is
+/// the fault: "open" (next to nothing), "small" (below its band), "short" (a short on the ohms
+/// range) or "" (its value).
+fn cap_reading(cap: &str, truth: Member) -> &'static str {
+    match truth {
+        Member::Fault(Suspect::Capacitor(c, m)) if c.name() == cap => match m {
+            ResistorMode::Open => "open",
+            ResistorMode::Low => "small",
+            ResistorMode::Short | ResistorMode::High => "short",
+        },
+        _ => "",
+    }
+}
+
+/// Follow the lines of a group with capacitors for `truth` (the capacitance step's results
+/// first, then the rules of [`follow`]).
+fn follow_caps(outcomes: &[String], truth: Member) -> String {
+    for (k, l) in outcomes.iter().enumerate() {
+        let part = l.split(' ').next().unwrap_or("");
+        if !matches!(part, "CIN" | "COUT" | "CE") || l.contains(" with CE lifted: ") {
+            continue;
+        }
+        for seg in l.split("; ") {
+            let Some((cond, names)) = seg.split_once(": ") else {
+                continue;
+            };
+            let want = cap_reading(part, truth);
+            let hit = (cond.contains("next to nothing") && want == "open")
+                || (cond.contains(" below ") && want == "small")
+                || (cond.contains("shorted on the ohms range") && want == "short");
+            if hit {
+                return names.to_string();
+            }
+        }
+        // Not this capacitor: the other lines.
+        let rest: Vec<String> = outcomes
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| *j != k)
+            .map(|(_, l)| l.clone())
+            .collect();
+        if matches!(truth, Member::Fault(Suspect::Capacitor(..))) {
+            continue;
+        }
+        return follow(&rest, truth);
+    }
+    follow(outcomes, truth)
+}
+
+/// Capacitor faults read with the signal test (the DC readings and the gains at two tones, as
+/// the diagnosis predicts them): every group with a capacitor is named on its first line, a
+/// real CE short stands in for the implied one (named once), and the lines under it lead each
+/// member to itself.
+#[test]
+fn capacitor_groups_with_signal_readings_lead_each_member_to_itself() {
+    use biasjig_core::diagnose::diagnose_with_signal;
+    use biasjig_core::response::{gain_at, CapState, Caps};
+    use biasjig_core::signaltest::{SignalMeter, ToneReading};
+    use biasjig_core::stage::Capacitor;
+
+    let (_, mut s, p) = designs().remove(0);
+    s.rs = 600.0;
+    s.rl = Some(10e3);
+    s.cin = Some(Part::new(10e-6, 0.2));
+    s.cout = Some(Part::new(10e-6, 0.2));
+    s.ce = Some(Part::new(100e-6, 0.2));
+    let freqs = [20.0, 1e3];
+    let mut seen = std::collections::BTreeSet::new();
+    let mut cases: Vec<(Capacitor, CapState)> = Vec::new();
+    for c in Capacitor::ALL {
+        let v = s.capacitor(c).unwrap().value;
+        cases.push((c, CapState::Open));
+        cases.push((c, CapState::Fitted(v * 0.05)));
+    }
+    cases.push((Capacitor::Ce, CapState::Short));
+    for (c, state) in cases {
+        // At DC a shorted CE is RE2 shorted; the other capacitor faults leave DC alone.
+        let dc = if state == CapState::Short {
+            s.with_fault(Fault::Short(Resistor::Re2))
+        } else {
+            s
+        };
+        let op = solve(
+            &dc,
+            &p,
+            Conditions {
+                temp_c: 25.0,
+                beta_25: p.beta_typ,
+                fault: None,
+                loads: Default::default(),
+            },
+        )
+        .unwrap();
+        let caps = Caps::nominal(&s).with(c, state);
+        let tones: Vec<ToneReading> = freqs
+            .iter()
+            .map(|&f| ToneReading {
+                f,
+                gain: gain_at(&s, &op, &caps, f).unwrap().magnitude(),
+            })
+            .collect();
+        let r = Readings {
+            vcc: op.vcc,
+            vb: op.vb,
+            ve: op.ve,
+            vc: op.vc,
+        };
+        let d = diagnose_with_signal(
+            &s,
+            &p,
+            &r,
+            &tones,
+            &Meter::default(),
+            &SignalMeter::DEFAULT,
+            &Variation::at(25.0),
+        )
+        .unwrap();
+        for h in d.faults().take(6) {
+            let l = Listed::of(&d, h);
+            let g = Group::of(std::iter::once(l.suspect).chain(l.same.iter().copied()));
+            if !g
+                .members()
+                .iter()
+                .any(|m| matches!(m, Member::Fault(Suspect::Capacitor(..))))
+                || !g.is_shared()
+            {
+                continue;
+            }
+            let names: Vec<String> = g.members().iter().map(|m| m.to_string()).collect();
+            assert!(
+                names.iter().filter(|n| *n == "CE shorted").count() <= 1,
+                "CE shorted named twice: {names:?}"
+            );
+            seen.insert(names.join(" | "));
+            let mut lines = Vec::new();
+            listing(&s, true, std::slice::from_ref(&l), &mut |a| {
+                lines.push(a.to_string())
+            });
+            let first = &lines[1];
+            assert!(first.contains("power off"), "{lines:#?}");
+            for m in g.members() {
+                assert!(
+                    first.contains(&m.to_string()),
+                    "{m} on the first line: {first}"
+                );
+            }
+            let outcomes: Vec<String> = lines[2..]
+                .iter()
+                .map(|l| l.trim().to_string())
+                .filter(|l| {
+                    !l.starts_with("closest fit")
+                        && !l.starts_with("In circuit")
+                        && !l.contains("tells them apart")
+                })
+                .collect();
+            for m in g.members() {
+                let verdict = follow_caps(&outcomes, *m);
+                assert!(
+                    verdict.contains(&m.to_string()),
+                    "{m} followed the lines to {verdict:?}: {lines:#?}"
+                );
+            }
+        }
+    }
+    println!(
+        "{} capacitor groups:\n{}",
+        seen.len(),
+        seen.iter().cloned().collect::<Vec<_>>().join("\n")
+    );
+    assert!(!seen.is_empty(), "no capacitor group met");
+}

@@ -1,11 +1,16 @@
 //! The emulated board under test: part values drawn within their tolerance from a seed around
 //! the console's current design, an hFE within the profile's spread, one injected fault, and
 //! its node voltages from the core engine (`solve::solve`, the one circuit model) with the jig's
-//! inputs attached to every node, as on the real jig ([`crate::jig::JIG_INPUT_R`]).
+//! inputs attached to every node, as on the real jig ([`crate::jig::JIG_INPUT_R`]). The
+//! capacitors are drawn within their tolerance too, and one of them may carry a fault of its own
+//! (open, short, a wrong value): its signal response comes from `response::gain_at`, and a short
+//! shows at DC as in the jig's set-up (RS stays on the input and RL on the output while the
+//! nodes are read).
 use biasjig_core::console::default_settings;
 use biasjig_core::device::Profile;
-use biasjig_core::solve::{solve, Conditions, NodeLoads, SolveError};
-use biasjig_core::stage::{Fault, Readings, Resistor, Stage};
+use biasjig_core::response::{CapState, Caps};
+use biasjig_core::solve::{solve, Conditions, NodeLoads, OperatingPoint, SolveError};
+use biasjig_core::stage::{Capacitor, Fault, Readings, Resistor, Stage};
 
 /// The emulated bench supply sits within this fraction of the supply's own tolerance of its
 /// nominal value (a bench supply is set close to nominal).
@@ -38,6 +43,8 @@ pub struct BoardModel {
     profile: Profile,
     temp_c: f64,
     fault: Option<Fault>,
+    /// A capacitor fault (on top of `fault`, normally alone).
+    cap_fault: Option<(Capacitor, CapState)>,
     /// The jig inputs' resistance from each node to ground, Ω (`None`: no loading).
     input_r: Option<f64>,
     /// The drawn board: parts within tolerance, and its hFE at 25 °C.
@@ -55,6 +62,7 @@ impl BoardModel {
             profile: s.profile,
             temp_c: s.temp_c,
             fault: None,
+            cap_fault: None,
             input_r: Some(crate::jig::JIG_INPUT_R),
             drawn: None,
             nodes: None,
@@ -110,6 +118,17 @@ impl BoardModel {
         self.fault
     }
 
+    /// Put `state` in a capacitor's place (`None`: every capacitor as drawn).
+    pub fn set_cap_fault(&mut self, fault: Option<(Capacitor, CapState)>) {
+        self.cap_fault = fault;
+        self.nodes = None;
+    }
+
+    /// The injected capacitor fault.
+    pub fn cap_fault(&self) -> Option<(Capacitor, CapState)> {
+        self.cap_fault
+    }
+
     /// The drawn parts (nominal design, each within its tolerance) and the drawn hFE at 25 °C.
     pub fn drawn(&mut self) -> (Stage, f64) {
         if let Some(d) = self.drawn {
@@ -127,15 +146,17 @@ impl BoardModel {
         let p = &self.profile;
         let t = 0.5 * (g.unit() + 1.0);
         let beta = p.beta_min + t * (p.beta_max - p.beta_min);
+        // The capacitors after hFE, so that the resistor and hFE draws stay as they were.
+        for c in [&mut s.cin, &mut s.cout, &mut s.ce].into_iter().flatten() {
+            c.value *= 1.0 + c.tol * g.unit();
+        }
         self.drawn = Some((s, beta));
         (s, beta)
     }
 
-    /// The board's node voltages, V, from the core engine (drawn parts, the fault applied).
-    pub fn nodes(&mut self) -> Result<Readings, SolveError> {
-        if let Some(n) = self.nodes {
-            return Ok(n);
-        }
+    /// The board as the signal sees it (drawn parts, a resistor fault applied), its capacitors
+    /// (drawn, a capacitor fault applied) and its operating point in the jig's DC set-up.
+    pub fn solved(&mut self) -> Result<(Stage, Caps, OperatingPoint), SolveError> {
         let (mut stage, beta_25) = self.drawn();
         let mut device = None;
         match self.fault {
@@ -143,17 +164,46 @@ impl BoardModel {
             Some(f) => stage = stage.with_fault(f),
             None => {}
         }
+        let mut caps = Caps::nominal(&stage);
+        let mut dc = stage;
+        // Every jig input stays connected while the nodes are read; a shorted coupling capacitor
+        // adds RS at the base or RL at the collector.
+        let mut loads = NodeLoads::each(self.input_r);
+        let add = |l: Option<f64>, r: f64| Some(l.map_or(r, |l| l * r / (l + r)));
+        if let Some((c, state)) = self.cap_fault {
+            caps = caps.with(c, state);
+            if state == CapState::Short {
+                match c {
+                    Capacitor::Ce => dc = dc.with_fault(Fault::Short(Resistor::Re2)),
+                    Capacitor::Cin if stage.rs > 0.0 => loads.base = add(loads.base, stage.rs),
+                    Capacitor::Cin => dc = dc.with_fault(Fault::Short(Resistor::R2)),
+                    Capacitor::Cout => {
+                        if let Some(rl) = stage.rl {
+                            loads.collector = add(loads.collector, rl);
+                        }
+                    }
+                }
+            }
+        }
         let op = solve(
-            &stage,
+            &dc,
             &self.profile,
             Conditions {
                 temp_c: self.temp_c,
                 beta_25,
                 fault: device,
-                // Every jig input stays connected while the nodes are read.
-                loads: NodeLoads::each(self.input_r),
+                loads,
             },
         )?;
+        Ok((stage, caps, op))
+    }
+
+    /// The board's node voltages, V, from the core engine (drawn parts, the fault applied).
+    pub fn nodes(&mut self) -> Result<Readings, SolveError> {
+        if let Some(n) = self.nodes {
+            return Ok(n);
+        }
+        let (_, _, op) = self.solved()?;
         let r = Readings {
             vcc: op.vcc,
             vb: op.vb,

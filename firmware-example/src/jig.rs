@@ -10,7 +10,8 @@ use crate::adc::{Calibration, ChannelConfig, ChannelError};
 use crate::board::BoardModel;
 use biasjig_core::console::record::Settings;
 use biasjig_core::console::{Calibration as CoreCalibration, Channel, Jig, JigError};
-use biasjig_core::stage::{Fault, Readings};
+use biasjig_core::response::CapState;
+use biasjig_core::stage::{Capacitor, Fault, Readings};
 
 /// Most samples in one burst (the open-probe and rail checks look at one burst at a time).
 pub const MAX_BURST: usize = 64;
@@ -32,6 +33,19 @@ pub const MIN_SUPPLY: f64 = 1.0;
 pub trait SampleSource {
     /// One conversion of a channel, in codes.
     fn sample(&mut self, channel: Channel) -> u16;
+
+    /// The tone output and the two signal inputs, if the jig has them (the signal test).
+    fn tone(&mut self) -> Option<&mut dyn crate::tone::ToneDriver> {
+        None
+    }
+}
+
+fn tone_error(e: crate::tone::ToneError) -> JigError {
+    match e {
+        crate::tone::ToneError::NoDrive => JigError::Hardware,
+        crate::tone::ToneError::Clipped => JigError::OutOfRange(Channel::Vc),
+        crate::tone::ToneError::Frequency => JigError::NotSupported,
+    }
 }
 
 /// Firmware extras of a jig, beyond the core's [`Jig`]: follow the console's design (the
@@ -80,6 +94,8 @@ pub struct AdcJig<S> {
     pub source: S,
     /// Per channel: divider ratio, reference, open-probe threshold and calibration.
     pub channels: [ChannelConfig; 4],
+    /// The signal path's calibration (load input against source input).
+    pub signal_cal: crate::tone::SignalCal,
 }
 
 impl<S: SampleSource> AdcJig<S> {
@@ -88,6 +104,7 @@ impl<S: SampleSource> AdcJig<S> {
         AdcJig {
             source,
             channels: [ChannelConfig::new(JIG_DIVIDER_RATIO, vref); 4],
+            signal_cal: crate::tone::SignalCal::default(),
         }
     }
 
@@ -157,6 +174,26 @@ impl<S: SampleSource> Jig for AdcJig<S> {
     fn set_calibration(&mut self, cal: &CoreCalibration) -> Result<(), JigError> {
         self.calibrate(cal);
         Ok(())
+    }
+
+    fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
+        let cal = self.signal_cal;
+        let d = self.source.tone().ok_or(JigError::NotSupported)?;
+        struct Dyn<'a>(&'a mut dyn crate::tone::ToneDriver);
+        impl crate::tone::ToneDriver for Dyn<'_> {
+            fn start(&mut self, f: f32, p: u32) -> f32 {
+                self.0.start(f, p)
+            }
+            fn stop(&mut self) {
+                self.0.stop()
+            }
+            fn sample_pair(&mut self) -> (u16, u16) {
+                self.0.sample_pair()
+            }
+        }
+        crate::tone::measure_gain(&mut Dyn(d), f_hz as f32, &cal)
+            .map(f64::from)
+            .map_err(tone_error)
     }
 
     fn input_r(&self) -> Option<f64> {
@@ -248,6 +285,7 @@ impl EmulatedJig {
                     noise: Noise::new(seed as u32 ^ 0x9e37_79b9),
                 },
                 channels: [channel; 4],
+                signal_cal: crate::tone::SignalCal::default(),
             },
         }
     }
@@ -286,7 +324,22 @@ impl Jig for EmulatedJig {
 
     fn inject(&mut self, fault: Option<Fault>) -> Result<(), JigError> {
         self.board.set_fault(fault);
+        if fault.is_none() {
+            self.board.set_cap_fault(None);
+        }
         Ok(())
+    }
+
+    fn inject_capacitor(&mut self, which: Capacitor, state: CapState) -> Result<(), JigError> {
+        self.board.set_cap_fault(Some((which, state)));
+        Ok(())
+    }
+
+    fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
+        let (stage, caps, op) = self.board.solved().map_err(|_| JigError::Hardware)?;
+        let noise = Noise::new(self.adc.source.noise.next_u32());
+        crate::tone::emulated_gain(stage, caps, op, noise, f_hz, &self.adc.signal_cal)
+            .map_err(tone_error)
     }
 
     /// The emulated board is read through inputs of the same resistance as the hardware's.

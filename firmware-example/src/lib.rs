@@ -12,6 +12,7 @@
 //! | [`cost`] | elapsed ticks of the last command (SysTick under QEMU, DWT cycle counter on hardware) |
 //! | [`adc`] | ADC channel math: divider ratio, two-point calibration, oversampling, clipping, open probe |
 //! | [`jig`] | the core `Jig` over ADC channels ([`jig::AdcJig`]) and the emulated jig ([`jig::EmulatedJig`]) |
+//! | [`tone`] | the signal test: tone output, the two signal inputs sampled at a fixed rate, Goertzel; the emulated jig's synthesised samples |
 //! | [`board`] | the emulated board under test: parts drawn within tolerance, a fault, the core engine's node voltages |
 //! | [`screen`] | a 128x64 one-bit framebuffer, its text art, and the verdict and measurement screens |
 //! | [`stack`] | stack painting and the high-water mark |
@@ -36,6 +37,7 @@ pub mod store;
 // there says why it is sound.
 #[allow(unsafe_code)]
 pub mod target;
+pub mod tone;
 
 /// Firmware version, from the crate.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

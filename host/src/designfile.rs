@@ -431,6 +431,7 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
     }
     let t = &f.test;
     let test = TestSettings {
+        signal: biasjig_core::signaltest::SignalMeter::DEFAULT,
         temp_min_c: t.temp_min,
         temp_max_c: t.temp_max,
         meter: Meter {

@@ -151,6 +151,12 @@ pub struct MeterArgs {
     /// Tolerance of the jig's input divider, percent, 0 to 10 [default: 0.1]
     #[arg(long = "divider-tol", value_name = "P", value_parser = values::percent, help_heading = "Meter")]
     pub divider_tol: Option<f64>,
+    /// Signal test: error of a gain reading, percent of the reading, 0 to 50 [default: 2]
+    #[arg(long = "signal-error", value_name = "P", value_parser = values::percent, help_heading = "Meter")]
+    pub signal_error: Option<f64>,
+    /// Signal test: error floor of a gain reading, V/V, 0 to 10 [default: 0.02]
+    #[arg(long = "signal-floor", value_name = "G", value_parser = values::value, help_heading = "Meter")]
+    pub signal_floor: Option<f64>,
 }
 
 /// The measuring-input flags (analyze, spread, limits, check, batch).
@@ -196,6 +202,11 @@ pub fn settings_error(s: &TestSettings, e: SettingsError) -> CliError {
             CliError::field("--divider-tol", 100.0 * s.meter.divider_tol, e)
         }
         SettingsError::InputR => CliError::field("--input-r", s.inputs.r.unwrap_or(f64::NAN), e),
+        SettingsError::Signal => CliError::field(
+            "--signal-error/--signal-floor",
+            format!("{}/{}", 100.0 * s.signal.gain_error, s.signal.floor),
+            e,
+        ),
         _ => CliError::usage(e.to_string()),
     }
 }
@@ -439,6 +450,10 @@ impl StageArgs {
                 offset: m.meter_offset.unwrap_or(ts.meter.offset),
                 divider_tol: m.divider_tol.unwrap_or(ts.meter.divider_tol),
             };
+            ts.signal = biasjig_core::signaltest::SignalMeter {
+                gain_error: m.signal_error.unwrap_or(ts.signal.gain_error),
+                floor: m.signal_floor.unwrap_or(ts.signal.floor),
+            };
         }
         if let Some(i) = inputs {
             ts.inputs = Inputs {
@@ -503,6 +518,8 @@ impl StageArgs {
             add("--meter", t.meter.meter.map(|g| 100.0 * g));
             add("--meter-offset", t.meter.meter_offset);
             add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
+            add("--signal-error", t.meter.signal_error.map(|d| 100.0 * d));
+            add("--signal-floor", t.meter.signal_floor);
         }
         if let Some(i) = inputs {
             add("--input-r", i.input_r);

@@ -885,6 +885,166 @@ fn images_fit_their_budgets() {
     assert!(over.is_empty(), "over budget: {over:?}");
 }
 
+/// The `ac f=.. measured=.. low=.. high=.. ok=..` lines of a machine-mode result: (f, measured,
+/// low, high, ok).
+fn ac_lines(data: &[String]) -> Vec<(String, String, f64, f64, bool)> {
+    data.iter()
+        .filter(|l| l.starts_with("ac "))
+        .map(|l| {
+            let p = pairs(l);
+            (
+                p["f"].to_owned(),
+                p["measured"].to_owned(),
+                num(p["low"]),
+                num(p["high"]),
+                p["ok"] == "1",
+            )
+        })
+        .collect()
+}
+
+/// `biasjig check --design FILE --ac F:G ...` on the DC and gain readings the instrument reports,
+/// compared with the instrument: verdict, the node and gain windows, the first fault.
+fn assert_signal_parity(
+    design: &Path,
+    readings: &[String],
+    data: &[String],
+    inst: &Result_,
+    what: &str,
+) {
+    let line = readings.first().map(String::as_str).unwrap_or("");
+    let p = pairs(line);
+    let get = |k: &str| {
+        (*p.get(k)
+            .unwrap_or_else(|| panic!("{what}: no {k} in {line:?}")))
+        .to_owned()
+    };
+    let ac = ac_lines(data);
+    assert_eq!(ac.len(), 2, "{what}: two gain readings in {data:?}");
+    let d = design.to_str().expect("utf-8 path");
+    let mut args: Vec<String> = ["check", "--design", d, "--json", "--input-r", JIG_INPUT_R]
+        .iter()
+        .map(|s| (*s).to_owned())
+        .collect();
+    for k in ["vcc", "vb", "ve", "vc"] {
+        args.push(format!("--{k}"));
+        args.push(get(k));
+    }
+    for (f, g, ..) in &ac {
+        args.push("--ac".into());
+        args.push(format!("{f}:{g}"));
+    }
+    let argv: Vec<&str> = args.iter().map(String::as_str).collect();
+    let (code, out, err) = run_host(&argv);
+    assert!(
+        code == 0 || code == 1,
+        "{what}: biasjig check exit {code}: {err}"
+    );
+    let j: serde_json::Value = serde_json::from_str(&out)
+        .unwrap_or_else(|e| panic!("{what}: check --json output is not JSON ({e}): {out}"));
+    assert_eq!(j["verdict"], inst.verdict.as_str(), "{what}: verdict");
+    for (node, (_, low, high, _)) in &inst.nodes {
+        let h = &j["nodes"][node.as_str()];
+        let f = |k: &str| h[k].as_f64().unwrap_or(f64::NAN);
+        assert!(
+            close(f("low"), *low) && close(f("high"), *high),
+            "{what}: window of {node}"
+        );
+    }
+    for (k, (f, g, low, high, ok)) in ac.iter().enumerate() {
+        let h = &j["ac"][k];
+        let v = |key: &str| h[key].as_f64().unwrap_or(f64::NAN);
+        assert!(
+            close(v("f"), num(f)) && close(v("measured"), num(g)),
+            "{what}: ac {k}: {h}"
+        );
+        assert!(
+            close(v("low"), *low) && close(v("high"), *high),
+            "{what}: gain window at {f} Hz: instrument {low}..{high}, host {}..{}",
+            v("low"),
+            v("high")
+        );
+        assert_eq!(h["ok"].as_bool(), Some(*ok), "{what}: ac {k} ok");
+    }
+    let host_first = j["faults"].get(0).map(|f| {
+        (
+            f["part"].as_str().unwrap_or("").to_owned(),
+            f["mode"].as_str().unwrap_or("").to_owned(),
+        )
+    });
+    let inst_first = inst.faults.first().map(|(p, m, _)| (p.clone(), m.clone()));
+    assert_eq!(host_first, inst_first, "{what}: first fault");
+}
+
+/// The signal test on the emulated jig (the full image: the budget build leaves the signal test
+/// out): `test` reads the DC nodes, then the gain at two proposed frequencies from samples the
+/// emulated jig synthesises from the engine's complex response of its drawn board (capacitors
+/// drawn within tolerance) through the firmware's Goertzel code. A good board passes; CE open,
+/// CIN open and CE at a tenth of its value are named first by the instrument, and `biasjig check
+/// --ac` on the same readings gives the same windows, verdict and first fault.
+#[test]
+fn emulated_jig_names_capacitor_faults() {
+    let out_dir = images();
+    let dir = temp_dir().join("signal");
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let design = write_design(&dir);
+    let log = dir.join("boards.jsonl");
+    let (_qemu, pts) = boot(&out_dir.join("jig-emulated"));
+    let recs = station(&pts, &design, &log, &["SIG-GOOD"]);
+    assert_eq!(recs[0]["verdict"], "pass", "good board: {}", recs[0]);
+
+    let mut s = Session::open(&pts);
+    s.ok("mode machine");
+    let data = s.ok("test");
+    let good = parse_result(&data);
+    assert_eq!(good.verdict, "pass", "good board: {data:?}");
+    let rd = s.ok("readings");
+    assert_signal_parity(&design, &rd, &data, &good, "good board");
+
+    let ce = s
+        .ok("parts")
+        .iter()
+        .find(|l| l.starts_with("part=CE "))
+        .map(|l| num(pairs(l)["value"]))
+        .expect("the design has CE");
+    let cases: Vec<(String, &str, &str)> = vec![
+        ("inject ce open".into(), "CE", "open"),
+        ("inject cin open".into(), "CIN", "open"),
+        (format!("inject ce {}", ce / 10.0), "CE", "low"),
+    ];
+    let mut cost = None;
+    for (inject, part, mode) in &cases {
+        s.ok("inject none");
+        s.ok(inject);
+        let data = s.ok("test");
+        if cost.is_none() {
+            cost = Some(cost_of(&mut s));
+        }
+        let r = parse_result(&data);
+        println!(
+            "{inject}: {:?} faults {:?}",
+            ac_lines(&data),
+            r.faults.first()
+        );
+        assert_eq!(r.verdict, "fail", "{inject}: {data:?}");
+        assert!(
+            names_first(&r, part, mode),
+            "{inject}: the instrument's first fault is not {part} {mode}: {:?}",
+            r.faults
+        );
+        let rd = s.ok("readings");
+        assert_signal_parity(&design, &rd, &data, &r, inject);
+    }
+    let (ticks, insns) = cost.expect("cost measured");
+    let st = fw(&mut s, "fw:stack?");
+    println!(
+        "jig-emulated --features full-console: test (DC, two tones, windows, diagnosis) on CE open: {ticks} SysTick ticks, {insns} instructions; {}",
+        st.join(" ")
+    );
+    s.close();
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
 /// The budget image (128 KiB parts) leaves the design search out and says where to design.
 #[test]
 fn budget_image_refuses_the_design_search() {

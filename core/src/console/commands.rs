@@ -112,7 +112,7 @@ pub const COMMANDS: [(&str, &str, &str); 32] = [
     ),
     (
         "inject",
-        "inject PART MODE | none",
+        "inject PART MODE | none (PART also cin cout ce)",
         "emulated jig: make the board faulty",
     ),
     ("lock", "lock PIN", "lock editing of the stage and limits"),
@@ -384,7 +384,11 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Ok(None)
             }
             Command::Measure(n) => self.cmd_measure(n, r),
-            Command::Check(rd) => self.cmd_judge(rd, Source::Typed, r),
+            Command::Check(rd, text) => {
+                // Checked by the parser already.
+                let tones = super::parse::tones(text).unwrap_or_default();
+                self.cmd_judge(rd, &tones, Source::Typed, r)
+            }
             Command::Test(n) => self.cmd_test(n, r),
             Command::Diagnose => self.diagnose(r),
             Command::Readings => match self.readings {
@@ -400,6 +404,10 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             Command::Calibrate(step) => self.calibrate(step, r),
             Command::Inject(f) => {
                 self.jig.inject(f).map_err(jig_fail)?;
+                Ok(None)
+            }
+            Command::InjectCapacitor(c, state) => {
+                self.jig.inject_capacitor(c, state).map_err(jig_fail)?;
                 Ok(None)
             }
             Command::Lock(pin) => self.lock(pin),
@@ -471,16 +479,46 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     #[inline(never)]
-    fn cmd_judge<W: Write>(&mut self, rd: Readings, src: Source, r: &mut Reply<'_, W>) -> Outcome {
-        self.judge(rd, src)?;
+    fn cmd_judge<W: Write>(
+        &mut self,
+        rd: Readings,
+        tones: &super::parse::Tones,
+        src: Source,
+        r: &mut Reply<'_, W>,
+    ) -> Outcome {
+        self.judge(rd, tones, src)?;
         self.show_check(r);
         Ok(None)
     }
 
+    /// `test`: the DC nodes first, then the gain at the two test frequencies the signal test
+    /// proposes for the design (when the stage has a load and the jig can drive a tone).
     #[inline(never)]
     fn cmd_test<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
         let rd = self.measure(n)?;
-        self.cmd_judge(rd, Source::Measured, r)
+        #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
+        let mut tones = super::parse::Tones::new();
+        #[cfg(feature = "signal-test")]
+        if self.settings.stage.rl.is_some() {
+            let st = &self.settings;
+            if let Ok(p) = crate::signaltest::propose(
+                &st.stage,
+                &st.profile,
+                &st.variation(),
+                &st.test_settings().signal,
+            ) {
+                for f in [p.midband, p.poles] {
+                    match self.jig.gain(f) {
+                        Ok(gain) => {
+                            let _ = tones.push(crate::signaltest::ToneReading { f, gain });
+                        }
+                        Err(JigError::NotSupported) => break,
+                        Err(e) => return Err(jig_fail(e)),
+                    }
+                }
+            }
+        }
+        self.cmd_judge(rd, &tones, Source::Measured, r)
     }
 
     #[inline(never)]

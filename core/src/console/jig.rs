@@ -5,7 +5,8 @@
 //! `check`) and keeps the store in memory; the instrument reads an ADC or an emulated jig and
 //! keeps the store in flash.
 
-use crate::stage::{Fault, Readings};
+use crate::response::CapState;
+use crate::stage::{Capacitor, Fault, Readings};
 
 /// A jig input channel: the node it reads.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -169,9 +170,24 @@ pub trait Jig {
         Err(JigError::NotSupported)
     }
 
-    /// Emulated jigs only: make the emulated board carry `fault` (`None`: a good board).
+    /// Emulated jigs only: make the emulated board carry `fault` (`None`: a good board, no
+    /// capacitor fault either).
     fn inject(&mut self, fault: Option<Fault>) -> Result<(), JigError> {
         let _ = fault;
+        Err(JigError::NotSupported)
+    }
+
+    /// Emulated jigs only: put `state` in a capacitor's place on the emulated board.
+    fn inject_capacitor(&mut self, which: Capacitor, state: CapState) -> Result<(), JigError> {
+        let _ = (which, state);
+        Err(JigError::NotSupported)
+    }
+
+    /// The signal test: drive a small tone of `f_hz` through RS into the board's input, sample
+    /// the source and the load, and give |v(load)/v(source EMF)| at `f_hz` (V/V, calibrated).
+    /// The DC nodes are read first; the tone follows.
+    fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
+        let _ = f_hz;
         Err(JigError::NotSupported)
     }
 

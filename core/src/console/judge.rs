@@ -14,6 +14,7 @@ use embedded_io::Write;
 
 use super::commands::{show_readings, Num, Opt};
 use super::jig::{Clock, Jig, Store};
+use super::parse::Tones;
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::Verdict;
@@ -40,6 +41,8 @@ pub struct LastCheck {
     pub verdict: Verdict,
     /// The ranked faults when the board failed.
     pub diagnosis: Option<Diagnosis>,
+    /// The gain readings judged (signal test), with their windows, in order.
+    pub tones: crate::judge::ToneVerdicts,
 }
 
 /// The status of a board the judging path did not judge.
@@ -68,11 +71,21 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// Keeps the result as the last check (nothing changes when the board is not judged; a
     /// diagnosis that fails leaves no last check).
     #[inline(never)]
-    pub(super) fn judge(&mut self, rd: Readings, src: Source) -> Result<(), Fail> {
+    pub(super) fn judge(&mut self, rd: Readings, tones: &Tones, src: Source) -> Result<(), Fail> {
         let st = &self.settings;
+        if cfg!(not(feature = "signal-test")) && !tones.is_empty() {
+            return Err(Fail::new(
+                Code::Usage,
+                format_args!(
+                    "no signal test on this unit (left out to fit its flash): run biasjig check \
+                     --ac on a PC"
+                ),
+            ));
+        }
         let ts = st.test_settings();
-        let (_, verdict) =
-            crate::judge::verdict(&st.stage, &st.profile, &ts, &rd).map_err(judge_fail)?;
+        let (_, verdict, tv) =
+            crate::judge::verdict_with_signal(&st.stage, &st.profile, &ts, &rd, tones.as_slice())
+                .map_err(judge_fail)?;
         // The last check is updated in place: the diagnosis (about 2.5 KB) is written straight
         // into the session state, never copied through the stack.
         match &mut self.last {
@@ -80,6 +93,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 l.readings = rd;
                 l.source = src;
                 l.verdict = verdict;
+                l.tones = tv;
             }
             None => {
                 self.last = Some(LastCheck {
@@ -87,6 +101,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     source: src,
                     verdict,
                     diagnosis: None,
+                    tones: tv,
                 })
             }
         }
@@ -99,7 +114,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     explained: false,
                     solves: 0,
                 });
-                if let Err(e) = crate::judge::diagnosis_into(&st.stage, &st.profile, &ts, &rd, d) {
+                if let Err(e) = crate::judge::diagnosis_with_signal_into(
+                    &st.stage,
+                    &st.profile,
+                    &ts,
+                    &rd,
+                    tones.as_slice(),
+                    d,
+                ) {
                     // No half-made diagnosis stays behind.
                     self.last = None;
                     return Err(judge_fail(crate::judge::JudgeError::Diagnose(e)));
@@ -140,6 +162,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     u8::from(n.ok)
                 ));
             }
+            for t in &l.tones {
+                r.data(format_args!(
+                    "ac f={} measured={} low={} high={} ok={}",
+                    Num(t.reading.f),
+                    Num(t.reading.gain),
+                    Num(t.window.low),
+                    Num(t.window.high),
+                    u8::from(t.ok)
+                ));
+            }
             r.data(format_args!(
                 "derived ic={} ib={} ie={} vbe={} vce={} beta={} region={}",
                 Num(dv.ic),
@@ -169,6 +201,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     Eng::new(n.low, u),
                     Eng::new(n.high, u),
                     if n.ok { "" } else { "   OUT" }
+                ));
+            }
+            for t in &l.tones {
+                r.data(format_args!(
+                    "gain at {}: {} window {} to {}{}",
+                    Eng::new(t.reading.f, "Hz"),
+                    Fixed(t.reading.gain, 3),
+                    Fixed(t.window.low, 3),
+                    Fixed(t.window.high, 3),
+                    if t.ok { "" } else { "   OUT" }
                 ));
             }
             let mut beta = Text::default();
@@ -255,7 +297,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     pub(super) fn diagnose<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
         if self.last.is_none() {
             match self.readings {
-                Some((rd, src)) => self.judge(rd, src)?,
+                Some((rd, src)) => self.judge(rd, &Tones::new(), src)?,
                 None => {
                     return Err(Fail::new(
                         Code::NoReadings,

@@ -3,8 +3,10 @@
 
 use super::jig::Channel;
 use super::Code;
+use crate::response::CapState;
 use crate::series::{BandCount, Series};
 use crate::settings::InputMode;
+use crate::signaltest::ToneReading;
 use crate::stage::{Capacitor, DeviceFault, Fault, Polarity, Readings, Resistor};
 use crate::units::{self, Unit};
 
@@ -323,8 +325,9 @@ pub enum Command<'a> {
     Meter(Option<MeterSetting>),
     /// `measure [SAMPLES]`.
     Measure(u16),
-    /// `check VCC VB VE VC`.
-    Check(Readings),
+    /// `check VCC VB VE VC [F:G ...]`: DC readings, and the gain readings as typed (read them
+    /// with [`tones`]).
+    Check(Readings, &'a str),
     /// `test [SAMPLES]`: measure and check.
     Test(u16),
     /// `diagnose`: the likely faults of the last readings.
@@ -335,6 +338,8 @@ pub enum Command<'a> {
     Calibrate(CalibrateStep),
     /// `inject FAULT | none` (emulated jigs).
     Inject(Option<Fault>),
+    /// `inject CIN|COUT|CE open|short|VALUE` (emulated jigs).
+    InjectCapacitor(Capacitor, CapState),
     /// `lock PIN`.
     Lock(Pin),
     /// `unlock PIN`.
@@ -353,6 +358,53 @@ pub enum Command<'a> {
     Choose(Name),
     /// `forget NAME`: remove a kept design.
     Forget(Name),
+}
+
+/// Gain readings typed with `check`: |v(load)/v(source EMF)| at a test frequency each.
+pub type Tones = crate::signaltest::ToneSet;
+
+/// The byte offset of `word` (a slice of `line`) in `line`.
+fn offset_in(line: &str, word: &str) -> usize {
+    (word.as_ptr() as usize).saturating_sub(line.as_ptr() as usize)
+}
+
+/// The gain readings `F:G ...` of a `check` line (F in Hz, G the gain magnitude), at most
+/// [`crate::signaltest::MAX_TONES`].
+pub fn tones(text: &str) -> Result<Tones, ParseError<'_>> {
+    let mut out = Tones::new();
+    // Without the signal test no gain reading is taken (the command says so).
+    if !cfg!(feature = "signal-test") {
+        return match text.split_ascii_whitespace().next() {
+            Some(t) => Err(err(
+                Code::Usage,
+                "ac",
+                t,
+                "no gain readings in this build (biasjig check --ac)",
+            )),
+            None => Ok(out),
+        };
+    }
+    for t in text.split_ascii_whitespace() {
+        let allowed = "F:G (test frequency in Hz, gain magnitude)";
+        let (f, g) = t
+            .split_once(':')
+            .ok_or(err(Code::Value, "ac", t, allowed))?;
+        let reading = ToneReading {
+            f: value("ac", f)?,
+            gain: value("ac", g)?,
+        };
+        if crate::signaltest::validate_reading(&reading).is_err() {
+            return Err(err(
+                Code::Range,
+                "ac",
+                t,
+                "F 0.1 Hz to 100 kHz, G 0 to 100000",
+            ));
+        }
+        out.push(reading)
+            .map_err(|_| err(Code::Usage, "ac", t, "at most 4 gain readings"))?;
+    }
+    Ok(out)
 }
 
 /// Why a line is not a command: a code, the field, the offending text and what is allowed.
@@ -564,8 +616,8 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
 }
 
 fn fault<'a>(words: &[&'a str]) -> Result<Option<Fault>, ParseError<'a>> {
-    let allowed = "none, PART open|short|VALUE (PART r1 r2 rc re1 re2), or q be_open|bc_open|\
-be_short|bc_short|ce_short|reversed";
+    let allowed = "none, PART open|short|VALUE (PART r1 r2 rc re1 re2 cin cout ce), or q \
+be_open|bc_open|be_short|bc_short|ce_short|reversed";
     match words {
         [w] if w.eq_ignore_ascii_case("none") => Ok(None),
         [part, mode] => {
@@ -735,13 +787,30 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
     }
     if is("check") {
         return match args {
-            [vcc, vb, ve, vc] => Ok(Command::Check(Readings {
-                vcc: signed("vcc", vcc)?,
-                vb: signed("vb", vb)?,
-                ve: signed("ve", ve)?,
-                vc: signed("vc", vc)?,
-            })),
-            _ => Err(err(Code::Usage, word, "", "check VCC VB VE VC (volts)")),
+            [vcc, vb, ve, vc, rest @ ..] => {
+                // The gain readings stay text here (a short command value on the stack); they
+                // are checked now and read again by the command.
+                let tail = match rest.first() {
+                    Some(w) => line.get(offset_in(line, w)..).unwrap_or(""),
+                    None => "",
+                };
+                tones(tail)?;
+                Ok(Command::Check(
+                    Readings {
+                        vcc: signed("vcc", vcc)?,
+                        vb: signed("vb", vb)?,
+                        ve: signed("ve", ve)?,
+                        vc: signed("vc", vc)?,
+                    },
+                    tail,
+                ))
+            }
+            _ => Err(err(
+                Code::Usage,
+                word,
+                "",
+                "check VCC VB VE VC [F:G ...] (volts; gain G at F Hz)",
+            )),
         };
     }
     if is("diagnose") {
@@ -772,6 +841,18 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
         };
     }
     if is("inject") {
+        if let [part, mode] = args {
+            if let Some(c) = capacitor(part) {
+                let state = if mode.eq_ignore_ascii_case("open") {
+                    CapState::Open
+                } else if mode.eq_ignore_ascii_case("short") {
+                    CapState::Short
+                } else {
+                    CapState::Fitted(value(part, mode)?)
+                };
+                return Ok(Command::InjectCapacitor(c, state));
+            }
+        }
         return fault(args).map(Command::Inject);
     }
     if is("lock") || is("unlock") {

@@ -372,6 +372,7 @@ impl Settings {
             temp_max_c: self.temp_max_c,
             meter: self.meter,
             inputs: self.inputs,
+            signal: crate::signaltest::SignalMeter::DEFAULT,
         }
     }
 

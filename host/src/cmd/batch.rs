@@ -1,13 +1,16 @@
 //! `biasjig batch`: check many boards from a CSV file of readings.
 //!
 //! The CSV has a header naming `serial`, `vcc`, `vb`, `ve`, `vc` (any order, any case; other
-//! columns are ignored). Each good row is checked (and logged with `--log`); a bad row gives an
+//! columns are ignored). Signal-test readings go in columns named `gain@F`, F the test frequency in
+//! the value grammar (`gain@1k`, `gain@20`; at most 4): each cell the gain magnitude read at F, an
+//! empty cell when not read. Each good row is checked (and logged with `--log`); a bad row gives an
 //! error naming its line and column and loses no other row. A yield summary closes the run.
 //! Exit 2 when a row was bad (every good row is still checked and logged), otherwise 1 when a
 //! board failed or was refused, otherwise 0.
 
 use std::path::PathBuf;
 
+use biasjig_core::signaltest::{self, ToneReading, MAX_TONES};
 use biasjig_core::stage::Readings;
 use biasjig_core::units;
 use serde_json::{json, Value};
@@ -35,8 +38,8 @@ pub struct Cmd {
     inputs: InputArgs,
 }
 
-/// One readings row, or why it is bad.
-pub type Row = Result<(String, Readings), String>;
+/// One readings row (serial, DC readings, gain readings), or why it is bad.
+pub type Row = Result<(String, Readings, Vec<ToneReading>), String>;
 
 /// Parse the CSV text into rows with their line numbers; a missing column is an error for the
 /// whole file.
@@ -60,6 +63,25 @@ pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
                 ))
             }
         }
+    }
+    // Signal-test columns: gain@F.
+    let mut gains: Vec<(usize, f64)> = Vec::new();
+    for (k, h) in header.iter().enumerate() {
+        let lower = h.to_ascii_lowercase();
+        if let Some(f) = lower.strip_prefix("gain@") {
+            let f = units::parse_value(f.trim_end_matches("hz")).map_err(|e| {
+                format!("line 1: header: column '{h}': frequency: {e}; allowed: gain@F with F in Hz such as gain@1k")
+            })?;
+            signaltest::validate_frequency(f)
+                .map_err(|e| format!("line 1: header: column '{h}': {e}"))?;
+            gains.push((k, f));
+        }
+    }
+    if gains.len() > MAX_TONES {
+        return Err(format!(
+            "line 1: header: {} gain@F columns; at most {MAX_TONES}",
+            gains.len()
+        ));
     }
     let mut out = Vec::new();
     for rec in rdr.records() {
@@ -96,7 +118,22 @@ pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
                 ve: value(3, "ve")?,
                 vc: value(4, "vc")?,
             };
-            Ok((serial.clone(), r))
+            let mut tones = Vec::new();
+            for (k, f) in &gains {
+                let t = rec.get(*k).unwrap_or("");
+                if t.is_empty() {
+                    continue;
+                }
+                let name = header.get(*k).unwrap_or("gain");
+                let g: f64 = t.parse().map_err(|_| {
+                    format!("column {name}: '{t}': not a plain number; allowed: a gain magnitude such as 14.2")
+                })?;
+                let reading = ToneReading { f: *f, gain: g };
+                signaltest::validate_reading(&reading)
+                    .map_err(|e| format!("column {name}: '{t}': {e}"))?;
+                tones.push(reading);
+            }
+            Ok((serial.clone(), r, tones))
         })();
         out.push((line, row));
     }
@@ -122,7 +159,7 @@ impl Cmd {
         let mut boards: Vec<Value> = Vec::new();
         let mut errors: Vec<Value> = Vec::new();
         for (line, row) in rows {
-            let (serial, r) = match row {
+            let (serial, r, tones) = match row {
                 Ok(x) => x,
                 Err(msg) => {
                     bad += 1;
@@ -131,7 +168,7 @@ impl Cmd {
                     continue;
                 }
             };
-            let o = evaluate(&st, &r)?;
+            let o = evaluate(&st, &r, &tones)?;
             if let Some(path) = &self.log {
                 boardlog::append(path, &log_record(&st, Some(&serial), &r, &o))?;
             }
@@ -212,13 +249,39 @@ mod tests {
         assert_eq!(rows.len(), 4);
         let (line, ok) = &rows[0];
         assert_eq!(*line, 2);
-        let (serial, r) = ok.as_ref().unwrap();
+        let (serial, r, tones) = ok.as_ref().unwrap();
         assert_eq!(serial, "A1");
+        assert!(tones.is_empty());
         assert_eq!((r.vcc, r.vb, r.ve, r.vc), (15.0, 2.55, 1.9, 8.0));
         assert_eq!(rows[1].0, 3);
         assert!(rows[1].1.as_ref().unwrap_err().contains("column vb: 'abc'"));
         assert_eq!(rows[2].1.as_ref().unwrap().1.ve, -0.0012);
         assert!(rows[3].1.as_ref().unwrap_err().contains("serial"));
         assert!(parse("serial,vb,ve,vc\n").unwrap_err().contains("'vcc'"));
+    }
+
+    #[test]
+    fn gain_columns_by_frequency() {
+        let text = "serial,vcc,vb,ve,vc,gain@1k,Gain@20Hz\n\
+                    A1,12,2.05,1.39,5.74,13.7,13.5\n\
+                    A2,12,2.05,1.39,5.74,,3.2\n\
+                    A3,12,2.05,1.39,5.74,x,1\n";
+        let rows = parse(text).unwrap();
+        let (_, _, t) = rows[0].1.as_ref().unwrap();
+        assert_eq!(t.len(), 2);
+        assert_eq!(
+            (t[0].f, t[0].gain, t[1].f, t[1].gain),
+            (1000.0, 13.7, 20.0, 13.5)
+        );
+        let (_, _, t) = rows[1].1.as_ref().unwrap();
+        assert_eq!((t.len(), t[0].f), (1, 20.0));
+        assert!(rows[2]
+            .1
+            .as_ref()
+            .unwrap_err()
+            .contains("column gain@1k: 'x'"));
+        assert!(parse("serial,vcc,vb,ve,vc,gain@9M\n")
+            .unwrap_err()
+            .contains("gain@9M"));
     }
 }

@@ -15,6 +15,7 @@ use biasjig_core::explain::{listing, FaultWords, Listed};
 use biasjig_core::judge::{self, JudgeError, Judgement, Windows};
 use biasjig_core::limits::Window;
 use biasjig_core::settings::{Digest, TestSettings};
+use biasjig_core::signaltest::{self, ToneReading};
 use biasjig_core::stage::{Readings, Stage};
 use serde_json::{json, Value};
 
@@ -44,6 +45,10 @@ pub struct Cmd {
     /// Measured collector voltage, V
     #[arg(long, value_parser = values::signed_volts, allow_hyphen_values = true, help_heading = "Readings")]
     vc: f64,
+    /// Signal test: the gain magnitude G = |v(load)/v(source EMF)| read at F Hz, as F:G
+    /// (repeatable, at most 4; e.g. --ac 1k:14.2 --ac 20:9.8)
+    #[arg(long = "ac", value_name = "F:G", value_parser = tone_reading, help_heading = "Readings")]
+    ac: Vec<ToneReading>,
     /// Board serial number, for the log
     #[arg(long, help_heading = "Readings")]
     serial: Option<String>,
@@ -54,6 +59,24 @@ pub struct Cmd {
     test: TestArgs,
     #[command(flatten)]
     inputs: InputArgs,
+}
+
+/// Parse one `--ac F:G`: F in Hz (value grammar), G the gain magnitude (plain number).
+pub fn tone_reading(text: &str) -> Result<ToneReading, String> {
+    let allowed = "allowed: F:G with F a frequency of 0.1 Hz to 100 kHz (e.g. 1k or 20) and G a \
+                   gain magnitude of 0 to 100000 (e.g. 14.2)";
+    let (f, g) = text
+        .split_once(':')
+        .ok_or_else(|| format!("{text:?}: {allowed}"))?;
+    let f = values::value(f.trim().trim_end_matches("Hz"))
+        .map_err(|e| format!("{text:?}: frequency: {e}; {allowed}"))?;
+    let g: f64 = g
+        .trim()
+        .parse()
+        .map_err(|_| format!("{text:?}: gain {g:?} is not a plain number; {allowed}"))?;
+    let r = ToneReading { f, gain: g };
+    signaltest::validate_reading(&r).map_err(|e| format!("{text:?}: {e}; {allowed}"))?;
+    Ok(r)
 }
 
 /// A design ready for the station: stage, profile, test settings, identity.
@@ -191,9 +214,10 @@ impl Outcome {
     }
 }
 
-/// Check one board through the one judging path (and diagnose it when it fails).
-pub fn evaluate(st: &Station, r: &Readings) -> Result<Outcome, CliError> {
-    match judge::judge(&st.stage, &st.profile, &st.settings, r) {
+/// Check one board through the one judging path (and diagnose it when it fails), with its gain
+/// readings `tones` (the signal test; none for a DC test).
+pub fn evaluate(st: &Station, r: &Readings, tones: &[ToneReading]) -> Result<Outcome, CliError> {
+    match judge::judge_with_signal(&st.stage, &st.profile, &st.settings, r, tones) {
         Ok(j) => Ok(Outcome::Judged(Box::new(j))),
         Err(e @ (JudgeError::Supply { .. } | JudgeError::Implausible(_))) => {
             Ok(Outcome::Refused(e))
@@ -273,6 +297,9 @@ pub fn outcome_json(o: &Outcome, measured_vcc: f64) -> Value {
             if let (Some(d), Some(obj)) = (d, doc.as_object_mut()) {
                 obj.insert("explained".to_string(), json!(d.explained));
             }
+            if let (false, Some(obj)) = (j.tones.is_empty(), doc.as_object_mut()) {
+                obj.insert("ac".to_string(), ac_json(j));
+            }
             doc
         }
     }
@@ -286,6 +313,61 @@ fn override_value(flag: &str, v: f64) -> Value {
         "--pnp" => json!(true),
         _ => json::num(v),
     }
+}
+
+/// The test frequency whose gain reading tells `h` and its equivalents apart, if any (only
+/// when a capacitor is among them: the gain is what a capacitor changes).
+pub fn separating_tone(st: &Station, vcc: f64, d: &Diagnosis, h: &Hypothesis) -> Option<f64> {
+    let mut group: Vec<Hypothesis> = vec![*h];
+    group.extend(d.equivalents(h).filter(|e| e.suspect.is_fault()).copied());
+    if group.len() < 2
+        || !group
+            .iter()
+            .any(|g| matches!(g.suspect, biasjig_core::diagnose::Suspect::Capacitor(..)))
+    {
+        return None;
+    }
+    biasjig_core::diagnose::separating_tone(
+        &st.stage,
+        &st.profile,
+        vcc,
+        &st.settings.signal,
+        &judge::variation(&st.settings),
+        &group,
+    )
+}
+
+/// Add `"separating_f"` (Hz, or null) to each listed fault with equivalents.
+fn add_separation(st: &Station, vcc: f64, o: &Outcome, doc: &mut Value) {
+    let Outcome::Judged(j) = o else { return };
+    let Some(d) = &j.diagnosis else { return };
+    let Some(faults) = doc.get_mut("faults").and_then(|f| f.as_array_mut()) else {
+        return;
+    };
+    for (h, f) in listed(d).into_iter().zip(faults.iter_mut()) {
+        if d.equivalents(h).any(|e| e.suspect.is_fault()) {
+            if let Some(obj) = f.as_object_mut() {
+                obj.insert(
+                    "separating_f".into(),
+                    json::opt(separating_tone(st, vcc, d, h)),
+                );
+            }
+        }
+    }
+}
+
+/// The judged gain readings: `[{"f","measured","low","high","ok"}]` in the order given.
+pub fn ac_json(j: &Judgement) -> Value {
+    Value::Array(
+        j.tones
+            .iter()
+            .map(|t| {
+                json!({"f": json::num(t.reading.f), "measured": json::num(t.reading.gain),
+                       "low": json::num(t.window.low), "high": json::num(t.window.high),
+                       "ok": t.ok})
+            })
+            .collect(),
+    )
 }
 
 /// The overrides in force as JSON: flag -> value as given.
@@ -322,6 +404,20 @@ pub fn log_record(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome)
             "readings".into(),
             json!({"vcc": json::num(r.vcc), "vb": json::num(r.vb), "ve": json::num(r.ve), "vc": json::num(r.vc)}),
         );
+        if let Outcome::Judged(j) = o {
+            if !j.tones.is_empty() {
+                let ac: Vec<Value> = j
+                    .tones
+                    .iter()
+                    .map(
+                        |t| json!({"f": json::num(t.reading.f), "gain": json::num(t.reading.gain)}),
+                    )
+                    .collect();
+                if let Some(rd) = obj.get_mut("readings").and_then(|v| v.as_object_mut()) {
+                    rd.insert("ac".into(), Value::Array(ac));
+                }
+            }
+        }
     }
     doc
 }
@@ -422,6 +518,16 @@ pub fn outcome_text(
                     if n.ok { "" } else { "   OUT" }
                 ));
             }
+            for t in &j.tones {
+                out.push_str(&format!(
+                    "  gain at {}: {:.3}   window {:.3} .. {:.3}{}\n",
+                    text::eng4(t.reading.f, "Hz"),
+                    t.reading.gain,
+                    t.window.low,
+                    t.window.high,
+                    if t.ok { "" } else { "   OUT" }
+                ));
+            }
             let dv = &v.derived;
             let beta = dv
                 .beta
@@ -435,7 +541,10 @@ pub fn outcome_text(
                 dv.region.name()
             ));
             if let Some(d) = &j.diagnosis {
-                let items: Vec<Listed> = listed(d).into_iter().map(|h| Listed::of(d, h)).collect();
+                let items: Vec<Listed> = listed(d)
+                    .into_iter()
+                    .map(|h| Listed::of(d, h).with_tone(separating_tone(st, r.vcc, d, h)))
+                    .collect();
                 listing(&st.stage, d.explained, &items, &mut |a| {
                     let l = a.to_string();
                     let indent = if l.starts_with("Likely") || l.starts_with("No single") {
@@ -484,7 +593,7 @@ impl Cmd {
             ve: self.ve,
             vc: self.vc,
         };
-        let o = evaluate(&st, &r)?;
+        let o = evaluate(&st, &r, &self.ac)?;
         if let Some(path) = &self.log {
             boardlog::append(path, &log_record(&st, self.serial.as_deref(), &r, &o))?;
         }
@@ -506,6 +615,7 @@ impl Cmd {
                 if g.json {
                     let mut doc = outcome_json(&o, r.vcc);
                     add_provenance(&st, &mut doc);
+                    add_separation(&st, r.vcc, &o, &mut doc);
                     json::print(&doc);
                 } else {
                     let supply_judged = self.stage.design.is_some() || self.vcc_nominal.is_some();

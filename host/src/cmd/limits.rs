@@ -6,8 +6,9 @@
 
 use std::fmt::Write as _;
 
-use biasjig_core::judge::Windows;
+use biasjig_core::judge::{self, Windows};
 use biasjig_core::settings::{InputMode, TestSettings};
+use biasjig_core::signaltest::{self, Proposal, ToneWindow, MAX_TONES};
 use biasjig_core::spread::{centre, Node, Sample, Variation};
 use serde_json::{json, Map, Value};
 
@@ -36,6 +37,10 @@ pub struct Cmd {
     /// Supply the windows hold for (as measured on the board), V [default: the stage's --vcc]
     #[arg(long = "at-vcc", value_name = "V", value_parser = values::volts, help_heading = "Meter")]
     at_vcc: Option<f64>,
+    /// Signal test: a test frequency, Hz (repeatable, at most 4); adds the gain window at each.
+    /// Without it, two frequencies are proposed (when the stage has RL and capacitors)
+    #[arg(long = "ac-f", value_name = "F", value_parser = values::value, help_heading = "Signal test")]
+    ac_f: Vec<f64>,
 }
 
 impl Cmd {
@@ -82,6 +87,31 @@ impl Cmd {
             &Variation::at(0.5 * (t.temp_min_c + t.temp_max_c)).read_through(t.inputs),
         )
         .map_err(spread_error)?;
+        // The signal test: the windows at the given frequencies, or two proposed ones.
+        let tones = if self.ac_f.is_empty() {
+            None
+        } else {
+            if self.ac_f.len() > MAX_TONES {
+                return Err(CliError::field(
+                    "--ac-f",
+                    self.ac_f.len(),
+                    format!("at most {MAX_TONES} test frequencies"),
+                ));
+            }
+            for f in &self.ac_f {
+                signaltest::validate_frequency(*f).map_err(|e| CliError::field("--ac-f", f, e))?;
+            }
+            Some(
+                judge::tone_windows(&r.stage, &r.profile, t, vcc, &self.ac_f)
+                    .map_err(|e| CliError::usage(format!("--ac-f: {e}")))?,
+            )
+        };
+        let proposal = match (&tones, r.stage.rl) {
+            (None, Some(_)) => {
+                signaltest::propose(&r.stage, &r.profile, &judge::variation(t), &t.signal).ok()
+            }
+            _ => None,
+        };
         if g.json {
             let mut doc = to_json(&w, t);
             if let Some(obj) = doc.as_object_mut() {
@@ -91,13 +121,93 @@ impl Cmd {
                     "warnings".into(),
                     json!(warnings.iter().map(|w| w.code.as_str()).collect::<Vec<_>>()),
                 );
+                if let Some(tw) = &tones {
+                    obj.insert("ac".into(), ac_windows_json(tw));
+                }
+                if let Some(p) = &proposal {
+                    obj.insert("ac_proposed".into(), proposal_json(p));
+                }
             }
             json::print(&doc);
         } else {
-            out!("{}", report(&w, t, &nominal, &r.stage));
+            let mut s = report(&w, t, &nominal, &r.stage);
+            if let Some(tw) = &tones {
+                s.push_str(&ac_windows_text(tw, t));
+            }
+            if let Some(p) = &proposal {
+                s.push_str(&proposal_text(p));
+            }
+            out!("{}", s);
         }
         Ok(EXIT_OK)
     }
+}
+
+/// The signal test's windows: `[{"f","low","high","nominal","min","max"}]` (min and max: the
+/// worst case before the guard band).
+pub fn ac_windows_json(tw: &[ToneWindow]) -> Value {
+    Value::Array(
+        tw.iter()
+            .map(|w| {
+                json!({"f": json::num(w.f), "low": json::num(w.low), "high": json::num(w.high),
+                       "nominal": json::num(w.nominal), "min": json::num(w.min),
+                       "max": json::num(w.max)})
+            })
+            .collect(),
+    )
+}
+
+fn ac_windows_text(tw: &[ToneWindow], t: &TestSettings) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "Signal test: |v(load)/v(source)| windows (signal meter {:.1} % of the reading + {})",
+        100.0 * t.signal.gain_error,
+        t.signal.floor
+    );
+    for w in tw {
+        let _ = writeln!(
+            s,
+            "  {:>9} {:>11.3} {:>11.3} {:>11.3}",
+            eng4(w.f, "Hz"),
+            w.low,
+            w.nominal,
+            w.high
+        );
+    }
+    s
+}
+
+/// The proposed test frequencies and why.
+pub fn proposal_json(p: &Proposal) -> Value {
+    json!([
+        {"f": json::num(p.midband), "use": "midband",
+         "why": format!("the nominal gain is within 1 % of the midband gain {:.2} here: a reading checks the gain itself, the resistors and the transistor, and any open capacitor", p.midband_gain)},
+        {"f": json::num(p.poles), "use": "poles",
+         "why": format!("a capacitor at a tenth of its value is told apart best here from a good board and from the other capacitors at a tenth of theirs (nearest pair {:.2} good-window widths apart); the low corner is {:.3} Hz", p.separation, p.f_low)},
+    ])
+}
+
+fn proposal_text(p: &Proposal) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "Signal test: no --ac-f given; proposed test frequencies (give them with --ac-f):"
+    );
+    let _ = writeln!(
+        s,
+        "  {:>9}  midband: the gain is within 1 % of its midband value {:.2}; checks the gain and any open capacitor",
+        eng4(p.midband, "Hz"),
+        p.midband_gain
+    );
+    let _ = writeln!(
+        s,
+        "  {:>9}  where a capacitor at a tenth of its value is told apart best (nearest pair {:.2} window widths apart; low corner {})",
+        eng4(p.poles, "Hz"),
+        p.separation,
+        eng4(p.f_low, "Hz")
+    );
+    s
 }
 
 /// `{NODE: {"low","high"}}` for vb, ve, vc, vce, vbe, ic, plus the supply the windows hold for,

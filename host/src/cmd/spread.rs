@@ -94,6 +94,11 @@ pub struct Cmd {
     /// Write SVG plots (histograms with limits, load lines with the Q-point cloud, sensitivity) here
     #[arg(long, value_name = "DIR", help_heading = "Spread")]
     plot: Option<PathBuf>,
+    /// Signal test: the spread of the gain magnitude at this test frequency, Hz (repeatable, at
+    /// most 4): worst case over the resistor and capacitor corners and a Monte Carlo (capacitors
+    /// within --cap-tol, uniform)
+    #[arg(long = "ac-f", value_name = "F", value_parser = values::value, help_heading = "Signal test")]
+    ac_f: Vec<f64>,
 }
 
 /// A progress bar on a terminal for runs longer than about a second.
@@ -295,6 +300,7 @@ impl Cmd {
                 &req_lines(&req, &sp),
             )?;
         }
+        let ac = self.ac_spread(&r, &var)?;
         if g.json {
             let mut doc = to_json(&sp, &nominal, &var, &settings, &req);
             if let Some(l) = low {
@@ -303,17 +309,77 @@ impl Cmd {
                     "held": l.worst <= l.required,
                 });
             }
+            if let (Some(ac), Some(obj)) = (&ac, doc.as_object_mut()) {
+                obj.insert("ac".into(), ac.0.clone());
+            }
             json::print(&doc);
         } else {
             out!(
                 "{}",
                 report(&sp, &nominal, &var, &settings, &req, r.temp_c, low)
             );
+            if let Some(ac) = &ac {
+                out!("{}", ac.1);
+            }
             for p in &written {
                 outln!("wrote {}", p.display());
             }
         }
         Ok(EXIT_OK)
+    }
+}
+
+impl Cmd {
+    /// The gain's spread at the `--ac-f` frequencies at the nominal supply: JSON
+    /// `[{"f","nominal","worst_case": {"min","max"},"monte_carlo": {"runs","mean","std","min","max"}}]`
+    /// and the text lines; `None` without `--ac-f`.
+    fn ac_spread(
+        &self,
+        r: &crate::stage_args::Resolved,
+        var: &Variation,
+    ) -> Result<Option<(Value, String)>, CliError> {
+        use biasjig_core::signaltest;
+        if self.ac_f.is_empty() {
+            return Ok(None);
+        }
+        let bad = |e: signaltest::SignalTestError| CliError::usage(format!("--ac-f: {e}"));
+        let vcc = r.stage.vcc.value;
+        let wc = signaltest::windows(
+            &r.stage,
+            &r.profile,
+            var,
+            &signaltest::SignalMeter {
+                gain_error: 0.0,
+                floor: 0.0,
+            },
+            vcc,
+            &self.ac_f,
+        )
+        .map_err(bad)?;
+        let (mc, used) = signaltest::monte_carlo(
+            &r.stage, &r.profile, var, vcc, &self.ac_f, self.runs, self.seed,
+        )
+        .map_err(bad)?;
+        let mut text = String::from("Gain |v(load)/v(source)| at the test frequencies:\n");
+        let mut list = Vec::new();
+        for (w, m) in wc.iter().zip(mc.iter()) {
+            list.push(json!({
+                "f": json::num(w.f), "nominal": json::num(w.nominal),
+                "worst_case": {"min": json::num(w.min), "max": json::num(w.max)},
+                "monte_carlo": {"runs": used, "mean": json::num(m.mean), "std": json::num(m.std),
+                                "min": json::num(m.min), "max": json::num(m.max)},
+            }));
+            text.push_str(&format!(
+                "  {:>9}  nominal {:.3}   worst {:.3} to {:.3}   Monte Carlo mean {:.3}, std {:.3} ({used} runs)\n",
+                crate::text::eng4(w.f, "Hz"),
+                w.nominal,
+                w.min,
+                w.max,
+                m.mean,
+                m.std
+            ));
+        }
+        Ok(Some((Value::Array(list), text)))
     }
 }
 

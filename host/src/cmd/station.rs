@@ -524,6 +524,7 @@ pub fn record(
     let mut derived = Map::new();
     let mut readings = Map::new();
     let mut explained = None;
+    let mut ac = Vec::new();
     for l in &reply.data {
         let kv: Map<String, Value> = l
             .split(' ')
@@ -551,6 +552,11 @@ pub fn record(
                 json!({"part": part, "mode": get("mode"), "score": num(get("score")),
                        "estimate": num(get("estimate")), "equivalent": equivalent}),
             );
+        } else if l.starts_with("ac ") {
+            // The signal test's gain readings and windows (as `check --json`'s "ac").
+            ac.push(json!({"f": num(get("f")), "measured": num(get("measured")),
+                       "low": num(get("low")), "high": num(get("high")),
+                       "ok": get("ok") == Some("1")}));
         } else if l.starts_with("derived ") {
             for k in ["ic", "ib", "ie", "vbe", "vce", "beta"] {
                 derived.insert(k.into(), num(get(k)));
@@ -580,6 +586,9 @@ pub fn record(
     });
     if let (Some(e), Some(obj)) = (explained, doc.as_object_mut()) {
         obj.insert("explained".into(), json!(e));
+    }
+    if let (false, Some(obj)) = (ac.is_empty(), doc.as_object_mut()) {
+        obj.insert("ac".into(), Value::Array(ac));
     }
     doc
 }
@@ -660,6 +669,7 @@ pub fn listed_faults(reply: &Reply) -> Vec<Listed> {
             estimate: get("estimate").and_then(|e| e.parse().ok()),
             score: get("score").and_then(|e| e.parse().ok()).unwrap_or(0.0),
             same,
+            tone: None,
         });
     }
     v
@@ -1148,6 +1158,31 @@ mod tests {
     }
 
     #[test]
+    fn gain_lines_go_into_the_record_as_check_gives_them() {
+        let reply = crate::link::Reply {
+            data: vec![
+                "vcc=12 vb=2.05 ve=1.39 vc=5.74 source=measured".into(),
+                "verdict=fail explained=1".into(),
+                "ac f=30 measured=2.68 low=13.25 high=16.61 ok=0".into(),
+                "ac f=1 measured=2.44 low=3.15 high=5.03 ok=0".into(),
+                "fault=CE mode=open score=1 estimate=none equivalent=none".into(),
+            ],
+            status: "ok".into(),
+        };
+        let r = record("S1", "d", 7, &reply, "t", false);
+        assert_eq!(r["ac"][0]["f"], 30.0);
+        assert_eq!(r["ac"][1]["measured"], 2.44);
+        assert_eq!(r["ac"][1]["ok"], false);
+        assert_eq!(r["faults"][0]["part"], "CE");
+        // Without gain lines there is no "ac" key (as check without --ac).
+        let dc = crate::link::Reply {
+            data: vec!["verdict=pass".into()],
+            status: "ok".into(),
+        };
+        assert!(record("S2", "d", 7, &dc, "t", false).get("ac").is_none());
+    }
+
+    #[test]
     fn pushed_design_hash_matches_the_design_file_hash() {
         let stage = pushed();
         let profile = default_profile();
@@ -1229,6 +1264,7 @@ mod tests {
                 r: Some(1e6),
                 mode: InputMode::Together,
             },
+            signal: biasjig_core::signaltest::SignalMeter::DEFAULT,
         };
         let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
         let mut link = Link::new(host.clone());

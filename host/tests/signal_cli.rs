@@ -1,0 +1,292 @@
+//! The signal test on the command line: `check --ac`, `limits --ac-f` and the proposed test
+//! frequencies. Readings come from the engine (DC operating point and complex response) for an
+//! invented stage (12 V, 47k/10k divider, 4k7 collector, 220 + 820 emitter, 15k load, 600 Ω source,
+//! 10 µ/10 µ/470 µ).
+
+use std::process::{Command, Output};
+
+use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::response::{magnitude_at, CapState, Caps};
+use biasjig_core::solve::{solve, Conditions, NodeLoads};
+use biasjig_core::stage::{Capacitor, Part, Polarity, Stage};
+use serde_json::Value;
+
+const STAGE: [&str; 28] = [
+    "--vcc",
+    "12",
+    "--r1",
+    "47k",
+    "--r2",
+    "10k",
+    "--rc",
+    "4k7",
+    "--re1",
+    "220",
+    "--re2",
+    "820",
+    "--rl",
+    "15k",
+    "--rs",
+    "600",
+    "--cin",
+    "10u",
+    "--cout",
+    "10u",
+    "--ce",
+    "470u",
+    "--beta-min",
+    "100",
+    "--beta",
+    "200",
+    "--beta-max",
+    "300",
+];
+
+fn stage() -> (Stage, Profile) {
+    let c = |v| Some(Part::new(v, 0.2));
+    let s = Stage {
+        polarity: Polarity::Npn,
+        vcc: Part::new(12.0, 0.05),
+        r1: Part::new(47e3, 0.05),
+        r2: Part::new(10e3, 0.05),
+        rc: Part::new(4.7e3, 0.05),
+        re1: Part::new(220.0, 0.05),
+        re2: Part::new(820.0, 0.05),
+        rl: Some(15e3),
+        rs: 600.0,
+        cin: c(10e-6),
+        cout: c(10e-6),
+        ce: c(470e-6),
+    };
+    let p = Profile {
+        beta_min: 100.0,
+        beta_typ: 200.0,
+        beta_max: 300.0,
+        is_25: is_from_vbe(0.65),
+        ..Profile::default()
+    };
+    (s, p)
+}
+
+/// DC readings and the gains at `freqs` of the nominal board with hFE 180 and one capacitor in
+/// the state given (`None`: as designed).
+fn board(cap: Option<(Capacitor, CapState)>, freqs: &[f64]) -> ([f64; 4], Vec<f64>) {
+    let (s, p) = stage();
+    let op = solve(
+        &s,
+        &p,
+        Conditions {
+            beta_25: 180.0,
+            ..Conditions::typical(&p)
+        },
+    )
+    .unwrap();
+    let mut caps = Caps::nominal(&s);
+    if let Some((c, st)) = cap {
+        caps = caps.with(c, st);
+    }
+    let gains = freqs
+        .iter()
+        .map(|f| magnitude_at(&s, &op, &caps, *f))
+        .collect();
+    ([op.vcc, op.vb, op.ve, op.vc], gains)
+}
+
+fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_biasjig"))
+}
+
+fn check(r: [f64; 4], ac: &[(f64, f64)], extra: &[&str]) -> Output {
+    let mut c = bin();
+    c.arg("check").args(STAGE.iter().skip(2)).args([
+        "--vcc".to_string(),
+        r[0].to_string(),
+        "--vb".into(),
+        r[1].to_string(),
+        "--ve".into(),
+        r[2].to_string(),
+        "--vc".into(),
+        r[3].to_string(),
+    ]);
+    for (f, g) in ac {
+        c.arg("--ac").arg(format!("{f}:{g}"));
+    }
+    c.args(extra).output().unwrap()
+}
+
+fn json(out: &Output) -> Value {
+    serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
+        panic!(
+            "not JSON ({e}): {} {}",
+            String::from_utf8_lossy(&out.stdout),
+            String::from_utf8_lossy(&out.stderr)
+        )
+    })
+}
+
+const TONES: [f64; 2] = [1000.0, 5.0];
+
+#[test]
+fn a_good_board_passes_its_gain_windows() {
+    let (r, g) = board(None, &TONES);
+    let out = check(r, &[(TONES[0], g[0]), (TONES[1], g[1])], &["--json"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json(&out);
+    assert_eq!(j["verdict"], "pass");
+    let ac = j["ac"].as_array().unwrap();
+    assert_eq!(ac.len(), 2);
+    for (k, a) in ac.iter().enumerate() {
+        assert_eq!(a["f"].as_f64(), Some(TONES[k]));
+        assert_eq!(a["measured"].as_f64(), Some(g[k]));
+        assert!(a["low"].as_f64().unwrap() < g[k] && g[k] < a["high"].as_f64().unwrap());
+        assert_eq!(a["ok"], true);
+    }
+    // Without --ac there is no "ac" key and the DC verdict stands alone.
+    let j = json(&check(r, &[], &["--json"]));
+    assert!(j.get("ac").is_none());
+}
+
+#[test]
+fn capacitor_faults_are_named_from_dc_and_gain_readings() {
+    let cases = [
+        ((Capacitor::Ce, CapState::Open), "CE", "open"),
+        ((Capacitor::Cin, CapState::Open), "CIN", "open"),
+        ((Capacitor::Ce, CapState::Fitted(47e-6)), "CE", "low"),
+    ];
+    for (cap, part, mode) in cases {
+        let (r, g) = board(Some(cap), &TONES);
+        let out = check(r, &[(TONES[0], g[0]), (TONES[1], g[1])], &["--json"]);
+        assert_eq!(out.status.code(), Some(1), "{part} {mode}");
+        let j = json(&out);
+        assert_eq!(j["verdict"], "fail");
+        assert!(j["ac"].as_array().unwrap().iter().any(|a| a["ok"] == false));
+        let first = &j["faults"][0];
+        let named = (first["part"] == part && first["mode"] == mode)
+            || first["equivalent"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|e| e["part"] == part && e["mode"] == mode);
+        assert!(named, "{part} {mode}: {}", j["faults"]);
+        if mode == "low" {
+            // The estimate is the capacitor's value in F, near the 47 µF fitted (with two tones
+            // a low CIN, COUT or CE can be alike: CE's own entry carries its estimate).
+            let ce = j["faults"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .find(|f| f["part"] == "CE" && f["mode"] == "low")
+                .unwrap();
+            let est = ce["estimate"].as_f64().unwrap();
+            assert!(
+                (est / 47e-6 - 1.0).abs() < 0.35,
+                "estimate {est}: {}",
+                j["faults"]
+            );
+        }
+    }
+    // A shorted CIN shows at DC (RS from the base to ground while the nodes are read): the DC
+    // readings alone fail and name it.
+    let (s, p) = stage();
+    let op = solve(
+        &s,
+        &p,
+        Conditions {
+            beta_25: 180.0,
+            loads: NodeLoads {
+                base: Some(600.0),
+                ..NodeLoads::NONE
+            },
+            ..Conditions::typical(&p)
+        },
+    )
+    .unwrap();
+    let out = check([op.vcc, op.vb, op.ve, op.vc], &[], &["--json"]);
+    assert_eq!(out.status.code(), Some(1));
+    let j = json(&out);
+    let first = &j["faults"][0];
+    let named = (first["part"] == "CIN" && first["mode"] == "short")
+        || first["equivalent"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|e| e["part"] == "CIN" && e["mode"] == "short");
+    assert!(named, "CIN short: {}", j["faults"]);
+}
+
+#[test]
+fn limits_publish_the_windows_check_applies_and_propose_tones() {
+    let out = bin()
+        .arg("limits")
+        .args(STAGE)
+        .args(["--ac-f", "1k", "--ac-f", "5", "--json"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let l = json(&out);
+    let (r, g) = board(None, &TONES);
+    let c = json(&check(
+        r,
+        &[(TONES[0], g[0]), (TONES[1], g[1])],
+        &["--json"],
+    ));
+    for k in 0..2 {
+        let (a, b) = (&l["ac"][k], &c["ac"][k]);
+        assert_eq!(a["f"], b["f"]);
+        assert_eq!(a["low"], b["low"], "window at {}", a["f"]);
+        assert_eq!(a["high"], b["high"], "window at {}", a["f"]);
+        let (lo, nom, hi) = (
+            a["low"].as_f64().unwrap(),
+            a["nominal"].as_f64().unwrap(),
+            a["high"].as_f64().unwrap(),
+        );
+        assert!(lo < nom && nom < hi);
+    }
+    // Without --ac-f: two proposed frequencies, each with its reason.
+    let out = bin()
+        .arg("limits")
+        .args(STAGE)
+        .arg("--json")
+        .output()
+        .unwrap();
+    let p = json(&out);
+    let prop = p["ac_proposed"].as_array().unwrap();
+    assert_eq!(prop.len(), 2);
+    assert_eq!(prop[0]["use"], "midband");
+    assert_eq!(prop[1]["use"], "poles");
+    assert!(prop[1]["f"].as_f64().unwrap() < prop[0]["f"].as_f64().unwrap());
+    assert!(prop.iter().all(|x| !x["why"].as_str().unwrap().is_empty()));
+}
+
+#[test]
+fn bad_gain_readings_are_refused_naming_the_flag() {
+    let (r, _) = board(None, &[]);
+    for bad in ["1k", "1k:x", "1M:10", "1k:-3"] {
+        let mut c = bin();
+        c.arg("check")
+            .args(STAGE.iter().skip(2))
+            .args(["--vcc", &r[0].to_string(), "--vb", &r[1].to_string()])
+            .args(["--ve", &r[2].to_string(), "--vc", &r[3].to_string()])
+            .args(["--ac", bad]);
+        let out = c.output().unwrap();
+        assert_eq!(out.status.code(), Some(2), "{bad}");
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(
+            err.contains("--ac") && err.contains("allowed"),
+            "{bad}: {err}"
+        );
+    }
+    let out = bin()
+        .arg("limits")
+        .args(STAGE)
+        .args(["--ac-f", "0"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--ac-f"));
+}
