@@ -16,9 +16,10 @@ use biasjig_core::spread::Variation;
 use biasjig_core::stage::{Readings, Stage};
 use serde_json::{json, Value};
 
-use crate::boardlog;
+use crate::board::{from_outcome, Recorder, RunInfo};
 use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 use crate::stage_args::{Resolved, StageArgs};
+use crate::store::TraceArgs;
 use crate::{json, text, values, Global};
 
 /// How many fault hypotheses a result lists at most.
@@ -69,6 +70,8 @@ pub struct Cmd {
     log: Option<PathBuf>,
     #[command(flatten)]
     meter: MeterArgs,
+    #[command(flatten)]
+    trace: TraceArgs,
 }
 
 /// A design ready for the station: stage, profile, ambient range, identity.
@@ -219,21 +222,6 @@ pub fn outcome_json(o: &Outcome) -> Value {
     }
 }
 
-/// The log record of a checked board.
-pub fn log_record(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome) -> Value {
-    let mut doc = outcome_json(o);
-    if let Some(obj) = doc.as_object_mut() {
-        obj.insert("time".into(), json!(boardlog::now_utc()));
-        obj.insert("serial".into(), json!(serial));
-        obj.insert("design".into(), json!({"id": st.id, "hash": st.hash}));
-        obj.insert(
-            "readings".into(),
-            json!({"vcc": json::num(r.vcc), "vb": json::num(r.vb), "ve": json::num(r.ve), "vc": json::num(r.vc)}),
-        );
-    }
-    doc
-}
-
 const BIG_PASS: &str = "\
   ####    ###    ####   ####
   #   #  #   #  #      #
@@ -365,8 +353,13 @@ impl Cmd {
             vc: self.vc,
         };
         let o = evaluate(&st, &r)?;
-        if let Some(path) = &self.log {
-            boardlog::append(path, &log_record(&st, self.serial.as_deref(), &r, &o))?;
+        let mut rec = Recorder::open(self.log.as_deref(), &self.trace, false)?;
+        if !rec.is_empty() {
+            let serial = self.serial.as_deref().ok_or_else(|| {
+                CliError::usage("--serial: missing: a record names its board by serial number")
+            })?;
+            let run = RunInfo::new(&st, &self.trace, "check");
+            rec.write(&mut from_outcome(&st, &run, serial, &r, &o, None, None)?)?;
         }
         match &o {
             Outcome::Refused(why) => Err(CliError::usage(format!(

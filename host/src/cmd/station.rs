@@ -20,11 +20,13 @@ use biasjig_core::device::Profile;
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
+use crate::board::StationSink;
 use crate::boardlog;
 use crate::cmd::console::{link_error, local_console, sync_budget};
 use crate::designfile;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::link::{Link, LinkError, MemoryPort, Port, Reply, SerialLink};
+use crate::store::TraceArgs;
 use crate::Global;
 
 /// Tries per board before the station gives up.
@@ -51,6 +53,8 @@ pub struct Cmd {
     /// Seconds allowed to synchronise with the instrument
     #[arg(long = "sync-timeout", default_value_t = crate::link::SYNC_TIMEOUT.as_secs_f64(), value_name = "S")]
     pub sync_timeout: f64,
+    #[command(flatten)]
+    pub trace: TraceArgs,
 }
 
 /// The ambient of a design: nominal, lowest and highest, °C.
@@ -363,7 +367,7 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
     st: &mut Station<P, F>,
     mut input: impl BufRead,
     out: &mut impl Write,
-    log: &Path,
+    sink: &mut StationSink,
     manual: bool,
 ) -> Result<usize, CliError> {
     let mut boards = 0;
@@ -398,10 +402,7 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
             Err(BoardError::Link(e)) => return Err(link_error(e)),
         };
         let time = boardlog::now_utc();
-        boardlog::append(
-            log,
-            &record(&serial, st.design_id(), st.hash, &reply, &time),
-        )?;
+        sink.write_value(record(&serial, st.design_id(), st.hash, &reply, &time))?;
         write!(out, "{}", banner(&reply)).ok();
         boards += 1;
     }
@@ -444,7 +445,8 @@ impl Cmd {
             )
             .map_err(link_error)?;
             st.prepare().map_err(board_err)?;
-            run_loop(&mut st, stdin.lock(), &mut out, &self.log, true)?
+            let mut sink = StationSink::open(Some(&self.log), &self.trace)?;
+            run_loop(&mut st, stdin.lock(), &mut out, &mut sink, true)?
         } else {
             let path = self.port.clone().unwrap_or_default();
             let baud = self.baud;
@@ -458,7 +460,9 @@ impl Cmd {
             .map_err(link_error)?;
             let id = st.prepare().map_err(board_err)?;
             eprintln!("instrument: {id}; design {} pushed and verified", doc.id);
-            run_loop(&mut st, stdin.lock(), &mut out, &self.log, false)?
+            let mut sink = StationSink::open(Some(&self.log), &self.trace)?;
+            sink.firmware = Some(id.to_string());
+            run_loop(&mut st, stdin.lock(), &mut out, &mut sink, false)?
         };
         eprintln!("{boards} boards logged to {}", self.log.display());
         Ok(EXIT_OK)
@@ -640,7 +644,9 @@ mod tests {
         }
         let input = std::io::BufReader::with_capacity(1, Feed(board, 0, Vec::new(), 0));
         let mut screen = Vec::new();
-        let n = run_loop(&mut st, input, &mut screen, &log, false).unwrap();
+        let mut sink =
+            crate::board::StationSink::open(Some(&log), &TraceArgs::default()).unwrap();
+        let n = run_loop(&mut st, input, &mut screen, &mut sink, false).unwrap();
         assert_eq!(n, 12);
         assert!(st.resyncs >= 2, "resets happened: {}", st.resyncs);
         let c = boardlog::read(&log).unwrap();
