@@ -18,7 +18,7 @@ use thiserror::Error;
 
 use crate::error::CliError;
 
-pub use crate::clock::{iso_utc, now_utc};
+pub use crate::clock::now_utc;
 
 /// The longest log line read, bytes (a record is a few kilobytes).
 pub const MAX_LINE: usize = 1 << 20;
@@ -216,6 +216,7 @@ pub fn for_each(
 }
 
 /// The records of a log and warnings about the lines skipped.
+#[cfg(test)]
 #[derive(Debug, Default)]
 pub struct Contents {
     /// Complete records, in file order.
@@ -225,6 +226,7 @@ pub struct Contents {
 }
 
 /// Read a whole log into memory (small logs; see [`for_each`] for large ones).
+#[cfg(test)]
 pub fn read(path: &Path) -> Result<Contents, CliError> {
     let mut out = Contents::default();
     let mut warnings = Vec::new();

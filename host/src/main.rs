@@ -28,6 +28,7 @@ macro_rules! out {
     }};
 }
 
+mod analysis;
 mod board;
 mod boardlog;
 mod clock;

@@ -377,11 +377,6 @@ impl BoardRecord {
     pub fn time_ms(&self) -> i64 {
         clock::parse_ms(&self.time).unwrap_or(0)
     }
-
-    /// The first fault named, if the board failed.
-    pub fn first_fault(&self) -> Option<&Fault> {
-        self.faults.first()
-    }
 }
 
 /// What the technician found when repairing a board: the rework loop's record.

@@ -29,7 +29,7 @@ use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK, EXIT_USAGE};
 use crate::record::{hex_digest, Source};
 use crate::stage_args::StageArgs;
 use crate::store::TraceArgs;
-use crate::{json, Global};
+use crate::Global;
 
 /// The longest row (and header) accepted, bytes.
 pub const MAX_ROW: usize = 4096;
@@ -255,7 +255,8 @@ impl<R: BufRead> Iterator for Rows<R> {
     }
 }
 
-/// Parse a whole CSV text into rows with their line numbers (for tests and small inputs).
+/// Parse a whole CSV text into rows with their line numbers (for tests).
+#[cfg(test)]
 pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
     let rows = Rows::new(text.as_bytes())?;
     rows.map(|l| l.map(|l| (l.number, l.row)).map_err(|e| e.to_string()))

@@ -95,7 +95,7 @@ impl Cmd {
             json::print(&json!({
                 "records": c.read, "new": c.new, "already_there": already,
                 "refused": c.refused, "skipped_lines": c.skipped_lines,
-                "repairs_new": c.repairs_new,
+                "repairs_new": c.repairs_new, "schema_version": st.schema_version()?,
             }));
         } else {
             outln!(

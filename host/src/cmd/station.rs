@@ -12,7 +12,7 @@
 //! `time`, `serial`, `design` (`id`, `hash`) and `readings`.
 
 use std::io::{BufRead, Write};
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::time::Duration;
 
 use biasjig_core::console::record::design_hash;
