@@ -253,3 +253,43 @@ impl StationSink {
         Ok(r)
     }
 }
+
+/// Write the windows as CSV for other testers (test, low, high, unit, design hash, settings
+/// hash), whole or not at all (a temporary file, then a rename).
+pub fn write_limits_csv(
+    path: &Path,
+    lim: &biasjig_core::limits::Limits,
+    st: &Station,
+) -> Result<(), CliError> {
+    let bad = |e: String| CliError::usage(format!("--csv: {}: {e}", path.display()));
+    let settings = settings_hash(st);
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut rows = vec![[
+        "test".to_string(),
+        "low".into(),
+        "high".into(),
+        "unit".into(),
+        "design_hash".into(),
+        "settings_hash".into(),
+    ]];
+    for n in NODES {
+        if let Some(win) = lim.window(n) {
+            rows.push([
+                n.name().into(),
+                format!("{}", win.low),
+                format!("{}", win.high),
+                n.unit().into(),
+                st.hash.clone(),
+                settings.clone(),
+            ]);
+        }
+    }
+    for r in &rows {
+        w.write_record(r).map_err(|e| bad(e.to_string()))?;
+    }
+    let bytes = w.into_inner().map_err(|e| bad(e.to_string()))?;
+    let tmp = path.with_extension(format!("tmp{}", std::process::id()));
+    std::fs::write(&tmp, bytes)
+        .and_then(|()| std::fs::rename(&tmp, path))
+        .map_err(|e| bad(e.to_string()))
+}

@@ -640,3 +640,72 @@ fn batch_says_duplicate_serials_and_columns() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("column 'serial' appears 2 times"));
 }
+
+#[test]
+fn limits_csv_has_exactly_the_windows_and_hashes_check_records() {
+    let csv_path = temp("limits.csv");
+    let out = bin()
+        .arg("limits")
+        .args(DESIGN_A)
+        .arg("--csv")
+        .arg(&csv_path)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    let text = std::fs::read_to_string(&csv_path).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("test,low,high,unit,design_hash,settings_hash")
+    );
+    let b = board("C1", 3.9e3, 15.0, true, 0);
+    let log = temp("limits.jsonl");
+    let out = bin()
+        .arg("check")
+        .args(DESIGN_A)
+        .args(["--vb", &b.r[1].to_string(), "--ve", &b.r[2].to_string()])
+        .args(["--vc", &b.r[3].to_string(), "--serial", "C1", "--log"])
+        .arg(&log)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    let rec: Value = serde_json::from_str(&std::fs::read_to_string(&log).unwrap()).unwrap();
+    let mut n = 0;
+    for l in lines {
+        let f: Vec<&str> = l.split(',').collect();
+        let node = &rec["nodes"][f[0]];
+        // Bit for bit: the CSV's shortest decimal reads back as the very window applied.
+        assert_eq!(f[1].parse::<f64>().unwrap(), node["low"].as_f64().unwrap(), "{l}");
+        assert_eq!(f[2].parse::<f64>().unwrap(), node["high"].as_f64().unwrap(), "{l}");
+        assert_eq!(f[4], rec["design"]["hash"].as_str().unwrap());
+        assert_eq!(f[5], rec["settings_hash"].as_str().unwrap());
+        n += 1;
+    }
+    assert_eq!(n, 6);
+}
+
+#[test]
+fn the_html_report_names_the_design_dates_and_lot() {
+    let rows: Vec<Board> = (0..12)
+        .map(|k| board(&format!("H{k:02}"), 3.9e3, 15.0, k != 5, k))
+        .collect();
+    let p = temp("html.csv");
+    std::fs::write(&p, csv(&rows)).unwrap();
+    let url = format!("sqlite:{}", temp("html.db").display());
+    let out = run(batch_cmd(&DESIGN_A, &p, &url, "bench-h", "LOT-42"));
+    assert_eq!(out.status.code(), Some(1));
+    let html = temp("report.html");
+    let out = bin()
+        .args(["report", "--store", &url, "--html"])
+        .arg(&html)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    let page = std::fs::read_to_string(&html).unwrap();
+    let hash = hash_of("A");
+    let today = &serde_json::to_string(&report(&url, &[])["designs"][0]["first_test"])
+        .unwrap()[1..11];
+    for want in [hash.as_str(), "Design flags", "LOT-42", "H05", today, "Western Electric", "<svg"] {
+        assert!(page.contains(want), "{want} not in the page");
+    }
+}

@@ -36,6 +36,9 @@ pub struct Cmd {
     /// Supply the windows hold for (as measured on the board), V [default: the stage's --vcc]
     #[arg(long = "at-vcc", value_name = "V", value_parser = values::value, help_heading = "Meter")]
     at_vcc: Option<f64>,
+    /// Also write the windows as CSV for other testers: test, low, high, unit, design hash, settings hash
+    #[arg(long, value_name = "FILE")]
+    csv: Option<std::path::PathBuf>,
 }
 
 /// Explain a limits error naming the flag.
@@ -64,6 +67,20 @@ impl Cmd {
         let mut at = r.stage;
         at.vcc.value = vcc;
         let nominal = centre(&at, &r.profile, &Variation::at(r.temp_c)).map_err(spread_error)?;
+        if let Some(path) = &self.csv {
+            let st = crate::cmd::check::Station {
+                stage: r.stage,
+                profile: r.profile,
+                var,
+                meter,
+                id: String::new(),
+                hash: r.doc.as_ref().map_or_else(
+                    || crate::cmd::check::stage_hash(&r.stage, &r.profile),
+                    |d| d.hash.clone(),
+                ),
+            };
+            crate::board::write_limits_csv(path, &lim, &st)?;
+        }
         if g.json {
             json::print(&to_json(&lim, &meter, &var));
         } else {
