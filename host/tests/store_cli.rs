@@ -709,3 +709,64 @@ fn the_html_report_names_the_design_dates_and_lot() {
         assert!(page.contains(want), "{want} not in the page");
     }
 }
+
+#[test]
+fn the_manual_station_records_whole_tests_in_the_store() {
+    let design = temp("station.toml");
+    let out = bin()
+        .args(["design", "--vcc", "12", "--gain", "15", "--rl", "15k", "--rs", "600"])
+        .args(["--ic-max", "2m", "--f-low", "5", "--beta", "180", "--beta-min", "100"])
+        .args(["--beta-max", "300", "-o"])
+        .arg(&design)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    let out = bin()
+        .args(["analyze", "--json", "--design"])
+        .arg(&design)
+        .output()
+        .unwrap();
+    let dc: Value = serde_json::from_slice::<Value>(&out.stdout).unwrap()["dc"].clone();
+    let good = format!("12 {} {} {}", dc["vb"], dc["ve"], dc["vc"]);
+    let bad = format!("12 {} {} 0.2", dc["vb"], dc["ve"]);
+    let url = format!("sqlite:{}", temp("station.db").display());
+    let log = temp("station.jsonl");
+    let mut child = bin()
+        .args(["station", "--manual", "--design"])
+        .arg(&design)
+        .arg("--log")
+        .arg(&log)
+        .args(["--store", &url, "--station", "bench-m", "--lot", "LM", "--operator", "kim"])
+        .stdin(Stdio::piped())
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let input = format!("M1\n{good}\nM2\n{bad}\nM2\n{good}\n\n");
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(input.as_bytes())
+        .unwrap();
+    assert!(child.wait().unwrap().success());
+    let rep = report(&url, &[]);
+    let d = &rep["designs"][0];
+    assert_eq!(rep["refused_records"], 0);
+    let want = expect(&[("M1", true), ("M2", false), ("M2", true)]);
+    assert_group(d, &want, "station");
+    assert_group(&d["stations"]["bench-m"], &want, "station bench-m");
+    // The log holds the same records (the store and the log are one record type).
+    let out = bin()
+        .args(["report", "--json"])
+        .arg(&log)
+        .output()
+        .unwrap();
+    let from_log: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_group(&from_log["designs"][0], &want, "station log");
+    let first: Value =
+        serde_json::from_str(std::fs::read_to_string(&log).unwrap().lines().next().unwrap())
+            .unwrap();
+    assert_eq!(first["operator"], "kim");
+    assert_eq!(first["lot"], "LM");
+}
