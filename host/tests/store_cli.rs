@@ -770,3 +770,34 @@ fn the_manual_station_records_whole_tests_in_the_store() {
     assert_eq!(first["operator"], "kim");
     assert_eq!(first["lot"], "LM");
 }
+
+#[test]
+fn a_full_disk_under_the_sqlite_store_keeps_whole_tests_and_the_rerun_completes() {
+    let rows: Vec<Board> = (0..120)
+        .map(|k| board(&format!("G{k:03}"), 3.9e3, 15.0, k % 4 != 0, k))
+        .collect();
+    let p = temp("fulldb.csv");
+    std::fs::write(&p, csv(&rows)).unwrap();
+    let db = temp("full.db");
+    let url = format!("sqlite:{}", db.display());
+    // As above, a file size limit (256 KiB) stands in for a full disk under the store's files.
+    let cmd = format!(
+        "trap '' XFSZ; ulimit -f 256; exec '{}' batch {} '{}' --store '{url}' --station bench-f",
+        env!("CARGO_BIN_EXE_biasjig"),
+        DESIGN_A.join(" "),
+        p.display(),
+    );
+    let out = Command::new("bash").arg("-c").arg(&cmd).output().unwrap();
+    assert_eq!(out.status.code(), Some(2), "{out:?}");
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("were not tested"), "{err}");
+    let mid = report(&url, &[]);
+    let kept = mid["designs"][0]["tests"].as_u64().unwrap_or(0);
+    assert!((1..120).contains(&kept), "{kept}");
+    assert!(err.contains(&format!("line {}", kept + 2)), "{kept}: {err}");
+    let out = run(batch_cmd(&DESIGN_A, &p, &url, "bench-f", ""));
+    assert_eq!(out.status.code(), Some(1), "{}", String::from_utf8_lossy(&out.stderr));
+    let rep = report(&url, &[]);
+    let tests: Vec<(&str, bool)> = rows.iter().map(|b| (b.serial.as_str(), b.good)).collect();
+    assert_group(&rep["designs"][0], &expect(&tests), "after the full disk");
+}
