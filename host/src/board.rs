@@ -199,6 +199,15 @@ impl Recorder {
         Ok(())
     }
 
+    /// Batch mode: commits stop waiting for the disk (see [`Store::relax_sync`]); the log
+    /// syncs every [`boardlog::SYNC_EVERY`] records already.
+    pub fn relax_sync(&mut self) -> Result<(), RecordError> {
+        if let Some(s) = &mut self.store {
+            s.relax_sync()?;
+        }
+        Ok(())
+    }
+
     /// Sync the log to the disk.
     pub fn sync(&mut self) -> Result<(), RecordError> {
         if let Some(l) = &mut self.log {

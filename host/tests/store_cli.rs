@@ -764,11 +764,16 @@ fn the_manual_station_records_whole_tests_in_the_store() {
         .unwrap();
     let from_log: Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_group(&from_log["designs"][0], &want, "station log");
-    let first: Value =
-        serde_json::from_str(std::fs::read_to_string(&log).unwrap().lines().next().unwrap())
-            .unwrap();
-    assert_eq!(first["operator"], "kim");
-    assert_eq!(first["lot"], "LM");
+    let lines: Vec<Value> = std::fs::read_to_string(&log)
+        .unwrap()
+        .lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect();
+    assert_eq!(lines[0]["operator"], "kim");
+    assert_eq!(lines[0]["lot"], "LM");
+    // The store marks the second test of M2 as a retest, and the log carries the same flag.
+    let retest: Vec<bool> = lines.iter().map(|l| l["retest"].as_bool().unwrap()).collect();
+    assert_eq!(retest, [false, false, true]);
 }
 
 #[test]

@@ -114,6 +114,11 @@ pub trait Store {
     ) -> Result<(), StoreError>;
     /// Every repair, in time order.
     fn repairs(&mut self) -> Result<Vec<RepairRecord>, StoreError>;
+    /// For a batch: commits no longer wait for the disk (SQLite `synchronous = NORMAL` in its
+    /// write-ahead log, PostgreSQL `synchronous_commit = off`). Each test stays one
+    /// transaction and whole; a power cut (not a killed process) may lose the last tests
+    /// committed, which the batch run again records (it resumes by record id).
+    fn relax_sync(&mut self) -> Result<(), StoreError>;
     /// The schema version of the store.
     fn schema_version(&mut self) -> Result<i64, StoreError>;
 }

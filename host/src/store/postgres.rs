@@ -3,7 +3,7 @@
 //! once; migrations run under a transaction-scoped advisory lock, so stations starting at once
 //! apply each migration once.
 
-use ::postgres::{Client, NoTls, Transaction};
+use ::postgres::{Client, NoTls, Statement, Transaction};
 
 use super::columns::{repair, Row, COLUMNS, JSON_COLUMNS, REPAIR_COLUMNS};
 use super::{Filter, Store, StoreError, Written, IMPORT_CHUNK, SCHEMA_VERSION};
@@ -18,6 +18,8 @@ const MIGRATION_LOCK: i64 = 0x0062_6961_736a_6967;
 /// An open PostgreSQL store.
 pub struct Postgres {
     client: Client,
+    /// The insert, prepared once (one round trip per test).
+    insert: Statement,
 }
 
 impl Postgres {
@@ -25,7 +27,8 @@ impl Postgres {
     pub fn open(url: &str) -> Result<Self, StoreError> {
         let mut client = Client::connect(url, NoTls)?;
         migrate(&mut client)?;
-        Ok(Self { client })
+        let insert = client.prepare(&insert_sql())?;
+        Ok(Self { client, insert })
     }
 }
 
@@ -58,20 +61,24 @@ fn migrate(client: &mut Client) -> Result<(), StoreError> {
     Ok(())
 }
 
+/// The insert of one test: the retest flag is set in the same statement (an earlier test of the
+/// serial with the design), and a record id already there changes nothing (no row returned).
 fn insert_sql() -> String {
     let marks: Vec<String> = COLUMNS
         .iter()
         .enumerate()
-        .map(|(k, c)| {
-            if JSON_COLUMNS.contains(c) {
-                format!("CAST(${}::text AS jsonb)", k + 1)
-            } else {
-                format!("${}", k + 1)
-            }
+        .map(|(k, c)| match *c {
+            c if JSON_COLUMNS.contains(&c) => format!("CAST(${}::text AS jsonb)", k + 1),
+            "retest" => format!(
+                "(${} OR EXISTS (SELECT 1 FROM tests WHERE serial = $4 AND design_hash = $5 \
+                 AND record_id <> $1))",
+                k + 1
+            ),
+            _ => format!("${}", k + 1),
         })
         .collect();
     format!(
-        "INSERT INTO tests ({}) VALUES ({}) ON CONFLICT (record_id) DO NOTHING",
+        "INSERT INTO tests ({}) SELECT {} ON CONFLICT (record_id) DO NOTHING RETURNING retest",
         COLUMNS.join(", "),
         marks.join(", ")
     )
@@ -91,18 +98,14 @@ fn select_list() -> String {
         .join(", ")
 }
 
-fn insert_in(tx: &mut Transaction<'_>, rec: &mut BoardRecord) -> Result<bool, StoreError> {
-    let before: bool = tx
-        .query_one(
-            "SELECT EXISTS (SELECT 1 FROM tests WHERE serial = $1 AND design_hash = $2 \
-             AND record_id <> $3)",
-            &[&rec.serial, &rec.design.hash, &rec.record_id],
-        )?
-        .get(0);
-    rec.retest |= before;
+fn insert_in(
+    tx: &mut Transaction<'_>,
+    stmt: &Statement,
+    rec: &mut BoardRecord,
+) -> Result<bool, StoreError> {
     let r = Row::of(rec);
-    let n = tx.execute(
-        insert_sql().as_str(),
+    let rows = tx.query(
+        stmt,
         &[
             &r.record_id,
             &r.time_utc,
@@ -134,7 +137,13 @@ fn insert_in(tx: &mut Transaction<'_>, rec: &mut BoardRecord) -> Result<bool, St
             &r.explained,
         ],
     )?;
-    Ok(n == 1)
+    match rows.first() {
+        Some(row) => {
+            rec.retest = row.try_get(0)?;
+            Ok(true)
+        }
+        None => Ok(false),
+    }
 }
 
 fn row_of(r: &::postgres::Row) -> Result<Row, ::postgres::Error> {
@@ -173,7 +182,7 @@ fn row_of(r: &::postgres::Row) -> Result<Row, ::postgres::Error> {
 impl Store for Postgres {
     fn insert(&mut self, rec: &mut BoardRecord) -> Result<Written, StoreError> {
         let mut tx = self.client.transaction()?;
-        let new = insert_in(&mut tx, rec)?;
+        let new = insert_in(&mut tx, &self.insert, rec)?;
         tx.commit()?;
         Ok(Written { new })
     }
@@ -183,7 +192,7 @@ impl Store for Postgres {
         for chunk in recs.chunks_mut(IMPORT_CHUNK) {
             let mut tx = self.client.transaction()?;
             for rec in chunk {
-                new += usize::from(insert_in(&mut tx, rec)?);
+                new += usize::from(insert_in(&mut tx, &self.insert, rec)?);
             }
             tx.commit()?;
         }
@@ -271,6 +280,10 @@ impl Store for Postgres {
                 ))
             })
             .collect()
+    }
+
+    fn relax_sync(&mut self) -> Result<(), StoreError> {
+        Ok(self.client.batch_execute("SET synchronous_commit = off")?)
     }
 
     fn schema_version(&mut self) -> Result<i64, StoreError> {

@@ -251,6 +251,10 @@ impl Store for Sqlite {
         Ok(rows.collect::<Result<_, _>>()?)
     }
 
+    fn relax_sync(&mut self) -> Result<(), StoreError> {
+        Ok(self.conn.pragma_update(None, "synchronous", "NORMAL")?)
+    }
+
     fn schema_version(&mut self) -> Result<i64, StoreError> {
         Ok(self
             .conn
