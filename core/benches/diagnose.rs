@@ -64,6 +64,7 @@ fn main() {
             temp_c: 25.0,
             beta_25: 250.0,
             fault: dev,
+            loads: Default::default(),
         };
         let Ok(op) = solve(&s, &profile, cond) else {
             continue;

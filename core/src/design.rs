@@ -943,6 +943,7 @@ fn evaluate(
         temp_c: req.temp,
         beta_25: profile.beta_typ,
         fault: None,
+        loads: Default::default(),
     };
     let op = solve(&stage, profile, cond).ok()?;
     // Of the midband figures the design needs the gain (one small-signal solve: the same one
@@ -1037,6 +1038,7 @@ fn evaluate(
                     temp_c,
                     beta_25,
                     fault: None,
+                    loads: Default::default(),
                 },
             )
             .map(|o| o.ic)

@@ -35,7 +35,9 @@ use heapless::Vec;
 use crate::check::reading_error;
 use crate::device::Profile;
 use crate::limits::Meter;
-use crate::solve::{solve_from, Conditions, Start};
+use crate::settings::Inputs;
+use crate::settings::ReadNode;
+use crate::solve::{solve_from, Conditions, NodeLoads, OperatingPoint, Start};
 use crate::spread::Variation;
 use crate::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
 
@@ -265,6 +267,8 @@ struct Ctx<'a> {
     profile: &'a Profile,
     temp_c: f64,
     measured: [f64; 3],
+    /// The measuring inputs attached while the nodes are read.
+    inputs: Inputs,
     solves: u32,
     /// The last solution, where the next solve starts (successive solves differ a little).
     start: Option<Start>,
@@ -303,15 +307,37 @@ impl Ctx<'_> {
             Suspect::Resistor(r, _) => (stage.with_fault(Fault::Value(r, value)), None),
             Suspect::Device(d) => (stage, Some(d)),
         };
-        self.solves = self.solves.saturating_add(1);
         let cond = Conditions {
             temp_c,
             beta_25: beta,
             fault,
+            loads: NodeLoads::NONE,
         };
-        let (op, next) = solve_from(&stage, self.profile, cond, self.start.as_ref()).ok()?;
+        match self.inputs.common_loads() {
+            Some(loads) => {
+                let op = self.solve(&stage, cond.loaded(loads))?;
+                Some([op.vb, op.ve, op.vc])
+            }
+            None => {
+                // Each node read with only its own input attached: one solve per node.
+                let mut at = |n: ReadNode| {
+                    let loads = self.inputs.loads_reading(n);
+                    self.solve(&stage, cond.loaded(loads))
+                };
+                let vb = at(ReadNode::Base)?.vb;
+                let ve = at(ReadNode::Emitter)?.ve;
+                let vc = at(ReadNode::Collector)?.vc;
+                Some([vb, ve, vc])
+            }
+        }
+    }
+
+    /// One solve, started from the last one.
+    fn solve(&mut self, stage: &Stage, cond: Conditions) -> Option<OperatingPoint> {
+        self.solves = self.solves.saturating_add(1);
+        let (op, next) = solve_from(stage, self.profile, cond, self.start.as_ref()).ok()?;
         self.start = Some(next);
-        Some([op.vb, op.ve, op.vc])
+        Some(op)
     }
 
     fn chi2(&self, inv: &Sym3, y: Option<[f64; 3]>) -> f64 {
@@ -500,7 +526,13 @@ fn covariance(
     y0: [f64; 3],
 ) -> Sym3 {
     const INV_SQRT3: f64 = 0.577_350_269_189_625_8;
-    let float = floating(suspect);
+    // A node a fault leaves floating is held by the measuring input where one is modelled (the
+    // prediction then includes it); only an ideal meter's reading of it is uncertain.
+    let float = if ctx.inputs.is_ideal() {
+        floating(suspect)
+    } else {
+        [false; 3]
+    };
     let mut diag = [0.0; 3];
     for ((d, m), fl) in diag.iter_mut().zip(ctx.measured).zip(float) {
         let s = reading_error(meter, m) * INV_SQRT3;
@@ -767,8 +799,8 @@ fn dictionary(stage: &Stage) -> Vec<Suspect, CAPACITY> {
 /// Rank the single-fault hypotheses against a board's readings.
 ///
 /// `stage` is the design (nominal parts and tolerances; its supply is replaced by the measured
-/// one), `var` gives the ambient range (parts and hFE spread come from the stage and profile),
-/// `meter` the accuracy of the readings.
+/// one), `var` gives the ambient range and the measuring inputs attached while the nodes were
+/// read (every hypothesis is solved with them), `meter` the accuracy of the readings.
 pub fn diagnose(
     stage: &Stage,
     profile: &Profile,
@@ -787,6 +819,7 @@ pub fn diagnose(
         profile,
         temp_c: 0.5 * (var.temp_min_c + var.temp_max_c),
         measured: m,
+        inputs: var.inputs,
         solves: 0,
         start: None,
     };

@@ -20,6 +20,8 @@
 //! | job | [`design`] | from a requirement to ranked standard-value part lists |
 //! | job | [`spread`] | worst case, Monte Carlo and sensitivity |
 //! | job | [`limits`] | guard-banded pass windows per node |
+//! | job | [`settings`] | the test settings (ambient, meter, measuring inputs), defaults, digest |
+//! | job | [`judge`] | the one judging path: supply, windows, verdict, diagnosis |
 //! | job | [`check`] | measured against limits: verdict and derived quantities |
 //! | job | [`diagnose`] | ranked single-fault hypotheses |
 //! | job | [`explain`] | faults in plain words, the measurement that separates them |
@@ -54,12 +56,14 @@ pub mod device;
 pub mod diagnose;
 pub mod estimate;
 pub mod explain;
+pub mod judge;
 pub mod limits;
 pub mod lowfreq;
 mod order;
 pub mod power;
 pub mod predict;
 pub mod series;
+pub mod settings;
 pub mod signal;
 pub mod solve;
 pub mod spread;

@@ -27,17 +27,20 @@ pub struct Meter {
 }
 
 impl Default for Meter {
-    /// A 0.5 % + 5 mV meter behind a 0.1 % divider.
+    /// [`Meter::DEFAULT`].
     fn default() -> Self {
-        Self {
-            gain_error: 0.005,
-            offset: 0.005,
-            divider_tol: 0.001,
-        }
+        Self::DEFAULT
     }
 }
 
 impl Meter {
+    /// The default of every front end: a 0.5 % + 5 mV meter behind a 0.1 % divider.
+    pub const DEFAULT: Meter = Meter {
+        gain_error: 0.005,
+        offset: 0.005,
+        divider_tol: 0.001,
+    };
+
     /// A perfect meter (no error): the windows are the bare spread.
     pub const IDEAL: Meter = Meter {
         gain_error: 0.0,

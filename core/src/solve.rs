@@ -40,7 +40,54 @@ const RAMP_STEPS: u16 = 16;
 /// (the remaining error is about step²/(2·VT)), so after a 1 µV step it is below 2e-11 V.
 const SETTLED_V: f64 = 1e-6;
 
-/// Temperature, transistor gain and any transistor fault for one solve.
+/// Extra resistances from the stage's nodes to ground while it is solved, Ω: whatever is
+/// attached to the board while it is read (the measuring inputs, the jig's source and load
+/// resistors where a coupling capacitor is shorted). Each is ground-referenced in the real
+/// circuit, for a PNP stage too; `None` is nothing attached.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct NodeLoads {
+    /// From the base node to ground, Ω.
+    pub base: Option<f64>,
+    /// From the collector node to ground, Ω.
+    pub collector: Option<f64>,
+    /// From the emitter node to ground, Ω.
+    pub emitter: Option<f64>,
+}
+
+impl NodeLoads {
+    /// Nothing attached: an ideal meter.
+    pub const NONE: Self = Self {
+        base: None,
+        collector: None,
+        emitter: None,
+    };
+
+    /// The same resistance `r` (Ω) from each of the three nodes to ground, or nothing for `None`.
+    pub const fn each(r: Option<f64>) -> Self {
+        Self {
+            base: r,
+            collector: r,
+            emitter: r,
+        }
+    }
+
+    /// Nothing attached at any node.
+    pub fn is_none(&self) -> bool {
+        self.base.is_none() && self.collector.is_none() && self.emitter.is_none()
+    }
+
+    /// Every given load is positive (a resistance, not a short) and not NaN; an infinite one is
+    /// the same as none.
+    pub fn is_valid(&self) -> bool {
+        [self.base, self.collector, self.emitter]
+            .iter()
+            .flatten()
+            .all(|r| *r > 0.0)
+    }
+}
+
+/// Temperature, transistor gain, any transistor fault and what is attached to the nodes for one
+/// solve.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Conditions {
     /// Ambient (and junction) temperature, °C.
@@ -49,21 +96,29 @@ pub struct Conditions {
     pub beta_25: f64,
     /// A transistor fault, or `None` for a good part.
     pub fault: Option<DeviceFault>,
+    /// Resistances from the nodes to ground while the board is read ([`NodeLoads::NONE`]: none).
+    pub loads: NodeLoads,
 }
 
 impl Conditions {
-    /// Typical hFE at 25 °C, no fault.
+    /// Typical hFE at 25 °C, no fault, nothing attached.
     pub fn typical(profile: &Profile) -> Self {
         Self {
             temp_c: 25.0,
             beta_25: profile.beta_typ,
             fault: None,
+            loads: NodeLoads::NONE,
         }
     }
 
     /// The same conditions at another ambient temperature, °C.
     pub fn at(self, temp_c: f64) -> Self {
         Self { temp_c, ..self }
+    }
+
+    /// The same conditions with `loads` attached to the nodes.
+    pub fn loaded(self, loads: NodeLoads) -> Self {
+        Self { loads, ..self }
     }
 }
 
@@ -432,7 +487,7 @@ fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
     if let (
         Net::Driven { vth: vb0, r: rb },
         Net::Driven { vth: vc0, r: rc },
-        Net::Driven { r: re, .. },
+        Net::Driven { vth: ve0, r: re },
         [false, false, false],
     ) = (p.base, p.coll, p.emit, p.free)
     {
@@ -440,7 +495,9 @@ fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
         let die = [cur.dib[0] + cur.dic[0], cur.dib[1] + cur.dic[1]];
         let vb = vb0 * vcc_scale - rb * cur.ib;
         let vc = vc0 * vcc_scale - rc * cur.ic;
-        let ve = re * ie;
+        // The emitter's Thévenin voltage is 0 unless a load to the other rail is attached (a PNP
+        // stage's emitter node with a measuring input to ground, in the mirrored frame).
+        let ve = ve0 * vcc_scale + re * ie;
         let r0 = (
             vb - ve - x[0],
             [
@@ -604,6 +661,77 @@ fn divider(v_top: f64, r_top: f64, r_bottom: f64) -> Result<Net, SolveError> {
     }
 }
 
+/// Two resistors in parallel, Ω (either may be 0 or infinite).
+fn parallel(a: f64, b: f64) -> f64 {
+    if a == 0.0 || b == 0.0 {
+        0.0
+    } else if !a.is_finite() {
+        b
+    } else if !b.is_finite() {
+        a
+    } else {
+        a * b / (a + b)
+    }
+}
+
+/// The three networks (NPN frame) with the resistances `loads` from the nodes to ground of the
+/// real circuit. In the mirrored frame of a PNP stage the real ground is the rail at `vcc`, so a
+/// load there pulls its node towards `vcc`: the emitter network then has a Thévenin voltage
+/// above 0 V. An open part with a load at its node leaves the node driven through the load.
+fn loaded_nets(
+    polarity: Polarity,
+    vcc: f64,
+    r1: f64,
+    r2: f64,
+    rc: f64,
+    re: f64,
+    loads: NodeLoads,
+) -> Result<(Net, Net, Net), SolveError> {
+    let load = |r: Option<f64>| r.unwrap_or(f64::INFINITY);
+    // R2 runs from the base to ground in the real circuit, like the base's load.
+    let r2 = parallel(r2, load(loads.base));
+    let (lc, le) = (load(loads.collector), load(loads.emitter));
+    match polarity {
+        Polarity::Npn => Ok((
+            divider(vcc, r1, r2)?,
+            // RC to the supply, the load to ground.
+            two_rails(vcc, rc, lc),
+            // RE and the load both to ground.
+            to_rail(0.0, parallel(re, le)),
+        )),
+        Polarity::Pnp => Ok((
+            // Mirrored: R2 (with the load) goes to the rail at `vcc`, R1 to 0 V.
+            divider(vcc, r2, r1)?,
+            // RC and the load both to the real ground, the mirrored rail at `vcc`.
+            to_rail(vcc, parallel(rc, lc)),
+            // RE to the real supply (mirrored 0 V), the load to the real ground (mirrored `vcc`).
+            two_rails(vcc, le, re),
+        )),
+    }
+}
+
+/// A node with `r_top` to the rail at `v_top` and `r_bottom` to 0 V as a Thévenin source; never
+/// both zero here (a load is positive), and open when both are open.
+fn two_rails(v_top: f64, r_top: f64, r_bottom: f64) -> Net {
+    if r_top == 0.0 {
+        Net::Driven { vth: v_top, r: 0.0 }
+    } else if r_bottom == 0.0 {
+        Net::Driven { vth: 0.0, r: 0.0 }
+    } else if !r_bottom.is_finite() {
+        to_rail(v_top, r_top)
+    } else if !r_top.is_finite() {
+        Net::Driven {
+            vth: 0.0,
+            r: r_bottom,
+        }
+    } else {
+        Net::Driven {
+            vth: v_top * r_bottom / (r_top + r_bottom),
+            r: r_top * r_bottom / (r_top + r_bottom),
+        }
+    }
+}
+
 /// Positive and finite (false for NaN).
 fn positive_finite(x: f64) -> bool {
     x > 0.0 && x < f64::INFINITY
@@ -643,14 +771,17 @@ fn first_guess(p: &Problem) -> [f64; 2] {
         Net::Driven { vth, r } => (vth, r),
         Net::Free => return [0.3, -p.vcc * 0.5],
     };
-    let re = match p.emit {
-        Net::Driven { r, .. } => r,
-        Net::Free => f64::INFINITY,
+    let (vthe, re) = match p.emit {
+        Net::Driven { vth, r } => (vth, r),
+        Net::Free => (0.0, f64::INFINITY),
     };
-    let rc = match p.coll {
-        Net::Driven { r, .. } => r,
-        Net::Free => 0.0,
+    let (vthc, rc) = match p.coll {
+        Net::Driven { vth, r } => (vth, r),
+        Net::Free => (p.vcc, 0.0),
     };
+    // The drive of the base-emitter loop: the divider's voltage above the emitter's Thévenin
+    // voltage (0 V unless a load is attached at the emitter of a PNP stage).
+    let vthb = vthb - vthe;
     let req = re + rb / (beta + 1.0);
     let mut ie = (vthb - VBE_START) / req;
     if !positive_finite(ie) {
@@ -666,8 +797,8 @@ fn first_guess(p: &Problem) -> [f64; 2] {
         ie = next;
     }
     let ic = ie * alpha;
-    let vb = vthb - rb * ie / (beta + 1.0);
-    let vc = p.vcc - ic * rc;
+    let vb = vthb + vthe - rb * ie / (beta + 1.0);
+    let vc = vthc - ic * rc;
     let vbc = vb - vc;
     // Saturated: put VCE at about 0.1 V.
     if vbc > vbe - 0.1 {
@@ -763,9 +894,23 @@ pub fn solve_from(
         gmin: 0.0,
         fault: cond.fault,
     };
-    let base = divider(vcc, r_top, r_bottom)?;
-    let coll = to_rail(vcc, rc);
-    let emit = to_rail(0.0, re);
+    let (base, coll, emit) = if cond.loads.is_none() {
+        (
+            divider(vcc, r_top, r_bottom)?,
+            to_rail(vcc, rc),
+            to_rail(0.0, re),
+        )
+    } else {
+        loaded_nets(
+            stage.polarity,
+            vcc,
+            stage.r1.value,
+            stage.r2.value,
+            rc,
+            re,
+            cond.loads,
+        )?
+    };
     let free = [
         matches!(base, Net::Free),
         matches!(coll, Net::Free) || cond.fault == Some(DeviceFault::BcOpen),
@@ -893,11 +1038,15 @@ fn meter_nodes(p: &Problem, x: [f64; 2], cur: &Currents) -> [f64; 3] {
     if let (
         Net::Driven { vth: vb0, r: rb },
         Net::Driven { vth: vc0, r: rc },
-        Net::Driven { r: re, .. },
+        Net::Driven { vth: ve0, r: re },
         [false, false, false],
     ) = (p.base, p.coll, p.emit, p.free)
     {
-        return [vb0 - rb * cur.ib, vc0 - rc * cur.ic, re * (cur.ib + cur.ic)];
+        return [
+            vb0 - rb * cur.ib,
+            vc0 - rc * cur.ic,
+            ve0 + re * (cur.ib + cur.ic),
+        ];
     }
     let device_i = [cur.ib, cur.ic, -(cur.ib + cur.ic)];
     let nets = [p.base, p.coll, p.emit];

@@ -25,6 +25,7 @@ use rand_core::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
 use crate::device::{Profile, ProfileError};
+use crate::settings::{Inputs, ReadNode};
 use crate::signal::swing;
 use crate::solve::{solve, Conditions, Region, SolveError};
 use crate::stage::{Resistor, Stage, StageError};
@@ -51,6 +52,9 @@ pub struct Variation {
     pub temp_max_c: f64,
     /// Distribution of the part values in Monte Carlo.
     pub distribution: Distribution,
+    /// The measuring inputs attached while the nodes are read: every node value is what they
+    /// read ([`Inputs::IDEAL`]: the bare stage).
+    pub inputs: Inputs,
 }
 
 impl Variation {
@@ -60,7 +64,13 @@ impl Variation {
             temp_min_c: temp_c,
             temp_max_c: temp_c,
             distribution: Distribution::Uniform,
+            inputs: Inputs::IDEAL,
         }
+    }
+
+    /// The same variation with the nodes read through `inputs`.
+    pub fn read_through(self, inputs: Inputs) -> Self {
+        Self { inputs, ..self }
     }
 
     /// Parts and hFE vary; the ambient spans `temp_min_c` to `temp_max_c`, °C.
@@ -69,6 +79,7 @@ impl Variation {
             temp_min_c,
             temp_max_c,
             distribution: Distribution::Uniform,
+            inputs: Inputs::IDEAL,
         }
     }
 
@@ -410,6 +421,7 @@ fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
             temp_c: d.temp_c,
             beta_25: d.beta_25,
             fault: None,
+            loads: crate::solve::NodeLoads::NONE,
         },
     )
 }
@@ -423,24 +435,37 @@ fn gain_of(stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
     }
 }
 
-/// Evaluate one draw: one exact solve, the swing, and the gain when `signal`.
+/// Evaluate one draw as read through `inputs`: one exact solve (three when each node is read
+/// with only its own input attached), the swing, and the gain when `signal` (both at the
+/// operating point with every input attached, or with the base's alone).
 fn evaluate(
     stage: &Stage,
     profile: &Profile,
     d: &Draw,
     signal: bool,
+    inputs: &Inputs,
 ) -> Result<Sample, SolveError> {
     let (s, cond) = apply(stage, d);
-    let op = solve(&s, profile, cond)?;
+    let (op, ve, vc) = match inputs.common_loads() {
+        Some(loads) => {
+            let op = solve(&s, profile, cond.loaded(loads))?;
+            (op, op.ve, op.vc)
+        }
+        None => {
+            let at = |n: ReadNode| solve(&s, profile, cond.loaded(inputs.loads_reading(n)));
+            let op = at(ReadNode::Base)?;
+            (op, at(ReadNode::Emitter)?.ve, at(ReadNode::Collector)?.vc)
+        }
+    };
     let (sw, _) = swing(&s, profile, &op);
     let gain = if signal { gain_of(&s, &op) } else { 0.0 };
     Ok(Sample {
         values: Nodes {
             vb: op.vb,
-            ve: op.ve,
-            vc: op.vc,
-            vbe: op.vbe,
-            vce: op.vce,
+            ve,
+            vc,
+            vbe: op.vb - ve,
+            vce: vc - ve,
             ic: op.ic,
             gain,
             swing: sw,
@@ -460,7 +485,13 @@ fn validate(stage: &Stage, profile: &Profile, var: &Variation) -> Result<(), Spr
 pub fn centre(stage: &Stage, profile: &Profile, var: &Variation) -> Result<Sample, SpreadError> {
     validate(stage, profile, var)?;
     let b = Box8::new(stage, profile, var);
-    Ok(evaluate(stage, profile, &draw_of(&b.centre), true)?)
+    Ok(evaluate(
+        stage,
+        profile,
+        &draw_of(&b.centre),
+        true,
+        &var.inputs,
+    )?)
 }
 
 /// A range of one quantity.
@@ -552,7 +583,7 @@ pub fn worst_case(
 ) -> Result<WorstCase, SpreadError> {
     validate(stage, profile, var)?;
     let b = Box8::new(stage, profile, var);
-    worst_case_in(stage, profile, &b, method, true)
+    worst_case_in(stage, profile, &b, method, true, &var.inputs)
 }
 
 fn active_mask(b: &Box8) -> u16 {
@@ -582,6 +613,7 @@ fn worst_case_in(
     b: &Box8,
     method: Method,
     signal: bool,
+    inputs: &Inputs,
 ) -> Result<WorstCase, SpreadError> {
     let mask = active_mask(b);
     let n = mask.count_ones();
@@ -599,11 +631,11 @@ fn worst_case_in(
             nodes.get_mut(node).include(*s.values.get(node));
         }
     };
-    let centre = evaluate(stage, profile, &draw_of(&b.centre), signal)?;
+    let centre = evaluate(stage, profile, &draw_of(&b.centre), signal, inputs)?;
     record(&centre, &mut solves);
     if exhaustive {
         for_each_corner(mask, |c| {
-            let s = evaluate(stage, profile, &draw_of(&b.corner(c, 0)), signal)?;
+            let s = evaluate(stage, profile, &draw_of(&b.corner(c, 0)), signal, inputs)?;
             record(&s, &mut solves);
             Ok(())
         })?;
@@ -612,8 +644,20 @@ fn worst_case_in(
         let mut up: Nodes<u16> = Nodes::default();
         for k in (0..FACTORS).filter(|k| mask & (1 << k) != 0) {
             let others = !(1u16 << k);
-            let lo = evaluate(stage, profile, &draw_of(&b.corner(0, others)), signal)?;
-            let hi = evaluate(stage, profile, &draw_of(&b.corner(1 << k, others)), signal)?;
+            let lo = evaluate(
+                stage,
+                profile,
+                &draw_of(&b.corner(0, others)),
+                signal,
+                inputs,
+            )?;
+            let hi = evaluate(
+                stage,
+                profile,
+                &draw_of(&b.corner(1 << k, others)),
+                signal,
+                inputs,
+            )?;
             record(&lo, &mut solves);
             record(&hi, &mut solves);
             for node in Node::ALL {
@@ -638,14 +682,21 @@ fn worst_case_in(
                     }
                 };
                 let mut best_corner = start;
-                let first = evaluate(stage, profile, &draw_of(&b.corner(start, 0)), signal)?;
+                let first = evaluate(
+                    stage,
+                    profile,
+                    &draw_of(&b.corner(start, 0)),
+                    signal,
+                    inputs,
+                )?;
                 record(&first, &mut solves);
                 let mut best = value(&first);
                 for _ in 0..VERTEX_PASSES {
                     let mut improved = false;
                     for k in (0..FACTORS).filter(|k| mask & (1 << k) != 0) {
                         let c = best_corner ^ (1 << k);
-                        let s = evaluate(stage, profile, &draw_of(&b.corner(c, 0)), signal)?;
+                        let s =
+                            evaluate(stage, profile, &draw_of(&b.corner(c, 0)), signal, inputs)?;
                         record(&s, &mut solves);
                         if value(&s) > best {
                             best = value(&s);
@@ -683,11 +734,11 @@ pub(crate) fn each_corner_at_supply(
     validate(&s, profile, var)?;
     let b = Box8::new(&s, profile, var);
     let mut solves = 0u32;
-    let centre = evaluate(&s, profile, &draw_of(&b.centre), false)?;
+    let centre = evaluate(&s, profile, &draw_of(&b.centre), false, &var.inputs)?;
     f(&centre);
     solves += 1;
     for_each_corner(active_mask(&b), |c| {
-        let sample = evaluate(&s, profile, &draw_of(&b.corner(c, 0)), false)?;
+        let sample = evaluate(&s, profile, &draw_of(&b.corner(c, 0)), false, &var.inputs)?;
         f(&sample);
         solves += 1;
         Ok(())
@@ -1094,7 +1145,7 @@ pub fn monte_carlo_observed(
     let mut dev = Deviates::new(settings.seed);
     for i in 0..settings.runs {
         let d = dev.draw(stage, &b, var.distribution);
-        match evaluate(stage, profile, &d, signal) {
+        match evaluate(stage, profile, &d, signal, &var.inputs) {
             Ok(s) => {
                 // Field by field: this is the hot loop of the run.
                 let (m, v) = (&mut mc.nodes, &s.values);
@@ -1179,8 +1230,20 @@ pub fn sensitivity(
             continue;
         }
         let others = all & !(1 << k);
-        let lo = evaluate(stage, profile, &draw_of(&b.corner(0, others)), true)?;
-        let hi = evaluate(stage, profile, &draw_of(&b.corner(1 << k, others)), true)?;
+        let lo = evaluate(
+            stage,
+            profile,
+            &draw_of(&b.corner(0, others)),
+            true,
+            &var.inputs,
+        )?;
+        let hi = evaluate(
+            stage,
+            profile,
+            &draw_of(&b.corner(1 << k, others)),
+            true,
+            &var.inputs,
+        )?;
         let _ = f;
         *slot = Nodes::from_fn(|n| 0.5 * (hi.values.get(n) - lo.values.get(n)));
     }

@@ -37,6 +37,59 @@ pub enum ValueError {
     Negative,
     /// The magnitude is above 1e15 or non-zero below 1e-15.
     OutOfRange,
+    /// The unit letters do not fit the field (`3.3mA` for a resistor).
+    WrongUnit(Unit),
+}
+
+/// The unit of a field, for values that may carry it (`4.7kΩ`, `10uF`, `12V`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Unit {
+    /// Ω: `Ω`, `ohm` or `ohms` may follow.
+    Ohm,
+    /// F.
+    Farad,
+    /// V.
+    Volt,
+    /// A.
+    Ampere,
+    /// Hz.
+    Hertz,
+    /// W.
+    Watt,
+    /// A plain number (hFE, a count): no unit letters.
+    Number,
+}
+
+impl Unit {
+    /// What may follow the number (and its prefix) for this field.
+    pub fn allowed(self) -> &'static str {
+        match self {
+            Self::Ohm => "Ω, ohm or ohms (or no unit)",
+            Self::Farad => "F (or no unit)",
+            Self::Volt => "V (or no unit)",
+            Self::Ampere => "A (or no unit)",
+            Self::Hertz => "Hz (or no unit)",
+            Self::Watt => "W (or no unit)",
+            Self::Number => "no unit",
+        }
+    }
+
+    /// Whether `u` (the unit text after the number and prefix) names this unit.
+    fn names(self, u: &str) -> bool {
+        match self {
+            Self::Ohm => {
+                matches!(u, "\u{03A9}" | "\u{2126}")
+                    || u.eq_ignore_ascii_case("ohm")
+                    || u.eq_ignore_ascii_case("ohms")
+            }
+            Self::Farad => u == "F",
+            Self::Volt => u == "V",
+            Self::Ampere => u == "A",
+            Self::Hertz => u == "Hz",
+            Self::Watt => u == "W",
+            Self::Number => false,
+        }
+    }
 }
 
 impl fmt::Display for ValueError {
@@ -49,6 +102,7 @@ impl fmt::Display for ValueError {
             ValueError::NotFinite => "value is not a finite number",
             ValueError::Negative => "value must not be negative",
             ValueError::OutOfRange => "value magnitude must be 0 or between 1e-15 and 1e15",
+            ValueError::WrongUnit(u) => return write!(f, "unit does not fit: allowed {}", u.allowed()),
         })
     }
 }
@@ -62,6 +116,48 @@ pub fn parse_signed(text: &str) -> Result<f64, ValueError> {
 /// Negative input gives [`ValueError::Negative`].
 pub fn parse_value(text: &str) -> Result<f64, ValueError> {
     let v = parse_signed(text)?;
+    if v < 0.0 {
+        Err(ValueError::Negative)
+    } else {
+        Ok(v)
+    }
+}
+
+/// Every unit text the parsers know, longest first (so that `ohms` is found before `s`).
+const UNIT_TEXTS: [&str; 9] = [
+    "ohms", "ohm", "Hz", "\u{03A9}", "\u{2126}", "F", "V", "A", "W",
+];
+
+/// The unit text at the end of `t`, if any (case-insensitive for `ohm`/`ohms`).
+fn trailing_unit(t: &str) -> Option<&str> {
+    UNIT_TEXTS.iter().copied().find(|u| {
+        t.len() > u.len()
+            && t.get(t.len() - u.len()..).is_some_and(|end| {
+                if u.starts_with('o') {
+                    end.eq_ignore_ascii_case(u)
+                } else {
+                    end == *u
+                }
+            })
+    })
+}
+
+/// Parse a value that may be negative for a field of `unit`: the field's own unit may follow
+/// (`4.7kΩ`, `4k7ohm`, `10uF`, `12V`); another unit's letters are refused
+/// ([`ValueError::WrongUnit`]: `3.3mA` for a resistor, `12A` for a supply).
+pub fn parse_signed_in(text: &str, unit: Unit) -> Result<f64, ValueError> {
+    let t = text.trim();
+    if let Some(u) = trailing_unit(t) {
+        if !unit.names(u) {
+            return Err(ValueError::WrongUnit(unit));
+        }
+    }
+    parse_signed(t)
+}
+
+/// [`parse_signed_in`] for a value that must not be negative.
+pub fn parse_value_in(text: &str, unit: Unit) -> Result<f64, ValueError> {
+    let v = parse_signed_in(text, unit)?;
     if v < 0.0 {
         Err(ValueError::Negative)
     } else {

@@ -103,6 +103,7 @@ fn readings_of(s: &Stage, p: &Profile, beta: f64, fault: Option<Fault>) -> Optio
             temp_c: 25.0,
             beta_25: beta,
             fault: dev,
+            loads: Default::default(),
         },
     )
     .ok()?;

@@ -497,6 +497,7 @@ fn warm_start_gives_the_same_point_in_fewer_iterations() {
             temp_c,
             beta_25: beta,
             fault,
+            loads: Default::default(),
         };
         // Neighbours: hFE 10 % higher, 10 °C warmer, R2 and RC 5 % higher.
         let mut tweaked = s;

@@ -136,6 +136,7 @@ fn worst_case_matches_hand_corners_of_the_divider() {
             temp_c: 25.0,
             beta_25: 300.0,
             fault: None,
+            loads: Default::default(),
         },
     )
     .unwrap();
@@ -170,6 +171,7 @@ fn monte_carlo_mean_converges_to_nominal_as_tolerances_shrink() {
                 temp_c: 25.0,
                 beta_25: p.beta_typ,
                 fault: None,
+                loads: Default::default(),
             },
         )
         .unwrap();

@@ -1,9 +1,10 @@
 //! The emulated board under test: part values drawn within their tolerance from a seed around
 //! the console's current design, an hFE within the profile's spread, one injected fault, and
-//! its node voltages from the core engine (`solve::solve`, the one circuit model).
+//! its node voltages from the core engine (`solve::solve`, the one circuit model) with the jig's
+//! inputs attached to every node, as on the real jig ([`crate::jig::JIG_INPUT_R`]).
 use biasjig_core::console::default_settings;
 use biasjig_core::device::Profile;
-use biasjig_core::solve::{solve, Conditions, SolveError};
+use biasjig_core::solve::{solve, Conditions, NodeLoads, SolveError};
 use biasjig_core::stage::{Fault, Readings, Resistor, Stage};
 
 /// The emulated bench supply sits within this fraction of the supply's own tolerance of its
@@ -37,6 +38,8 @@ pub struct BoardModel {
     profile: Profile,
     temp_c: f64,
     fault: Option<Fault>,
+    /// The jig inputs' resistance from each node to ground, Ω (`None`: no loading).
+    input_r: Option<f64>,
     /// The drawn board: parts within tolerance, and its hFE at 25 °C.
     drawn: Option<(Stage, f64)>,
     nodes: Option<Readings>,
@@ -52,9 +55,22 @@ impl BoardModel {
             profile: s.profile,
             temp_c: s.temp_c,
             fault: None,
+            input_r: Some(crate::jig::JIG_INPUT_R),
             drawn: None,
             nodes: None,
         }
+    }
+
+    /// The resistance of the jig inputs the board is read through, Ω.
+    pub fn input_r(&self) -> Option<f64> {
+        self.input_r
+    }
+
+    /// Read the board through inputs of another resistance (`None`: inputs that do not load),
+    /// as a jig with another front end would.
+    pub fn set_input_r(&mut self, r: Option<f64>) {
+        self.input_r = r;
+        self.nodes = None;
     }
 
     /// The design to draw around (from the console); redraws when it differs.
@@ -134,6 +150,8 @@ impl BoardModel {
                 temp_c: self.temp_c,
                 beta_25,
                 fault: device,
+                // Every jig input stays connected while the nodes are read.
+                loads: NodeLoads::each(self.input_r),
             },
         )?;
         let r = Readings {
@@ -189,5 +207,20 @@ mod tests {
         assert_eq!(b.nodes().unwrap(), good);
         b.set_seed(10);
         assert_ne!(b.nodes().unwrap(), good);
+    }
+
+    #[test]
+    fn the_jig_inputs_load_the_nodes() {
+        let mut b = BoardModel::new(4);
+        let jig = b.nodes().unwrap();
+        b.set_input_r(None);
+        let bare = b.nodes().unwrap();
+        // 11 MΩ beside the default design's 10 kΩ R2: the base drops by about R1 ‖ R2 / 11 MΩ.
+        let shift = (bare.vb - jig.vb) / bare.vb;
+        assert!(shift > 0.0 && shift < 2e-3, "{shift}");
+        // A jig with 110 kΩ inputs pulls it down far more.
+        b.set_input_r(Some(110e3));
+        let old = b.nodes().unwrap();
+        assert!((bare.vb - old.vb) / bare.vb > 0.05, "{old:?} {bare:?}");
     }
 }

@@ -9,30 +9,22 @@ use serde_json::{json, Value};
 use thiserror::Error;
 
 use crate::boardlog::{self, Appender, LogError};
-use crate::cmd::check::{board_limits, outcome_json, Outcome, Station};
+use crate::cmd::check::{board_windows, outcome_json, overrides_json, settings_json, Outcome, Station};
 use crate::cmd::limits::NODES;
 use crate::error::CliError;
 use crate::record::{self, BoardRecord, Edges, Nominal, Source};
 use crate::store::{Store, StoreError, TraceArgs};
 
-/// Hash (hex SHA-256) of every setting a verdict depends on besides the design: the ambient
-/// range and the meter.
+/// The settings digest (hex SHA-256) of everything the verdict depends on: the core's digest of
+/// the stage, transistor and test settings (test ambient, meter, measuring inputs).
 pub fn settings_hash(st: &Station) -> String {
-    let nums = [
-        st.var.temp_min_c,
-        st.var.temp_max_c,
-        st.meter.gain_error,
-        st.meter.offset,
-        st.meter.divider_tol,
-    ];
-    let bytes: Vec<u8> = nums.iter().flat_map(|x| x.to_le_bytes()).collect();
-    record::hex_digest(&[b"settings", st.hash.as_bytes(), &bytes])
+    st.digest.to_string()
 }
 
 /// The windows at the design's nominal supply (the same for every board of a run).
 pub fn nominal(st: &Station) -> Option<Nominal> {
     let vcc = st.stage.vcc.value;
-    let lim = board_limits(st, vcc).ok()?;
+    let lim = board_windows(st, vcc).ok()?.limits;
     let windows = NODES
         .iter()
         .filter_map(|n| {
@@ -85,12 +77,14 @@ pub fn from_outcome(
     id: Option<String>,
     source: Option<Source>,
 ) -> Result<BoardRecord, CliError> {
-    let mut doc = outcome_json(o);
+    let mut doc = outcome_json(o, r.vcc);
     let head = json!({
         "record_id": id.unwrap_or_else(|| record::fresh_id(serial)),
         "time": crate::clock::now_utc(),
         "serial": serial,
-        "design": {"id": st.id, "hash": st.hash},
+        "design": {"id": st.id, "hash": st.hash, "digest": st.file_digest},
+        "settings": settings_json(&st.settings),
+        "overrides": overrides_json(st),
         "readings": {"vcc": r.vcc, "vb": r.vb, "ve": r.ve, "vc": r.vc},
         "tool_version": record::TOOL_VERSION,
     });
@@ -264,15 +258,25 @@ impl StationSink {
 }
 
 /// Write the windows as CSV for other testers (test, low, high, unit, design hash, settings
-/// hash), whole or not at all (a temporary file, then a rename).
+/// hash): the supply window and every node window `check` applies, whole or not at all.
 pub fn write_limits_csv(
     path: &Path,
-    lim: &biasjig_core::limits::Limits,
+    w: &biasjig_core::judge::Windows,
     st: &Station,
 ) -> Result<(), CliError> {
     let bad = |e: String| CliError::usage(format!("--csv: {}: {e}", path.display()));
     let settings = settings_hash(st);
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut out = csv::Writer::from_writer(Vec::new());
+    let row = |name: &str, low: f64, high: f64, unit: &str| {
+        [
+            name.to_string(),
+            format!("{low}"),
+            format!("{high}"),
+            unit.to_string(),
+            st.hash.clone(),
+            settings.clone(),
+        ]
+    };
     let mut rows = vec![[
         "test".to_string(),
         "low".into(),
@@ -281,24 +285,15 @@ pub fn write_limits_csv(
         "design_hash".into(),
         "settings_hash".into(),
     ]];
+    rows.push(row("vcc", w.supply.low, w.supply.high, "V"));
     for n in NODES {
-        if let Some(win) = lim.window(n) {
-            rows.push([
-                n.name().into(),
-                format!("{}", win.low),
-                format!("{}", win.high),
-                n.unit().into(),
-                st.hash.clone(),
-                settings.clone(),
-            ]);
+        if let Some(win) = w.limits.window(n) {
+            rows.push(row(n.name(), win.low, win.high, n.unit()));
         }
     }
     for r in &rows {
-        w.write_record(r).map_err(|e| bad(e.to_string()))?;
+        out.write_record(r).map_err(|e| bad(e.to_string()))?;
     }
-    let bytes = w.into_inner().map_err(|e| bad(e.to_string()))?;
-    let tmp = path.with_extension(format!("tmp{}", std::process::id()));
-    std::fs::write(&tmp, bytes)
-        .and_then(|()| std::fs::rename(&tmp, path))
-        .map_err(|e| bad(e.to_string()))
+    let bytes = out.into_inner().map_err(|e| bad(e.to_string()))?;
+    crate::designfile::write_atomic(path, &bytes).map_err(|e| bad(e.to_string()))
 }

@@ -2,9 +2,10 @@
 //! command with `--design FILE`.
 //!
 //! ```toml
-//! version = 1
+//! version = 2
 //! id = "pump-preamp-a"
-//! hash = "9c1e5d0b7a3f2e41"          # design hash of the parts and transistor (optional)
+//! hash = "9c1e5d0b7a3f2e41"          # design hash of the parts and transistor (the instrument's)
+//! digest = "5f0c…"                   # SHA-256 over everything in the file (required)
 //!
 //! [requirement]                       # optional: what the design was made for
 //! vcc = 12.0
@@ -20,9 +21,19 @@
 //! min = -10.0
 //! max = 55.0
 //!
+//! [test]                            # the station's test settings (what a verdict depends on)
+//! temp_min = 25.0                     # test ambient, °C (not the design's operating range)
+//! temp_max = 25.0
+//! meter_gain = 0.005                  # meter gain error, fraction of the reading
+//! meter_offset = 0.005                # meter offset, V
+//! divider_tol = 0.001                 # jig input divider tolerance, fraction
+//! input_r = 10000000.0                # optional: measuring-input resistance to ground, Ω
+//! inputs = "together"                 # or "one"
+//!
 //! [parts]
 //! polarity = "npn"
 //! vcc = 12.0
+//! vcc_tol = 0.05                      # supply tolerance: outside it a board is not judged
 //! rl = 15000.0                        # optional: no load when absent
 //! rs = 600.0
 //! r1 = { value = 240000.0, series = "E24", tol = 0.05 }
@@ -33,22 +44,33 @@
 //! # ... vb, ve, vc, vce, gain, swing_pp, f_low, supply_current, transistor_power
 //! ```
 //! Every table refuses unknown keys; a part value must be a member of its stated series; a file
-//! of a newer version is refused; a hash that does not match the parts and transistor is refused
-//! (the file was edited after it was written).
+//! of a newer version is refused; a hash that does not match the parts and transistor is refused.
+//!
+//! **Change control**: `digest` is required. It is SHA-256 over the canonical encoding of the
+//! settings digest's fields ([`biasjig_core::settings`]: stage, transistor, test settings) followed
+//! by the rest of the file (identifier, design hash, each part's series, the design ambient, the
+//! requirement and the predicted figures), so any edit, a deleted line included, is refused; the
+//! file must be written again by `biasjig design -o`. Files are read up to [`MAX_BYTES`] and
+//! written atomically (a temporary file beside it, then a rename).
 
 use std::path::Path;
 
 use biasjig_core::console::record::design_hash;
 use biasjig_core::design::Requirement;
 use biasjig_core::device::Profile;
+use biasjig_core::limits::Meter;
 use biasjig_core::series::Series;
+use biasjig_core::settings::{Canonical, Digest, InputMode, Inputs, TestSettings};
 use biasjig_core::stage::{Part, Polarity, Stage};
 use serde::{Deserialize, Serialize};
 
 use crate::error::CliError;
 
-/// The design file version this build writes and the newest it reads.
-pub const VERSION: u32 = 1;
+/// The design file version this build writes and the only one it reads (version 1 files carry
+/// no digest: write them again with `biasjig design -o`).
+pub const VERSION: u32 = 2;
+/// Largest design file read, bytes (a design file is about 2 KB).
+pub const MAX_BYTES: u64 = 256 * 1024;
 
 /// A design file's contents as the commands need them.
 #[derive(Debug, Clone)]
@@ -73,6 +95,10 @@ pub struct DesignDoc {
     pub series: [Option<Series>; 8],
     /// The predicted figures at nominal when the file was written.
     pub predicted: Option<Predicted>,
+    /// The test settings the file states (test ambient, meter, measuring inputs).
+    pub test: TestSettings,
+    /// The file digest (64 hex digits).
+    pub digest: String,
 }
 
 /// Figures predicted at nominal (SI units).
@@ -109,9 +135,12 @@ struct FileDoc {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     hash: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
+    digest: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     requirement: Option<FileRequirement>,
     transistor: FileTransistor,
     ambient: FileAmbient,
+    test: FileTest,
     parts: FileParts,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     predicted: Option<Predicted>,
@@ -159,6 +188,19 @@ struct FileAmbient {
     max: f64,
 }
 
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileTest {
+    temp_min: f64,
+    temp_max: f64,
+    meter_gain: f64,
+    meter_offset: f64,
+    divider_tol: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    input_r: Option<f64>,
+    inputs: String,
+}
+
 #[derive(Debug, Clone, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 struct FilePart {
@@ -173,6 +215,7 @@ struct FilePart {
 struct FileParts {
     polarity: String,
     vcc: f64,
+    vcc_tol: f64,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     rl: Option<f64>,
     rs: f64,
@@ -228,11 +271,39 @@ fn part(path: &Path, key: &str, p: &FilePart) -> Result<(Part, Option<Series>), 
     Ok((Part::new(p.value, p.tol), series))
 }
 
-/// Read a design file.
+/// Read a design file (at most [`MAX_BYTES`]: a larger input, `/dev/zero` say, is refused
+/// without being read whole).
 pub fn load(path: &Path) -> Result<DesignDoc, CliError> {
-    let text = std::fs::read_to_string(path)
-        .map_err(|e| CliError::usage(format!("--design: {}: cannot read: {e}", path.display())))?;
+    let text = read_limited(path, MAX_BYTES, "--design")?;
     parse(path, &text)
+}
+
+/// Read a text file of at most `max` bytes; `flag` names it in messages.
+pub fn read_limited(path: &Path, max: u64, flag: &str) -> Result<String, CliError> {
+    use std::io::Read as _;
+    let cannot = |e: std::io::Error| {
+        CliError::usage(format!("{flag}: {}: cannot read: {e}", path.display()))
+    };
+    let file = std::fs::File::open(path).map_err(cannot)?;
+    let mut bytes = Vec::new();
+    file.take(max + 1).read_to_end(&mut bytes).map_err(cannot)?;
+    if bytes.len() as u64 > max {
+        return Err(CliError::field(
+            flag,
+            path.display(),
+            format!("larger than {max} bytes: allowed: a file of at most {max} bytes"),
+        ));
+    }
+    String::from_utf8(bytes).map_err(|e| {
+        CliError::field(
+            flag,
+            path.display(),
+            format!(
+                "not UTF-8 text (byte {}): allowed: a UTF-8 text file",
+                e.utf8_error().valid_up_to()
+            ),
+        )
+    })
 }
 
 /// Parse the text of a design file (`path` only names it in messages).
@@ -247,7 +318,16 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
                     format!("{v} is newer than this build reads (up to {VERSION}); update biasjig"),
                 ))
             }
-            Some(v) if v < 1 => return Err(bad(path, "version", format!("{v}: allowed: 1"))),
+            Some(v) if v < i64::from(VERSION) => {
+                return Err(bad(
+                    path,
+                    "version",
+                    format!(
+                        "{v}: written before design files carried a digest; allowed: {VERSION}; \
+                         write it again with biasjig design -o"
+                    ),
+                ))
+            }
             _ => {}
         }
     }
@@ -287,7 +367,7 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
     let ce = f.parts.ce.as_ref().map(|p| get(7, "ce", p)).transpose()?;
     let stage = Stage {
         polarity,
-        vcc: Part::new(f.parts.vcc, 0.0),
+        vcc: Part::new(f.parts.vcc, f.parts.vcc_tol),
         r1,
         r2,
         rc,
@@ -325,6 +405,27 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
             ),
         ));
     }
+    let t = &f.test;
+    let test = TestSettings {
+        temp_min_c: t.temp_min,
+        temp_max_c: t.temp_max,
+        meter: Meter {
+            gain_error: t.meter_gain,
+            offset: t.meter_offset,
+            divider_tol: t.divider_tol,
+        },
+        inputs: Inputs {
+            r: t.input_r,
+            mode: InputMode::parse(&t.inputs).ok_or_else(|| {
+                bad(
+                    path,
+                    "test.inputs",
+                    format!("{:?}: allowed: \"together\" or \"one\"", t.inputs),
+                )
+            })?,
+        },
+    };
+    test.validate().map_err(|e| bad(path, "test", e))?;
     let computed = hash(&stage, &profile);
     if let Some(h) = &f.hash {
         if !h.eq_ignore_ascii_case(&computed) {
@@ -333,7 +434,7 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
                 "hash",
                 format!(
                     "{h} does not match the parts and transistor ({computed}): the file was changed \
-                     after it was written; check the parts, then fix or remove the hash line"
+                     after it was written; write it again with biasjig design -o"
                 ),
             ));
         }
@@ -365,7 +466,7 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
         }
         None => None,
     };
-    Ok(DesignDoc {
+    let mut doc = DesignDoc {
         stage,
         profile,
         temp_c: a.nominal,
@@ -376,7 +477,94 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
         requirement,
         series,
         predicted: f.predicted,
-    })
+        test,
+        digest: String::new(),
+    };
+    let want = digest(&doc).to_string();
+    match &f.digest {
+        None => {
+            return Err(bad(
+                path,
+                "digest",
+                "missing: a design file must carry the digest `biasjig design -o` writes (it \
+                 covers everything in the file); write the file again",
+            ))
+        }
+        Some(d) if Digest::parse(d).map(|d| d.to_string()).as_deref() != Some(want.as_str()) => {
+            return Err(bad(
+                path,
+                "digest",
+                format!(
+                    "{d} does not match the file's contents: the file was changed after it was \
+                     written; write it again with biasjig design -o (no edit is accepted)"
+                ),
+            ))
+        }
+        Some(_) => {}
+    }
+    doc.digest = want;
+    Ok(doc)
+}
+
+/// The file digest: SHA-256 over the settings digest's fields followed by the rest of the file
+/// (see the module notes). Every value the file holds is in it.
+pub fn digest(doc: &DesignDoc) -> Digest {
+    let mut c = Canonical::new();
+    c.settings(&doc.stage, &doc.profile, &doc.test);
+    c.bytes(b"design-file");
+    c.u8(2);
+    c.str(&doc.id);
+    c.str(&doc.hash);
+    for s in doc.series {
+        match s {
+            None => c.u8(0),
+            Some(s) => {
+                c.u8(1);
+                c.str(s.name());
+            }
+        }
+    }
+    for t in [doc.temp_c, doc.temp_min, doc.temp_max] {
+        c.f64(t);
+    }
+    match &doc.requirement {
+        None => c.u8(0),
+        Some(r) => {
+            c.u8(1);
+            c.f64(r.vcc);
+            c.f64(r.gain);
+            c.opt(r.rl);
+            c.f64(r.rs);
+            c.f64(r.ic_max);
+            c.f64(r.swing_pp);
+            c.opt(r.f_low);
+            c.str(r.series.name());
+            c.f64(r.tol);
+            c.str(r.cap_series.name());
+            c.f64(r.cap_tol);
+        }
+    }
+    match &doc.predicted {
+        None => c.u8(0),
+        Some(p) => {
+            c.u8(1);
+            for v in [
+                p.ic,
+                p.vb,
+                p.ve,
+                p.vc,
+                p.vce,
+                p.gain,
+                p.swing_pp,
+                p.f_low,
+                p.supply_current,
+                p.transistor_power,
+            ] {
+                c.f64(v);
+            }
+        }
+    }
+    c.finish()
 }
 
 fn file_part(p: Part, s: Option<Series>) -> FilePart {
@@ -395,6 +583,13 @@ pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
         version: VERSION,
         id: doc.id.clone(),
         hash: Some(hash(&doc.stage, &doc.profile)),
+        digest: Some(
+            digest(&DesignDoc {
+                hash: hash(&doc.stage, &doc.profile),
+                ..doc.clone()
+            })
+            .to_string(),
+        ),
         requirement: doc.requirement.map(|r| FileRequirement {
             vcc: r.vcc,
             gain: r.gain,
@@ -425,12 +620,22 @@ pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
             min: doc.temp_min,
             max: doc.temp_max,
         },
+        test: FileTest {
+            temp_min: doc.test.temp_min_c,
+            temp_max: doc.test.temp_max_c,
+            meter_gain: doc.test.meter.gain_error,
+            meter_offset: doc.test.meter.offset,
+            divider_tol: doc.test.meter.divider_tol,
+            input_r: doc.test.inputs.r,
+            inputs: doc.test.inputs.mode.name().to_string(),
+        },
         parts: FileParts {
             polarity: match s.polarity {
                 Polarity::Npn => "npn".into(),
                 Polarity::Pnp => "pnp".into(),
             },
             vcc: s.vcc.value,
+            vcc_tol: s.vcc.tol,
             rl: s.rl,
             rs: s.rs,
             r1: file_part(s.r1, sr(0)),
@@ -447,12 +652,44 @@ pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
     toml::to_string(&f).map_err(|e| CliError::usage(format!("design file: cannot write: {e}")))
 }
 
-/// Write a design file (replacing any file at `path`).
-pub fn save(path: &Path, doc: &DesignDoc) -> Result<(), CliError> {
+/// Write a design file: refused when `path` exists unless `force`; written atomically (a
+/// temporary file beside it, synced, then renamed over it), so a reader never sees half a file.
+pub fn save(path: &Path, doc: &DesignDoc, force: bool) -> Result<(), CliError> {
+    if !force && path.exists() {
+        return Err(CliError::field(
+            "-o",
+            path.display(),
+            "exists: give --force to replace it, or another file name",
+        ));
+    }
     let text = to_text(doc)?;
     let body = format!("# biasjig design file: written by `biasjig design`\n{text}");
-    std::fs::write(path, body)
+    write_atomic(path, body.as_bytes())
         .map_err(|e| CliError::usage(format!("-o: {}: cannot write: {e}", path.display())))
+}
+
+/// Write `bytes` to `path` atomically: a temporary file in the same directory, synced, then
+/// renamed over `path` (the old file, if any, stays whole until the rename).
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    use std::io::Write as _;
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => std::path::PathBuf::from("."),
+    };
+    let name = path
+        .file_name()
+        .map_or_else(|| "file".into(), |n| n.to_string_lossy().into_owned());
+    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
+    let result = (|| {
+        let mut f = std::fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        std::fs::rename(&tmp, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result
 }
 
 #[cfg(test)]
@@ -497,6 +734,8 @@ mod tests {
             requirement: Some(req),
             series: [e24, e24, e24, e24, e24, e6, e6, e6],
             predicted: None,
+            test: TestSettings::DEFAULT,
+            digest: String::new(),
         }
     }
 
@@ -522,6 +761,80 @@ mod tests {
         assert_eq!(back.requirement, d.requirement);
         assert_eq!(back.series, d.series);
         assert_eq!(back.id, "test-a");
+        assert_eq!(back.test, d.test);
+        assert_eq!(back.digest, digest(&back).to_string());
+    }
+
+    /// Item 8 of issue 11: before the digest, an edited [ambient] kept its hash, a file with the
+    /// hash line deleted loaded with any edit, and a part without `series` took any value.
+    #[test]
+    fn no_edit_is_accepted() {
+        let text = to_text(&doc()).unwrap();
+        let p = Path::new("x.toml");
+        assert!(parse(p, &text).is_ok());
+        let err = |t: &str| parse(p, t).unwrap_err().message;
+        let no_hash: String = text
+            .lines()
+            .filter(|l| !l.starts_with("hash = "))
+            .map(|l| format!("{l}\n"))
+            .collect();
+        // Without the design hash line the file still loads: the digest still matches.
+        assert!(parse(p, &no_hash).is_ok());
+        let m = err(&text.replace("min = -10.0", "min = -20.0"));
+        assert!(m.contains("digest"), "an [ambient] edit: {m}");
+        let m = err(&no_hash.replace("value = 33000.0", "value = 36000.0"));
+        assert!(
+            m.contains("digest"),
+            "a part edit without the hash line: {m}"
+        );
+        let off_series = no_hash.replace(
+            "[parts.r1]\nvalue = 240000.0\nseries = \"E24\"\n",
+            "[parts.r1]\nvalue = 250000.0\n",
+        );
+        assert_ne!(off_series, no_hash);
+        let m = err(&off_series);
+        assert!(
+            m.contains("digest"),
+            "an off-series value without series: {m}"
+        );
+        let m = err(&text.replace("temp_max = 25.0", "temp_max = 40.0"));
+        assert!(m.contains("digest"), "a test ambient edit: {m}");
+        let m = err(&no_hash.replace("vcc_tol = 0.0", "vcc_tol = 0.2"));
+        assert!(m.contains("digest"), "a supply tolerance edit: {m}");
+        let no_digest: String = text
+            .lines()
+            .filter(|l| !l.starts_with("digest = "))
+            .map(|l| format!("{l}\n"))
+            .collect();
+        let m = err(&no_digest);
+        assert!(m.contains("digest") && m.contains("missing"), "{m}");
+    }
+
+    #[test]
+    fn oversized_input_is_refused_without_reading_it_whole() {
+        // /dev/zero never ends: the read stops one byte past the limit.
+        let e = load(Path::new("/dev/zero")).unwrap_err();
+        assert!(e.message.contains("at most"), "{}", e.message);
+    }
+
+    #[test]
+    fn save_refuses_to_overwrite_and_replaces_atomically() {
+        let dir = std::env::temp_dir().join(format!("biasjig-df-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("a.toml");
+        let _ = std::fs::remove_file(&path);
+        save(&path, &doc(), false).unwrap();
+        let e = save(&path, &doc(), false).unwrap_err();
+        assert!(e.message.contains("--force"), "{}", e.message);
+        save(&path, &doc(), true).unwrap();
+        assert!(load(&path).is_ok());
+        let left: Vec<_> = std::fs::read_dir(&dir)
+            .unwrap()
+            .filter_map(|e| e.ok())
+            .filter(|e| e.file_name().to_string_lossy().contains(".tmp-"))
+            .collect();
+        assert!(left.is_empty(), "no temporary file left behind");
+        let _ = std::fs::remove_dir_all(&dir);
     }
 
     #[test]
@@ -529,8 +842,10 @@ mod tests {
         let text = to_text(&doc()).unwrap();
         let p = Path::new("x.toml");
         let err = |t: &str| parse(p, t).unwrap_err().message;
-        let m = err(&text.replace("version = 1", "version = 2"));
+        let m = err(&text.replace("version = 2", "version = 3"));
         assert!(m.contains("version") && m.contains("newer"), "{m}");
+        let m = err(&text.replace("version = 2", "version = 1"));
+        assert!(m.contains("version") && m.contains("design -o"), "{m}");
         let m = err(&text.replace("[ambient]", "[ambient]\nhumidity = 3"));
         assert!(m.contains("humidity"), "{m}");
         let m = err(&text.replace("beta_min = 100.0\n", ""));

@@ -195,9 +195,18 @@ pub struct BoardRecord {
     pub serial: String,
     /// The design that judged it.
     pub design: DesignRef,
-    /// Hash of every setting the verdict depends on (hex), when known.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    /// The settings digest (hex SHA-256) of everything the verdict depends on, when known
+    /// (`digest` in the log, as `check --json` prints it; the store's `settings_hash`).
+    #[serde(
+        default,
+        rename = "digest",
+        alias = "settings_hash",
+        skip_serializing_if = "Option::is_none"
+    )]
     pub settings_hash: Option<String>,
+    /// The test settings that judged the board (test ambient, meter, measuring inputs).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub settings: Option<Value>,
     /// Flags that overrode the design file's values, as given.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub overrides: Option<Value>,
@@ -229,6 +238,9 @@ pub struct BoardRecord {
     /// Why the readings were refused.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub reason: Option<String>,
+    /// The supply as measured and its window (nominal ± tolerance).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub supply: Option<Judged>,
     /// Per judged node: reading and window applied.
     #[serde(default)]
     pub nodes: BTreeMap<String, Judged>,
@@ -278,6 +290,9 @@ pub enum NotWhole {
         /// The reading.
         measured: Option<f64>,
     },
+    /// A board judged although its supply was outside the supply window.
+    #[error("judged with the supply outside its window; such a board is never judged")]
+    SupplyJudged,
     /// The verdict does not follow from the windows.
     #[error("verdict {recorded:?} but the windows and readings give {derived:?}")]
     Verdict {
@@ -336,6 +351,21 @@ impl BoardRecord {
             }
         }
         let mut pass = true;
+        if let Some(sup) = &self.supply {
+            if sup.measured != Some(r.vcc) {
+                return Err(NotWhole::Reading("vcc".into()));
+            }
+            if sup.holds() != Some(sup.ok) {
+                return Err(NotWhole::Ok {
+                    node: "supply".into(),
+                    ok: sup.ok,
+                    measured: sup.measured,
+                });
+            }
+            if !sup.ok {
+                return Err(NotWhole::SupplyJudged);
+            }
+        }
         for (name, n) in &self.nodes {
             let holds = n.holds();
             if holds != Some(n.ok) {

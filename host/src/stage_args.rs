@@ -4,49 +4,51 @@
 use std::path::PathBuf;
 
 use biasjig_core::device::{is_from_vbe, Profile, ProfileError};
+use biasjig_core::limits::Meter;
+use biasjig_core::settings::{self, InputMode, Inputs, SettingsError, TestSettings};
 use biasjig_core::stage::{Capacitor, Part, Polarity, Resistor, Stage, StageError};
 
 use crate::designfile::{self, DesignDoc};
 use crate::error::CliError;
 use crate::values;
 
-/// Default resistor tolerance (E24 parts are 5 %, common practice).
-pub const DEFAULT_TOL: f64 = 0.05;
-/// Default capacitor tolerance (E6 parts are 20 %, common practice).
-pub const DEFAULT_CAP_TOL: f64 = 0.20;
+/// Default resistor tolerance (the core's one definition).
+pub const DEFAULT_TOL: f64 = settings::DEFAULT_TOL;
+/// Default capacitor tolerance (the core's one definition).
+pub const DEFAULT_CAP_TOL: f64 = settings::DEFAULT_CAP_TOL;
 
 /// Transistor profile flags.
 #[derive(clap::Args, Debug, Clone, Default)]
 pub struct ProfileArgs {
     /// Typical hFE at 25 °C [default: 200]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long, value_parser = values::number, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta: Option<f64>,
     /// Lowest hFE at 25 °C [default: --beta]
-    #[arg(long = "beta-min", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long = "beta-min", value_parser = values::number, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_min: Option<f64>,
     /// Highest hFE at 25 °C [default: --beta]
-    #[arg(long = "beta-max", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long = "beta-max", value_parser = values::number, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_max: Option<f64>,
     /// Reverse (inverse-active) hFE [default: 1]
-    #[arg(long = "beta-rev", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long = "beta-rev", value_parser = values::number, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_rev: Option<f64>,
     /// hFE temperature coefficient, percent per °C [default: 0.5]
     #[arg(long = "beta-tc", value_parser = values::signed_percent, allow_hyphen_values = true, help_heading = "Transistor")]
     pub beta_tc: Option<f64>,
     /// Junction saturation current at 25 °C, A [default: from --vbe]
-    #[arg(long = "is", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long = "is", value_parser = values::amps, allow_hyphen_values = true, help_heading = "Transistor")]
     pub is: Option<f64>,
     /// VBE at IC = 1 mA and 25 °C, V [default: 0.65]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long, value_parser = values::volts, allow_hyphen_values = true, help_heading = "Transistor")]
     pub vbe: Option<f64>,
     /// Early voltage, V [default: none, infinite]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long, value_parser = values::volts, allow_hyphen_values = true, help_heading = "Transistor")]
     pub early: Option<f64>,
     /// VCE(sat) used for the output swing, V [default: 0.2]
-    #[arg(long = "vce-sat", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long = "vce-sat", value_parser = values::volts, allow_hyphen_values = true, help_heading = "Transistor")]
     pub vce_sat: Option<f64>,
     /// Power rating at 25 °C, W [default: 0.3]
-    #[arg(long = "power-rating", value_parser = values::value, allow_hyphen_values = true, help_heading = "Transistor")]
+    #[arg(long = "power-rating", value_parser = values::watts, allow_hyphen_values = true, help_heading = "Transistor")]
     pub power_rating: Option<f64>,
     /// Junction temperature where the derated power reaches zero, °C [default: 150]
     #[arg(long = "tj-max", value_parser = values::celsius, help_heading = "Transistor")]
@@ -60,37 +62,37 @@ pub struct StageArgs {
     #[arg(long, value_name = "FILE", help_heading = "Stage")]
     pub design: Option<PathBuf>,
     /// Supply, V
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::volts, allow_hyphen_values = true, help_heading = "Stage")]
     pub vcc: Option<f64>,
     /// Supply to base, Ω
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Stage")]
     pub r1: Option<f64>,
     /// Base to ground, Ω
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Stage")]
     pub r2: Option<f64>,
     /// Collector resistor, Ω
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Stage")]
     pub rc: Option<f64>,
     /// Emitter resistor, not bypassed, Ω [default: 0]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Stage")]
     pub re1: Option<f64>,
     /// Emitter resistor, bypassed by CE, Ω [default: 0]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Stage")]
     pub re2: Option<f64>,
     /// Load, AC-coupled through COUT, Ω [default: none, open]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Stage")]
     pub rl: Option<f64>,
     /// Source resistance, Ω [default: 0]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Stage")]
     pub rs: Option<f64>,
     /// Input coupling capacitor, F [default: ideal]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::farads, allow_hyphen_values = true, help_heading = "Stage")]
     pub cin: Option<f64>,
     /// Output coupling capacitor, F [default: ideal]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::farads, allow_hyphen_values = true, help_heading = "Stage")]
     pub cout: Option<f64>,
     /// Emitter bypass capacitor, F [default: ideal]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Stage")]
+    #[arg(long, value_parser = values::farads, allow_hyphen_values = true, help_heading = "Stage")]
     pub ce: Option<f64>,
     /// Resistor tolerance, percent [default: 5]
     #[arg(long, value_parser = values::percent, allow_hyphen_values = true, help_heading = "Stage")]
@@ -98,7 +100,7 @@ pub struct StageArgs {
     /// Capacitor tolerance, percent [default: 20]
     #[arg(long = "cap-tol", value_parser = values::percent, allow_hyphen_values = true, help_heading = "Stage")]
     pub cap_tol: Option<f64>,
-    /// Supply tolerance, percent [default: 0]
+    /// Supply tolerance, percent: a measured supply outside nominal ± this is not judged [default: 5]
     #[arg(long = "vcc-tol", value_parser = values::percent, allow_hyphen_values = true, help_heading = "Stage")]
     pub vcc_tol: Option<f64>,
     /// Ambient temperature, °C [default: 25]
@@ -119,10 +121,83 @@ pub struct Resolved {
     pub stage: Stage,
     /// The transistor.
     pub profile: Profile,
-    /// Ambient temperature, °C.
+    /// Nominal ambient, °C (analyze, spread: the one temperature of a single solve).
     pub temp_c: f64,
+    /// The test settings the verdict depends on besides the stage and profile.
+    pub settings: TestSettings,
+    /// Flags given beside `--design` that change what the file states (flag, value as given):
+    /// recorded with every board they judge.
+    pub overrides: Vec<(String, f64)>,
     /// The design file it came from, if any.
     pub doc: Option<DesignDoc>,
+}
+
+impl Resolved {
+    /// The settings digest of what is in force (stage, transistor, test settings).
+    pub fn digest(&self) -> settings::Digest {
+        settings::digest(&self.stage, &self.profile, &self.settings)
+    }
+}
+
+/// The meter flags shared by `limits`, `check` and `batch` (defaults: the core's meter).
+#[derive(clap::Args, Debug, Clone, Default)]
+pub struct MeterArgs {
+    /// Meter gain error, percent of the reading, 0 to 20 [default: 0.5]
+    #[arg(long, value_name = "P", value_parser = values::percent, help_heading = "Meter")]
+    pub meter: Option<f64>,
+    /// Meter offset error, V, 0 to 1 [default: 5m]
+    #[arg(long = "meter-offset", value_name = "V", value_parser = values::volts, help_heading = "Meter")]
+    pub meter_offset: Option<f64>,
+    /// Tolerance of the jig's input divider, percent, 0 to 10 [default: 0.1]
+    #[arg(long = "divider-tol", value_name = "P", value_parser = values::percent, help_heading = "Meter")]
+    pub divider_tol: Option<f64>,
+}
+
+/// The measuring-input flags (analyze, spread, limits, check, batch).
+#[derive(clap::Args, Debug, Clone, Default)]
+pub struct InputArgs {
+    /// Input resistance of the measuring inputs from each node read to ground, Ω [default: none, an ideal meter]
+    #[arg(long = "input-r", value_name = "R", value_parser = values::ohms, help_heading = "Measuring inputs")]
+    pub input_r: Option<f64>,
+    /// together: every input stays connected while the nodes are read (a jig); one: one node at a time (a hand-held meter) [default: together]
+    #[arg(long, value_name = "HOW", value_parser = input_mode, help_heading = "Measuring inputs")]
+    pub inputs: Option<InputMode>,
+}
+
+fn input_mode(text: &str) -> Result<InputMode, String> {
+    InputMode::parse(text.trim()).ok_or_else(|| format!("{text:?}: allowed: together or one"))
+}
+
+/// The station's test ambient (`limits`, `check`, `batch`).
+#[derive(clap::Args, Debug, Clone, Default)]
+pub struct TestArgs {
+    /// Lowest test ambient, °C [default: --temp, or the design file's test ambient, or 25]
+    #[arg(long = "temp-min", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Test ambient")]
+    pub temp_min: Option<f64>,
+    /// Highest test ambient, °C [default: --temp, or the design file's test ambient, or 25]
+    #[arg(long = "temp-max", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Test ambient")]
+    pub temp_max: Option<f64>,
+    #[command(flatten)]
+    /// The meter.
+    pub meter: MeterArgs,
+}
+
+/// Explain a test-settings error naming the flag.
+pub fn settings_error(s: &TestSettings, e: SettingsError) -> CliError {
+    match e {
+        SettingsError::Ambient => CliError::field(
+            "--temp-min/--temp-max",
+            format!("{}/{}", s.temp_min_c, s.temp_max_c),
+            e,
+        ),
+        SettingsError::MeterGain => CliError::field("--meter", 100.0 * s.meter.gain_error, e),
+        SettingsError::MeterOffset => CliError::field("--meter-offset", s.meter.offset, e),
+        SettingsError::DividerTol => {
+            CliError::field("--divider-tol", 100.0 * s.meter.divider_tol, e)
+        }
+        SettingsError::InputR => CliError::field("--input-r", s.inputs.r.unwrap_or(f64::NAN), e),
+        _ => CliError::usage(e.to_string()),
+    }
 }
 
 fn flag_of(r: Resistor) -> &'static str {
@@ -244,22 +319,29 @@ impl ProfileArgs {
     }
 }
 
-/// The default profile of the machine interface: hFE 200, VBE 0.65 V at 1 mA.
+/// The default profile of the machine interface (the core's one definition): hFE 200 with no
+/// spread, VBE 0.65 V at 1 mA.
 pub fn default_profile() -> Profile {
-    Profile::default()
+    settings::default_profile()
 }
 
 impl StageArgs {
-    /// Build the stage from the design file and/or flags, validated.
-    pub fn resolve(&self) -> Result<Resolved, CliError> {
+    /// Build the stage from the design file and/or flags, validated, with the test settings:
+    /// the file's (or the defaults), `--temp` as the test ambient, then the command's
+    /// measuring-input and test flags.
+    pub fn resolve_with(
+        &self,
+        inputs: Option<&InputArgs>,
+        test: Option<&TestArgs>,
+    ) -> Result<Resolved, CliError> {
         let doc = match &self.design {
             Some(path) => Some(designfile::load(path)?),
             None => None,
         };
         let tol = self.tol;
         let cap_tol = self.cap_tol.unwrap_or(DEFAULT_CAP_TOL);
-        let (mut stage, base_profile, base_temp) = match &doc {
-            Some(d) => (d.stage, d.profile, d.temp_c),
+        let (mut stage, base_profile, base_temp, base_settings) = match &doc {
+            Some(d) => (d.stage, d.profile, d.temp_c, d.test),
             None => {
                 let need = |v: Option<f64>, flag: &str| {
                     v.ok_or_else(|| {
@@ -275,7 +357,10 @@ impl StageArgs {
                     } else {
                         Polarity::Npn
                     },
-                    vcc: Part::new(need(self.vcc, "--vcc")?, self.vcc_tol.unwrap_or(0.0)),
+                    vcc: Part::new(
+                        need(self.vcc, "--vcc")?,
+                        self.vcc_tol.unwrap_or(settings::DEFAULT_SUPPLY_TOL),
+                    ),
                     r1: Part::new(need(self.r1, "--r1")?, t),
                     r2: Part::new(need(self.r2, "--r2")?, t),
                     rc: Part::new(need(self.rc, "--rc")?, t),
@@ -287,22 +372,118 @@ impl StageArgs {
                     cout: self.cout.map(|c| Part::new(c, cap_tol)),
                     ce: self.ce.map(|c| Part::new(c, cap_tol)),
                 };
-                (stage, default_profile(), 25.0)
+                (
+                    stage,
+                    default_profile(),
+                    settings::DEFAULT_TEMP_C,
+                    TestSettings::DEFAULT,
+                )
             }
         };
+        let mut overrides = Vec::new();
         if doc.is_some() {
             self.override_file(&mut stage, tol, cap_tol);
+            self.list_overrides(inputs, test, &mut overrides);
         }
         stage.validate().map_err(|e| stage_error(&stage, e))?;
         let profile = self.profile.apply(base_profile)?;
         let temp_c = self.temp.unwrap_or(base_temp);
         check_temp("--temp", temp_c)?;
+        let mut ts = base_settings;
+        if let Some(t) = self.temp {
+            ts.temp_min_c = t;
+            ts.temp_max_c = t;
+        }
+        if let Some(t) = test {
+            if let Some(lo) = t.temp_min {
+                check_temp("--temp-min", lo)?;
+                ts.temp_min_c = lo;
+            }
+            if let Some(hi) = t.temp_max {
+                check_temp("--temp-max", hi)?;
+                ts.temp_max_c = hi;
+            }
+            let m = &t.meter;
+            ts.meter = Meter {
+                gain_error: m.meter.unwrap_or(ts.meter.gain_error),
+                offset: m.meter_offset.unwrap_or(ts.meter.offset),
+                divider_tol: m.divider_tol.unwrap_or(ts.meter.divider_tol),
+            };
+        }
+        if let Some(i) = inputs {
+            ts.inputs = Inputs {
+                r: i.input_r.or(ts.inputs.r),
+                mode: i.inputs.unwrap_or(ts.inputs.mode),
+            };
+        }
+        ts.validate().map_err(|e| settings_error(&ts, e))?;
         Ok(Resolved {
             stage,
             profile,
             temp_c,
+            settings: ts,
+            overrides,
             doc,
         })
+    }
+
+    /// Every flag given beside `--design` that changes what the file states, with its value.
+    fn list_overrides(
+        &self,
+        inputs: Option<&InputArgs>,
+        test: Option<&TestArgs>,
+        out: &mut Vec<(String, f64)>,
+    ) {
+        let p = &self.profile;
+        let mut add = |flag: &str, v: Option<f64>| {
+            if let Some(v) = v {
+                out.push((flag.to_string(), v));
+            }
+        };
+        add("--vcc", self.vcc);
+        add("--r1", self.r1);
+        add("--r2", self.r2);
+        add("--rc", self.rc);
+        add("--re1", self.re1);
+        add("--re2", self.re2);
+        add("--rl", self.rl);
+        add("--rs", self.rs);
+        add("--cin", self.cin);
+        add("--cout", self.cout);
+        add("--ce", self.ce);
+        add("--tol", self.tol.map(|t| 100.0 * t));
+        add("--cap-tol", self.cap_tol.map(|t| 100.0 * t));
+        add("--vcc-tol", self.vcc_tol.map(|t| 100.0 * t));
+        add("--temp", self.temp);
+        add("--pnp", self.pnp.then_some(1.0));
+        add("--beta", p.beta);
+        add("--beta-min", p.beta_min);
+        add("--beta-max", p.beta_max);
+        add("--beta-rev", p.beta_rev);
+        add("--beta-tc", p.beta_tc.map(|t| 100.0 * t));
+        add("--is", p.is);
+        add("--vbe", p.vbe);
+        add("--early", p.early);
+        add("--vce-sat", p.vce_sat);
+        add("--power-rating", p.power_rating);
+        add("--tj-max", p.tj_max);
+        if let Some(t) = test {
+            add("--temp-min", t.temp_min);
+            add("--temp-max", t.temp_max);
+            add("--meter", t.meter.meter.map(|g| 100.0 * g));
+            add("--meter-offset", t.meter.meter_offset);
+            add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
+        }
+        if let Some(i) = inputs {
+            add("--input-r", i.input_r);
+            add(
+                "--inputs",
+                i.inputs.map(|m| match m {
+                    InputMode::Together => 0.0,
+                    InputMode::One => 1.0,
+                }),
+            );
+        }
     }
 
     fn override_file(&self, stage: &mut Stage, tol: Option<f64>, cap_tol: f64) {

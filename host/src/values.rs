@@ -5,7 +5,7 @@ use biasjig_core::units;
 
 fn explain(e: units::ValueError) -> String {
     let what = e.to_string();
-    if what.contains("expected") {
+    if what.contains("expected") || matches!(e, units::ValueError::WrongUnit(_)) {
         what
     } else {
         format!("{what}; allowed: a number such as 4700, 4.7e3, 4.7k, 4k7, 470R, R47, 100n, 2.2M or 10u")
@@ -17,9 +17,52 @@ pub fn value(text: &str) -> Result<f64, String> {
     units::parse_value(text).map_err(explain)
 }
 
-/// A value that may be negative (measured readings).
-pub fn signed(text: &str) -> Result<f64, String> {
-    units::parse_signed(text).map_err(explain)
+fn value_in(text: &str, unit: units::Unit) -> Result<f64, String> {
+    units::parse_value_in(text, unit).map_err(explain)
+}
+
+fn signed_in(text: &str, unit: units::Unit) -> Result<f64, String> {
+    units::parse_signed_in(text, unit).map_err(explain)
+}
+
+/// A resistance, Ω (`4k7`, `4.7kΩ`, `4.7kohm`; another unit is refused).
+pub fn ohms(text: &str) -> Result<f64, String> {
+    value_in(text, units::Unit::Ohm)
+}
+
+/// A capacitance, F (`10u`, `10uF`).
+pub fn farads(text: &str) -> Result<f64, String> {
+    value_in(text, units::Unit::Farad)
+}
+
+/// A voltage that is not negative, V (`12`, `12V`).
+pub fn volts(text: &str) -> Result<f64, String> {
+    value_in(text, units::Unit::Volt)
+}
+
+/// A measured voltage, V, that may be negative (`-1.2m`, `-1.2mV`).
+pub fn signed_volts(text: &str) -> Result<f64, String> {
+    signed_in(text, units::Unit::Volt)
+}
+
+/// A current, A (`2m`, `2mA`).
+pub fn amps(text: &str) -> Result<f64, String> {
+    value_in(text, units::Unit::Ampere)
+}
+
+/// A frequency, Hz (`1k`, `1kHz`).
+pub fn hertz(text: &str) -> Result<f64, String> {
+    value_in(text, units::Unit::Hertz)
+}
+
+/// A power, W (`300m`, `300mW`).
+pub fn watts(text: &str) -> Result<f64, String> {
+    value_in(text, units::Unit::Watt)
+}
+
+/// A plain number without unit letters (hFE).
+pub fn number(text: &str) -> Result<f64, String> {
+    value_in(text, units::Unit::Number)
 }
 
 /// A percentage, returned as a fraction (5 or 5% -> 0.05).

@@ -76,6 +76,7 @@ fn readings(vcc: f64, fault: Option<Fault>) -> [f64; 4] {
             temp_c: 25.0,
             beta_25: 250.0,
             fault: dev,
+            loads: Default::default(),
         },
     )
     .unwrap();

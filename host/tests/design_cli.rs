@@ -156,9 +156,17 @@ fn design_file_round_trip_through_analyze() {
     let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
     assert_eq!(e.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&e.stderr).contains("colour"));
-    std::fs::write(&edited, text.replace("version = 1", "version = 9")).unwrap();
+    std::fs::write(&edited, text.replace("version = 2", "version = 9")).unwrap();
     let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
     assert_eq!(e.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&e.stderr).contains("version"));
+    // Issue 11, item 8: `design -o` does not replace a file without --force.
+    let again = run(&args);
+    assert_eq!(again.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&again.stderr).contains("--force"));
+    assert_eq!(std::fs::read_to_string(&file).unwrap(), text, "left whole");
+    let mut forced = args.clone();
+    forced.push("--force");
+    assert!(run(&forced).status.success());
     std::fs::remove_dir_all(&dir).ok();
 }

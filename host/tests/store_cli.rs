@@ -80,6 +80,7 @@ fn board(serial: &str, rc: f64, vcc: f64, good: bool, k: usize) -> Board {
             temp_c: 25.0,
             beta_25: 250.0,
             fault: None,
+            loads: Default::default(),
         },
     )
     .unwrap();
@@ -673,15 +674,19 @@ fn limits_csv_has_exactly_the_windows_and_hashes_check_records() {
     let mut n = 0;
     for l in lines {
         let f: Vec<&str> = l.split(',').collect();
-        let node = &rec["nodes"][f[0]];
+        let node = if f[0] == "vcc" {
+            &rec["supply"]
+        } else {
+            &rec["nodes"][f[0]]
+        };
         // Bit for bit: the CSV's shortest decimal reads back as the very window applied.
         assert_eq!(f[1].parse::<f64>().unwrap(), node["low"].as_f64().unwrap(), "{l}");
         assert_eq!(f[2].parse::<f64>().unwrap(), node["high"].as_f64().unwrap(), "{l}");
         assert_eq!(f[4], rec["design"]["hash"].as_str().unwrap());
-        assert_eq!(f[5], rec["settings_hash"].as_str().unwrap());
+        assert_eq!(f[5], rec["digest"].as_str().unwrap());
         n += 1;
     }
-    assert_eq!(n, 6);
+    assert_eq!(n, 7, "the supply window and six node windows");
 }
 
 #[test]

@@ -462,8 +462,25 @@ fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &str)
     };
     let (vcc, vb, ve, vc) = (get("vcc"), get("vb"), get("ve"), get("vc"));
     let d = design.to_str().expect("utf-8 path");
+    // The jig's inputs (10 MΩ + 1 MΩ dividers, every one connected while the nodes are read)
+    // load the board; the instrument models them by default, the host is told.
     let (code, out, err) = run_host(&[
-        "check", "--design", d, "--vcc", &vcc, "--vb", &vb, "--ve", &ve, "--vc", &vc, "--json",
+        "check",
+        "--design",
+        d,
+        "--vcc",
+        &vcc,
+        "--vb",
+        &vb,
+        "--ve",
+        &ve,
+        "--vc",
+        &vc,
+        "--json",
+        "--input-r",
+        JIG_INPUT_R,
+        "--inputs",
+        "together",
     ]);
     assert!(
         code == 0 || code == 1,
@@ -499,6 +516,9 @@ fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &str)
     let inst_first = inst.faults.first().map(|(p, m, _)| (p.clone(), m.clone()));
     assert_eq!(host_first, inst_first, "{what}: first fault");
 }
+
+/// The jig's input resistance from each node to ground (firmware-example/README.md, wiring).
+const JIG_INPUT_R: &str = "11M";
 
 fn temp_dir() -> PathBuf {
     let d = std::env::temp_dir().join(format!("biasjig-fw-{}", std::process::id()));
@@ -642,6 +662,32 @@ fn emulated_jig_end_to_end_through_the_host() {
     assert!(good.faults.is_empty(), "a passing board has no faults");
     let rd = s.ok("readings");
     assert_parity(&design, &rd, &good, "good board");
+    // One settings digest: the instrument's (the pushed stage, its test ambient, meter and the
+    // jig's own inputs) and the host's for the same design read through the same inputs.
+    let inst_digest = s.ok("digest");
+    let p = pairs(rd.first().map(String::as_str).unwrap_or(""));
+    let (_, out, err) = run_host(&[
+        "check",
+        "--design",
+        design.to_str().expect("utf-8 path"),
+        "--vcc",
+        p["vcc"],
+        "--vb",
+        p["vb"],
+        "--ve",
+        p["ve"],
+        "--vc",
+        p["vc"],
+        "--json",
+        "--input-r",
+        JIG_INPUT_R,
+    ]);
+    let j: serde_json::Value = serde_json::from_str(&out).unwrap_or_else(|e| panic!("{e}: {err}"));
+    assert_eq!(
+        inst_digest,
+        vec![format!("digest={}", j["digest"].as_str().unwrap_or(""))],
+        "the instrument judges with the host's settings"
+    );
     let pass_screen = fw(&mut s, "fw:screen?").join("\n");
     assert!(pass_screen.contains('#'), "the verdict is drawn");
 

@@ -5,6 +5,7 @@
 )]
 
 use core::fmt;
+use core::fmt::Write as _;
 
 use embedded_io::Write;
 
@@ -12,7 +13,7 @@ use super::jig::{Channel, ChannelCal, Clock, Jig, JigError, Slot, Store, RECORD_
 use super::parse::{CalibrateStep, Command, MeterSetting, Mode, Setting, SET_NAMES};
 use super::record::{self, Settings};
 use super::reply::{Fail, Outcome, Reply, Text};
-use super::{default_settings, Code, Console, Source, PIN_FREE_TRIES};
+use super::{Code, Console, Source, PIN_FREE_TRIES};
 use crate::device::is_from_vbe;
 use crate::predict::predict;
 use crate::series::{colour_bands, BandCount};
@@ -24,7 +25,7 @@ use crate::units::{capacitor_code, resistor_code, Eng, Fixed, Full};
 const CAL_SAMPLES: u16 = 64;
 
 /// The commands with their usage and a line of help, in the order `help` lists them.
-pub const COMMANDS: [(&str, &str, &str); 27] = [
+pub const COMMANDS: [(&str, &str, &str); 28] = [
     ("help", "help [COMMAND]", "this list, or one command"),
     (
         "identify",
@@ -54,6 +55,11 @@ pub const COMMANDS: [(&str, &str, &str); 27] = [
         "operating point, estimate, gain, corner, power",
     ),
     ("hash", "hash", "design hash of the stage and transistor"),
+    (
+        "digest",
+        "digest",
+        "settings digest: stage, transistor, test ambient, meter and inputs",
+    ),
     (
         "requirement",
         "requirement [NAME VALUE]",
@@ -283,6 +289,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.editable()?;
                 self.set(s)?;
                 self.last = None;
+                self.warn_setting(r);
                 Ok(None)
             }
             Command::Profile => {
@@ -300,6 +307,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     r.data(format_args!("hash={h:016x}"));
                 } else {
                     r.data(format_args!("design hash {h:016x}"));
+                }
+                Ok(None)
+            }
+            Command::Digest => {
+                let st = &self.settings;
+                let d = crate::settings::digest(&st.stage, &st.profile, &st.test_settings());
+                if r.machine() {
+                    r.data(format_args!("digest={d}"));
+                } else {
+                    r.data(format_args!("settings digest {d}"));
                 }
                 Ok(None)
             }
@@ -393,7 +410,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
     fn reset(&mut self) -> Outcome {
         self.editable()?;
-        self.settings = default_settings();
+        self.settings = Self::defaults_for(&self.jig);
         self.readings = None;
         self.last = None;
         self.requirement = super::default_requirement();
@@ -526,6 +543,8 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             Setting::VceSat(v) => pr.vce_sat = v,
             Setting::PowerRating(v) => pr.power_25 = v,
             Setting::TjMax(v) => pr.tj_max = v,
+            Setting::InputR(v) => next.inputs.r = v,
+            Setting::Inputs(m) => next.inputs.mode = m,
         }
         next.stage
             .validate()
@@ -533,17 +552,79 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         next.profile
             .validate()
             .map_err(|e| Fail::new(Code::Range, format_args!("{e}")))?;
+        next.test_settings()
+            .validate()
+            .map_err(|e| Fail::new(Code::Range, format_args!("{e}")))?;
         self.settings = next;
         Ok(None)
     }
 
+    /// After `set`: a warning line when the stage is not forward active at its nominal point
+    /// (it then gets no windows) or a tolerance is unusual.
+    #[inline(never)]
+    fn warn_setting<W: Write>(&self, r: &mut Reply<'_, W>) {
+        use crate::settings::{UNUSUAL_SUPPLY_TOL, UNUSUAL_TOL};
+        let st = &self.settings;
+        match crate::judge::nominal_region(&st.stage, &st.profile, &st.test_settings()) {
+            Ok(crate::solve::Region::Active) => {}
+            Ok(region) => {
+                if r.machine() {
+                    r.data(format_args!("warning=not_active region={}", region.name()));
+                } else {
+                    r.data(format_args!(
+                        "warning: the stage is not forward active at its nominal point (region: \
+                         {}): limits, check and test refuse it until the bias is changed",
+                        region.name()
+                    ));
+                }
+            }
+            Err(e) => r.data(format_args!(
+                "warning: the nominal point does not solve: {e}"
+            )),
+        }
+        let supply = st.stage.vcc.tol;
+        if supply > UNUSUAL_SUPPLY_TOL || supply == 0.0 {
+            if r.machine() {
+                r.data(format_args!(
+                    "warning=unusual_tolerance part=VCC tol={}",
+                    Num(supply)
+                ));
+            } else {
+                r.data(format_args!(
+                    "warning: supply tolerance {} is unusual (a bench supply is set to within a \
+                     few %; 0 % refuses any supply not exactly nominal)",
+                    Pct(supply)
+                ));
+            }
+        }
+        for which in Resistor::ALL {
+            let t = st.stage.part(which).tol;
+            if t > UNUSUAL_TOL {
+                if r.machine() {
+                    r.data(format_args!(
+                        "warning=unusual_tolerance part={} tol={}",
+                        which.name(),
+                        Num(t)
+                    ));
+                } else {
+                    r.data(format_args!(
+                        "warning: {} tolerance {} is unusual for a bias resistor (1 % to 10 %)",
+                        which.name(),
+                        Pct(t)
+                    ));
+                }
+            }
+        }
+    }
+
     #[inline(never)]
     fn set_meter(&mut self, m: MeterSetting) -> Outcome {
+        use crate::settings::{DIVIDER_TOL_MAX, METER_GAIN_MAX, METER_OFFSET_MAX};
         let meter = &mut self.settings.meter;
         match m {
-            MeterSetting::Gain(g) if g <= 0.2 => meter.gain_error = g,
-            MeterSetting::Offset(v) if v <= 1.0 => meter.offset = v,
-            MeterSetting::Divider(d) if d <= 0.1 => meter.divider_tol = d,
+            MeterSetting::Gain(g) if g <= METER_GAIN_MAX => meter.gain_error = g,
+            MeterSetting::Offset(v) if v <= METER_OFFSET_MAX => meter.offset = v,
+            MeterSetting::Divider(d) if d <= DIVIDER_TOL_MAX => meter.divider_tol = d,
             MeterSetting::Gain(g) => {
                 return Err(Fail::new(
                     Code::Range,
@@ -932,9 +1013,10 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
     fn show_limits<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
         let st = &self.settings;
-        let var = st.variation();
-        let l = crate::limits::limits(&st.stage, &st.profile, &var, &st.meter, st.stage.vcc.value)
-            .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
+        let ts = st.test_settings();
+        let w = crate::judge::windows(&st.stage, &st.profile, &ts, st.stage.vcc.value)
+            .map_err(super::judge::judge_fail)?;
+        let l = w.limits;
         let rows = [
             ("vb", l.vb, "V"),
             ("ve", l.ve, "V"),
@@ -960,9 +1042,46 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             }
         }
         if r.machine() {
+            r.data(format_args!(
+                "node=supply low={} high={}",
+                Num(w.supply.low),
+                Num(w.supply.high)
+            ));
             r.data(format_args!("vcc={}", Num(l.vcc)));
+            r.data(format_args!(
+                "ambient min={} max={} input_r={} inputs={}",
+                Num(ts.temp_min_c),
+                Num(ts.temp_max_c),
+                Opt(ts.inputs.r),
+                ts.inputs.mode.name()
+            ));
         } else {
+            r.data(format_args!(
+                "VCC  {} to {} (supply window: outside it a board is not judged)",
+                Eng::new(w.supply.low, "V"),
+                Eng::new(w.supply.high, "V")
+            ));
             r.data(format_args!("at VCC {}", Eng::new(l.vcc, "V")));
+            let mut inputs = Text::default();
+            match ts.inputs.r {
+                Some(rin) => {
+                    let _ = write!(
+                        inputs,
+                        "inputs {} to ground, {}",
+                        Eng::new(rin, "Ω"),
+                        ts.inputs.mode.name()
+                    );
+                }
+                None => {
+                    let _ = inputs.write_str("an ideal meter (no inputs modelled)");
+                }
+            }
+            r.data(format_args!(
+                "ambient {} to {} °C; {}",
+                Num(ts.temp_min_c),
+                Num(ts.temp_max_c),
+                inputs.as_str()
+            ));
         }
         Ok(None)
     }
@@ -970,12 +1089,15 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
     fn show_meter<W: Write>(&self, r: &mut Reply<'_, W>) {
         let m = &self.settings.meter;
+        let i = &self.settings.inputs;
         if r.machine() {
             r.data(format_args!(
-                "gain={} offset={} divider={}",
+                "gain={} offset={} divider={} input_r={} inputs={}",
                 Num(m.gain_error),
                 Num(m.offset),
-                Num(m.divider_tol)
+                Num(m.divider_tol),
+                Opt(i.r),
+                i.mode.name()
             ));
         } else {
             r.data(format_args!(
@@ -984,6 +1106,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Eng::new(m.offset, "V"),
                 Pct(m.divider_tol)
             ));
+            match i.r {
+                Some(rin) => r.data(format_args!(
+                    "measuring inputs {} from each node to ground, {}",
+                    Eng::new(rin, "Ω"),
+                    i.mode.name()
+                )),
+                None => r.data(format_args!("measuring inputs: ideal (none modelled)")),
+            }
         }
     }
 

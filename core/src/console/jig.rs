@@ -174,6 +174,13 @@ pub trait Jig {
         let _ = fault;
         Err(JigError::NotSupported)
     }
+
+    /// The input resistance of the jig's measuring inputs from each node to ground, Ω (its
+    /// input dividers; every input stays connected while the nodes are read): the console's
+    /// default `input-r`. `None` (the default): inputs that do not load the board.
+    fn input_r(&self) -> Option<f64> {
+        None
+    }
 }
 
 /// Size of one store record, bytes.

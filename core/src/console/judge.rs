@@ -1,10 +1,8 @@
 //! The commands that judge a board and spread a stage: `check`, `test`, `diagnose` and
 //! `spread`.
 //!
-//! `check` and `test` make the same core calls with the same choices as `biasjig check`: the
-//! plausibility refusals of [`check::plausible`], the limits of [`limits::limits`] at the
-//! measured supply over the ambient range of the settings, [`check::check`], and, when the
-//! board fails, [`diagnose::diagnose`] with the same meter and ambient range.
+//! `check` and `test` call the one judging path of `biasjig check`, [`crate::judge::judge`], with
+//! the console's stage, transistor and test settings (ambient, meter, measuring inputs).
 #![expect(
     clippy::result_large_err,
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
@@ -18,10 +16,10 @@ use super::commands::{show_readings, Num, Opt};
 use super::jig::{Clock, Jig, Store};
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
-use crate::check::{self, Implausible, Verdict};
-use crate::diagnose::{self, Diagnosis};
+use crate::check::Verdict;
+use crate::diagnose::Diagnosis;
 use crate::explain::{FaultWords, SeparatingStep};
-use crate::limits;
+use crate::judge::JudgeError;
 #[cfg(feature = "monte-carlo")]
 use crate::spread::McSettings;
 use crate::spread::{self, Method, SpreadError};
@@ -44,8 +42,14 @@ pub struct LastCheck {
     pub diagnosis: Option<Diagnosis>,
 }
 
-fn refused(why: Implausible) -> Fail {
-    Fail::new(Code::Implausible, format_args!("readings refused: {why}"))
+/// The status of a board the judging path did not judge.
+pub(super) fn judge_fail(e: JudgeError) -> Fail {
+    let code = match e {
+        JudgeError::Implausible(_) | JudgeError::Supply { .. } => Code::Implausible,
+        JudgeError::Settings(_) | JudgeError::Stage(_) | JudgeError::NotActive(_) => Code::Range,
+        _ => Code::Solve,
+    };
+    Fail::new(code, format_args!("{e}"))
 }
 
 fn spread_fail(what: &str, e: SpreadError) -> Fail {
@@ -57,16 +61,17 @@ fn spread_fail(what: &str, e: SpreadError) -> Fail {
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
-    /// Judge readings: plausibility, limits at the measured supply, verdict and, when the board
-    /// fails, the diagnosis. Keeps the result as the last check (nothing changes on an error).
+    /// Judge readings through the one judging path ([`crate::judge::verdict`], then for a failed
+    /// board [`crate::judge::diagnosis`]: the steps of [`crate::judge::judge`]; the supply window,
+    /// the nominal region, plausibility, windows at the measured supply over the test ambient
+    /// with the measuring inputs attached, verdict and, when the board fails, the diagnosis).
+    /// Keeps the result as the last check (nothing changes on an error).
     #[inline(never)]
     pub(super) fn judge(&mut self, rd: Readings, src: Source) -> Result<(), Fail> {
         let st = &self.settings;
-        let var = st.variation();
-        check::plausible(&st.stage, &st.meter, &rd).map_err(refused)?;
-        let lim = limits::limits(&st.stage, &st.profile, &var, &st.meter, rd.vcc)
-            .map_err(|e| Fail::new(Code::Solve, format_args!("limits: {e}")))?;
-        let verdict = check::check(&st.stage, &lim, &st.meter, &rd).map_err(refused)?;
+        let ts = st.test_settings();
+        let (_, verdict) =
+            crate::judge::verdict(&st.stage, &st.profile, &ts, &rd).map_err(judge_fail)?;
         if verdict.pass {
             self.last = Some(LastCheck {
                 readings: rd,
@@ -77,7 +82,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         } else {
             // The diagnosis (about 2 KB) goes straight into the session state: one value on
             // the stack, no further copies.
-            match diagnose::diagnose(&st.stage, &st.profile, &rd, &st.meter, &var) {
+            match crate::judge::diagnosis(&st.stage, &st.profile, &ts, &rd) {
                 Ok(d) => {
                     self.last = Some(LastCheck {
                         readings: rd,
@@ -86,7 +91,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                         diagnosis: Some(d),
                     });
                 }
-                Err(e) => return Err(Fail::new(Code::Solve, format_args!("diagnosis: {e}"))),
+                Err(e) => return Err(judge_fail(crate::judge::JudgeError::Diagnose(e))),
             }
         }
         self.readings = Some((rd, src));

@@ -40,9 +40,9 @@ pub use commands::Num;
 pub use judge::{LastCheck, LISTED_FAULTS};
 
 use crate::design::{Candidates, Requirement};
-use crate::device::{is_from_vbe, Profile};
-use crate::limits::Meter;
+use crate::device::Profile;
 use crate::series::Series;
+use crate::settings::TestSettings;
 use crate::stage::{Part, Polarity, Readings, Stage};
 
 /// Longest input line, bytes (without its line end).
@@ -202,7 +202,7 @@ pub fn default_stage() -> Stage {
     let c = |v| Some(Part::new(v, 0.20));
     Stage {
         polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.05),
+        vcc: Part::new(12.0, crate::settings::DEFAULT_SUPPLY_TOL),
         r1: r(47e3),
         r2: r(10e3),
         rc: r(4.7e3),
@@ -216,16 +216,12 @@ pub fn default_stage() -> Stage {
     }
 }
 
-/// The starting transistor: the demo scenario's generic small-signal NPN profile (invented):
-/// hFE 100 to 300 (typical 200), VBE 0.65 V at 1 mA, VCE(sat) 0.2 V, 300 mW at 25 °C.
+/// The starting transistor: the one every front end starts from
+/// ([`crate::settings::default_profile`]: hFE 200 with no spread until one is set, VBE 0.65 V at
+/// 1 mA, VCE(sat) 0.2 V, 300 mW at 25 °C), so that the same stage gets the same windows here as
+/// on the command line.
 pub fn default_profile() -> Profile {
-    Profile {
-        beta_min: 100.0,
-        beta_typ: 200.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    }
+    crate::settings::default_profile()
 }
 
 /// The default settings (after `*RST`).
@@ -233,10 +229,11 @@ pub fn default_settings() -> Settings {
     Settings {
         stage: default_stage(),
         profile: default_profile(),
-        temp_c: 25.0,
-        temp_min_c: 25.0,
-        temp_max_c: 25.0,
-        meter: Meter::default(),
+        temp_c: crate::settings::DEFAULT_TEMP_C,
+        temp_min_c: TestSettings::DEFAULT.temp_min_c,
+        temp_max_c: TestSettings::DEFAULT.temp_max_c,
+        meter: TestSettings::DEFAULT.meter,
+        inputs: TestSettings::DEFAULT.inputs,
         pin: None,
         pin_failures: 0,
     }
@@ -311,13 +308,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// counts against its budget). Call [`Console::load_stored`] on it next.
     #[inline(never)]
     pub fn unloaded(identity: Identity, jig: J, store: S, clock: C) -> Self {
+        let settings = Self::defaults_for(&jig);
         Self {
             jig,
             store,
             clock,
             identity,
             lines: LineBuf::new(),
-            settings: default_settings(),
+            settings,
             calibration: Calibration::default(),
             cal_low: [None; 4],
             readings: None,
@@ -329,6 +327,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             mode: Mode::Human,
             retry_at_ms: 0,
         }
+    }
+
+    /// The default settings on this jig: [`default_settings`] with the jig's own measuring
+    /// inputs ([`Jig::input_r`], attached together).
+    pub(crate) fn defaults_for(jig: &J) -> Settings {
+        let mut s = default_settings();
+        s.inputs.r = jig.input_r();
+        s
     }
 
     /// Load the settings and calibration from the store (defaults stay when it has none or a

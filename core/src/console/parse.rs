@@ -4,8 +4,9 @@
 use super::jig::Channel;
 use super::Code;
 use crate::series::{BandCount, Series};
+use crate::settings::InputMode;
 use crate::stage::{Capacitor, DeviceFault, Fault, Polarity, Readings, Resistor};
-use crate::units;
+use crate::units::{self, Unit};
 
 /// Most words on one line.
 pub const MAX_WORDS: usize = 8;
@@ -69,6 +70,11 @@ pub enum Setting {
     PowerRating(f64),
     /// Junction temperature where the derated power reaches zero, °C.
     TjMax(f64),
+    /// Input resistance of the measuring inputs from each node read to ground, Ω (`None`: an
+    /// ideal meter).
+    InputR(Option<f64>),
+    /// How the measuring inputs are attached.
+    Inputs(InputMode),
 }
 
 /// One change made by `requirement NAME VALUE`.
@@ -132,19 +138,19 @@ fn requirement<'a>(name: &'a str, v: &'a str) -> Result<ReqSetting, ParseError<'
             return Err(err(Code::Value, name, v, "npn or pnp"));
         })
     } else if n("vcc") {
-        ReqSetting::Vcc(value(name, v)?)
+        ReqSetting::Vcc(value_in(name, v, Unit::Volt)?)
     } else if n("gain") {
-        ReqSetting::Gain(value(name, v)?)
+        ReqSetting::Gain(value_in(name, v, Unit::Number)?)
     } else if n("rl") {
-        ReqSetting::Load(optional(name, v)?)
+        ReqSetting::Load(optional_in(name, v, Unit::Ohm)?)
     } else if n("rs") {
-        ReqSetting::Source(value(name, v)?)
+        ReqSetting::Source(value_in(name, v, Unit::Ohm)?)
     } else if n("ic-max") {
-        ReqSetting::IcMax(value(name, v)?)
+        ReqSetting::IcMax(value_in(name, v, Unit::Ampere)?)
     } else if n("swing") {
-        ReqSetting::Swing(value(name, v)?)
+        ReqSetting::Swing(value_in(name, v, Unit::Volt)?)
     } else if n("f-low") {
-        ReqSetting::FLow(optional(name, v)?)
+        ReqSetting::FLow(optional_in(name, v, Unit::Hertz)?)
     } else if n("temp") {
         ReqSetting::Temp(celsius(v)?)
     } else if n("temp-min") {
@@ -248,6 +254,8 @@ pub enum Command<'a> {
     Predict,
     /// `hash`: the design hash.
     Hash,
+    /// `digest`: the settings digest (stage, transistor, test ambient, meter, inputs).
+    Digest,
     /// `requirement [NAME VALUE]`.
     Requirement(Option<ReqSetting>),
     /// `design`.
@@ -324,6 +332,27 @@ fn value<'a>(field: &'a str, text: &'a str) -> Result<f64, ParseError<'a>> {
     units::parse_value(text).map_err(|_| err(Code::Value, field, text, VALUE_FORMS))
 }
 
+/// A non-negative value of a field of `unit` (its own unit letters may follow, no other's).
+fn value_in<'a>(field: &'a str, text: &'a str, unit: Unit) -> Result<f64, ParseError<'a>> {
+    units::parse_value_in(text, unit).map_err(|e| match e {
+        units::ValueError::WrongUnit(u) => err(Code::Value, field, text, u.allowed()),
+        _ => err(Code::Value, field, text, VALUE_FORMS),
+    })
+}
+
+/// A value of a field of `unit`, or `none`.
+fn optional_in<'a>(
+    field: &'a str,
+    text: &'a str,
+    unit: Unit,
+) -> Result<Option<f64>, ParseError<'a>> {
+    if text.eq_ignore_ascii_case("none") {
+        Ok(None)
+    } else {
+        value_in(field, text, unit).map(Some)
+    }
+}
+
 fn signed<'a>(field: &'a str, text: &'a str) -> Result<f64, ParseError<'a>> {
     units::parse_signed(text).map_err(|_| err(Code::Value, field, text, VALUE_FORMS))
 }
@@ -344,21 +373,6 @@ fn signed_percent<'a>(field: &'a str, text: &'a str) -> Result<f64, ParseError<'
             "a percentage such as 0.5 or -0.2%",
         )
     })
-}
-
-fn optional<'a>(field: &'a str, text: &'a str) -> Result<Option<f64>, ParseError<'a>> {
-    if text.eq_ignore_ascii_case("none") {
-        Ok(None)
-    } else {
-        units::parse_value(text).map(Some).map_err(|_| {
-            err(
-                Code::Value,
-                field,
-                text,
-                "a value such as 10u or 4n7, or none",
-            )
-        })
-    }
 }
 
 fn count<'a>(field: &'a str, text: Option<&'a str>) -> Result<u16, ParseError<'a>> {
@@ -395,7 +409,8 @@ fn capacitor(name: &str) -> Option<Capacitor> {
 
 /// The names `set` accepts, for the help text and error messages.
 pub const SET_NAMES: &str = "vcc r1 r2 rc re1 re2 tol rl rs cin cout ce polarity temp temp-min \
-temp-max beta beta-min beta-max beta-rev beta-tc vbe is early vce-sat power-rating tj-max";
+temp-max beta beta-min beta-max beta-rev beta-tc vbe is early vce-sat power-rating tj-max input-r \
+inputs";
 
 fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
     let usage = "set NAME VALUE [TOL%], NAME one of the names in `help set`";
@@ -416,20 +431,24 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
         }
     };
     if let Some(r) = resistor(name) {
-        return Ok(Setting::Resistor(r, value(name, v)?, tol));
+        return Ok(Setting::Resistor(r, value_in(name, v, Unit::Ohm)?, tol));
     }
     if let Some(c) = capacitor(name) {
-        return Ok(Setting::Capacitor(c, optional(name, v)?, tol));
+        return Ok(Setting::Capacitor(
+            c,
+            optional_in(name, v, Unit::Farad)?,
+            tol,
+        ));
     }
     if n("vcc") {
-        return Ok(Setting::Vcc(value(name, v)?, tol));
+        return Ok(Setting::Vcc(value_in(name, v, Unit::Volt)?, tol));
     }
     let s = if n("tol") {
         Setting::Tolerance(percent(name, v)?)
     } else if n("rl") {
-        Setting::Load(optional(name, v)?)
+        Setting::Load(optional_in(name, v, Unit::Ohm)?)
     } else if n("rs") {
-        Setting::Source(value(name, v)?)
+        Setting::Source(value_in(name, v, Unit::Ohm)?)
     } else if n("polarity") {
         Setting::Polarity(if v.eq_ignore_ascii_case("npn") {
             Polarity::Npn
@@ -452,27 +471,31 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
             Setting::TempMax(t)
         }
     } else if n("beta") {
-        Setting::Beta(value(name, v)?)
+        Setting::Beta(value_in(name, v, Unit::Number)?)
     } else if n("beta-min") {
-        Setting::BetaMin(value(name, v)?)
+        Setting::BetaMin(value_in(name, v, Unit::Number)?)
     } else if n("beta-max") {
-        Setting::BetaMax(value(name, v)?)
+        Setting::BetaMax(value_in(name, v, Unit::Number)?)
     } else if n("beta-rev") {
-        Setting::BetaRev(value(name, v)?)
+        Setting::BetaRev(value_in(name, v, Unit::Number)?)
     } else if n("beta-tc") {
         Setting::BetaTc(signed_percent(name, v)?)
     } else if n("vbe") {
-        Setting::Vbe(value(name, v)?)
+        Setting::Vbe(value_in(name, v, Unit::Volt)?)
     } else if n("is") {
-        Setting::Is(value(name, v)?)
+        Setting::Is(value_in(name, v, Unit::Ampere)?)
     } else if n("early") {
-        Setting::Early(optional(name, v)?)
+        Setting::Early(optional_in(name, v, Unit::Volt)?)
     } else if n("vce-sat") {
-        Setting::VceSat(value(name, v)?)
+        Setting::VceSat(value_in(name, v, Unit::Volt)?)
     } else if n("power-rating") {
-        Setting::PowerRating(value(name, v)?)
+        Setting::PowerRating(value_in(name, v, Unit::Watt)?)
     } else if n("tj-max") {
         Setting::TjMax(signed(name, v)?)
+    } else if n("input-r") {
+        Setting::InputR(optional_in(name, v, Unit::Ohm)?)
+    } else if n("inputs") {
+        Setting::Inputs(InputMode::parse(v).ok_or(err(Code::Value, name, v, "together or one"))?)
     } else {
         return Err(err(Code::Value, "set", name, SET_NAMES));
     };
@@ -562,6 +585,9 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
     }
     if is("hash") {
         return none(Command::Hash);
+    }
+    if is("digest") {
+        return none(Command::Digest);
     }
     if is("requirement") {
         return match args {

@@ -17,10 +17,11 @@ use super::jig::{Calibration, ChannelCal, Slot, RECORD_LEN};
 use super::parse::Pin;
 use crate::device::Profile;
 use crate::limits::Meter;
+use crate::settings::{InputMode, Inputs, TestSettings};
 use crate::stage::{Part, Polarity, Stage};
 
 /// Record format version.
-const VERSION: u8 = 2;
+const VERSION: u8 = 3;
 /// FNV-1a 64 offset basis.
 const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
 /// FNV-1a 64 prime.
@@ -220,6 +221,8 @@ pub struct Settings {
     pub temp_max_c: f64,
     /// Meter and jig accuracy.
     pub meter: Meter,
+    /// The measuring inputs attached while the nodes are read.
+    pub inputs: Inputs,
     /// The PIN while locked (`None`: unlocked).
     pub pin: Option<Pin>,
     /// Wrong PINs given since the last right one.
@@ -261,9 +264,19 @@ fn slot_letter(slot: Slot) -> u8 {
 }
 
 impl Settings {
-    /// The ambient range as the spread, limits and diagnosis take it.
+    /// The ambient range as the spread, limits and diagnosis take it, read through the inputs.
     pub fn variation(&self) -> crate::spread::Variation {
-        crate::spread::Variation::between(self.temp_min_c, self.temp_max_c)
+        crate::judge::variation(&self.test_settings())
+    }
+
+    /// The test settings the verdict depends on besides the stage and profile.
+    pub fn test_settings(&self) -> TestSettings {
+        TestSettings {
+            temp_min_c: self.temp_min_c,
+            temp_max_c: self.temp_max_c,
+            meter: self.meter,
+            inputs: self.inputs,
+        }
     }
 
     /// Encode into a store record.
@@ -277,6 +290,11 @@ impl Settings {
             w.f64(self.meter.gain_error);
             w.f64(self.meter.offset);
             w.f64(self.meter.divider_tol);
+            w.opt(self.inputs.r);
+            w.u8(match self.inputs.mode {
+                InputMode::Together => 0,
+                InputMode::One => 1,
+            });
             match self.pin {
                 None => w.u8(0),
                 Some(p) => {
@@ -300,6 +318,14 @@ impl Settings {
             offset: r.f64()?,
             divider_tol: r.f64()?,
         };
+        let inputs = Inputs {
+            r: r.opt()?,
+            mode: match r.u8()? {
+                0 => InputMode::Together,
+                1 => InputMode::One,
+                _ => return None,
+            },
+        };
         let pin = match r.u8()? {
             0 => None,
             len => {
@@ -317,6 +343,7 @@ impl Settings {
             temp_min_c,
             temp_max_c,
             meter,
+            inputs,
             pin,
             pin_failures,
         })

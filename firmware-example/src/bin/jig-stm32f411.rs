@@ -1,6 +1,6 @@
 //! biasjig jig reader on an STM32F411 board: the core console on USART2 (PA2 TX, PA3 RX, 115200
 //! 8N1; the ST-LINK virtual COM port on a Nucleo-F411RE), the jig's four node inputs through
-//! 100k/10k dividers (ratio 11, 36.3 V full scale) on ADC1 (VCC PA0/IN0, VB PA1/IN1, VE PA4/IN4,
+//! 10M/1M buffered dividers (ratio 11, 36.3 V full scale, 11 MΩ per input) on ADC1 (VCC PA0/IN0, VB PA1/IN1, VE PA4/IN4,
 //! VC PB0/IN8), an SSD1306 128x64 OLED on I2C1 (PB8 SCL, PB9 SDA, address 0x3C) and a
 //! measure-and-check button on PC13 (active low).
 //!

@@ -25,10 +25,10 @@ use biasjig_core::units;
 use serde_json::{json, Value};
 
 use crate::board::{from_outcome, Recorder, RunInfo};
-use crate::cmd::check::{evaluate, outcome_json, MeterArgs, Outcome, Station};
+use crate::cmd::check::{evaluate, outcome_json, Outcome, Station};
 use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK, EXIT_USAGE};
 use crate::record::{hex_digest, Source};
-use crate::stage_args::StageArgs;
+use crate::stage_args::{InputArgs, StageArgs, TestArgs};
 use crate::store::TraceArgs;
 use crate::Global;
 
@@ -54,7 +54,9 @@ pub struct Cmd {
     #[arg(long, value_name = "FILE")]
     log: Option<PathBuf>,
     #[command(flatten)]
-    meter: MeterArgs,
+    test: TestArgs,
+    #[command(flatten)]
+    inputs: InputArgs,
     #[command(flatten)]
     trace: TraceArgs,
 }
@@ -301,8 +303,10 @@ impl JsonOut {
 impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
-        let resolved = self.stage.resolve()?;
-        let st = Station::new(&resolved, self.meter.meter());
+        let resolved = self
+            .stage
+            .resolve_with(Some(&self.inputs), Some(&self.test))?;
+        let st = Station::new(&resolved);
         let name = self.readings.display().to_string();
         let file = std::fs::File::open(&self.readings)
             .map_err(|e| CliError::usage(format!("{name}: cannot read the readings: {e}")))?;
@@ -373,12 +377,12 @@ impl Cmd {
             }
             t.retests += u32::from(board.retest);
             match &o {
-                Outcome::Judged(v, _) if v.pass => t.passed += 1,
+                Outcome::Judged(j) if j.verdict.pass => t.passed += 1,
                 Outcome::Judged(..) => t.failed += 1,
                 Outcome::Refused(_) => t.refused += 1,
             }
             if g.json {
-                let mut doc = outcome_json(&o);
+                let mut doc = outcome_json(&o, r.vcc);
                 if let Some(obj) = doc.as_object_mut() {
                     obj.insert("serial".into(), json!(serial));
                     obj.insert("line".into(), json!(n));
@@ -454,11 +458,11 @@ impl Cmd {
 fn summary_line(st: &Station, o: &Outcome) -> String {
     match o {
         Outcome::Refused(why) => why.to_string(),
-        Outcome::Judged(_, None) => String::new(),
-        Outcome::Judged(_, Some(d)) => d
-            .faults()
-            .next()
-            .map_or(String::new(), |h| crate::cmd::check::describe(&st.stage, h)),
+        Outcome::Judged(j) => j.diagnosis.as_ref().map_or(String::new(), |d| {
+            d.faults()
+                .next()
+                .map_or(String::new(), |h| crate::cmd::check::describe(&st.stage, h))
+        }),
     }
 }
 

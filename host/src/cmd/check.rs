@@ -1,66 +1,49 @@
-//! `biasjig check`: judge one board's measured node voltages against the design's limits at the
-//! measured supply and, when it fails, name the likely faulty part.
+//! `biasjig check`: judge one board's measured node voltages through the core's one judging
+//! path ([`biasjig_core::judge::judge`]) and, when it fails, name the likely faulty part.
 //!
-//! Exit 0 pass, 1 fail. Readings that cannot come from a powered, correctly probed board
-//! (supply outside its window, a node above the supply or below ground, every node equal) are
-//! refused as bad input: exit 2 with what to fix; with `--log` the refusal is logged too.
+//! Exit 0 pass, 1 fail. A supply outside the supply window (nominal ± supply tolerance) and
+//! readings that cannot come from a powered, correctly probed board (a node above the supply or
+//! below ground, every node equal) are refused: the board is not judged, exit 2 with what to
+//! fix; with `--log` the refusal is logged too. A stage that is not forward active at its
+//! nominal point gets no windows (exit 2).
 
 use std::path::PathBuf;
 
-use biasjig_core::check::{check, Implausible, Verdict};
 use biasjig_core::device::Profile;
-use biasjig_core::diagnose::{diagnose, Diagnosis, Hypothesis, Suspect};
+use biasjig_core::diagnose::{Diagnosis, Hypothesis, Suspect};
 use biasjig_core::explain::{FaultWords, SeparatingStep};
-use biasjig_core::limits::{self, Limits, Meter};
-use biasjig_core::spread::Variation;
+use biasjig_core::judge::{self, JudgeError, Judgement, Windows};
+use biasjig_core::limits::Window;
+use biasjig_core::settings::{Digest, TestSettings};
 use biasjig_core::stage::{Readings, Stage};
 use serde_json::{json, Value};
 
 use crate::board::{from_outcome, Recorder, RunInfo};
 use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
-use crate::stage_args::{Resolved, StageArgs};
+use crate::stage_args::{InputArgs, Resolved, StageArgs, TestArgs};
 use crate::store::TraceArgs;
 use crate::{json, text, values, Global};
 
 /// How many fault hypotheses a result lists at most.
 pub const LISTED_FAULTS: usize = 6;
 
-/// The meter flags shared by `check` and `batch`.
-#[derive(clap::Args, Debug, Clone, Default)]
-pub struct MeterArgs {
-    /// Meter gain error, percent of the reading [default: 0.5]
-    #[arg(long, value_parser = values::percent, help_heading = "Meter")]
-    pub meter: Option<f64>,
-    /// Meter offset error, V [default: 0.005]
-    #[arg(long = "meter-offset", value_parser = values::value, help_heading = "Meter")]
-    pub meter_offset: Option<f64>,
-}
-
-impl MeterArgs {
-    /// The meter described by the flags.
-    pub fn meter(&self) -> Meter {
-        let d = Meter::default();
-        Meter {
-            gain_error: self.meter.unwrap_or(d.gain_error),
-            offset: self.meter_offset.unwrap_or(d.offset),
-            divider_tol: d.divider_tol,
-        }
-    }
-}
-
 /// `biasjig check`: the stage by flags or `--design FILE`; `--vcc` is the supply as measured.
 #[derive(clap::Args, Debug)]
 pub struct Cmd {
     #[command(flatten)]
     stage: StageArgs,
+    /// Nominal supply of a stage given by flags, V (its window is this ± --vcc-tol)
+    /// [default: the measured --vcc; with --design: the file's]
+    #[arg(long = "vcc-nominal", value_name = "V", value_parser = values::volts, help_heading = "Stage")]
+    vcc_nominal: Option<f64>,
     /// Measured base voltage, V
-    #[arg(long, value_parser = values::signed, allow_hyphen_values = true, help_heading = "Readings")]
+    #[arg(long, value_parser = values::signed_volts, allow_hyphen_values = true, help_heading = "Readings")]
     vb: f64,
     /// Measured emitter voltage, V
-    #[arg(long, value_parser = values::signed, allow_hyphen_values = true, help_heading = "Readings")]
+    #[arg(long, value_parser = values::signed_volts, allow_hyphen_values = true, help_heading = "Readings")]
     ve: f64,
     /// Measured collector voltage, V
-    #[arg(long, value_parser = values::signed, allow_hyphen_values = true, help_heading = "Readings")]
+    #[arg(long, value_parser = values::signed_volts, allow_hyphen_values = true, help_heading = "Readings")]
     vc: f64,
     /// Board serial number, for the log
     #[arg(long, help_heading = "Readings")]
@@ -69,55 +52,63 @@ pub struct Cmd {
     #[arg(long, value_name = "FILE", help_heading = "Readings")]
     log: Option<PathBuf>,
     #[command(flatten)]
-    meter: MeterArgs,
+    test: TestArgs,
+    #[command(flatten)]
+    inputs: InputArgs,
     #[command(flatten)]
     trace: TraceArgs,
 }
 
-/// A design ready for the station: stage, profile, ambient range, identity.
+/// A design ready for the station: stage, profile, test settings, identity.
 #[derive(Debug, Clone)]
 pub struct Station {
     /// The design (nominal supply).
     pub stage: Stage,
     /// The transistor.
     pub profile: Profile,
-    /// Ambient range.
-    pub var: Variation,
-    /// The meter.
-    pub meter: Meter,
+    /// The test settings (test ambient, meter, measuring inputs).
+    pub settings: TestSettings,
     /// Design identifier.
     pub id: String,
-    /// Design hash.
+    /// Design hash (the instrument's, of the parts and transistor).
     pub hash: String,
+    /// The design file's digest, when the stage came from one.
+    pub file_digest: Option<String>,
+    /// The settings digest of what judges the boards.
+    pub digest: Digest,
+    /// Flags given beside `--design` that change what the file states.
+    pub overrides: Vec<(String, f64)>,
 }
 
 impl Station {
-    /// From resolved stage flags or a design file.
-    pub fn new(r: &Resolved, meter: Meter) -> Self {
-        let (id, hash, var) = match &r.doc {
-            // The design's ambient range, unless --temp moved the ambient.
-            Some(d) if d.temp_c == r.temp_c && d.temp_max > d.temp_min => {
-                let var = Variation {
-                    temp_min_c: d.temp_min,
-                    temp_max_c: d.temp_max,
-                    ..Variation::at(r.temp_c)
-                };
-                (d.id.clone(), d.hash.clone(), var)
-            }
-            Some(d) => (d.id.clone(), d.hash.clone(), Variation::at(r.temp_c)),
-            None => (
-                "flags".to_string(),
-                stage_hash(&r.stage, &r.profile),
-                Variation::at(r.temp_c),
-            ),
+    /// From a resolved stage (flags or a design file with its test settings).
+    pub fn new(r: &Resolved) -> Self {
+        let (id, hash, file_digest) = match &r.doc {
+            Some(d) => (d.id.clone(), d.hash.clone(), Some(d.digest.clone())),
+            None => ("flags".to_string(), stage_hash(&r.stage, &r.profile), None),
         };
+        if !r.overrides.is_empty() {
+            let list: Vec<String> = r
+                .overrides
+                .iter()
+                .map(|(f, v)| format!("{f} {v}"))
+                .collect();
+            eprintln!(
+                "biasjig: warning: flags override the design file ({}); recorded with every \
+                 board, settings digest {}",
+                list.join(", "),
+                r.digest()
+            );
+        }
         Self {
             stage: r.stage,
             profile: r.profile,
-            var,
-            meter,
+            settings: r.settings,
             id,
             hash,
+            file_digest,
+            digest: r.digest(),
+            overrides: r.overrides.clone(),
         }
     }
 }
@@ -127,49 +118,49 @@ pub fn stage_hash(stage: &Stage, profile: &Profile) -> String {
     crate::designfile::hash(stage, profile)
 }
 
-/// The pass windows at the measured supply (worst case over the parts, hFE and the ambient
-/// range, guard-banded for the meter).
-pub fn board_limits(st: &Station, vcc: f64) -> Result<Limits, CliError> {
-    limits::limits(&st.stage, &st.profile, &st.var, &st.meter, vcc)
-        .map_err(|e| CliError::usage(format!("limits: {e}")))
+/// A core judging error that is not a board's refusal, as bad input naming the flags.
+pub fn judge_error(e: JudgeError) -> CliError {
+    match e {
+        JudgeError::NotActive(_) => CliError::usage(format!("stage: {e}")),
+        JudgeError::Settings(_) => CliError::usage(format!("test settings: {e}")),
+        _ => CliError::usage(e.to_string()),
+    }
+}
+
+/// The windows the station applies at the measured supply (the core's [`judge::windows`]).
+pub fn board_windows(st: &Station, vcc: f64) -> Result<Windows, CliError> {
+    judge::windows(&st.stage, &st.profile, &st.settings, vcc).map_err(judge_error)
 }
 
 /// The result of checking one board.
 #[derive(Debug, Clone)]
 pub enum Outcome {
-    /// Judged: the verdict, and a diagnosis when it failed.
-    Judged(Box<Verdict>, Option<Box<Diagnosis>>),
-    /// Refused before judgement.
-    Refused(Implausible),
+    /// Judged: the windows, the verdict, and a diagnosis when it failed.
+    Judged(Box<Judgement>),
+    /// Not judged: the supply outside its window, or readings that cannot be right.
+    Refused(JudgeError),
 }
 
 impl Outcome {
     /// "pass", "fail" or "refused".
     pub fn word(&self) -> &'static str {
         match self {
-            Self::Judged(v, _) if v.pass => "pass",
+            Self::Judged(j) if j.verdict.pass => "pass",
             Self::Judged(..) => "fail",
             Self::Refused(_) => "refused",
         }
     }
 }
 
-/// Check one board (and diagnose it when it fails).
+/// Check one board through the one judging path (and diagnose it when it fails).
 pub fn evaluate(st: &Station, r: &Readings) -> Result<Outcome, CliError> {
-    if let Err(why) = biasjig_core::check::plausible(&st.stage, &st.meter, r) {
-        return Ok(Outcome::Refused(why));
+    match judge::judge(&st.stage, &st.profile, &st.settings, r) {
+        Ok(j) => Ok(Outcome::Judged(Box::new(j))),
+        Err(e @ (JudgeError::Supply { .. } | JudgeError::Implausible(_))) => {
+            Ok(Outcome::Refused(e))
+        }
+        Err(e) => Err(judge_error(e)),
     }
-    let limits = board_limits(st, r.vcc)?;
-    let verdict = match check(&st.stage, &limits, &st.meter, r) {
-        Ok(v) => v,
-        Err(why) => return Ok(Outcome::Refused(why)),
-    };
-    if verdict.pass {
-        return Ok(Outcome::Judged(Box::new(verdict), None));
-    }
-    let d = diagnose(&st.stage, &st.profile, r, &st.meter, &st.var)
-        .map_err(|e| CliError::usage(format!("diagnosis: {e}")))?;
-    Ok(Outcome::Judged(Box::new(verdict), Some(Box::new(d))))
 }
 
 /// The listed faults of a diagnosis: best first, the good-board hypothesis left out.
@@ -177,11 +168,36 @@ pub fn listed(d: &Diagnosis) -> Vec<&Hypothesis> {
     d.faults().take(LISTED_FAULTS).collect()
 }
 
-/// The machine-interface document of a checked board.
-pub fn outcome_json(o: &Outcome) -> Value {
+/// The test settings as JSON (SI units): test ambient, meter, measuring inputs.
+pub fn settings_json(t: &TestSettings) -> Value {
+    json!({
+        "temp_min": json::num(t.temp_min_c),
+        "temp_max": json::num(t.temp_max_c),
+        "meter": {"gain_error": json::num(t.meter.gain_error), "offset": json::num(t.meter.offset),
+                  "divider_tol": json::num(t.meter.divider_tol)},
+        "inputs": {"r": json::opt(t.inputs.r), "mode": t.inputs.mode.name()},
+    })
+}
+
+fn supply_json(measured: f64, w: &Window) -> Value {
+    json!({"measured": json::num(measured), "low": json::num(w.low), "high": json::num(w.high),
+           "ok": w.contains(measured)})
+}
+
+/// The machine-interface document of a checked board (`measured` is the supply as read).
+pub fn outcome_json(o: &Outcome, measured_vcc: f64) -> Value {
     match o {
-        Outcome::Refused(why) => json!({"verdict": "refused", "reason": why.to_string()}),
-        Outcome::Judged(v, d) => {
+        Outcome::Refused(why) => {
+            let mut doc = json!({"verdict": "refused", "reason": why.to_string()});
+            if let (JudgeError::Supply { measured, window }, Some(obj)) = (why, doc.as_object_mut())
+            {
+                obj.insert("supply".into(), supply_json(*measured, window));
+            }
+            doc
+        }
+        Outcome::Judged(j) => {
+            let v = &j.verdict;
+            let d = &j.diagnosis;
             let mut nodes = serde_json::Map::new();
             for n in &v.nodes {
                 nodes.insert(
@@ -208,6 +224,7 @@ pub fn outcome_json(o: &Outcome) -> Value {
             });
             let mut doc = json!({
                 "verdict": if v.pass { "pass" } else { "fail" },
+                "supply": supply_json(measured_vcc, &j.windows.supply),
                 "nodes": nodes,
                 "derived": {"ic": json::num(dv.ic), "ib": json::num(dv.ib), "ie": json::opt(dv.ie),
                             "vbe": json::num(dv.vbe), "vce": json::num(dv.vce),
@@ -219,6 +236,24 @@ pub fn outcome_json(o: &Outcome) -> Value {
             }
             doc
         }
+    }
+}
+
+/// The overrides in force as JSON: flag -> value as given.
+pub fn overrides_json(st: &Station) -> Value {
+    let mut m = serde_json::Map::new();
+    for (flag, v) in &st.overrides {
+        m.insert(flag.clone(), json::num(*v));
+    }
+    Value::Object(m)
+}
+
+/// What judged the boards: the settings, the settings digest and the overrides.
+fn add_provenance(st: &Station, doc: &mut Value) {
+    if let Some(obj) = doc.as_object_mut() {
+        obj.insert("settings".into(), settings_json(&st.settings));
+        obj.insert("digest".into(), json!(st.digest.to_string()));
+        obj.insert("overrides".into(), overrides_json(st));
     }
 }
 
@@ -250,8 +285,27 @@ pub fn separate(group: &[Suspect]) -> String {
     SeparatingStep::of(group.iter().copied()).to_string()
 }
 
+/// One line of the test settings for a person: ambient, meter, inputs.
+pub fn settings_text(t: &TestSettings) -> String {
+    let inputs = match t.inputs.r {
+        Some(r) => format!(
+            "inputs {} to ground, {}",
+            text::eng(r, "Ω"),
+            t.inputs.mode.name()
+        ),
+        None => "an ideal meter (no inputs modelled)".to_string(),
+    };
+    format!(
+        "ambient {}, meter {} % of reading + {} (divider {} %), {inputs}",
+        text::ambient(t.temp_min_c, t.temp_max_c),
+        100.0 * t.meter.gain_error,
+        text::eng4(t.meter.offset, "V"),
+        100.0 * t.meter.divider_tol
+    )
+}
+
 /// The human report of a checked board.
-pub fn outcome_text(st: &Station, serial: Option<&str>, o: &Outcome) -> String {
+pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome) -> String {
     let mut out = String::new();
     let head = match serial {
         Some(s) => format!("board {s} · design {}", st.id),
@@ -259,24 +313,30 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, o: &Outcome) -> String {
     };
     match o {
         Outcome::Refused(why) => {
-            out.push_str(&format!("READINGS REFUSED ({head})\n{why}\n"));
+            out.push_str(&format!("NOT JUDGED ({head})\n{why}\n"));
         }
-        Outcome::Judged(v, d) => {
+        Outcome::Judged(j) => {
+            let v = &j.verdict;
             out.push_str(if v.pass { BIG_PASS } else { BIG_FAIL });
-            out.push_str(&format!("\n\n{head}\n"));
-            let failing: Vec<_> = v.failing().collect();
-            if !failing.is_empty() {
-                out.push_str("Out of window:\n");
-                for n in failing {
-                    let u = n.node.unit();
-                    out.push_str(&format!(
-                        "  {:<4} {:>10}   window {} .. {}\n",
-                        n.node.label(),
-                        text::eng4(n.measured, u),
-                        text::eng4(n.low, u),
-                        text::eng4(n.high, u)
-                    ));
-                }
+            out.push_str(&format!("\n\n{head}\n{}\n", settings_text(&st.settings)));
+            let sw = &j.windows.supply;
+            out.push_str(&format!(
+                "  {:<4} {:>10}   window {} .. {}\n",
+                "VCC",
+                text::eng4(r.vcc, "V"),
+                text::eng4(sw.low, "V"),
+                text::eng4(sw.high, "V")
+            ));
+            for n in &v.nodes {
+                let u = n.node.unit();
+                out.push_str(&format!(
+                    "  {:<4} {:>10}   window {} .. {}{}\n",
+                    n.node.label(),
+                    text::eng4(n.measured, u),
+                    text::eng4(n.low, u),
+                    text::eng4(n.high, u),
+                    if n.ok { "" } else { "   OUT" }
+                ));
             }
             let dv = &v.derived;
             let beta = dv.beta.map_or("-".to_string(), |b| format!("{b:.0}"));
@@ -288,7 +348,7 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, o: &Outcome) -> String {
                 text::eng(dv.vce, "V"),
                 dv.region.name()
             ));
-            if let Some(d) = d {
+            if let Some(d) = &j.diagnosis {
                 if !d.explained {
                     out.push_str(
                         "No single fault explains these readings (two faults, or a wrong \
@@ -339,40 +399,55 @@ impl Cmd {
                 "--vcc: missing: give the supply as measured on the board",
             ));
         };
-        // With a design file, the file's supply is the nominal and --vcc the measured one.
+        // With a design file, the file's supply is the nominal and --vcc the measured one; for
+        // a stage by flags the nominal is --vcc-nominal, or the measured supply itself.
         let mut args = self.stage.clone();
         if args.design.is_some() {
+            if self.vcc_nominal.is_some() {
+                return Err(CliError::usage(
+                    "--vcc-nominal: the design file states the nominal supply; give it only with \
+                     a stage by flags",
+                ));
+            }
             args.vcc = None;
+        } else if let Some(v) = self.vcc_nominal {
+            args.vcc = Some(v);
         }
-        let resolved = args.resolve()?;
-        let st = Station::new(&resolved, self.meter.meter());
+        let resolved = args.resolve_with(Some(&self.inputs), Some(&self.test))?;
+        let st = Station::new(&resolved);
         let r = Readings {
             vcc: measured_vcc,
             vb: self.vb,
             ve: self.ve,
             vc: self.vc,
         };
+        if self.trace.store.is_some() && self.serial.is_none() {
+            return Err(CliError::usage(
+                "--serial: missing: a test in the store names its board by serial number",
+            ));
+        }
         let o = evaluate(&st, &r)?;
         let mut rec = Recorder::open(self.log.as_deref(), &self.trace, false)?;
         if !rec.is_empty() {
-            let serial = self.serial.as_deref().ok_or_else(|| {
-                CliError::usage("--serial: missing: a record names its board by serial number")
-            })?;
+            // Without --serial the log keeps the test, but it is no board record for a report.
+            let serial = self.serial.as_deref().unwrap_or("");
             let run = RunInfo::new(&st, &self.trace, "check");
             rec.write(&mut from_outcome(&st, &run, serial, &r, &o, None, None)?)?;
         }
         match &o {
             Outcome::Refused(why) => Err(CliError::usage(format!(
-                "readings refused (vcc {} V, vb {} V, ve {} V, vc {} V): {why}",
+                "not judged (vcc {} V, vb {} V, ve {} V, vc {} V): {why}",
                 r.vcc, r.vb, r.ve, r.vc
             ))),
-            Outcome::Judged(v, _) => {
+            Outcome::Judged(j) => {
                 if g.json {
-                    json::print(&outcome_json(&o));
+                    let mut doc = outcome_json(&o, r.vcc);
+                    add_provenance(&st, &mut doc);
+                    json::print(&doc);
                 } else {
-                    out!("{}", outcome_text(&st, self.serial.as_deref(), &o));
+                    out!("{}", outcome_text(&st, self.serial.as_deref(), &r, &o));
                 }
-                Ok(if v.pass { EXIT_OK } else { EXIT_FAIL })
+                Ok(if j.verdict.pass { EXIT_OK } else { EXIT_FAIL })
             }
         }
     }

@@ -122,6 +122,7 @@ fn board(
         temp_c: temp,
         beta_25: beta,
         fault: df,
+        loads: Default::default(),
     };
     let op = solve(&s, &doc.profile, cond).ok()?;
     let mut noisy = |v: f64| v + uniform(-0.003, 0.003);

@@ -31,25 +31,25 @@ fn series(text: &str) -> Result<Series, String> {
 #[derive(clap::Args, Debug)]
 pub struct Cmd {
     /// Supply, V
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    #[arg(long, value_parser = values::volts, allow_hyphen_values = true, help_heading = "Requirement")]
     vcc: f64,
     /// Midband gain magnitude from the source EMF to the load
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    #[arg(long, value_parser = values::number, allow_hyphen_values = true, help_heading = "Requirement")]
     gain: f64,
     /// Load, AC-coupled, Ω [default: none, open]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Requirement")]
     rl: Option<f64>,
     /// Source resistance, Ω [default: 0]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    #[arg(long, value_parser = values::ohms, allow_hyphen_values = true, help_heading = "Requirement")]
     rs: Option<f64>,
     /// Collector-current budget, A [default: 2m]
-    #[arg(long = "ic-max", value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    #[arg(long = "ic-max", value_parser = values::amps, allow_hyphen_values = true, help_heading = "Requirement")]
     ic_max: Option<f64>,
     /// Least undistorted peak-to-peak swing at the load, V [default: none]
-    #[arg(long, value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    #[arg(long, value_parser = values::volts, allow_hyphen_values = true, help_heading = "Requirement")]
     swing: Option<f64>,
     /// Highest low corner (sum of the capacitor poles), Hz [default: 20]
-    #[arg(long = "f-low", value_parser = values::value, allow_hyphen_values = true, help_heading = "Requirement")]
+    #[arg(long = "f-low", value_parser = values::hertz, allow_hyphen_values = true, help_heading = "Requirement")]
     f_low: Option<f64>,
     /// Nominal ambient, °C [default: 25]
     #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Requirement")]
@@ -83,6 +83,13 @@ pub struct Cmd {
     /// Write the best candidate as a design file
     #[arg(short = 'o', long = "output", value_name = "FILE")]
     output: Option<PathBuf>,
+    /// Replace the file given with -o if it exists
+    #[arg(long)]
+    force: bool,
+    /// Supply tolerance stated in the design file, percent: at the test station a measured
+    /// supply outside nominal ± this is not judged [default: 5]
+    #[arg(long = "vcc-tol", value_parser = values::percent, help_heading = "Requirement")]
+    vcc_tol: Option<f64>,
     /// Identifier written into the design file [default: from the requirement]
     #[arg(long)]
     id: Option<String>,
@@ -181,7 +188,7 @@ impl Cmd {
             );
         }
         if let (Some(path), Some(best), Some(p)) = (&self.output, shown.first(), preds.first()) {
-            designfile::save(path, &self.doc(&req, &profile, best, p))?;
+            designfile::save(path, &self.doc(&req, &profile, best, p), self.force)?;
             if !g.json {
                 eprintln!("biasjig: wrote the best candidate to {}", path.display());
             }
@@ -207,7 +214,7 @@ impl Cmd {
                         },
                         "ic_range": {"min": json::num(c.ic_range.0), "max": json::num(c.ic_range.1)},
                         "series": {"resistors": req.series.name(), "capacitors": req.cap_series.name()},
-                        "hash": designfile::hash(&c.stage, &profile),
+                        "hash": designfile::hash(&self.filed(&c.stage), &profile),
                     })
                 })
                 .collect();
@@ -216,6 +223,15 @@ impl Cmd {
             out!("{}", self.report(&req, &shown, &preds));
         }
         Ok(EXIT_OK)
+    }
+
+    /// The stage as the design file states it: with the supply tolerance.
+    fn filed(&self, stage: &biasjig_core::stage::Stage) -> biasjig_core::stage::Stage {
+        let mut s = *stage;
+        s.vcc.tol = self
+            .vcc_tol
+            .unwrap_or(biasjig_core::settings::DEFAULT_SUPPLY_TOL);
+        s
     }
 
     fn doc(
@@ -227,7 +243,8 @@ impl Cmd {
     ) -> DesignDoc {
         let rs = Some(req.series);
         let cs = Some(req.cap_series);
-        let hash = designfile::hash(&c.stage, profile);
+        let stage = self.filed(&c.stage);
+        let hash = designfile::hash(&stage, profile);
         let id = self.id.clone().unwrap_or_else(|| {
             format!(
                 "{}V-gain{}-{}",
@@ -237,7 +254,7 @@ impl Cmd {
             )
         });
         DesignDoc {
-            stage: c.stage,
+            stage,
             profile: *profile,
             temp_c: req.temp,
             temp_min: req.temp_min,
@@ -258,6 +275,8 @@ impl Cmd {
                 supply_current: c.supply_current,
                 transistor_power: c.transistor_power,
             }),
+            test: biasjig_core::settings::TestSettings::DEFAULT,
+            digest: String::new(),
         }
     }
 

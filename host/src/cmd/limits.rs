@@ -1,16 +1,20 @@
-//! `biasjig limits`: pass windows per node for the test station, from the worst case over the
-//! tolerances, hFE and the ambient, at the nominal (or a given measured) supply, widened by the
-//! meter's reading error.
+//! `biasjig limits`: the pass windows the station applies, from the core's one judging path
+//! ([`biasjig_core::judge::windows`]): the worst case over the tolerances, hFE and the test
+//! ambient at the nominal (or a given measured) supply, with the measuring inputs attached,
+//! widened by the meter's reading error; and the supply window. `limits --at-vcc V` gives
+//! exactly the windows `check --vcc V` applies.
 
 use std::fmt::Write as _;
 
-use biasjig_core::limits::{limits, Limits, LimitsError, Meter};
+use biasjig_core::judge::Windows;
+use biasjig_core::settings::TestSettings;
 use biasjig_core::spread::{centre, Node, Sample, Variation};
 use serde_json::{json, Map, Value};
 
-use crate::cmd::spread::{spread_error, TempRange};
+use crate::cmd::check::{board_windows, overrides_json, settings_json, settings_text, Station};
+use crate::cmd::spread::spread_error;
 use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::stage_args::StageArgs;
+use crate::stage_args::{InputArgs, StageArgs, TestArgs};
 use crate::text::eng4;
 use crate::{json, values, Global};
 
@@ -23,75 +27,63 @@ pub struct Cmd {
     #[command(flatten)]
     stage: StageArgs,
     #[command(flatten)]
-    temps: TempRange,
-    /// Meter accuracy, percent of the reading
-    #[arg(long, value_name = "P", default_value = "0.5", value_parser = values::percent, help_heading = "Meter")]
-    meter: f64,
-    /// Meter offset error, V
-    #[arg(long = "meter-offset", value_name = "V", default_value = "5m", value_parser = values::value, help_heading = "Meter")]
-    meter_offset: f64,
-    /// Tolerance of the jig's input divider, percent
-    #[arg(long = "divider-tol", value_name = "P", default_value = "0.1", value_parser = values::percent, help_heading = "Meter")]
-    divider_tol: f64,
+    test: TestArgs,
+    #[command(flatten)]
+    inputs: InputArgs,
     /// Supply the windows hold for (as measured on the board), V [default: the stage's --vcc]
-    #[arg(long = "at-vcc", value_name = "V", value_parser = values::value, help_heading = "Meter")]
+    #[arg(long = "at-vcc", value_name = "V", value_parser = values::volts, help_heading = "Meter")]
     at_vcc: Option<f64>,
     /// Also write the windows as CSV for other testers: test, low, high, unit, design hash, settings hash
     #[arg(long, value_name = "FILE")]
     csv: Option<std::path::PathBuf>,
 }
 
-/// Explain a limits error naming the flag.
-pub fn limits_error(e: LimitsError, vcc: f64) -> CliError {
-    match e {
-        LimitsError::Meter => CliError::usage(format!("--meter/--meter-offset/--divider-tol: {e}")),
-        LimitsError::Supply => CliError::field("--at-vcc", vcc, "must be between 0.5 V and 1000 V"),
-        LimitsError::Spread(s) => spread_error(s),
-        _ => CliError::usage(format!("{e}")),
-    }
-}
-
 impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
-        let r = self.stage.resolve()?;
-        let var = self.temps.variation(r.temp_c)?;
-        let meter = Meter {
-            gain_error: self.meter,
-            offset: self.meter_offset,
-            divider_tol: self.divider_tol,
-        };
+        let r = self
+            .stage
+            .resolve_with(Some(&self.inputs), Some(&self.test))?;
+        let st = Station::new(&r);
         let vcc = self.at_vcc.unwrap_or(r.stage.vcc.value);
-        let lim =
-            limits(&r.stage, &r.profile, &var, &meter, vcc).map_err(|e| limits_error(e, vcc))?;
+        if !(0.5..=1000.0).contains(&vcc) {
+            return Err(CliError::field(
+                "--at-vcc",
+                vcc,
+                "must be between 0.5 V and 1000 V",
+            ));
+        }
+        let w = board_windows(&st, vcc)?;
         let mut at = r.stage;
         at.vcc.value = vcc;
-        let nominal = centre(&at, &r.profile, &Variation::at(r.temp_c)).map_err(spread_error)?;
+        let t = &r.settings;
+        let nominal = centre(
+            &at,
+            &r.profile,
+            &Variation::at(0.5 * (t.temp_min_c + t.temp_max_c)).read_through(t.inputs),
+        )
+        .map_err(spread_error)?;
         if let Some(path) = &self.csv {
-            let st = crate::cmd::check::Station {
-                stage: r.stage,
-                profile: r.profile,
-                var,
-                meter,
-                id: String::new(),
-                hash: r.doc.as_ref().map_or_else(
-                    || crate::cmd::check::stage_hash(&r.stage, &r.profile),
-                    |d| d.hash.clone(),
-                ),
-            };
-            crate::board::write_limits_csv(path, &lim, &st)?;
+            crate::board::write_limits_csv(path, &w, &st)?;
         }
         if g.json {
-            json::print(&to_json(&lim, &meter, &var));
+            let mut doc = to_json(&w, t);
+            if let Some(obj) = doc.as_object_mut() {
+                obj.insert("digest".into(), json!(st.digest.to_string()));
+                obj.insert("overrides".into(), overrides_json(&st));
+            }
+            json::print(&doc);
         } else {
-            out!("{}", report(&lim, &meter, &var, &nominal, &r.stage));
+            out!("{}", report(&w, t, &nominal, &r.stage));
         }
         Ok(EXIT_OK)
     }
 }
 
-/// `{NODE: {"low","high"}}` for vb, ve, vc, vce, vbe, ic, plus the supply, meter and ambient.
-pub fn to_json(lim: &Limits, meter: &Meter, var: &Variation) -> Value {
+/// `{NODE: {"low","high"}}` for vb, ve, vc, vce, vbe, ic, plus the supply the windows hold for,
+/// the supply window, and the ambient, meter and inputs they assume.
+pub fn to_json(w: &Windows, t: &TestSettings) -> Value {
+    let lim = &w.limits;
     let mut m = Map::new();
     for n in NODES {
         if let Some(w) = lim.window(n) {
@@ -103,33 +95,49 @@ pub fn to_json(lim: &Limits, meter: &Meter, var: &Variation) -> Value {
     }
     m.insert("vcc".into(), json::num(lim.vcc));
     m.insert(
+        "supply".into(),
+        json!({"low": json::num(w.supply.low), "high": json::num(w.supply.high)}),
+    );
+    let meter = &t.meter;
+    m.insert(
         "meter".into(),
         json!({"gain_error": json::num(meter.gain_error), "offset": json::num(meter.offset), "divider_tol": json::num(meter.divider_tol)}),
     );
     m.insert(
         "temperature".into(),
-        json!({"min": json::num(var.temp_min_c), "max": json::num(var.temp_max_c)}),
+        json!({"min": json::num(t.temp_min_c), "max": json::num(t.temp_max_c)}),
     );
+    m.insert(
+        "inputs".into(),
+        json!({"r": json::opt(t.inputs.r), "mode": t.inputs.mode.name()}),
+    );
+    m.insert("settings".into(), settings_json(t));
     Value::Object(m)
 }
 
-/// The human report: one row per node with low, nominal and high.
+/// The human report: the assumptions, the supply window, one row per node with low, nominal
+/// and high.
 pub fn report(
-    lim: &Limits,
-    meter: &Meter,
-    var: &Variation,
+    w: &Windows,
+    t: &TestSettings,
     nominal: &Sample,
     stage: &biasjig_core::stage::Stage,
 ) -> String {
+    let lim = &w.limits;
     let mut s = String::new();
     let _ = writeln!(
         s,
-        "Pass windows at {} supply, ambient {}, meter {} % of reading + {} (divider {} %)",
+        "Pass windows at {} supply; {}",
         eng4(lim.vcc, "V"),
-        crate::text::ambient(var.temp_min_c, var.temp_max_c),
-        100.0 * meter.gain_error,
-        eng4(meter.offset, "V"),
-        100.0 * meter.divider_tol
+        settings_text(t)
+    );
+    let _ = writeln!(
+        s,
+        "  {:<5} {:>11} {:>11} {:>11}   (outside it a board is not judged)",
+        "VCC",
+        eng4(w.supply.low, "V"),
+        eng4(stage.vcc.value, "V"),
+        eng4(w.supply.high, "V")
     );
     let _ = writeln!(
         s,

@@ -78,9 +78,7 @@ struct Loaded {
 
 /// Write a file whole: a temporary file beside it, then a rename.
 fn write_atomic(path: &Path, text: &str) -> std::io::Result<()> {
-    let tmp = path.with_extension(format!("tmp{}", std::process::id()));
-    std::fs::write(&tmp, text)?;
-    std::fs::rename(&tmp, path)
+    crate::designfile::write_atomic(path, text.as_bytes())
 }
 
 impl Cmd {

@@ -68,6 +68,8 @@ pub struct Cmd {
     stage: StageArgs,
     #[command(flatten)]
     temps: TempRange,
+    #[command(flatten)]
+    inputs: crate::stage_args::InputArgs,
     /// Number of Monte Carlo samples
     #[arg(long, default_value_t = 1000, help_heading = "Spread")]
     runs: u32,
@@ -165,8 +167,11 @@ impl Cmd {
 
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
-        let r = self.stage.resolve()?;
-        let mut var = self.temps.variation(r.temp_c)?;
+        let r = self.stage.resolve_with(Some(&self.inputs), None)?;
+        let mut var = self
+            .temps
+            .variation(r.temp_c)?
+            .read_through(r.settings.inputs);
         if let Some(k) = self.normal {
             if !(k.is_finite() && (0.5..=10.0).contains(&k)) {
                 return Err(CliError::field(
@@ -197,6 +202,7 @@ impl Cmd {
             &r.profile,
             &Variation {
                 distribution: var.distribution,
+                inputs: var.inputs,
                 ..Variation::at(r.temp_c)
             },
         )

@@ -414,10 +414,12 @@ impl Cmd {
     pub fn run(&self, _g: &Global) -> CmdResult {
         let budget = sync_budget(self.sync_timeout)?;
         let doc = designfile::load(&self.design)?;
+        // The test ambient the file states (what `check --design` applies), not the design's
+        // operating range.
         let ambient = Ambient {
-            nominal: doc.temp_c,
-            min: doc.temp_min,
-            max: doc.temp_max,
+            nominal: doc.temp_c.clamp(doc.test.temp_min_c, doc.test.temp_max_c),
+            min: doc.test.temp_min_c,
+            max: doc.test.temp_max_c,
         };
         let push = push_lines(&doc.stage, &doc.profile, ambient);
         let hash = expected_hash(&doc.stage, &doc.profile, ambient).ok_or_else(|| {

@@ -38,10 +38,12 @@ pub struct Row {
     pub derived: Option<String>,
     pub faults: String,
     pub explained: Option<bool>,
+    pub supply: Option<String>,
+    pub settings: Option<String>,
 }
 
 /// The column names of `tests`, in bind order.
-pub const COLUMNS: [&str; 28] = [
+pub const COLUMNS: [&str; 30] = [
     "record_id",
     "time_utc",
     "time_ms",
@@ -70,10 +72,14 @@ pub const COLUMNS: [&str; 28] = [
     "derived",
     "faults",
     "explained",
+    "supply",
+    "settings",
 ];
 
 /// The JSON columns (PostgreSQL keeps them as `jsonb`).
-pub const JSON_COLUMNS: [&str; 7] = [
+pub const JSON_COLUMNS: [&str; 9] = [
+    "supply",
+    "settings",
     "overrides",
     "source",
     "windows",
@@ -123,6 +129,8 @@ impl Row {
             derived: enc_opt(r.derived.as_ref()),
             faults: enc(&r.faults),
             explained: r.explained,
+            supply: enc_opt(r.supply.as_ref()),
+            settings: enc_opt(r.settings.as_ref()),
         }
     }
 
@@ -151,6 +159,7 @@ impl Row {
                 digest: self.design_digest,
             },
             settings_hash: self.settings_hash,
+            settings: dec_opt(self.settings.as_ref()).map_err(&bad)?,
             overrides: dec_opt(self.overrides.as_ref()).map_err(&bad)?,
             station: self.station,
             operator: self.operator,
@@ -167,6 +176,7 @@ impl Row {
             },
             verdict,
             reason: self.reason,
+            supply: dec_opt(self.supply.as_ref()).map_err(&bad)?,
             nodes: dec(&self.windows).map_err(&bad)?,
             ac: dec_opt(self.signal.as_ref()).map_err(&bad)?,
             nominal: dec_opt(self.nominal.as_ref()).map_err(&bad)?,

@@ -135,6 +135,8 @@ fn insert_in(
             &r.derived,
             &r.faults,
             &r.explained,
+            &r.supply,
+            &r.settings,
         ],
     )?;
     match rows.first() {
@@ -176,6 +178,8 @@ fn row_of(r: &::postgres::Row) -> Result<Row, ::postgres::Error> {
         derived: r.try_get(25)?,
         faults: r.try_get(26)?,
         explained: r.try_get(27)?,
+        supply: r.try_get(28)?,
+        settings: r.try_get(29)?,
     })
 }
 

@@ -115,6 +115,8 @@ fn insert_in(tx: &rusqlite::Transaction<'_>, rec: &mut BoardRecord) -> Result<bo
         row.derived,
         row.faults,
         row.explained,
+        row.supply,
+        row.settings,
     ])?;
     Ok(n == 1)
 }
@@ -149,6 +151,8 @@ fn row_of(r: &rusqlite::Row<'_>) -> rusqlite::Result<Row> {
         derived: r.get(25)?,
         faults: r.get(26)?,
         explained: r.get(27)?,
+        supply: r.get(28)?,
+        settings: r.get(29)?,
     })
 }
 

@@ -31,7 +31,9 @@ CREATE TABLE tests (
     nominal          JSONB,                              -- JSON: windows at the nominal supply
     derived          JSONB,                              -- JSON: IC, IB, hFE, region
     faults           JSONB   NOT NULL,                  -- JSON: ranked faults, best first
-    explained        BOOLEAN
+    explained        BOOLEAN,
+    supply           JSONB,                              -- JSON: {measured, low, high, ok}
+    settings         JSONB                               -- JSON: test ambient, meter, inputs
 );
 CREATE INDEX tests_board ON tests (serial, design_hash);
 CREATE INDEX tests_order ON tests (time_ms, seq);

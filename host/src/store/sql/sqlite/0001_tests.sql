@@ -31,7 +31,9 @@ CREATE TABLE tests (
     nominal          TEXT,                               -- JSON: windows at the nominal supply
     derived          TEXT,                               -- JSON: IC, IB, hFE, region
     faults           TEXT    NOT NULL,                   -- JSON: ranked faults, best first
-    explained        INTEGER CHECK (explained IN (0, 1))
+    explained        INTEGER CHECK (explained IN (0, 1)),
+    supply           TEXT,                               -- JSON: {measured, low, high, ok}
+    settings         TEXT                                -- JSON: test ambient, meter, inputs
 );
 CREATE INDEX tests_board ON tests (serial, design_hash);
 CREATE INDEX tests_order ON tests (time_ms, seq);

@@ -1,0 +1,523 @@
+//! The test settings: everything a verdict depends on besides the stage and the transistor, with
+//! one set of defaults for every front end, and the settings digest.
+//!
+//! A board's verdict follows from the stage (its parts, tolerances and supply tolerance, see
+//! below), the transistor profile and a [`TestSettings`]: the test ambient (the station's, not the
+//! design's operating range), the meter's accuracy and the measuring inputs attached while the
+//! nodes are read. `biasjig check`, `limits`, `batch`, the station and the console take the
+//! defaults from here, so the same stage gets the same windows everywhere.
+//!
+//! The supply tolerance is the tolerance of the stage's supply part (`Stage::vcc.tol`, pushed
+//! with `set vcc V TOL`, in a design file `parts.vcc_tol`); its default is
+//! [`DEFAULT_SUPPLY_TOL`]. A measured supply outside it is never a pass.
+//!
+//! **Settings digest** ([`digest`]): SHA-256 (FIPS 180-4) over the canonical encoding of the
+//! stage, the profile and the test settings: the ASCII tag `biasjig-settings`, a version byte,
+//! then numbers as IEEE 754 binary64 little-endian (−0 written as +0), an absent optional value
+//! as the byte 0 and a present one as 1 and its bytes; in order: polarity (0 NPN, 1 PNP); VCC
+//! value, tolerance; R1, R2, RC, RE1, RE2 value, tolerance each; RL optional; RS; CIN, COUT, CE
+//! optional value and tolerance each; hFE min, typ, max, reverse, tc; IS; Early optional;
+//! VCE(sat); power rating; maximum junction temperature; test ambient min, max; meter gain
+//! error, offset, divider tolerance; input resistance optional; inputs mode (0 together, 1 one).
+//! Printed as 64 lower-case hex digits. Any change of anything the verdict depends on changes
+//! it; the instrument computes the same digest from the same values.
+
+use sha2::{Digest as _, Sha256};
+
+use crate::device::Profile;
+use crate::limits::Meter;
+use crate::solve::NodeLoads;
+use crate::spread::Variation;
+use crate::stage::{Part, Polarity, Stage};
+
+/// Default test ambient, °C (`--temp`; the range defaults to it alone).
+pub const DEFAULT_TEMP_C: f64 = 25.0;
+/// Default supply tolerance, fraction: a bench or jig supply set to within 5 % (common
+/// practice); a measured supply outside it is not judged.
+pub const DEFAULT_SUPPLY_TOL: f64 = 0.05;
+/// Default resistor tolerance, fraction (E24 parts are 5 %, common practice).
+pub const DEFAULT_TOL: f64 = 0.05;
+/// Default capacitor tolerance, fraction (E6 parts are 20 %, common practice).
+pub const DEFAULT_CAP_TOL: f64 = 0.20;
+/// The transistor every front end starts from: the core's generic small-signal profile (hFE 200
+/// with no spread unless one is given, as the machine interface's `--beta-min/--beta-max`
+/// default to `--beta`; VBE 0.65 V at 1 mA).
+pub fn default_profile() -> Profile {
+    Profile::default()
+}
+/// Lowest and highest test ambient accepted, °C.
+pub const TEMP_RANGE_C: (f64, f64) = (-55.0, 150.0);
+/// Lowest and highest measuring-input resistance accepted, Ω.
+pub const INPUT_R_RANGE: (f64, f64) = (1e3, 1e12);
+/// Largest meter gain error accepted, fraction of the reading.
+pub const METER_GAIN_MAX: f64 = 0.2;
+/// Largest meter offset accepted, V.
+pub const METER_OFFSET_MAX: f64 = 1.0;
+/// Largest jig divider tolerance accepted, fraction.
+pub const DIVIDER_TOL_MAX: f64 = 0.1;
+/// A supply tolerance above this is unusual (a warning, not a refusal), fraction.
+pub const UNUSUAL_SUPPLY_TOL: f64 = 0.10;
+/// A resistor tolerance above this is unusual (a warning, not a refusal), fraction.
+pub const UNUSUAL_TOL: f64 = 0.10;
+
+/// How the measuring inputs are attached while the nodes are read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub enum InputMode {
+    /// Every input stays connected while the nodes are read (a jig's input dividers).
+    #[default]
+    Together,
+    /// One node is read at a time (a hand-held meter).
+    One,
+}
+
+impl InputMode {
+    /// The machine name: "together" or "one".
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Together => "together",
+            Self::One => "one",
+        }
+    }
+
+    /// From the machine name (case-insensitive).
+    pub fn parse(text: &str) -> Option<Self> {
+        if text.eq_ignore_ascii_case("together") {
+            Some(Self::Together)
+        } else if text.eq_ignore_ascii_case("one") {
+            Some(Self::One)
+        } else {
+            None
+        }
+    }
+}
+
+/// A node read by the measuring inputs (the supply is read too, but an input on the supply rail
+/// does not change the stage).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum ReadNode {
+    /// The base.
+    Base,
+    /// The collector.
+    Collector,
+    /// The emitter.
+    Emitter,
+}
+
+/// The measuring inputs: their resistance from each node read to ground and how they are attached.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Inputs {
+    /// Input resistance from each node read to ground, Ω (`None`: an ideal meter).
+    pub r: Option<f64>,
+    /// Together or one at a time.
+    pub mode: InputMode,
+}
+
+impl Inputs {
+    /// An ideal meter: nothing attached.
+    pub const IDEAL: Inputs = Inputs {
+        r: None,
+        mode: InputMode::Together,
+    };
+
+    /// Nothing is attached (no resistance given).
+    pub fn is_ideal(&self) -> bool {
+        self.r.is_none()
+    }
+
+    /// The loads on the stage while `node` is read: every input with `together`, only the
+    /// node's own with `one`.
+    pub fn loads_reading(&self, node: ReadNode) -> NodeLoads {
+        match self.mode {
+            InputMode::Together => NodeLoads::each(self.r),
+            InputMode::One => match node {
+                ReadNode::Base => NodeLoads {
+                    base: self.r,
+                    ..NodeLoads::NONE
+                },
+                ReadNode::Collector => NodeLoads {
+                    collector: self.r,
+                    ..NodeLoads::NONE
+                },
+                ReadNode::Emitter => NodeLoads {
+                    emitter: self.r,
+                    ..NodeLoads::NONE
+                },
+            },
+        }
+    }
+
+    /// The one set of loads under which every node is read, when there is one (no inputs, or
+    /// `together`); `None` when each node is read under its own loads (`one` with a resistance).
+    pub fn common_loads(&self) -> Option<NodeLoads> {
+        match (self.r, self.mode) {
+            (None, _) => Some(NodeLoads::NONE),
+            (Some(_), InputMode::Together) => Some(NodeLoads::each(self.r)),
+            (Some(_), InputMode::One) => None,
+        }
+    }
+}
+
+/// Everything a verdict depends on besides the stage and the transistor.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TestSettings {
+    /// Lowest test ambient, °C.
+    pub temp_min_c: f64,
+    /// Highest test ambient, °C.
+    pub temp_max_c: f64,
+    /// The meter's accuracy and the jig's input divider tolerance.
+    pub meter: Meter,
+    /// The measuring inputs.
+    pub inputs: Inputs,
+}
+
+impl Default for TestSettings {
+    /// [`TestSettings::DEFAULT`].
+    fn default() -> Self {
+        Self::DEFAULT
+    }
+}
+
+/// A test setting out of range; each names what is allowed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum SettingsError {
+    /// The test ambient must lie between -55 °C and 150 °C with min <= max.
+    Ambient,
+    /// Meter gain error: 0 to 20 % of the reading.
+    MeterGain,
+    /// Meter offset: 0 V to 1 V.
+    MeterOffset,
+    /// Divider tolerance: 0 to 10 %.
+    DividerTol,
+    /// Input resistance: 1 kΩ to 1 TΩ (or none).
+    InputR,
+}
+
+impl core::fmt::Display for SettingsError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(match self {
+            Self::Ambient => "test ambient: min and max between -55 °C and 150 °C, min <= max",
+            Self::MeterGain => "meter gain error: allowed 0 to 20 % of the reading",
+            Self::MeterOffset => "meter offset: allowed 0 V to 1 V",
+            Self::DividerTol => "divider tolerance: allowed 0 to 10 %",
+            Self::InputR => "input resistance: allowed 1 kΩ to 1 TΩ, or none (an ideal meter)",
+        })
+    }
+}
+
+impl TestSettings {
+    /// The defaults of every front end: 25 °C alone, the default meter (0.5 % of the reading +
+    /// 5 mV behind a 0.1 % divider), an ideal meter's inputs (none attached).
+    pub const DEFAULT: TestSettings = TestSettings {
+        temp_min_c: DEFAULT_TEMP_C,
+        temp_max_c: DEFAULT_TEMP_C,
+        meter: Meter::DEFAULT,
+        inputs: Inputs::IDEAL,
+    };
+
+    /// The test ambient as the spread, limits and diagnosis take it.
+    pub fn variation(&self) -> Variation {
+        Variation::between(self.temp_min_c, self.temp_max_c)
+    }
+
+    /// Check every field.
+    pub fn validate(&self) -> Result<(), SettingsError> {
+        let t = |x: f64| x.is_finite() && (TEMP_RANGE_C.0..=TEMP_RANGE_C.1).contains(&x);
+        if !(t(self.temp_min_c) && t(self.temp_max_c) && self.temp_min_c <= self.temp_max_c) {
+            return Err(SettingsError::Ambient);
+        }
+        let within = |x: f64, max: f64| x.is_finite() && (0.0..=max).contains(&x);
+        if !within(self.meter.gain_error, METER_GAIN_MAX) {
+            return Err(SettingsError::MeterGain);
+        }
+        if !within(self.meter.offset, METER_OFFSET_MAX) {
+            return Err(SettingsError::MeterOffset);
+        }
+        if !within(self.meter.divider_tol, DIVIDER_TOL_MAX) {
+            return Err(SettingsError::DividerTol);
+        }
+        if let Some(r) = self.inputs.r {
+            if !(r.is_finite() && (INPUT_R_RANGE.0..=INPUT_R_RANGE.1).contains(&r)) {
+                return Err(SettingsError::InputR);
+            }
+        }
+        Ok(())
+    }
+}
+
+/// A SHA-256 digest, 32 bytes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct Digest(pub [u8; 32]);
+
+impl core::fmt::Display for Digest {
+    /// 64 lower-case hex digits.
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        for b in self.0 {
+            write!(f, "{b:02x}")?;
+        }
+        Ok(())
+    }
+}
+
+impl Digest {
+    /// From 64 hex digits (either case); `None` for anything else.
+    pub fn parse(text: &str) -> Option<Digest> {
+        let b = text.as_bytes();
+        if b.len() != 64 {
+            return None;
+        }
+        let nibble = |c: u8| match c {
+            b'0'..=b'9' => Some(c - b'0'),
+            b'a'..=b'f' => Some(c - b'a' + 10),
+            b'A'..=b'F' => Some(c - b'A' + 10),
+            _ => None,
+        };
+        let mut out = [0u8; 32];
+        for (o, pair) in out.iter_mut().zip(b.chunks_exact(2)) {
+            let (hi, lo) = match pair {
+                [h, l] => (nibble(*h)?, nibble(*l)?),
+                _ => return None,
+            };
+            *o = hi << 4 | lo;
+        }
+        Some(Digest(out))
+    }
+}
+
+/// The canonical encoding fed into SHA-256 (see the module notes); a front end may append its
+/// own canonical fields (a design file's requirement, series and identifier) after the settings.
+#[derive(Clone)]
+pub struct Canonical(Sha256);
+
+impl Default for Canonical {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+/// Version byte of the canonical encoding.
+const ENCODING_VERSION: u8 = 1;
+
+impl Canonical {
+    /// An empty encoding.
+    pub fn new() -> Self {
+        Self(Sha256::new())
+    }
+
+    /// Raw bytes. (Not inlined: the encoding makes some forty calls, and each inlined copy of the
+    /// hash's buffering would cost the instrument flash.)
+    #[inline(never)]
+    pub fn bytes(&mut self, b: &[u8]) {
+        self.0.update(b);
+    }
+
+    /// One byte.
+    pub fn u8(&mut self, v: u8) {
+        self.bytes(&[v]);
+    }
+
+    /// A number as binary64 little-endian, −0 as +0.
+    #[inline(never)]
+    pub fn f64(&mut self, v: f64) {
+        let v = if v == 0.0 { 0.0 } else { v };
+        self.bytes(&v.to_le_bytes());
+    }
+
+    /// An optional number: 0, or 1 and the number.
+    pub fn opt(&mut self, v: Option<f64>) {
+        match v {
+            None => self.u8(0),
+            Some(x) => {
+                self.u8(1);
+                self.f64(x);
+            }
+        }
+    }
+
+    /// A text: its length (u32 little-endian) and its UTF-8 bytes.
+    pub fn str(&mut self, s: &str) {
+        let n = u32::try_from(s.len()).unwrap_or(u32::MAX);
+        self.bytes(&n.to_le_bytes());
+        self.bytes(s.as_bytes());
+    }
+
+    fn part(&mut self, p: Part) {
+        self.f64(p.value);
+        self.f64(p.tol);
+    }
+
+    fn all(&mut self, v: &[f64]) {
+        for x in v {
+            self.f64(*x);
+        }
+    }
+
+    fn opt_part(&mut self, p: Option<Part>) {
+        match p {
+            None => self.u8(0),
+            Some(p) => {
+                self.u8(1);
+                self.part(p);
+            }
+        }
+    }
+
+    /// The stage, the profile and the test settings, in the order of the module notes.
+    #[inline(never)]
+    pub fn settings(&mut self, stage: &Stage, profile: &Profile, settings: &TestSettings) {
+        self.bytes(b"biasjig-settings");
+        self.u8(ENCODING_VERSION);
+        self.u8(match stage.polarity {
+            Polarity::Npn => 0,
+            Polarity::Pnp => 1,
+        });
+        for p in [
+            stage.vcc, stage.r1, stage.r2, stage.rc, stage.re1, stage.re2,
+        ] {
+            self.part(p);
+        }
+        self.opt(stage.rl);
+        self.f64(stage.rs);
+        for c in [stage.cin, stage.cout, stage.ce] {
+            self.opt_part(c);
+        }
+        self.all(&[
+            profile.beta_min,
+            profile.beta_typ,
+            profile.beta_max,
+            profile.beta_rev,
+            profile.beta_tc,
+            profile.is_25,
+        ]);
+        self.opt(profile.early);
+        self.all(&[profile.vce_sat, profile.power_25, profile.tj_max]);
+        self.all(&[
+            settings.temp_min_c,
+            settings.temp_max_c,
+            settings.meter.gain_error,
+            settings.meter.offset,
+            settings.meter.divider_tol,
+        ]);
+        self.opt(settings.inputs.r);
+        self.u8(match settings.inputs.mode {
+            InputMode::Together => 0,
+            InputMode::One => 1,
+        });
+    }
+
+    /// The SHA-256 of everything encoded.
+    pub fn finish(self) -> Digest {
+        Digest(self.0.finalize().into())
+    }
+}
+
+/// The settings digest of a stage, its transistor and the test settings (see the module notes).
+pub fn digest(stage: &Stage, profile: &Profile, settings: &TestSettings) -> Digest {
+    let mut c = Canonical::new();
+    c.settings(stage, profile, settings);
+    c.finish()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sha256_of_abc_is_the_standards() {
+        // FIPS 180-4 examples (NIST CSRC, SHA256.pdf): SHA-256("abc").
+        let mut c = Canonical::new();
+        c.bytes(b"abc");
+        assert_eq!(
+            c.finish().to_string(),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+    }
+
+    #[test]
+    fn every_setting_changes_the_digest_and_hex_round_trips() {
+        let stage = crate::console::default_stage();
+        let profile = Profile::default();
+        let base = TestSettings::DEFAULT;
+        let d0 = digest(&stage, &profile, &base);
+        assert_eq!(Digest::parse(&d0.to_string()), Some(d0));
+        let changed = [
+            TestSettings {
+                temp_max_c: 40.0,
+                ..base
+            },
+            TestSettings {
+                temp_min_c: 0.0,
+                ..base
+            },
+            TestSettings {
+                meter: Meter {
+                    gain_error: 0.01,
+                    ..base.meter
+                },
+                ..base
+            },
+            TestSettings {
+                inputs: Inputs {
+                    r: Some(1e6),
+                    mode: InputMode::Together,
+                },
+                ..base
+            },
+            TestSettings {
+                inputs: Inputs {
+                    r: Some(1e6),
+                    mode: InputMode::One,
+                },
+                ..base
+            },
+        ];
+        for s in changed {
+            assert_ne!(digest(&stage, &profile, &s), d0, "{s:?}");
+        }
+        let mut st = stage;
+        st.vcc.tol = 0.1;
+        assert_ne!(digest(&st, &profile, &base), d0);
+        // −0 and +0 are the same number.
+        let mut z = stage;
+        z.rs = -0.0;
+        let mut p = stage;
+        p.rs = 0.0;
+        assert_eq!(digest(&z, &profile, &base), digest(&p, &profile, &base));
+    }
+
+    #[test]
+    fn defaults_are_valid_and_ranges_name_what_is_allowed() {
+        assert_eq!(TestSettings::DEFAULT.validate(), Ok(()));
+        let bad = TestSettings {
+            inputs: Inputs {
+                r: Some(10.0),
+                mode: InputMode::One,
+            },
+            ..TestSettings::DEFAULT
+        };
+        assert_eq!(bad.validate(), Err(SettingsError::InputR));
+        let t = TestSettings {
+            temp_min_c: 30.0,
+            temp_max_c: 20.0,
+            ..TestSettings::DEFAULT
+        };
+        assert_eq!(t.validate(), Err(SettingsError::Ambient));
+    }
+
+    #[test]
+    fn one_at_a_time_loads_only_the_node_read() {
+        let i = Inputs {
+            r: Some(1e6),
+            mode: InputMode::One,
+        };
+        assert_eq!(i.common_loads(), None);
+        let b = i.loads_reading(ReadNode::Base);
+        assert_eq!((b.base, b.collector, b.emitter), (Some(1e6), None, None));
+        let t = Inputs {
+            mode: InputMode::Together,
+            ..i
+        };
+        assert_eq!(t.common_loads(), Some(NodeLoads::each(Some(1e6))));
+        assert_eq!(Inputs::IDEAL.common_loads(), Some(NodeLoads::NONE));
+    }
+}
