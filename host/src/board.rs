@@ -9,7 +9,9 @@ use serde_json::{json, Value};
 use thiserror::Error;
 
 use crate::boardlog::{self, Appender, LogError};
-use crate::cmd::check::{board_windows, outcome_json, overrides_json, settings_json, Outcome, Station};
+use crate::cmd::check::{
+    board_windows, outcome_json, overrides_json, settings_json, Outcome, Station,
+};
 use crate::cmd::limits::NODES;
 use crate::error::CliError;
 use crate::record::{self, BoardRecord, Edges, Nominal, Source};
@@ -234,7 +236,11 @@ impl StationSink {
     /// Write the record the station formed from the instrument's reply (the shape of
     /// `check --json` plus time, serial, design and readings).
     pub fn write_value(&mut self, v: Value) -> Result<BoardRecord, CliError> {
-        let serial = v.get("serial").and_then(Value::as_str).unwrap_or("").to_string();
+        let serial = v
+            .get("serial")
+            .and_then(Value::as_str)
+            .unwrap_or("")
+            .to_string();
         let mut r: BoardRecord = serde_json::from_value(v)
             .map_err(|e| CliError::usage(format!("board {serial}: cannot form its record: {e}")))?;
         if r.record_id.is_empty() {
@@ -249,7 +255,9 @@ impl StationSink {
         });
         self.trace.stamp(&mut r);
         if let Err(e) = r.whole() {
-            eprintln!("biasjig: warning: board {serial}: the instrument's record is not whole: {e}");
+            eprintln!(
+                "biasjig: warning: board {serial}: the instrument's record is not whole: {e}"
+            );
         }
         self.rec.write(&mut r)?;
         self.rec.sync()?;

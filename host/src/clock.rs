@@ -106,7 +106,14 @@ mod tests {
         assert_eq!(parse_ms("2000-03-01T01:02:03.045Z"), Some(ms));
         assert_eq!(parse_ms("2000-03-01T01:02:03Z"), Some(ms - 45));
         assert_eq!(parse_ms("2000-03-01"), Some(11_017 * 86_400_000));
-        for bad in ["2000-02-30", "2001-02-29", "2000-13-01", "2000-03-01T24:00:00Z", "x", ""] {
+        for bad in [
+            "2000-02-30",
+            "2001-02-29",
+            "2000-13-01",
+            "2000-03-01T24:00:00Z",
+            "x",
+            "",
+        ] {
             assert_eq!(parse_ms(bad), None, "{bad}");
         }
         assert!(parse_ms("2000-02-29").is_some());

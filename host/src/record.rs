@@ -312,8 +312,7 @@ impl BoardRecord {
         } else {
             None
         };
-        let mut r: Self =
-            serde_json::from_value(v).map_err(|e| NotWhole::Shape(e.to_string()))?;
+        let mut r: Self = serde_json::from_value(v).map_err(|e| NotWhole::Shape(e.to_string()))?;
         if let Some(id) = legacy_id {
             r.record_id = id;
         }

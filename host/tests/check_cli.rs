@@ -335,7 +335,10 @@ fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
     assert_eq!(out.status.code(), Some(0));
     let v: Value = serde_json::from_slice(&out.stdout).unwrap();
     // One design; every complete record is one test (the report's shape of issue 16).
-    assert_eq!(v["designs"][0]["tests"].as_u64().unwrap() as usize, complete);
+    assert_eq!(
+        v["designs"][0]["tests"].as_u64().unwrap() as usize,
+        complete
+    );
     assert_eq!(v["skipped_lines"], 1);
     assert!(String::from_utf8_lossy(&out.stderr).contains("torn"));
     // Checking the next board appends on a fresh line, never merged with the torn one.

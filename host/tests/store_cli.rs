@@ -22,14 +22,50 @@ use serde_json::Value;
 
 /// Design A (an invented stage: 15 V, 68k/15k divider, 3k9 collector, 220 + 820 emitter).
 const DESIGN_A: [&str; 20] = [
-    "--vcc", "15", "--r1", "68k", "--r2", "15k", "--rc", "3k9", "--re1", "220", "--re2", "820",
-    "--beta-min", "120", "--beta", "210", "--beta-max", "360", "--vbe", "0.66",
+    "--vcc",
+    "15",
+    "--r1",
+    "68k",
+    "--r2",
+    "15k",
+    "--rc",
+    "3k9",
+    "--re1",
+    "220",
+    "--re2",
+    "820",
+    "--beta-min",
+    "120",
+    "--beta",
+    "210",
+    "--beta-max",
+    "360",
+    "--vbe",
+    "0.66",
 ];
 
 /// Design B: design A with a 4k7 collector resistor (another design hash).
 const DESIGN_B: [&str; 20] = [
-    "--vcc", "15", "--r1", "68k", "--r2", "15k", "--rc", "4k7", "--re1", "220", "--re2", "820",
-    "--beta-min", "120", "--beta", "210", "--beta-max", "360", "--vbe", "0.66",
+    "--vcc",
+    "15",
+    "--r1",
+    "68k",
+    "--r2",
+    "15k",
+    "--rc",
+    "4k7",
+    "--re1",
+    "220",
+    "--re2",
+    "820",
+    "--beta-min",
+    "120",
+    "--beta",
+    "210",
+    "--beta-max",
+    "360",
+    "--vbe",
+    "0.66",
 ];
 
 fn stage(rc: f64) -> (Stage, Profile) {
@@ -70,7 +106,11 @@ fn board(serial: &str, rc: f64, vcc: f64, good: bool, k: usize) -> Board {
     let (mut s, p) = stage(rc);
     s.vcc.value = vcc;
     if !good {
-        let part = if k % 2 == 0 { Resistor::Rc } else { Resistor::R2 };
+        let part = if k % 2 == 0 {
+            Resistor::Rc
+        } else {
+            Resistor::R2
+        };
         s = s.with_fault(Fault::Open(part));
     }
     let op = solve(
@@ -184,7 +224,11 @@ fn design_entry<'a>(rep: &'a Value, design_rc: &str) -> &'a Value {
 
 /// The design hash `biasjig` records for a design (from a logged check of one good board).
 fn hash_of(design_rc: &str) -> String {
-    let design: &[&str] = if design_rc == "A" { &DESIGN_A } else { &DESIGN_B };
+    let design: &[&str] = if design_rc == "A" {
+        &DESIGN_A
+    } else {
+        &DESIGN_B
+    };
     let rc = if design_rc == "A" { 3.9e3 } else { 4.7e3 };
     let b = board("H1", rc, 15.0, true, 0);
     let log = temp("hash.jsonl");
@@ -203,8 +247,16 @@ fn hash_of(design_rc: &str) -> String {
 }
 
 fn assert_group(got: &Value, want: &Expect, what: &str) {
-    assert_eq!(got["boards"].as_u64(), Some(want.boards), "{what} boards: {got}");
-    assert_eq!(got["tests"].as_u64(), Some(want.tests), "{what} tests: {got}");
+    assert_eq!(
+        got["boards"].as_u64(),
+        Some(want.boards),
+        "{what} boards: {got}"
+    );
+    assert_eq!(
+        got["tests"].as_u64(),
+        Some(want.tests),
+        "{what} tests: {got}"
+    );
     let fpy = want.first_pass as f64 / want.boards as f64;
     assert!(
         (got["first_pass_yield"].as_f64().unwrap() - fpy).abs() < 1e-12,
@@ -220,19 +272,52 @@ fn assert_group(got: &Value, want: &Expect, what: &str) {
 /// design; the report's figures per design and station match the rows.
 fn two_stations_retests_and_two_designs(url: &str) {
     let a1: Vec<Board> = (0..120)
-        .map(|k| board(&format!("A1-{k:03}"), 3.9e3, 14.9 + 0.002 * k as f64, k % 7 != 3, k))
+        .map(|k| {
+            board(
+                &format!("A1-{k:03}"),
+                3.9e3,
+                14.9 + 0.002 * k as f64,
+                k % 7 != 3,
+                k,
+            )
+        })
         .collect();
     let a2: Vec<Board> = (0..120)
-        .map(|k| board(&format!("A2-{k:03}"), 3.9e3, 15.1 - 0.002 * k as f64, k % 5 != 1, k))
+        .map(|k| {
+            board(
+                &format!("A2-{k:03}"),
+                3.9e3,
+                15.1 - 0.002 * k as f64,
+                k % 5 != 1,
+                k,
+            )
+        })
         .collect();
     let (p1, p2) = (temp("s1.csv"), temp("s2.csv"));
     std::fs::write(&p1, csv(&a1)).unwrap();
     std::fs::write(&p2, csv(&a2)).unwrap();
-    let c1 = batch_cmd(&DESIGN_A, &p1, url, "bench-1", "L7").spawn().unwrap();
-    let c2 = batch_cmd(&DESIGN_A, &p2, url, "bench-2", "L7").spawn().unwrap();
-    let (o1, o2) = (c1.wait_with_output().unwrap(), c2.wait_with_output().unwrap());
-    assert_eq!(o1.status.code(), Some(1), "{}", String::from_utf8_lossy(&o1.stderr));
-    assert_eq!(o2.status.code(), Some(1), "{}", String::from_utf8_lossy(&o2.stderr));
+    let c1 = batch_cmd(&DESIGN_A, &p1, url, "bench-1", "L7")
+        .spawn()
+        .unwrap();
+    let c2 = batch_cmd(&DESIGN_A, &p2, url, "bench-2", "L7")
+        .spawn()
+        .unwrap();
+    let (o1, o2) = (
+        c1.wait_with_output().unwrap(),
+        c2.wait_with_output().unwrap(),
+    );
+    assert_eq!(
+        o1.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&o1.stderr)
+    );
+    assert_eq!(
+        o2.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&o2.stderr)
+    );
     // Retests on bench-2: every board that failed on bench-1, now repaired (good readings).
     let re: Vec<Board> = a1
         .iter()
@@ -243,7 +328,12 @@ fn two_stations_retests_and_two_designs(url: &str) {
     let p3 = temp("re.csv");
     std::fs::write(&p3, csv(&re)).unwrap();
     let o3 = run(batch_cmd(&DESIGN_A, &p3, url, "bench-2", "L7"));
-    assert_eq!(o3.status.code(), Some(0), "{}", String::from_utf8_lossy(&o3.stderr));
+    assert_eq!(
+        o3.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o3.stderr)
+    );
     // A second design on bench-1.
     let b1: Vec<Board> = (0..40)
         .map(|k| board(&format!("B-{k:03}"), 4.7e3, 15.0, k % 4 != 0, k))
@@ -251,7 +341,12 @@ fn two_stations_retests_and_two_designs(url: &str) {
     let p4 = temp("b.csv");
     std::fs::write(&p4, csv(&b1)).unwrap();
     let o4 = run(batch_cmd(&DESIGN_B, &p4, url, "bench-1", "L8"));
-    assert_eq!(o4.status.code(), Some(1), "{}", String::from_utf8_lossy(&o4.stderr));
+    assert_eq!(
+        o4.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&o4.stderr)
+    );
 
     let rep = report(url, &[]);
     assert_eq!(rep["designs"].as_array().unwrap().len(), 2, "never merged");
@@ -291,7 +386,11 @@ fn two_stations_retests_and_two_designs(url: &str) {
     assert_eq!(db["stations"].as_object().unwrap().len(), 1);
     // Filters: one station, one lot.
     let only2 = report(url, &["--station", "bench-2"]);
-    assert_group(design_entry(&only2, "A"), &expect(&st2), "--station bench-2");
+    assert_group(
+        design_entry(&only2, "A"),
+        &expect(&st2),
+        "--station bench-2",
+    );
     assert_eq!(only2["designs"].as_array().unwrap().len(), 1);
     let l8 = report(url, &["--lot", "L8"]);
     assert_eq!(l8["designs"].as_array().unwrap().len(), 1);
@@ -315,7 +414,15 @@ fn two_stations_retests_and_two_designs(url: &str) {
 /// doubling a board.
 fn killed_station_resumes(url: &str) {
     let rows: Vec<Board> = (0..1500)
-        .map(|k| board(&format!("K{k:04}"), 3.9e3, 14.95 + 0.0001 * k as f64, k % 3 != 0, k))
+        .map(|k| {
+            board(
+                &format!("K{k:04}"),
+                3.9e3,
+                14.95 + 0.0001 * k as f64,
+                k % 3 != 0,
+                k,
+            )
+        })
         .collect();
     let p = temp("kill.csv");
     std::fs::write(&p, csv(&rows)).unwrap();
@@ -342,7 +449,12 @@ fn killed_station_resumes(url: &str) {
         c.arg("--log").arg(&log);
         c
     });
-    assert_eq!(out.status.code(), Some(1), "{}", String::from_utf8_lossy(&out.stderr));
+    assert_eq!(
+        out.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     assert!(String::from_utf8_lossy(&out.stderr).contains("already recorded"));
     let rep = report(url, &["--station", "bench-k"]);
     let tests: Vec<(&str, bool)> = rows.iter().map(|b| (b.serial.as_str(), b.good)).collect();
@@ -385,8 +497,15 @@ fn import_twice(url: &str) {
             .unwrap();
         assert_eq!(out.status.code(), Some(0), "{out:?}");
         let v: Value = serde_json::from_slice(&out.stdout).unwrap();
-        assert_eq!(v["new"].as_u64(), Some(if pass == 0 { 30 } else { 0 }), "{v}");
-        assert_eq!(v["already_there"].as_u64(), Some(if pass == 0 { 0 } else { 30 }));
+        assert_eq!(
+            v["new"].as_u64(),
+            Some(if pass == 0 { 30 } else { 0 }),
+            "{v}"
+        );
+        assert_eq!(
+            v["already_there"].as_u64(),
+            Some(if pass == 0 { 0 } else { 30 })
+        );
     }
     let from_store = report(url, &["--station", "bench-i"]);
     let out = bin()
@@ -415,7 +534,12 @@ fn rework_loop(url: &str) {
     let out = bin()
         .arg("check")
         .args(DESIGN_A)
-        .args(["--vb", &bad[0].r[1].to_string(), "--ve", &bad[0].r[2].to_string()])
+        .args([
+            "--vb",
+            &bad[0].r[1].to_string(),
+            "--ve",
+            &bad[0].r[2].to_string(),
+        ])
         .args(["--vc", &bad[0].r[3].to_string(), "--json"])
         .output()
         .unwrap();
@@ -427,7 +551,9 @@ fn rework_loop(url: &str) {
     let other = if part == "R1" { "R2" } else { "R1" };
     for (sn, p, m) in [("W1", part.as_str(), mode.as_str()), ("W2", other, "open")] {
         let out = bin()
-            .args(["repair", "--store", url, "--serial", sn, "--part", p, "--mode", m])
+            .args([
+                "repair", "--store", url, "--serial", sn, "--part", p, "--mode", m,
+            ])
             .output()
             .unwrap();
         assert_eq!(out.status.code(), Some(0), "{out:?}");
@@ -437,7 +563,9 @@ fn rework_loop(url: &str) {
     assert_eq!(w["matched"].as_u64(), Some(2), "{w}");
     assert_eq!(w["named_first"].as_u64(), Some(1), "{w}");
     let bad_part = bin()
-        .args(["repair", "--store", url, "--serial", "W1", "--part", "R9", "--mode", "open"])
+        .args([
+            "repair", "--store", url, "--serial", "W1", "--part", "R9", "--mode", "open",
+        ])
         .output()
         .unwrap();
     assert_eq!(bad_part.status.code(), Some(2));
@@ -565,7 +693,10 @@ fn report_refuses_records_that_are_not_whole() {
     let v: Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v["refused_records"], 2);
     let d = &v["designs"][0];
-    assert_eq!((d["boards"].as_u64(), d["tests"].as_u64()), (Some(2), Some(2)));
+    assert_eq!(
+        (d["boards"].as_u64(), d["tests"].as_u64()),
+        (Some(2), Some(2))
+    );
     assert_eq!(d["first_pass_yield"].as_f64(), Some(1.0));
 }
 
@@ -621,7 +752,8 @@ fn batch_says_duplicate_serials_and_columns() {
     ];
     let p = temp("dup.csv");
     let mut f = std::fs::File::create(&p).unwrap();
-    f.write_all(csv(&rows).replace('\n', "\r\n").as_bytes()).unwrap();
+    f.write_all(csv(&rows).replace('\n', "\r\n").as_bytes())
+        .unwrap();
     drop(f);
     let out = bin()
         .arg("batch")
@@ -680,8 +812,16 @@ fn limits_csv_has_exactly_the_windows_and_hashes_check_records() {
             &rec["nodes"][f[0]]
         };
         // Bit for bit: the CSV's shortest decimal reads back as the very window applied.
-        assert_eq!(f[1].parse::<f64>().unwrap(), node["low"].as_f64().unwrap(), "{l}");
-        assert_eq!(f[2].parse::<f64>().unwrap(), node["high"].as_f64().unwrap(), "{l}");
+        assert_eq!(
+            f[1].parse::<f64>().unwrap(),
+            node["low"].as_f64().unwrap(),
+            "{l}"
+        );
+        assert_eq!(
+            f[2].parse::<f64>().unwrap(),
+            node["high"].as_f64().unwrap(),
+            "{l}"
+        );
         assert_eq!(f[4], rec["design"]["hash"].as_str().unwrap());
         assert_eq!(f[5], rec["digest"].as_str().unwrap());
         n += 1;
@@ -708,9 +848,17 @@ fn the_html_report_names_the_design_dates_and_lot() {
     assert_eq!(out.status.code(), Some(0), "{out:?}");
     let page = std::fs::read_to_string(&html).unwrap();
     let hash = hash_of("A");
-    let today = &serde_json::to_string(&report(&url, &[])["designs"][0]["first_test"])
-        .unwrap()[1..11];
-    for want in [hash.as_str(), "Design flags", "LOT-42", "H05", today, "Western Electric", "<svg"] {
+    let today =
+        &serde_json::to_string(&report(&url, &[])["designs"][0]["first_test"]).unwrap()[1..11];
+    for want in [
+        hash.as_str(),
+        "Design flags",
+        "LOT-42",
+        "H05",
+        today,
+        "Western Electric",
+        "<svg",
+    ] {
         assert!(page.contains(want), "{want} not in the page");
     }
 }
@@ -719,8 +867,19 @@ fn the_html_report_names_the_design_dates_and_lot() {
 fn the_manual_station_records_whole_tests_in_the_store() {
     let design = temp("station.toml");
     let out = bin()
-        .args(["design", "--vcc", "12", "--gain", "15", "--rl", "15k", "--rs", "600"])
-        .args(["--ic-max", "2m", "--f-low", "5", "--beta", "180", "--beta-min", "100"])
+        .args([
+            "design", "--vcc", "12", "--gain", "15", "--rl", "15k", "--rs", "600",
+        ])
+        .args([
+            "--ic-max",
+            "2m",
+            "--f-low",
+            "5",
+            "--beta",
+            "180",
+            "--beta-min",
+            "100",
+        ])
         .args(["--beta-max", "300", "-o"])
         .arg(&design)
         .output()
@@ -741,7 +900,16 @@ fn the_manual_station_records_whole_tests_in_the_store() {
         .arg(&design)
         .arg("--log")
         .arg(&log)
-        .args(["--store", &url, "--station", "bench-m", "--lot", "LM", "--operator", "kim"])
+        .args([
+            "--store",
+            &url,
+            "--station",
+            "bench-m",
+            "--lot",
+            "LM",
+            "--operator",
+            "kim",
+        ])
         .stdin(Stdio::piped())
         .stdout(Stdio::null())
         .stderr(Stdio::null())
@@ -762,11 +930,7 @@ fn the_manual_station_records_whole_tests_in_the_store() {
     assert_group(d, &want, "station");
     assert_group(&d["stations"]["bench-m"], &want, "station bench-m");
     // The log holds the same records (the store and the log are one record type).
-    let out = bin()
-        .args(["report", "--json"])
-        .arg(&log)
-        .output()
-        .unwrap();
+    let out = bin().args(["report", "--json"]).arg(&log).output().unwrap();
     let from_log: Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_group(&from_log["designs"][0], &want, "station log");
     let lines: Vec<Value> = std::fs::read_to_string(&log)
@@ -777,7 +941,10 @@ fn the_manual_station_records_whole_tests_in_the_store() {
     assert_eq!(lines[0]["operator"], "kim");
     assert_eq!(lines[0]["lot"], "LM");
     // The store marks the second test of M2 as a retest, and the log carries the same flag.
-    let retest: Vec<bool> = lines.iter().map(|l| l["retest"].as_bool().unwrap()).collect();
+    let retest: Vec<bool> = lines
+        .iter()
+        .map(|l| l["retest"].as_bool().unwrap())
+        .collect();
     assert_eq!(retest, [false, false, true]);
 }
 
@@ -806,7 +973,12 @@ fn a_full_disk_under_the_sqlite_store_keeps_whole_tests_and_the_rerun_completes(
     assert!((1..120).contains(&kept), "{kept}");
     assert!(err.contains(&format!("line {}", kept + 2)), "{kept}: {err}");
     let out = run(batch_cmd(&DESIGN_A, &p, &url, "bench-f", ""));
-    assert_eq!(out.status.code(), Some(1), "{}", String::from_utf8_lossy(&out.stderr));
+    assert_eq!(
+        out.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let rep = report(&url, &[]);
     let tests: Vec<(&str, bool)> = rows.iter().map(|b| (b.serial.as_str(), b.good)).collect();
     assert_group(&rep["designs"][0], &expect(&tests), "after the full disk");

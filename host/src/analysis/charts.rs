@@ -56,7 +56,11 @@ pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
             .y_label_area_size(60)
             .build_cartesian_2d(0..len, (lo - pad)..(hi + pad))
             .map_err(err)?;
-        chart.configure_mesh().disable_x_mesh().draw().map_err(err)?;
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .draw()
+            .map_err(err)?;
         chart
             .draw_series(LineSeries::new(
                 n.values.iter().enumerate().map(|(i, v)| (i, *v)),
@@ -125,7 +129,11 @@ pub fn histogram(n: &NodePlot<'_>) -> Result<String, String> {
             .y_label_area_size(40)
             .build_cartesian_2d(lo..hi, 0u32..top + 1)
             .map_err(err)?;
-        chart.configure_mesh().disable_x_mesh().draw().map_err(err)?;
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .draw()
+            .map_err(err)?;
         chart
             .draw_series(counts.iter().enumerate().map(|(k, c)| {
                 let x0 = lo + width * k as f64;

@@ -175,7 +175,11 @@ impl Design {
                 continue;
             }
             let name: Vec<String> = d.class.iter().map(|(p, m)| format!("{p} {m}")).collect();
-            let slot = if d.class.len() > 1 { &mut groups } else { &mut single };
+            let slot = if d.class.len() > 1 {
+                &mut groups
+            } else {
+                &mut single
+            };
             *slot.entry(name.join(" | ")).or_default() += 1;
         }
         let sort = |m: BTreeMap<String, u64>| {
@@ -285,17 +289,19 @@ impl Analysis {
         if r.verdict == Outcome::Fail {
             let explained = r.explained != Some(false) && !r.faults.is_empty();
             let class = r.faults.first().map_or(Vec::new(), |f| {
-                let mut c: Vec<(String, String)> = std::iter::once((f.part.clone(), f.mode.clone()))
-                    .chain(f.equivalent.iter().map(|e| (e.part.clone(), e.mode.clone())))
-                    .collect();
+                let mut c: Vec<(String, String)> =
+                    std::iter::once((f.part.clone(), f.mode.clone()))
+                        .chain(
+                            f.equivalent
+                                .iter()
+                                .map(|e| (e.part.clone(), e.mode.clone())),
+                        )
+                        .collect();
                 c.sort();
                 c.dedup();
                 c
             });
-            let newer = d
-                .diagnosed
-                .get(&r.serial)
-                .is_none_or(|old| key < old.key);
+            let newer = d.diagnosed.get(&r.serial).is_none_or(|old| key < old.key);
             if newer {
                 d.diagnosed.insert(
                     r.serial.clone(),
@@ -336,7 +342,12 @@ impl Analysis {
             if key.0 > rep.time_ms() || slot.as_ref().is_some_and(|m| m.key > key) {
                 continue;
             }
-            let named = |n: usize| r.faults.iter().take(n).any(|f| f.names(&rep.part, &rep.mode));
+            let named = |n: usize| {
+                r.faults
+                    .iter()
+                    .take(n)
+                    .any(|f| f.names(&rep.part, &rep.mode))
+            };
             *slot = Some(Matched {
                 key,
                 design: r.design.hash.clone(),

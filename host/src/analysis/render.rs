@@ -122,8 +122,10 @@ pub fn design_json(a: &Analysis, d: &Design) -> Value {
                     .signals
                     .iter()
                     .take(20)
-                    .map(|(r, i)| json!({"rule": r, "point": i + 1,
-                                         "serial": n.serials.get(*i)}))
+                    .map(|(r, i)| {
+                        json!({"rule": r, "point": i + 1,
+                                         "serial": n.serials.get(*i)})
+                    })
                     .collect();
                 json!({"n": n.values.len(), "centre": num(c.centre), "sigma": num(c.sigma),
                        "ucl": num(c.ucl()), "lcl": num(c.lcl()),

@@ -155,7 +155,9 @@ mod tests {
     #[test]
     fn each_run_rule_fires_on_its_pattern() {
         // A steady zig-zag of ±1 around 10 gives mean moving range 2, σ̂ = 2/1.128 = 1.77.
-        let base: Vec<f64> = (0..40).map(|k| if k % 2 == 0 { 9.0 } else { 11.0 }).collect();
+        let base: Vec<f64> = (0..40)
+            .map(|k| if k % 2 == 0 { 9.0 } else { 11.0 })
+            .collect();
         let quiet = individuals(&base).unwrap();
         assert!(quiet.signals.is_empty(), "{:?}", quiet.signals);
         let mut one = base.clone();

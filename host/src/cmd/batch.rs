@@ -168,7 +168,10 @@ pub struct Rows<R: BufRead> {
 
 /// Read one line of at most `MAX_ROW` bytes; `Ok(None)` at the end. A longer line is consumed
 /// whole and returned as `Err(len)`.
-fn next_line(rd: &mut impl BufRead, buf: &mut Vec<u8>) -> std::io::Result<Option<Result<(), usize>>> {
+fn next_line(
+    rd: &mut impl BufRead,
+    buf: &mut Vec<u8>,
+) -> std::io::Result<Option<Result<(), usize>>> {
     buf.clear();
     let n = rd.take(MAX_ROW as u64 + 2).read_until(b'\n', buf)?;
     if n == 0 {
@@ -505,10 +508,7 @@ mod tests {
     fn a_row_that_is_not_utf8_is_refused_alone_with_its_line() {
         let mut bytes = b"serial,vcc,vb,ve,vc\nA1,15,2.5,1.9,8\nA\xff2,15,2.5,1.9,8\n".to_vec();
         bytes.extend_from_slice(b"A3,15,2.5,1.9,8\n");
-        let rows: Vec<Line> = Rows::new(&bytes[..])
-            .unwrap()
-            .map(Result::unwrap)
-            .collect();
+        let rows: Vec<Line> = Rows::new(&bytes[..]).unwrap().map(Result::unwrap).collect();
         assert_eq!(rows.len(), 3);
         assert!(rows[0].row.is_ok() && rows[2].row.is_ok());
         assert_eq!(rows[1].number, 3);

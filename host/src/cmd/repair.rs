@@ -59,7 +59,11 @@ impl Cmd {
             ));
         }
         let mode = self.mode.to_ascii_lowercase();
-        let modes: &[&str] = if part == "Q" { &Q_MODES } else { &PASSIVE_MODES };
+        let modes: &[&str] = if part == "Q" {
+            &Q_MODES
+        } else {
+            &PASSIVE_MODES
+        };
         if !modes.contains(&mode.as_str()) {
             return Err(CliError::field(
                 "--mode",

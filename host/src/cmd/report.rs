@@ -255,7 +255,10 @@ impl Cmd {
                 };
                 for (kind, svg) in [
                     ("chart", crate::analysis::charts::control(&p).map_err(&bad)?),
-                    ("histogram", crate::analysis::charts::histogram(&p).map_err(&bad)?),
+                    (
+                        "histogram",
+                        crate::analysis::charts::histogram(&p).map_err(&bad)?,
+                    ),
                 ] {
                     let f = dir.join(format!("{}-{}-{kind}.svg", d.hash, n.name));
                     write_atomic(&f, &svg).map_err(|e| bad(e.to_string()))?;

@@ -646,8 +646,7 @@ mod tests {
         }
         let input = std::io::BufReader::with_capacity(1, Feed(board, 0, Vec::new(), 0));
         let mut screen = Vec::new();
-        let mut sink =
-            crate::board::StationSink::open(Some(&log), &TraceArgs::default()).unwrap();
+        let mut sink = crate::board::StationSink::open(Some(&log), &TraceArgs::default()).unwrap();
         let n = run_loop(&mut st, input, &mut screen, &mut sink, false).unwrap();
         assert_eq!(n, 12);
         assert!(st.resyncs >= 2, "resets happened: {}", st.resyncs);

@@ -41,7 +41,9 @@ pub enum StoreError {
     #[error("store (PostgreSQL): {0}")]
     Postgres(#[from] ::postgres::Error),
     /// The store was made by a newer tool.
-    #[error("store schema version {found} is newer than this tool's ({known}); use a newer biasjig")]
+    #[error(
+        "store schema version {found} is newer than this tool's ({known}); use a newer biasjig"
+    )]
     Schema {
         /// The store's version.
         found: i64,
