@@ -723,10 +723,11 @@ fn a_full_disk_stops_the_batch_whole_and_the_rerun_completes() {
     assert!(err.contains("were not tested"), "{err}");
     let text = std::fs::read_to_string(&log).unwrap();
     assert!(text.ends_with('\n'), "no partial record");
-    let kept = text
-        .lines()
-        .map(|l| serde_json::from_str::<Value>(l).unwrap())
-        .count();
+    let mut kept = 0;
+    for l in text.lines() {
+        let _: Value = serde_json::from_str(l).expect("every kept line is a whole record");
+        kept += 1;
+    }
     assert!((1..200).contains(&kept), "{kept}");
     // The message names the first row not tested: the one after the last kept.
     assert!(err.contains(&format!("line {}", kept + 2)), "{err}");

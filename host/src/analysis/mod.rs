@@ -136,6 +136,9 @@ struct Matched {
     top3: bool,
 }
 
+/// Counts by name, most first.
+pub type Counts = Vec<(String, u64)>;
+
 /// The figures of one design.
 #[derive(Debug, Clone, Default)]
 pub struct Design {
@@ -165,7 +168,7 @@ pub struct Design {
 
 impl Design {
     /// Pareto of failed boards: (single faults, groups, unexplained boards), most first.
-    pub fn pareto(&self) -> (Vec<(String, u64)>, Vec<(String, u64)>, u64) {
+    pub fn pareto(&self) -> (Counts, Counts, u64) {
         let mut single: BTreeMap<String, u64> = BTreeMap::new();
         let mut groups: BTreeMap<String, u64> = BTreeMap::new();
         let mut unexplained = 0;
