@@ -38,6 +38,7 @@ mod error;
 mod json;
 mod link;
 mod plot;
+mod readings;
 mod record;
 mod stage_args;
 mod store;
