@@ -6,7 +6,8 @@
 //! beyond the meter error, every node at the same voltage) are refused with a reason that tells
 //! the technician what to fix, and are not judged.
 
-use crate::limits::{derived_ic, Limits, Meter, Window};
+use crate::limits::{derived_ic_through, Limits, Meter, Window};
+use crate::settings::Inputs;
 use crate::solve::Region;
 use crate::stage::{Polarity, Readings, Stage};
 use crate::units::Fixed;
@@ -194,27 +195,36 @@ pub fn plausible(stage: &Stage, meter: &Meter, r: &Readings) -> Result<(), Impla
 
 /// IE, IC, IB, hFE, VBE, VCE and the region from the readings and the nominal resistors.
 pub fn derive(stage: &Stage, meter: &Meter, r: &Readings) -> Derived {
+    derive_through(stage, meter, &Inputs::IDEAL, r)
+}
+
+/// [`derive`] for readings taken through measuring inputs: each input's own current (the node
+/// voltage over its resistance) is taken out of the currents at its node.
+pub fn derive_through(stage: &Stage, meter: &Meter, inputs: &Inputs, r: &Readings) -> Derived {
+    // The current an input draws from a node at `v`, A (0 for an ideal meter).
+    let drawn = |v: f64| inputs.r.map_or(0.0, |rin| v / rin);
     let re = stage.re_total();
     let ie = if re > 0.0 && re.is_finite() {
         Some(match stage.polarity {
-            Polarity::Npn => r.ve / re,
-            Polarity::Pnp => (r.vcc - r.ve) / re,
+            Polarity::Npn => r.ve / re + drawn(r.ve),
+            Polarity::Pnp => (r.vcc - r.ve) / re - drawn(r.ve),
         })
     } else {
         None
     };
-    let ic = derived_ic(stage, r.vcc, r.vc);
+    let ic = derived_ic_through(stage, inputs, r.vcc, r.vc);
     let (r1, r2) = (stage.r1.value, stage.r2.value);
     let i_r1 = (r.vcc - r.vb) / r1;
     let i_r2 = r.vb / r2;
     // Positive in the direction of normal operation: into the base of an NPN, out of a PNP's.
     let ib = match stage.polarity {
-        Polarity::Npn => i_r1 - i_r2,
-        Polarity::Pnp => i_r2 - i_r1,
+        Polarity::Npn => i_r1 - i_r2 - drawn(r.vb),
+        Polarity::Pnp => i_r2 - i_r1 + drawn(r.vb),
     };
     // What the meter can resolve of IB: the base-voltage error through both divider resistors.
-    let ib_resolution =
-        reading_error(meter, r.vb) * (1.0 / r1 + 1.0 / r2) + reading_error(meter, r.vcc) / r1;
+    let ib_resolution = reading_error(meter, r.vb) * (1.0 / r1 + 1.0 / r2)
+        + reading_error(meter, r.vcc) / r1
+        + drawn(reading_error(meter, r.vb));
     let beta = if ib > 2.0 * ib_resolution && ic > 0.0 {
         Some(ic / ib)
     } else {
@@ -250,8 +260,20 @@ pub fn check(
     meter: &Meter,
     r: &Readings,
 ) -> Result<Verdict, Implausible> {
+    check_through(stage, limits, meter, &Inputs::IDEAL, r)
+}
+
+/// [`check`] for readings taken through measuring inputs (the limits must be computed with the
+/// same inputs): the derived quantities take the inputs' currents out ([`derive_through`]).
+pub fn check_through(
+    stage: &Stage,
+    limits: &Limits,
+    meter: &Meter,
+    inputs: &Inputs,
+    r: &Readings,
+) -> Result<Verdict, Implausible> {
     plausible(stage, meter, r)?;
-    let derived = derive(stage, meter, r);
+    let derived = derive_through(stage, meter, inputs, r);
     let judge = |node: Node, measured: f64, w: Window| NodeVerdict {
         node,
         measured,
@@ -329,6 +351,27 @@ mod tests {
         let v = check(&stage(), &wide(), &Meter::default(), &r).unwrap();
         assert!(v.pass);
         assert_eq!(v.failing().count(), 0);
+    }
+
+    #[test]
+    fn currents_read_through_inputs_leave_out_the_inputs_own() {
+        // KCL at each node (common practice): the input at a node draws V/R of its current.
+        let r = Readings {
+            vcc: 15.0,
+            vb: 2.5,
+            ve: 1.85,
+            vc: 8.4,
+        };
+        let rin = 110e3;
+        let inputs = Inputs {
+            r: Some(rin),
+            mode: crate::settings::InputMode::Together,
+        };
+        let bare = derive(&stage(), &Meter::default(), &r);
+        let d = derive_through(&stage(), &Meter::default(), &inputs, &r);
+        assert!((d.ib - (bare.ib - 2.5 / rin)).abs() < 1e-15);
+        assert!((d.ic - (bare.ic - 8.4 / rin)).abs() < 1e-15);
+        assert!((d.ie.unwrap() - (bare.ie.unwrap() + 1.85 / rin)).abs() < 1e-15);
     }
 
     #[test]

@@ -318,21 +318,26 @@ impl Ctx<'_> {
                 let op = self.solve(&stage, cond.loaded(loads))?;
                 Some([op.vb, op.ve, op.vc])
             }
-            None => {
-                // Each node read with only its own input attached: one solve per node.
-                let mut at = |n: ReadNode| {
-                    let loads = self.inputs.loads_reading(n);
-                    self.solve(&stage, cond.loaded(loads))
-                };
-                let vb = at(ReadNode::Base)?.vb;
-                let ve = at(ReadNode::Emitter)?.ve;
-                let vc = at(ReadNode::Collector)?.vc;
-                Some([vb, ve, vc])
-            }
+            None => self.one_at_a_time(&stage, cond),
         }
     }
 
+    /// Each node read with only its own input attached: one solve per node. (Out of line: its
+    /// solves stay out of `predict`'s frame on the instrument.)
+    #[inline(never)]
+    fn one_at_a_time(&mut self, stage: &Stage, cond: Conditions) -> Option<[f64; 3]> {
+        let mut at = |n: ReadNode| {
+            let loads = self.inputs.loads_reading(n);
+            self.solve(stage, cond.loaded(loads))
+        };
+        let vb = at(ReadNode::Base)?.vb;
+        let ve = at(ReadNode::Emitter)?.ve;
+        let vc = at(ReadNode::Collector)?.vc;
+        Some([vb, ve, vc])
+    }
+
     /// One solve, started from the last one.
+    #[inline(always)]
     fn solve(&mut self, stage: &Stage, cond: Conditions) -> Option<OperatingPoint> {
         self.solves = self.solves.saturating_add(1);
         let (op, next) = solve_from(stage, self.profile, cond, self.start.as_ref()).ok()?;
@@ -808,6 +813,28 @@ pub fn diagnose(
     meter: &Meter,
     var: &Variation,
 ) -> Result<Diagnosis, DiagnoseError> {
+    let mut d = Diagnosis {
+        ranked: Vec::new(),
+        explained: false,
+        solves: 0,
+    };
+    diagnose_into(stage, profile, readings, meter, var, &mut d)?;
+    Ok(d)
+}
+
+/// [`diagnose`] written into `out` (a few KB): an instrument keeps the result where it is stored
+/// instead of moving it through its stack. On an error `out` holds nothing useful.
+pub fn diagnose_into(
+    stage: &Stage,
+    profile: &Profile,
+    readings: &Readings,
+    meter: &Meter,
+    var: &Variation,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    out.ranked.clear();
+    out.explained = false;
+    out.solves = 0;
     let m = [readings.vb, readings.ve, readings.vc];
     if !(m.iter().all(|v| v.is_finite()) && readings.vcc.is_finite()) {
         return Err(DiagnoseError::Readings);
@@ -838,7 +865,7 @@ pub fn diagnose(
     );
     // 2. The full fit for every hypothesis the screen cannot rule out: the best SCREEN_KEEP and
     //    any within SCREEN_MARGIN of the best. The rest keep their coarse fit.
-    let mut ranked: Vec<Hypothesis, CAPACITY> = Vec::new();
+    let ranked = &mut out.ranked;
     let mut rough = 0u32;
     let mut floor = f64::INFINITY;
     for &(suspect, c) in &coarse {
@@ -885,7 +912,7 @@ pub fn diagnose(
                 0.0
             }
     };
-    crate::order::sort_by(&mut ranked, |a, b| penalised(a).total_cmp(&penalised(b)));
+    crate::order::sort_by(ranked, |a, b| penalised(a).total_cmp(&penalised(b)));
     let best = ranked.first().map_or(0.0, penalised);
     let explained = ranked.first().is_some_and(|h| h.chi2 <= UNEXPLAINED_CHI2);
     let mut total = 0.0;
@@ -917,16 +944,14 @@ pub fn diagnose(
         }
     }
     // Keep each group together, in the order of its best member, best first within a group.
-    crate::order::sort_by(&mut ranked, |a, b| {
+    crate::order::sort_by(ranked, |a, b| {
         a.group
             .cmp(&b.group)
             .then(penalised(a).total_cmp(&penalised(b)))
     });
-    Ok(Diagnosis {
-        ranked,
-        explained,
-        solves: ctx.solves,
-    })
+    out.explained = explained;
+    out.solves = ctx.solves;
+    Ok(())
 }
 
 #[cfg(test)]

@@ -159,7 +159,7 @@ impl core::fmt::Display for JudgeError {
 
 /// The variation the windows and the diagnosis cover: the test ambient, read through the inputs.
 pub fn variation(settings: &TestSettings) -> Variation {
-    settings.variation().read_through(settings.inputs)
+    settings.variation()
 }
 
 /// The stage is valid, its settings are, and it is forward active at its nominal point.
@@ -250,13 +250,36 @@ pub fn verdict(
     check::plausible(stage, meter, r).map_err(JudgeError::Implausible)?;
     let limits = limits::limits(stage, profile, &variation(settings), meter, r.vcc)
         .map_err(JudgeError::Limits)?;
-    let verdict = check::check(stage, &limits, meter, r).map_err(JudgeError::Implausible)?;
+    let verdict = check::check_through(stage, &limits, meter, &settings.inputs, r)
+        .map_err(JudgeError::Implausible)?;
     Ok((Windows { supply, limits }, verdict))
 }
 
+/// [`diagnosis`] written into `out`: the instrument keeps it in its session state, never on its
+/// stack.
+#[inline(never)]
+pub fn diagnosis_into(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+    readings: &Readings,
+    out: &mut Diagnosis,
+) -> Result<(), DiagnoseError> {
+    diagnose::diagnose_into(
+        stage,
+        profile,
+        readings,
+        &settings.meter,
+        &variation(settings),
+        out,
+    )
+}
+
 /// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
-/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place.)
-#[inline]
+/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place; not
+/// inlined, so that the diagnosis's working storage is not part of its caller's frame while the
+/// windows are computed.)
+#[inline(never)]
 pub fn diagnosis(
     stage: &Stage,
     profile: &Profile,

@@ -11,6 +11,7 @@
 //! readings it is derived from.
 
 use crate::device::Profile;
+use crate::settings::Inputs;
 use crate::solve::SolveError;
 use crate::spread::{each_corner_at_supply, Node, SpreadError, Variation};
 use crate::stage::{Polarity, Stage};
@@ -178,19 +179,34 @@ impl From<SolveError> for LimitsError {
 /// The collector current a tester derives from the readings, A: (VCC − VC)/RC for NPN, VC/RC for
 /// PNP, with the nominal RC of `stage` (`vcc` and `vc` in V, ground-referenced).
 pub fn derived_ic(stage: &Stage, vcc: f64, vc: f64) -> f64 {
+    derived_ic_through(stage, &Inputs::IDEAL, vcc, vc)
+}
+
+/// [`derived_ic`] when the collector is read through a measuring input of `inputs`: the input's
+/// own current VC/R (it flows through RC too for NPN, beside it for PNP) is taken out.
+pub fn derived_ic_through(stage: &Stage, inputs: &Inputs, vcc: f64, vc: f64) -> f64 {
     let rc = stage.rc.value;
-    match stage.polarity {
+    let bare = match stage.polarity {
         Polarity::Npn => (vcc - vc) / rc,
         Polarity::Pnp => vc / rc,
+    };
+    match (inputs.r, stage.polarity) {
+        (None, _) => bare,
+        (Some(rin), Polarity::Npn) => bare - vc / rin,
+        (Some(rin), Polarity::Pnp) => bare + vc / rin,
     }
 }
 
-/// The largest error of [`derived_ic`] from the readings' errors, A.
-fn derived_ic_error(stage: &Stage, meter: &Meter, vcc: f64, vc: f64) -> f64 {
+/// The largest error of [`derived_ic_through`] from the readings' errors, A.
+fn derived_ic_error(stage: &Stage, meter: &Meter, inputs: &Inputs, vcc: f64, vc: f64) -> f64 {
     let rc = stage.rc.value;
-    match stage.polarity {
+    let bare = match stage.polarity {
         Polarity::Npn => (meter.error(vcc) + meter.error(vc)) / rc,
         Polarity::Pnp => meter.error(vc) / rc,
+    };
+    match inputs.r {
+        None => bare,
+        Some(rin) => bare + meter.error(vc) / rin,
     }
 }
 
@@ -218,8 +234,8 @@ pub fn limits(
         vbe.widen(v.vbe, meter.error(v.vb) + meter.error(v.ve));
         vce.widen(v.vce, meter.error(v.vc) + meter.error(v.ve));
         ic.widen(
-            derived_ic(stage, vcc, v.vc),
-            derived_ic_error(stage, meter, vcc, v.vc),
+            derived_ic_through(stage, &var.inputs, vcc, v.vc),
+            derived_ic_error(stage, meter, &var.inputs, vcc, v.vc),
         );
     })?;
     let [vb, ve, vc, vbe, vce, ic] = w;

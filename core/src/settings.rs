@@ -215,9 +215,10 @@ impl TestSettings {
         inputs: Inputs::IDEAL,
     };
 
-    /// The test ambient as the spread, limits and diagnosis take it.
+    /// The test ambient as the spread, limits and diagnosis take it, the nodes read through the
+    /// measuring inputs.
     pub fn variation(&self) -> Variation {
-        Variation::between(self.temp_min_c, self.temp_max_c)
+        Variation::between(self.temp_min_c, self.temp_max_c).read_through(self.inputs)
     }
 
     /// Check every field.

@@ -427,7 +427,9 @@ fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
 }
 
 /// Midband gain v(load)/v(source EMF) of `stage` at `op` (one small-signal solve), or 0 when
-/// the network is singular or the transistor is not active.
+/// the network is singular or the transistor is not active. (Out of line: the small-signal
+/// network's storage stays out of every evaluation's frame, the limits' DC-only ones included.)
+#[inline(never)]
 fn gain_of(stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
     match crate::signal::source_gain(stage, &op.y) {
         Some((g, _)) if g.is_finite() => g,
@@ -451,11 +453,7 @@ fn evaluate(
             let op = solve(&s, profile, cond.loaded(loads))?;
             (op, op.ve, op.vc)
         }
-        None => {
-            let at = |n: ReadNode| solve(&s, profile, cond.loaded(inputs.loads_reading(n)));
-            let op = at(ReadNode::Base)?;
-            (op, at(ReadNode::Emitter)?.ve, at(ReadNode::Collector)?.vc)
-        }
+        None => one_at_a_time(&s, profile, cond, inputs)?,
     };
     let (sw, _) = swing(&s, profile, &op);
     let gain = if signal { gain_of(&s, &op) } else { 0.0 };
@@ -472,6 +470,21 @@ fn evaluate(
         },
         region: op.region,
     })
+}
+
+/// Each node read with only its own input attached: the operating point with the base's, and the
+/// emitter and collector voltages with theirs. (Out of line, so that its three solves do not
+/// enlarge every evaluation's stack frame on the instrument.)
+#[inline(never)]
+fn one_at_a_time(
+    s: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    inputs: &Inputs,
+) -> Result<(crate::solve::OperatingPoint, f64, f64), SolveError> {
+    let at = |n: ReadNode| solve(s, profile, cond.loaded(inputs.loads_reading(n)));
+    let op = at(ReadNode::Base)?;
+    Ok((op, at(ReadNode::Emitter)?.ve, at(ReadNode::Collector)?.vc))
 }
 
 fn validate(stage: &Stage, profile: &Profile, var: &Variation) -> Result<(), SpreadError> {

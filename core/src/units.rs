@@ -1005,6 +1005,38 @@ pub fn capacitor_code(farads: f64) -> heapless::String<12> {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn a_fields_own_unit_is_accepted_and_another_refused() {
+        // Issue 11: `--rc 3.3mA` was read as 3.3 mΩ, `--cin 10uV` and `--vcc 12A` accepted.
+        assert_eq!(
+            parse_value_in("3.3mA", Unit::Ohm),
+            Err(ValueError::WrongUnit(Unit::Ohm))
+        );
+        assert_eq!(
+            parse_value_in("10uV", Unit::Farad),
+            Err(ValueError::WrongUnit(Unit::Farad))
+        );
+        assert_eq!(
+            parse_value_in("12A", Unit::Volt),
+            Err(ValueError::WrongUnit(Unit::Volt))
+        );
+        assert_eq!(
+            parse_value_in("200V", Unit::Number),
+            Err(ValueError::WrongUnit(Unit::Number))
+        );
+        for t in [
+            "4k7", "4.7kΩ", "4.7kohm", "4k7ohms", "4.7 kΩ", "4.7k", "4700",
+        ] {
+            assert_eq!(parse_value_in(t, Unit::Ohm), Ok(4700.0), "{t}");
+        }
+        assert_eq!(parse_value_in("10uF", Unit::Farad), Ok(10e-6));
+        assert_eq!(parse_value_in("12V", Unit::Volt), Ok(12.0));
+        assert_eq!(parse_value_in("2mA", Unit::Ampere), Ok(2e-3));
+        assert_eq!(parse_value_in("1kHz", Unit::Hertz), Ok(1e3));
+        assert_eq!(parse_signed_in("-1.2mV", Unit::Volt), Ok(-1.2e-3));
+        assert!(ValueError::WrongUnit(Unit::Ohm).to_string().contains("ohm"));
+    }
     use super::*;
     extern crate std;
     use std::format;

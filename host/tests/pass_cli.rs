@@ -855,6 +855,28 @@ fn units_that_do_not_fit_the_field_are_refused() {
             assert_eq!(json(&o)["dc"], plain["dc"]);
         }
     }
+    // The console refuses them too, naming the allowed units, and changes nothing.
+    let r = console(&strs(&[
+        "mode machine",
+        "set rc 3.3mA",
+        "set cin 10uV",
+        "set vcc 12A",
+        "set rc 4.7kohm",
+        "stage",
+    ]));
+    assert!(
+        r[1][0].starts_with("err VALUE") && r[1][0].contains("Ω"),
+        "{:?}",
+        r[1]
+    );
+    assert!(
+        r[2][0].starts_with("err VALUE") && r[2][0].contains("F"),
+        "{:?}",
+        r[2]
+    );
+    assert!(r[3][0].starts_with("err VALUE"), "{:?}", r[3]);
+    assert_eq!(r[4], vec!["ok".to_string()]);
+    assert!(r[5].iter().any(|l| l.starts_with("rc=4700 ")), "{:?}", r[5]);
     // Meter settings name their range.
     let o = run(&strs(&[
         "limits", "--vcc", "12", "--r1", "47k", "--r2", "10k", "--rc", "4k7", "--re1", "220",

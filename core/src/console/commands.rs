@@ -15,8 +15,10 @@ use super::record::{self, Settings};
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, PIN_FREE_TRIES};
 use crate::device::is_from_vbe;
+#[cfg(feature = "analysis")]
 use crate::predict::predict;
 use crate::series::{colour_bands, BandCount};
+#[cfg(feature = "analysis")]
 use crate::solve::Conditions;
 use crate::stage::{Capacitor, Part, Polarity, Readings, Resistor};
 use crate::units::{capacitor_code, resistor_code, Eng, Fixed, Full};
@@ -300,7 +302,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.show_parts(count, r);
                 Ok(None)
             }
+            #[cfg(feature = "analysis")]
             Command::Predict => self.predict(r),
+            #[cfg(not(feature = "analysis"))]
+            Command::Predict => Err(Fail::new(
+                Code::NotSupported,
+                format_args!(
+                    "predict: this unit does not analyse the stage (left out to fit its flash): \
+                     run biasjig analyze on a PC; limits, check and test work here"
+                ),
+            )),
             Command::Hash => {
                 let h = self.design_hash();
                 if r.machine() {
@@ -1117,6 +1128,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[cfg(feature = "analysis")]
     #[inline(never)]
     fn predict<W: Write>(&self, r: &mut Reply<'_, W>) -> Outcome {
         let st = &self.settings;

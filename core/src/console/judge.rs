@@ -62,36 +62,48 @@ fn spread_fail(what: &str, e: SpreadError) -> Fail {
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// Judge readings through the one judging path ([`crate::judge::verdict`], then for a failed
-    /// board [`crate::judge::diagnosis`]: the steps of [`crate::judge::judge`]; the supply window,
+    /// board [`crate::judge::diagnosis_into`]: the steps of [`crate::judge::judge`]; the supply window,
     /// the nominal region, plausibility, windows at the measured supply over the test ambient
     /// with the measuring inputs attached, verdict and, when the board fails, the diagnosis).
-    /// Keeps the result as the last check (nothing changes on an error).
+    /// Keeps the result as the last check (nothing changes when the board is not judged; a
+    /// diagnosis that fails leaves no last check).
     #[inline(never)]
     pub(super) fn judge(&mut self, rd: Readings, src: Source) -> Result<(), Fail> {
         let st = &self.settings;
         let ts = st.test_settings();
         let (_, verdict) =
             crate::judge::verdict(&st.stage, &st.profile, &ts, &rd).map_err(judge_fail)?;
-        if verdict.pass {
-            self.last = Some(LastCheck {
-                readings: rd,
-                source: src,
-                verdict,
-                diagnosis: None,
-            });
-        } else {
-            // The diagnosis (about 2 KB) goes straight into the session state: one value on
-            // the stack, no further copies.
-            match crate::judge::diagnosis(&st.stage, &st.profile, &ts, &rd) {
-                Ok(d) => {
-                    self.last = Some(LastCheck {
-                        readings: rd,
-                        source: src,
-                        verdict,
-                        diagnosis: Some(d),
-                    });
+        // The last check is updated in place: the diagnosis (about 2.5 KB) is written straight
+        // into the session state, never copied through the stack.
+        match &mut self.last {
+            Some(l) => {
+                l.readings = rd;
+                l.source = src;
+                l.verdict = verdict;
+            }
+            None => {
+                self.last = Some(LastCheck {
+                    readings: rd,
+                    source: src,
+                    verdict,
+                    diagnosis: None,
+                })
+            }
+        }
+        if let Some(l) = &mut self.last {
+            if verdict.pass {
+                l.diagnosis = None;
+            } else {
+                let d = l.diagnosis.get_or_insert_with(|| Diagnosis {
+                    ranked: heapless::Vec::new(),
+                    explained: false,
+                    solves: 0,
+                });
+                if let Err(e) = crate::judge::diagnosis_into(&st.stage, &st.profile, &ts, &rd, d) {
+                    // No half-made diagnosis stays behind.
+                    self.last = None;
+                    return Err(judge_fail(crate::judge::JudgeError::Diagnose(e)));
                 }
-                Err(e) => return Err(judge_fail(crate::judge::JudgeError::Diagnose(e))),
             }
         }
         self.readings = Some((rd, src));

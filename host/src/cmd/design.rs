@@ -77,6 +77,9 @@ pub struct Cmd {
     cap_tol: Option<f64>,
     #[command(flatten)]
     profile: ProfileArgs,
+    /// The measuring inputs of the test station, stated in the design file's `[test]` table
+    #[command(flatten)]
+    inputs: crate::stage_args::InputArgs,
     /// How many candidates to show, 1 to 8
     #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(1..=8))]
     count: u8,
@@ -187,8 +190,39 @@ impl Cmd {
                     .map_err(|e| CliError::usage(format!("design: {e}")))?,
             );
         }
+        let inputs = biasjig_core::settings::Inputs {
+            r: self.inputs.input_r,
+            mode: self.inputs.inputs.unwrap_or_default(),
+        };
+        let test = biasjig_core::settings::TestSettings {
+            inputs,
+            ..biasjig_core::settings::TestSettings::DEFAULT
+        };
+        test.validate()
+            .map_err(|e| crate::stage_args::settings_error(&test, e))?;
+        if let (Some(k), Some(best), Some(rin)) = (
+            shown
+                .first()
+                .and_then(|c| biasjig_core::judge::input_loading(&c.stage, &inputs)),
+            shown.first(),
+            inputs.r,
+        ) {
+            if k > biasjig_core::judge::INPUT_LOADING_LIMIT {
+                let (r1, r2) = (best.stage.r1.value, best.stage.r2.value);
+                eprintln!(
+                    "biasjig: warning: the best candidate's R1 ‖ R2 = {} is {:.1} % of the {} \
+                     measuring inputs: they pull VB by about that fraction (modelled in the \
+                     windows, but keep the inputs at least 100 × R1 ‖ R2, or buffered)",
+                    eng(r1 * r2 / (r1 + r2), "Ω"),
+                    100.0 * k,
+                    eng(rin, "Ω")
+                );
+            }
+        }
         if let (Some(path), Some(best), Some(p)) = (&self.output, shown.first(), preds.first()) {
-            designfile::save(path, &self.doc(&req, &profile, best, p), self.force)?;
+            let mut doc = self.doc(&req, &profile, best, p);
+            doc.test = test;
+            designfile::save(path, &doc, self.force)?;
             if !g.json {
                 eprintln!("biasjig: wrote the best candidate to {}", path.display());
             }

@@ -147,7 +147,12 @@ pub fn report(
     for n in NODES {
         if let Some(w) = lim.window(n) {
             let nom = match n {
-                Node::Ic => biasjig_core::limits::derived_ic(stage, lim.vcc, nominal.values.vc),
+                Node::Ic => biasjig_core::limits::derived_ic_through(
+                    stage,
+                    &t.inputs,
+                    lim.vcc,
+                    nominal.values.vc,
+                ),
                 _ => *nominal.values.get(n),
             };
             let _ = writeln!(
