@@ -33,6 +33,9 @@ pub struct Cmd {
     /// Supply the windows hold for (as measured on the board), V [default: the stage's --vcc]
     #[arg(long = "at-vcc", value_name = "V", value_parser = values::volts, help_heading = "Meter")]
     at_vcc: Option<f64>,
+    /// Also write the windows as CSV for other testers: test, low, high, unit, design hash, settings hash
+    #[arg(long, value_name = "FILE")]
+    csv: Option<std::path::PathBuf>,
 }
 
 impl Cmd {
@@ -60,6 +63,9 @@ impl Cmd {
             &Variation::at(0.5 * (t.temp_min_c + t.temp_max_c)).read_through(t.inputs),
         )
         .map_err(spread_error)?;
+        if let Some(path) = &self.csv {
+            crate::board::write_limits_csv(path, &w, &st)?;
+        }
         if g.json {
             let mut doc = to_json(&w, t);
             if let Some(obj) = doc.as_object_mut() {
