@@ -14,7 +14,8 @@
 //! The log is the board log of `biasjig check --log` ([`crate::boardlog`]: append-only JSON
 //! Lines, torn tails skipped), and each record has the shape of `biasjig check --json` plus
 //! `time`, `serial`, `design` (`id`, `hash`, `digest`), `readings`, `settings`, `digest`,
-//! `overrides` and `retest`.
+//! `overrides` and `retest` (and `typed` for refused typed readings); with `--store` the same
+//! records go to the results store with station, operator and lot ([`crate::board::StationSink`]).
 
 use std::collections::HashMap;
 use std::io::{BufRead, Write};

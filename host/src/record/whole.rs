@@ -204,6 +204,37 @@ mod tests {
         );
     }
 
+    /// A board the jig could not read (a station's refused record) is a whole refused test
+    /// without readings, and keeps what was typed; a judged record without readings is not.
+    #[test]
+    fn a_refused_record_without_readings_is_whole_and_keeps_its_fields() {
+        let v = json!({"record_id": "cd", "time": "2031-05-06T07:08:09Z", "serial": "S2",
+                       "design": {"id": "d", "hash": "00ff", "digest": "ee"},
+                       "verdict": "refused", "reason": "JIG open probe on VB",
+                       "typed": "12 x", "retest": true, "digest": "aa",
+                       "settings": {"temp_min": 25.0}, "overrides": {"--temp": 30.0}});
+        let r = BoardRecord::from_value(v.clone()).unwrap();
+        assert_eq!(r.readings, None);
+        let back = serde_json::to_value(&r).unwrap();
+        for k in [
+            "reason",
+            "typed",
+            "retest",
+            "digest",
+            "settings",
+            "overrides",
+            "design",
+        ] {
+            assert_eq!(back[k], v[k], "{k}");
+        }
+        let mut judged = good();
+        judged.as_object_mut().unwrap().remove("readings");
+        assert_eq!(
+            BoardRecord::from_value(judged).unwrap_err(),
+            NotWhole::NoReadings
+        );
+    }
+
     #[test]
     fn an_old_record_without_id_gets_the_digest_of_its_content() {
         let mut v = good();
