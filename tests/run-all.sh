@@ -31,6 +31,8 @@ cargo build --locked -p biasjig-core --target thumbv7em-none-eabihf --no-default
 
 step "firmware: application unit tests on the host"
 (cd firmware-example && cargo test --locked --target x86_64-unknown-linux-gnu --lib)
+# The budget build's own unit tests (no design search, no Monte Carlo in the console).
+(cd firmware-example && cargo test --locked --target x86_64-unknown-linux-gnu --lib --no-default-features)
 
 step "workspace tests (core, host command line, cross-crate, firmware under QEMU)"
 cargo test --workspace --locked

@@ -1152,45 +1152,14 @@ impl Best {
     }
 }
 
-/// The neighbours of a value in a series: `steps` positions either side of the nearest member.
-fn around(series: Series, x: f64, steps: i32) -> heapless::Vec<f64, 5> {
-    // The nearest member once, then member by member either way (each look-up of a member's
-    // neighbour is cheaper than a nearest look-up): the same values as `series.step(x, k)`.
+/// The neighbours of a value in a series: `steps` (at most 2) positions either side of the
+/// nearest member, within the resistor range.
+fn around(series: Series, x: f64, steps: u8) -> heapless::Vec<f64, 5> {
+    let steps = steps.min(2);
+    let keep = |v: &f64| (R_MIN..=R_MAX).contains(v);
     let mut out = heapless::Vec::new();
-    let Some(mid) = series.nearest(x) else {
-        return out;
-    };
-    let mut below: heapless::Vec<f64, 2> = heapless::Vec::new();
-    let mut v = mid;
-    for _ in 0..steps {
-        match series.next_down(v) {
-            Some(d) if !below.is_full() => {
-                let _ = below.push(d);
-                v = d;
-            }
-            _ => break,
-        }
-    }
-    let keep = |v: f64| (R_MIN..=R_MAX).contains(&v);
-    for &d in below.iter().rev() {
-        if keep(d) {
-            let _ = out.push(d);
-        }
-    }
-    if keep(mid) {
-        let _ = out.push(mid);
-    }
-    let mut v = mid;
-    for _ in 0..steps {
-        match series.next_up(v) {
-            Some(u) if !out.is_full() => {
-                if keep(u) {
-                    let _ = out.push(u);
-                }
-                v = u;
-            }
-            _ => break,
-        }
+    for v in series.around(x, steps, steps).filter(keep) {
+        let _ = out.push(v);
     }
     out
 }

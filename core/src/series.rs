@@ -235,17 +235,55 @@ impl Series {
         Some(d.saturating_sub(1).saturating_mul(n)..d.saturating_add(2).saturating_mul(n))
     }
 
-    /// Index of the smallest member >= t.
+    /// Index of the smallest member >= t: a binary search over the three decades around t
+    /// (the members ascend), checked, with the plain scan as the fallback at the ends of the
+    /// f64 range where members underflow or overflow. About 7 member look-ups instead of up to
+    /// 3 × per-decade.
     fn index_ceil(self, t: f64) -> Option<i64> {
-        self.window(t)?
-            .find(|&k| self.member(k).is_some_and(|m| m >= t))
+        let w = self.window(t)?;
+        let at_least = |k: i64| self.member(k).is_some_and(|m| m >= t);
+        let (mut lo, mut hi) = (w.start, w.end);
+        while lo < hi {
+            let mid = lo + (hi - lo) / 2;
+            if at_least(mid) {
+                hi = mid;
+            } else {
+                lo = mid + 1;
+            }
+        }
+        let found = lo < w.end
+            && at_least(lo)
+            && (lo == w.start || self.member(lo - 1).is_some_and(|m| m < t));
+        if found {
+            Some(lo)
+        } else {
+            w.clone().find(|&k| at_least(k))
+        }
     }
 
-    /// Index of the largest member <= t.
+    /// Index of the largest member <= t (binary search as in [`Series::index_ceil`]).
     fn index_floor(self, t: f64) -> Option<i64> {
-        self.window(t)?
-            .rev()
-            .find(|&k| self.member(k).is_some_and(|m| m <= t))
+        let w = self.window(t)?;
+        let at_most = |k: i64| self.member(k).is_some_and(|m| m <= t);
+        // First index whose member is above t (or missing).
+        let (mut lo, mut hi) = (w.start, w.end);
+        while lo < hi {
+            let mid = lo + (hi - lo) / 2;
+            if at_most(mid) {
+                lo = mid + 1;
+            } else {
+                hi = mid;
+            }
+        }
+        let k = lo - 1;
+        let found = k >= w.start
+            && at_most(k)
+            && (k + 1 == w.end || self.member(k + 1).is_some_and(|m| m > t));
+        if found {
+            Some(k)
+        } else {
+            w.clone().rev().find(|&k| at_most(k))
+        }
     }
 
     /// Index of the member nearest to x in ratio (the lower one on an exact tie).
@@ -256,8 +294,9 @@ impl Series {
             (Some(l), Some(h)) => {
                 let ml = self.member(l)?;
                 let mh = self.member(h)?;
-                // Log distance: ln(x/ml) against ln(mh/x).
-                if libm::log(x / ml) <= libm::log(mh / x) {
+                // Ratio distance: x/ml against mh/x (the logarithm is monotonic, so this
+                // compares ln(x/ml) with ln(mh/x) without computing either).
+                if x / ml <= mh / x {
                     Some(l)
                 } else {
                     Some(h)
@@ -325,6 +364,18 @@ impl Series {
     pub fn step(self, x: f64, steps: i32) -> Option<f64> {
         let k = self.index_nearest(x)?;
         self.member(k.checked_add(i64::from(steps))?)
+    }
+
+    /// The members from `below` positions under `nearest(x)` to `above` positions over it,
+    /// ascending, across decades (one nearest look-up; members that are not positive finite
+    /// numbers are left out). The same values as [`Series::step`] for each step.
+    pub fn around(self, x: f64, below: u8, above: u8) -> impl Iterator<Item = f64> {
+        let k = self.index_nearest(x);
+        let (lo, hi) = match k {
+            Some(k) => (k - i64::from(below), k + i64::from(above)),
+            None => (1, 0),
+        };
+        (lo..=hi).filter_map(move |i| self.member(i))
     }
 
     /// Whether x is a member of the series in any decade (relative 1e-6).
@@ -564,6 +615,37 @@ pub fn colour_bands(
 
 #[cfg(test)]
 mod tests {
+
+    /// The binary searches find what the plain scans over the three decades find, from the
+    /// smallest to the largest f64 and at every member and its neighbouring f64 values.
+    #[test]
+    fn binary_search_matches_the_plain_scan() {
+        let scan_ceil =
+            |s: Series, t: f64| s.window(t)?.find(|&k| s.member(k).is_some_and(|m| m >= t));
+        let scan_floor = |s: Series, t: f64| {
+            s.window(t)?
+                .rev()
+                .find(|&k| s.member(k).is_some_and(|m| m <= t))
+        };
+        let mut xs = vec![f64::MIN_POSITIVE, 5e-324, 1e-300, 1e300, f64::MAX, 1.7e308];
+        let mut x = 1e-30;
+        while x < 1e30 {
+            xs.push(x);
+            x *= 1.0137;
+        }
+        for s in Series::ALL {
+            for k in -40 * s.per_decade()..40 * s.per_decade() {
+                if let Some(m) = s.member(k) {
+                    xs.extend([m, m.next_up(), m.next_down()]);
+                }
+            }
+            for &x in &xs {
+                assert_eq!(s.index_ceil(x), scan_ceil(s, x), "{s:?} ceil {x:e}");
+                assert_eq!(s.index_floor(x), scan_floor(s, x), "{s:?} floor {x:e}");
+            }
+        }
+    }
+
     use super::*;
 
     #[test]

@@ -23,11 +23,13 @@
 //! `fw:screen?` (the screen as text art), `fw:clock?` (`clock instructions= ticks=`: a known
 //! loop timed at start-up, relating cost ticks to instructions under QEMU), `fw:board?` (the emulated board:
 //! `seed= fault= vcc= r1= r2= rc= re1= re2= beta=`), `fw:board SEED` (draw another board).
+use crate::button::Press;
 use crate::cost::{CostMeter, Ticks};
 use crate::jig::{reading, FirmwareJig};
-use crate::screen::{Verdict, VerdictScreen};
+use crate::screen::{DesignScreen, Verdict, VerdictScreen};
 use biasjig_core::console::parse::Mode;
 use biasjig_core::console::{Channel, Clock, Console, JigError, Store};
+use biasjig_core::explain::FaultWords;
 use biasjig_core::stage::{Fault, Readings, Resistor};
 use biasjig_core::units::{Fixed, Full};
 use embedded_io::{ErrorType, Read, Write};
@@ -110,6 +112,10 @@ pub enum Show<'a> {
     Verdict(VerdictScreen<'a>),
     /// A plain measurement, or why it failed.
     Measured(Result<Readings, JigError>),
+    /// The kept design now chosen.
+    Design(DesignScreen<'a>),
+    /// A large title and a short text.
+    Message(&'a str, &'a str),
 }
 
 /// What the application needs from a board besides the serial line and the jig.
@@ -440,10 +446,9 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
     fn show_outcome(&mut self) {
         let o = &self.scan.outcome;
         if let (true, Some(verdict)) = (o.ok, o.verdict) {
-            let fault = o.fault.as_str();
-            let mut text = FmtBuf::<48>::new();
-            if !fault.is_empty() {
-                let _ = core::fmt::Write::write_fmt(&mut text, format_args!("likely: {fault}"));
+            let mut text = FmtBuf::<96>::new();
+            if verdict == Verdict::Fail {
+                fault_words(&mut text, self.console);
             }
             self.board.show(&Show::Verdict(VerdictScreen {
                 verdict,
@@ -453,10 +458,62 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
         }
     }
 
-    /// Measure and check with the console's `test` and show the verdict (the hardware button).
+    /// Measure and check with the console's `test` and show the verdict (a short press).
     pub fn button(&mut self) {
         self.silent("test");
         self.show_outcome();
+    }
+
+    /// A press of the button: short measures and judges, long chooses the next kept design
+    /// (after the chosen one, in the order `designs` lists them) and shows it.
+    pub fn press(&mut self, p: Press) {
+        match p {
+            Press::Short => self.button(),
+            Press::Long => self.next_design(),
+        }
+    }
+
+    fn next_design(&mut self) {
+        let list = self.console.kept_designs();
+        if list.is_empty() {
+            self.board.show(&Show::Message(
+                "NO DESIGNS",
+                "keep one from the console: keep NAME",
+            ));
+            return;
+        }
+        if self.console.is_locked() {
+            self.board.show(&Show::Message(
+                "LOCKED",
+                "unlock from the console to choose",
+            ));
+            return;
+        }
+        let chosen = self.console.chosen_design();
+        let at = chosen
+            .and_then(|c| list.iter().position(|k| k.name.same(&c)))
+            .map_or(0, |i| (i + 1) % list.len());
+        let Some(k) = list.get(at).copied() else {
+            return;
+        };
+        let mut line = FmtBuf::<32>::new();
+        let _ = core::fmt::Write::write_fmt(&mut line, format_args!("choose {}", k.name));
+        let ok = self.silent(line.as_str()).ok;
+        self.follow(false);
+        if ok {
+            self.board.show(&Show::Design(DesignScreen {
+                name: k.name.as_str(),
+                index: at + 1,
+                count: list.len(),
+                hash: k.hash,
+                vcc: k.vcc,
+            }));
+        } else {
+            self.board.show(&Show::Message(
+                "NOT CHOSEN",
+                "the store could not be written",
+            ));
+        }
     }
 
     /// Reads what the stream has (blocking for at least one byte) and answers every line it ends.
@@ -651,6 +708,23 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
             } else {
                 out.write_all(b"err NOT_SUPPORTED this unit keeps no framebuffer\r\n")
             }
+        } else if is("press") {
+            // The button path without a button: `fw:press short` or `fw:press long`.
+            let p = match words.next() {
+                Some(w) if w.eq_ignore_ascii_case("short") => Press::Short,
+                Some(w) if w.eq_ignore_ascii_case("long") => Press::Long,
+                w => {
+                    return say(
+                        out,
+                        format_args!(
+                            "err VALUE press: {}: allowed short or long\r\n",
+                            w.unwrap_or("")
+                        ),
+                    )
+                }
+            };
+            self.press(p);
+            out.write_all(b"ok\r\n")
         } else if is("board?") || is("board") {
             let arg = words.next();
             let Some(board) = self.console.jig.board() else {
@@ -695,10 +769,46 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
             say(
                 out,
                 format_args!(
-                    "err UNKNOWN fw:{q}: firmware queries are fw:stack? fw:cost? fw:clock? fw:measure? fw:screen? fw:board? fw:board SEED\r\n"
+                    "err UNKNOWN fw:{q}: firmware queries are fw:stack? fw:cost? fw:clock? fw:measure? fw:screen? fw:press short|long fw:board? fw:board SEED\r\n"
                 ),
             )
         }
+    }
+}
+
+/// The most likely fault of the console's last judged board, in words for the screen (ASCII:
+/// the screen's font has no Ω or µ).
+fn fault_words<J: FirmwareJig, S: Store, C: Clock, const N: usize>(
+    out: &mut FmtBuf<N>,
+    console: &Console<J, S, C>,
+) {
+    let Some(d) = console.last_check().and_then(|l| l.diagnosis.as_ref()) else {
+        return;
+    };
+    let mut ascii = Ascii(out);
+    let _ = match d.faults().next() {
+        Some(h) if d.explained => core::fmt::Write::write_fmt(
+            &mut ascii,
+            format_args!("{}", FaultWords::of(&console.settings().stage, h)),
+        ),
+        _ => core::fmt::Write::write_str(&mut ascii, "no single fault explains the readings"),
+    };
+}
+
+/// Writes text in ASCII: Ω as "ohm", µ as "u", any other non-ASCII character as "?".
+struct Ascii<'a, W: core::fmt::Write>(&'a mut W);
+
+impl<W: core::fmt::Write> core::fmt::Write for Ascii<'_, W> {
+    fn write_str(&mut self, s: &str) -> core::fmt::Result {
+        for c in s.chars() {
+            match c {
+                'Ω' => self.0.write_str("ohm")?,
+                'µ' => self.0.write_char('u')?,
+                c if c.is_ascii() => self.0.write_char(c)?,
+                _ => self.0.write_char('?')?,
+            }
+        }
+        Ok(())
     }
 }
 
@@ -729,7 +839,7 @@ mod tests {
     use super::*;
     use crate::cost::NoTicks;
     use crate::jig::EmulatedJig;
-    use crate::screen::{draw_measurement, draw_verdict, FrameBuffer};
+    use crate::screen::{draw_show, FrameBuffer};
     use biasjig_core::console::jig::MemoryStore;
     use biasjig_core::console::Identity;
 
@@ -754,10 +864,7 @@ mod tests {
         }
         fn show(&mut self, what: &Show<'_>) {
             self.shown += 1;
-            let _ = match what {
-                Show::Verdict(v) => draw_verdict(&mut self.fb, v),
-                Show::Measured(r) => draw_measurement(&mut self.fb, r),
-            };
+            let _ = draw_show(&mut self.fb, what);
         }
         fn screen_art<W: Write>(&mut self, out: &mut W) -> Result<bool, W::Error> {
             self.fb.write_art(out)?;
@@ -839,6 +946,7 @@ mod tests {
 
     #[test]
     fn firmware_queries() {
+        // (fw:press is tested with the button path.)
         let mut a = app();
         assert_eq!(talk(&mut a, b"fw:stack?\r\n"), "stack 1234 4096\r\nok\r\n");
         // The LF of the CR LF above was swallowed: no extra `ok`.
@@ -900,6 +1008,58 @@ mod tests {
         s.take(b"verdict=pass\r\nok\r\n");
         assert_eq!(s.outcome.verdict, Some(Verdict::Pass));
         assert_eq!(s.outcome.fault.as_str(), "");
+    }
+
+    /// The button path on the emulated jig: with no design kept a long press says so; with two
+    /// kept, long presses step through them (the console's stage follows) and a short press
+    /// measures and judges, showing the fault in words. Screens compared with golden pictures
+    /// (regression pins, see `screen::tests::golden`).
+    #[test]
+    fn button_path_chooses_designs_and_judges() {
+        let mut a = app();
+        talk(&mut a, b"mode machine\n");
+        let screen = |a: &mut TestApp| {
+            let fb = &a.board_mut().fb;
+            let mut copy = FrameBuffer::new();
+            for y in 0..crate::screen::HEIGHT {
+                for x in 0..crate::screen::WIDTH {
+                    if fb.pixel(x, y) {
+                        use embedded_graphics::prelude::*;
+                        let _ = Pixel(
+                            Point::new(x as i32, y as i32),
+                            embedded_graphics::pixelcolor::BinaryColor::On,
+                        )
+                        .draw(&mut copy);
+                    }
+                }
+            }
+            copy
+        };
+        a.press(Press::Long);
+        crate::screen::tests::golden("no-designs", &screen(&mut a));
+        assert!(talk(&mut a, b"keep preamp-12\n").starts_with("ok kept preamp-12, design hash "));
+        talk(&mut a, b"set vcc 15\n");
+        talk(&mut a, b"keep pump-15\n");
+        let hash15 = talk(&mut a, b"hash\n");
+        // Long press: from pump-15 (chosen last) on to the first kept design.
+        a.press(Press::Long);
+        assert!(talk(&mut a, b"stage\n").contains("design=preamp-12"));
+        crate::screen::tests::golden("button-design-1", &screen(&mut a));
+        a.press(Press::Long);
+        assert_eq!(talk(&mut a, b"hash\n"), hash15);
+        crate::screen::tests::golden("button-design-2", &screen(&mut a));
+        // Short press: measure and judge; the emulated board follows the chosen design.
+        talk(&mut a, b"inject rc open\n");
+        a.press(Press::Short);
+        crate::screen::tests::golden("button-fail-rc-open", &screen(&mut a));
+        talk(&mut a, b"inject none\n");
+        a.press(Press::Short);
+        crate::screen::tests::golden("verdict-pass", &screen(&mut a));
+        talk(&mut a, b"lock 1234\n");
+        a.press(Press::Long);
+        crate::screen::tests::golden("locked", &screen(&mut a));
+        assert_eq!(talk(&mut a, b"hash\n"), hash15, "locked: the design stays");
+        assert!(talk(&mut a, b"fw:press sideways\n").starts_with("err VALUE press"));
     }
 
     #[test]

@@ -15,6 +15,7 @@
 //! | [`board`] | the emulated board under test: parts drawn within tolerance, a fault, the core engine's node voltages |
 //! | [`screen`] | a 128x64 one-bit framebuffer, its text art, and the verdict and measurement screens |
 //! | [`stack`] | stack painting and the high-water mark |
+//! | [`store`] | the console's records on NOR flash (power-fail safe, wear levelled) and a RAM-backed flash model |
 //! | `target` | Cortex-M only: tick sources and stack painting on the real stack |
 #![cfg_attr(not(test), no_std)]
 #![deny(unsafe_code)]
@@ -29,6 +30,7 @@ pub mod jig;
 pub mod screen;
 pub mod serial;
 pub mod stack;
+pub mod store;
 #[cfg(target_os = "none")]
 // Register access (USART1, SysTick, DWT) and stack painting need raw pointers; every unsafe block
 // there says why it is sound.

@@ -289,13 +289,108 @@ pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
     Ok(())
 }
 
+/// What the design screen shows: the kept design chosen with the button.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DesignScreen<'a> {
+    /// Its name.
+    pub name: &'a str,
+    /// Its place among the kept designs, from 1.
+    pub index: usize,
+    /// How many designs are kept.
+    pub count: usize,
+    /// Its design hash.
+    pub hash: u64,
+    /// Nominal supply, V.
+    pub vcc: f64,
+}
+
+/// Draws the design screen: which kept design the unit now tests, and what the button does.
+pub fn draw_design<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    s: &DesignScreen<'_>,
+) -> Result<(), D::Error> {
+    d.clear(BinaryColor::Off)?;
+    let mut b = FmtBuf::<32>::new();
+    let _ = core::fmt::Write::write_fmt(&mut b, format_args!("DESIGN {} of {}", s.index, s.count));
+    text(d, b.as_str(), &FONT_6X10, Point::new(0, 0), Alignment::Left)?;
+    if s.name.len() <= 10 {
+        large(d, s.name, WIDTH as i32 / 2, 12)?;
+    } else {
+        text(
+            d,
+            s.name,
+            &FONT_6X10,
+            Point::new(WIDTH as i32 / 2, 17),
+            Alignment::Center,
+        )?;
+    }
+    b.clear();
+    let _ = core::fmt::Write::write_fmt(
+        &mut b,
+        format_args!("VCC {} V {:08x}", Fixed(s.vcc, 1), s.hash >> 32),
+    );
+    text(
+        d,
+        b.as_str(),
+        &FONT_6X10,
+        Point::new(0, 34),
+        Alignment::Left,
+    )?;
+    text(
+        d,
+        "short: test",
+        &FONT_6X10,
+        Point::new(0, 44),
+        Alignment::Left,
+    )?;
+    text(
+        d,
+        "long: next design",
+        &FONT_6X10,
+        Point::new(0, 54),
+        Alignment::Left,
+    )
+}
+
+/// Draws a message: a large title and a text wrapped over up to three lines.
+pub fn draw_message<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    title: &str,
+    body: &str,
+) -> Result<(), D::Error> {
+    d.clear(BinaryColor::Off)?;
+    large(d, title, WIDTH as i32 / 2, 0)?;
+    let mut y = 24;
+    for line in wrap::<3>(body, CHARS_PER_LINE) {
+        if !line.is_empty() {
+            text(d, line, &FONT_6X10, Point::new(0, y), Alignment::Left)?;
+            y += 11;
+        }
+    }
+    Ok(())
+}
+
+/// Draws whatever the application shows.
+pub fn draw_show<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    what: &crate::console::Show<'_>,
+) -> Result<(), D::Error> {
+    use crate::console::Show;
+    match what {
+        Show::Verdict(v) => draw_verdict(d, v),
+        Show::Measured(r) => draw_measurement(d, r),
+        Show::Design(s) => draw_design(d, s),
+        Show::Message(title, body) => draw_message(d, title, body),
+    }
+}
+
 /// Draws a measurement into the framebuffer (which cannot fail).
 pub fn draw_result(fb: &mut FrameBuffer, r: &Result<Readings, JigError>) {
     let _ = draw_measurement(fb, r);
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     const NODES: Readings = Readings {
         vcc: 12.0,
@@ -385,6 +480,82 @@ mod tests {
         let mut e = FrameBuffer::new();
         draw_result(&mut e, &Err(JigError::OutOfRange(Channel::Ve)));
         assert!(lit(&e, 0, 20) > 100);
+    }
+
+    /// Compares a screen with its golden picture in `golden/NAME.txt`. The golden files are
+    /// regression pins: copied from our own output (`BIASJIG_BLESS=1` writes them again) after
+    /// a person looked at them; they catch any unintended change of a screen.
+    pub(crate) fn golden(name: &str, fb: &FrameBuffer) {
+        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("golden")
+            .join(format!("{name}.txt"));
+        let got = art(fb).replace("\r\n", "\n");
+        if std::env::var_os("BIASJIG_BLESS").is_some() {
+            std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+            std::fs::write(&path, &got).unwrap();
+        }
+        let want = std::fs::read_to_string(&path)
+            .unwrap_or_else(|e| panic!("{}: {e} (BIASJIG_BLESS=1 writes it)", path.display()));
+        assert_eq!(got, want, "screen {name} differs from {}", path.display());
+    }
+
+    #[test]
+    fn every_screen_matches_its_golden_picture() {
+        let mut fb = FrameBuffer::new();
+        draw_verdict(
+            &mut fb,
+            &VerdictScreen {
+                verdict: Verdict::Pass,
+                failing_node: None,
+                fault: "",
+            },
+        )
+        .unwrap();
+        golden("verdict-pass", &fb);
+        draw_verdict(
+            &mut fb,
+            &VerdictScreen {
+                verdict: Verdict::Fail,
+                failing_node: Some(Channel::Vc),
+                fault: "RC reads like 47 kohm instead of 4.7 kohm: a decade slip",
+            },
+        )
+        .unwrap();
+        golden("verdict-fail", &fb);
+        draw_result(&mut fb, &Ok(NODES));
+        golden("measured", &fb);
+        draw_result(&mut fb, &Err(JigError::OpenProbe(Channel::Vb)));
+        golden("no-read", &fb);
+        let design = DesignScreen {
+            name: "preamp-12",
+            index: 1,
+            count: 2,
+            hash: 0x3f1e_0a2b_5c6d_7e8f,
+            vcc: 12.0,
+        };
+        draw_design(&mut fb, &design).unwrap();
+        golden("design", &fb);
+        draw_design(
+            &mut fb,
+            &DesignScreen {
+                name: "pump-monitor-15V",
+                index: 2,
+                count: 2,
+                vcc: 15.0,
+                ..design
+            },
+        )
+        .unwrap();
+        golden("design-long-name", &fb);
+        draw_message(
+            &mut fb,
+            "NO DESIGNS",
+            "keep one from the console: keep NAME",
+        )
+        .unwrap();
+        golden("no-designs", &fb);
+        draw_message(&mut fb, "LOCKED", "unlock from the console to choose").unwrap();
+        golden("locked", &fb);
     }
 
     #[test]

@@ -182,6 +182,7 @@ pub mod usart1 {
     const CR1_RE: u32 = 1 << 2;
     const CR1_TE: u32 = 1 << 3;
     const CR1_UE: u32 = 1 << 13;
+    const CR1_RXNEIE: u32 = 1 << 5;
 
     fn rd(addr: usize) -> u32 {
         // SAFETY: `addr` is one of the USART1/RCC register addresses above, valid on both chips.
@@ -190,6 +191,32 @@ pub mod usart1 {
     fn wr(addr: usize, v: u32) {
         // SAFETY: as in `rd`; these registers accept any 32-bit write of the documented bits.
         unsafe { core::ptr::write_volatile(addr as *mut u32, v) }
+    }
+
+    /// Sleeps until a byte arrives or any interrupt (SysTick) comes. Under QEMU the machine's
+    /// virtual clock runs on in real time while the core sleeps, so the console's clock (the
+    /// PIN back-off) follows real time between commands; busy polling would stretch it.
+    pub fn idle() {
+        use cortex_m::peripheral::NVIC;
+        use stm32f4xx_hal::pac::Interrupt;
+        wr(CR1, rd(CR1) | CR1_RXNEIE);
+        NVIC::unpend(Interrupt::USART1);
+        // SAFETY: the handler (`on_interrupt`) only masks this interrupt again; it shares no
+        // data with the code it interrupts.
+        unsafe { NVIC::unmask(Interrupt::USART1) };
+        if rd(SR) & SR_RXNE == 0 {
+            // A byte arriving now raises the interrupt, which ends the wait. (One arriving
+            // between the test and the WFI is taken by the handler first; the WFI then ends at
+            // the next SysTick wrap, at most 0.1 s later.)
+            cortex_m::asm::wfi();
+        }
+        NVIC::mask(Interrupt::USART1);
+    }
+
+    /// Call from the USART1 interrupt handler: masks the interrupt (the USART holds its line up
+    /// until the byte is read, and the byte is left for the polling reader).
+    pub fn on_interrupt() {
+        cortex_m::peripheral::NVIC::mask(stm32f4xx_hal::pac::Interrupt::USART1);
     }
 
     /// A receive error of the raw USART.
@@ -263,6 +290,91 @@ pub mod usart1 {
             } else {
                 Err(nb::Error::WouldBlock)
             }
+        }
+    }
+}
+
+/// The memory the linker script reserves for the store (`STORE_FLASH`, `STORE_RAM` in
+/// memory.x).
+pub mod store_mem {
+    use core::sync::atomic::{AtomicBool, Ordering};
+
+    extern "C" {
+        static __store_ram_start: u8;
+        static __store_ram_end: u8;
+        static __store_flash_start: u8;
+        static __store_flash_end: u8;
+    }
+
+    static RAM_TAKEN: AtomicBool = AtomicBool::new(false);
+
+    /// The `STORE_RAM` region, once (`None` on a second call). No section is placed there, so
+    /// neither start-up nor QEMU's loader writes it: its contents survive a reset of the machine.
+    pub fn take_ram() -> Option<&'static mut [u8]> {
+        if RAM_TAKEN.swap(true, Ordering::AcqRel) {
+            return None;
+        }
+        // Only the addresses of the linker symbols are taken.
+        let start = core::ptr::addr_of!(__store_ram_start) as usize;
+        let end = core::ptr::addr_of!(__store_ram_end) as usize;
+        // SAFETY: [start, end) is RAM that the linker script keeps free of every section and of
+        // the stack; the flag above hands it out once, so this is its only reference.
+        Some(unsafe { core::slice::from_raw_parts_mut(start as *mut u8, end - start) })
+    }
+
+    /// The `STORE_FLASH` sectors as byte offsets from the start of flash (0x0800_0000).
+    pub fn flash_range() -> core::ops::Range<u32> {
+        let base = 0x0800_0000usize;
+        let start = core::ptr::addr_of!(__store_flash_start) as usize;
+        let end = core::ptr::addr_of!(__store_flash_end) as usize;
+        (start.wrapping_sub(base) as u32)..(end.wrapping_sub(base) as u32)
+    }
+}
+
+/// The STM32F4's own flash as an `embedded-storage` NOR flash (offsets from 0x0800_0000),
+/// unlocked for each erase or write and locked again after it.
+pub mod internal_flash {
+    use embedded_storage::nor_flash::{ErrorType, NorFlash, ReadNorFlash};
+    use stm32f4xx_hal::flash::{Error, FlashExt};
+    use stm32f4xx_hal::pac::FLASH;
+
+    /// The flash controller and the memory behind it.
+    pub struct InternalFlash(pub FLASH);
+
+    impl ErrorType for InternalFlash {
+        type Error = Error;
+    }
+
+    impl ReadNorFlash for InternalFlash {
+        const READ_SIZE: usize = 1;
+
+        fn read(&mut self, offset: u32, bytes: &mut [u8]) -> Result<(), Error> {
+            let start = offset as usize;
+            let src = self
+                .0
+                .read()
+                .get(start..start + bytes.len())
+                .ok_or(Error::ProgrammingAlignment)?;
+            bytes.copy_from_slice(src);
+            Ok(())
+        }
+
+        fn capacity(&self) -> usize {
+            self.0.len()
+        }
+    }
+
+    impl NorFlash for InternalFlash {
+        const WRITE_SIZE: usize = 1;
+        /// The store's sectors (6 and 7) are 128 KiB each.
+        const ERASE_SIZE: usize = 128 * 1024;
+
+        fn erase(&mut self, from: u32, to: u32) -> Result<(), Error> {
+            NorFlash::erase(&mut self.0.unlocked(), from, to)
+        }
+
+        fn write(&mut self, offset: u32, bytes: &[u8]) -> Result<(), Error> {
+            NorFlash::write(&mut self.0.unlocked(), offset, bytes)
         }
     }
 }

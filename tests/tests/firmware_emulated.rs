@@ -17,7 +17,11 @@ use std::process::{Child, Command, Stdio};
 use std::sync::{mpsc, Mutex, OnceLock};
 use std::time::{Duration, Instant};
 
+/// Flash of the budget build (`--no-default-features`), for parts with 128 KiB.
 const FLASH_BUDGET: u64 = 128 * 1024;
+/// Flash of the default images: the `FLASH` region of memory.x (sectors 0 to 5; the store
+/// has sectors 6 and 7).
+const FLASH_IMAGE_REGION: u64 = 256 * 1024;
 const RAM_BUDGET: u64 = 32 * 1024;
 const STACK_BUDGET: usize = 16 * 1024;
 /// Instructions of a design on the part for 1 s at 100 MHz (about one instruction a cycle).
@@ -37,7 +41,8 @@ fn setup_hint() -> &'static str {
     "install the firmware tools with `bash scripts/firmware-tools.sh` (as root)"
 }
 
-/// Builds both budget images once per test run (the tests share the build).
+/// Builds both default images (the whole console: design search and Monte Carlo) once per
+/// test run (the tests share the build).
 fn images() -> PathBuf {
     static BUILT: OnceLock<PathBuf> = OnceLock::new();
     static LOCK: Mutex<()> = Mutex::new(());
@@ -45,25 +50,25 @@ fn images() -> PathBuf {
     BUILT.get_or_init(|| build_images(false)).clone()
 }
 
-/// Builds both images with the whole console (`--features full-console`: the design search and
-/// the Monte Carlo, for parts with more flash), once per test run, in a target directory of
-/// their own.
-fn full_images() -> PathBuf {
+/// Builds both images of the budget build for parts with 128 KiB of flash
+/// (`--no-default-features`: no design search, no Monte Carlo), once per test run, in a target
+/// directory of their own.
+fn budget_images() -> PathBuf {
     static BUILT: OnceLock<PathBuf> = OnceLock::new();
     static LOCK: Mutex<()> = Mutex::new(());
     let _g = LOCK.lock().unwrap_or_else(|e| e.into_inner());
     BUILT.get_or_init(|| build_images(true)).clone()
 }
 
-/// Builds both images with the firmware's own workspace: the budget build (`cargo build
-/// --release`, as the contract says) in its own target directory, the full one beside it.
-fn build_images(full: bool) -> PathBuf {
+/// Builds both images with the firmware's own workspace: the default build (`cargo build
+/// --release`, as the contract says) in its own target directory, the budget one beside it.
+fn build_images(budget: bool) -> PathBuf {
     let dir = firmware_dir();
     let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
-    let target_dir = dir.join(if full { "target-full" } else { "target" });
+    let target_dir = dir.join(if budget { "target-budget" } else { "target" });
     let mut args = vec!["build", "--release"];
-    if full {
-        args.extend(["--features", "full-console"]);
+    if budget {
+        args.push("--no-default-features");
     }
     let out = Command::new(cargo)
         .args(&args)
@@ -141,6 +146,15 @@ impl Drop for Qemu {
 /// Boots an image under QEMU with its first serial port on a pseudo-terminal; gives the guard
 /// and the terminal's path.
 fn boot(elf: &Path) -> (Qemu, String) {
+    boot_with(elf, None)
+}
+
+/// As [`boot`], with QEMU's monitor on a Unix socket at `monitor` (for `system_reset`).
+fn boot_with(elf: &Path, monitor: Option<&Path>) -> (Qemu, String) {
+    let monitor_arg = match monitor {
+        Some(p) => format!("unix:{},server,nowait", p.display()),
+        None => "none".to_owned(),
+    };
     let version = Command::new("qemu-system-arm").arg("--version").output();
     match version {
         Ok(o) if o.status.success() => {}
@@ -155,7 +169,7 @@ fn boot(elf: &Path) -> (Qemu, String) {
             "netduinoplus2",
             "-nographic",
             "-monitor",
-            "none",
+            &monitor_arg,
             "-serial",
             "pty",
             "-icount",
@@ -541,6 +555,17 @@ fn write_design(dir: &Path) -> PathBuf {
 
 /// `biasjig station`: one board per serial number on stdin; gives the log records.
 fn station(pts: &str, design: &Path, log: &Path, serials: &[&str]) -> Vec<serde_json::Value> {
+    station_with(pts, design, log, serials, &[])
+}
+
+/// As [`station`], with more options.
+fn station_with(
+    pts: &str,
+    design: &Path,
+    log: &Path,
+    serials: &[&str],
+    extra: &[&str],
+) -> Vec<serde_json::Value> {
     let before = std::fs::read_to_string(log)
         .unwrap_or_default()
         .lines()
@@ -552,6 +577,7 @@ fn station(pts: &str, design: &Path, log: &Path, serials: &[&str]) -> Vec<serde_
             .arg(design)
             .arg("--log")
             .arg(log)
+            .args(extra)
             .stdin(Stdio::piped())
             .stdout(Stdio::piped())
             .stderr(Stdio::piped())
@@ -629,16 +655,11 @@ fn emulated_jig_end_to_end_through_the_host() {
     s.ok("mode machine");
     let clock = fw(&mut s, "fw:clock?");
     println!("jig-emulated: {}", clock.join(" "));
-    // The budget build leaves the design search out and says where to design instead.
-    let (_, status) = s.ask("design");
-    assert!(
-        status.starts_with("err NOT_SUPPORTED design:") && status.contains("biasjig design"),
-        "{status}"
-    );
     s.close();
 
-    // The station pushes the design, verifies its hash and tests a good board: pass.
-    let recs = station(&pts, &design, &log, &["GOOD-1"]);
+    // The station pushes the design, keeps it on the unit by name, verifies its hash and tests a
+    // good board: pass.
+    let recs = station_with(&pts, &design, &log, &["GOOD-1"], &["--keep", "preamp"]);
     assert_eq!(recs[0]["verdict"], "pass", "good board: {}", recs[0]);
     assert_eq!(recs[0]["serial"], "GOOD-1");
 
@@ -656,6 +677,12 @@ fn emulated_jig_end_to_end_through_the_host() {
         hash[0],
         format!("hash={logged}"),
         "the station's design is on the instrument"
+    );
+    let kept = s.ok("designs");
+    assert!(
+        kept.iter()
+            .any(|l| l.starts_with("design=preamp ") && l.contains(&format!("hash={logged} "))),
+        "the station kept its design on the unit: {kept:?}"
     );
     let good = parse_result(&s.ok("test"));
     assert_eq!(good.verdict, "pass", "good board: {good:?}");
@@ -715,11 +742,14 @@ fn emulated_jig_end_to_end_through_the_host() {
         ("inject q reversed".into(), "Q", "reversed"),
     ];
     let mut test_cost = None;
+    let mut costs = Vec::new();
     for (i, (inject, part, mode)) in cases.iter().enumerate() {
         s.ok(inject);
         let r = parse_result(&s.ok("test"));
+        let cost = cost_of(&mut s);
+        costs.push((format!("{part} {mode}"), cost.1));
         if i == 0 {
-            test_cost = Some(cost_of(&mut s));
+            test_cost = Some(cost);
         }
         assert_eq!(r.verdict, "fail", "{inject}: {r:?}");
         assert!(
@@ -737,6 +767,17 @@ fn emulated_jig_end_to_end_through_the_host() {
     let st = fw(&mut s, "fw:stack?");
     s.ok("inject rc open");
     s.close();
+    println!("jig-emulated: test (measure + check + diagnosis) per fault class, instructions (goal {TEST_GOAL_INSTRUCTIONS}):");
+    for (class, insns) in &costs {
+        println!(
+            "  {class:<12} {insns:>10} {}",
+            if *insns <= TEST_GOAL_INSTRUCTIONS {
+                "met"
+            } else {
+                "not met"
+            }
+        );
+    }
 
     // A failing board through the station: the log names the fault.
     let recs = station(&pts, &design, &log, &["BAD-1"]);
@@ -771,18 +812,10 @@ fn emulated_jig_end_to_end_through_the_host() {
     );
 }
 
-/// The design search on the part: the full-console image (the budget image refuses `design`).
+/// The design search on the part: the default image (the budget image refuses `design`).
 #[test]
 fn emulated_jig_designs_on_the_part() {
-    let out_dir = full_images();
-    for image in IMAGES {
-        let (flash, ram) = elf_sizes(&out_dir.join(image));
-        println!("{image} --features full-console: flash {flash} B, static RAM {ram} B");
-        assert!(
-            ram <= RAM_BUDGET,
-            "{image} full console: static RAM {ram} B"
-        );
-    }
+    let out_dir = images();
     let (_qemu, pts) = boot(&out_dir.join("jig-emulated"));
     let mut s = Session::open(&pts);
     s.ok("mode machine");
@@ -802,7 +835,7 @@ fn emulated_jig_designs_on_the_part() {
     let (ticks, insns) = cost_of(&mut s);
     let st = fw(&mut s, "fw:stack?");
     println!(
-        "jig-emulated --features full-console: design: {ticks} SysTick ticks, {insns} instructions (goal {DESIGN_GOAL_INSTRUCTIONS}: {}); {}",
+        "jig-emulated: design: {ticks} SysTick ticks, {insns} instructions (goal {DESIGN_GOAL_INSTRUCTIONS}: {}); {}",
         if insns <= DESIGN_GOAL_INSTRUCTIONS { "met" } else { "not met" },
         st.join(" ")
     );
@@ -821,25 +854,187 @@ fn emulated_jig_designs_on_the_part() {
 
 #[test]
 fn images_fit_their_budgets() {
-    let out_dir = images();
     let mut over = Vec::new();
-    for image in IMAGES {
-        let (flash, ram) = elf_sizes(&out_dir.join(image));
-        println!(
-            "{image}: flash {flash} B of {FLASH_BUDGET} B, static RAM {ram} B of {RAM_BUDGET} B"
-        );
-        if flash > FLASH_BUDGET {
-            over.push(format!(
-                "{image}: flash {flash} B is {} B over {FLASH_BUDGET} B",
-                flash - FLASH_BUDGET
-            ));
-        }
-        if ram > RAM_BUDGET {
-            over.push(format!(
-                "{image}: static RAM {ram} B is {} B over {RAM_BUDGET} B",
-                ram - RAM_BUDGET
-            ));
+    for (dir, what, flash_budget) in [
+        (images(), "default", FLASH_IMAGE_REGION),
+        (
+            budget_images(),
+            "budget (--no-default-features)",
+            FLASH_BUDGET,
+        ),
+    ] {
+        for image in IMAGES {
+            let (flash, ram) = elf_sizes(&dir.join(image));
+            println!(
+                "{image} {what}: flash {flash} B of {flash_budget} B, static RAM {ram} B of {RAM_BUDGET} B"
+            );
+            if flash > flash_budget {
+                over.push(format!(
+                    "{image} {what}: flash {flash} B is {} B over {flash_budget} B",
+                    flash - flash_budget
+                ));
+            }
+            if ram > RAM_BUDGET {
+                over.push(format!(
+                    "{image} {what}: static RAM {ram} B is {} B over {RAM_BUDGET} B",
+                    ram - RAM_BUDGET
+                ));
+            }
         }
     }
     assert!(over.is_empty(), "over budget: {over:?}");
+}
+
+/// The budget image (128 KiB parts) leaves the design search out and says where to design.
+#[test]
+fn budget_image_refuses_the_design_search() {
+    let (_qemu, pts) = boot(&budget_images().join("jig-emulated"));
+    let mut s = Session::open(&pts);
+    s.ok("mode machine");
+    let (_, status) = s.ask("design");
+    assert!(
+        status.starts_with("err NOT_SUPPORTED design:") && status.contains("biasjig design"),
+        "{status}"
+    );
+    s.close();
+}
+
+/// Sends one command to QEMU's monitor on its Unix socket.
+fn monitor(path: &Path, command: &str) {
+    use std::os::unix::net::UnixStream;
+    let deadline = Instant::now() + Duration::from_secs(10);
+    let mut sock = loop {
+        match UnixStream::connect(path) {
+            Ok(s) => break s,
+            Err(e) if Instant::now() < deadline => {
+                let _ = e;
+                std::thread::sleep(Duration::from_millis(50));
+            }
+            Err(e) => panic!("QEMU monitor {}: {e}", path.display()),
+        }
+    };
+    writeln!(sock, "{command}").expect("write to the QEMU monitor");
+    sock.flush().expect("flush the QEMU monitor");
+    // The monitor echoes the command and prompts again once it ran.
+    sock.set_read_timeout(Some(Duration::from_secs(5))).ok();
+    let mut seen = Vec::new();
+    let mut buf = [0u8; 256];
+    while !String::from_utf8_lossy(&seen).contains(command) {
+        match sock.read(&mut buf) {
+            Ok(0) | Err(_) => break,
+            Ok(n) => seen.extend_from_slice(&buf[..n]),
+        }
+    }
+    std::thread::sleep(Duration::from_millis(300));
+}
+
+/// Designs kept on the unit survive a reset of the machine (QEMU's `system_reset`: the RAM
+/// flash model is not cleared): the unit comes back on the design chosen last, with the same
+/// hash and calibration; the button path (a long press) chooses the other; the wrong-PIN count
+/// survives the reset too, and its back-off runs on in real time while the unit waits.
+#[test]
+fn kept_designs_survive_a_reset_and_the_button_chooses() {
+    let dir = temp_dir().join("reset");
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let sock = dir.join("monitor.sock");
+    let _ = std::fs::remove_file(&sock);
+    let (_qemu, pts) = boot_with(&images().join("jig-emulated"), Some(&sock));
+    let mut s = Session::open(&pts);
+    s.ok("mode machine");
+    s.ok("set vcc 12");
+    s.ok("keep preamp-12");
+    let h12 = s.ok("hash");
+    s.ok("set vcc 15");
+    s.ok("set rc 3k9");
+    s.ok("keep pump-15");
+    let h15 = s.ok("hash");
+    assert_ne!(h12, h15);
+    // A calibration of VB from two points on the emulated board: VB near 0 V (R1 open) and
+    // the good board's VB, read as 0.1 % higher than the converter gives.
+    let vb = num(pairs(&s.ok("measure")[0])["vb"]);
+    s.ok("inject r1 open");
+    s.ok("calibrate vb low 0");
+    s.ok("inject none");
+    s.ok(&format!("calibrate vb high {}", vb * 1.001));
+    let cal = s.ok("calibrate");
+    assert!(
+        !cal[1].contains("gain=1 "),
+        "a calibration other than none: {cal:?}"
+    );
+    s.close();
+
+    monitor(&sock, "system_reset");
+    let mut s = Session::open(&pts);
+    s.ok("mode machine");
+    assert_eq!(
+        s.ok("hash"),
+        h15,
+        "the unit comes back on the design chosen last"
+    );
+    assert!(s
+        .ok("stage")
+        .last()
+        .is_some_and(|l| l.ends_with("design=pump-15")));
+    assert_eq!(s.ok("calibrate"), cal, "the calibration is kept");
+    let list = s.ok("designs");
+    assert_eq!(list.len(), 2, "{list:?}");
+
+    // The button path: a long press chooses the next kept design, and the screen shows it.
+    s.ok("fw:press long");
+    assert_eq!(s.ok("hash"), h12, "a long press chose preamp-12");
+    let screen = s.ok("fw:screen?").join("\n");
+    assert!(screen.contains('#'), "the design screen is drawn");
+    let r = parse_result(&s.ok("test"));
+    assert_eq!(
+        r.verdict, "pass",
+        "the emulated board follows the chosen design: {r:?}"
+    );
+    s.close();
+
+    monitor(&sock, "system_reset");
+    let mut s = Session::open(&pts);
+    s.ok("mode machine");
+    assert_eq!(
+        s.ok("hash"),
+        h12,
+        "the design chosen with the button is kept"
+    );
+
+    // Wrong PINs: counted in the store; the back-off (1 s after the third, doubling with each
+    // further one) waits in real time while the unit idles.
+    s.ok("lock 2468");
+    for _ in 0..3 {
+        let (_, st) = s.ask("unlock 1111");
+        assert!(st.starts_with("err PIN"), "{st}");
+    }
+    let (_, st) = s.ask("unlock 1111");
+    assert!(
+        st.starts_with("err WAIT"),
+        "a try within the back-off is refused: {st}"
+    );
+    for wait_ms in [1300, 2300] {
+        std::thread::sleep(Duration::from_millis(wait_ms));
+        let (_, st) = s.ask("unlock 1111");
+        assert!(
+            st.starts_with("err PIN"),
+            "after {wait_ms} ms of real time: {st}"
+        );
+    }
+    // Five wrong PINs: 4 s of back-off, also after a reset (it starts again at power-up).
+    s.close();
+    monitor(&sock, "system_reset");
+    let mut s = Session::open(&pts);
+    let (_, st) = s.ask("unlock 2468");
+    assert!(
+        st.starts_with("err WAIT"),
+        "the wrong-PIN count survives a reset: {st}"
+    );
+    std::thread::sleep(Duration::from_millis(4500));
+    let (_, st) = s.ask("unlock 2468");
+    assert_eq!(
+        st, "ok unlocked",
+        "4 s of back-off passed in real time while the unit waited"
+    );
+    s.close();
+    let _ = std::fs::remove_dir_all(&dir);
 }

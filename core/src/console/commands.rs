@@ -27,7 +27,7 @@ use crate::units::{capacitor_code, resistor_code, Eng, Fixed, Full};
 const CAL_SAMPLES: u16 = 64;
 
 /// The commands with their usage and a line of help, in the order `help` lists them.
-pub const COMMANDS: [(&str, &str, &str); 28] = [
+pub const COMMANDS: [(&str, &str, &str); 32] = [
     ("help", "help [COMMAND]", "this list, or one command"),
     (
         "identify",
@@ -128,6 +128,18 @@ pub const COMMANDS: [(&str, &str, &str); 28] = [
         "key=value data lines in SI units, or text",
     ),
     ("save", "save", "keep the settings and calibration"),
+    (
+        "keep",
+        "keep NAME",
+        "keep the stage and settings on the unit as NAME",
+    ),
+    ("designs", "designs", "list the designs kept on the unit"),
+    (
+        "choose",
+        "choose NAME",
+        "a kept design becomes the stage (also at power-up)",
+    ),
+    ("forget", "forget NAME", "remove a kept design"),
 ];
 
 /// The safety cautions shown by `help`.
@@ -252,7 +264,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     #[inline(never)]
-    fn save_settings(&mut self) -> Result<(), Fail> {
+    pub(super) fn save_settings(&mut self) -> Result<(), Fail> {
         let mut rec = [0u8; RECORD_LEN];
         self.settings.encode(&mut rec);
         self.store
@@ -291,6 +303,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.editable()?;
                 self.set(s)?;
                 self.last = None;
+                self.settings.design = None;
                 self.warn_setting(r);
                 Ok(None)
             }
@@ -367,6 +380,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.editable()?;
                 self.set_meter(m)?;
                 self.last = None;
+                self.settings.design = None;
                 Ok(None)
             }
             Command::Measure(n) => self.cmd_measure(n, r),
@@ -415,6 +429,10 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.save_calibration()?;
                 Ok(None)
             }
+            Command::Keep(name) => self.keep(name),
+            Command::Designs => self.list_designs(r),
+            Command::Choose(name) => self.choose(name),
+            Command::Forget(name) => self.forget(name),
         }
     }
 
@@ -850,9 +868,10 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 ));
             }
             r.data(format_args!(
-                "locked={} hash={:016x}",
+                "locked={} hash={:016x} design={}",
                 u8::from(self.is_locked()),
-                self.design_hash()
+                self.design_hash(),
+                self.settings.design.as_ref().map_or("none", |n| n.as_str())
             ));
         } else {
             r.data(format_args!(
@@ -891,13 +910,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 }
             }
             r.data(format_args!(
-                "{}  design hash {:016x}",
+                "{}  design hash {:016x}  kept as {}",
                 if self.is_locked() {
                     "locked"
                 } else {
                     "unlocked"
                 },
-                self.design_hash()
+                self.design_hash(),
+                self.settings.design.as_ref().map_or("-", |n| n.as_str())
             ));
         }
     }

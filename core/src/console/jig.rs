@@ -186,13 +186,37 @@ pub trait Jig {
 /// Size of one store record, bytes.
 pub const RECORD_LEN: usize = 384;
 
+/// Designs a unit keeps by name (`keep`, `designs`, `choose`, `forget`).
+pub const DESIGN_SLOTS: u8 = 8;
+
 /// A store record slot.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Slot {
-    /// The stage, profile, meter, lock state and PIN.
+    /// The stage, profile, meter, lock state and PIN, and the name of the chosen design: what
+    /// the unit starts with.
     Settings,
     /// The jig calibration.
     Calibration,
+    /// A kept design, `0 .. DESIGN_SLOTS`.
+    Design(u8),
+}
+
+impl Slot {
+    /// Every slot: settings, calibration, then the designs.
+    pub fn all() -> impl Iterator<Item = Slot> {
+        [Slot::Settings, Slot::Calibration]
+            .into_iter()
+            .chain((0..DESIGN_SLOTS).map(Slot::Design))
+    }
+
+    /// A small number per slot (0 settings, 1 calibration, 16 + n design n): a store's key.
+    pub fn key(self) -> u8 {
+        match self {
+            Slot::Settings => 0,
+            Slot::Calibration => 1,
+            Slot::Design(n) => 16u8.saturating_add(n),
+        }
+    }
 }
 
 /// Why the store failed.
@@ -203,6 +227,8 @@ pub enum StoreError {
     NotSupported,
     /// Reading or writing the medium failed.
     Medium,
+    /// The medium has no room for the record.
+    Full,
 }
 
 impl core::fmt::Display for StoreError {
@@ -210,6 +236,7 @@ impl core::fmt::Display for StoreError {
         f.write_str(match self {
             Self::NotSupported => "this unit keeps no settings",
             Self::Medium => "the store could not be read or written",
+            Self::Full => "the store is full",
         })
     }
 }
@@ -221,6 +248,11 @@ pub trait Store {
     fn load(&mut self, slot: Slot, record: &mut [u8; RECORD_LEN]) -> Result<bool, StoreError>;
     /// Replace the record of `slot`.
     fn save(&mut self, slot: Slot, record: &[u8; RECORD_LEN]) -> Result<(), StoreError>;
+    /// Forget the record of `slot` (a later `load` gives `Ok(false)`).
+    fn forget(&mut self, slot: Slot) -> Result<(), StoreError> {
+        let _ = slot;
+        Err(StoreError::NotSupported)
+    }
 }
 
 /// A monotonic millisecond clock (for the PIN back-off and the cost figures).
@@ -242,14 +274,15 @@ impl Jig for NoJig {
 /// A store held in memory (lost at power-off).
 #[derive(Debug, Clone, Default)]
 pub struct MemoryStore {
-    /// The records of [`Slot::Settings`] and [`Slot::Calibration`], if written.
-    pub records: [Option<[u8; RECORD_LEN]>; 2],
+    /// The records of [`Slot::Settings`], [`Slot::Calibration`] and the designs, if written.
+    pub records: [Option<[u8; RECORD_LEN]>; 2 + DESIGN_SLOTS as usize],
 }
 
 fn slot_index(slot: Slot) -> usize {
     match slot {
         Slot::Settings => 0,
         Slot::Calibration => 1,
+        Slot::Design(n) => 2 + usize::from(n),
     }
 }
 
@@ -270,6 +303,15 @@ impl Store for MemoryStore {
             .get_mut(slot_index(slot))
             .ok_or(StoreError::Medium)?;
         *r = Some(*record);
+        Ok(())
+    }
+
+    fn forget(&mut self, slot: Slot) -> Result<(), StoreError> {
+        let r = self
+            .records
+            .get_mut(slot_index(slot))
+            .ok_or(StoreError::Medium)?;
+        *r = None;
         Ok(())
     }
 }

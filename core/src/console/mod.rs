@@ -21,6 +21,7 @@
 mod commands;
 pub mod jig;
 mod judge;
+mod kept;
 pub mod line;
 pub mod parse;
 pub mod record;
@@ -38,6 +39,7 @@ use reply::{write_all, Fail, Reply, Text};
 
 pub use commands::Num;
 pub use judge::{LastCheck, LISTED_FAULTS};
+pub use kept::{KeptDesign, KeptList};
 
 use crate::design::{Candidates, Requirement};
 use crate::device::Profile;
@@ -236,6 +238,7 @@ pub fn default_settings() -> Settings {
         inputs: TestSettings::DEFAULT.inputs,
         pin: None,
         pin_failures: 0,
+        design: None,
     }
 }
 

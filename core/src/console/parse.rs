@@ -222,6 +222,59 @@ impl Pin {
     }
 }
 
+/// Longest name of a kept design, bytes.
+pub const NAME_MAX: usize = 16;
+
+/// The name of a design kept on the unit: 1 to [`NAME_MAX`] letters, digits, `-`, `_` or `.`
+/// (ASCII). Names compare without regard to case.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Name {
+    /// The name's bytes (ASCII), zero after `len`.
+    pub bytes: [u8; NAME_MAX],
+    /// How many bytes.
+    pub len: u8,
+}
+
+impl Name {
+    /// The name of a text, if it is one (see [`Name`]).
+    pub fn parse(text: &str) -> Option<Name> {
+        let b = text.as_bytes();
+        if b.is_empty()
+            || b.len() > NAME_MAX
+            || !b
+                .iter()
+                .all(|c| c.is_ascii_alphanumeric() || matches!(c, b'-' | b'_' | b'.'))
+        {
+            return None;
+        }
+        let mut name = Name::default();
+        for (slot, c) in name.bytes.iter_mut().zip(b) {
+            *slot = *c;
+            name.len += 1;
+        }
+        Some(name)
+    }
+
+    /// The name as text.
+    pub fn as_str(&self) -> &str {
+        self.bytes
+            .get(..usize::from(self.len))
+            .and_then(|b| core::str::from_utf8(b).ok())
+            .unwrap_or("")
+    }
+
+    /// The same name, ignoring case.
+    pub fn same(&self, other: &Name) -> bool {
+        self.as_str().eq_ignore_ascii_case(other.as_str())
+    }
+}
+
+impl core::fmt::Display for Name {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
 /// Data-line style.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Mode {
@@ -292,6 +345,14 @@ pub enum Command<'a> {
     Mode(Option<Mode>),
     /// `save`: keep the settings in the store.
     Save,
+    /// `keep NAME`: keep the stage and its settings on the unit as a named design.
+    Keep(Name),
+    /// `designs`: list the kept designs.
+    Designs,
+    /// `choose NAME`: a kept design becomes the stage (and the one the unit starts with).
+    Choose(Name),
+    /// `forget NAME`: remove a kept design.
+    Forget(Name),
 }
 
 /// Why a line is not a command: a code, the field, the offending text and what is allowed.
@@ -748,6 +809,34 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
     }
     if is("save") {
         return none(Command::Save);
+    }
+    if is("designs") {
+        return none(Command::Designs);
+    }
+    if is("keep") || is("choose") || is("forget") {
+        return match args {
+            [n] => {
+                let name = Name::parse(n).ok_or(err(
+                    Code::Value,
+                    "name",
+                    n,
+                    "1 to 16 letters, digits, - _ or .",
+                ))?;
+                Ok(if is("keep") {
+                    Command::Keep(name)
+                } else if is("choose") {
+                    Command::Choose(name)
+                } else {
+                    Command::Forget(name)
+                })
+            }
+            _ => Err(err(
+                Code::Usage,
+                word,
+                "",
+                "keep NAME | choose NAME | forget NAME",
+            )),
+        };
     }
     Err(err(Code::Unknown, "command", word, "see help"))
 }

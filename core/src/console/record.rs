@@ -14,14 +14,15 @@
 //! padding, and the FNV-1a 64 of everything before the last 8 bytes in those last 8 bytes.
 
 use super::jig::{Calibration, ChannelCal, Slot, RECORD_LEN};
-use super::parse::Pin;
+use super::parse::{Name, Pin, NAME_MAX};
 use crate::device::Profile;
 use crate::limits::Meter;
 use crate::settings::{InputMode, Inputs, TestSettings};
 use crate::stage::{Part, Polarity, Stage};
 
-/// Record format version.
-const VERSION: u8 = 3;
+/// Record format version (4: measuring inputs in the settings, the name of the chosen design;
+/// design records).
+const VERSION: u8 = 4;
 /// FNV-1a 64 offset basis.
 const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
 /// FNV-1a 64 prime.
@@ -227,6 +228,9 @@ pub struct Settings {
     pub pin: Option<Pin>,
     /// Wrong PINs given since the last right one.
     pub pin_failures: u32,
+    /// The kept design these settings were chosen from (`None` once the stage or the meter is
+    /// edited, or when never chosen).
+    pub design: Option<Name>,
 }
 
 fn seal(slot: Slot, rec: &mut [u8; RECORD_LEN], write: impl FnOnce(&mut Writer<'_>)) -> bool {
@@ -260,7 +264,99 @@ fn slot_letter(slot: Slot) -> u8 {
     match slot {
         Slot::Settings => b'S',
         Slot::Calibration => b'C',
+        Slot::Design(_) => b'D',
     }
+}
+
+fn put_name(w: &mut Writer<'_>, name: Option<Name>) {
+    match name {
+        None => w.u8(0),
+        Some(n) => {
+            w.u8(n.len);
+            w.put(&n.bytes);
+        }
+    }
+}
+
+fn get_name(r: &mut Reader<'_>) -> Option<Option<Name>> {
+    match r.u8()? {
+        0 => Some(None),
+        len => {
+            let bytes = r.take::<NAME_MAX>()?;
+            let text = core::str::from_utf8(bytes.get(..usize::from(len))?).ok()?;
+            Some(Some(Name::parse(text)?))
+        }
+    }
+}
+
+/// The part of the settings a kept design carries: stage, transistor, ambient range, meter,
+/// measuring inputs.
+fn put_setup(w: &mut Writer<'_>, s: &Settings) {
+    put_design(w, &s.stage, &s.profile);
+    w.f64(s.temp_c);
+    w.f64(s.temp_min_c);
+    w.f64(s.temp_max_c);
+    w.f64(s.meter.gain_error);
+    w.f64(s.meter.offset);
+    w.f64(s.meter.divider_tol);
+    w.opt(s.inputs.r);
+    w.u8(match s.inputs.mode {
+        InputMode::Together => 0,
+        InputMode::One => 1,
+    });
+}
+
+/// Reads what [`put_setup`] wrote into settings with no PIN and no design name.
+fn get_setup(r: &mut Reader<'_>) -> Option<Settings> {
+    let (stage, profile) = get_design(r)?;
+    let temp_c = r.f64()?;
+    let temp_min_c = r.f64()?;
+    let temp_max_c = r.f64()?;
+    let meter = Meter {
+        gain_error: r.f64()?,
+        offset: r.f64()?,
+        divider_tol: r.f64()?,
+    };
+    let inputs = Inputs {
+        r: r.opt()?,
+        mode: match r.u8()? {
+            0 => InputMode::Together,
+            1 => InputMode::One,
+            _ => return None,
+        },
+    };
+    Some(Settings {
+        stage,
+        profile,
+        temp_c,
+        temp_min_c,
+        temp_max_c,
+        meter,
+        inputs,
+        pin: None,
+        pin_failures: 0,
+        design: None,
+    })
+}
+
+/// Encode a kept design (its name and the stage, transistor, ambient and meter of `settings`;
+/// not the lock) into the record of a design slot.
+pub fn encode_design(name: Name, settings: &Settings, slot: u8, rec: &mut [u8; RECORD_LEN]) {
+    // 17 + 294 bytes of 376: always fits (tested).
+    let _fits = seal(Slot::Design(slot), rec, |w| {
+        put_name(w, Some(name));
+        put_setup(w, settings);
+    });
+}
+
+/// Decode a kept design: its name and settings (no PIN, the name as `design`); `None` when the
+/// record is damaged or of another version.
+pub fn decode_design(slot: u8, rec: &[u8; RECORD_LEN]) -> Option<(Name, Settings)> {
+    let mut r = open(Slot::Design(slot), rec)?;
+    let name = get_name(&mut r)??;
+    let mut s = get_setup(&mut r)?;
+    s.design = Some(name);
+    Some((name, s))
 }
 
 impl Settings {
@@ -281,20 +377,9 @@ impl Settings {
 
     /// Encode into a store record.
     pub fn encode(&self, rec: &mut [u8; RECORD_LEN]) {
-        // 311 bytes of 376: always fits (tested).
+        // 328 bytes of 376: always fits (tested).
         let _fits = seal(Slot::Settings, rec, |w| {
-            put_design(w, &self.stage, &self.profile);
-            w.f64(self.temp_c);
-            w.f64(self.temp_min_c);
-            w.f64(self.temp_max_c);
-            w.f64(self.meter.gain_error);
-            w.f64(self.meter.offset);
-            w.f64(self.meter.divider_tol);
-            w.opt(self.inputs.r);
-            w.u8(match self.inputs.mode {
-                InputMode::Together => 0,
-                InputMode::One => 1,
-            });
+            put_setup(w, self);
             match self.pin {
                 None => w.u8(0),
                 Some(p) => {
@@ -303,30 +388,15 @@ impl Settings {
                 }
             }
             w.put(&self.pin_failures.to_le_bytes());
+            put_name(w, self.design);
         });
     }
 
     /// Decode a store record; `None` when it is damaged or of another version.
     pub fn decode(rec: &[u8; RECORD_LEN]) -> Option<Settings> {
         let mut r = open(Slot::Settings, rec)?;
-        let (stage, profile) = get_design(&mut r)?;
-        let temp_c = r.f64()?;
-        let temp_min_c = r.f64()?;
-        let temp_max_c = r.f64()?;
-        let meter = Meter {
-            gain_error: r.f64()?,
-            offset: r.f64()?,
-            divider_tol: r.f64()?,
-        };
-        let inputs = Inputs {
-            r: r.opt()?,
-            mode: match r.u8()? {
-                0 => InputMode::Together,
-                1 => InputMode::One,
-                _ => return None,
-            },
-        };
-        let pin = match r.u8()? {
+        let mut s = get_setup(&mut r)?;
+        s.pin = match r.u8()? {
             0 => None,
             len => {
                 let digits = r.take::<8>()?;
@@ -335,18 +405,9 @@ impl Settings {
                 (Pin::parse(text)? == p).then_some(p)
             }
         };
-        let pin_failures = u32::from_le_bytes(r.take::<4>()?);
-        Some(Settings {
-            stage,
-            profile,
-            temp_c,
-            temp_min_c,
-            temp_max_c,
-            meter,
-            inputs,
-            pin,
-            pin_failures,
-        })
+        s.pin_failures = u32::from_le_bytes(r.take::<4>()?);
+        s.design = get_name(&mut r)?;
+        Some(s)
     }
 }
 

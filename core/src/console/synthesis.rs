@@ -214,6 +214,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             .map_err(|e| Fail::new(Code::Range, format_args!("{e}")))?;
         self.settings = next;
         self.last = None;
+        self.settings.design = None;
         Ok(Some(Text::of(format_args!(
             "the stage is candidate {n}, design hash {:016x}",
             self.design_hash()

@@ -1,7 +1,9 @@
 //! biasjig jig reader on QEMU's `netduinoplus2` (STM32F405): the core console on USART1, the
 //! emulated jig (a board drawn around the console's design, a fault set by `inject`, node
 //! voltages from the core engine through the hardware's ADC math), the screen drawn into a RAM
-//! framebuffer (`fw:screen?`), settings kept in RAM.
+//! framebuffer (`fw:screen?`), settings, calibration and kept designs in the store on a
+//! RAM-backed flash model (`STORE_RAM` in memory.x: not cleared at start-up, so it survives
+//! QEMU's `system_reset`).
 //!
 //! Start-up is kept minimal for the emulator: no clock tree set-up (a HAL's clock set-up can wait
 //! forever under QEMU), only USART1 and SysTick are touched.
@@ -10,20 +12,23 @@
 #![no_std]
 #![no_main]
 
-use biasjig_core::console::jig::MemoryStore;
 use biasjig_core::console::{Console, Identity};
 use biasjig_firmware::console::{App, Board, Show};
 use biasjig_firmware::jig::EmulatedJig;
-use biasjig_firmware::screen::{draw_measurement, draw_verdict, FrameBuffer};
+use biasjig_firmware::screen::{draw_show, FrameBuffer};
 use biasjig_firmware::serial::NbSerial;
-use biasjig_firmware::target::{stack, ticks, usart1::Usart1};
+use biasjig_firmware::store::{FlashStore, RamFlash};
+use biasjig_firmware::target::{stack, store_mem, ticks, usart1, usart1::Usart1};
 use core::mem::MaybeUninit;
 use cortex_m_rt::{entry, exception};
-use embedded_io::Write;
+use embedded_io::{ReadReady, Write};
 use panic_halt as _;
 // The device crate supplies the interrupt vector table (F411 layout; the emulated image enables
 // no device interrupt, so the F405 difference does not matter).
-use stm32f4xx_hal as _;
+use stm32f4xx_hal::pac::interrupt;
+
+/// The store: the RAM-backed flash model.
+type EmuStore = FlashStore<RamFlash<'static>>;
 
 /// QEMU's netduinoplus2 SYSCLK (SysTick's core clock), Hz.
 const SYSCLK_HZ: u32 = 168_000_000;
@@ -45,10 +50,7 @@ impl Board for EmulatedBoard {
         stack::size()
     }
     fn show(&mut self, what: &Show<'_>) {
-        let _ = match what {
-            Show::Verdict(v) => draw_verdict(&mut self.fb, v),
-            Show::Measured(r) => draw_measurement(&mut self.fb, r),
-        };
+        let _ = draw_show(&mut self.fb, what);
     }
     fn screen_art<W: Write>(&mut self, out: &mut W) -> Result<bool, W::Error> {
         self.fb.write_art(out)?;
@@ -59,9 +61,9 @@ impl Board for EmulatedBoard {
     }
 }
 
-type EmuConsole = Console<EmulatedJig, MemoryStore, ticks::SysTickClock>;
+type EmuConsole = Console<EmulatedJig, EmuStore, ticks::SysTickClock>;
 type EmuApp =
-    App<'static, EmulatedJig, MemoryStore, ticks::SysTickClock, EmulatedBoard, ticks::SysTickTicks>;
+    App<'static, EmulatedJig, EmuStore, ticks::SysTickClock, EmulatedBoard, ticks::SysTickTicks>;
 
 fn halt() -> ! {
     loop {
@@ -76,11 +78,14 @@ fn init(cost_ticks: ticks::SysTickTicks) -> Option<&'static mut EmuApp> {
     let rate = (2 * u64::from(RATE_LOOP), ticks::ticks_for_loop(RATE_LOOP));
     // Built in place in static memory (a console is about 8 KB: a copy on the stack
     // would count against the stack budget).
+    let flash = RamFlash::formatted(store_mem::take_ram()?);
+    let len = u32::try_from(embedded_storage::nor_flash::ReadNorFlash::capacity(&flash)).ok()?;
+    let store = FlashStore::new(flash, 0..len).ok()?;
     let slot = cortex_m::singleton!(: MaybeUninit<EmuConsole> = MaybeUninit::uninit())?;
     let console: &'static mut EmuConsole = slot.write(Console::unloaded(
         Identity::new("jig-emulated", biasjig_firmware::VERSION),
         EmulatedJig::new(BOARD_SEED),
-        MemoryStore::default(),
+        store,
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
         },
@@ -103,7 +108,18 @@ fn main() -> ! {
     };
     let cost_ticks = ticks::SysTickTicks::start(cp.SYST);
     let Some(app) = init(cost_ticks) else { halt() };
-    app.run(&mut io)
+    loop {
+        if matches!(io.read_ready(), Ok(true)) {
+            let _ = app.poll(&mut io);
+        } else {
+            usart1::idle();
+        }
+    }
+}
+
+#[interrupt]
+fn USART1() {
+    usart1::on_interrupt();
 }
 
 #[exception]

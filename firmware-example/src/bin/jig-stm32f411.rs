@@ -4,21 +4,22 @@
 //! VC PB0/IN8), an SSD1306 128x64 OLED on I2C1 (PB8 SCL, PB9 SDA, address 0x3C) and a
 //! measure-and-check button on PC13 (active low).
 //!
-//! Settings and calibration are kept in RAM (`MemoryStore`): lost at power-off. A flash store
-//! needs a sector reserved in `memory.x` away from the image and a sector erase per `save`; it
-//! is not done here.
+//! Settings (with the PIN count and the chosen design), calibration and up to eight kept designs
+//! are in the store on flash sectors 6 and 7 (`STORE_FLASH` in memory.x), kept through power
+//! cuts (store.rs).
 #![no_std]
 #![no_main]
 
-use biasjig_core::console::jig::MemoryStore;
 use biasjig_core::console::{Channel, Console, Identity};
 use biasjig_firmware::button::Debounce;
 use biasjig_firmware::console::{App, Board, Show};
 use biasjig_firmware::cost::Ticks;
 use biasjig_firmware::jig::{AdcJig, SampleSource};
-use biasjig_firmware::screen::{draw_measurement, draw_verdict};
+use biasjig_firmware::screen::draw_show;
 use biasjig_firmware::serial::NbSerial;
-use biasjig_firmware::target::{stack, ticks, ticks::DwtTicks};
+use biasjig_firmware::store::FlashStore;
+use biasjig_firmware::target::internal_flash::InternalFlash;
+use biasjig_firmware::target::{stack, store_mem, ticks, ticks::DwtTicks};
 use core::mem::MaybeUninit;
 use cortex_m_rt::{entry, exception};
 use embedded_io::{ReadReady, Write};
@@ -78,10 +79,7 @@ impl Board for JigBoard {
     }
     fn show(&mut self, what: &Show<'_>) {
         if let Some(d) = self.display.as_mut() {
-            let _ = match what {
-                Show::Verdict(v) => draw_verdict(d, v),
-                Show::Measured(r) => draw_measurement(d, r),
-            };
+            let _ = draw_show(d, what);
             if d.flush().is_err() {
                 // The display stopped answering; stop drawing to it.
                 self.display = None;
@@ -93,19 +91,21 @@ impl Board for JigBoard {
     }
 }
 
-type HwConsole = Console<AdcJig<AdcSamples>, MemoryStore, ticks::SysTickClock>;
-type HwApp = App<'static, AdcJig<AdcSamples>, MemoryStore, ticks::SysTickClock, JigBoard, DwtTicks>;
+type HwStore = FlashStore<InternalFlash>;
+type HwConsole = Console<AdcJig<AdcSamples>, HwStore, ticks::SysTickClock>;
+type HwApp = App<'static, AdcJig<AdcSamples>, HwStore, ticks::SysTickClock, JigBoard, DwtTicks>;
 
 /// Builds the console and the application in static memory (kept out of `main`'s frame).
 #[inline(never)]
-fn init(jig: AdcJig<AdcSamples>, board: JigBoard) -> Option<&'static mut HwApp> {
+fn init(jig: AdcJig<AdcSamples>, board: JigBoard, flash: pac::FLASH) -> Option<&'static mut HwApp> {
+    let store = FlashStore::new(InternalFlash(flash), store_mem::flash_range()).ok()?;
     // Built in place in static memory (a console is about 8 KB: a copy on the stack
     // would count against the stack budget).
     let slot = cortex_m::singleton!(: MaybeUninit<HwConsole> = MaybeUninit::uninit())?;
     let console: &'static mut HwConsole = slot.write(Console::unloaded(
         identity(),
         jig,
-        MemoryStore::default(),
+        store,
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
         },
@@ -171,7 +171,7 @@ fn main() -> ! {
     let mut poll_clock = DwtTicks::start(&mut cp.DCB, &mut cp.DWT);
     let mut last_poll = poll_clock.now();
     let _systick = ticks::SysTickTicks::start(cp.SYST);
-    let Some(app) = init(jig, JigBoard { display }) else {
+    let Some(app) = init(jig, JigBoard { display }, dp.FLASH) else {
         loop {
             cortex_m::asm::wfi();
         }

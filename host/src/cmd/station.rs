@@ -72,6 +72,10 @@ pub struct Cmd {
     pub test: TestArgs,
     #[command(flatten)]
     pub inputs: InputArgs,
+    /// Also keep the pushed design on the instrument under NAME (its `keep NAME`), so that the
+    /// unit starts on it and can choose it again with no PC
+    #[arg(long, value_name = "NAME")]
+    pub keep: Option<String>,
     #[command(flatten)]
     pub trace: TraceArgs,
 }
@@ -242,6 +246,8 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     adopt: Option<Adopt>,
     /// The measuring inputs in the pushed settings.
     inputs_used: Inputs,
+    /// Keep the design on the instrument under this name (`--keep`).
+    keep: Option<String>,
     /// Resynchronisations done (resets, timeouts, garbage).
     pub resyncs: usize,
 }
@@ -284,8 +290,15 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
             budget,
             adopt: None,
             inputs_used: Inputs::IDEAL,
+            keep: None,
             resyncs: 0,
         })
+    }
+
+    /// Once the design is on the instrument, keep it there under `name` (its `keep NAME`).
+    pub fn keep_as(mut self, name: Option<String>) -> Self {
+        self.keep = name;
+        self
     }
 
     /// No measuring inputs were stated (neither the design file nor `--input-r`): the inputs are
@@ -390,6 +403,13 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 return Err(BoardError::Refused(
                     "the settings did not take: the instrument's settings digest differs".into(),
                 ));
+            }
+        }
+        if let Some(name) = self.keep.clone() {
+            let l = format!("keep {name}");
+            let r = self.link.command(&l).map_err(BoardError::Link)?;
+            if !r.ok() {
+                return Err(BoardError::Refused(format!("{l}: {}", r.status)));
             }
         }
         Ok(id)
@@ -847,6 +867,15 @@ impl Cmd {
     pub fn run(&self, _g: &Global) -> CmdResult {
         let budget = sync_budget(self.sync_timeout)?;
         let doc = designfile::load(&self.design)?;
+        if let Some(name) = &self.keep {
+            if biasjig_core::console::parse::Name::parse(name).is_none() {
+                return Err(CliError::field(
+                    "--keep",
+                    name,
+                    "a name of 1 to 16 letters, digits, - _ or .",
+                ));
+            }
+        }
         let (settings, overrides) = self.test_settings(doc.test)?;
         let prov = provenance(&settings, overrides, &doc.digest);
         let push = push_lines(&doc.stage, &doc.profile, &settings);
@@ -883,6 +912,7 @@ impl Cmd {
             if adopt {
                 st = st.inputs_from_unit(doc.profile, settings, mode_stated);
             }
+            st = st.keep_as(self.keep.clone());
             st.prepare().map_err(board_err)?;
             let mut sink = StationSink::open(Some(&self.log), &self.trace)?;
             run_loop(&mut st, stdin.lock(), &mut out, &mut sink, true)?
@@ -903,6 +933,7 @@ impl Cmd {
             if adopt {
                 st = st.inputs_from_unit(doc.profile, settings, mode_stated);
             }
+            st = st.keep_as(self.keep.clone());
             let id = st.prepare().map_err(board_err)?;
             let inputs = if adopt { st.inputs() } else { settings.inputs };
             eprintln!(
