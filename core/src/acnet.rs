@@ -319,6 +319,103 @@ fn solve_in<T: Scalar>(stage: &Stage, y: &Admittance, setup: &Setup) -> Option<[
     }
 }
 
+/// The parts of the midband network that do not change while the bias resistors, hFE and the
+/// ambient vary: the source side seen at B and the load side seen at C (see [`midband_source`]).
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct MidbandFixed {
+    /// The source's Norton current into B for a 1 V EMF, A.
+    i_b: f64,
+    /// The source's conductance seen at B (RS and the leak in series with CIN's short), S.
+    g_b_in: f64,
+    /// COUT's short in series with RL and the leak, from C to ground, S.
+    g_c_out: f64,
+    /// v(OUT)/v(C).
+    out_ratio: f64,
+}
+
+impl MidbandFixed {
+    /// The fixed parts of `stage`'s midband network (RS, RL and the shorted capacitors).
+    pub(crate) fn new(stage: &Stage) -> Self {
+        // Every capacitor is `cap_admittance(Cap::Short, _)`: the short's conductance.
+        // Input: RS (+ the leak) to ground at IN, CIN from IN to B, the EMF's Norton current.
+        let gs = source_conductance(stage);
+        let g_in = gs + LEAK;
+        let g_b_in = g_in * SHORT / (g_in + SHORT);
+        let i_b = gs * SHORT / (g_in + SHORT);
+        // Output: COUT from C to OUT, RL (+ the leak) from OUT to ground.
+        let g_out = stage.rl.map_or(0.0, conductance) + LEAK;
+        Self {
+            i_b,
+            g_b_in,
+            g_c_out: SHORT * g_out / (SHORT + g_out),
+            out_ratio: SHORT / (SHORT + g_out),
+        }
+    }
+
+    /// v(OUT) and v(B) for a 1 V source EMF, with the bias resistors of `stage` and the
+    /// transistor two-port `y` (see [`midband_source`]).
+    pub(crate) fn solve(&self, stage: &Stage, y: &Admittance) -> Option<(f64, f64)> {
+        let (k, c11, c13) = self.cofactors(stage, y)?;
+        let vb = k * c11;
+        let v_out = k * c13 * self.out_ratio;
+        (v_out.is_finite() && vb.is_finite()).then_some((v_out, vb))
+    }
+
+    /// v(OUT) alone for a 1 V source EMF (see [`MidbandFixed::solve`]; the same number).
+    #[inline]
+    pub(crate) fn gain(&self, stage: &Stage, y: &Admittance) -> Option<f64> {
+        let (k, _, c13) = self.cofactors(stage, y)?;
+        let v_out = k * c13 * self.out_ratio;
+        v_out.is_finite().then_some(v_out)
+    }
+
+    /// i_b/det and the first-row cofactors C11 (for v(B)) and C13 (for v(C)) of the 3×3 system.
+    #[inline(always)]
+    fn cofactors(&self, stage: &Stage, y: &Admittance) -> Option<(f64, f64, f64)> {
+        // `conductance` of a value that is not NaN (a validated stage): 0 Ω a short, an open
+        // (infinite) resistor 1/∞ = 0, in one branch.
+        let g = |ohms: f64| if ohms > 0.0 { 1.0 / ohms } else { SHORT };
+        // R1 ‖ R2 as the sum of the two conductances (the same to rounding as the general
+        // solve's conductance of the parallel value, without its branches).
+        let g_bb = g(stage.r1.value) + g(stage.r2.value) + self.g_b_in;
+        // Emitter: RE1 from E to X, RE2 and CE's short from X to ground.
+        let g_e1 = g(stage.re1.value);
+        let g_x = g(stage.re2.value) + SHORT;
+        let g_ee = g_e1 * g_x / (g_e1 + g_x);
+        let g_cc = g(stage.rc.value) + self.g_c_out;
+        // Nodal equations in vb, ve, vc (ib = y11·vbe + y12·vce, ic = y21·vbe + y22·vce):
+        //   B: (g_bb + y11)·vb − (y11 + y12)·ve + y12·vc = i_b
+        //   C: y21·vb − (y21 + y22)·ve + (g_cc + y22)·vc = 0
+        //   E: −(y11 + y21)·vb + (g_ee + y11 + y12 + y21 + y22)·ve − (y12 + y22)·vc = 0
+        let (y11, y12, y21, y22) = (y.y11, y.y12, y.y21, y.y22);
+        let (a11, a12, a13) = (g_bb + y11, -(y11 + y12), y12);
+        let (a21, a22, a23) = (y21, -(y21 + y22), g_cc + y22);
+        let (a31, a32, a33) = (-(y11 + y21), g_ee + y11 + y12 + y21 + y22, -(y12 + y22));
+        // Cofactors of the first row; the right-hand side is (i_b, 0, 0).
+        let c11 = a22 * a33 - a23 * a32;
+        let c12 = a23 * a31 - a21 * a33;
+        let c13 = a21 * a32 - a22 * a31;
+        let det = a11 * c11 + a12 * c12 + a13 * c13;
+        if !(det.is_finite() && det != 0.0) {
+            return None;
+        }
+        Some((self.i_b / det, c11, c13))
+    }
+}
+
+/// v(OUT) and v(B) for a 1 V source EMF behind RS with every capacitor a short and RS and RL in
+/// place: the network of [`solve`] with [`Setup::midband`] and [`source_emf`], reduced by hand
+/// and solved in real arithmetic (no 6×6 complex elimination). The same conductances are used
+/// (a shorted capacitor is the same 1 MS, a zero-ohm resistor too, the same leaks), so the
+/// result equals [`solve`]'s to rounding: the input side (IN through CIN to B) is a Norton
+/// source at B, the emitter branch (RE1 in series with RE2 ‖ CE) one conductance from E to
+/// ground, the output side (RC, and COUT in series with RL) one from C to ground; the three
+/// nodes B, E, C with the transistor two-port are solved by Cramer's rule. About 150
+/// instructions instead of about 4 000; `None` when that 3×3 system is singular.
+pub(crate) fn midband_source(stage: &Stage, y: &Admittance) -> Option<(f64, f64)> {
+    MidbandFixed::new(stage).solve(stage, y)
+}
+
 /// Two resistors in parallel, Ω (an open one drops out; a short wins).
 pub(crate) fn parallel(a: f64, b: f64) -> f64 {
     if !a.is_finite() {

@@ -24,6 +24,7 @@
 use rand_core::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
+use crate::acnet::MidbandFixed;
 use crate::device::{Profile, ProfileError};
 use crate::settings::{Inputs, ReadNode};
 use crate::signal::swing;
@@ -405,36 +406,11 @@ fn draw_of(x: &[f64; FACTORS]) -> Draw {
     }
 }
 
-/// The stage and conditions of one draw.
-fn apply(stage: &Stage, d: &Draw) -> (Stage, Conditions) {
-    let mut s = *stage;
-    let [r1, r2, rc, re1, re2] = d.r;
-    s.r1.value = r1;
-    s.r2.value = r2;
-    s.rc.value = rc;
-    s.re1.value = re1;
-    s.re2.value = re2;
-    s.vcc.value = d.vcc;
-    (
-        s,
-        Conditions {
-            temp_c: d.temp_c,
-            beta_25: d.beta_25,
-            fault: None,
-            loads: crate::solve::NodeLoads::NONE,
-        },
-    )
-}
-
-/// Midband gain v(load)/v(source EMF) of `stage` at `op` (one small-signal solve), or 0 when
-/// the network is singular or the transistor is not active. (Out of line: the small-signal
-/// network's storage stays out of every evaluation's frame, the limits' DC-only ones included.)
-#[inline(never)]
-fn gain_of(stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
-    match crate::signal::source_gain(stage, &op.y) {
-        Some((g, _)) if g.is_finite() => g,
-        _ => 0.0,
-    }
+/// Midband gain v(load)/v(source EMF) of `stage` at `op` (the midband network in closed form),
+/// or 0 when the network is singular. (Inline: the closed form keeps a dozen numbers, not the
+/// general solve's 6×6 complex matrix, so it adds little to an evaluation's frame.)
+fn gain_of(fixed: &MidbandFixed, stage: &Stage, op: &crate::solve::OperatingPoint) -> f64 {
+    fixed.gain(stage, &op.y).unwrap_or(0.0)
 }
 
 /// Evaluate one draw as read through `inputs`: one exact solve (three when each node is read
@@ -447,29 +423,75 @@ fn evaluate(
     signal: bool,
     inputs: &Inputs,
 ) -> Result<Sample, SolveError> {
-    let (s, cond) = apply(stage, d);
-    let (op, ve, vc) = match inputs.common_loads() {
-        Some(loads) => {
-            let op = solve(&s, profile, cond.loaded(loads))?;
-            (op, op.ve, op.vc)
-        }
-        None => one_at_a_time(&s, profile, cond, inputs)?,
+    let fixed = signal.then(|| MidbandFixed::new(stage));
+    evaluate_with(stage, profile, d, fixed.as_ref(), inputs)
+}
+
+/// [`evaluate`] with the fixed part of the midband network worked out once (RS and RL do not
+/// vary): the gain when `signal` is given.
+fn evaluate_with(
+    stage: &Stage,
+    profile: &Profile,
+    d: &Draw,
+    signal: Option<&MidbandFixed>,
+    inputs: &Inputs,
+) -> Result<Sample, SolveError> {
+    let mut s = *stage;
+    evaluate_in(&mut s, profile, d, signal, inputs)
+}
+
+/// [`evaluate_with`] on a working copy of the stage (only the drawn values are written: the
+/// Monte Carlo's hot loop keeps one copy instead of copying the stage per sample).
+fn evaluate_in(
+    s: &mut Stage,
+    profile: &Profile,
+    d: &Draw,
+    signal: Option<&MidbandFixed>,
+    inputs: &Inputs,
+) -> Result<Sample, SolveError> {
+    let [r1, r2, rc, re1, re2] = d.r;
+    s.r1.value = r1;
+    s.r2.value = r2;
+    s.rc.value = rc;
+    s.re1.value = re1;
+    s.re2.value = re2;
+    s.vcc.value = d.vcc;
+    let cond = Conditions {
+        temp_c: d.temp_c,
+        beta_25: d.beta_25,
+        fault: None,
+        loads: crate::solve::NodeLoads::NONE,
     };
-    let (sw, _) = swing(&s, profile, &op);
-    let gain = if signal { gain_of(&s, &op) } else { 0.0 };
-    Ok(Sample {
-        values: Nodes {
-            vb: op.vb,
-            ve,
-            vc,
-            vbe: op.vb - ve,
-            vce: vc - ve,
-            ic: op.ic,
-            gain,
-            swing: sw,
-        },
-        region: op.region,
-    })
+    let s = &*s;
+    // The sample from the operating point and the emitter and collector as read (each branch
+    // builds it in place: no copy of the operating point).
+    let sample = |op: &crate::solve::OperatingPoint, ve: f64, vc: f64| {
+        let (sw, _) = swing(s, profile, op);
+        let gain = signal.map_or(0.0, |f| gain_of(f, s, op));
+        Sample {
+            values: Nodes {
+                vb: op.vb,
+                ve,
+                vc,
+                vbe: op.vb - ve,
+                vce: vc - ve,
+                ic: op.ic,
+                gain,
+                swing: sw,
+            },
+            region: op.region,
+        }
+    };
+    match inputs.common_loads() {
+        Some(loads) => {
+            let op = solve(s, profile, cond.loaded(loads))?;
+            Ok(sample(&op, op.ve, op.vc))
+        }
+        None => {
+            let (op, ve, vc) = one_at_a_time(s, profile, cond, inputs)?;
+            Ok(sample(&op, ve, vc))
+        }
+    }
 }
 
 /// Each node read with only its own input attached: the operating point with the base's, and the
@@ -810,21 +832,24 @@ impl Histogram {
     /// Count one value (a bin counts at most `u32::MAX` values: one run's worth).
     pub fn add(&mut self, v: f64) {
         let pos = (v - self.lo) * self.scale;
-        if pos >= 0.0 && pos < BINS as f64 {
-            // In range, so the conversion is exact truncation below BINS.
-            // A plain increment (this is the Monte Carlo's hot loop): a run's count is a u32, so
-            // no bin of one run can pass u32::MAX.
-            if let Some(b) = self.bins.get_mut(pos as usize) {
+        if pos >= 0.0 {
+            // At or above the low edge: the bin by truncation (a position past the last bin, or
+            // too large for u32, finds no bin). A plain increment (this is the Monte Carlo's hot
+            // loop): a run's count is a u32, so no bin of one run can pass u32::MAX.
+            if let Some(b) = self.bins.get_mut(pos as u32 as usize) {
                 *b = b.wrapping_add(1);
+            } else if v <= self.hi {
+                // v == hi (or within rounding of it): the last bin is closed.
+                if let Some(b) = self.bins.last_mut() {
+                    *b = b.saturating_add(1);
+                }
+            } else {
+                self.above = self.above.saturating_add(1);
             }
         } else if v < self.lo {
             self.below = self.below.saturating_add(1);
-        } else if v <= self.hi {
-            // v == hi (or within rounding of it): the last bin is closed.
-            if let Some(b) = self.bins.last_mut() {
-                *b = b.saturating_add(1);
-            }
         } else {
+            // NaN.
             self.above = self.above.saturating_add(1);
         }
     }
@@ -880,6 +905,12 @@ pub struct Stats {
     pub range: Range,
     /// Histogram over the worst-case range.
     pub histogram: Histogram,
+    /// The value the sums of [`Stats::add_sum`] are taken about (the histogram's centre).
+    shift: f64,
+    /// Sum of (value − shift).
+    s1: f64,
+    /// Sum of (value − shift)².
+    s2: f64,
 }
 
 impl Stats {
@@ -891,7 +922,54 @@ impl Stats {
             m2: 0.0,
             range: Range::EMPTY,
             histogram: Histogram::new(lo, hi),
+            shift: 0.5 * (lo + hi),
+            s1: 0.0,
+            s2: 0.0,
         }
+    }
+
+    /// Add one value to shifted sums instead of the running mean (non-finite values are
+    /// ignored): no division per value, for the Monte Carlo's hot loop; [`Stats::finish_sums`]
+    /// sets `mean` and the deviation afterwards. The sums are taken about the histogram's centre,
+    /// so nothing cancels for values inside the worst-case range.
+    #[inline]
+    pub fn add_sum(&mut self, v: f64) {
+        if v.is_finite() {
+            self.count = self.count.saturating_add(1);
+            self.add_uncounted(v);
+        }
+    }
+
+    /// [`Stats::add_sum`] of a value known to be finite, without counting it: the Monte Carlo
+    /// counts its finite samples once and adds them with [`Stats::count_more`].
+    #[inline(always)]
+    fn add_uncounted(&mut self, v: f64) {
+        let d = v - self.shift;
+        self.s1 += d;
+        self.s2 += d * d;
+        if v < self.range.min {
+            self.range.min = v;
+        }
+        if v > self.range.max {
+            self.range.max = v;
+        }
+        self.histogram.add(v);
+    }
+
+    /// Count `n` more values (added with `add_uncounted`).
+    fn count_more(&mut self, n: u32) {
+        self.count = self.count.saturating_add(n);
+    }
+
+    /// The mean and the sum of squared deviations from the sums of [`Stats::add_sum`].
+    pub fn finish_sums(&mut self) {
+        if self.count == 0 {
+            return;
+        }
+        let n = f64::from(self.count);
+        let m = self.s1 / n;
+        self.mean = self.shift + m;
+        self.m2 = libm::fmax(0.0, self.s2 - m * self.s1);
     }
 
     /// Add one value (non-finite values are ignored).
@@ -951,13 +1029,85 @@ impl Requirement {
 
     /// Whether a sample meets the requirement.
     pub fn met(&self, s: &Sample) -> bool {
-        let g = libm::fabs(s.values.gain);
-        s.region == Region::Active
-            && self.gain_min.is_none_or(|m| g >= m)
-            && self.gain_max.is_none_or(|m| g <= m)
-            && self.swing_min.is_none_or(|m| s.values.swing >= m)
-            && self.ic_max.is_none_or(|m| s.values.ic <= m)
+        self.each(s).all()
     }
+
+    /// Which requirements a sample meets, one by one (a requirement not given is met).
+    #[inline]
+    pub fn each(&self, s: &Sample) -> MetEach {
+        let g = libm::fabs(s.values.gain);
+        MetEach {
+            active: s.region == Region::Active,
+            gain: self.gain_min.is_none_or(|m| g >= m) && self.gain_max.is_none_or(|m| g <= m),
+            swing: self.swing_min.is_none_or(|m| s.values.swing >= m),
+            ic: self.ic_max.is_none_or(|m| s.values.ic <= m),
+        }
+    }
+}
+
+/// A requirement as plain bounds (a requirement not given is an infinite bound): the same
+/// judgement as [`Requirement::each`] for finite values, without the branches of the options.
+#[derive(Debug, Clone, Copy)]
+struct Bounds {
+    gain_min: f64,
+    gain_max: f64,
+    swing_min: f64,
+    ic_max: f64,
+}
+
+impl Bounds {
+    fn of(r: &Requirement) -> Self {
+        Self {
+            gain_min: r.gain_min.unwrap_or(f64::NEG_INFINITY),
+            gain_max: r.gain_max.unwrap_or(f64::INFINITY),
+            swing_min: r.swing_min.unwrap_or(f64::NEG_INFINITY),
+            ic_max: r.ic_max.unwrap_or(f64::INFINITY),
+        }
+    }
+
+    #[inline(always)]
+    fn each(&self, s: &Sample) -> MetEach {
+        let g = libm::fabs(s.values.gain);
+        MetEach {
+            active: s.region == Region::Active,
+            gain: (g >= self.gain_min) & (g <= self.gain_max),
+            swing: s.values.swing >= self.swing_min,
+            ic: s.values.ic <= self.ic_max,
+        }
+    }
+}
+
+/// Which requirements one sample meets.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct MetEach {
+    /// Forward active.
+    pub active: bool,
+    /// |gain| within the window.
+    pub gain: bool,
+    /// Swing at least the least asked.
+    pub swing: bool,
+    /// IC within the budget.
+    pub ic: bool,
+}
+
+impl MetEach {
+    /// Every requirement met.
+    pub fn all(&self) -> bool {
+        self.active && self.gain && self.swing && self.ic
+    }
+}
+
+/// Samples that met each requirement on its own.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct PassedEach {
+    /// Forward active.
+    pub active: u32,
+    /// |gain| within the window.
+    pub gain: u32,
+    /// Swing at least the least asked.
+    pub swing: u32,
+    /// IC within the budget.
+    pub ic: u32,
 }
 
 /// Monte Carlo settings.
@@ -995,6 +1145,8 @@ pub struct MonteCarlo {
     pub failed: u32,
     /// Samples that met the requirement.
     pub passed: u32,
+    /// Samples that met each requirement on its own.
+    pub passed_each: PassedEach,
     /// Samples with the transistor forward active.
     pub active: u32,
     /// Whether the gain statistics were computed.
@@ -1095,7 +1247,13 @@ impl Deviates {
             vary(stage.re1),
             vary(stage.re2),
         ];
-        let vcc = stage.vcc.value * (1.0 + stage.vcc.tol * self.deviation(dist));
+        // The same deviate as `deviation(dist)` (uniform: `symmetric`), without the call.
+        let dv = if uniform {
+            self.symmetric()
+        } else {
+            self.deviation(dist)
+        };
+        let vcc = stage.vcc.value * (1.0 + stage.vcc.tol * dv);
         let between = |d: &mut Self, k: usize| {
             let lo = b.lo.get(k).copied().unwrap_or(0.0);
             let hi = b.hi.get(k).copied().unwrap_or(0.0);
@@ -1151,33 +1309,53 @@ pub fn monte_carlo_observed(
         runs: settings.runs,
         failed: 0,
         passed: 0,
+        passed_each: PassedEach::default(),
         active: 0,
         signal,
         nodes,
     };
     let mut dev = Deviates::new(settings.seed);
+    let fixed = signal.then(|| MidbandFixed::new(stage));
+    let mut scratch = *stage;
+    let bounds = Bounds::of(&settings.requirement);
+    // Samples whose every value was finite (counted once for all the nodes).
+    let mut finite_samples: u32 = 0;
     for i in 0..settings.runs {
         let d = dev.draw(stage, &b, var.distribution);
-        match evaluate(stage, profile, &d, signal, &var.inputs) {
+        match evaluate_in(&mut scratch, profile, &d, fixed.as_ref(), &var.inputs) {
             Ok(s) => {
-                // Field by field: this is the hot loop of the run.
+                // Field by field: this is the hot loop of the run. The solver's operating point
+                // is finite, the swing and the gain too: one check for all of them.
                 let (m, v) = (&mut mc.nodes, &s.values);
-                m.vb.add(v.vb);
-                m.ve.add(v.ve);
-                m.vc.add(v.vc);
-                m.vbe.add(v.vbe);
-                m.vce.add(v.vce);
-                m.ic.add(v.ic);
-                m.swing.add(v.swing);
-                if signal {
-                    m.gain.add(v.gain);
+                let finite =
+                    (v.vb + v.ve + v.vc + v.vbe + v.vce + v.ic + v.swing + v.gain).is_finite();
+                if finite {
+                    finite_samples += 1;
+                    m.vb.add_uncounted(v.vb);
+                    m.ve.add_uncounted(v.ve);
+                    m.vc.add_uncounted(v.vc);
+                    m.vbe.add_uncounted(v.vbe);
+                    m.vce.add_uncounted(v.vce);
+                    m.ic.add_uncounted(v.ic);
+                    m.swing.add_uncounted(v.swing);
+                    if signal {
+                        m.gain.add_uncounted(v.gain);
+                    }
+                } else {
+                    for n in Node::ALL {
+                        if signal || n != Node::Gain {
+                            m.get_mut(n).add_sum(*v.get(n));
+                        }
+                    }
                 }
-                if s.region == Region::Active {
-                    mc.active += 1;
-                }
-                if settings.requirement.met(&s) {
-                    mc.passed += 1;
-                }
+                let met = bounds.each(&s);
+                let each = &mut mc.passed_each;
+                each.active += u32::from(met.active);
+                each.gain += u32::from(met.gain);
+                each.swing += u32::from(met.swing);
+                each.ic += u32::from(met.ic);
+                mc.active += u32::from(met.active);
+                mc.passed += u32::from(met.all());
                 on_sample(&s);
             }
             Err(_) => mc.failed += 1,
@@ -1186,6 +1364,13 @@ pub fn monte_carlo_observed(
         if done % PROGRESS_EVERY == 0 || done == settings.runs {
             progress(done, settings.runs);
         }
+    }
+    for n in Node::ALL {
+        let st = mc.nodes.get_mut(n);
+        if signal || n != Node::Gain {
+            st.count_more(finite_samples);
+        }
+        st.finish_sums();
     }
     Ok(mc)
 }

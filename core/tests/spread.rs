@@ -217,6 +217,10 @@ fn same_seed_same_numbers_other_seed_others() {
 fn seeded_run_snapshot() {
     // Pinned figures of one seeded run: a change of the generator, the deviates or the solver on
     // any platform shows here. (Regenerate deliberately only when the engine changes.)
+    // The gain mean moved from -13.5634475313286 to -13.56344531549726 (1.6e-7) when the
+    // midband gain became the closed form of the same network: the closed form is the exact
+    // one (checked against a 50-digit solve in `signal`'s tests), the 6×6 elimination lost
+    // about 1e-8 per sample to the 1 MS shorts.
     let (s, p, v) = (demo_stage(), demo_profile(), demo_var());
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let mc = monte_carlo(&s, &p, &v, &wc, &settings(200, 2024), |_, _| {}).unwrap();
@@ -238,7 +242,7 @@ const SNAPSHOT: [f64; 5] = [
     6.645967984578561,
     6.722686631438305e-5,
     4.313113467675024,
-    -13.5634475313286,
+    -13.56344531549726,
 ];
 
 #[test]

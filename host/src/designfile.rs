@@ -56,7 +56,7 @@
 use std::path::Path;
 
 use biasjig_core::console::record::design_hash;
-use biasjig_core::design::Requirement;
+use biasjig_core::design::{Hold, Requirement};
 use biasjig_core::device::Profile;
 use biasjig_core::limits::Meter;
 use biasjig_core::series::Series;
@@ -95,6 +95,8 @@ pub struct DesignDoc {
     pub series: [Option<Series>; 8],
     /// The predicted figures at nominal when the file was written.
     pub predicted: Option<Predicted>,
+    /// What the design holds over the spread when the file was written.
+    pub held: Option<HeldFigures>,
     /// The test settings the file states (test ambient, meter, measuring inputs).
     pub test: TestSettings,
     /// The file digest (64 hex digits).
@@ -144,6 +146,8 @@ struct FileDoc {
     parts: FileParts,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     predicted: Option<Predicted>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    held: Option<HeldFigures>,
 }
 
 #[derive(Debug, Serialize, Deserialize)]
@@ -162,6 +166,26 @@ struct FileRequirement {
     tol: f64,
     cap_series: String,
     cap_tol: f64,
+    /// "worst-case" or "nominal" (absent in files of the first round: nominal).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    hold: Option<String>,
+    /// Gain tolerance, fraction (absent: the first round's 5 %).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    gain_tol: Option<f64>,
+}
+
+/// What the design holds at every corner of the spread when it was written (SI units).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct HeldFigures {
+    /// Least |gain| over the corners.
+    pub gain_min: f64,
+    /// Largest |gain| over the corners.
+    pub gain_max: f64,
+    /// Least peak-to-peak swing at the load over the corners, V.
+    pub swing_pp_min: f64,
+    /// Largest IC over the corners, A.
+    pub ic_max: f64,
 }
 
 #[derive(Debug, Serialize, Deserialize)]
@@ -455,6 +479,18 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
             q.tol = r.tol;
             q.cap_series = series_of(path, "requirement.cap_series", &r.cap_series)?;
             q.cap_tol = r.cap_tol;
+            if let Some(h) = &r.hold {
+                q.hold = Hold::parse(h).ok_or_else(|| {
+                    bad(
+                        path,
+                        "requirement.hold",
+                        format!("{h:?}: allowed: \"worst-case\" or \"nominal\""),
+                    )
+                })?;
+            }
+            if let Some(t) = r.gain_tol {
+                q.gain_tol = t;
+            }
             q.validate().map_err(|e| {
                 bad(
                     path,
@@ -477,6 +513,7 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
         requirement,
         series,
         predicted: f.predicted,
+        held: f.held,
         test,
         digest: String::new(),
     };
@@ -542,6 +579,8 @@ pub fn digest(doc: &DesignDoc) -> Digest {
             c.f64(r.tol);
             c.str(r.cap_series.name());
             c.f64(r.cap_tol);
+            c.str(r.hold.name());
+            c.f64(r.gain_tol);
         }
     }
     match &doc.predicted {
@@ -560,6 +599,15 @@ pub fn digest(doc: &DesignDoc) -> Digest {
                 p.supply_current,
                 p.transistor_power,
             ] {
+                c.f64(v);
+            }
+        }
+    }
+    match &doc.held {
+        None => c.u8(0),
+        Some(h) => {
+            c.u8(1);
+            for v in [h.gain_min, h.gain_max, h.swing_pp_min, h.ic_max] {
                 c.f64(v);
             }
         }
@@ -602,6 +650,8 @@ pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
             tol: r.tol,
             cap_series: r.cap_series.name().to_string(),
             cap_tol: r.cap_tol,
+            hold: Some(r.hold.name().to_string()),
+            gain_tol: Some(r.gain_tol),
         }),
         transistor: FileTransistor {
             beta_min: doc.profile.beta_min,
@@ -648,6 +698,7 @@ pub fn to_text(doc: &DesignDoc) -> Result<String, CliError> {
             ce: s.ce.map(|p| file_part(p, sr(7))),
         },
         predicted: doc.predicted,
+        held: doc.held,
     };
     toml::to_string(&f).map_err(|e| CliError::usage(format!("design file: cannot write: {e}")))
 }
@@ -734,6 +785,7 @@ mod tests {
             requirement: Some(req),
             series: [e24, e24, e24, e24, e24, e6, e6, e6],
             predicted: None,
+            held: None,
             test: TestSettings::DEFAULT,
             digest: String::new(),
         }

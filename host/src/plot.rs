@@ -27,6 +27,7 @@ pub fn write_all(
     sp: &Spread,
     lim: Option<&Limits>,
     cloud: &[(f64, f64)],
+    req_lines: &[(Node, f64)],
 ) -> Result<Vec<PathBuf>, CliError> {
     std::fs::create_dir_all(dir).map_err(|e| {
         CliError::field(
@@ -42,12 +43,18 @@ pub fn write_all(
     for n in Node::ALL {
         let path = dir.join(format!("histogram_{}.svg", n.name()));
         let window = lim.and_then(|l| if n == Node::Ic { None } else { l.window(n) });
+        let reqs: Vec<f64> = req_lines
+            .iter()
+            .filter(|(k, _)| *k == n)
+            .map(|(_, x)| *x)
+            .collect();
         histogram(
             &path,
             n,
             sp.monte_carlo.nodes.get(n),
             *sp.worst.nodes.get(n),
             window.map(|w| (w.low, w.high)),
+            &reqs,
         )
         .map_err(|e| fail(&path, e))?;
         written.push(path);
@@ -68,13 +75,15 @@ fn label_of(n: Node, v: f64) -> String {
     }
 }
 
-/// Histogram of one node with the worst case (red) and the pass window (green) marked.
+/// Histogram of one node with the worst case (red), the pass window (green) and the design's
+/// requirement (orange) marked.
 fn histogram(
     path: &Path,
     n: Node,
     st: &Stats,
     wc: Range,
     window: Option<(f64, f64)>,
+    reqs: &[f64],
 ) -> PlotResult {
     let root = SVGBackend::new(path, (720, 420)).into_drawing_area();
     root.fill(&WHITE)?;
@@ -84,6 +93,10 @@ fn histogram(
     if let Some((a, b)) = window {
         lo = lo.min(a);
         hi = hi.max(b);
+    }
+    for &x in reqs {
+        lo = lo.min(x);
+        hi = hi.max(x);
     }
     let pad = 0.03 * (hi - lo);
     let (lo, hi) = (lo - pad, hi + pad);
@@ -123,6 +136,20 @@ fn histogram(
             .draw_series([a, b].map(|x| PathElement::new(vline(x), GREEN.stroke_width(2))))?
             .label("pass window")
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], GREEN.stroke_width(2)));
+    }
+    if !reqs.is_empty() {
+        chart
+            .draw_series(
+                reqs.iter()
+                    .map(|&x| PathElement::new(vline(x), RGBColor(230, 120, 0).stroke_width(2))),
+            )?
+            .label("requirement")
+            .legend(|(x, y)| {
+                PathElement::new(
+                    vec![(x, y), (x + 16, y)],
+                    RGBColor(230, 120, 0).stroke_width(2),
+                )
+            });
     }
     chart
         .configure_series_labels()

@@ -212,3 +212,78 @@ fn bad_input_exits_2_naming_the_field() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("--vcc"));
 }
+
+#[test]
+fn spread_of_a_design_follows_its_ambient_and_requirement() {
+    let dir = std::env::temp_dir().join(format!("biasjig-spread-design-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("d.toml");
+    let f = file.to_str().unwrap();
+    let out = run(&[
+        "design",
+        "--vcc",
+        "12",
+        "--gain",
+        "15",
+        "--gain-tol",
+        "12",
+        "--rl",
+        "15k",
+        "--rs",
+        "600",
+        "--temp-min",
+        "-10",
+        "--temp-max",
+        "55",
+        "--beta",
+        "180",
+        "--beta-min",
+        "100",
+        "--beta-max",
+        "300",
+        "--swing",
+        "1",
+        "-o",
+        f,
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v = json_of(&["spread", "--design", f, "--runs", "400", "--json"]);
+    // The design's ambient range, not 25 °C alone.
+    assert_eq!(v["temperature"]["min"], -10.0);
+    assert_eq!(v["temperature"]["max"], 55.0);
+    // The design's requirement: the gain window, the swing and the budget, each and together.
+    let y = &v["yield"];
+    assert!((y["requirement"]["gain_min"].as_f64().unwrap() - 13.2).abs() < 1e-9);
+    assert!((y["requirement"]["gain_max"].as_f64().unwrap() - 16.8).abs() < 1e-9);
+    assert_eq!(y["requirement"]["swing_min"], 1.0);
+    assert_eq!(y["requirement"]["ic_max"], 2e-3);
+    for k in ["active", "gain", "swing", "ic"] {
+        let f = y["each"][k].as_f64().unwrap();
+        assert!(f >= y["fraction"].as_f64().unwrap(), "{k}");
+    }
+    // Held at every corner, so every sample meets it.
+    assert_eq!(y["fraction"], 1.0);
+    assert_eq!(y["low_corner"]["held"], true);
+    // A tighter window given on the command line replaces the design's; the text report draws
+    // the requirement's lines under the histograms.
+    let v = json_of(&[
+        "spread",
+        "--design",
+        f,
+        "--runs",
+        "400",
+        "--json",
+        "--gain-min",
+        "14.9",
+    ]);
+    assert!(v["yield"]["fraction"].as_f64().unwrap() < 1.0);
+    let out = run(&["spread", "--design", f, "--runs", "200"]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("requirement: "), "{text}");
+    assert!(text.contains("each on its own"), "{text}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

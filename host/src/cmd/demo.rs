@@ -32,12 +32,16 @@ pub struct Cmd {
     seed: u64,
 }
 
-/// The demo requirement as command-line arguments (the scenario of the product brief).
-const REQUIREMENT: [&str; 24] = [
+/// The demo requirement as command-line arguments (the scenario of the product brief), held at
+/// every corner of the spread: the gain within ±12 % (with 5 % resistors, hFE 100 to 300 and
+/// -10 to 55 °C, ±10 % is just out of reach: `design` says so and by how much).
+const REQUIREMENT: [&str; 26] = [
     "--vcc",
     "12",
     "--gain",
     "15",
+    "--gain-tol",
+    "12",
     "--rl",
     "15k",
     "--rs",

@@ -4,8 +4,10 @@
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
+use biasjig_core::design::distortion::{second_harmonic, Distortion, HD2_LIMIT};
+use biasjig_core::design::warnings::{warnings, Warning};
 use biasjig_core::design::{
-    design, Candidate, DesignError, Requirement, RequirementError, MAX_CANDIDATES,
+    design, held, Candidate, DesignError, Held, Hold, Requirement, RequirementError, MAX_CANDIDATES,
 };
 use biasjig_core::predict::{predict, Prediction};
 use biasjig_core::series::Series;
@@ -22,6 +24,39 @@ use crate::{json, text, values, Global};
 
 /// Default collector-current budget, A.
 pub const DEFAULT_IC_MAX: f64 = 2e-3;
+/// Default gain tolerance, fraction.
+pub const DEFAULT_GAIN_TOL: f64 = 0.10;
+
+/// What the report shows of one candidate beyond its nominal figures.
+struct Extra {
+    /// What it holds at every corner of the spread (exact engine).
+    held: Held,
+    /// Second harmonic at the required swing (or half its own swing when none is required).
+    distortion: Option<Distortion>,
+    /// What a designer should know.
+    warnings: Vec<Warning>,
+}
+
+/// The swing the distortion is estimated at: the required one, or half the candidate's own.
+fn distortion_swing(req: &Requirement, c: &Candidate) -> f64 {
+    if req.swing_pp > 0.0 {
+        req.swing_pp
+    } else {
+        0.5 * c.swing_pp
+    }
+}
+
+fn extra(req: &Requirement, profile: &biasjig_core::device::Profile, c: &Candidate) -> Extra {
+    Extra {
+        held: c.held.unwrap_or_else(|| held(req, profile, &c.stage)),
+        distortion: second_harmonic(&c.stage, profile, req.temp, distortion_swing(req, c)),
+        warnings: warnings(&c.stage, &c.op).into_iter().collect(),
+    }
+}
+
+fn hold(text: &str) -> Result<Hold, String> {
+    Hold::parse(text).ok_or_else(|| "allowed: worst-case, nominal".to_string())
+}
 
 fn series(text: &str) -> Result<Series, String> {
     Series::parse(text).map_err(|_| "allowed: E3, E6, E12, E24, E48, E96, E192".to_string())
@@ -63,6 +98,13 @@ pub struct Cmd {
     /// PNP stage: emitter side to the supply
     #[arg(long, help_heading = "Requirement")]
     pnp: bool,
+    /// Where the requirements must hold: at every corner of the resistor tolerance, hFE
+    /// min..max and the ambient range (worst-case), or at the nominal point only
+    #[arg(long, value_parser = hold, default_value = "worst-case", help_heading = "Requirement")]
+    hold: Hold,
+    /// Allowed deviation of |gain| from --gain, percent [default: 10]
+    #[arg(long = "gain-tol", value_parser = values::percent, allow_hyphen_values = true, help_heading = "Requirement")]
+    gain_tol: Option<f64>,
     /// Resistor series
     #[arg(long, value_parser = series, default_value = "E24", help_heading = "Parts")]
     series: Series,
@@ -115,6 +157,7 @@ fn field_error(req: &Requirement, e: RequirementError) -> CliError {
         ),
         RequirementError::Tolerance => ("--tol", format!("{}%", req.tol * 100.0)),
         RequirementError::CapacitorTolerance => ("--cap-tol", format!("{}%", req.cap_tol * 100.0)),
+        RequirementError::GainTolerance => ("--gain-tol", format!("{}%", req.gain_tol * 100.0)),
         _ => ("requirement", String::new()),
     };
     CliError::field(flag, value, e)
@@ -163,6 +206,8 @@ impl Cmd {
         r.tol = self.tol.unwrap_or(self.series.tolerance());
         r.cap_series = self.cap_series;
         r.cap_tol = self.cap_tol.unwrap_or(self.cap_series.tolerance());
+        r.hold = self.hold;
+        r.gain_tol = self.gain_tol.unwrap_or(DEFAULT_GAIN_TOL);
         r.validate().map_err(|e| field_error(&r, e))?;
         Ok(r)
     }
@@ -183,6 +228,7 @@ impl Cmd {
             temp_c: req.temp,
             ..Conditions::typical(&profile)
         };
+        let extras: Vec<Extra> = shown.iter().map(|c| extra(&req, &profile, c)).collect();
         let mut preds = Vec::new();
         for c in &shown {
             preds.push(
@@ -219,8 +265,10 @@ impl Cmd {
                 );
             }
         }
-        if let (Some(path), Some(best), Some(p)) = (&self.output, shown.first(), preds.first()) {
-            let mut doc = self.doc(&req, &profile, best, p);
+        if let (Some(path), Some(best), Some(p), Some(x)) =
+            (&self.output, shown.first(), preds.first(), extras.first())
+        {
+            let mut doc = self.doc(&req, &profile, best, p, &x.held);
             doc.test = test;
             designfile::save(path, &doc, self.force)?;
             if !g.json {
@@ -231,10 +279,24 @@ impl Cmd {
             let list: Vec<_> = shown
                 .iter()
                 .zip(&preds)
-                .map(|(c, p)| {
+                .zip(&extras)
+                .map(|((c, p), x)| {
                     let m = c.margins;
+                    let h = &x.held;
                     json!({
                         "parts": parts_json(&c.stage),
+                        "held": {
+                            "gain_min": json::num(h.gain_min), "gain_max": json::num(h.gain_max),
+                            "swing_pp_min": json::num(h.swing_pp_min), "ic_max": json::num(h.ic_max),
+                            "ic_min": json::num(h.ic_min), "active": h.active,
+                            "f_low_max": json::num(h.f_low_max), "corners": h.corners,
+                            "holds": h.binding(&req).is_none(),
+                        },
+                        "distortion": x.distortion.map(|d| json!({
+                            "hd2": json::num(d.hd2), "swing_pp": json::num(d.swing_pp),
+                            "clips": d.clips, "flagged": d.clips || d.hd2 > HD2_LIMIT,
+                        })),
+                        "warnings": x.warnings.iter().map(|w| w.to_string()).collect::<Vec<_>>(),
                         "predicted": json::prediction(p),
                         "score": json::num(c.score),
                         "margins": {
@@ -252,9 +314,13 @@ impl Cmd {
                     })
                 })
                 .collect();
-            json::print(&json!({ "candidates": list }));
+            json::print(&json!({
+                "candidates": list,
+                "hold": req.hold.name(),
+                "gain_tol": json::num(req.gain_tol),
+            }));
         } else {
-            out!("{}", self.report(&req, &shown, &preds));
+            out!("{}", self.report(&req, &shown, &preds, &extras));
         }
         Ok(EXIT_OK)
     }
@@ -274,6 +340,7 @@ impl Cmd {
         profile: &biasjig_core::device::Profile,
         c: &Candidate,
         p: &Prediction,
+        h: &Held,
     ) -> DesignDoc {
         let rs = Some(req.series);
         let cs = Some(req.cap_series);
@@ -309,12 +376,24 @@ impl Cmd {
                 supply_current: c.supply_current,
                 transistor_power: c.transistor_power,
             }),
+            held: Some(designfile::HeldFigures {
+                gain_min: h.gain_min,
+                gain_max: h.gain_max,
+                swing_pp_min: h.swing_pp_min,
+                ic_max: h.ic_max,
+            }),
             test: biasjig_core::settings::TestSettings::DEFAULT,
             digest: String::new(),
         }
     }
 
-    fn report(&self, req: &Requirement, shown: &[&Candidate], preds: &[Prediction]) -> String {
+    fn report(
+        &self,
+        req: &Requirement,
+        shown: &[&Candidate],
+        preds: &[Prediction],
+        extras: &[Extra],
+    ) -> String {
         let mut s = String::new();
         let load = req
             .rl
@@ -333,13 +412,34 @@ impl Cmd {
         );
         let _ = writeln!(
             s,
-            "Candidates (best first; {} resistors, {} capacitors)",
+            "Held: {} (gain within ±{} %{})",
+            match req.hold {
+                Hold::WorstCase =>
+                    "at every corner of the resistor tolerance, hFE min..max and the ambient range",
+                Hold::Nominal => "at the nominal point (worst case shown beside it)",
+            },
+            fmt_pct(req.gain_tol),
+            if req.hold == Hold::WorstCase {
+                ", capacitors at their low tolerance for the low corner"
+            } else {
+                ""
+            }
+        );
+        let _ = writeln!(
+            s,
+            "Candidates (best first; {} resistors, {} capacitors; nominal | worst case)",
             req.series, req.cap_series
         );
+        let x_of = |c: &Candidate| {
+            shown
+                .iter()
+                .position(|x| std::ptr::eq(*x, c))
+                .and_then(|i| extras.get(i))
+        };
         let mut row = |label: &str, f: &dyn Fn(&Candidate) -> String| {
             let _ = write!(s, "  {label:<22}");
             for c in shown {
-                let _ = write!(s, " {:>12}", f(c));
+                let _ = write!(s, " {:>18}", f(c));
             }
             s.push('\n');
         };
@@ -364,7 +464,24 @@ impl Cmd {
         row("  vs required", &|c| {
             format!("{:+.1} %", c.margins.gain_error * 100.0)
         });
+        row("  worst case |gain|", &|c| {
+            x_of(c).map_or("-".into(), |x| {
+                format!("{:.2}..{:.2}", x.held.gain_min, x.held.gain_max)
+            })
+        });
+        row("  worst vs required", &|c| {
+            x_of(c).map_or("-".into(), |x| {
+                format!(
+                    "{:+.1}..{:+.1} %",
+                    (x.held.gain_min / req.gain - 1.0) * 100.0,
+                    (x.held.gain_max / req.gain - 1.0) * 100.0
+                )
+            })
+        });
         row("swing p-p", &|c| eng(c.swing_pp, "V"));
+        row("  worst case", &|c| {
+            x_of(c).map_or("-".into(), |x| eng(x.held.swing_pp_min, "V"))
+        });
         if req.swing_pp > 0.0 {
             row("  vs required", &|c| {
                 format!("x{:.2}", c.margins.swing_ratio)
@@ -374,6 +491,16 @@ impl Cmd {
         row("  of budget", &|c| {
             format!("{:.0} %", c.margins.ic_ratio * 100.0)
         });
+        row("  worst case", &|c| {
+            x_of(c).map_or("-".into(), |x| {
+                format!("{}..{}", eng(x.held.ic_min, "A"), eng(x.held.ic_max, "A"))
+            })
+        });
+        row("  worst of budget", &|c| {
+            x_of(c).map_or("-".into(), |x| {
+                format!("{:.0} %", 100.0 * x.held.ic_max / req.ic_max)
+            })
+        });
         row("  drift over hFE", &|c| {
             format!("{:.1} %", c.margins.drift_beta * 100.0)
         });
@@ -382,16 +509,65 @@ impl Cmd {
         });
         row("supply current", &|c| eng(c.supply_current, "A"));
         row("low corner (pole sum)", &|c| eng(c.f_low, "Hz"));
+        row("  worst case", &|c| {
+            x_of(c).map_or("-".into(), |x| eng(x.held.f_low_max, "Hz"))
+        });
         row("  of required", &|c| {
             format!("{:.0} %", c.margins.f_low_ratio * 100.0)
         });
         row("transistor power", &|c| eng(c.transistor_power, "W"));
+        row("2nd harmonic", &|c| {
+            x_of(c).and_then(|x| x.distortion).map_or("-".into(), |d| {
+                format!(
+                    "{:.1} %{}",
+                    100.0 * d.hd2,
+                    if d.clips {
+                        " CLIPS"
+                    } else if d.hd2 > HD2_LIMIT {
+                        " HIGH"
+                    } else {
+                        ""
+                    }
+                )
+            })
+        });
+        row("  at swing p-p", &|c| {
+            x_of(c)
+                .and_then(|x| x.distortion)
+                .map_or("-".into(), |d| eng(d.swing_pp, "V"))
+        });
+        row("holds every corner", &|c| {
+            x_of(c).map_or("-".into(), |x| match x.held.binding(req) {
+                None => "yes".into(),
+                Some((k, _, _)) => format!("no: {}", k.name()),
+            })
+        });
         row("score (lower better)", &|c| format!("{:.2}", c.score));
         let (Some(best), Some(p)) = (shown.first(), preds.first()) else {
             return s;
         };
         let _ = writeln!(s, "\nPart list of #1");
         s.push_str(&part_list(&best.stage, p));
+        if let Some(x) = extras.first() {
+            if !x.warnings.is_empty() {
+                let _ = writeln!(s, "Notes on #1");
+                for w in &x.warnings {
+                    let _ = writeln!(s, "  - {w}");
+                }
+            }
+            if let Some(d) = x.distortion {
+                if d.clips || d.hd2 > HD2_LIMIT {
+                    let _ = writeln!(
+                        s,
+                        "  ! second harmonic {:.1} % at {} peak-to-peak{}: over the {:.0} % flag",
+                        100.0 * d.hd2,
+                        eng(d.swing_pp, "V"),
+                        if d.clips { " (clips at a peak)" } else { "" },
+                        100.0 * HD2_LIMIT
+                    );
+                }
+            }
+        }
         s.push_str(&text::prediction(&best.stage, p, req.temp));
         s
     }
@@ -419,27 +595,36 @@ fn part_list(stage: &Stage, p: &Prediction) -> String {
             bands(part.value, part.tol)
         );
     }
+    // Each capacitor's rating from the DC voltage across it (and its polarity).
+    let ratings: Vec<Warning> = warnings(stage, &p.op)
+        .into_iter()
+        .filter(|w| matches!(w, Warning::CapRating { .. }))
+        .collect();
     for (name, c) in [("CIN", stage.cin), ("COUT", stage.cout), ("CE", stage.ce)] {
         if let Some(c) = c {
+            let rating = ratings.iter().find_map(|w| match *w {
+                Warning::CapRating {
+                    cap,
+                    rating,
+                    positive,
+                    ..
+                } if cap.name() == name => Some((rating, positive)),
+                _ => None,
+            });
             let _ = writeln!(
                 s,
-                "  {:<5} {:>10}  {:<6} {:>4}%  rated >= {}",
+                "  {:<5} {:>10}  {:<6} {:>4}%  rated >= {}{}",
                 name,
                 eng(c.value, "F"),
                 capacitor_code(c.value).as_str(),
                 fmt_pct(c.tol),
-                eng(volt_rating(stage.vcc.value), "V")
+                rating.map_or("-".into(), |r| eng(r.0, "V")),
+                match rating.and_then(|r| r.1) {
+                    Some(_) => "  polarised: see the notes",
+                    None => "",
+                }
             );
         }
     }
     s
-}
-
-/// A capacitor voltage rating with headroom: the smallest common rating at least 1.5 × the
-/// supply, V (common practice).
-fn volt_rating(vcc: f64) -> f64 {
-    [6.3, 10.0, 16.0, 25.0, 35.0, 50.0, 63.0, 100.0, 250.0]
-        .into_iter()
-        .find(|&v| v >= 1.5 * vcc)
-        .unwrap_or(450.0)
 }

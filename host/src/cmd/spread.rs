@@ -134,7 +134,40 @@ impl Progress {
     }
 }
 
+/// The low corner over the corners of the spread, with the capacitors at the low end of their
+/// tolerance (exact engine at the nominal point and the corners of least and most IC), against
+/// the design's requirement.
+#[derive(Debug, Clone, Copy)]
+pub struct LowCornerHeld {
+    /// Highest pole sum found, Hz.
+    pub worst: f64,
+    /// The design's highest allowed low corner, Hz.
+    pub required: f64,
+}
+
 impl Cmd {
+    /// The yield requirement: the flags, else the design file's requirement (gain window,
+    /// swing, IC budget).
+    fn requirement_from(
+        &self,
+        doc: Option<&biasjig_core::design::Requirement>,
+    ) -> Result<Requirement, CliError> {
+        let mut r = self.requirement()?;
+        if let Some(d) = doc {
+            let given = self.gain_min.is_some()
+                || self.gain_max.is_some()
+                || self.swing_min.is_some()
+                || self.ic_max.is_some();
+            if !given {
+                r.gain_min = Some(d.gain * (1.0 - d.gain_tol));
+                r.gain_max = Some(d.gain * (1.0 + d.gain_tol));
+                r.swing_min = (d.swing_pp > 0.0).then_some(d.swing_pp);
+                r.ic_max = Some(d.ic_max);
+            }
+        }
+        Ok(r)
+    }
+
     fn requirement(&self) -> Result<Requirement, CliError> {
         for (flag, v) in [
             ("--gain-min", self.gain_min),
@@ -168,10 +201,15 @@ impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
         let r = self.stage.resolve_with(Some(&self.inputs), None)?;
-        let mut var = self
-            .temps
-            .variation(r.temp_c)?
-            .read_through(r.settings.inputs);
+        // A design file's ambient range unless the flags give one.
+        let mut temps = self.temps.clone();
+        if let Some(d) = &r.doc {
+            if temps.temp_min.is_none() && temps.temp_max.is_none() {
+                temps.temp_min = Some(d.temp_min);
+                temps.temp_max = Some(d.temp_max);
+            }
+        }
+        let mut var = temps.variation(r.temp_c)?.read_through(r.settings.inputs);
         if let Some(k) = self.normal {
             if !(k.is_finite() && (0.5..=10.0).contains(&k)) {
                 return Err(CliError::field(
@@ -189,8 +227,21 @@ impl Cmd {
                 format!("must be between 1 and {MAX_RUNS}"),
             ));
         }
-        let req = self.requirement()?;
+        let design_req = r.doc.as_ref().and_then(|d| d.requirement);
+        let req = self.requirement_from(design_req.as_ref())?;
         r.stage.validate().map_err(|e| stage_error(&r.stage, e))?;
+        let low = design_req.and_then(|d| {
+            let has_caps = r.stage.cin.is_some() || r.stage.cout.is_some() || r.stage.ce.is_some();
+            has_caps.then(|| {
+                let mut d = d;
+                d.temp_min = var.temp_min_c;
+                d.temp_max = var.temp_max_c;
+                LowCornerHeld {
+                    worst: biasjig_core::design::held(&d, &r.profile, &r.stage).f_low_max,
+                    required: d.f_low_or_default(),
+                }
+            })
+        });
         let settings = McSettings {
             runs: self.runs,
             seed: self.seed,
@@ -234,12 +285,30 @@ impl Cmd {
         .ok();
         let mut written = Vec::new();
         if let Some(dir) = &self.plot {
-            written = plot::write_all(dir, &r.stage, &r.profile, &sp, lim.as_ref(), &cloud)?;
+            written = plot::write_all(
+                dir,
+                &r.stage,
+                &r.profile,
+                &sp,
+                lim.as_ref(),
+                &cloud,
+                &req_lines(&req, &sp),
+            )?;
         }
         if g.json {
-            json::print(&to_json(&sp, &nominal, &var, &settings, &req));
+            let mut doc = to_json(&sp, &nominal, &var, &settings, &req);
+            if let Some(l) = low {
+                doc["yield"]["low_corner"] = json!({
+                    "worst": json::num(l.worst), "required": json::num(l.required),
+                    "held": l.worst <= l.required,
+                });
+            }
+            json::print(&doc);
         } else {
-            out!("{}", report(&sp, &nominal, &var, &settings, &req, r.temp_c));
+            out!(
+                "{}",
+                report(&sp, &nominal, &var, &settings, &req, r.temp_c, low)
+            );
             for p in &written {
                 outln!("wrote {}", p.display());
             }
@@ -263,6 +332,13 @@ pub fn to_json(
     let mut sens = Map::new();
     let mut hist = Map::new();
     let m = &sp.monte_carlo;
+    let frac = |k: u32| {
+        if m.runs == 0 {
+            0.0
+        } else {
+            f64::from(k) / f64::from(m.runs)
+        }
+    };
     mc.insert("runs".into(), json!(m.runs));
     mc.insert("seed".into(), json!(st.seed));
     mc.insert("failed".into(), json!(m.failed));
@@ -308,6 +384,12 @@ pub fn to_json(
         "yield": {
             "fraction": num(m.yield_fraction()),
             "passed": m.passed,
+            "each": {
+                "active": num(frac(m.passed_each.active)),
+                "gain": num(frac(m.passed_each.gain)),
+                "swing": num(frac(m.passed_each.swing)),
+                "ic": num(frac(m.passed_each.ic)),
+            },
             "requirement": {
                 "gain_min": json::opt(req.gain_min), "gain_max": json::opt(req.gain_max),
                 "swing_min": json::opt(req.swing_min), "ic_max": json::opt(req.ic_max),
@@ -328,6 +410,53 @@ fn fmt(n: Node, v: f64) -> String {
         Node::Gain => format!("{v:.3}"),
         _ => eng4(v, n.unit()),
     }
+}
+
+/// The requirement lines to draw on the histograms: (node, value). The gain's follow the sign
+/// of the stage's gain (the histogram is of the signed gain).
+pub fn req_lines(req: &Requirement, sp: &Spread) -> Vec<(Node, f64)> {
+    let sign = if sp.monte_carlo.nodes.gain.mean < 0.0 {
+        -1.0
+    } else {
+        1.0
+    };
+    let mut v = Vec::new();
+    for g in [req.gain_min, req.gain_max].into_iter().flatten() {
+        v.push((Node::Gain, sign * g));
+    }
+    if let Some(x) = req.swing_min {
+        v.push((Node::Swing, x));
+    }
+    if let Some(x) = req.ic_max {
+        // IC is signed as in the operating point (negative for PNP); the budget is a magnitude.
+        let sign = if sp.monte_carlo.nodes.ic.mean < 0.0 {
+            -1.0
+        } else {
+            1.0
+        };
+        v.push((Node::Ic, sign * x));
+    }
+    v
+}
+
+/// A line under a sparkline of `bins` bins over `lo`..`hi` with `^` where each value falls,
+/// `<` or `>` at the ends for values outside.
+pub fn marker_line(lo: f64, hi: f64, bins: usize, values: &[f64]) -> String {
+    let mut line = vec![' '; bins];
+    for &x in values {
+        let (k, c) = if x < lo {
+            (0, '<')
+        } else if x > hi {
+            (bins.saturating_sub(1), '>')
+        } else {
+            let k = ((x - lo) / (hi - lo) * bins as f64) as usize;
+            (k.min(bins.saturating_sub(1)), '^')
+        };
+        if let Some(slot) = line.get_mut(k) {
+            *slot = c;
+        }
+    }
+    line.into_iter().collect()
 }
 
 const SPARK: [char; 8] = ['▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
@@ -355,6 +484,7 @@ pub fn report(
     st: &McSettings,
     req: &Requirement,
     temp_c: f64,
+    low: Option<LowCornerHeld>,
 ) -> String {
     let mut s = String::new();
     let m = &sp.monte_carlo;
@@ -423,6 +553,39 @@ pub fn report(
         if checks.is_empty() { "" } else { " and " },
         checks.join(", ")
     );
+    let pct = |k: u32| {
+        if m.runs == 0 {
+            0.0
+        } else {
+            100.0 * f64::from(k) / f64::from(m.runs)
+        }
+    };
+    let e = &m.passed_each;
+    let mut each = vec![format!("forward active {:.2} %", pct(e.active))];
+    if req.gain_min.is_some() || req.gain_max.is_some() {
+        each.push(format!("gain {:.2} %", pct(e.gain)));
+    }
+    if req.swing_min.is_some() {
+        each.push(format!("swing {:.2} %", pct(e.swing)));
+    }
+    if req.ic_max.is_some() {
+        each.push(format!("IC {:.2} %", pct(e.ic)));
+    }
+    let _ = writeln!(s, "  each on its own: {}", each.join(", "));
+    if let Some(l) = low {
+        let _ = writeln!(
+            s,
+            "  low corner (not in the Monte Carlo): {} at worst over the corners with the \
+             capacitors at their low tolerance, required <= {}: {}",
+            eng4(l.worst, "Hz"),
+            eng4(l.required, "Hz"),
+            if l.worst <= l.required {
+                "held"
+            } else {
+                "NOT held"
+            }
+        );
+    }
     if m.failed > 0 {
         let _ = writeln!(s, "  {} samples had no operating point", m.failed);
     }
@@ -438,6 +601,26 @@ pub fn report(
             sparkline(&h.bins),
             fmt(n, h.hi)
         );
+        let lines: Vec<f64> = req_lines(req, sp)
+            .into_iter()
+            .filter(|(k, _)| *k == n)
+            .map(|(_, x)| x)
+            .collect();
+        if !lines.is_empty() {
+            let marks = marker_line(h.lo, h.hi, h.bins.len(), &lines);
+            let _ = writeln!(
+                s,
+                "  {:<6} {:>11}  {}  requirement: {}",
+                "",
+                "",
+                marks,
+                lines
+                    .iter()
+                    .map(|x| fmt(n, *x))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            );
+        }
     }
     let _ = writeln!(
         s,
