@@ -349,7 +349,11 @@ fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
         .unwrap();
     assert_eq!(out.status.code(), Some(0));
     let v: Value = serde_json::from_slice(&out.stdout).unwrap();
-    assert_eq!(v["boards"].as_u64().unwrap() as usize, complete);
+    // One design; every complete record is one test (the report's shape of issue 16).
+    assert_eq!(
+        v["designs"][0]["tests"].as_u64().unwrap() as usize,
+        complete
+    );
     assert_eq!(v["skipped_lines"], 1);
     assert!(String::from_utf8_lossy(&out.stderr).contains("torn"));
     // Checking the next board appends on a fresh line, never merged with the torn one.
@@ -370,7 +374,7 @@ fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
     assert_eq!(out.status.code(), Some(0));
     let text = String::from_utf8_lossy(&out.stdout);
     assert!(
-        text.contains("Failures by likely fault") && text.contains("Cpk"),
+        text.contains("by first diagnosis (Pareto)") && text.contains("Cpk"),
         "{text}"
     );
     let page = std::fs::read_to_string(&html).unwrap();

@@ -19,9 +19,10 @@ use biasjig_core::signaltest::{self, ToneReading};
 use biasjig_core::stage::{Readings, Stage};
 use serde_json::{json, Value};
 
-use crate::boardlog;
+use crate::board::{from_outcome, Recorder, RunInfo};
 use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 use crate::stage_args::{InputArgs, Resolved, StageArgs, TestArgs};
+use crate::store::TraceArgs;
 use crate::{json, text, values, Global};
 
 /// How many fault hypotheses a result lists at most.
@@ -59,6 +60,8 @@ pub struct Cmd {
     test: TestArgs,
     #[command(flatten)]
     inputs: InputArgs,
+    #[command(flatten)]
+    trace: TraceArgs,
 }
 
 /// Parse one `--ac F:G`: F in Hz (value grammar), G the gain magnitude (plain number).
@@ -388,40 +391,6 @@ fn add_provenance(st: &Station, doc: &mut Value) {
     }
 }
 
-/// The log record of a checked board: the outcome, the design (identifier, hash, file digest),
-/// the settings digest of what judged it and the overrides that were in force.
-pub fn log_record(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome) -> Value {
-    let mut doc = outcome_json(o, r.vcc);
-    add_provenance(st, &mut doc);
-    if let Some(obj) = doc.as_object_mut() {
-        obj.insert("time".into(), json!(boardlog::now_utc()));
-        obj.insert("serial".into(), json!(serial));
-        obj.insert(
-            "design".into(),
-            json!({"id": st.id, "hash": st.hash, "digest": st.file_digest}),
-        );
-        obj.insert(
-            "readings".into(),
-            json!({"vcc": json::num(r.vcc), "vb": json::num(r.vb), "ve": json::num(r.ve), "vc": json::num(r.vc)}),
-        );
-        if let Outcome::Judged(j) = o {
-            if !j.tones.is_empty() {
-                let ac: Vec<Value> = j
-                    .tones
-                    .iter()
-                    .map(
-                        |t| json!({"f": json::num(t.reading.f), "gain": json::num(t.reading.gain)}),
-                    )
-                    .collect();
-                if let Some(rd) = obj.get_mut("readings").and_then(|v| v.as_object_mut()) {
-                    rd.insert("ac".into(), Value::Array(ac));
-                }
-            }
-        }
-    }
-    doc
-}
-
 // (`concat!` keeps the first row's indent: a `\` line continuation would strip it and shear
 // the letters.)
 const BIG_PASS: &str = concat!(
@@ -593,9 +562,18 @@ impl Cmd {
             ve: self.ve,
             vc: self.vc,
         };
+        if self.trace.store.is_some() && self.serial.is_none() {
+            return Err(CliError::usage(
+                "--serial: missing: a test in the store names its board by serial number",
+            ));
+        }
         let o = evaluate(&st, &r, &self.ac)?;
-        if let Some(path) = &self.log {
-            boardlog::append(path, &log_record(&st, self.serial.as_deref(), &r, &o))?;
+        let mut rec = Recorder::open(self.log.as_deref(), &self.trace, false)?;
+        if !rec.is_empty() {
+            // Without --serial the log keeps the test, but it is no board record for a report.
+            let serial = self.serial.as_deref().unwrap_or("");
+            let run = RunInfo::new(&st, &self.trace, "check");
+            rec.write(&mut from_outcome(&st, &run, serial, &r, &o, None, None)?)?;
         }
         match &o {
             Outcome::Refused(why) => {

@@ -41,6 +41,9 @@ pub struct Cmd {
     /// Without it, two frequencies are proposed (when the stage has RL and capacitors)
     #[arg(long = "ac-f", value_name = "F", value_parser = values::value, help_heading = "Signal test")]
     ac_f: Vec<f64>,
+    /// Also write the windows as CSV for other testers: test, low, high, unit, design hash, settings hash
+    #[arg(long, value_name = "FILE")]
+    csv: Option<std::path::PathBuf>,
 }
 
 impl Cmd {
@@ -112,6 +115,9 @@ impl Cmd {
             }
             _ => None,
         };
+        if let Some(path) = &self.csv {
+            crate::board::write_limits_csv(path, &w, &st)?;
+        }
         if g.json {
             let mut doc = to_json(&w, t);
             if let Some(obj) = doc.as_object_mut() {
