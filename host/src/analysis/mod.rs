@@ -124,6 +124,8 @@ struct FirstReadings {
     pass: bool,
     serial: String,
     values: [Option<f64>; 6],
+    /// Gain readings: (frequency Hz, measured gain).
+    ac: Vec<(f64, f64)>,
 }
 
 /// What the rework loop matched to a repair: the diagnosis of the board's last failed test
@@ -162,6 +164,9 @@ pub struct Design {
     pub nominal: [Option<(f64, f64)>; 6],
     /// Readings that could not be referred (a record without nominal windows).
     pub unreferred: u64,
+    /// Gain window per test frequency (Hz), the first met, in frequency order. The gain window
+    /// does not move with the supply: readings are taken as measured.
+    pub ac_windows: Vec<(f64, (f64, f64))>,
     diagnosed: HashMap<String, Diagnosed>,
     first: HashMap<String, FirstReadings>,
 }
@@ -211,6 +216,43 @@ impl Design {
             .collect();
         (serials, per_node)
     }
+
+    /// The gain readings of the first test of each board that passed, per test frequency (in
+    /// frequency order), in test order.
+    pub fn first_pass_ac(&self) -> Vec<(f64, Vec<f64>)> {
+        let mut firsts: Vec<&FirstReadings> = self.first.values().filter(|f| f.pass).collect();
+        firsts.sort_by_key(|f| f.key);
+        let mut freqs: Vec<f64> = self.ac_windows.iter().map(|w| w.0).collect();
+        for f in firsts.iter().flat_map(|r| r.ac.iter().map(|a| a.0)) {
+            if !freqs.iter().any(|g| same_f(*g, f)) {
+                freqs.push(f);
+            }
+        }
+        freqs.sort_by(f64::total_cmp);
+        freqs
+            .into_iter()
+            .map(|f| {
+                let v = firsts
+                    .iter()
+                    .flat_map(|r| r.ac.iter().filter(|a| same_f(a.0, f)).map(|a| a.1))
+                    .collect();
+                (f, v)
+            })
+            .collect()
+    }
+
+    /// The gain window at a test frequency.
+    pub fn ac_window(&self, f: f64) -> Option<(f64, f64)> {
+        self.ac_windows
+            .iter()
+            .find(|w| same_f(w.0, f))
+            .map(|w| w.1)
+    }
+}
+
+/// Two test frequencies are the same within 1 ppm.
+fn same_f(a: f64, b: f64) -> bool {
+    (a - b).abs() <= 1e-6 * a.abs().max(b.abs())
 }
 
 /// The rework loop's figures.
@@ -319,6 +361,7 @@ impl Analysis {
         let earlier = d.first.get(&r.serial).is_none_or(|old| key < old.key);
         if earlier {
             let values = refer_all(d, r);
+            let ac = gains(d, r);
             d.first.insert(
                 r.serial.clone(),
                 FirstReadings {
@@ -326,6 +369,7 @@ impl Analysis {
                     pass: r.verdict == Outcome::Pass,
                     serial: r.serial.clone(),
                     values,
+                    ac,
                 },
             );
         }
@@ -405,6 +449,24 @@ fn refer_all(d: &mut Design, r: &BoardRecord) -> [Option<f64>; 6] {
         if let Some(o) = out.get_mut(k) {
             *o = Some(stats::refer(x, lo, hi, lo0, hi0));
         }
+    }
+    out
+}
+
+/// The gain readings of a record (frequency, gain); the first window met per frequency is kept.
+fn gains(d: &mut Design, r: &BoardRecord) -> Vec<(f64, f64)> {
+    let mut out = Vec::new();
+    for a in r.ac.iter().flatten() {
+        let Some(x) = a.measured else {
+            continue;
+        };
+        if let (Some(lo), Some(hi)) = (a.low, a.high) {
+            if !d.ac_windows.iter().any(|w| same_f(w.0, a.f)) {
+                d.ac_windows.push((a.f, (lo, hi)));
+                d.ac_windows.sort_by(|p, q| p.0.total_cmp(&q.0));
+            }
+        }
+        out.push((a.f, x));
     }
     out
 }

@@ -68,6 +68,66 @@ pub fn nodes(d: &Design) -> Vec<NodeFigures> {
         .collect()
 }
 
+/// What the report says of the gain readings (printed with the figures).
+pub const GAIN_NOTE: &str = "gain readings taken as measured: the gain window does not move with \
+the supply, so no referral";
+
+/// Per test frequency of a design: the gain readings of the first test of each board that
+/// passed, the gain window and Cpk.
+pub struct GainFigures {
+    /// Test frequency, Hz.
+    pub f: f64,
+    /// Gain readings in test order.
+    pub values: Vec<f64>,
+    /// Gain window.
+    pub window: Option<(f64, f64)>,
+    /// Cpk (none below the minimum n).
+    pub cpk: Option<f64>,
+    /// Mean and sample standard deviation.
+    pub mean_std: (f64, f64),
+}
+
+/// The gain figures of a design, in frequency order.
+pub fn gains(d: &Design) -> Vec<GainFigures> {
+    d.first_pass_ac()
+        .into_iter()
+        .map(|(f, values)| {
+            let window = d.ac_window(f);
+            GainFigures {
+                f,
+                window,
+                cpk: window.and_then(|(lo, hi)| stats::cpk(&values, lo, hi)),
+                mean_std: stats::mean_std(&values),
+                values,
+            }
+        })
+        .collect()
+}
+
+fn gain_json(d: &Design) -> Value {
+    let freqs: Vec<Value> = gains(d)
+        .iter()
+        .map(|g| {
+            json!({"f": num(g.f), "n": g.values.len(), "mean": num(g.mean_std.0),
+                   "std": num(g.mean_std.1),
+                   "low": g.window.map_or(Value::Null, |w| num(w.0)),
+                   "high": g.window.map_or(Value::Null, |w| num(w.1)),
+                   "cpk": g.cpk.map_or(Value::Null, num)})
+        })
+        .collect();
+    json!({"population": "first test of each board that passed", "min_n": MIN_N,
+           "referral": GAIN_NOTE, "frequencies": freqs})
+}
+
+/// A gain as text: four significant figures, NaN as "-".
+fn gain4(x: f64) -> String {
+    if x.is_finite() {
+        eng4(x, "")
+    } else {
+        "-".into()
+    }
+}
+
 fn group_json(g: &Group) -> Value {
     json!({"boards": g.boards(), "tests": g.tests, "first_pass_yield": num(g.first_pass_yield()),
            "final_yield": num(g.final_yield())})
@@ -164,6 +224,7 @@ pub fn design_json(a: &Analysis, d: &Design) -> Value {
         "control": {"chart": "individuals; sigma = mean moving range / 1.128; limits centre ± 3 sigma",
                     "rules": RULES_SOURCE, "nodes": ctl},
         "rework": rework_json(a.rework(Some(&d.hash))),
+        "ac": gain_json(d),
     })
 }
 
@@ -257,6 +318,26 @@ pub fn design_text(a: &Analysis, d: &Design) -> String {
             eng4(lo, n.unit),
             eng4(hi, n.unit),
         ));
+    }
+    let g = gains(d);
+    if !g.is_empty() {
+        s.push_str(&format!(
+            "  signal test: gain over the first test of each board that passed (Cpk from n = \
+             {MIN_N}); {GAIN_NOTE}:\n"
+        ));
+        for x in &g {
+            let cpk = x.cpk.map_or("-".to_string(), |c| format!("{c:.2}"));
+            let (lo, hi) = x.window.unwrap_or((f64::NAN, f64::NAN));
+            s.push_str(&format!(
+                "    {:<10} n {:>6}  mean {:>9}  std {:>9}  window {} .. {}  Cpk {cpk}\n",
+                eng4(x.f, "Hz"),
+                x.values.len(),
+                gain4(x.mean_std.0),
+                gain4(x.mean_std.1),
+                gain4(lo),
+                gain4(hi),
+            ));
+        }
     }
     let w = a.rework(Some(&d.hash));
     if w.matched > 0 {
