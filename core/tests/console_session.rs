@@ -384,7 +384,7 @@ fn meter_measure_readings_calibrate_inject() {
     assert!((gain - 1.0 / 1.02).abs() < 1e-12, "{gain}");
     err(&mut c, "calibrate vc high 10", "USAGE");
     let shown = ok(&mut c, "calibrate");
-    assert_eq!(shown.len(), 4);
+    assert_eq!(shown.len(), 5, "four channels and the signal path");
     // The jig now corrects the vb channel: a node of 2 V reads 2 V within the offset of raw().
     let d = ok(&mut c, "measure");
     let vb: f64 = value(&d, "vb").parse().unwrap();

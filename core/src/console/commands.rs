@@ -107,8 +107,8 @@ pub const COMMANDS: [(&str, &str, &str); 32] = [
     ("readings", "readings", "show the last readings"),
     (
         "calibrate",
-        "calibrate [CH low V | CH high V | reset]",
-        "two-point jig calibration",
+        "calibrate [CH low V | CH high V | gain F KNOWN | reset]",
+        "jig calibration: two points per channel, the signal path against a known gain",
     ),
     (
         "inject",
@@ -793,8 +793,20 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                         ));
                     }
                 }
+                if r.machine() {
+                    r.data(format_args!(
+                        "signal load_over_source={}",
+                        Num(self.calibration.signal)
+                    ));
+                } else {
+                    r.data(format_args!(
+                        "signal path: load input reads {} of the source input",
+                        Fixed(self.calibration.signal, 6)
+                    ));
+                }
                 Ok(None)
             }
+            CalibrateStep::Gain(f, known) => self.calibrate_gain(f, known, r),
             CalibrateStep::Low(c, volts) => {
                 self.editable()?;
                 let raw = self.jig.raw(c, CAL_SAMPLES).map_err(jig_fail)?;
@@ -862,6 +874,39 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Ok(None)
             }
         }
+    }
+
+    /// `calibrate gain F KNOWN`: read the gain of the reference fitted in the board's place and
+    /// keep the signal path's correction that makes it read `known`.
+    #[inline(never)]
+    fn calibrate_gain<W: Write>(&mut self, f: f64, known: f64, r: &mut Reply<'_, W>) -> Outcome {
+        self.editable()?;
+        let measured = self.jig.gain(f).map_err(jig_fail)?;
+        let k = self.calibration.signal_from(measured, known).ok_or_else(|| {
+            Fail::new(
+                Code::Value,
+                format_args!(
+                    "gain: read {} through a reference of {}: the correction must be 0.5 to 2 \
+                     (is the reference fitted?)",
+                    Fixed(measured, 4),
+                    Fixed(known, 4)
+                ),
+            )
+        })?;
+        let mut cal = self.calibration;
+        cal.signal = k;
+        self.jig.set_calibration(&cal).map_err(jig_fail)?;
+        self.calibration = cal;
+        self.save_calibration()?;
+        if r.machine() {
+            r.data(format_args!("signal load_over_source={}", Num(k)));
+        } else {
+            r.data(format_args!(
+                "signal path: load input reads {} of the source input",
+                Fixed(k, 6)
+            ));
+        }
+        Ok(None)
     }
 
     #[inline(never)]

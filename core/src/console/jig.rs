@@ -119,18 +119,39 @@ impl ChannelCal {
     }
 }
 
-/// The calibration of every channel, in [`Channel::ALL`] order.
+/// The signal path's correction allowed (`calibrate gain`): the load input may read from half to
+/// twice what the source input reads for the same signal.
+pub const SIGNAL_CAL_RANGE: (f64, f64) = (0.5, 2.0);
+
+/// The calibration of every channel, in [`Channel::ALL`] order, and of the signal path.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Calibration {
     /// Per channel.
     pub channels: [ChannelCal; 4],
+    /// Signal path: what the load input reads per unit the source input reads for the same
+    /// signal (1: matched inputs). [`Jig::gain`] divides the ratio it reads by this.
+    pub signal: f64,
 }
 
 impl Default for Calibration {
     fn default() -> Self {
         Self {
             channels: [ChannelCal::IDENTITY; 4],
+            signal: 1.0,
         }
+    }
+}
+
+impl Calibration {
+    /// The signal correction that makes a gain read as `measured` (with this calibration)
+    /// through a reference of known gain `known` read as `known`: `None` when either is not a
+    /// positive finite number or the correction falls outside [`SIGNAL_CAL_RANGE`].
+    pub fn signal_from(&self, measured: f64, known: f64) -> Option<f64> {
+        if !(measured.is_finite() && measured > 0.0 && known.is_finite() && known > 0.0) {
+            return None;
+        }
+        let k = measured * self.signal / known;
+        (k >= SIGNAL_CAL_RANGE.0 && k <= SIGNAL_CAL_RANGE.1).then_some(k)
     }
 }
 
@@ -184,7 +205,8 @@ pub trait Jig {
     }
 
     /// The signal test: drive a small tone of `f_hz` through RS into the board's input, sample
-    /// the source and the load, and give |v(load)/v(source EMF)| at `f_hz` (V/V, calibrated).
+    /// the source and the load, and give |v(load)/v(source EMF)| at `f_hz` (V/V, calibrated:
+    /// the ratio the inputs read divided by [`Calibration::signal`]).
     /// The DC nodes are read first; the tone follows.
     fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
         let _ = f_hz;

@@ -186,7 +186,10 @@ pub enum CalibrateStep {
     Low(Channel, f64),
     /// Record the high point and, with the low point, compute and keep the calibration.
     High(Channel, f64),
-    /// Forget the calibration of every channel.
+    /// Correct the signal path: the jig reads the gain at `f` Hz through a reference of known
+    /// gain `known` (V/V) fitted in the board's place, and keeps the correction.
+    Gain(f64, f64),
+    /// Forget the calibration of every channel and of the signal path.
     Reset,
 }
 
@@ -831,11 +834,22 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
         return none(Command::Readings);
     }
     if is("calibrate") {
-        let usage = "calibrate | calibrate CH low V | calibrate CH high V | calibrate reset \
-(CH vcc vb ve vc)";
+        let usage = "calibrate | calibrate CH low V | calibrate CH high V | calibrate gain F \
+KNOWN | calibrate reset (CH vcc vb ve vc; F in Hz, KNOWN the reference's gain)";
         return match args {
             [] => Ok(Command::Calibrate(CalibrateStep::Show)),
             [r] if r.eq_ignore_ascii_case("reset") => Ok(Command::Calibrate(CalibrateStep::Reset)),
+            [g, f, known] if g.eq_ignore_ascii_case("gain") => {
+                let hz = value_in("frequency", f, Unit::Hertz)?;
+                let k = value_in("known", known, Unit::Number)?;
+                if !(0.1..=100e3).contains(&hz) {
+                    return Err(err(Code::Range, "frequency", f, "0.1 Hz to 100 kHz"));
+                }
+                if !(1e-3..=1e5).contains(&k) {
+                    return Err(err(Code::Range, "known", known, "a gain of 0.001 to 100000"));
+                }
+                Ok(Command::Calibrate(CalibrateStep::Gain(hz, k)))
+            }
             [ch, point, v] => {
                 let c =
                     Channel::parse(ch).ok_or(err(Code::Value, "channel", ch, "vcc vb ve vc"))?;

@@ -23,6 +23,9 @@ use crate::stage::{Part, Polarity, Stage};
 /// Record format version (4: measuring inputs in the settings, the name of the chosen design;
 /// design records).
 const VERSION: u8 = 4;
+/// Calibration record version (5: the signal path's correction after the channels; version 4
+/// records, channels only, are still read, with the signal path uncorrected).
+const CAL_VERSION: u8 = 5;
 /// FNV-1a 64 offset basis.
 const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
 /// FNV-1a 64 prime.
@@ -234,6 +237,15 @@ pub struct Settings {
 }
 
 fn seal(slot: Slot, rec: &mut [u8; RECORD_LEN], write: impl FnOnce(&mut Writer<'_>)) -> bool {
+    seal_version(slot, VERSION, rec, write)
+}
+
+fn seal_version(
+    slot: Slot,
+    version: u8,
+    rec: &mut [u8; RECORD_LEN],
+    write: impl FnOnce(&mut Writer<'_>),
+) -> bool {
     *rec = [0; RECORD_LEN];
     let (body, sum) = rec.split_at_mut(RECORD_LEN - 8);
     let mut w = Writer {
@@ -241,7 +253,7 @@ fn seal(slot: Slot, rec: &mut [u8; RECORD_LEN], write: impl FnOnce(&mut Writer<'
         pos: 0,
         overflow: false,
     };
-    w.put(&[b'B', b'J', slot_letter(slot), VERSION]);
+    w.put(&[b'B', b'J', slot_letter(slot), version]);
     write(&mut w);
     let ok = !w.overflow;
     let h = fnv1a(FNV_OFFSET, body);
@@ -250,6 +262,14 @@ fn seal(slot: Slot, rec: &mut [u8; RECORD_LEN], write: impl FnOnce(&mut Writer<'
 }
 
 fn open(slot: Slot, rec: &[u8; RECORD_LEN]) -> Option<Reader<'_>> {
+    match open_version(slot, rec)? {
+        (VERSION, r) => Some(r),
+        _ => None,
+    }
+}
+
+/// A sound record of `slot` and its version.
+fn open_version(slot: Slot, rec: &[u8; RECORD_LEN]) -> Option<(u8, Reader<'_>)> {
     let (body, sum) = rec.split_at(RECORD_LEN - 8);
     let mut s = [0u8; 8];
     s.copy_from_slice(sum);
@@ -257,7 +277,8 @@ fn open(slot: Slot, rec: &[u8; RECORD_LEN]) -> Option<Reader<'_>> {
         return None;
     }
     let mut r = Reader { buf: body, pos: 0 };
-    (r.take::<4>()? == [b'B', b'J', slot_letter(slot), VERSION]).then_some(r)
+    let [b, j, letter, version] = r.take::<4>()?;
+    ([b, j, letter] == [b'B', b'J', slot_letter(slot)]).then_some((version, r))
 }
 
 fn slot_letter(slot: Slot) -> u8 {
@@ -412,19 +433,26 @@ impl Settings {
     }
 }
 
-/// Encode a calibration into a store record.
+/// Encode a calibration into a store record (version [`CAL_VERSION`]: the four channels' gain
+/// and offset, then the signal path's correction).
 pub fn encode_calibration(cal: &Calibration, rec: &mut [u8; RECORD_LEN]) {
-    let _fits = seal(Slot::Calibration, rec, |w| {
+    let _fits = seal_version(Slot::Calibration, CAL_VERSION, rec, |w| {
         for c in cal.channels {
             w.f64(c.gain);
             w.f64(c.offset);
         }
+        w.f64(cal.signal);
     });
 }
 
-/// Decode a calibration record; `None` when it is damaged or of another version.
+/// Decode a calibration record; `None` when it is damaged, of an unknown version or holds a
+/// signal correction outside [`super::jig::SIGNAL_CAL_RANGE`]. A version 4 record (channels
+/// only) is read with the signal path uncorrected.
 pub fn decode_calibration(rec: &[u8; RECORD_LEN]) -> Option<Calibration> {
-    let mut r = open(Slot::Calibration, rec)?;
+    let (version, mut r) = open_version(Slot::Calibration, rec)?;
+    if version != VERSION && version != CAL_VERSION {
+        return None;
+    }
     let mut cal = Calibration::default();
     for slot in cal.channels.iter_mut() {
         *slot = ChannelCal {
@@ -432,5 +460,25 @@ pub fn decode_calibration(rec: &[u8; RECORD_LEN]) -> Option<Calibration> {
             offset: r.f64()?,
         };
     }
+    if version == CAL_VERSION {
+        let k = r.f64()?;
+        let (lo, hi) = super::jig::SIGNAL_CAL_RANGE;
+        if !(k >= lo && k <= hi) {
+            return None;
+        }
+        cal.signal = k;
+    }
     Some(cal)
+}
+
+/// Encode a calibration as a version 4 record (channels only), as units before the signal
+/// path's correction kept it: for the tests of reading old records.
+#[doc(hidden)]
+pub fn encode_calibration_v4(cal: &Calibration, rec: &mut [u8; RECORD_LEN]) {
+    let _fits = seal_version(Slot::Calibration, VERSION, rec, |w| {
+        for c in cal.channels {
+            w.f64(c.gain);
+            w.f64(c.offset);
+        }
+    });
 }

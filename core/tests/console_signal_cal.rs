@@ -1,0 +1,197 @@
+//! `calibrate gain F KNOWN`: the signal path's correction taken through a reference of known
+//! gain, applied by the jig's gain measurement, kept through a restart, and old calibration
+//! records (version 4, channels only) still read.
+
+use biasjig_core::console::jig::{MemoryStore, Slot, Store, RECORD_LEN};
+use biasjig_core::console::record::{decode_calibration, encode_calibration_v4};
+use biasjig_core::console::{
+    Calibration, Channel, ChannelCal, Clock, Console, Identity, Jig, JigError,
+};
+use biasjig_core::stage::Readings;
+
+#[derive(Clone, Default)]
+struct NoClock;
+
+impl Clock for NoClock {
+    fn now_ms(&mut self) -> u64 {
+        0
+    }
+}
+
+/// A jig whose load input reads `load_over_source` of what its source input reads; the true
+/// gain of what is fitted is `true_gain`. Its gain measurement divides by the calibration's
+/// signal correction, as [`Jig::gain`] says.
+struct ToneJig {
+    true_gain: f64,
+    load_over_source: f64,
+    cal: Calibration,
+    asked: Vec<f64>,
+}
+
+impl Jig for ToneJig {
+    fn measure(&mut self, _samples: u16) -> Result<Readings, JigError> {
+        Err(JigError::NotSupported)
+    }
+    fn set_calibration(&mut self, cal: &Calibration) -> Result<(), JigError> {
+        self.cal = *cal;
+        Ok(())
+    }
+    fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
+        self.asked.push(f_hz);
+        Ok(self.true_gain * self.load_over_source / self.cal.signal)
+    }
+}
+
+struct Out(Vec<u8>);
+
+impl embedded_io::ErrorType for Out {
+    type Error = core::convert::Infallible;
+}
+
+impl embedded_io::Write for Out {
+    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
+        self.0.extend_from_slice(buf);
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> Result<(), Self::Error> {
+        Ok(())
+    }
+}
+
+type C = Console<ToneJig, MemoryStore, NoClock>;
+
+fn jig(load_over_source: f64) -> ToneJig {
+    ToneJig {
+        true_gain: 1.0,
+        load_over_source,
+        cal: Calibration::default(),
+        asked: Vec::new(),
+    }
+}
+
+fn lines(c: &mut C, line: &str) -> Vec<String> {
+    let mut out = Out(Vec::new());
+    c.feed(format!("{line}\n").as_bytes(), &mut out)
+        .expect("memory never fails");
+    String::from_utf8(out.0)
+        .unwrap()
+        .split("\r\n")
+        .filter(|l| !l.is_empty())
+        .map(str::to_owned)
+        .collect()
+}
+
+fn status(c: &mut C, line: &str) -> String {
+    lines(c, line).pop().unwrap_or_default()
+}
+
+fn correction(data: &[String]) -> f64 {
+    data.iter()
+        .find_map(|l| l.strip_prefix("signal load_over_source="))
+        .unwrap_or_else(|| panic!("no correction in {data:?}"))
+        .parse()
+        .unwrap()
+}
+
+#[test]
+fn a_through_connection_corrects_the_gain_and_the_correction_is_kept() {
+    // Load input reading 3 % high: a through connection (gain 1) reads 1.03 before.
+    let mut c = Console::new(
+        Identity::new("console", "0"),
+        jig(1.03),
+        MemoryStore::default(),
+        NoClock,
+    );
+    assert_eq!(status(&mut c, "mode machine"), "ok");
+    let d = lines(&mut c, "calibrate gain 1k 1");
+    assert_eq!(d.last().map(String::as_str), Some("ok"), "{d:?}");
+    assert!((correction(&d) - 1.03).abs() < 1e-12, "{d:?}");
+    assert_eq!(c.jig.asked, [1000.0]);
+    // The jig's gain measurement now reads the reference true, and a board of gain 30 as 30.
+    c.jig.true_gain = 30.0;
+    let g = c.jig.gain(1000.0).unwrap();
+    assert!((g - 30.0).abs() < 1e-9, "{g}");
+    // Shown with the channels.
+    let shown = lines(&mut c, "calibrate");
+    assert!((correction(&shown) - 1.03).abs() < 1e-12);
+    // A second calibration starts from the corrected reading: a precision 1:10 divider read
+    // through the corrected path keeps the same correction.
+    c.jig.true_gain = 0.1;
+    let d = lines(&mut c, "calibrate gain 100 0.1");
+    assert!((correction(&d) - 1.03).abs() < 1e-12, "{d:?}");
+
+    // Kept through a power cut: a new console on the same store gives the jig the correction.
+    let store = c.store.clone();
+    let again = Console::new(Identity::new("console", "0"), jig(1.03), store, NoClock);
+    assert!((again.jig.cal.signal - 1.03).abs() < 1e-12);
+
+    // Reset forgets it.
+    assert_eq!(status(&mut c, "calibrate reset"), "ok");
+    assert_eq!(c.jig.cal.signal, 1.0);
+}
+
+#[test]
+fn bad_calibrations_are_refused_and_change_nothing() {
+    let mut c = Console::new(
+        Identity::new("console", "0"),
+        jig(1.0),
+        MemoryStore::default(),
+        NoClock,
+    );
+    // No reference fitted: the jig reads almost nothing, the correction would be far out.
+    c.jig.true_gain = 0.01;
+    let s = status(&mut c, "calibrate gain 1k 1");
+    assert!(s.starts_with("err VALUE "), "{s}");
+    assert!(s.contains("0.5 to 2"), "{s}");
+    assert_eq!(c.jig.cal.signal, 1.0);
+    for (line, code) in [
+        ("calibrate gain 0 1", "RANGE"),
+        ("calibrate gain 1k 0", "RANGE"),
+        ("calibrate gain 1kV 1", "VALUE"),
+        ("calibrate gain x 1", "VALUE"),
+        ("calibrate gain 1k", "USAGE"),
+    ] {
+        let s = status(&mut c, line);
+        assert!(s.starts_with(&format!("err {code} ")), "{line}: {s}");
+    }
+    assert_eq!(c.jig.cal.signal, 1.0);
+}
+
+#[test]
+fn a_version_4_calibration_record_is_read_with_the_signal_path_uncorrected() {
+    let mut cal = Calibration::default();
+    cal.set(
+        Channel::Vb,
+        ChannelCal::from_points(1.0, 1.02, 10.0, 10.2).unwrap(),
+    );
+    let mut rec = [0u8; RECORD_LEN];
+    encode_calibration_v4(&cal, &mut rec);
+    let got = decode_calibration(&rec).unwrap();
+    assert_eq!(got.get(Channel::Vb), cal.get(Channel::Vb));
+    assert_eq!(got.signal, 1.0);
+    // A console starting from that record uses the channels.
+    let mut store = MemoryStore::default();
+    store.save(Slot::Calibration, &rec).unwrap();
+    let c = Console::new(Identity::new("console", "0"), jig(1.0), store, NoClock);
+    assert_eq!(c.jig.cal.get(Channel::Vb), cal.get(Channel::Vb));
+    // A sound record (checksum right) of an unknown version is refused whole.
+    let mut bad = rec;
+    bad[3] = 9;
+    let h = fnv1a(&bad[..RECORD_LEN - 8]);
+    bad[RECORD_LEN - 8..].copy_from_slice(&h.to_le_bytes());
+    assert!(decode_calibration(&bad).is_none());
+    bad[3] = 4;
+    let h = fnv1a(&bad[..RECORD_LEN - 8]);
+    bad[RECORD_LEN - 8..].copy_from_slice(&h.to_le_bytes());
+    assert!(decode_calibration(&bad).is_some(), "the re-sealing is right");
+}
+
+/// FNV-1a 64 (the record's checksum, as core/src/console/record.rs documents it).
+fn fnv1a(bytes: &[u8]) -> u64 {
+    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+    for b in bytes {
+        h ^= u64::from(*b);
+        h = h.wrapping_mul(0x0000_0100_0000_01b3);
+    }
+    h
+}
