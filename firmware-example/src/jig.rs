@@ -150,7 +150,7 @@ impl<S: SampleSource> AdcJig<S> {
         Ok(r)
     }
 
-    /// Take the core's calibration into the channel configurations.
+    /// Take the core's calibration into the channel configurations and the signal path.
     pub fn calibrate(&mut self, cal: &CoreCalibration) {
         for (c, cfg) in Channel::ALL.into_iter().zip(self.channels.iter_mut()) {
             let k = cal.get(c);
@@ -159,6 +159,7 @@ impl<S: SampleSource> AdcJig<S> {
                 offset: k.offset as f32,
             };
         }
+        self.signal_cal.load_over_source = cal.signal as f32;
     }
 }
 
@@ -424,6 +425,23 @@ mod tests {
         // Each read rounds to the converter's codes (8.9 mV apart; the ±1 code dither averages
         // out): two reads may differ by one code.
         assert!((jig.raw(Channel::Vb, 64).unwrap() - raw).abs() < 0.012);
+    }
+
+    #[test]
+    fn the_signal_correction_reaches_the_gain_measurement() {
+        let mut jig = EmulatedJig::new(1);
+        let raw = jig.gain(1000.0).unwrap();
+        let cal = CoreCalibration {
+            signal: 1.25,
+            ..CoreCalibration::default()
+        };
+        jig.set_calibration(&cal).unwrap();
+        let got = jig.gain(1000.0).unwrap();
+        // Two separate tone measurements (noise drawn anew): within 0.5 % of each other.
+        assert!((got * 1.25 / raw - 1.0).abs() < 5e-3, "{got} {raw}");
+        jig.set_calibration(&CoreCalibration::default()).unwrap();
+        let back = jig.gain(1000.0).unwrap();
+        assert!((back / raw - 1.0).abs() < 5e-3, "{back} {raw}");
     }
 
     #[test]
