@@ -437,11 +437,13 @@ mod tests {
         };
         jig.set_calibration(&cal).unwrap();
         let got = jig.gain(1000.0).unwrap();
-        // Two separate tone measurements (noise drawn anew): within 0.5 % of each other.
-        assert!((got * 1.25 / raw - 1.0).abs() < 5e-3, "{got} {raw}");
+        // Two separate tone measurements (noise drawn anew) differ by up to about 0.6 %; the
+        // correction moves the reading by 20 %.
+        assert!((got * 1.25 / raw - 1.0).abs() < 1.5e-2, "{got} {raw}");
         jig.set_calibration(&CoreCalibration::default()).unwrap();
+        assert_eq!(jig.adc.signal_cal.load_over_source, 1.0);
         let back = jig.gain(1000.0).unwrap();
-        assert!((back / raw - 1.0).abs() < 5e-3, "{back} {raw}");
+        assert!((back / raw - 1.0).abs() < 1.5e-2, "{back} {raw}");
     }
 
     #[test]
