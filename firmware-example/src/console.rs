@@ -993,6 +993,31 @@ mod tests {
     }
 
     #[test]
+    fn calibrate_gain_corrects_the_emulated_signal_path() {
+        use biasjig_core::console::Jig as _;
+        let mut a = app();
+        talk(&mut a, b"mode machine\n");
+        let g0 = a.console.jig.gain(1000.0).unwrap();
+        // Declare a reference 10 % above what the path reads: the correction is 1/1.1.
+        let line = format!("calibrate gain 1k {}\n", g0 * 1.1);
+        let t = talk(&mut a, line.as_bytes());
+        assert!(t.ends_with("ok\r\n"), "{t}");
+        let k: f64 = value(t.lines().next().unwrap().trim_end(), "load_over_source")
+            .unwrap()
+            .parse()
+            .unwrap();
+        // The tone measurements of the emulated jig differ by up to about 0.6 % between reads
+        // (the console takes its own).
+        assert!((k * 1.1 - 1.0).abs() < 1.5e-2, "{t}");
+        let g1 = a.console.jig.gain(1000.0).unwrap();
+        assert!((g1 / (g0 * 1.1) - 1.0).abs() < 1.5e-2, "{g0} {g1}");
+        assert!(talk(&mut a, b"calibrate\n").contains("signal load_over_source="));
+        assert_eq!(talk(&mut a, b"calibrate reset\n"), "ok\r\n");
+        let g2 = a.console.jig.gain(1000.0).unwrap();
+        assert!((g2 / g0 - 1.0).abs() < 1.5e-2, "{g0} {g2}");
+    }
+
+    #[test]
     fn scan_reads_a_check_reply() {
         let mut s = Scan::new();
         s.take(b"verdict=fail\r\nnode=vb measured=0.01 low=1.9 high=2.1 ok=0\r\n");
