@@ -183,7 +183,10 @@ fn a_version_4_calibration_record_is_read_with_the_signal_path_uncorrected() {
     bad[3] = 4;
     let h = fnv1a(&bad[..RECORD_LEN - 8]);
     bad[RECORD_LEN - 8..].copy_from_slice(&h.to_le_bytes());
-    assert!(decode_calibration(&bad).is_some(), "the re-sealing is right");
+    assert!(
+        decode_calibration(&bad).is_some(),
+        "the re-sealing is right"
+    );
 }
 
 /// FNV-1a 64 (the record's checksum, as core/src/console/record.rs documents it).

@@ -175,7 +175,13 @@ fn report_shows_gain_cpk_per_frequency_and_capacitor_faults() {
     let rep: Value = serde_json::from_slice(&out.stdout).unwrap();
     let d = &rep["designs"][0];
     // Every existing key is still there.
-    for k in ["capability", "control", "pareto", "rework", "failing_serials"] {
+    for k in [
+        "capability",
+        "control",
+        "pareto",
+        "rework",
+        "failing_serials",
+    ] {
         assert!(d.get(k).is_some(), "{k}");
     }
     let ac = &d["ac"];
@@ -220,7 +226,9 @@ fn report_shows_gain_cpk_per_frequency_and_capacitor_faults() {
     assert!(txt.contains("signal test: gain"), "{txt}");
     assert!(txt.contains("no referral"), "{txt}");
     let (_, _, cpk) = figures(&chosen[0], windows[0].0, windows[0].1);
-    let line = txt.lines().find(|l| l.contains("1.000 kHz") || l.contains("1 kHz"));
+    let line = txt
+        .lines()
+        .find(|l| l.contains("1.000 kHz") || l.contains("1 kHz"));
     let line = line.unwrap_or_else(|| panic!("no 1 kHz line: {txt}"));
     assert!(line.contains(&format!("n {GOOD:>6}")), "{line}");
     assert!(line.contains(&format!("Cpk {cpk:.2}")), "{line}");

@@ -882,17 +882,20 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     fn calibrate_gain<W: Write>(&mut self, f: f64, known: f64, r: &mut Reply<'_, W>) -> Outcome {
         self.editable()?;
         let measured = self.jig.gain(f).map_err(jig_fail)?;
-        let k = self.calibration.signal_from(measured, known).ok_or_else(|| {
-            Fail::new(
-                Code::Value,
-                format_args!(
-                    "gain: read {} through a reference of {}: the correction must be 0.5 to 2 \
+        let k = self
+            .calibration
+            .signal_from(measured, known)
+            .ok_or_else(|| {
+                Fail::new(
+                    Code::Value,
+                    format_args!(
+                        "gain: read {} through a reference of {}: the correction must be 0.5 to 2 \
                      (is the reference fitted?)",
-                    Fixed(measured, 4),
-                    Fixed(known, 4)
-                ),
-            )
-        })?;
+                        Fixed(measured, 4),
+                        Fixed(known, 4)
+                    ),
+                )
+            })?;
         let mut cal = self.calibration;
         cal.signal = k;
         self.jig.set_calibration(&cal).map_err(jig_fail)?;

@@ -846,7 +846,12 @@ KNOWN | calibrate reset (CH vcc vb ve vc; F in Hz, KNOWN the reference's gain)";
                     return Err(err(Code::Range, "frequency", f, "0.1 Hz to 100 kHz"));
                 }
                 if !(1e-3..=1e5).contains(&k) {
-                    return Err(err(Code::Range, "known", known, "a gain of 0.001 to 100000"));
+                    return Err(err(
+                        Code::Range,
+                        "known",
+                        known,
+                        "a gain of 0.001 to 100000",
+                    ));
                 }
                 Ok(Command::Calibrate(CalibrateStep::Gain(hz, k)))
             }

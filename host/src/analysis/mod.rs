@@ -243,10 +243,7 @@ impl Design {
 
     /// The gain window at a test frequency.
     pub fn ac_window(&self, f: f64) -> Option<(f64, f64)> {
-        self.ac_windows
-            .iter()
-            .find(|w| same_f(w.0, f))
-            .map(|w| w.1)
+        self.ac_windows.iter().find(|w| same_f(w.0, f)).map(|w| w.1)
     }
 }
 
