@@ -119,13 +119,9 @@ fn gain_json(d: &Design) -> Value {
            "referral": GAIN_NOTE, "frequencies": freqs})
 }
 
-/// A gain as text: four significant figures, NaN as "-".
+/// A gain as text: four significant figures (as the node figures: "n/a" when undefined).
 fn gain4(x: f64) -> String {
-    if x.is_finite() {
-        eng4(x, "")
-    } else {
-        "-".into()
-    }
+    eng4(x, "")
 }
 
 fn group_json(g: &Group) -> Value {
