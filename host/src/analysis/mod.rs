@@ -164,8 +164,8 @@ pub struct Design {
     pub nominal: [Option<(f64, f64)>; 6],
     /// Readings that could not be referred (a record without nominal windows).
     pub unreferred: u64,
-    /// Gain window per test frequency (Hz), the first met, in frequency order. The gain window
-    /// does not move with the supply: readings are taken as measured.
+    /// Gain window per test frequency (Hz), the first met, in frequency order. Gain readings are
+    /// taken as measured (no referral: records carry no gain window at the nominal supply).
     pub ac_windows: Vec<(f64, (f64, f64))>,
     diagnosed: HashMap<String, Diagnosed>,
     first: HashMap<String, FirstReadings>,

@@ -69,8 +69,10 @@ pub fn nodes(d: &Design) -> Vec<NodeFigures> {
 }
 
 /// What the report says of the gain readings (printed with the figures).
-pub const GAIN_NOTE: &str = "gain readings taken as measured: the gain window does not move with \
-the supply, so no referral";
+pub const GAIN_NOTE: &str =
+    "gain readings taken as measured, no referral, against the gain window \
+of the first test met at that frequency (the gain window moves only a little with the measured \
+supply, and records carry no gain window at the nominal supply)";
 
 /// Per test frequency of a design: the gain readings of the first test of each board that
 /// passed, the gain window and Cpk.
