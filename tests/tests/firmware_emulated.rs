@@ -1116,11 +1116,18 @@ fn kept_designs_survive_a_reset_and_the_button_chooses() {
     s.ok("calibrate vb low 0");
     s.ok("inject none");
     s.ok(&format!("calibrate vb high {}", vb * 1.001));
+    // The signal path against a reference declared 5 % above what the jig reads at the first
+    // test frequency: the correction (about 1/1.05) is kept with the channels.
+    let ac = ac_lines(&s.ok("test"));
+    let (f, g, ..) = ac.first().expect("the test reads gains");
+    s.ok(&format!("calibrate gain {f} {}", num(g) * 1.05));
     let cal = s.ok("calibrate");
     assert!(
         !cal[1].contains("gain=1 "),
         "a calibration other than none: {cal:?}"
     );
+    let k = num(pairs(&cal[4])["load_over_source"]);
+    assert!((k * 1.05 - 1.0).abs() < 0.02, "signal correction: {cal:?}");
     s.close();
 
     monitor(&sock, "system_reset");
