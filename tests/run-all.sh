@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # Every test of biasjig, from a fresh machine: installs what the tests need (Rust targets for the
-# microcontroller builds, QEMU's ARM emulator for the firmware test), then runs format and lint
+# microcontroller builds, QEMU's ARM emulator for the firmware test, PostgreSQL for the store
+# tests), then runs format and lint
 # checks, the no_std builds of the core, the whole workspace's tests, and the firmware's own tests.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -10,6 +11,10 @@ step() { printf '\n== %s\n' "$*"; }
 step "set-up: rustup targets and qemu-system-arm (installed when missing)"
 bash scripts/firmware-tools.sh
 rustup component add clippy rustfmt >/dev/null 2>&1 || true
+
+step "set-up: PostgreSQL for the results-store tests (Debian's package, installed when missing)"
+# The store tests start their own cluster in a temporary folder, run as its own user, and stop it.
+bash scripts/postgres-test.sh install
 
 step "format"
 cargo fmt --all -- --check

@@ -47,6 +47,47 @@ pub fn nominal_region(
     solve(stage, profile, Conditions::typical(profile).at(temp)).map(|op| op.region)
 }
 
+/// The operating region of the stage at its nominal point while it is read through the
+/// measuring inputs (`together`: one solve with every input attached; `one`: the first reading
+/// of base, collector, emitter taken outside the forward-active region, else active). Inputs of
+/// low resistance on a high-impedance divider can saturate a stage (a PNP's base pulled towards
+/// ground) or cut it off although [`nominal_region`], with nothing attached, is active: the
+/// windows then describe a stage the inputs have moved off its bias, and few faults show.
+pub fn nominal_region_through(
+    stage: &Stage,
+    profile: &Profile,
+    settings: &TestSettings,
+) -> Result<Region, SolveError> {
+    let temp = 0.5 * (settings.temp_min_c + settings.temp_max_c);
+    region_through(
+        stage,
+        profile,
+        Conditions::typical(profile).at(temp),
+        &settings.inputs,
+    )
+}
+
+/// The operating region under `cond` while the stage is read through `inputs` (see
+/// [`nominal_region_through`]).
+pub fn region_through(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    inputs: &crate::settings::Inputs,
+) -> Result<Region, SolveError> {
+    use crate::settings::ReadNode;
+    if let Some(loads) = inputs.common_loads() {
+        return solve(stage, profile, cond.loaded(loads)).map(|op| op.region);
+    }
+    for n in [ReadNode::Base, ReadNode::Collector, ReadNode::Emitter] {
+        let r = solve(stage, profile, cond.loaded(inputs.loads_reading(n)))?.region;
+        if r != Region::Active {
+            return Ok(r);
+        }
+    }
+    Ok(Region::Active)
+}
+
 /// What the measuring inputs read at the stage's nodes under `cond` (its loads are replaced by
 /// the inputs'): one solve with every input attached (`together`), or one per node with only
 /// its own (`one`). The supply reading is the stage's supply.

@@ -3,7 +3,8 @@
 //! Input forms accepted by [`parse_signed`], [`parse_value`] (values in SI base units: Ω, F, V, A, Hz, W):
 //!
 //! - plain numbers `4700`, `0.5`, `.5`, `5.` and exponent notation `4.2e-05`, `1E3`;
-//! - an SI prefix after the number, `p n u µ μ m k K M G` (`m` is milli, `M` is mega), optionally
+//! - an SI prefix after the number, `f p n u µ μ m k K M G T` (`m` is milli, `M` is mega, `f`
+//!   femto as in `10fA`; the farad is `F`), optionally
 //!   followed by one unit that is ignored: `Ω`, `ohm`, `ohms`, `F`, `V`, `A`, `Hz`, `W`
 //!   (`4.7kΩ`, `100nF`, `2mA`); one space is allowed between the number and the prefix or unit
 //!   (`10 µF`, `12 V`);
@@ -225,6 +226,7 @@ fn split_digits(s: &str) -> (&str, &str) {
 fn leading_letter(s: &str, with_r: bool) -> Option<(i64, &str)> {
     let c = s.chars().next()?;
     let exp = match c {
+        'f' => -15,
         'p' => -12,
         'n' => -9,
         'u' | '\u{00B5}' | '\u{03BC}' => -6,
@@ -232,6 +234,7 @@ fn leading_letter(s: &str, with_r: bool) -> Option<(i64, &str)> {
         'k' | 'K' => 3,
         'M' => 6,
         'G' => 9,
+        'T' => 12,
         'R' if with_r => 0,
         _ => return None,
     };
@@ -1130,6 +1133,24 @@ mod tests {
         assert_eq!(parse_value("4k7k"), Err(ValueError::Malformed));
         assert_eq!(parse_value("1e-400"), Err(ValueError::OutOfRange));
         assert_eq!(parse_percent("0.5 %"), Ok(0.5));
+    }
+
+    /// SI prefixes femto and tera (SI Brochure, 9th edition, from memory): `--is 10fA` is an
+    /// example of docs/interface.md and was refused as not a value.
+    #[test]
+    fn femto_and_tera() {
+        assert_eq!(parse_value("10f"), Ok(1e-14));
+        assert_eq!(parse_value_in("10fA", Unit::Ampere), Ok(1e-14));
+        assert_eq!(parse_value("4f7"), Ok(4.7e-15));
+        assert_eq!(parse_value_in("1T", Unit::Ohm), Ok(1e12));
+        assert_eq!(parse_value_in("1TΩ", Unit::Ohm), Ok(1e12));
+        // `F` stays the farad, and a value below 1e-15 stays out of range.
+        assert_eq!(parse_value_in("10F", Unit::Farad), Ok(10.0));
+        assert_eq!(parse_value("0.5f"), Err(ValueError::OutOfRange));
+        assert_eq!(
+            parse_value_in("10fV", Unit::Ampere),
+            Err(ValueError::WrongUnit(Unit::Ampere))
+        );
     }
 
     #[test]

@@ -652,3 +652,20 @@ fn replies_stay_within_bounds() {
         }
     }
 }
+
+/// Issue 11 (units): a reading or a temperature with another unit's letters is refused, not read
+/// as a value of the field (`1.67mA` was taken as 1.67 mV, `25V` as 25 °C).
+#[test]
+fn readings_and_temperatures_with_another_unit_are_refused() {
+    let (mut c, _) = console();
+    ok(&mut c, "mode machine");
+    let e = err(&mut c, "check 12 2.29 1.67mA 3.72", "VALUE");
+    assert!(e.contains("ve"), "{e}");
+    err(&mut c, "set temp 25V", "VALUE");
+    err(&mut c, "set temp-min 20F", "VALUE");
+    err(&mut c, "set tj-max 150A", "VALUE");
+    err(&mut c, "calibrate vb low 1mA", "VALUE");
+    // The field's own unit is still accepted.
+    ok(&mut c, "set temp 30C");
+    ok(&mut c, "set temp 25°C");
+}

@@ -1,44 +1,150 @@
-//! The board log: append-only JSON Lines, one complete record per board.
+//! The board log: append-only JSON Lines, one complete record per line.
 //!
-//! Each record is serialised to one line and written with a single `write_all` of the whole
-//! line (newline included), then flushed and synced to the disk, so a power cut leaves at most
-//! one torn last line. When appending after a torn tail, the new record starts on a fresh line,
-//! so it is never merged with the torn one. On reading, a line that is not a complete JSON
-//! object is skipped with a warning naming its line number.
+//! Each record is serialised to one line and written with a single `write_all` of the whole line
+//! (newline included). If the write fails (a full disk), the file is cut back to its length
+//! before the write, so no partial record stays behind. A record starts on a fresh line after a
+//! torn tail (a power cut), so it is never merged with the torn one. On reading, a line that is
+//! not a complete JSON object is skipped with a warning naming its line number; lines are read
+//! one at a time (bounded memory) and a line longer than [`MAX_LINE`] is skipped whole.
 
+use std::collections::HashSet;
 use std::fs::{File, OpenOptions};
-use std::io::{Read, Seek, SeekFrom, Write};
-use std::path::Path;
-use std::time::{SystemTime, UNIX_EPOCH};
+use std::io::{BufRead, BufReader, Read, Seek, SeekFrom, Write};
+use std::path::{Path, PathBuf};
 
+use serde::Serialize;
 use serde_json::Value;
+use thiserror::Error;
 
 use crate::error::CliError;
 
-/// Append one record as one line; flushed and synced before returning.
-pub fn append(path: &Path, record: &Value) -> Result<(), CliError> {
-    let io = |e: std::io::Error| CliError::usage(format!("--log: {}: {e}", path.display()));
-    let mut line = serde_json::to_string(record)
-        .map_err(|e| CliError::usage(format!("--log: could not encode the record: {e}")))?;
-    line.push('\n');
-    let mut file = OpenOptions::new()
-        .create(true)
-        .append(true)
-        .read(true)
-        .open(path)
-        .map_err(io)?;
-    if ends_torn(&mut file).map_err(io)? {
-        line.insert(0, '\n');
+pub use crate::clock::now_utc;
+
+/// The longest log line read, bytes (a record is a few kilobytes).
+pub const MAX_LINE: usize = 1 << 20;
+
+/// Records appended between two syncs to the disk by an [`Appender`] (a power cut loses at most
+/// these; a killed process loses none, every record is written whole before the next).
+pub const SYNC_EVERY: usize = 256;
+
+/// Why the log could not be written or read.
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum LogError {
+    /// The file could not be opened.
+    #[error("{path}: cannot open the log: {source}")]
+    Open {
+        /// The log.
+        path: PathBuf,
+        /// Why.
+        source: std::io::Error,
+    },
+    /// A record could not be written whole (a full disk?); nothing of it was kept.
+    #[error("{path}: cannot write the record (nothing of it was kept): {source}")]
+    Write {
+        /// The log.
+        path: PathBuf,
+        /// Why.
+        source: std::io::Error,
+    },
+    /// The record could not be encoded.
+    #[error("cannot encode the record: {0}")]
+    Encode(String),
+}
+
+impl From<LogError> for CliError {
+    fn from(e: LogError) -> Self {
+        CliError::usage(format!("--log: {e}"))
     }
-    file.write_all(line.as_bytes()).map_err(io)?;
-    file.flush().map_err(io)?;
-    file.sync_data().map_err(io)?;
-    Ok(())
+}
+
+/// An open log for many appends (a batch): one open, a sync every [`SYNC_EVERY`] records and
+/// on drop.
+pub struct Appender {
+    file: File,
+    path: PathBuf,
+    len: u64,
+    unsynced: usize,
+}
+
+impl Appender {
+    /// Open (create) the log for appending.
+    pub fn open(path: &Path) -> Result<Self, LogError> {
+        let open = |source| LogError::Open {
+            path: path.to_owned(),
+            source,
+        };
+        let mut file = OpenOptions::new()
+            .create(true)
+            .read(true)
+            .append(true)
+            .open(path)
+            .map_err(open)?;
+        let len = file.metadata().map_err(open)?.len();
+        let mut me = Self {
+            file: {
+                if ends_torn(&mut file, len).map_err(open)? {
+                    file.write_all(b"\n").map_err(open)?;
+                }
+                file
+            },
+            path: path.to_owned(),
+            len: 0,
+            unsynced: 0,
+        };
+        me.len = me.file.metadata().map_err(open)?.len();
+        Ok(me)
+    }
+
+    /// Append one record as one line; on failure nothing of it stays in the file.
+    pub fn append<T: Serialize>(&mut self, record: &T) -> Result<(), LogError> {
+        let mut line =
+            serde_json::to_string(record).map_err(|e| LogError::Encode(e.to_string()))?;
+        line.push('\n');
+        if let Err(source) = self.file.write_all(line.as_bytes()) {
+            // Cut back whatever part of the line reached the file.
+            let _ = self.file.set_len(self.len);
+            return Err(LogError::Write {
+                path: self.path.clone(),
+                source,
+            });
+        }
+        self.len += line.len() as u64;
+        self.unsynced += 1;
+        if self.unsynced >= SYNC_EVERY {
+            self.sync()?;
+        }
+        Ok(())
+    }
+
+    /// Flush and sync to the disk.
+    pub fn sync(&mut self) -> Result<(), LogError> {
+        self.unsynced = 0;
+        self.file
+            .flush()
+            .and_then(|()| self.file.sync_data())
+            .map_err(|source| LogError::Write {
+                path: self.path.clone(),
+                source,
+            })
+    }
+}
+
+impl Drop for Appender {
+    fn drop(&mut self) {
+        let _ = self.sync();
+    }
+}
+
+/// Append one record as one line; flushed and synced before returning.
+pub fn append<T: Serialize>(path: &Path, record: &T) -> Result<(), LogError> {
+    let mut a = Appender::open(path)?;
+    a.append(record)?;
+    a.sync()
 }
 
 /// The file is not empty and its last byte is not a newline (a torn record).
-fn ends_torn(file: &mut File) -> std::io::Result<bool> {
-    let len = file.metadata()?.len();
+fn ends_torn(file: &mut File, len: u64) -> std::io::Result<bool> {
     if len == 0 {
         return Ok(false);
     }
@@ -48,7 +154,69 @@ fn ends_torn(file: &mut File) -> std::io::Result<bool> {
     Ok(last[0] != b'\n')
 }
 
+/// Visit every complete record of a log in file order, one line in memory at a time: `f` gets
+/// the line number and the record; a skipped line gets a warning ("line N: ...") through `warn`.
+pub fn for_each(
+    path: &Path,
+    mut f: impl FnMut(u64, Value) -> Result<(), CliError>,
+    mut warn: impl FnMut(String),
+) -> Result<(), CliError> {
+    let file = File::open(path)
+        .map_err(|e| CliError::usage(format!("{}: cannot read the log: {e}", path.display())))?;
+    let mut rd = BufReader::new(file);
+    let mut buf = Vec::new();
+    let mut line_no = 0u64;
+    loop {
+        buf.clear();
+        let n = (&mut rd)
+            .take(MAX_LINE as u64 + 1)
+            .read_until(b'\n', &mut buf)
+            .map_err(|e| CliError::usage(format!("{}: {e}", path.display())))?;
+        if n == 0 {
+            return Ok(());
+        }
+        line_no += 1;
+        let complete = buf.last() == Some(&b'\n');
+        if !complete && buf.len() > MAX_LINE {
+            warn(format!(
+                "line {line_no}: longer than {MAX_LINE} bytes, skipped"
+            ));
+            // Skip the rest of the long line.
+            let mut sink = Vec::new();
+            loop {
+                sink.clear();
+                let m = (&mut rd)
+                    .take(MAX_LINE as u64)
+                    .read_until(b'\n', &mut sink)
+                    .map_err(|e| CliError::usage(format!("{}: {e}", path.display())))?;
+                if m == 0 || sink.last() == Some(&b'\n') {
+                    break;
+                }
+            }
+            continue;
+        }
+        let text = match std::str::from_utf8(&buf) {
+            Ok(t) => t.trim(),
+            Err(_) => {
+                warn(format!("line {line_no}: not UTF-8 text, skipped"));
+                continue;
+            }
+        };
+        if text.is_empty() {
+            continue;
+        }
+        match serde_json::from_str::<Value>(text) {
+            Ok(v) if v.is_object() => f(line_no, v)?,
+            _ if !complete => warn(format!(
+                "line {line_no}: torn last record (power cut?) skipped"
+            )),
+            _ => warn(format!("line {line_no}: not a complete record, skipped")),
+        }
+    }
+}
+
 /// The records of a log and warnings about the lines skipped.
+#[cfg(test)]
 #[derive(Debug, Default)]
 pub struct Contents {
     /// Complete records, in file order.
@@ -57,61 +225,40 @@ pub struct Contents {
     pub warnings: Vec<String>,
 }
 
-/// Read a log; torn or damaged lines are skipped with a warning, never merged.
+/// Read a whole log into memory (small logs; see [`for_each`] for large ones).
+#[cfg(test)]
 pub fn read(path: &Path) -> Result<Contents, CliError> {
-    let bytes = std::fs::read(path)
-        .map_err(|e| CliError::usage(format!("{}: cannot read the log: {e}", path.display())))?;
-    let text = String::from_utf8_lossy(&bytes);
-    let complete_tail = text.ends_with('\n');
-    let lines: Vec<&str> = text.split('\n').collect();
-    let last = lines.len().saturating_sub(1);
     let mut out = Contents::default();
-    for (k, line) in lines.iter().enumerate() {
-        if line.trim().is_empty() {
-            continue;
-        }
-        match serde_json::from_str::<Value>(line) {
-            Ok(v) if v.is_object() => out.records.push(v),
-            _ if k == last && !complete_tail => out.warnings.push(format!(
-                "line {}: torn last record (power cut?) skipped",
-                k + 1
-            )),
-            _ => out
-                .warnings
-                .push(format!("line {}: not a complete record, skipped", k + 1)),
-        }
-    }
+    let mut warnings = Vec::new();
+    for_each(
+        path,
+        |_, v| {
+            out.records.push(v);
+            Ok(())
+        },
+        |w| warnings.push(w),
+    )?;
+    out.warnings = warnings;
     Ok(out)
 }
 
-/// The time now as ISO 8601 UTC, to the second ("2025-03-04T05:06:07Z").
-pub fn now_utc() -> String {
-    let secs = SystemTime::now()
-        .duration_since(UNIX_EPOCH)
-        .map_or(0, |d| d.as_secs());
-    iso_utc(secs)
-}
-
-/// Seconds since 1970-01-01 UTC as ISO 8601.
-pub fn iso_utc(secs: u64) -> String {
-    let days = i64::try_from(secs / 86_400).unwrap_or(0);
-    let rem = secs % 86_400;
-    // Civil date from days since the epoch (proleptic Gregorian calendar).
-    let z = days + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z.rem_euclid(146_097);
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    let y = yoe + era * 400 + i64::from(m <= 2);
-    format!(
-        "{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}Z",
-        rem / 3600,
-        rem % 3600 / 60,
-        rem % 60
-    )
+/// The record ids already in a log (empty when the log does not exist yet).
+pub fn ids(path: &Path) -> Result<HashSet<String>, CliError> {
+    let mut ids = HashSet::new();
+    if !path.exists() {
+        return Ok(ids);
+    }
+    for_each(
+        path,
+        |_, v| {
+            if let Some(id) = v.get("record_id").and_then(Value::as_str) {
+                ids.insert(id.to_owned());
+            }
+            Ok(())
+        },
+        |_| {},
+    )?;
+    Ok(ids)
 }
 
 #[cfg(test)]
@@ -125,13 +272,6 @@ mod tests {
         let p = dir.join(name);
         let _ = std::fs::remove_file(&p);
         p
-    }
-
-    #[test]
-    fn dates_are_iso_utc() {
-        // 2000-03-01 is day 11017 after the epoch (leap-year rule of the Gregorian calendar).
-        assert_eq!(iso_utc(0), "1970-01-01T00:00:00Z");
-        assert_eq!(iso_utc(11_017 * 86_400 + 3_723), "2000-03-01T01:02:03Z");
     }
 
     #[test]
@@ -162,5 +302,17 @@ mod tests {
         assert_eq!(serials, ["A1", "A2", "A4"]);
         assert_eq!(c.warnings.len(), 1, "{:?}", c.warnings);
         assert!(c.warnings[0].contains("line 3"));
+    }
+
+    #[test]
+    fn a_full_disk_keeps_nothing_of_the_record() {
+        // /dev/full answers every write with "no space left on device".
+        let full = Path::new("/dev/full");
+        if !full.exists() {
+            return;
+        }
+        let mut a = Appender::open(full).unwrap();
+        let e = a.append(&json!({"serial": "A1"})).unwrap_err();
+        assert!(e.to_string().contains("nothing of it was kept"), "{e}");
     }
 }

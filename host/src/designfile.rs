@@ -534,11 +534,23 @@ pub fn parse(path: &Path, text: &str) -> Result<DesignDoc, CliError> {
                 "digest",
                 format!(
                     "{d} does not match the file's contents: the file was changed after it was \
-                     written; write it again with biasjig design -o (no edit is accepted)"
+                     written (or written by an earlier build whose digest covered less); write it \
+                     again with biasjig design -o (no edit is accepted)"
                 ),
             ))
         }
         Some(_) => {}
+    }
+    // The design hash is what the log and the instrument identify the design by: a file without
+    // it was edited (docs/interface.md: a deleted `hash` line is refused like any edit), even
+    // though the digest, which covers the hash computed from the parts, still matches.
+    if f.hash.is_none() {
+        return Err(bad(
+            path,
+            "hash",
+            "missing: a design file must carry the design hash `biasjig design -o` writes; \
+             write the file again (no edit is accepted)",
+        ));
     }
     doc.digest = want;
     Ok(doc)
@@ -831,8 +843,10 @@ mod tests {
             .filter(|l| !l.starts_with("hash = "))
             .map(|l| format!("{l}\n"))
             .collect();
-        // Without the design hash line the file still loads: the digest still matches.
-        assert!(parse(p, &no_hash).is_ok());
+        // Without the design hash line the file is refused like any other edit
+        // (docs/interface.md), though the digest alone would still match.
+        let m = err(&no_hash);
+        assert!(m.contains("hash") && m.contains("missing"), "{m}");
         let m = err(&text.replace("min = -10.0", "min = -20.0"));
         assert!(m.contains("digest"), "an [ambient] edit: {m}");
         let m = err(&no_hash.replace("value = 33000.0", "value = 36000.0"));

@@ -28,14 +28,20 @@ macro_rules! out {
     }};
 }
 
+mod analysis;
+mod board;
 mod boardlog;
+mod clock;
 mod cmd;
 mod designfile;
 mod error;
 mod json;
 mod link;
 mod plot;
+mod readings;
+mod record;
 mod stage_args;
+mod store;
 mod text;
 mod values;
 
@@ -79,8 +85,12 @@ enum Command {
     Check(cmd::check::Cmd),
     /// Check many boards from a CSV file of readings
     Batch(cmd::batch::Cmd),
-    /// Yield and capability report from a board log
+    /// Yield, capability and control charts per design, from a results store or board logs
     Report(cmd::report::Cmd),
+    /// Load board logs into a results store, skipping records already there
+    Import(cmd::import::Cmd),
+    /// Record what was actually wrong with a failed board (the rework loop)
+    Repair(cmd::repair::Cmd),
     /// The line console, in this process or on the instrument over a serial port
     Console(cmd::console::Cmd),
     /// The test technician's loop: push the design, check each board, log it
@@ -112,6 +122,8 @@ fn dispatch(cli: &Cli) -> CmdResult {
         Command::Check(c) => c.run(g),
         Command::Batch(c) => c.run(g),
         Command::Report(c) => c.run(g),
+        Command::Import(c) => c.run(g),
+        Command::Repair(c) => c.run(g),
         Command::Console(c) => c.run(g),
         Command::Station(c) => c.run(g),
         Command::Ports(c) => c.run(g),

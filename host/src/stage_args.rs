@@ -242,8 +242,29 @@ pub fn stage_error(stage: &Stage, e: StageError) -> CliError {
                 "must be positive and below 1 F",
             )
         }
+        StageError::Tolerance => tolerance_error(stage),
         _ => CliError::usage(format!("stage: {e}")),
     }
+}
+
+/// Name the tolerance flag and its value (percent) for a tolerance outside 0 to 50 %.
+fn tolerance_error(stage: &Stage) -> CliError {
+    let bad = |t: f64| !(t.is_finite() && (0.0..=0.5).contains(&t));
+    let allowed = "tolerance: allowed 0 to 50 %";
+    if bad(stage.vcc.tol) {
+        return CliError::field("--vcc-tol", 100.0 * stage.vcc.tol, allowed);
+    }
+    if let Some(r) = Resistor::ALL.into_iter().find(|r| bad(stage.part(*r).tol)) {
+        return CliError::field("--tol", 100.0 * stage.part(r).tol, allowed);
+    }
+    if let Some(c) = [stage.cin, stage.cout, stage.ce]
+        .into_iter()
+        .flatten()
+        .find(|c| bad(c.tol))
+    {
+        return CliError::field("--cap-tol", 100.0 * c.tol, allowed);
+    }
+    CliError::usage(format!("stage: {}", StageError::Tolerance))
 }
 
 /// Explain a profile error naming the flags and values.
@@ -351,6 +372,15 @@ impl StageArgs {
         };
         let tol = self.tol;
         let cap_tol = self.cap_tol.unwrap_or(DEFAULT_CAP_TOL);
+        // Checked even when no capacitor is given (they are ideal then), so that a tolerance
+        // that cannot be is never taken silently.
+        if !(0.0..=0.5).contains(&cap_tol) {
+            return Err(CliError::field(
+                "--cap-tol",
+                100.0 * cap_tol,
+                "tolerance: allowed 0 to 50 %",
+            ));
+        }
         let (mut stage, base_profile, base_temp, base_settings) = match &doc {
             Some(d) => (d.stage, d.profile, d.temp_c, d.test),
             None => {

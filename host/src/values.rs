@@ -69,16 +69,33 @@ pub fn number(text: &str) -> Result<f64, String> {
 pub fn percent(text: &str) -> Result<f64, String> {
     units::parse_percent(text)
         .map(|p| p / 100.0)
-        .map_err(|e| format!("{e}; allowed: a percentage such as 5 or 5%"))
+        .map_err(|e| match e {
+            // (The core's word for a malformed value offers resistor codes: not for a percentage.)
+            units::ValueError::Malformed => {
+                "not a percentage; allowed: a percentage such as 5 or 5%".to_string()
+            }
+            e => format!("{e}; allowed: a percentage such as 5 or 5%"),
+        })
 }
 
 /// A percentage that may be negative (temperature coefficients), returned as a fraction.
 pub fn signed_percent(text: &str) -> Result<f64, String> {
     let t = text.trim();
     let t = t.strip_suffix('%').unwrap_or(t).trim_end();
+    if !plain_number(t) {
+        return Err("not a percentage; allowed: a percentage such as 0.5 or -0.2%".into());
+    }
     units::parse_signed(t)
         .map(|p| p / 100.0)
         .map_err(|e| format!("{e}; allowed: a percentage such as 0.5 or -0.2%"))
+}
+
+/// Only a sign, digits, a decimal point and an exponent: no prefix, no unit letters (a
+/// temperature or a percentage has no SI prefix, and `25K` or `25V` must not pass for 25 °C).
+fn plain_number(t: &str) -> bool {
+    !t.is_empty()
+        && t.bytes()
+            .all(|b| b.is_ascii_digit() || matches!(b, b'+' | b'-' | b'.' | b'e' | b'E'))
 }
 
 /// A temperature in °C (may be negative).
@@ -89,6 +106,13 @@ pub fn celsius(text: &str) -> Result<f64, String> {
         .or_else(|| t.strip_suffix('C'))
         .unwrap_or(t)
         .trim_end();
+    if !plain_number(t) {
+        return Err(
+            "not a temperature in °C (no prefix or other unit: 25K is not kelvin here); allowed: \
+             a number such as 25, -10 or 25°C"
+                .into(),
+        );
+    }
     units::parse_signed(t)
         .map_err(|e| format!("{e}; allowed: a temperature in °C such as 25 or -10"))
 }

@@ -207,7 +207,17 @@ fn negative_readings_are_values_and_a_shorted_emitter_is_found() {
 fn implausible_readings_are_refused_with_what_to_fix() {
     let out = check([15.0, 2.5, 1.9, 16.5], &["--json"]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(out.stdout.is_empty());
+    // docs/interface.md: refused "the same way" as a supply outside its window: `--json` still
+    // prints one document, `"verdict": "refused"` with the reason.
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["verdict"], "refused", "{v}");
+    assert!(
+        v["reason"]
+            .as_str()
+            .unwrap()
+            .contains("VC reads above the supply"),
+        "{v}"
+    );
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(
         err.contains("VC reads above the supply") && err.contains("probe"),
@@ -339,7 +349,11 @@ fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
         .unwrap();
     assert_eq!(out.status.code(), Some(0));
     let v: Value = serde_json::from_slice(&out.stdout).unwrap();
-    assert_eq!(v["boards"].as_u64().unwrap() as usize, complete);
+    // One design; every complete record is one test (the report's shape of issue 16).
+    assert_eq!(
+        v["designs"][0]["tests"].as_u64().unwrap() as usize,
+        complete
+    );
     assert_eq!(v["skipped_lines"], 1);
     assert!(String::from_utf8_lossy(&out.stderr).contains("torn"));
     // Checking the next board appends on a fresh line, never merged with the torn one.
@@ -360,7 +374,7 @@ fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
     assert_eq!(out.status.code(), Some(0));
     let text = String::from_utf8_lossy(&out.stdout);
     assert!(
-        text.contains("Failures by likely fault") && text.contains("Cpk"),
+        text.contains("by first diagnosis (Pareto)") && text.contains("Cpk"),
         "{text}"
     );
     let page = std::fs::read_to_string(&html).unwrap();

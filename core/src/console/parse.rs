@@ -121,13 +121,7 @@ pub const REQUIREMENT_NAMES: &str =
 #[cfg(feature = "synthesis")]
 fn requirement<'a>(name: &'a str, v: &'a str) -> Result<ReqSetting, ParseError<'a>> {
     let n = |s: &str| name.eq_ignore_ascii_case(s);
-    let celsius = |v: &'a str| {
-        let t = v
-            .strip_suffix("°C")
-            .or_else(|| v.strip_suffix('C'))
-            .unwrap_or(v);
-        signed(name, t)
-    };
+    let celsius = |v: &'a str| celsius(name, v);
     let series = |v: &'a str| {
         Series::parse(v).map_err(|_| err(Code::Value, name, v, "E3 E6 E12 E24 E48 E96 or E192"))
     };
@@ -466,8 +460,29 @@ fn optional_in<'a>(
     }
 }
 
-fn signed<'a>(field: &'a str, text: &'a str) -> Result<f64, ParseError<'a>> {
-    units::parse_signed(text).map_err(|_| err(Code::Value, field, text, VALUE_FORMS))
+/// A value that may be negative, of a field of `unit` (its own unit letters may follow, another
+/// unit's are refused: `1.67mA` is no reading in volts).
+fn signed_in<'a>(field: &'a str, text: &'a str, unit: Unit) -> Result<f64, ParseError<'a>> {
+    units::parse_signed_in(text, unit).map_err(|e| match e {
+        units::ValueError::WrongUnit(u) => err(Code::Value, field, text, u.allowed()),
+        _ => err(Code::Value, field, text, VALUE_FORMS),
+    })
+}
+
+/// A temperature in °C: a number that may be negative, `°C` or `C` may follow; no other unit.
+fn celsius<'a>(field: &'a str, text: &'a str) -> Result<f64, ParseError<'a>> {
+    let t = text
+        .strip_suffix("°C")
+        .or_else(|| text.strip_suffix('C'))
+        .unwrap_or(text);
+    units::parse_signed_in(t, Unit::Number).map_err(|_| {
+        err(
+            Code::Value,
+            field,
+            text,
+            "a temperature in °C such as 25, -10 or 55C",
+        )
+    })
 }
 
 fn percent<'a>(field: &'a str, text: &'a str) -> Result<f64, ParseError<'a>> {
@@ -571,11 +586,7 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
             return Err(err(Code::Value, name, v, "npn or pnp"));
         })
     } else if n("temp") || n("temp-min") || n("temp-max") {
-        let t = v
-            .strip_suffix("°C")
-            .or_else(|| v.strip_suffix('C'))
-            .unwrap_or(v);
-        let t = signed(name, t)?;
+        let t = celsius(name, v)?;
         if n("temp") {
             Setting::Temp(t)
         } else if n("temp-min") {
@@ -604,7 +615,7 @@ fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
     } else if n("power-rating") {
         Setting::PowerRating(value_in(name, v, Unit::Watt)?)
     } else if n("tj-max") {
-        Setting::TjMax(signed(name, v)?)
+        Setting::TjMax(celsius(name, v)?)
     } else if n("input-r") {
         Setting::InputR(optional_in(name, v, Unit::Ohm)?)
     } else if n("inputs") {
@@ -797,10 +808,10 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
                 tones(tail)?;
                 Ok(Command::Check(
                     Readings {
-                        vcc: signed("vcc", vcc)?,
-                        vb: signed("vb", vb)?,
-                        ve: signed("ve", ve)?,
-                        vc: signed("vc", vc)?,
+                        vcc: signed_in("vcc", vcc, Unit::Volt)?,
+                        vb: signed_in("vb", vb, Unit::Volt)?,
+                        ve: signed_in("ve", ve, Unit::Volt)?,
+                        vc: signed_in("vc", vc, Unit::Volt)?,
                     },
                     tail,
                 ))
@@ -828,7 +839,7 @@ pub fn parse(line: &str) -> Result<Command<'_>, ParseError<'_>> {
             [ch, point, v] => {
                 let c =
                     Channel::parse(ch).ok_or(err(Code::Value, "channel", ch, "vcc vb ve vc"))?;
-                let volts = signed(point, v)?;
+                let volts = signed_in(point, v, Unit::Volt)?;
                 if point.eq_ignore_ascii_case("low") {
                     Ok(Command::Calibrate(CalibrateStep::Low(c, volts)))
                 } else if point.eq_ignore_ascii_case("high") {

@@ -1,9 +1,9 @@
 //! `biasjig analyze`: the exact operating point beside the hand estimate, midband gain,
 //! impedances, swing, low corner, power and warnings of one stage.
 
-use biasjig_core::judge::{input_loading, readings_through, INPUT_LOADING_LIMIT};
+use biasjig_core::judge::{input_loading, readings_through, region_through, INPUT_LOADING_LIMIT};
 use biasjig_core::predict::predict;
-use biasjig_core::solve::Conditions;
+use biasjig_core::solve::{Conditions, Region};
 use serde_json::json;
 
 use crate::error::{CliError, CmdResult, EXIT_OK};
@@ -39,6 +39,15 @@ impl Cmd {
             None => None,
         };
         let loading = input_loading(&r.stage, &inputs).filter(|k| *k > INPUT_LOADING_LIMIT);
+        // The inputs may move an active stage off its bias while it is read.
+        let moved = match inputs.r {
+            Some(_) if p.op.region == Region::Active => {
+                region_through(&r.stage, &r.profile, cond, &inputs)
+                    .ok()
+                    .filter(|g| *g != Region::Active)
+            }
+            _ => None,
+        };
         if g.json {
             let mut doc = json::prediction(&p);
             if let Some(obj) = doc.as_object_mut() {
@@ -49,9 +58,12 @@ impl Cmd {
                                "inputs": {"r": json::opt(inputs.r), "mode": inputs.mode.name()}}),
                     );
                 }
-                if loading.is_some() {
-                    if let Some(w) = obj.get_mut("warnings").and_then(|w| w.as_array_mut()) {
+                if let Some(w) = obj.get_mut("warnings").and_then(|w| w.as_array_mut()) {
+                    if loading.is_some() {
                         w.push(json!("divider_loaded_by_inputs"));
+                    }
+                    if let Some(g) = moved {
+                        w.push(json!(format!("inputs_move_the_stage_to_{}", g.name())));
                     }
                 }
             }
@@ -78,14 +90,24 @@ impl Cmd {
             let r1 = r.stage.r1.value;
             let r2 = r.stage.r2.value;
             eprintln!(
-                "biasjig: warning: the divider's Thévenin resistance R1 ‖ R2 = {} is {:.1} % of the \
-                 {} measuring inputs: they pull VB by about that fraction; the windows and the \
-                 diagnosis model them, but each input's own tolerance then moves VB too. Use \
-                 inputs of at least {} (100 × R1 ‖ R2) or buffered ones",
+                "biasjig: warning: the {} measuring inputs load the base divider: its Thévenin \
+                 resistance R1 ‖ R2 = {} is {:.1} % of theirs (more than 1 %), so they move VB \
+                 while it is read; the windows and the diagnosis model them, but each input's \
+                 own tolerance then moves VB too. Use inputs of at least {} (100 × R1 ‖ R2) or \
+                 buffered ones",
+                text::eng(rin, "Ω"),
                 text::eng(r1 * r2 / (r1 + r2), "Ω"),
                 100.0 * k,
-                text::eng(rin, "Ω"),
                 text::eng(100.0 * r1 * r2 / (r1 + r2), "Ω")
+            );
+        }
+        if let (Some(g), Some(rin)) = (moved, inputs.r) {
+            eprintln!(
+                "biasjig: warning: read through the {} measuring inputs ({}) the stage is in {}, \
+                 not active: the readings no longer show its bias",
+                text::eng(rin, "Ω"),
+                inputs.mode.name(),
+                g.name()
             );
         }
         Ok(EXIT_OK)

@@ -1,25 +1,42 @@
 //! `biasjig batch`: check many boards from a CSV file of readings.
 //!
-//! The CSV has a header naming `serial`, `vcc`, `vb`, `ve`, `vc` (any order, any case; other
-//! columns are ignored). Signal-test readings go in columns named `gain@F`, F the test frequency in
-//! the value grammar (`gain@1k`, `gain@20`; at most 4): each cell the gain magnitude read at F, an
-//! empty cell when not read. Each good row is checked (and logged with `--log`); a bad row gives an
-//! error naming its line and column and loses no other row. A yield summary closes the run.
-//! Exit 2 when a row was bad (every good row is still checked and logged), otherwise 1 when a
-//! board failed or was refused, otherwise 0.
+//! The CSV has a header naming `serial`, `vcc`, `vb`, `ve`, `vc` (any order, any case, each
+//! once; other columns are ignored). Signal-test readings go in columns named `gain@F`, F the
+//! test frequency in the value grammar (`gain@1k`, `gain@20`; at most 4): each cell the gain
+//! magnitude read at F, an empty cell when not read. The file is read one line at a time (bounded memory
+//! whatever its length); a row is one line (no quoted line breaks), LF or CRLF, at most
+//! [`crate::readings::MAX_ROW`] bytes. A bad row (not UTF-8, too long, a value that is not a number, no serial)
+//! is refused alone with its line number, and loses no other row. A serial given again is said
+//! and recorded as a retest.
+//!
+//! Each board is recorded (`--log`, `--store`) under a record id derived from the design, the
+//! settings and the row itself, so a batch killed and run again skips the rows already
+//! recorded and doubles nothing. Each test is one store transaction; commits do not wait for
+//! the disk (a power cut may lose the last tests, which the batch run again records). When a
+//! record cannot be written (a full disk), nothing of it is kept, the batch stops and says from
+//! which line on the rows were not tested.
+//!
+//! Exit 2 when a row was bad or the batch stopped (every good row before is still checked and
+//! recorded), otherwise 1 when a board failed or was refused, otherwise 0.
 
+use std::collections::HashMap;
+use std::io::{BufReader, Write};
 use std::path::PathBuf;
 
-use biasjig_core::signaltest::{self, ToneReading, MAX_TONES};
-use biasjig_core::stage::Readings;
-use biasjig_core::units;
 use serde_json::{json, Value};
 
-use crate::boardlog;
-use crate::cmd::check::{evaluate, log_record, outcome_json, Outcome, Station};
+use crate::board::{from_outcome, Recorder, RunInfo};
+use crate::cmd::check::{evaluate, outcome_json, Outcome, Station};
 use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK, EXIT_USAGE};
+use crate::readings::Rows;
+use crate::record::{hex_digest, Source};
 use crate::stage_args::{InputArgs, StageArgs, TestArgs};
-use crate::{json, Global};
+use crate::store::TraceArgs;
+use crate::Global;
+
+/// At most this many bad rows are listed in the JSON document (all are counted and all are
+/// named on stderr).
+pub const LISTED_ERRORS: usize = 10_000;
 
 /// `biasjig batch`: the stage by flags (`--vcc` the nominal supply) or `--design FILE`.
 #[derive(clap::Args, Debug)]
@@ -36,108 +53,42 @@ pub struct Cmd {
     test: TestArgs,
     #[command(flatten)]
     inputs: InputArgs,
+    #[command(flatten)]
+    trace: TraceArgs,
 }
 
-/// One readings row (serial, DC readings, gain readings), or why it is bad.
-pub type Row = Result<(String, Readings, Vec<ToneReading>), String>;
+/// Counts of one run.
+#[derive(Debug, Default, Clone, Copy)]
+struct Tally {
+    passed: u32,
+    failed: u32,
+    refused: u32,
+    bad: u32,
+    resumed: u32,
+    retests: u32,
+}
 
-/// Parse the CSV text into rows with their line numbers; a missing column is an error for the
-/// whole file.
-pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
-    let mut rdr = csv::ReaderBuilder::new()
-        .flexible(true)
-        .trim(csv::Trim::All)
-        .from_reader(text.as_bytes());
-    let header = rdr
-        .headers()
-        .map_err(|e| format!("line 1: header: {e}"))?
-        .clone();
-    let find = |name: &str| header.iter().position(|h| h.eq_ignore_ascii_case(name));
-    let mut cols = Vec::new();
-    for name in ["serial", "vcc", "vb", "ve", "vc"] {
-        match find(name) {
-            Some(k) => cols.push(k),
-            None => {
-                return Err(format!(
-                    "line 1: header: no column '{name}'; the header must name serial, vcc, vb, ve and vc"
-                ))
-            }
+/// The JSON document, written as the boards come (bounded memory).
+struct JsonOut {
+    first: bool,
+    errors: Vec<Value>,
+    unlisted: u32,
+}
+
+impl JsonOut {
+    fn board(&mut self, doc: &Value) {
+        let sep = if self.first { "" } else { "," };
+        self.first = false;
+        out!("{sep}{doc}");
+    }
+
+    fn error(&mut self, e: Value) {
+        if self.errors.len() < LISTED_ERRORS {
+            self.errors.push(e);
+        } else {
+            self.unlisted += 1;
         }
     }
-    // Signal-test columns: gain@F.
-    let mut gains: Vec<(usize, f64)> = Vec::new();
-    for (k, h) in header.iter().enumerate() {
-        let lower = h.to_ascii_lowercase();
-        if let Some(f) = lower.strip_prefix("gain@") {
-            let f = units::parse_value(f.trim_end_matches("hz")).map_err(|e| {
-                format!("line 1: header: column '{h}': frequency: {e}; allowed: gain@F with F in Hz such as gain@1k")
-            })?;
-            signaltest::validate_frequency(f)
-                .map_err(|e| format!("line 1: header: column '{h}': {e}"))?;
-            gains.push((k, f));
-        }
-    }
-    if gains.len() > MAX_TONES {
-        return Err(format!(
-            "line 1: header: {} gain@F columns; at most {MAX_TONES}",
-            gains.len()
-        ));
-    }
-    let mut out = Vec::new();
-    for rec in rdr.records() {
-        let rec = match rec {
-            Ok(r) => r,
-            Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
-                out.push((line, Err(format!("{e}"))));
-                continue;
-            }
-        };
-        let line = rec.position().map_or(0, |p| p.line());
-        if rec.iter().all(|f| f.is_empty()) {
-            continue;
-        }
-        let field = |k: usize| {
-            rec.get(cols.get(k).copied().unwrap_or(usize::MAX))
-                .unwrap_or("")
-        };
-        let value = |k: usize, name: &str| -> Result<f64, String> {
-            let t = field(k);
-            units::parse_signed(t).map_err(|e| {
-                format!("column {name}: '{t}': {e}; allowed: a number such as 2.51 or -0.0012")
-            })
-        };
-        let serial = field(0).to_string();
-        let row = (|| -> Row {
-            if serial.is_empty() {
-                return Err("column serial: empty; every board needs a serial number".into());
-            }
-            let r = Readings {
-                vcc: value(1, "vcc")?,
-                vb: value(2, "vb")?,
-                ve: value(3, "ve")?,
-                vc: value(4, "vc")?,
-            };
-            let mut tones = Vec::new();
-            for (k, f) in &gains {
-                let t = rec.get(*k).unwrap_or("");
-                if t.is_empty() {
-                    continue;
-                }
-                let name = header.get(*k).unwrap_or("gain");
-                let g: f64 = t.parse().map_err(|_| {
-                    format!("column {name}: '{t}': not a plain number; allowed: a gain magnitude such as 14.2")
-                })?;
-                let reading = ToneReading { f: *f, gain: g };
-                signaltest::validate_reading(&reading)
-                    .map_err(|e| format!("column {name}: '{t}': {e}"))?;
-                tones.push(reading);
-            }
-            Ok((serial.clone(), r, tones))
-        })();
-        out.push((line, row));
-    }
-    Ok(out)
 }
 
 impl Cmd {
@@ -147,43 +98,88 @@ impl Cmd {
             .stage
             .resolve_with(Some(&self.inputs), Some(&self.test))?;
         let st = Station::new(&resolved);
-        let text = std::fs::read_to_string(&self.readings).map_err(|e| {
-            CliError::usage(format!(
-                "{}: cannot read the readings: {e}",
-                self.readings.display()
-            ))
-        })?;
-        let rows = parse(&text)
-            .map_err(|e| CliError::usage(format!("{}: {e}", self.readings.display())))?;
-        let (mut passed, mut failed, mut refused, mut bad) = (0u32, 0u32, 0u32, 0u32);
-        let mut boards: Vec<Value> = Vec::new();
-        let mut errors: Vec<Value> = Vec::new();
-        for (line, row) in rows {
-            let (serial, r, tones) = match row {
+        let name = self.readings.display().to_string();
+        let file = std::fs::File::open(&self.readings)
+            .map_err(|e| CliError::usage(format!("{name}: cannot read the readings: {e}")))?;
+        let rows = Rows::new(BufReader::with_capacity(1 << 16, file))
+            .map_err(|e| CliError::usage(format!("{name}: {e}")))?;
+        let run = RunInfo::new(&st, &self.trace, "batch");
+        let mut rec = Recorder::open(self.log.as_deref(), &self.trace, true)?;
+        rec.relax_sync()?;
+        let mut t = Tally::default();
+        let mut seen: HashMap<String, u64> = HashMap::new();
+        let mut js = JsonOut {
+            first: true,
+            errors: Vec::new(),
+            unlisted: 0,
+        };
+        if g.json {
+            out!("{{\"boards\":[");
+        }
+        let mut stopped: Option<(u64, String)> = None;
+        for line in rows {
+            let line = line.map_err(|e| CliError::usage(format!("{name}: {e}")))?;
+            let n = line.number;
+            let (serial, r, tones) = match line.row {
                 Ok(x) => x,
                 Err(msg) => {
-                    bad += 1;
-                    eprintln!("biasjig: {}: line {line}: {msg}", self.readings.display());
-                    errors.push(json!({"line": line, "message": msg}));
+                    t.bad += 1;
+                    eprintln!("biasjig: {name}: line {n}: {msg}");
+                    js.error(json!({"line": n, "message": msg}));
                     continue;
                 }
             };
-            let o = evaluate(&st, &r, &tones)?;
-            if let Some(path) = &self.log {
-                boardlog::append(path, &log_record(&st, Some(&serial), &r, &o))?;
+            let retest = match seen.get(&serial) {
+                Some(first) => {
+                    eprintln!(
+                        "biasjig: {name}: line {n}: serial {serial} also on line {first}: \
+                         tested again, recorded as a retest"
+                    );
+                    true
+                }
+                None => {
+                    seen.insert(serial.clone(), n);
+                    false
+                }
+            };
+            let id = hex_digest(&[
+                b"batch",
+                st.hash.as_bytes(),
+                run.settings_hash.as_bytes(),
+                serial.as_bytes(),
+                &n.to_le_bytes(),
+                &line.raw,
+            ]);
+            if rec.already(&id)? {
+                t.resumed += 1;
+                continue;
             }
+            let o = evaluate(&st, &r, &tones)?;
+            let source = Source {
+                kind: "batch".into(),
+                file: Some(name.clone()),
+                line: Some(n),
+            };
+            let mut board = from_outcome(&st, &run, &serial, &r, &o, Some(id), Some(source))?;
+            board.retest = retest;
+            if let Err(e) = rec.write(&mut board) {
+                stopped = Some((n, format!("{e}")));
+                break;
+            }
+            t.retests += u32::from(board.retest);
             match &o {
-                Outcome::Judged(j) if j.verdict.pass => passed += 1,
-                Outcome::Judged(..) => failed += 1,
-                Outcome::Refused(_) => refused += 1,
+                Outcome::Judged(j) if j.verdict.pass => t.passed += 1,
+                Outcome::Judged(..) => t.failed += 1,
+                Outcome::Refused(_) => t.refused += 1,
             }
             if g.json {
                 let mut doc = outcome_json(&o, r.vcc);
                 if let Some(obj) = doc.as_object_mut() {
                     obj.insert("serial".into(), json!(serial));
-                    obj.insert("line".into(), json!(line));
+                    obj.insert("line".into(), json!(n));
+                    obj.insert("retest".into(), json!(board.retest));
                 }
-                boards.push(doc);
+                js.board(&doc);
             } else {
                 outln!(
                     "{:<12} {:<8} {}",
@@ -193,29 +189,56 @@ impl Cmd {
                 );
             }
         }
-        let checked = passed + failed + refused;
+        if let Err(e) = rec.sync() {
+            stopped.get_or_insert((0, e.to_string()));
+        }
+        if let Some((n, why)) = &stopped {
+            eprintln!(
+                "biasjig: {name}: line {n}: the record could not be written ({why}); the rows \
+                 from line {n} to the end were not tested. Free the disk and run the same batch \
+                 again: rows already recorded are skipped."
+            );
+        }
+        let checked = t.passed + t.failed + t.refused;
         let yield_ = if checked > 0 {
-            f64::from(passed) / f64::from(checked)
+            f64::from(t.passed) / f64::from(checked)
         } else {
             0.0
         };
-        if g.json {
-            json::print(&json!({
-                "boards": boards,
-                "errors": errors,
-                "summary": {"checked": checked, "passed": passed, "failed": failed,
-                            "refused": refused, "bad_rows": bad, "yield": yield_},
-            }));
-        } else {
-            outln!(
-                "\n{checked} boards checked: {passed} passed, {failed} failed, {refused} refused; \
-                 yield {:.1} %; {bad} bad rows",
-                100.0 * yield_
+        if t.resumed > 0 {
+            eprintln!(
+                "biasjig: {name}: {} rows already recorded by an earlier run: skipped",
+                t.resumed
             );
         }
-        Ok(if bad > 0 {
+        if g.json {
+            let summary = json!({"checked": checked, "passed": t.passed, "failed": t.failed,
+                        "refused": t.refused, "bad_rows": t.bad, "yield": yield_,
+                        "already_recorded": t.resumed, "retests": t.retests,
+                        "errors_not_listed": js.unlisted,
+                        "stopped_at_line": stopped.as_ref().map(|s| s.0)});
+            out!(
+                "],\"errors\":{},\"summary\":{}}}\n",
+                Value::Array(std::mem::take(&mut js.errors)),
+                summary
+            );
+            let _ = std::io::stdout().flush();
+        } else {
+            outln!(
+                "\n{checked} boards checked: {} passed, {} failed, {} refused; yield {:.1} %; \
+                 {} bad rows; {} retests; {} already recorded",
+                t.passed,
+                t.failed,
+                t.refused,
+                100.0 * yield_,
+                t.bad,
+                t.retests,
+                t.resumed
+            );
+        }
+        Ok(if t.bad > 0 || stopped.is_some() {
             EXIT_USAGE
-        } else if failed + refused > 0 {
+        } else if t.failed + t.refused > 0 {
             EXIT_FAIL
         } else {
             EXIT_OK
@@ -231,57 +254,5 @@ fn summary_line(st: &Station, o: &Outcome) -> String {
                 .next()
                 .map_or(String::new(), |h| crate::cmd::check::describe(&st.stage, h))
         }),
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn columns_in_any_order_and_bad_rows_by_line() {
-        let text = "note,VC,vb,serial,ve,vcc\n\
-                    x,8.0,2.55,A1,1.9,15\n\
-                    y,8.1,abc,A2,1.9,15\n\
-                    z,8.2,2.56,A3,-0.0012,15\n\
-                    w,8.2,2.56,,1.9,15\n";
-        let rows = parse(text).unwrap();
-        assert_eq!(rows.len(), 4);
-        let (line, ok) = &rows[0];
-        assert_eq!(*line, 2);
-        let (serial, r, tones) = ok.as_ref().unwrap();
-        assert_eq!(serial, "A1");
-        assert!(tones.is_empty());
-        assert_eq!((r.vcc, r.vb, r.ve, r.vc), (15.0, 2.55, 1.9, 8.0));
-        assert_eq!(rows[1].0, 3);
-        assert!(rows[1].1.as_ref().unwrap_err().contains("column vb: 'abc'"));
-        assert_eq!(rows[2].1.as_ref().unwrap().1.ve, -0.0012);
-        assert!(rows[3].1.as_ref().unwrap_err().contains("serial"));
-        assert!(parse("serial,vb,ve,vc\n").unwrap_err().contains("'vcc'"));
-    }
-
-    #[test]
-    fn gain_columns_by_frequency() {
-        let text = "serial,vcc,vb,ve,vc,gain@1k,Gain@20Hz\n\
-                    A1,12,2.05,1.39,5.74,13.7,13.5\n\
-                    A2,12,2.05,1.39,5.74,,3.2\n\
-                    A3,12,2.05,1.39,5.74,x,1\n";
-        let rows = parse(text).unwrap();
-        let (_, _, t) = rows[0].1.as_ref().unwrap();
-        assert_eq!(t.len(), 2);
-        assert_eq!(
-            (t[0].f, t[0].gain, t[1].f, t[1].gain),
-            (1000.0, 13.7, 20.0, 13.5)
-        );
-        let (_, _, t) = rows[1].1.as_ref().unwrap();
-        assert_eq!((t.len(), t[0].f), (1, 20.0));
-        assert!(rows[2]
-            .1
-            .as_ref()
-            .unwrap_err()
-            .contains("column gain@1k: 'x'"));
-        assert!(parse("serial,vcc,vb,ve,vc,gain@9M\n")
-            .unwrap_err()
-            .contains("gain@9M"));
     }
 }

@@ -19,9 +19,10 @@ use biasjig_core::signaltest::{self, ToneReading};
 use biasjig_core::stage::{Readings, Stage};
 use serde_json::{json, Value};
 
-use crate::boardlog;
+use crate::board::{from_outcome, Recorder, RunInfo};
 use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 use crate::stage_args::{InputArgs, Resolved, StageArgs, TestArgs};
+use crate::store::TraceArgs;
 use crate::{json, text, values, Global};
 
 /// How many fault hypotheses a result lists at most.
@@ -59,6 +60,8 @@ pub struct Cmd {
     test: TestArgs,
     #[command(flatten)]
     inputs: InputArgs,
+    #[command(flatten)]
+    trace: TraceArgs,
 }
 
 /// Parse one `--ac F:G`: F in Hz (value grammar), G the gain magnitude (plain number).
@@ -111,7 +114,11 @@ impl Station {
             let list: Vec<String> = r
                 .overrides
                 .iter()
-                .map(|(f, v)| format!("{f} {v}"))
+                .map(|(f, v)| match override_value(f, *v) {
+                    Value::String(w) => format!("{f} {w}"),
+                    Value::Bool(_) => f.clone(),
+                    other => format!("{f} {other}"),
+                })
                 .collect();
             eprintln!(
                 "biasjig: warning: flags override the design file ({}); recorded with every \
@@ -150,6 +157,44 @@ pub fn judge_error(e: JudgeError) -> CliError {
 /// The windows the station applies at the measured supply (the core's [`judge::windows`]).
 pub fn board_windows(st: &Station, vcc: f64) -> Result<Windows, CliError> {
     judge::windows(&st.stage, &st.profile, &st.settings, vcc).map_err(judge_error)
+}
+
+/// A warning about what the windows rest on: a machine word for `--json` (`warnings`) and a
+/// sentence for people (stderr).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Warning {
+    /// Machine word, such as `inputs_move_the_stage_to_saturation`.
+    pub code: String,
+    /// The sentence for a person.
+    pub text: String,
+}
+
+/// When the measuring inputs move the stage out of the forward-active region at its nominal
+/// point (the stage itself is active: [`judge::nominal_region`]), the windows describe a stage the
+/// jig has pulled off its bias: say so, and what would do better.
+pub fn inputs_region_warning(st: &Station) -> Option<Warning> {
+    use biasjig_core::solve::Region;
+    let rin = st.settings.inputs.r?;
+    let bare = judge::nominal_region(&st.stage, &st.profile, &st.settings).ok()?;
+    let region = judge::nominal_region_through(&st.stage, &st.profile, &st.settings).ok()?;
+    if bare != Region::Active || region == Region::Active {
+        return None;
+    }
+    let (r1, r2) = (st.stage.r1.value, st.stage.r2.value);
+    let rth = r1 * r2 / (r1 + r2);
+    Some(Warning {
+        code: format!("inputs_move_the_stage_to_{}", region.name()),
+        text: format!(
+            "the {} measuring inputs ({}) put the stage in {} while it is read (without them it \
+             is active): the windows hold for a board read that way, but a good board and \
+             several faults then read alike. Use inputs of at least {} (100 × R1 ‖ R2) or \
+             buffered ones",
+            text::eng(rin, "Ω"),
+            st.settings.inputs.mode.name(),
+            region.name(),
+            text::eng(100.0 * rth, "Ω")
+        ),
+    })
 }
 
 /// The result of checking one board.
@@ -263,6 +308,16 @@ pub fn outcome_json(o: &Outcome, measured_vcc: f64) -> Value {
     }
 }
 
+/// One override as JSON: a number in SI units (percent for the percentage flags), `--inputs`
+/// by its word and a switch such as `--pnp` as `true` (they are kept as numbers inside).
+fn override_value(flag: &str, v: f64) -> Value {
+    match flag {
+        "--inputs" => json!(if v == 0.0 { "together" } else { "one" }),
+        "--pnp" => json!(true),
+        _ => json::num(v),
+    }
+}
+
 /// The test frequency whose gain reading tells `h` and its equivalents apart, if any (only
 /// when a capacitor is among them: the gain is what a capacitor changes).
 pub fn separating_tone(st: &Station, vcc: f64, d: &Diagnosis, h: &Hypothesis) -> Option<f64> {
@@ -322,7 +377,7 @@ pub fn ac_json(j: &Judgement) -> Value {
 pub fn overrides_json(st: &Station) -> Value {
     let mut m = serde_json::Map::new();
     for (flag, v) in &st.overrides {
-        m.insert(flag.clone(), json::num(*v));
+        m.insert(flag.clone(), override_value(flag, *v));
     }
     Value::Object(m)
 }
@@ -336,53 +391,23 @@ fn add_provenance(st: &Station, doc: &mut Value) {
     }
 }
 
-/// The log record of a checked board: the outcome, the design (identifier, hash, file digest),
-/// the settings digest of what judged it and the overrides that were in force.
-pub fn log_record(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome) -> Value {
-    let mut doc = outcome_json(o, r.vcc);
-    add_provenance(st, &mut doc);
-    if let Some(obj) = doc.as_object_mut() {
-        obj.insert("time".into(), json!(boardlog::now_utc()));
-        obj.insert("serial".into(), json!(serial));
-        obj.insert(
-            "design".into(),
-            json!({"id": st.id, "hash": st.hash, "digest": st.file_digest}),
-        );
-        obj.insert(
-            "readings".into(),
-            json!({"vcc": json::num(r.vcc), "vb": json::num(r.vb), "ve": json::num(r.ve), "vc": json::num(r.vc)}),
-        );
-        if let Outcome::Judged(j) = o {
-            if !j.tones.is_empty() {
-                let ac: Vec<Value> = j
-                    .tones
-                    .iter()
-                    .map(
-                        |t| json!({"f": json::num(t.reading.f), "gain": json::num(t.reading.gain)}),
-                    )
-                    .collect();
-                if let Some(rd) = obj.get_mut("readings").and_then(|v| v.as_object_mut()) {
-                    rd.insert("ac".into(), Value::Array(ac));
-                }
-            }
-        }
-    }
-    doc
-}
+// (`concat!` keeps the first row's indent: a `\` line continuation would strip it and shear
+// the letters.)
+const BIG_PASS: &str = concat!(
+    "  ####    ###    ####   ####\n",
+    "  #   #  #   #  #      #\n",
+    "  ####   #####   ###    ###\n",
+    "  #      #   #      #      #\n",
+    "  #      #   #  ####   ####"
+);
 
-const BIG_PASS: &str = "\
-  ####    ###    ####   ####
-  #   #  #   #  #      #
-  ####   #####   ###    ###
-  #      #   #      #      #
-  #      #   #  ####   ####";
-
-const BIG_FAIL: &str = "\
-  #####   ###   #####  #
-  #      #   #    #    #
-  ####   #####    #    #
-  #      #   #    #    #
-  #      #   #  #####  #####";
+const BIG_FAIL: &str = concat!(
+    "  #####   ###   #####  #\n",
+    "  #      #   #    #    #\n",
+    "  ####   #####    #    #\n",
+    "  #      #   #    #    #\n",
+    "  #      #   #  #####  #####"
+);
 
 /// A fault in plain words (the core's wording, shared with the instrument's console).
 pub fn describe(stage: &Stage, h: &Hypothesis) -> String {
@@ -408,12 +433,24 @@ pub fn settings_text(t: &TestSettings) -> String {
     )
 }
 
-/// The human report of a checked board.
-pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcome) -> String {
+/// The human report of a checked board. `supply_judged` is false when no nominal supply was
+/// given for a stage by flags (its window is then centred on the measured supply itself).
+pub fn outcome_text(
+    st: &Station,
+    serial: Option<&str>,
+    r: &Readings,
+    o: &Outcome,
+    supply_judged: bool,
+) -> String {
     let mut out = String::new();
+    let design = if st.file_digest.is_some() {
+        format!("design {}", st.id)
+    } else {
+        "stage given by flags".to_string()
+    };
     let head = match serial {
-        Some(s) => format!("board {s} · design {}", st.id),
-        None => format!("design {}", st.id),
+        Some(s) => format!("board {s} · {design}"),
+        None => design,
     };
     match o {
         Outcome::Refused(why) => {
@@ -424,13 +461,21 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcom
             out.push_str(if v.pass { BIG_PASS } else { BIG_FAIL });
             out.push_str(&format!("\n\n{head}\n{}\n", settings_text(&st.settings)));
             let sw = &j.windows.supply;
-            out.push_str(&format!(
-                "  {:<4} {:>10}   window {} .. {}\n",
-                "VCC",
-                text::eng4(r.vcc, "V"),
-                text::eng4(sw.low, "V"),
-                text::eng4(sw.high, "V")
-            ));
+            if supply_judged {
+                out.push_str(&format!(
+                    "  {:<4} {:>10}   window {} .. {}\n",
+                    "VCC",
+                    text::eng4(r.vcc, "V"),
+                    text::eng4(sw.low, "V"),
+                    text::eng4(sw.high, "V")
+                ));
+            } else {
+                out.push_str(&format!(
+                    "  {:<4} {:>10}   not judged: no nominal supply given (--vcc-nominal V)\n",
+                    "VCC",
+                    text::eng4(r.vcc, "V"),
+                ));
+            }
             for n in &v.nodes {
                 let u = n.node.unit();
                 out.push_str(&format!(
@@ -453,7 +498,9 @@ pub fn outcome_text(st: &Station, serial: Option<&str>, r: &Readings, o: &Outcom
                 ));
             }
             let dv = &v.derived;
-            let beta = dv.beta.map_or("-".to_string(), |b| format!("{b:.0}"));
+            let beta = dv
+                .beta
+                .map_or("not derived".to_string(), |b| format!("{b:.0}"));
             out.push_str(&format!(
                 "IC {}, IB {}, hFE {beta}, VBE {}, VCE {}, {}\n",
                 text::eng(dv.ic, "A"),
@@ -506,21 +553,42 @@ impl Cmd {
         }
         let resolved = args.resolve_with(Some(&self.inputs), Some(&self.test))?;
         let st = Station::new(&resolved);
+        if let Some(w) = inputs_region_warning(&st) {
+            eprintln!("biasjig: warning: {}", w.text);
+        }
         let r = Readings {
             vcc: measured_vcc,
             vb: self.vb,
             ve: self.ve,
             vc: self.vc,
         };
+        if self.trace.store.is_some() && self.serial.is_none() {
+            return Err(CliError::usage(
+                "--serial: missing: a test in the store names its board by serial number",
+            ));
+        }
         let o = evaluate(&st, &r, &self.ac)?;
-        if let Some(path) = &self.log {
-            boardlog::append(path, &log_record(&st, self.serial.as_deref(), &r, &o))?;
+        let mut rec = Recorder::open(self.log.as_deref(), &self.trace, false)?;
+        if !rec.is_empty() {
+            // Without --serial the log keeps the test, but it is no board record for a report.
+            let serial = self.serial.as_deref().unwrap_or("");
+            let run = RunInfo::new(&st, &self.trace, "check");
+            rec.write(&mut from_outcome(&st, &run, serial, &r, &o, None, None)?)?;
         }
         match &o {
-            Outcome::Refused(why) => Err(CliError::usage(format!(
-                "not judged (vcc {} V, vb {} V, ve {} V, vc {} V): {why}",
-                r.vcc, r.vb, r.ve, r.vc
-            ))),
+            Outcome::Refused(why) => {
+                // The document still says what happened ("refused", the supply window): a
+                // station script reads why the board was not judged from stdout too.
+                if g.json {
+                    let mut doc = outcome_json(&o, r.vcc);
+                    add_provenance(&st, &mut doc);
+                    json::print(&doc);
+                }
+                Err(CliError::usage(format!(
+                    "not judged (vcc {} V, vb {} V, ve {} V, vc {} V): {why}",
+                    r.vcc, r.vb, r.ve, r.vc
+                )))
+            }
             Outcome::Judged(j) => {
                 if g.json {
                     let mut doc = outcome_json(&o, r.vcc);
@@ -528,7 +596,11 @@ impl Cmd {
                     add_separation(&st, r.vcc, &o, &mut doc);
                     json::print(&doc);
                 } else {
-                    out!("{}", outcome_text(&st, self.serial.as_deref(), &r, &o));
+                    let supply_judged = self.stage.design.is_some() || self.vcc_nominal.is_some();
+                    out!(
+                        "{}",
+                        outcome_text(&st, self.serial.as_deref(), &r, &o, supply_judged)
+                    );
                 }
                 Ok(if j.verdict.pass { EXIT_OK } else { EXIT_FAIL })
             }

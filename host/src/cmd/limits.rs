@@ -7,12 +7,15 @@
 use std::fmt::Write as _;
 
 use biasjig_core::judge::{self, Windows};
-use biasjig_core::settings::TestSettings;
+use biasjig_core::settings::{InputMode, TestSettings};
 use biasjig_core::signaltest::{self, Proposal, ToneWindow, MAX_TONES};
 use biasjig_core::spread::{centre, Node, Sample, Variation};
 use serde_json::{json, Map, Value};
 
-use crate::cmd::check::{board_windows, overrides_json, settings_json, settings_text, Station};
+use crate::cmd::check::{
+    board_windows, inputs_region_warning, overrides_json, settings_json, settings_text, Station,
+    Warning,
+};
 use crate::cmd::spread::spread_error;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::stage_args::{InputArgs, StageArgs, TestArgs};
@@ -38,6 +41,9 @@ pub struct Cmd {
     /// Without it, two frequencies are proposed (when the stage has RL and capacitors)
     #[arg(long = "ac-f", value_name = "F", value_parser = values::value, help_heading = "Signal test")]
     ac_f: Vec<f64>,
+    /// Also write the windows as CSV for other testers: test, low, high, unit, design hash, settings hash
+    #[arg(long, value_name = "FILE")]
+    csv: Option<std::path::PathBuf>,
 }
 
 impl Cmd {
@@ -56,6 +62,25 @@ impl Cmd {
             ));
         }
         let w = board_windows(&st, vcc)?;
+        let mut warnings = Vec::new();
+        if !w.supply.contains(vcc) {
+            // The node windows are the ones `check --vcc V` would apply to a stage of that
+            // nominal; against this stage's nominal and supply tolerance, check refuses the board.
+            warnings.push(Warning {
+                code: "supply_outside_window".into(),
+                text: format!(
+                    "--at-vcc {}: outside the supply window {} to {} (nominal ± supply \
+                     tolerance): `check` does not judge a board whose supply reads that",
+                    eng4(vcc, "V"),
+                    eng4(w.supply.low, "V"),
+                    eng4(w.supply.high, "V")
+                ),
+            });
+        }
+        warnings.extend(inputs_region_warning(&st));
+        for wn in &warnings {
+            eprintln!("biasjig: warning: {}", wn.text);
+        }
         let mut at = r.stage;
         at.vcc.value = vcc;
         let t = &r.settings;
@@ -90,11 +115,18 @@ impl Cmd {
             }
             _ => None,
         };
+        if let Some(path) = &self.csv {
+            crate::board::write_limits_csv(path, &w, &st)?;
+        }
         if g.json {
             let mut doc = to_json(&w, t);
             if let Some(obj) = doc.as_object_mut() {
                 obj.insert("digest".into(), json!(st.digest.to_string()));
                 obj.insert("overrides".into(), overrides_json(&st));
+                obj.insert(
+                    "warnings".into(),
+                    json!(warnings.iter().map(|w| w.code.as_str()).collect::<Vec<_>>()),
+                );
                 if let Some(tw) = &tones {
                     obj.insert("ac".into(), ac_windows_json(tw));
                 }
@@ -273,5 +305,12 @@ pub fn report(
         s,
         "  (IC is derived from the readings as the tester does: through the nominal RC)"
     );
+    if t.inputs.r.is_some() && t.inputs.mode == InputMode::One {
+        let _ = writeln!(
+            s,
+            "  (VBE and VCE are differences of readings taken one node at a time, each node \
+             loaded by its own input alone: they are not the transistor's junction voltages)"
+        );
+    }
     s
 }

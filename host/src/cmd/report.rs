@@ -1,366 +1,270 @@
-//! `biasjig report LOG`: yield and capability from a board log: pass rate, failure Pareto by
-//! fault, per-node mean, standard deviation and Cpk against the limits (over the passing
-//! boards), histograms as SVG, and optionally one self-contained HTML page with the plots.
+//! `biasjig report`: figures a quality engineer can sign, per design hash (never merged), from a
+//! results store (`--store URL`) or board logs (`LOG...`), for a station, a lot and a date range.
+//!
+//! Every record is read as a whole board record: its verdict is re-derived from its windows and
+//! readings, and a record that is not whole (an edited verdict, a bare `{"verdict":"pass"}`) is
+//! refused with its line and left out (exit 2 after the report). Damaged lines of a log (a torn
+//! last line) are skipped with a warning. A record met twice (a log given twice, a log and the
+//! store it was imported into) counts once. See [`crate::analysis`] for the figures.
 
-use std::path::PathBuf;
+use std::collections::HashSet;
+use std::path::{Path, PathBuf};
 
-use plotters::prelude::*;
 use serde_json::{json, Value};
 
-use crate::boardlog;
-use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::{json, Global};
+use crate::analysis::{render, Analysis};
+use crate::error::{CliError, CmdResult, EXIT_OK, EXIT_USAGE};
+use crate::record::{BoardRecord, RepairRecord};
+use crate::store::{self, Filter};
+use crate::{boardlog, clock, json, Global};
 
-/// The judged nodes with their units.
-const NODES: [(&str, &str); 6] = [
-    ("vb", "V"),
-    ("ve", "V"),
-    ("vc", "V"),
-    ("vbe", "V"),
-    ("vce", "V"),
-    ("ic", "A"),
-];
+/// At most this many refused records are named one by one on stderr.
+const NAMED: usize = 50;
 
 /// `biasjig report`.
 #[derive(clap::Args, Debug)]
 pub struct Cmd {
-    /// Board log written by `check --log` or `batch --log`
-    #[arg(value_name = "LOG")]
-    log: PathBuf,
-    /// Write one SVG histogram per node into DIR
+    /// Board logs written by `check --log`, `batch --log` or `station --log`
+    #[arg(value_name = "LOG", required_unless_present = "store")]
+    logs: Vec<PathBuf>,
+    /// Results store: sqlite:PATH or postgres://USER@HOST:PORT/DB
+    #[arg(long, value_name = "URL")]
+    store: Option<String>,
+    /// Only the tests of this station
+    #[arg(long, value_name = "NAME")]
+    station: Option<String>,
+    /// Only the tests of this lot
+    #[arg(long, value_name = "NAME")]
+    lot: Option<String>,
+    /// Only tests from this date or time on (UTC: 2031-05-06 or 2031-05-06T07:08:09Z)
+    #[arg(long, value_name = "DATE")]
+    since: Option<String>,
+    /// Only tests up to this date (the whole day) or time (UTC)
+    #[arg(long, value_name = "DATE")]
+    until: Option<String>,
+    /// Write one SVG control chart and histogram per node and design into DIR
     #[arg(long = "svg-dir", value_name = "DIR")]
     svg_dir: Option<PathBuf>,
-    /// Write the report as one self-contained HTML page with the plots inline
+    /// Write the report as one self-contained HTML page with the charts inline
     #[arg(long, value_name = "FILE")]
     html: Option<PathBuf>,
 }
 
-/// Statistics of one node over the passing boards.
-#[derive(Debug, Clone, Default)]
-pub struct NodeStats {
-    /// Node name.
-    pub name: &'static str,
-    /// Unit.
-    pub unit: &'static str,
-    /// Values.
-    pub values: Vec<f64>,
-    /// Mean.
-    pub mean: f64,
-    /// Sample standard deviation.
-    pub std: f64,
-    /// Mean lower limit.
-    pub low: f64,
-    /// Mean upper limit.
-    pub high: f64,
-    /// Cpk = min(high − mean, mean − low)/(3·std); `None` with fewer than two boards or no spread.
-    pub cpk: Option<f64>,
-}
-
-/// The whole report.
-#[derive(Debug, Clone, Default)]
-pub struct Report {
-    /// Boards judged pass.
-    pub passed: u32,
-    /// Boards judged fail.
-    pub failed: u32,
-    /// Boards whose readings were refused.
-    pub refused: u32,
-    /// First-named fault of each failed board, counted, most frequent first.
-    pub pareto: Vec<(String, u32)>,
-    /// Per-node statistics.
-    pub nodes: Vec<NodeStats>,
-}
-
-/// Build the report from log records.
-pub fn build(records: &[Value]) -> Report {
-    let mut rep = Report::default();
-    let mut pareto: Vec<(String, u32)> = Vec::new();
-    let mut lows = vec![Vec::new(); NODES.len()];
-    let mut highs = vec![Vec::new(); NODES.len()];
-    let mut values = vec![Vec::new(); NODES.len()];
-    for r in records {
-        match r["verdict"].as_str() {
-            Some("pass") => {
-                rep.passed += 1;
-                for (k, (name, _)) in NODES.iter().enumerate() {
-                    let n = &r["nodes"][name];
-                    if let (Some(m), Some(lo), Some(hi)) = (
-                        n["measured"].as_f64(),
-                        n["low"].as_f64(),
-                        n["high"].as_f64(),
-                    ) {
-                        values[k].push(m);
-                        lows[k].push(lo);
-                        highs[k].push(hi);
-                    }
-                }
-            }
-            Some("fail") => {
-                rep.failed += 1;
-                let first = &r["faults"][0];
-                let key = match (first["part"].as_str(), first["mode"].as_str()) {
-                    (Some(p), Some(m)) => format!("{p} {m}"),
-                    _ => "no fault named".to_string(),
-                };
-                match pareto.iter_mut().find(|(k, _)| *k == key) {
-                    Some((_, n)) => *n += 1,
-                    None => pareto.push((key, 1)),
-                }
-            }
-            Some("refused") => rep.refused += 1,
-            _ => {}
-        }
-    }
-    pareto.sort_by(|a, b| b.1.cmp(&a.1).then(a.0.cmp(&b.0)));
-    rep.pareto = pareto;
-    let mean = |v: &[f64]| {
-        if v.is_empty() {
-            f64::NAN
-        } else {
-            v.iter().sum::<f64>() / v.len() as f64
-        }
+fn date_flag(flag: &str, v: &Option<String>, end_of_day: bool) -> Result<Option<i64>, CliError> {
+    let Some(s) = v else {
+        return Ok(None);
     };
-    for (k, (name, unit)) in NODES.iter().enumerate() {
-        let v = std::mem::take(&mut values[k]);
-        let m = mean(&v);
-        let std = if v.len() > 1 {
-            (v.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (v.len() - 1) as f64).sqrt()
-        } else {
-            f64::NAN
-        };
-        let (low, high) = (mean(&lows[k]), mean(&highs[k]));
-        let cpk = if std > 0.0 {
-            Some((high - m).min(m - low) / (3.0 * std))
-        } else {
-            None
-        };
-        rep.nodes.push(NodeStats {
-            name,
-            unit,
-            values: v,
-            mean: m,
-            std,
-            low,
-            high,
-            cpk,
-        });
-    }
-    rep
-}
-
-/// An SVG histogram of a node's values with its window marked.
-pub fn histogram(n: &NodeStats) -> Result<String, String> {
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (480, 300)).into_drawing_area();
-        root.fill(&WHITE).map_err(|e| e.to_string())?;
-        let (mut lo, mut hi) = (n.low, n.high);
-        for v in &n.values {
-            lo = lo.min(*v);
-            hi = hi.max(*v);
-        }
-        if !(lo.is_finite() && hi.is_finite() && hi > lo) {
-            lo = 0.0;
-            hi = 1.0;
-        }
-        let pad = 0.05 * (hi - lo);
-        let (lo, hi) = (lo - pad, hi + pad);
-        const BINS: usize = 30;
-        let width = (hi - lo) / BINS as f64;
-        let mut counts = [0u32; BINS];
-        for v in &n.values {
-            let k = (((v - lo) / width) as usize).min(BINS - 1);
-            counts[k] += 1;
-        }
-        let top = counts.iter().copied().max().unwrap_or(1).max(1);
-        let caption = format!(
-            "{} ({}) of passing boards; window dashed",
-            n.name.to_uppercase(),
-            n.unit
-        );
-        let mut chart = ChartBuilder::on(&root)
-            .caption(caption, ("sans-serif", 16))
-            .margin(10)
-            .x_label_area_size(30)
-            .y_label_area_size(40)
-            .build_cartesian_2d(lo..hi, 0u32..top + 1)
-            .map_err(|e| e.to_string())?;
-        chart
-            .configure_mesh()
-            .disable_x_mesh()
-            .draw()
-            .map_err(|e| e.to_string())?;
-        chart
-            .draw_series(counts.iter().enumerate().map(|(k, c)| {
-                let x0 = lo + width * k as f64;
-                Rectangle::new([(x0, 0), (x0 + width, *c)], BLUE.mix(0.6).filled())
-            }))
-            .map_err(|e| e.to_string())?;
-        for edge in [n.low, n.high] {
-            if edge.is_finite() {
-                chart
-                    .draw_series(DashedLineSeries::new(
-                        vec![(edge, 0), (edge, top + 1)],
-                        6,
-                        4,
-                        RED.stroke_width(2),
-                    ))
-                    .map_err(|e| e.to_string())?;
-            }
-        }
-        root.present().map_err(|e| e.to_string())?;
-    }
-    Ok(svg)
-}
-
-fn text_report(rep: &Report) -> String {
-    let judged = rep.passed + rep.failed;
-    let rate = if judged > 0 {
-        100.0 * f64::from(rep.passed) / f64::from(judged)
+    let ms = clock::parse_ms(s).ok_or_else(|| {
+        CliError::field(
+            flag,
+            s,
+            "allowed: a UTC date 2031-05-06 or time 2031-05-06T07:08:09Z",
+        )
+    })?;
+    Ok(Some(if end_of_day && s.len() == 10 {
+        ms + 86_400_000 - 1
     } else {
-        0.0
-    };
-    let mut out = format!(
-        "{} boards: {} passed, {} failed, {} refused; pass rate {rate:.1} %\n",
-        judged + rep.refused,
-        rep.passed,
-        rep.failed,
-        rep.refused
-    );
-    if !rep.pareto.is_empty() {
-        out.push_str("\nFailures by likely fault:\n");
-        for (k, n) in &rep.pareto {
-            out.push_str(&format!("  {n:>5}  {k}\n"));
-        }
-    }
-    out.push_str("\nPassing boards per node (mean, std, window, Cpk):\n");
-    for n in &rep.nodes {
-        let cpk = n.cpk.map_or("-".to_string(), |c| format!("{c:.2}"));
-        out.push_str(&format!(
-            "  {:<4} {:>12} {:>12}   {} .. {}   Cpk {cpk}\n",
-            n.name.to_uppercase(),
-            crate::text::eng4(n.mean, n.unit),
-            crate::text::eng(n.std, n.unit),
-            crate::text::eng4(n.low, n.unit),
-            crate::text::eng4(n.high, n.unit)
-        ));
-    }
-    out
+        ms
+    }))
 }
 
-fn escape(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
+/// What loading met besides whole records.
+#[derive(Debug, Default)]
+struct Loaded {
+    refused: u64,
+    skipped_lines: u64,
+    doubles: u64,
+}
+
+/// Write a file whole: a temporary file beside it, then a rename.
+fn write_atomic(path: &Path, text: &str) -> std::io::Result<()> {
+    crate::designfile::write_atomic(path, text.as_bytes())
 }
 
 impl Cmd {
+    fn filter(&self) -> Result<Filter, CliError> {
+        Ok(Filter {
+            station: self.station.clone(),
+            lot: self.lot.clone(),
+            since_ms: date_flag("--since", &self.since, false)?,
+            until_ms: date_flag("--until", &self.until, true)?,
+        })
+    }
+
+    fn load(&self, filter: &Filter) -> Result<(Analysis, Loaded), CliError> {
+        let mut st = match &self.store {
+            Some(u) => Some(store::open(u)?),
+            None => None,
+        };
+        // Repairs first: the rework loop matches each to the failed test before it.
+        let mut repairs: Vec<RepairRecord> = match &mut st {
+            Some(s) => s.repairs()?,
+            None => Vec::new(),
+        };
+        for log in &self.logs {
+            boardlog::for_each(
+                log,
+                |_, v| {
+                    if v.get("kind").and_then(Value::as_str) == Some("repair") {
+                        if let Ok(r) = serde_json::from_value::<RepairRecord>(v) {
+                            repairs.push(r);
+                        }
+                    }
+                    Ok(())
+                },
+                |_| {},
+            )?;
+        }
+        let mut seen_repairs = HashSet::new();
+        repairs.retain(|r| seen_repairs.insert(r.record_id.clone()));
+        let mut a = Analysis::with_repairs(repairs);
+        let mut l = Loaded::default();
+        let mut seen: HashSet<String> = HashSet::new();
+        let mut take = |r: BoardRecord, l: &mut Loaded| {
+            if seen.insert(r.record_id.clone()) {
+                a.add(&r);
+            } else {
+                l.doubles += 1;
+            }
+        };
+        if let Some(s) = &mut st {
+            s.for_each_test(filter, &mut |r| {
+                take(r, &mut l);
+                Ok(())
+            })?;
+        }
+        for log in &self.logs {
+            let name = log.display().to_string();
+            let mut refused = 0u64;
+            let mut skipped = 0u64;
+            boardlog::for_each(
+                log,
+                |line, v| {
+                    if v.get("kind").and_then(Value::as_str) == Some("repair") {
+                        return Ok(());
+                    }
+                    match BoardRecord::from_value(v) {
+                        Ok(r) if filter.admits(&r) => take(r, &mut l),
+                        Ok(_) => {}
+                        Err(e) => {
+                            refused += 1;
+                            if refused <= NAMED as u64 {
+                                eprintln!("biasjig: {name}: line {line}: record refused: {e}");
+                            }
+                        }
+                    }
+                    Ok(())
+                },
+                |w| {
+                    skipped += 1;
+                    eprintln!("biasjig: warning: {name}: {w}");
+                },
+            )?;
+            if refused > NAMED as u64 {
+                eprintln!(
+                    "biasjig: {name}: {} more refused records not named",
+                    refused - NAMED as u64
+                );
+            }
+            l.refused += refused;
+            l.skipped_lines += skipped;
+        }
+        Ok((a, l))
+    }
+
+    fn filter_note(&self) -> String {
+        let mut parts = Vec::new();
+        if let Some(s) = &self.store {
+            parts.push(format!("store {s}"));
+        }
+        for l in &self.logs {
+            parts.push(format!("log {}", l.display()));
+        }
+        for (k, v) in [
+            ("station", &self.station),
+            ("lot", &self.lot),
+            ("since", &self.since),
+            ("until", &self.until),
+        ] {
+            if let Some(v) = v {
+                parts.push(format!("{k} {v}"));
+            }
+        }
+        format!("From {}; written {}.", parts.join(", "), clock::now_utc())
+    }
+
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
-        let contents = boardlog::read(&self.log)?;
-        for w in &contents.warnings {
-            eprintln!("biasjig: warning: {}: {w}", self.log.display());
-        }
-        let rep = build(&contents.records);
-        let svgs: Vec<(String, String)> = if self.svg_dir.is_some() || self.html.is_some() {
-            rep.nodes
-                .iter()
-                .map(|n| histogram(n).map(|s| (n.name.to_string(), s)))
-                .collect::<Result<_, _>>()
-                .map_err(|e| CliError::usage(format!("plot: {e}")))?
-        } else {
-            Vec::new()
-        };
-        if let Some(dir) = &self.svg_dir {
-            std::fs::create_dir_all(dir)
-                .map_err(|e| CliError::usage(format!("--svg-dir: {}: {e}", dir.display())))?;
-            for (name, svg) in &svgs {
-                let p = dir.join(format!("{name}.svg"));
-                crate::designfile::write_atomic(&p, svg.as_bytes())
-                    .map_err(|e| CliError::usage(format!("--svg-dir: {}: {e}", p.display())))?;
-            }
-        }
-        let text = text_report(&rep);
+        let filter = self.filter()?;
+        let (a, l) = self.load(&filter)?;
         if let Some(path) = &self.html {
-            let mut page = String::from(
-                "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>biasjig yield report</title>\
-                 <style>body{font-family:sans-serif;margin:2em}pre{background:#f4f4f4;padding:1em}\
-                 figure{display:inline-block;margin:0.5em}</style></head><body>\n<h1>Yield report</h1>\n",
-            );
-            page.push_str(&format!("<pre>{}</pre>\n", escape(&text)));
-            for (_, svg) in &svgs {
-                page.push_str(&format!("<figure>{svg}</figure>\n"));
-            }
-            page.push_str("</body></html>\n");
-            // Whole or not at all: a temporary file beside it, then a rename.
-            crate::designfile::write_atomic(path, page.as_bytes())
+            let page = render::html(&a, &self.filter_note())
+                .map_err(|e| CliError::usage(format!("plot: {e}")))?;
+            write_atomic(path, &page)
                 .map_err(|e| CliError::usage(format!("--html: {}: {e}", path.display())))?;
         }
+        if let Some(dir) = &self.svg_dir {
+            self.write_svgs(&a, dir)?;
+        }
         if g.json {
-            let judged = rep.passed + rep.failed;
-            let nodes: serde_json::Map<String, Value> = rep
-                .nodes
+            let designs: Vec<Value> = a
+                .designs
                 .iter()
-                .map(|n| {
-                    (
-                        n.name.to_string(),
-                        json!({"mean": json::num(n.mean), "std": json::num(n.std),
-                        "low": json::num(n.low), "high": json::num(n.high), "cpk": json::opt(n.cpk),
-                        "boards": n.values.len()}),
-                    )
-                })
+                .map(|d| render::design_json(&a, d))
                 .collect();
+            let w = a.rework(None);
             json::print(&json!({
-                "boards": judged + rep.refused, "passed": rep.passed, "failed": rep.failed,
-                "refused": rep.refused,
-                "pass_rate": if judged > 0 { json::num(f64::from(rep.passed) / f64::from(judged)) } else { Value::Null },
-                "pareto": rep.pareto.iter().map(|(k, n)| {
-                    let (part, mode) = k.split_once(' ').unwrap_or((k.as_str(), ""));
-                    json!({"part": part, "mode": mode, "count": n})
-                }).collect::<Vec<_>>(),
-                "nodes": nodes,
-                "skipped_lines": contents.warnings.len(),
+                "designs": designs,
+                "filter": {"station": self.station, "lot": self.lot, "since": self.since,
+                           "until": self.until},
+                "refused_records": l.refused,
+                "skipped_lines": l.skipped_lines,
+                "records_met_twice": l.doubles,
+                "repairs": w.repairs,
             }));
         } else {
-            out!("{text}");
+            outln!("{}", self.filter_note());
+            if a.designs.is_empty() {
+                outln!("No tests.");
+            }
+            for d in &a.designs {
+                outln!("\n{}", render::design_text(&a, d));
+            }
+            if l.refused > 0 || l.skipped_lines > 0 {
+                outln!(
+                    "{} records refused (not whole board records), {} damaged lines skipped",
+                    l.refused,
+                    l.skipped_lines
+                );
+            }
         }
-        Ok(EXIT_OK)
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn rec(verdict: &str, vb: f64, fault: Option<(&str, &str)>) -> Value {
-        let node = |m: f64| json!({"measured": m, "low": 2.0, "high": 3.0, "ok": true});
-        let faults: Vec<Value> = fault
-            .map(|(p, m)| json!({"part": p, "mode": m}))
-            .into_iter()
-            .collect();
-        json!({"verdict": verdict, "nodes": {"vb": node(vb), "ve": node(vb), "vc": node(vb),
-               "vbe": node(vb), "vce": node(vb), "ic": node(vb)}, "faults": faults})
+        Ok(if l.refused > 0 { EXIT_USAGE } else { EXIT_OK })
     }
 
-    #[test]
-    fn pass_rate_pareto_and_cpk() {
-        let records = vec![
-            rec("pass", 2.4, None),
-            rec("pass", 2.6, None),
-            rec("fail", 0.0, Some(("RC", "open"))),
-            rec("fail", 0.0, Some(("R1", "open"))),
-            rec("fail", 0.0, Some(("RC", "open"))),
-            json!({"verdict": "refused"}),
-        ];
-        let rep = build(&records);
-        assert_eq!((rep.passed, rep.failed, rep.refused), (2, 3, 1));
-        assert_eq!(rep.pareto[0], ("RC open".to_string(), 2));
-        let vb = &rep.nodes[0];
-        // Cpk = min(USL − mean, mean − LSL)/(3σ) (common practice); mean 2.5, σ = 0.1414.
-        assert!((vb.mean - 2.5).abs() < 1e-12);
-        let sigma = (0.02f64).sqrt();
-        assert!((vb.cpk.unwrap() - 0.5 / (3.0 * sigma)).abs() < 1e-9);
-        let svg = histogram(vb).unwrap();
-        assert!(svg.starts_with("<svg") && svg.contains("rect"));
+    fn write_svgs(&self, a: &Analysis, dir: &Path) -> Result<(), CliError> {
+        let bad = |e: String| CliError::usage(format!("--svg-dir: {}: {e}", dir.display()));
+        std::fs::create_dir_all(dir).map_err(|e| bad(e.to_string()))?;
+        for d in &a.designs {
+            for n in render::nodes(d) {
+                let p = crate::analysis::charts::NodePlot {
+                    name: n.name,
+                    unit: n.unit,
+                    values: &n.values,
+                    window: n.window,
+                    chart: n.chart.as_ref(),
+                };
+                for (kind, svg) in [
+                    ("chart", crate::analysis::charts::control(&p).map_err(&bad)?),
+                    (
+                        "histogram",
+                        crate::analysis::charts::histogram(&p).map_err(&bad)?,
+                    ),
+                ] {
+                    let f = dir.join(format!("{}-{}-{kind}.svg", d.hash, n.name));
+                    write_atomic(&f, &svg).map_err(|e| bad(e.to_string()))?;
+                }
+            }
+        }
+        Ok(())
     }
 }

@@ -14,7 +14,8 @@
 //! The log is the board log of `biasjig check --log` ([`crate::boardlog`]: append-only JSON
 //! Lines, torn tails skipped), and each record has the shape of `biasjig check --json` plus
 //! `time`, `serial`, `design` (`id`, `hash`, `digest`), `readings`, `settings`, `digest`,
-//! `overrides` and `retest`.
+//! `overrides` and `retest` (and `typed` for refused typed readings); with `--store` the same
+//! records go to the results store with station, operator and lot ([`crate::board::StationSink`]).
 
 use std::collections::HashMap;
 use std::io::{BufRead, Write};
@@ -28,12 +29,14 @@ use biasjig_core::settings::{digest, InputMode, Inputs, TestSettings, DEFAULT_TE
 use biasjig_core::stage::{Polarity, Resistor, Stage};
 use serde_json::{json, Map, Value};
 
+use crate::board::StationSink;
 use crate::boardlog;
 use crate::cmd::console::{link_error, local_console, sync_budget};
 use crate::designfile;
 use crate::error::{CliError, CmdResult, EXIT_OK};
 use crate::link::{Link, LinkError, MemoryPort, Port, Reply, SerialLink};
 use crate::stage_args::{settings_error, InputArgs, TestArgs};
+use crate::store::TraceArgs;
 use crate::values;
 use crate::Global;
 
@@ -73,6 +76,8 @@ pub struct Cmd {
     /// unit starts on it and can choose it again with no PC
     #[arg(long, value_name = "NAME")]
     pub keep: Option<String>,
+    #[command(flatten)]
+    pub trace: TraceArgs,
 }
 
 impl Cmd {
@@ -615,8 +620,23 @@ pub fn refused_record(
     });
     if let (Some(t), Some(obj)) = (typed, doc.as_object_mut()) {
         obj.insert("typed".into(), json!(t));
+        if let Some([vcc, vb, ve, vc]) = typed_readings(t) {
+            obj.insert(
+                "readings".into(),
+                json!({"vcc": vcc, "vb": vb, "ve": ve, "vc": vc}),
+            );
+        }
     }
     doc
+}
+
+/// The readings of a typed line when it is four plain numbers in volts (VCC VB VE VC).
+fn typed_readings(typed: &str) -> Option<[f64; 4]> {
+    let v: Vec<f64> = typed
+        .split_whitespace()
+        .map(|w| w.parse::<f64>().ok().filter(|x| x.is_finite()))
+        .collect::<Option<_>>()?;
+    v.try_into().ok()
 }
 
 /// The verdict, large, with the likely faults in the words of `biasjig check` (the core's
@@ -705,23 +725,32 @@ fn readings_line(typed: &str) -> Result<String, String> {
     Ok(format!("check {}", words.join(" ")))
 }
 
-/// Serial numbers already in the log, with how many records each has.
-fn serials_in(log: &Path) -> HashMap<String, usize> {
+/// Serial numbers already in the log, with how many records each has (none without a log).
+fn serials_in(log: Option<&Path>) -> HashMap<String, usize> {
+    let Some(log) = log else {
+        return HashMap::new();
+    };
     let mut seen = HashMap::new();
     if log.exists() {
-        if let Ok(c) = boardlog::read(log) {
-            for r in c.records {
-                if let Some(s) = r["serial"].as_str() {
+        // Tests only: a repair record in the log names the serial too.
+        let _ = boardlog::for_each(
+            log,
+            |_, r| {
+                if let (Some(s), None) = (r["serial"].as_str(), r.get("kind")) {
                     *seen.entry(s.to_owned()).or_insert(0) += 1;
                 }
-            }
-        }
+                Ok(())
+            },
+            |_| {},
+        );
     }
     seen
 }
 
-/// Run the loop: serial numbers (and, manual, readings) from `input`. A serial number already
-/// in the log (or done in this run) is said so and its record marked `retest`. Manual: a line
+/// Run the loop: serial numbers (and, manual, readings) from `input`; every record (judged or
+/// refused) goes through `sink` to the log and the store, with station, operator and lot. A
+/// serial number already in the log, in the store with this design, or done in this run is said
+/// so and its record marked `retest`. Manual: a line
 /// that is not readings (a typing error) asks for the readings again; readings the instrument
 /// refuses (`IMPLAUSIBLE`) are logged as refused with the reason, and the readings are asked
 /// again (an empty line goes on to the next board). Instrument: a refused board (`IMPLAUSIBLE`,
@@ -730,11 +759,11 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
     st: &mut Station<P, F>,
     mut input: impl BufRead,
     out: &mut impl Write,
-    log: &Path,
+    sink: &mut StationSink,
     manual: bool,
 ) -> Result<usize, CliError> {
     let mut boards = 0;
-    let mut seen = serials_in(log);
+    let mut seen = serials_in(sink.log.as_deref());
     let mut ask = |out: &mut dyn Write, prompt: &str| -> Result<Option<String>, CliError> {
         write!(out, "{prompt}").ok();
         out.flush().ok();
@@ -752,24 +781,46 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
             writeln!(out, "not a serial number: control characters in {serial:?}").ok();
             continue;
         }
-        let earlier = seen.get(&serial).copied().unwrap_or(0);
+        if serial.split_whitespace().nth(1).is_some() {
+            // Readings typed at the serial prompt would otherwise become a board's name.
+            writeln!(
+                out,
+                "not a serial number: {serial:?} has spaces (readings are asked for after the \
+                 serial number); type the serial number"
+            )
+            .ok();
+            continue;
+        }
+        let in_log = seen.get(&serial).copied().unwrap_or(0);
+        let in_store = sink.earlier_tests(&serial, &format!("{:016x}", st.hash))?;
+        let (earlier, place) = if in_store > in_log {
+            (in_store, "store")
+        } else {
+            (in_log, "log")
+        };
         let retest = earlier > 0;
         if retest {
             writeln!(
                 out,
-                "board {serial} was tested before ({earlier} record{} in the log): this test is \
-                 recorded as a retest",
+                "board {serial} was tested before ({earlier} record{} in the {place}): this test \
+                 is recorded as a retest",
                 if earlier == 1 { "" } else { "s" }
             )
             .ok();
         }
+        // A refusal of this board is already on record (the empty line then only moves on).
+        let mut refusal_logged = false;
         let reply = loop {
             let (action, typed) = if manual {
                 let Some(r) = ask(out, "readings VCC VB VE VC (empty: next board): ")? else {
                     break 'boards;
                 };
                 if r.is_empty() {
-                    writeln!(out, "board {serial}: no readings, not logged").ok();
+                    if refusal_logged {
+                        writeln!(out, "board {serial}: logged as refused; next board").ok();
+                    } else {
+                        writeln!(out, "board {serial}: no readings, not logged").ok();
+                    }
                     continue 'boards;
                 }
                 match readings_line(&r) {
@@ -794,19 +845,17 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
                     if manual || ["IMPLAUSIBLE", "JIG"].contains(&code_of(&status)) =>
                 {
                     let reason = status.strip_prefix("err ").unwrap_or(&status).to_owned();
-                    boardlog::append(
-                        log,
-                        &st.stamp(refused_record(
-                            &serial,
-                            st.design_id(),
-                            st.hash,
-                            &reason,
-                            typed.as_deref(),
-                            &boardlog::now_utc(),
-                            retest,
-                        )),
-                    )?;
+                    sink.write_value(st.stamp(refused_record(
+                        &serial,
+                        st.design_id(),
+                        st.hash,
+                        &reason,
+                        typed.as_deref(),
+                        &boardlog::now_utc(),
+                        retest,
+                    )))?;
                     *seen.entry(serial.clone()).or_insert(0) += 1;
+                    refusal_logged = true;
                     writeln!(
                         out,
                         "{}not checked, logged as refused: {reason}",
@@ -825,17 +874,14 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
             }
         };
         let time = boardlog::now_utc();
-        boardlog::append(
-            log,
-            &st.stamp(record(
-                &serial,
-                st.design_id(),
-                st.hash,
-                &reply,
-                &time,
-                retest,
-            )),
-        )?;
+        sink.write_value(st.stamp(record(
+            &serial,
+            st.design_id(),
+            st.hash,
+            &reply,
+            &time,
+            retest,
+        )))?;
         *seen.entry(serial.clone()).or_insert(0) += 1;
         write!(out, "{}", banner(&st.stage, &reply)).ok();
         boards += 1;
@@ -895,7 +941,8 @@ impl Cmd {
             }
             st = st.keep_as(self.keep.clone());
             st.prepare().map_err(board_err)?;
-            run_loop(&mut st, stdin.lock(), &mut out, &self.log, true)?
+            let mut sink = StationSink::open(Some(&self.log), &self.trace)?;
+            run_loop(&mut st, stdin.lock(), &mut out, &mut sink, true)?
         } else {
             let path = self.port.clone().unwrap_or_default();
             let baud = self.baud;
@@ -929,11 +976,18 @@ impl Cmd {
                     )),
                 if adopt { " (the instrument's own)" } else { "" }
             );
-            run_loop(&mut st, stdin.lock(), &mut out, &self.log, false)?
+            let mut sink = StationSink::open(Some(&self.log), &self.trace)?;
+            sink.firmware = Some(id.to_string());
+            run_loop(&mut st, stdin.lock(), &mut out, &mut sink, false)?
         };
         eprintln!(
-            "{boards} boards judged and logged to {}",
-            self.log.display()
+            "{boards} boards judged and logged to {}{}",
+            self.log.display(),
+            if self.trace.store.is_some() {
+                " and the results store"
+            } else {
+                ""
+            }
         );
         Ok(EXIT_OK)
     }
@@ -1117,7 +1171,8 @@ mod tests {
         }
         let input = std::io::BufReader::with_capacity(1, Feed(board, 0, Vec::new(), 0));
         let mut screen = Vec::new();
-        let n = run_loop(&mut st, input, &mut screen, &log, false).unwrap();
+        let mut sink = StationSink::open(Some(&log), &TraceArgs::default()).unwrap();
+        let n = run_loop(&mut st, input, &mut screen, &mut sink, false).unwrap();
         assert_eq!(n, 12);
         assert!(st.resyncs >= 2, "resets happened: {}", st.resyncs);
         let c = boardlog::read(&log).unwrap();
@@ -1372,7 +1427,8 @@ mod tests {
         let input =
             std::io::BufReader::with_capacity(64, Feed(board, vec!["SN-2\n", "SN-3\n", "SN-4\n"]));
         let mut screen = Vec::new();
-        let n = run_loop(&mut st, input, &mut screen, &log, false).unwrap();
+        let mut sink = StationSink::open(Some(&log), &TraceArgs::default()).unwrap();
+        let n = run_loop(&mut st, input, &mut screen, &mut sink, false).unwrap();
         assert_eq!(n, 2, "two boards judged");
         let recs = boardlog::read(&log).unwrap().records;
         let v: Vec<(&str, &str)> = recs

@@ -1,0 +1,158 @@
+//! SVG pictures for the HTML report: the individuals chart of a node in test order and the
+//! histogram of its readings against the window at the nominal supply.
+
+use plotters::prelude::*;
+
+use super::stats::Chart;
+
+/// A node's data for its pictures.
+pub struct NodePlot<'a> {
+    /// Node name (vb, ...).
+    pub name: &'a str,
+    /// Unit.
+    pub unit: &'a str,
+    /// Readings referred to the nominal supply, in test order.
+    pub values: &'a [f64],
+    /// Window at the nominal supply.
+    pub window: Option<(f64, f64)>,
+    /// The individuals chart.
+    pub chart: Option<&'a Chart>,
+}
+
+fn err(e: impl std::fmt::Display) -> String {
+    e.to_string()
+}
+
+/// The individuals chart: points in test order, centre and control limits, signals in red.
+pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
+    let mut svg = String::new();
+    let Some(c) = n.chart else {
+        return Ok(svg);
+    };
+    {
+        let root = SVGBackend::with_string(&mut svg, (640, 300)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let (mut lo, mut hi) = (c.lcl(), c.ucl());
+        for v in n.values {
+            lo = lo.min(*v);
+            hi = hi.max(*v);
+        }
+        if !(lo.is_finite() && hi.is_finite() && hi > lo) {
+            (lo, hi) = (c.centre - 1.0, c.centre + 1.0);
+        }
+        let pad = 0.05 * (hi - lo);
+        let len = n.values.len().max(2);
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!(
+                    "{} ({}) individuals chart, first tests in test order",
+                    n.name.to_uppercase(),
+                    n.unit
+                ),
+                ("sans-serif", 15),
+            )
+            .margin(10)
+            .x_label_area_size(30)
+            .y_label_area_size(60)
+            .build_cartesian_2d(0..len, (lo - pad)..(hi + pad))
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .draw()
+            .map_err(err)?;
+        chart
+            .draw_series(LineSeries::new(
+                n.values.iter().enumerate().map(|(i, v)| (i, *v)),
+                BLUE.stroke_width(1),
+            ))
+            .map_err(err)?;
+        for (y, style) in [
+            (c.centre, GREEN.stroke_width(1)),
+            (c.ucl(), RED.stroke_width(1)),
+            (c.lcl(), RED.stroke_width(1)),
+        ] {
+            chart
+                .draw_series(DashedLineSeries::new(vec![(0, y), (len, y)], 6, 4, style))
+                .map_err(err)?;
+        }
+        chart
+            .draw_series(c.signals.iter().filter_map(|(_, i)| {
+                n.values
+                    .get(*i)
+                    .map(|v| Circle::new((*i, *v), 3, RED.filled()))
+            }))
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
+/// Histogram of the readings with the window at the nominal supply dashed.
+pub fn histogram(n: &NodePlot<'_>) -> Result<String, String> {
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (480, 300)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let (wl, wh) = n.window.unwrap_or((f64::NAN, f64::NAN));
+        let (mut lo, mut hi) = (wl, wh);
+        for v in n.values {
+            lo = lo.min(*v);
+            hi = hi.max(*v);
+        }
+        if !(lo.is_finite() && hi.is_finite() && hi > lo) {
+            (lo, hi) = (0.0, 1.0);
+        }
+        let pad = 0.05 * (hi - lo);
+        let (lo, hi) = (lo - pad, hi + pad);
+        const BINS: usize = 30;
+        let width = (hi - lo) / BINS as f64;
+        let mut counts = [0u32; BINS];
+        for v in n.values {
+            let k = (((v - lo) / width) as usize).min(BINS - 1);
+            if let Some(c) = counts.get_mut(k) {
+                *c += 1;
+            }
+        }
+        let top = counts.iter().copied().max().unwrap_or(1).max(1);
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!(
+                    "{} ({}) at the nominal supply; window dashed",
+                    n.name.to_uppercase(),
+                    n.unit
+                ),
+                ("sans-serif", 15),
+            )
+            .margin(10)
+            .x_label_area_size(30)
+            .y_label_area_size(40)
+            .build_cartesian_2d(lo..hi, 0u32..top + 1)
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .draw()
+            .map_err(err)?;
+        chart
+            .draw_series(counts.iter().enumerate().map(|(k, c)| {
+                let x0 = lo + width * k as f64;
+                Rectangle::new([(x0, 0), (x0 + width, *c)], BLUE.mix(0.6).filled())
+            }))
+            .map_err(err)?;
+        for edge in [wl, wh] {
+            if edge.is_finite() {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        vec![(edge, 0), (edge, top + 1)],
+                        6,
+                        4,
+                        RED.stroke_width(2),
+                    ))
+                    .map_err(err)?;
+            }
+        }
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
