@@ -956,7 +956,10 @@ fn held(h: &Hypothesis) -> Coarse {
 
 // Every gain reading fits in the slots `hold` uses: `score`, `estimate` and a whole pair of
 // `gains` for each further two.
-const _: () = assert!(GAIN_SLOTS % 2 == 0 && GAIN_SLOTS <= 2 + GAIN_SLOTS / 2);
+const fn gains_fit(slots: usize) -> bool {
+    slots % 2 == 0 && slots <= 2 + slots / 2
+}
+const _: () = assert!(gains_fit(GAIN_SLOTS));
 
 /// The crude fit of `suspect` at typical hFE over [lo, hi] of log(value) (`grid` points, then
 /// `steps` of golden section; without a value to fit, one solve).
