@@ -901,6 +901,66 @@ struct Coarse {
     y: [f64; DIM],
 }
 
+/// A screened hypothesis held in its own slot of the result until its full fit replaces it: the
+/// screen's list then needs no storage of its own (about 3 KB with the signal test, which an
+/// instrument would otherwise carry on its stack). Every value is kept bit for bit: χ² in
+/// `chi2`, log(value) in `beta`, VB, VE, VC in `predicted`, the gains in `score`, `estimate` and
+/// (two to an `f64`) the bits of `gains`.
+fn hold(suspect: Suspect, c: &Coarse) -> Hypothesis {
+    let extra = |k: usize| c.y.get(3 + k).copied().unwrap_or(0.0);
+    let mut gains = [0.0f32; GAIN_SLOTS];
+    for (k, pair) in gains.chunks_mut(2).enumerate() {
+        let bits = extra(2 + k).to_bits();
+        if let Some(lo) = pair.get_mut(0) {
+            *lo = f32::from_bits(bits as u32);
+        }
+        if let Some(hi) = pair.get_mut(1) {
+            *hi = f32::from_bits((bits >> 32) as u32);
+        }
+    }
+    Hypothesis {
+        suspect,
+        score: extra(0),
+        chi2: c.chi2,
+        estimate: Some(extra(1)),
+        beta: c.lv,
+        predicted: [c.y[0], c.y[1], c.y[2]],
+        gains,
+        group: 0,
+    }
+}
+
+/// The screened hypothesis [`hold`] put in `h`.
+fn held(h: &Hypothesis) -> Coarse {
+    let mut y = [0.0; DIM];
+    for (slot, v) in y.iter_mut().zip(h.predicted) {
+        *slot = v;
+    }
+    let pairs = h.gains.chunks(2).map(|p| {
+        let lo = p.first().map_or(0, |g| u64::from(g.to_bits()));
+        let hi = p.get(1).map_or(0, |g| u64::from(g.to_bits()));
+        f64::from_bits(lo | (hi << 32))
+    });
+    let extra = [h.score, h.estimate.unwrap_or(0.0)]
+        .into_iter()
+        .chain(pairs);
+    for (slot, v) in y.iter_mut().skip(3).zip(extra) {
+        *slot = v;
+    }
+    Coarse {
+        chi2: h.chi2,
+        lv: h.beta,
+        y,
+    }
+}
+
+// Every gain reading fits in the slots `hold` uses: `score`, `estimate` and a whole pair of
+// `gains` for each further two.
+const fn gains_fit(slots: usize) -> bool {
+    slots % 2 == 0 && slots <= 2 + slots / 2
+}
+const _: () = assert!(gains_fit(GAIN_SLOTS));
+
 /// The crude fit of `suspect` at typical hFE over [lo, hi] of log(value) (`grid` points, then
 /// `steps` of golden section; without a value to fit, one solve).
 fn locate(
@@ -1103,37 +1163,45 @@ pub fn diagnose_with_signal_into(
     // 1. The screen: every hypothesis at typical hFE (value faults at the points of a coarse
     //    grid) under the crude error model.
     let crude = crude_inverse(&ctx, meter);
-    let mut coarse: Vec<(Suspect, Coarse), CAPACITY> = Vec::new();
+    // The screen's findings wait in the result's own slots (see `hold`), in dictionary order.
+    let ranked = &mut out.ranked;
+    let mut screened = [f64::INFINITY; CAPACITY];
     for suspect in dictionary(stage, !tones.is_empty()) {
         if let Some(c) = screen(&mut ctx, &crude, suspect) {
-            let _ = coarse.push((suspect, c));
+            if let Some(slot) = screened.get_mut(ranked.len()) {
+                *slot = c.chi2;
+            }
+            let _ = ranked.push(hold(suspect, &c));
         }
     }
-    let best_coarse = coarse.iter().fold(
-        f64::INFINITY,
-        |m, c| if c.1.chi2 < m { c.1.chi2 } else { m },
-    );
+    let count = ranked.len();
+    let screened = screened.get(..count).unwrap_or(&[]);
+    let best_coarse = screened
+        .iter()
+        .fold(f64::INFINITY, |m, &c| if c < m { c } else { m });
     // 2. The full fit for every hypothesis the screen cannot rule out: the best SCREEN_KEEP and
     //    any within SCREEN_MARGIN of the best. The rest keep their coarse fit.
-    let ranked = &mut out.ranked;
     let mut rough = 0u64;
     let mut floor = f64::INFINITY;
-    for &(suspect, c) in &coarse {
-        let better = coarse.iter().filter(|o| o.1.chi2 < c.chi2).count();
+    for i in 0..count {
+        let Some(h) = ranked.get(i) else { break };
+        let (suspect, c) = (h.suspect, held(h));
+        let better = screened.iter().filter(|&&o| o < c.chi2).count();
         let full = if better < SCREEN_KEEP || c.chi2 <= best_coarse + SCREEN_MARGIN {
             fit(&mut ctx, meter, var, &crude, suspect, c)
         } else {
             None
         };
         let (chi2, estimate, beta, predicted) = full.unwrap_or_else(|| {
-            rough |= 1 << ranked.len();
+            rough |= 1 << i;
             let estimate = value_interval(&ctx.stage, suspect).map(|_| libm::exp(c.lv));
             (c.chi2, estimate, profile.beta_typ, c.y)
         });
-        if rough & (1 << ranked.len()) == 0 && chi2 < floor {
+        if rough & (1 << i) == 0 && chi2 < floor {
             floor = chi2;
         }
-        let _ = ranked.push(Hypothesis {
+        let Some(slot) = ranked.get_mut(i) else { break };
+        *slot = Hypothesis {
             suspect,
             score: 0.0,
             chi2: if chi2.is_finite() { chi2 } else { f64::MAX },
@@ -1142,7 +1210,7 @@ pub fn diagnose_with_signal_into(
             predicted: [predicted[0], predicted[1], predicted[2]],
             gains: core::array::from_fn(|k| predicted.get(3 + k).copied().unwrap_or(0.0) as f32),
             group: 0,
-        });
+        };
     }
     // All the screen tells of a hypothesis it ruled out: it misfits by SCREEN_MARGIN more than
     // the best fully fitted one, at least.

@@ -332,6 +332,20 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    /// [`Console::unloaded`] written into `slot` (static memory on an instrument) and returned:
+    /// the console is built where it stays, not in its caller's frame and copied (a console is
+    /// about 11 KB; the copy would count against a small stack's budget).
+    #[inline(never)]
+    pub fn unloaded_in(
+        slot: &mut core::mem::MaybeUninit<Self>,
+        identity: Identity,
+        jig: J,
+        store: S,
+        clock: C,
+    ) -> &mut Self {
+        slot.write(Self::unloaded(identity, jig, store, clock))
+    }
+
     /// The default settings on this jig: [`default_settings`] with the jig's own measuring
     /// inputs ([`Jig::input_r`], attached together).
     pub(crate) fn defaults_for(jig: &J) -> Settings {

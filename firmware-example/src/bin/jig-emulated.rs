@@ -71,25 +71,34 @@ fn halt() -> ! {
     }
 }
 
-/// Builds the console and the application in static memory (kept out of `main`'s frame, so the
-/// stack holds only the frames of the command being served).
+/// Builds the console in static memory. Called from `main` before [`init`], not from it: the
+/// console (about 13 KB) passes through this frame on its way into its static slot, and no other
+/// frame of the start-up may sit under that.
 #[inline(never)]
-fn init(cost_ticks: ticks::SysTickTicks) -> Option<&'static mut EmuApp> {
-    let rate = (2 * u64::from(RATE_LOOP), ticks::ticks_for_loop(RATE_LOOP));
-    // Built in place in static memory (a console is about 8 KB: a copy on the stack
-    // would count against the stack budget).
+fn console() -> Option<&'static mut EmuConsole> {
     let flash = RamFlash::formatted(store_mem::take_ram()?);
     let len = u32::try_from(embedded_storage::nor_flash::ReadNorFlash::capacity(&flash)).ok()?;
     let store = FlashStore::new(flash, 0..len).ok()?;
     let slot = cortex_m::singleton!(: MaybeUninit<EmuConsole> = MaybeUninit::uninit())?;
-    let console: &'static mut EmuConsole = slot.write(Console::unloaded(
+    Some(Console::unloaded_in(
+        slot,
         Identity::new("jig-emulated", biasjig_firmware::VERSION),
         EmulatedJig::new(BOARD_SEED),
         store,
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
         },
-    ));
+    ))
+}
+
+/// Loads the console's stored records and builds the application in static memory (kept out
+/// of `main`'s frame, so the stack holds only the frames of the command being served).
+#[inline(never)]
+fn init(
+    console: &'static mut EmuConsole,
+    cost_ticks: ticks::SysTickTicks,
+) -> Option<&'static mut EmuApp> {
+    let rate = (2 * u64::from(RATE_LOOP), ticks::ticks_for_loop(RATE_LOOP));
     console.load_stored();
     let board = EmulatedBoard {
         fb: FrameBuffer::new(),
@@ -107,7 +116,10 @@ fn main() -> ! {
         halt()
     };
     let cost_ticks = ticks::SysTickTicks::start(cp.SYST);
-    let Some(app) = init(cost_ticks) else { halt() };
+    let Some(console) = console() else { halt() };
+    let Some(app) = init(console, cost_ticks) else {
+        halt()
+    };
     loop {
         if matches!(io.read_ready(), Ok(true)) {
             let _ = app.poll(&mut io);

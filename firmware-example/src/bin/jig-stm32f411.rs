@@ -165,14 +165,15 @@ fn init(jig: AdcJig<AdcSamples>, board: JigBoard, flash: pac::FLASH) -> Option<&
     // Built in place in static memory (a console is about 8 KB: a copy on the stack
     // would count against the stack budget).
     let slot = cortex_m::singleton!(: MaybeUninit<HwConsole> = MaybeUninit::uninit())?;
-    let console: &'static mut HwConsole = slot.write(Console::unloaded(
+    let console: &'static mut HwConsole = Console::unloaded_in(
+        slot,
         identity(),
         jig,
         store,
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
         },
-    ));
+    );
     console.load_stored();
     let app = cortex_m::singleton!(: MaybeUninit<HwApp> = MaybeUninit::uninit())?;
     Some(app.write(App::new(console, board, DwtTicks)))
