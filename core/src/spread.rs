@@ -1141,7 +1141,8 @@ impl Bounds {
             gain: (g >= self.gain_min) & (g <= self.gain_max),
             swing: s.values.swing >= self.swing_min,
             ic: s.values.ic <= self.ic_max,
-            low_corner: s.f_low <= self.f_low_max,
+            // Judged by the Monte Carlo loop itself, only when the low corner is sampled.
+            low_corner: true,
         }
     }
 }
@@ -1405,38 +1406,92 @@ pub fn monte_carlo_observed(
         signal,
         nodes,
     };
-    let mut dev = Deviates::new(settings.seed);
     let fixed = signal.then(|| MidbandFixed::new(stage));
-    let mut scratch = *stage;
     let bounds = Bounds::of(&settings.requirement);
     // The low corner is judged per sample only when asked and there are capacitors (three
     // more deviates and three small-signal solves a sample); otherwise the loop is unchanged.
     let judge_low = settings.requirement.f_low_max.is_some()
         && (stage.cin.is_some() || stage.cout.is_some() || stage.ce.is_some());
+    let finite_samples = if judge_low {
+        run_samples::<true>(
+            stage,
+            profile,
+            var,
+            settings,
+            &b,
+            fixed.as_ref(),
+            &bounds,
+            &mut mc,
+            &mut progress,
+            &mut on_sample,
+        )
+    } else {
+        let n = run_samples::<false>(
+            stage,
+            profile,
+            var,
+            settings,
+            &b,
+            fixed.as_ref(),
+            &bounds,
+            &mut mc,
+            &mut progress,
+            &mut on_sample,
+        );
+        // Not required (or no capacitors): every evaluated sample meets it.
+        mc.passed_each.low_corner = settings.runs - mc.failed;
+        n
+    };
+    for n in Node::ALL {
+        let st = mc.nodes.get_mut(n);
+        if signal || n != Node::Gain {
+            st.count_more(finite_samples);
+        }
+        st.finish_sums();
+    }
+    Ok(mc)
+}
+
+/// The sample loop of [`monte_carlo_observed`], once with the low corner sampled (`LOW`) and
+/// once without, so that a run without it does exactly the work it did before. Returns the
+/// samples whose every value was finite.
+#[allow(clippy::too_many_arguments)]
+fn run_samples<const LOW: bool>(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    settings: &McSettings,
+    b: &Box8,
+    fixed: Option<&MidbandFixed>,
+    bounds: &Bounds,
+    mc: &mut MonteCarlo,
+    progress: &mut impl FnMut(u32, u32),
+    on_sample: &mut impl FnMut(&Sample),
+) -> u32 {
     // Samples whose every value was finite (counted once for all the nodes).
+    let mut dev = Deviates::new(settings.seed);
+    let mut scratch = *stage;
+    let signal = fixed.is_some();
     let mut finite_samples: u32 = 0;
     for i in 0..settings.runs {
-        let d = dev.draw(stage, &b, var.distribution);
-        let evaluated = if judge_low {
+        let d = dev.draw(stage, b, var.distribution);
+        if LOW {
             dev.caps(&mut scratch, stage, var.distribution);
-            evaluate_in(
-                &mut scratch,
-                profile,
-                &d,
-                fixed.as_ref(),
-                &var.inputs,
-                crate::lowfreq::pole_sum,
-            )
-        } else {
-            evaluate_in(
-                &mut scratch,
-                profile,
-                &d,
-                fixed.as_ref(),
-                &var.inputs,
-                |_, _| 0.0,
-            )
-        };
+        }
+        let evaluated = evaluate_in(
+            &mut scratch,
+            profile,
+            &d,
+            fixed,
+            &var.inputs,
+            |s: &Stage, op: &crate::solve::OperatingPoint| {
+                if LOW {
+                    crate::lowfreq::pole_sum(s, op)
+                } else {
+                    0.0
+                }
+            },
+        );
         match evaluated {
             Ok(s) => {
                 // Field by field: this is the hot loop of the run. The solver's operating point
@@ -1463,13 +1518,16 @@ pub fn monte_carlo_observed(
                         }
                     }
                 }
-                let met = bounds.each(&s);
+                let mut met = bounds.each(&s);
+                if LOW {
+                    met.low_corner = s.f_low <= bounds.f_low_max;
+                    mc.passed_each.low_corner += u32::from(met.low_corner);
+                }
                 let each = &mut mc.passed_each;
                 each.active += u32::from(met.active);
                 each.gain += u32::from(met.gain);
                 each.swing += u32::from(met.swing);
                 each.ic += u32::from(met.ic);
-                each.low_corner += u32::from(met.low_corner);
                 mc.active += u32::from(met.active);
                 mc.passed += u32::from(met.all());
                 on_sample(&s);
@@ -1481,14 +1539,7 @@ pub fn monte_carlo_observed(
             progress(done, settings.runs);
         }
     }
-    for n in Node::ALL {
-        let st = mc.nodes.get_mut(n);
-        if signal || n != Node::Gain {
-            st.count_more(finite_samples);
-        }
-        st.finish_sums();
-    }
-    Ok(mc)
+    finite_samples
 }
 
 /// One factor's part in one node's spread.
