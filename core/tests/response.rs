@@ -87,7 +87,10 @@ fn midband_limit_equals_the_midband_figures() {
         ce: CapState::Short,
     };
     let g = gain_at(&s, &op, &shorted, 3.0).unwrap();
-    assert!(close(g.re, m.gain, 1e-12), "{g:?}");
+    // The midband figure is the network's closed form with ideal shorts; the response stands a
+    // 1 µΩ conductance in for each shorted capacitor, which moves the gain by about gm·1 µΩ
+    // (1e-7 relative here).
+    assert!(close(g.re, m.gain, 1e-6), "{g:?} vs {}", m.gain);
 }
 
 #[test]

@@ -89,8 +89,12 @@ pub fn header(text: &str) -> Result<Header, String> {
     }
     let mut gains = Vec::new();
     for (k, h) in names.iter().enumerate() {
-        let lower = h.to_ascii_lowercase();
-        if let Some(f) = lower.strip_prefix("gain@") {
+        let named = h.get(..5).is_some_and(|p| p.eq_ignore_ascii_case("gain@"));
+        if let Some(f) = h.get(5..).filter(|_| named) {
+            let f = f
+                .strip_suffix("Hz")
+                .or_else(|| f.strip_suffix("hz"))
+                .unwrap_or(f);
             let f = units::parse_value_in(f, Unit::Hertz).map_err(|e| {
                 format!(
                     "line 1: header: column '{h}': frequency: {e}; allowed: gain@F with F in Hz \

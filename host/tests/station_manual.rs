@@ -171,4 +171,27 @@ fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault()
         .expect("check lists a fault")
         .trim();
     assert!(screen.contains(first_fault), "{first_fault:?} in\n{screen}");
+    // The empty line after SN-3's refusal does not claim that nothing was logged.
+    assert!(
+        screen.contains("board SN-3: logged as refused; next board"),
+        "{screen}"
+    );
+    assert!(
+        !screen.contains("board SN-3: no readings, not logged"),
+        "{screen}"
+    );
+
+    // Readings typed at the serial prompt are no serial number: they are said and asked again.
+    let log2 = dir.join("boards2.jsonl");
+    let _ = std::fs::remove_file(&log2);
+    let input = format!("{}\nSN-9\n{}\n\n", line(good), line(good));
+    let (screen, code) = station(d, &log2, &input);
+    assert_eq!(code, 0, "{screen}");
+    assert!(screen.contains("not a serial number"), "{screen}");
+    let text = std::fs::read_to_string(&log2).unwrap();
+    let serials: Vec<String> = text
+        .lines()
+        .map(|l| serde_json::from_str::<serde_json::Value>(l).unwrap()["serial"].to_string())
+        .collect();
+    assert_eq!(serials, ["\"SN-9\""], "{text}");
 }

@@ -781,6 +781,16 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
             writeln!(out, "not a serial number: control characters in {serial:?}").ok();
             continue;
         }
+        if serial.split_whitespace().nth(1).is_some() {
+            // Readings typed at the serial prompt would otherwise become a board's name.
+            writeln!(
+                out,
+                "not a serial number: {serial:?} has spaces (readings are asked for after the \
+                 serial number); type the serial number"
+            )
+            .ok();
+            continue;
+        }
         let in_log = seen.get(&serial).copied().unwrap_or(0);
         let in_store = sink.earlier_tests(&serial, &format!("{:016x}", st.hash))?;
         let (earlier, place) = if in_store > in_log {
@@ -798,13 +808,19 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
             )
             .ok();
         }
+        // A refusal of this board is already on record (the empty line then only moves on).
+        let mut refusal_logged = false;
         let reply = loop {
             let (action, typed) = if manual {
                 let Some(r) = ask(out, "readings VCC VB VE VC (empty: next board): ")? else {
                     break 'boards;
                 };
                 if r.is_empty() {
-                    writeln!(out, "board {serial}: no readings, not logged").ok();
+                    if refusal_logged {
+                        writeln!(out, "board {serial}: logged as refused; next board").ok();
+                    } else {
+                        writeln!(out, "board {serial}: no readings, not logged").ok();
+                    }
                     continue 'boards;
                 }
                 match readings_line(&r) {
@@ -839,6 +855,7 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
                         retest,
                     )))?;
                     *seen.entry(serial.clone()).or_insert(0) += 1;
+                    refusal_logged = true;
                     writeln!(
                         out,
                         "{}not checked, logged as refused: {reason}",
