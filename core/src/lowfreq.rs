@@ -66,6 +66,30 @@ pub(crate) fn pole(r: Option<f64>, c: Option<f64>) -> Option<f64> {
     }
 }
 
+/// The short-circuit time-constant estimate of the low corner of `stage` at `op` with its
+/// capacitors at their values as given: the sum of the poles of CIN, COUT (only with a load)
+/// and CE (only with a bypassed RE2), Hz; 0 when there are none. The one figure the design's
+/// `held` and the spread's Monte Carlo judge the low corner by.
+pub(crate) fn pole_sum(stage: &Stage, op: &OperatingPoint) -> f64 {
+    let caps = [
+        stage.cin.map(|p| p.value),
+        stage.cout.map(|p| p.value),
+        stage.ce.map(|p| p.value),
+    ];
+    let mut sum = 0.0;
+    for (which, c) in caps.iter().enumerate() {
+        let present = match which {
+            1 => stage.rl.is_some(),
+            2 => stage.re2.value > 0.0,
+            _ => true,
+        };
+        if present && c.is_some() {
+            sum += pole(seen_by(stage, op, which), *c).unwrap_or(0.0);
+        }
+    }
+    sum
+}
+
 /// |v(load)/v(source)| at `f` Hz (`None`: all capacitors shorted).
 fn gain_at(stage: &Stage, op: &OperatingPoint, f: Option<f64>) -> Option<f64> {
     let cap = f.map_or(Cap::Short, Cap::At);

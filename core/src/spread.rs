@@ -14,6 +14,10 @@
 //!   from the top 53 bits, normal deviates by Box-Muller with `libm`, so the same seed gives the
 //!   same numbers on every platform. Streaming statistics (Welford mean and variance, min, max,
 //!   a fixed-bin histogram over the worst-case range with quantiles from it) with no allocation.
+//!   With a low-corner requirement and capacitors, each sample also draws CIN, COUT and CE
+//!   within their tolerances (three deviates after the sample's factors) and judges the low
+//!   corner by the sum of their poles at the sample's operating point: the figure the design's
+//!   `held` uses (`lowfreq::pole_sum`), not a second model.
 //! - **Sensitivity** ([`sensitivity`]): one factor at a time from the centre to each end of its
 //!   range; the half-range effect `d` and the variance it contributes (`d²/3` for a uniform
 //!   factor) give each factor's share of each node's variance, ranked.
@@ -324,6 +328,10 @@ pub struct Sample {
     pub values: Nodes<f64>,
     /// The operating region.
     pub region: Region,
+    /// The low corner by the sum of the capacitors' poles (short-circuit time constants), with
+    /// the capacitors as drawn, Hz; 0 when it was not computed (no low-corner requirement or
+    /// no capacitors).
+    pub f_low: f64,
 }
 
 /// A point of the factor box in physical terms.
@@ -458,17 +466,21 @@ fn evaluate_with(
     inputs: &Inputs,
 ) -> Result<Sample, SolveError> {
     let mut s = *stage;
-    evaluate_in(&mut s, profile, d, signal, inputs)
+    evaluate_in(&mut s, profile, d, signal, inputs, |_, _| 0.0)
 }
 
 /// [`evaluate_with`] on a working copy of the stage (only the drawn values are written: the
 /// Monte Carlo's hot loop keeps one copy instead of copying the stage per sample).
+///
+/// `low(stage, op)` gives the sample's low corner, Hz (a closure returning 0 when it is not
+/// judged, which the compiler removes).
 fn evaluate_in(
     s: &mut Stage,
     profile: &Profile,
     d: &Draw,
     signal: Option<&MidbandFixed>,
     inputs: &Inputs,
+    low: impl Fn(&Stage, &crate::solve::OperatingPoint) -> f64,
 ) -> Result<Sample, SolveError> {
     let [r1, r2, rc, re1, re2] = d.r;
     s.r1.value = r1;
@@ -501,6 +513,7 @@ fn evaluate_in(
                 swing: sw,
             },
             region: op.region,
+            f_low: low(s, op),
         }
     };
     match inputs.common_loads() {
@@ -1068,6 +1081,9 @@ pub struct Requirement {
     pub swing_min: Option<f64>,
     /// Largest collector current, A.
     pub ic_max: Option<f64>,
+    /// Highest low corner, Hz: the sum of the capacitors' poles with CIN, COUT and CE drawn
+    /// within their tolerances (judged only when the stage has capacitors).
+    pub f_low_max: Option<f64>,
 }
 
 impl Requirement {
@@ -1090,6 +1106,7 @@ impl Requirement {
             gain: self.gain_min.is_none_or(|m| g >= m) && self.gain_max.is_none_or(|m| g <= m),
             swing: self.swing_min.is_none_or(|m| s.values.swing >= m),
             ic: self.ic_max.is_none_or(|m| s.values.ic <= m),
+            low_corner: self.f_low_max.is_none_or(|m| s.f_low <= m),
         }
     }
 }
@@ -1102,6 +1119,7 @@ struct Bounds {
     gain_max: f64,
     swing_min: f64,
     ic_max: f64,
+    f_low_max: f64,
 }
 
 impl Bounds {
@@ -1111,6 +1129,7 @@ impl Bounds {
             gain_max: r.gain_max.unwrap_or(f64::INFINITY),
             swing_min: r.swing_min.unwrap_or(f64::NEG_INFINITY),
             ic_max: r.ic_max.unwrap_or(f64::INFINITY),
+            f_low_max: r.f_low_max.unwrap_or(f64::INFINITY),
         }
     }
 
@@ -1122,6 +1141,8 @@ impl Bounds {
             gain: (g >= self.gain_min) & (g <= self.gain_max),
             swing: s.values.swing >= self.swing_min,
             ic: s.values.ic <= self.ic_max,
+            // Judged by the Monte Carlo loop itself, only when the low corner is sampled.
+            low_corner: true,
         }
     }
 }
@@ -1137,12 +1158,14 @@ pub struct MetEach {
     pub swing: bool,
     /// IC within the budget.
     pub ic: bool,
+    /// Low corner at most the highest allowed.
+    pub low_corner: bool,
 }
 
 impl MetEach {
     /// Every requirement met.
     pub fn all(&self) -> bool {
-        self.active && self.gain && self.swing && self.ic
+        self.active && self.gain && self.swing && self.ic && self.low_corner
     }
 }
 
@@ -1157,6 +1180,8 @@ pub struct PassedEach {
     pub swing: u32,
     /// IC within the budget.
     pub ic: u32,
+    /// Low corner at most the highest allowed.
+    pub low_corner: u32,
 }
 
 /// Monte Carlo settings.
@@ -1278,6 +1303,24 @@ impl Deviates {
         }
     }
 
+    /// The capacitors of one sample within their tolerances, written into `s`: three deviates,
+    /// always drawn in the order CIN, COUT, CE (one for a capacitor not fitted too), after the
+    /// sample's factors. Only drawn when the low corner is judged, so that a run without a
+    /// low-corner requirement draws the same numbers as before.
+    fn caps(&mut self, s: &mut Stage, stage: &Stage, dist: Distribution) {
+        let slots = [
+            (&mut s.cin, stage.cin),
+            (&mut s.cout, stage.cout),
+            (&mut s.ce, stage.ce),
+        ];
+        for (slot, nominal) in slots {
+            let d = self.deviation(dist);
+            if let (Some(c), Some(p)) = (slot.as_mut(), nominal) {
+                c.value = p.value * (1.0 + p.tol * d);
+            }
+        }
+    }
+
     /// One draw of every factor, always in the same order (R1, R2, RC, RE1, RE2, VCC, hFE, ambient).
     fn draw(&mut self, stage: &Stage, b: &Box8, dist: Distribution) -> Draw {
         let uniform = dist == Distribution::Uniform;
@@ -1363,15 +1406,93 @@ pub fn monte_carlo_observed(
         signal,
         nodes,
     };
-    let mut dev = Deviates::new(settings.seed);
     let fixed = signal.then(|| MidbandFixed::new(stage));
-    let mut scratch = *stage;
     let bounds = Bounds::of(&settings.requirement);
+    // The low corner is judged per sample only when asked and there are capacitors (three
+    // more deviates and three small-signal solves a sample); otherwise the loop is unchanged.
+    let judge_low = settings.requirement.f_low_max.is_some()
+        && (stage.cin.is_some() || stage.cout.is_some() || stage.ce.is_some());
+    let finite_samples = if judge_low {
+        run_samples::<true>(
+            stage,
+            profile,
+            var,
+            settings,
+            &b,
+            fixed.as_ref(),
+            &bounds,
+            &mut mc,
+            &mut progress,
+            &mut on_sample,
+        )
+    } else {
+        let n = run_samples::<false>(
+            stage,
+            profile,
+            var,
+            settings,
+            &b,
+            fixed.as_ref(),
+            &bounds,
+            &mut mc,
+            &mut progress,
+            &mut on_sample,
+        );
+        // Not required (or no capacitors): every evaluated sample meets it.
+        mc.passed_each.low_corner = settings.runs - mc.failed;
+        n
+    };
+    for n in Node::ALL {
+        let st = mc.nodes.get_mut(n);
+        if signal || n != Node::Gain {
+            st.count_more(finite_samples);
+        }
+        st.finish_sums();
+    }
+    Ok(mc)
+}
+
+/// The sample loop of [`monte_carlo_observed`], once with the low corner sampled (`LOW`) and
+/// once without, so that a run without it does exactly the work it did before. Returns the
+/// samples whose every value was finite.
+#[allow(clippy::too_many_arguments)]
+fn run_samples<const LOW: bool>(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    settings: &McSettings,
+    b: &Box8,
+    fixed: Option<&MidbandFixed>,
+    bounds: &Bounds,
+    mc: &mut MonteCarlo,
+    progress: &mut impl FnMut(u32, u32),
+    on_sample: &mut impl FnMut(&Sample),
+) -> u32 {
     // Samples whose every value was finite (counted once for all the nodes).
+    let mut dev = Deviates::new(settings.seed);
+    let mut scratch = *stage;
+    let signal = fixed.is_some();
     let mut finite_samples: u32 = 0;
     for i in 0..settings.runs {
-        let d = dev.draw(stage, &b, var.distribution);
-        match evaluate_in(&mut scratch, profile, &d, fixed.as_ref(), &var.inputs) {
+        let d = dev.draw(stage, b, var.distribution);
+        if LOW {
+            dev.caps(&mut scratch, stage, var.distribution);
+        }
+        let evaluated = evaluate_in(
+            &mut scratch,
+            profile,
+            &d,
+            fixed,
+            &var.inputs,
+            |s: &Stage, op: &crate::solve::OperatingPoint| {
+                if LOW {
+                    crate::lowfreq::pole_sum(s, op)
+                } else {
+                    0.0
+                }
+            },
+        );
+        match evaluated {
             Ok(s) => {
                 // Field by field: this is the hot loop of the run. The solver's operating point
                 // is finite, the swing and the gain too: one check for all of them.
@@ -1397,7 +1518,11 @@ pub fn monte_carlo_observed(
                         }
                     }
                 }
-                let met = bounds.each(&s);
+                let mut met = bounds.each(&s);
+                if LOW {
+                    met.low_corner = s.f_low <= bounds.f_low_max;
+                    mc.passed_each.low_corner += u32::from(met.low_corner);
+                }
                 let each = &mut mc.passed_each;
                 each.active += u32::from(met.active);
                 each.gain += u32::from(met.gain);
@@ -1414,14 +1539,7 @@ pub fn monte_carlo_observed(
             progress(done, settings.runs);
         }
     }
-    for n in Node::ALL {
-        let st = mc.nodes.get_mut(n);
-        if signal || n != Node::Gain {
-            st.count_more(finite_samples);
-        }
-        st.finish_sums();
-    }
-    Ok(mc)
+    finite_samples
 }
 
 /// One factor's part in one node's spread.

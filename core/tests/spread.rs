@@ -650,3 +650,166 @@ proptest! {
         prop_assert!(outside.is_empty(), "{:?} outside {:?}", outside.first(), wc.nodes);
     }
 }
+
+/// A stage whose only spread is its capacitors' (resistors, supply, hFE and ambient fixed), so
+/// every sample has the same operating point and the low corner moves with CIN, COUT, CE alone.
+/// Invented values.
+fn cap_only_stage() -> (Stage, Profile, Variation) {
+    let s = Stage {
+        polarity: Polarity::Npn,
+        vcc: Part::new(12.0, 0.0),
+        r1: Part::new(47e3, 0.0),
+        r2: Part::new(10e3, 0.0),
+        rc: Part::new(4.7e3, 0.0),
+        re1: Part::new(220.0, 0.0),
+        re2: Part::new(1e3, 0.0),
+        rl: Some(15e3),
+        rs: 600.0,
+        cin: Some(Part::new(2.2e-6, 0.2)),
+        cout: Some(Part::new(1e-6, 0.2)),
+        ce: Some(Part::new(22e-6, 0.2)),
+    };
+    let p = Profile {
+        beta_min: 180.0,
+        beta_typ: 180.0,
+        beta_max: 180.0,
+        ..demo_profile()
+    };
+    (s, p, Variation::at(25.0))
+}
+
+/// The short-circuit time-constant estimate of the low corner, written out by hand: each
+/// capacitor's pole 1/(2π·R·C) with R the resistance it sees while the other two are shorts,
+/// summed. Resistances as in Sedra & Smith, Microelectronic Circuits, the CE amplifier's
+/// low-frequency response (from memory): R_CIN = RS + R1‖R2‖(rπ + (β+1)·RE1),
+/// R_COUT = RC + RL, R_CE = RE2 ‖ (RE1 + (rπ + RS‖R1‖R2)/(β+1)); rπ and β from the operating
+/// point's admittances (rπ = 1/y11, β = y21/y11), the output resistance of the transistor
+/// left out (it is far above RC here).
+fn hand_pole_sum(s: &Stage, rpi: f64, beta: f64, cin: f64, cout: f64, ce: f64) -> f64 {
+    let par = |a: f64, b: f64| a * b / (a + b);
+    let (r1, r2, rc, re1, re2) = (s.r1.value, s.r2.value, s.rc.value, s.re1.value, s.re2.value);
+    let rl = s.rl.unwrap();
+    let r_cin = s.rs + par(par(r1, r2), rpi + (beta + 1.0) * re1);
+    let r_cout = rc + rl;
+    let r_ce = par(re2, re1 + (rpi + par(s.rs, par(r1, r2))) / (beta + 1.0));
+    let tau = |r: f64, c: f64| 1.0 / (2.0 * std::f64::consts::PI * r * c);
+    tau(r_cin, cin) + tau(r_cout, cout) + tau(r_ce, ce)
+}
+
+#[test]
+fn low_corner_yield_agrees_with_an_independent_count_of_the_capacitor_draws() {
+    let (s, p, v) = cap_only_stage();
+    let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
+    let op = solve(&s, &p, Conditions::typical(&p)).unwrap();
+    let rpi = 1.0 / op.y.y11;
+    let beta = op.y.y21 / op.y.y11;
+    let nominal = hand_pole_sum(
+        &s,
+        rpi,
+        beta,
+        s.cin.unwrap().value,
+        s.cout.unwrap().value,
+        s.ce.unwrap().value,
+    );
+    // The engine's estimate at nominal agrees with the hand formula (the transistor's output
+    // resistance and the base-width modulation it leaves out move it by parts in 10⁸ here).
+    let engine = biasjig_core::lowfreq::low_corner(&s, &op)
+        .f_estimate
+        .unwrap();
+    assert!(
+        (engine / nominal - 1.0).abs() < 1e-6,
+        "engine {engine} Hz, hand {nominal} Hz"
+    );
+    // The requirement sits at the nominal corner: the smaller draws of the capacitors miss it.
+    let f_max = nominal;
+    let (runs, seed) = (4000u32, 11u64);
+    let st = McSettings {
+        requirement: Requirement {
+            f_low_max: Some(f_max),
+            ..Requirement::default()
+        },
+        ..settings(runs, seed)
+    };
+    let mc = monte_carlo(&s, &p, &v, &wc, &st, |_, _| {}).unwrap();
+    let sampled = mc.passed_each.low_corner;
+    assert!(sampled > 0 && sampled < runs, "{sampled} of {runs}");
+    assert_eq!(mc.passed, sampled, "nothing else is required");
+
+    // The independent count: the same generator (the seed contract of the module notes:
+    // Xoshiro256++ from `seed_from_u64`, per sample the eight factors R1, R2, RC, RE1, RE2,
+    // VCC, hFE, ambient, then CIN, COUT, CE, each uniform on [-1, 1) from the top 53 bits).
+    use rand_core::{Rng, SeedableRng};
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed);
+    let mut sym = || (rng.next_u64() >> 11) as f64 * (2.0 / 9_007_199_254_740_992.0) - 1.0;
+    let mut counted = 0u32;
+    let mut near = 0u32;
+    for _ in 0..runs {
+        for _ in 0..8 {
+            sym();
+        }
+        let c = [s.cin, s.cout, s.ce].map(|c| {
+            let c = c.unwrap();
+            c.value * (1.0 + c.tol * sym())
+        });
+        let f = hand_pole_sum(&s, rpi, beta, c[0], c[1], c[2]);
+        counted += u32::from(f <= f_max);
+        // Draws within the two models' difference of the limit may fall either way.
+        near += u32::from((f / f_max - 1.0).abs() < 1e-6);
+    }
+    assert!(
+        sampled.abs_diff(counted) <= near,
+        "sampled {sampled}, counted {counted}, {near} within 1 % of the limit"
+    );
+    assert!(near <= 2, "{near} draws near the limit");
+}
+
+#[test]
+fn low_corner_held_at_every_corner_gives_full_yield_and_no_requirement_leaves_the_draws_alone() {
+    let (s, p, v) = cap_only_stage();
+    let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
+    let op = solve(&s, &p, Conditions::typical(&p)).unwrap();
+    // Every capacitor at the low end of its tolerance: the highest corner any draw can give.
+    let mut low = s;
+    for c in [&mut low.cin, &mut low.cout, &mut low.ce] {
+        let p = c.as_mut().unwrap();
+        p.value *= 1.0 - p.tol;
+    }
+    let worst = biasjig_core::lowfreq::low_corner(&low, &op)
+        .f_estimate
+        .unwrap();
+    let held = McSettings {
+        requirement: Requirement {
+            f_low_max: Some(worst * 1.001),
+            ..Requirement::default()
+        },
+        ..settings(500, 3)
+    };
+    let mc = monte_carlo(&s, &p, &v, &wc, &held, |_, _| {}).unwrap();
+    assert_eq!(mc.passed_each.low_corner, 500);
+    assert_eq!(mc.passed, 500);
+    // Just under the worst corner some draws miss it (the test can fail).
+    let tight = McSettings {
+        requirement: Requirement {
+            f_low_max: Some(worst * 0.95),
+            ..Requirement::default()
+        },
+        ..settings(500, 3)
+    };
+    let mc = monte_carlo(&s, &p, &v, &wc, &tight, |_, _| {}).unwrap();
+    assert!(mc.passed_each.low_corner < 500);
+
+    // Without a low-corner requirement the capacitors are not drawn: the demo stage with
+    // capacitors gives the same numbers as without them.
+    let (d, dp, dv) = (demo_stage(), demo_profile(), demo_var());
+    let with_caps = Stage {
+        cin: s.cin,
+        cout: s.cout,
+        ce: s.ce,
+        ..d
+    };
+    let dwc = worst_case(&d, &dp, &dv, Method::default()).unwrap();
+    let a = monte_carlo(&d, &dp, &dv, &dwc, &settings(300, 5), |_, _| {}).unwrap();
+    let b = monte_carlo(&with_caps, &dp, &dv, &dwc, &settings(300, 5), |_, _| {}).unwrap();
+    assert_eq!(a, b);
+    assert_eq!(b.passed_each.low_corner, 300);
+}

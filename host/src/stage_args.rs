@@ -567,6 +567,10 @@ impl StageArgs {
         ] {
             if let Some(c) = flag {
                 *slot = Some(Part::new(c, cap_tol));
+            } else if let (Some(t), Some(p)) = (self.cap_tol, slot.as_mut()) {
+                // --cap-tol alone sets the tolerance of the file's capacitors (as --tol does
+                // the resistors'), so that it is never listed as an override and not taken.
+                p.tol = t;
             }
         }
         if self.pnp {

@@ -265,9 +265,42 @@ fn spread_of_a_design_follows_its_ambient_and_requirement() {
         let f = y["each"][k].as_f64().unwrap();
         assert!(f >= y["fraction"].as_f64().unwrap(), "{k}");
     }
-    // Held at every corner, so every sample meets it.
+    // Held at every corner, so every sample meets it, the low corner included (the design's
+    // capacitors drawn within its 20 % tolerance; the default low corner of 20 Hz).
     assert_eq!(y["fraction"], 1.0);
     assert_eq!(y["low_corner"]["held"], true);
+    assert_eq!(y["requirement"]["f_low_max"], 20.0);
+    assert_eq!(y["each"]["low_corner"], 1.0);
+    // Wider capacitors (--cap-tol 50 %): the corners with the capacitors at their low end miss
+    // the low corner, and the Monte Carlo counts the part of the draws that misses it, in the
+    // yield of the low corner and in the yield together.
+    let w = json_of(&[
+        "spread",
+        "--design",
+        f,
+        "--runs",
+        "400",
+        "--cap-tol",
+        "50",
+        "--json",
+    ]);
+    let wy = &w["yield"];
+    assert_eq!(wy["low_corner"]["held"], false);
+    let lc = wy["each"]["low_corner"].as_f64().unwrap();
+    assert!(lc > 0.0 && lc < 1.0, "{lc}");
+    assert!(wy["fraction"].as_f64().unwrap() <= lc);
+    // The same seed gives the same numbers.
+    let again = json_of(&[
+        "spread",
+        "--design",
+        f,
+        "--runs",
+        "400",
+        "--cap-tol",
+        "50",
+        "--json",
+    ]);
+    assert_eq!(again["yield"], w["yield"]);
     // A tighter window given on the command line replaces the design's; the text report draws
     // the requirement's lines under the histograms.
     let v = json_of(&[

@@ -168,20 +168,11 @@ fn corner(
 /// The pole sum of `stage` at `op` with every capacitor at the low end of its tolerance, Hz
 /// (0 when there are none).
 fn pole_sum_low(stage: &Stage, op: &OperatingPoint) -> f64 {
-    let low = |p: Option<Part>| p.map(|p| p.value * (1.0 - p.tol));
-    let mut sum = 0.0;
-    let caps = [low(stage.cin), low(stage.cout), low(stage.ce)];
-    for (which, c) in caps.iter().enumerate() {
-        let present = match which {
-            1 => stage.rl.is_some(),
-            2 => stage.re2.value > 0.0,
-            _ => true,
-        };
-        if present && c.is_some() {
-            sum += lowfreq::pole(lowfreq::seen_by(stage, op, which), *c).unwrap_or(0.0);
-        }
+    let mut s = *stage;
+    for c in [&mut s.cin, &mut s.cout, &mut s.ce].into_iter().flatten() {
+        c.value *= 1.0 - c.tol;
     }
-    sum
+    lowfreq::pole_sum(&s, op)
 }
 
 /// What `stage` (with its capacitors) holds over every corner of `req`'s spread, checked with
