@@ -127,18 +127,29 @@ proptest! {
         }
     }
 
-    /// A larger budget never gives a worse worst case: the best candidate's score (its exact
-    /// worst case and margins) is no higher, and what was designed stays designable.
+    /// A larger budget never turns a designable requirement into a refusal, and what it designs
+    /// still holds every requirement at every corner (the test's own corner walk).
+    ///
+    /// Not asserted: that the best candidate's score (worst case and margins together) never
+    /// rises with the budget. The search aims its currents at the budget, so it does not
+    /// guarantee that; a counterexample found by this test (NPN 12.45 V, gain 9.39 into 54.1 kΩ
+    /// from 769 Ω, swing 2.45 V, 300 µA, ±13.6 %) scores 2.66 at 300 µA and 2.75 at 3.7 times
+    /// the budget, both held at every corner.
     #[test]
-    fn more_budget_never_gives_a_worse_worst_case(req in requirement(), more in 1.0..4.0f64) {
+    fn more_budget_keeps_a_requirement_designable_and_held(req in requirement(), more in 1.0..4.0f64) {
         let p = profile();
         let mut wider = req;
         wider.ic_max = req.ic_max * more;
-        if let Ok(a) = design(&req, &p) {
+        if design(&req, &p).is_ok() {
             let b = design(&wider, &p);
             prop_assert!(b.is_ok(), "{:?}", b);
             let b = b.unwrap();
-            prop_assert!(b[0].score <= a[0].score + 1e-9, "{} > {}", b[0].score, a[0].score);
+            let (g_lo, g_hi, sw, ic, active) = corners(&wider, &p, &b[0].stage);
+            prop_assert!(active, "leaves the active region at a corner");
+            prop_assert!(g_lo >= wider.gain * (1.0 - wider.gain_tol) * (1.0 - 1e-9), "{g_lo}");
+            prop_assert!(g_hi <= wider.gain * (1.0 + wider.gain_tol) * (1.0 + 1e-9), "{g_hi}");
+            prop_assert!(sw >= wider.swing_pp * (1.0 - 1e-9), "{sw}");
+            prop_assert!(ic <= wider.ic_max * (1.0 + 1e-9), "{ic}");
         }
     }
 }
