@@ -930,9 +930,30 @@ mod tests {
     /// The budget build (no `full-console`): the design search, the spread, the parts list, the
     /// designs kept by name and the gain calibration are refused, each saying where to do it;
     /// everything that judges a board stays.
+    /// The budget build keeps no designs by name: a long press shows where to choose one and
+    /// leaves the stage as it was.
     #[cfg(not(feature = "full-console"))]
     #[test]
-    fn budget_build_refuses_the_design_search_and_keeps_the_worst_case() {
+    fn budget_build_long_press_says_where_to_choose() {
+        let mut a = app();
+        talk(&mut a, b"mode machine\n");
+        let before = talk(&mut a, b"hash\n");
+        let shown = a.board_mut().shown;
+        a.press(Press::Long);
+        assert_eq!(a.board_mut().shown, shown + 1);
+        let mut art = Vec::new();
+        assert!(a.board_mut().screen_art(&mut art).unwrap());
+        assert_ne!(art, {
+            let mut blank = Vec::new();
+            FrameBuffer::new().write_art(&mut blank).unwrap();
+            blank
+        });
+        assert_eq!(talk(&mut a, b"hash\n"), before);
+    }
+
+    #[cfg(not(feature = "full-console"))]
+    #[test]
+    fn budget_build_refuses_what_it_leaves_out() {
         let mut a = app();
         talk(&mut a, b"mode machine\n");
         for line in [
