@@ -473,6 +473,16 @@ impl<'c, J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'c, J, S, C
         }
     }
 
+    /// The budget build keeps no designs by name: a long press says where to choose one.
+    #[cfg(not(feature = "full-console"))]
+    fn next_design(&mut self) {
+        self.board.show(&Show::Message(
+            "NOT HERE",
+            "choose designs on a PC or the full image",
+        ));
+    }
+
+    #[cfg(feature = "full-console")]
     fn next_design(&mut self) {
         let list = self.console.kept_designs();
         if list.is_empty() {
@@ -917,11 +927,33 @@ mod tests {
         assert_eq!(talk(&mut a, b"mode\n"), "mode=machine\r\nok\r\n");
     }
 
-    /// The budget build (no `full-console`): the design search is refused, the spread is the
-    /// worst case only; everything that judges a board stays.
+    /// The budget build (no `full-console`): the design search, the spread, the parts list, the
+    /// designs kept by name and the gain calibration are refused, each saying where to do it;
+    /// everything that judges a board stays.
+    /// The budget build keeps no designs by name: a long press shows where to choose one and
+    /// leaves the stage as it was.
     #[cfg(not(feature = "full-console"))]
     #[test]
-    fn budget_build_refuses_the_design_search_and_keeps_the_worst_case() {
+    fn budget_build_long_press_says_where_to_choose() {
+        let mut a = app();
+        talk(&mut a, b"mode machine\n");
+        let before = talk(&mut a, b"hash\n");
+        let shown = a.board_mut().shown;
+        a.press(Press::Long);
+        assert_eq!(a.board_mut().shown, shown + 1);
+        let mut art = Vec::new();
+        assert!(a.board_mut().screen_art(&mut art).unwrap());
+        assert_ne!(art, {
+            let mut blank = Vec::new();
+            FrameBuffer::new().write_art(&mut blank).unwrap();
+            blank
+        });
+        assert_eq!(talk(&mut a, b"hash\n"), before);
+    }
+
+    #[cfg(not(feature = "full-console"))]
+    #[test]
+    fn budget_build_refuses_what_it_leaves_out() {
         let mut a = app();
         talk(&mut a, b"mode machine\n");
         for line in [
@@ -934,13 +966,21 @@ mod tests {
             assert!(t.starts_with("err NOT_SUPPORTED"), "{line}: {t}");
             assert!(t.contains("biasjig design"), "{line}: {t}");
         }
-        let t = talk(&mut a, b"spread\n");
-        assert!(t.contains("worst=vb min="), "{t}");
-        assert!(!t.contains("mc="), "{t}");
-        assert!(
-            t.contains("ok worst case from") && t.contains("biasjig spread"),
-            "{t}"
-        );
+        for (line, word) in [
+            ("spread\n", "spread:"),
+            ("parts\n", "parts:"),
+            ("keep preamp\n", "keep:"),
+            ("designs\n", "designs:"),
+            ("choose preamp\n", "choose:"),
+            ("forget preamp\n", "forget:"),
+            ("calibrate gain 1000 10\n", "calibrate gain:"),
+        ] {
+            let t = talk(&mut a, line.as_bytes());
+            assert!(
+                t.starts_with(&format!("err NOT_SUPPORTED {word}")) && t.contains("full image"),
+                "{line}: {t}"
+            );
+        }
         assert!(talk(&mut a, b"limits\n").contains("node=vb low="));
     }
 
@@ -992,6 +1032,7 @@ mod tests {
         assert!((rc / 3900.0 - 1.0).abs() <= 0.05, "{after}");
     }
 
+    #[cfg(feature = "full-console")]
     #[test]
     fn calibrate_gain_corrects_the_emulated_signal_path() {
         use biasjig_core::console::Jig as _;
@@ -1039,6 +1080,7 @@ mod tests {
     /// kept, long presses step through them (the console's stage follows) and a short press
     /// measures and judges, showing the fault in words. Screens compared with golden pictures
     /// (regression pins, see `screen::tests::golden`).
+    #[cfg(feature = "full-console")]
     #[test]
     fn button_path_chooses_designs_and_judges() {
         let mut a = app();

@@ -1065,7 +1065,8 @@ fn emulated_jig_names_capacitor_faults() {
     let _ = std::fs::remove_dir_all(&dir);
 }
 
-/// The budget image (128 KiB parts) leaves the design search out and says where to design.
+/// The budget image (128 KiB parts) leaves the design search, the spread, the parts list, the
+/// kept designs and the gain calibration out and says where to do each.
 #[test]
 fn budget_image_refuses_the_design_search() {
     let (_qemu, pts) = boot(&budget_images().join("jig-emulated"));
@@ -1076,6 +1077,25 @@ fn budget_image_refuses_the_design_search() {
         status.starts_with("err NOT_SUPPORTED design:") && status.contains("biasjig design"),
         "{status}"
     );
+    // The spread, the parts list, the designs kept by name and the gain calibration are left out
+    // too; each refusal names where to do it. The store of the settings stays: `save` works.
+    for (line, word) in [
+        ("spread", "spread:"),
+        ("parts", "parts:"),
+        ("keep preamp", "keep:"),
+        ("designs", "designs:"),
+        ("choose preamp", "choose:"),
+        ("forget preamp", "forget:"),
+        ("calibrate gain 1000 10", "calibrate gain:"),
+    ] {
+        let (_, status) = s.ask(line);
+        assert!(
+            status.starts_with(&format!("err NOT_SUPPORTED {word}"))
+                && status.contains("full image"),
+            "{line}: {status}"
+        );
+    }
+    s.ok("save");
     s.close();
 }
 

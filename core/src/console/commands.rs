@@ -17,11 +17,14 @@ use super::{Code, Console, Source, PIN_FREE_TRIES};
 use crate::device::is_from_vbe;
 #[cfg(feature = "analysis")]
 use crate::predict::predict;
+#[cfg(feature = "spread")]
 use crate::series::{colour_bands, BandCount};
 #[cfg(feature = "analysis")]
 use crate::solve::Conditions;
 use crate::stage::{Capacitor, Part, Polarity, Readings, Resistor};
-use crate::units::{capacitor_code, resistor_code, Eng, Fixed, Full};
+#[cfg(feature = "spread")]
+use crate::units::{capacitor_code, resistor_code};
+use crate::units::{Eng, Fixed, Full};
 
 /// Conversions averaged for one calibration point.
 const CAL_SAMPLES: u16 = 64;
@@ -241,6 +244,33 @@ fn no_synthesis(command: &str) -> Fail {
     )
 }
 
+/// The refusal of a command a unit was built without (a core feature left out of the
+/// instrument's budget build): what it does not do and where to do it instead.
+#[cfg(any(
+    not(feature = "spread"),
+    not(feature = "kept-designs"),
+    not(feature = "signal-test")
+))]
+fn not_here(command: &str, what: &str, instead: &str) -> Fail {
+    Fail::new(
+        Code::NotSupported,
+        format_args!(
+            "{command}: this unit does not {what} (left out to fit its flash): {instead}, or use \
+             the full image"
+        ),
+    )
+}
+
+/// The refusal of the kept-design commands (core feature `kept-designs`).
+#[cfg(not(feature = "kept-designs"))]
+fn no_kept(command: &str) -> Fail {
+    not_here(
+        command,
+        "keep designs by name",
+        "keep designs on a PC (biasjig station sends the stage)",
+    )
+}
+
 fn jig_fail(e: JigError) -> Fail {
     match e {
         JigError::NotSupported => Fail::new(
@@ -311,10 +341,17 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.show_profile(r);
                 Ok(None)
             }
+            #[cfg(feature = "spread")]
             Command::Parts(count) => {
                 self.show_parts(count, r);
                 Ok(None)
             }
+            #[cfg(not(feature = "spread"))]
+            Command::Parts(_) => Err(not_here(
+                "parts",
+                "list the parts here",
+                "see the parts on a PC (biasjig design lists them)",
+            )),
             #[cfg(feature = "analysis")]
             Command::Predict => self.predict(r),
             #[cfg(not(feature = "analysis"))]
@@ -370,7 +407,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.editable()?;
                 self.pick(n)
             }
+            #[cfg(feature = "spread")]
             Command::Spread(runs, seed) => self.spread(runs, seed, r),
+            #[cfg(not(feature = "spread"))]
+            Command::Spread(..) => Err(not_here(
+                "spread",
+                "compute the spread",
+                "run biasjig spread on a PC",
+            )),
             Command::Limits => self.show_limits(r),
             Command::Meter(None) => {
                 self.show_meter(r);
@@ -437,10 +481,22 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 self.save_calibration()?;
                 Ok(None)
             }
+            #[cfg(feature = "kept-designs")]
             Command::Keep(name) => self.keep(name),
+            #[cfg(feature = "kept-designs")]
             Command::Designs => self.list_designs(r),
+            #[cfg(feature = "kept-designs")]
             Command::Choose(name) => self.choose(name),
+            #[cfg(feature = "kept-designs")]
             Command::Forget(name) => self.forget(name),
+            #[cfg(not(feature = "kept-designs"))]
+            Command::Keep(_) => Err(no_kept("keep")),
+            #[cfg(not(feature = "kept-designs"))]
+            Command::Designs => Err(no_kept("designs")),
+            #[cfg(not(feature = "kept-designs"))]
+            Command::Choose(_) => Err(no_kept("choose")),
+            #[cfg(not(feature = "kept-designs"))]
+            Command::Forget(_) => Err(no_kept("forget")),
         }
     }
 
@@ -806,7 +862,14 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 }
                 Ok(None)
             }
+            #[cfg(feature = "signal-test")]
             CalibrateStep::Gain(f, known) => self.calibrate_gain(f, known, r),
+            #[cfg(not(feature = "signal-test"))]
+            CalibrateStep::Gain(..) => Err(not_here(
+                "calibrate gain",
+                "read gains",
+                "the DC channels calibrate here",
+            )),
             CalibrateStep::Low(c, volts) => {
                 self.editable()?;
                 let raw = self.jig.raw(c, CAL_SAMPLES).map_err(jig_fail)?;
@@ -879,6 +942,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// `calibrate gain F KNOWN`: read the gain of the reference fitted in the board's place and
     /// keep the signal path's correction that makes it read `known`.
     #[inline(never)]
+    #[cfg(feature = "signal-test")]
     fn calibrate_gain<W: Write>(&mut self, f: f64, known: f64, r: &mut Reply<'_, W>) -> Outcome {
         self.editable()?;
         let measured = self.jig.gain(f).map_err(jig_fail)?;
@@ -1053,6 +1117,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
     }
 
+    #[cfg(feature = "spread")]
     #[inline(never)]
     fn show_parts<W: Write>(&self, count: BandCount, r: &mut Reply<'_, W>) {
         let s = &self.settings.stage;

@@ -23,6 +23,7 @@ use crate::explain::{listing, Listed};
 use crate::judge::JudgeError;
 #[cfg(feature = "monte-carlo")]
 use crate::spread::McSettings;
+#[cfg(feature = "spread")]
 use crate::spread::{self, Method, SpreadError};
 use crate::stage::Readings;
 use crate::units::{Eng, Fixed};
@@ -55,6 +56,7 @@ pub(super) fn judge_fail(e: JudgeError) -> Fail {
     Fail::new(code, format_args!("{e}"))
 }
 
+#[cfg(feature = "spread")]
 fn spread_fail(what: &str, e: SpreadError) -> Fail {
     let code = match e {
         SpreadError::Solve(_) => Code::Solve,
@@ -325,6 +327,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
 
     /// `spread RUNS SEED`: the worst case over the corners and a seeded Monte Carlo summary.
     #[inline(never)]
+    #[cfg(feature = "spread")]
     pub(super) fn spread<W: Write>(&self, runs: u32, seed: u64, r: &mut Reply<'_, W>) -> Outcome {
         let st = &self.settings;
         let var = st.variation();

@@ -4,19 +4,27 @@
 //! windows and the diagnosis are computed from: the windows themselves are computed again at
 //! each board's measured supply), under a name, in one of [`DESIGN_SLOTS`] store records. The
 //! settings record names the chosen design, so the unit starts on the design chosen last.
-#![expect(
-    clippy::result_large_err,
-    reason = "an outcome carries its status text in a fixed buffer, with no allocation"
+#![cfg_attr(
+    feature = "kept-designs",
+    expect(
+        clippy::result_large_err,
+        reason = "an outcome carries its status text in a fixed buffer, with no allocation"
+    )
 )]
 
+#[cfg(feature = "kept-designs")]
 use embedded_io::Write;
 
+#[cfg(feature = "kept-designs")]
 use super::commands::Num;
 use super::jig::{Clock, Jig, Slot, Store, DESIGN_SLOTS, RECORD_LEN};
 use super::parse::Name;
 use super::record::{self, Settings};
+#[cfg(feature = "kept-designs")]
 use super::reply::{Fail, Outcome, Reply, Text};
-use super::{Code, Console};
+#[cfg(feature = "kept-designs")]
+use super::Code;
+use super::Console;
 
 /// One kept design as `designs` lists it.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -34,6 +42,7 @@ pub struct KeptDesign {
 /// The kept designs, in slot order.
 pub type KeptList = heapless::Vec<KeptDesign, { DESIGN_SLOTS as usize }>;
 
+#[cfg(feature = "kept-designs")]
 fn store_fail(what: &str, e: super::StoreError) -> Fail {
     Fail::new(Code::Store, format_args!("{what}: {e}"))
 }
@@ -70,6 +79,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.settings.design
     }
 
+    #[cfg(feature = "kept-designs")]
     fn find_kept(&mut self, name: &Name) -> Result<(u8, Settings), Fail> {
         for slot in 0..DESIGN_SLOTS {
             if let Some((n, s)) = self.kept_in(slot) {
@@ -87,6 +97,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// `keep NAME`: the stage and its settings kept under NAME (replacing a design of that
     /// name), and chosen.
     #[inline(never)]
+    #[cfg(feature = "kept-designs")]
     pub(super) fn keep(&mut self, name: Name) -> Outcome {
         self.editable()?;
         let mut free = None;
@@ -124,6 +135,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
 
     /// `choose NAME`: a kept design becomes the stage, and the design the unit starts on.
     #[inline(never)]
+    #[cfg(feature = "kept-designs")]
     pub(super) fn choose(&mut self, name: Name) -> Outcome {
         self.editable()?;
         let (_, kept) = self.find_kept(&name)?;
@@ -144,6 +156,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
 
     /// `forget NAME`: the kept design is removed (the stage stays as it is).
     #[inline(never)]
+    #[cfg(feature = "kept-designs")]
     pub(super) fn forget(&mut self, name: Name) -> Outcome {
         self.editable()?;
         let (slot, _) = self.find_kept(&name)?;
@@ -159,6 +172,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
 
     /// `designs`: one line per kept design.
     #[inline(never)]
+    #[cfg(feature = "kept-designs")]
     pub(super) fn list_designs<W: Write>(&mut self, r: &mut Reply<'_, W>) -> Outcome {
         let list = self.kept_designs();
         let chosen = self.settings.design;
