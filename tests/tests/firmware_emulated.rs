@@ -643,7 +643,10 @@ fn cost_of(s: &mut Session) -> (u64, u64) {
 fn emulated_jig_end_to_end_through_the_host() {
     let started = Instant::now();
     let out_dir = images();
-    let dir = temp_dir();
+    // Its own folder: the tests run at once, and this one removes its folder at the end (the
+    // whole temporary folder took the reset test's monitor socket with it).
+    let dir = temp_dir().join("end-to-end");
+    std::fs::create_dir_all(&dir).expect("temp dir");
     let design = write_design(&dir);
     let log = dir.join("boards.jsonl");
     let _ = std::fs::remove_file(&log);
