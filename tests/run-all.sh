@@ -29,6 +29,9 @@ cargo build --locked -p biasjig-core --target thumbv6m-none-eabi
 cargo build --locked -p biasjig-core --target thumbv7em-none-eabihf
 cargo build --locked -p biasjig-core --target thumbv7em-none-eabihf --no-default-features
 
+step "core unit tests as the instrument's budget build uses it (no default features)"
+cargo test --locked -p biasjig-core --no-default-features --lib
+
 step "firmware: application unit tests on the host"
 (cd firmware-example && cargo test --locked --target x86_64-unknown-linux-gnu --lib)
 # The budget build's own unit tests (no design search, no Monte Carlo in the console).
