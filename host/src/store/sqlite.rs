@@ -25,6 +25,23 @@ pub struct Sqlite {
 impl Sqlite {
     /// Open (create) the file and bring it to the current schema.
     pub fn open(path: &Path) -> Result<Self, StoreError> {
+        // Two stations opening a new file at once: switching it to write-ahead logging (and the
+        // first migration) can answer "database is locked" without waiting on the busy timeout,
+        // so the whole opening is tried again until the timeout has passed.
+        let deadline = std::time::Instant::now() + BUSY;
+        loop {
+            match Self::open_once(path) {
+                Err(StoreError::Sqlite(e))
+                    if is_busy(&e) && std::time::Instant::now() < deadline =>
+                {
+                    std::thread::sleep(Duration::from_millis(20));
+                }
+                other => return other,
+            }
+        }
+    }
+
+    fn open_once(path: &Path) -> Result<Self, StoreError> {
         let mut conn = Connection::open(path)?;
         conn.busy_timeout(BUSY)?;
         conn.pragma_update(None, "journal_mode", "WAL")?;
@@ -33,6 +50,14 @@ impl Sqlite {
         migrate(&mut conn)?;
         Ok(Self { conn })
     }
+}
+
+/// The error is SQLite's "busy" or "locked" (another connection holds the lock).
+fn is_busy(e: &rusqlite::Error) -> bool {
+    matches!(
+        e.sqlite_error_code(),
+        Some(rusqlite::ErrorCode::DatabaseBusy | rusqlite::ErrorCode::DatabaseLocked)
+    )
 }
 
 fn migrate(conn: &mut Connection) -> Result<(), StoreError> {
