@@ -23,6 +23,100 @@
 use crate::device::Profile;
 use crate::stage::{DeviceFault, Polarity, Stage};
 use crate::thermal_voltage;
+use core::ops::{Add, AddAssign, Div, Mul, Neg, Sub, SubAssign};
+
+/// The number type the solver runs in: `f64` for every caller ([`solve`], [`solve_from`]), `f32`
+/// for the diagnosis's predictions ([`solve_from_single`]), where the Cortex-M4F's FPU does the
+/// arithmetic in hardware (`f64` is a software routine there). The set-up (temperature laws,
+/// the Thévenin networks) is computed in `f64` and rounded once; Newton's method, the junction
+/// exponentials and the meter's node voltages run in `T`; the answer is given in `f64`. For
+/// `f64` every operation is the one of the plain solver, in the same order.
+trait Real:
+    Copy
+    + PartialOrd
+    + Add<Output = Self>
+    + Sub<Output = Self>
+    + Mul<Output = Self>
+    + Div<Output = Self>
+    + Neg<Output = Self>
+    + AddAssign
+    + SubAssign
+{
+    const ZERO: Self;
+    const ONE: Self;
+    /// Newton step below which a junction voltage counts as settled, V (see [`SETTLED_V`]).
+    const SETTLED_V: Self;
+    /// Largest junction current (IS·exp(V/VT)) of an answer, A: beyond it the answer is not
+    /// given in this type (see [`SINGLE_CURRENT_LIMIT`]).
+    const CURRENT_LIMIT: f64;
+    /// Whether the current of a floating terminal is given as its exact zero rather than as
+    /// evaluated at the settled point (see [`exact_free_currents`]).
+    const EXACT_FREE: bool;
+    /// `x` rounded to this type.
+    fn of(x: f64) -> Self;
+    /// The value in `f64` (exact).
+    fn wide(self) -> f64;
+    fn exp(self) -> Self;
+    fn ln(self) -> Self;
+    fn abs(self) -> Self;
+    fn finite(self) -> bool;
+}
+
+impl Real for f64 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    const SETTLED_V: Self = SETTLED_V;
+    const CURRENT_LIMIT: f64 = f64::INFINITY;
+    const EXACT_FREE: bool = false;
+    fn of(x: f64) -> Self {
+        x
+    }
+    fn wide(self) -> f64 {
+        self
+    }
+    fn exp(self) -> Self {
+        libm::exp(self)
+    }
+    fn ln(self) -> Self {
+        libm::log(self)
+    }
+    fn abs(self) -> Self {
+        libm::fabs(self)
+    }
+    fn finite(self) -> bool {
+        f64::is_finite(self)
+    }
+}
+
+impl Real for f32 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    const SETTLED_V: Self = SETTLED_V_SINGLE;
+    const CURRENT_LIMIT: f64 = SINGLE_CURRENT_LIMIT;
+    const EXACT_FREE: bool = true;
+    #[expect(
+        clippy::cast_possible_truncation,
+        reason = "single precision on purpose"
+    )]
+    fn of(x: f64) -> Self {
+        x as f32
+    }
+    fn wide(self) -> f64 {
+        f64::from(self)
+    }
+    fn exp(self) -> Self {
+        libm::expf(self)
+    }
+    fn ln(self) -> Self {
+        libm::logf(self)
+    }
+    fn abs(self) -> Self {
+        libm::fabsf(self)
+    }
+    fn finite(self) -> bool {
+        f32::is_finite(self)
+    }
+}
 
 /// Conductance of a short inside the transistor, S.
 const SHORT_CONDUCTANCE: f64 = 1e4;
@@ -39,6 +133,19 @@ const RAMP_STEPS: u16 = 16;
 /// Newton step below which a junction voltage counts as settled, V. Convergence is quadratic
 /// (the remaining error is about step²/(2·VT)), so after a 1 µV step it is below 2e-11 V.
 const SETTLED_V: f64 = 1e-6;
+/// [`SETTLED_V`] in single precision, V. A node voltage near 16 V is known in `f32` to within
+/// 1 µV (its unit in the last place is 0.95 µV), so a loop equation's residual carries about a
+/// microvolt of rounding and a Newton step of 1 µV can be that noise alone: the test would then
+/// never pass. 10 µV is above the noise of any node up to 64 V (ulp 3.8 µV); by the quadratic
+/// convergence the error left after a 10 µV step is below 2e-9 V, still far below the `f32`
+/// resolution of the junction voltage (60 nV at 0.65 V).
+const SETTLED_V_SINGLE: f32 = 1e-5;
+/// Largest junction current of a single-precision answer, A. A junction forward biased far
+/// beyond any small-signal part (straight across the supply, when a short leaves no resistor in
+/// its loop) carries amperes up to 10²³ A on the model's exponential; the collector current is
+/// then a small difference of such currents, which `f32` (24 bits) cannot resolve. Such a point
+/// is solved in `f64` instead.
+const SINGLE_CURRENT_LIMIT: f64 = 1.0;
 
 /// Extra resistances from the stage's nodes to ground while it is solved, Ω: whatever is
 /// attached to the board while it is read (the measuring inputs, the jig's source and load
@@ -219,39 +326,68 @@ pub struct OperatingPoint {
 
 /// Transistor parameters at one temperature.
 #[derive(Debug, Clone, Copy)]
-struct Junction {
-    vt: f64,
+struct Junction<T> {
+    vt: T,
     /// 1/VT.
-    inv_vt: f64,
-    is: f64,
+    inv_vt: T,
+    is: T,
     /// IS/βF.
-    is_bf: f64,
+    is_bf: T,
     /// IS/βR.
-    is_br: f64,
+    is_br: T,
     /// 1/VA (0 for no Early effect).
-    inv_va: f64,
+    inv_va: T,
     /// Leakage conductance across each junction, S.
-    gmin: f64,
+    gmin: T,
     fault: Option<DeviceFault>,
+}
+
+impl Junction<f64> {
+    /// The same parameters rounded to `T`.
+    fn narrow<T: Real>(self) -> Junction<T> {
+        Junction {
+            vt: T::of(self.vt),
+            inv_vt: T::of(self.inv_vt),
+            is: T::of(self.is),
+            is_bf: T::of(self.is_bf),
+            is_br: T::of(self.is_br),
+            inv_va: T::of(self.inv_va),
+            gmin: T::of(self.gmin),
+            fault: self.fault,
+        }
+    }
 }
 
 /// The bias network as seen from one transistor terminal.
 #[derive(Debug, Clone, Copy)]
-enum Net {
+enum Net<T> {
     /// A Thévenin source: open-circuit voltage, V, and resistance, Ω (may be 0).
-    Driven { vth: f64, r: f64 },
+    Driven { vth: T, r: T },
     /// Nothing connected.
     Free,
+}
+
+impl Net<f64> {
+    /// The same network rounded to `T`.
+    fn narrow<T: Real>(self) -> Net<T> {
+        match self {
+            Net::Driven { vth, r } => Net::Driven {
+                vth: T::of(vth),
+                r: T::of(r),
+            },
+            Net::Free => Net::Free,
+        }
+    }
 }
 
 /// Terminal currents into the device (base, collector) and their derivatives with respect to
 /// the junction voltages (VBE, VBC).
 #[derive(Debug, Clone, Copy)]
-struct Currents {
-    ib: f64,
-    ic: f64,
-    dib: [f64; 2],
-    dic: [f64; 2],
+struct Currents<T> {
+    ib: T,
+    ic: T,
+    dib: [T; 2],
+    dic: [T; 2],
 }
 
 /// Exponent below which exp(x) is below 1e-21: next to 1 (in `exp − 1`) it vanishes in f64.
@@ -259,27 +395,27 @@ const EXP_NEGLIGIBLE_BELOW: f64 = -48.0;
 
 /// exp(x) continued as a straight line above `EXP_LINEAR_ABOVE`, and 0 far below zero (a
 /// reverse-biased junction, where computing it would change no result).
-fn exp_limited(x: f64) -> f64 {
-    if x < EXP_NEGLIGIBLE_BELOW {
-        0.0
-    } else if x > EXP_LINEAR_ABOVE {
-        libm::exp(EXP_LINEAR_ABOVE) * (1.0 + x - EXP_LINEAR_ABOVE)
+fn exp_limited<T: Real>(x: T) -> T {
+    if x < T::of(EXP_NEGLIGIBLE_BELOW) {
+        T::ZERO
+    } else if x > T::of(EXP_LINEAR_ABOVE) {
+        T::of(EXP_LINEAR_ABOVE).exp() * (T::ONE + x - T::of(EXP_LINEAR_ABOVE))
     } else {
-        libm::exp(x)
+        x.exp()
     }
 }
 
-fn exp_slope(x: f64, value: f64) -> f64 {
-    if x > EXP_LINEAR_ABOVE {
-        libm::exp(EXP_LINEAR_ABOVE)
+fn exp_slope<T: Real>(x: T, value: T) -> T {
+    if x > T::of(EXP_LINEAR_ABOVE) {
+        T::of(EXP_LINEAR_ABOVE).exp()
     } else {
         value
     }
 }
 
-impl Junction {
+impl<T: Real> Junction<T> {
     /// Ebers-Moll currents of the device in its own frame (a = VBE, c = VBC).
-    fn em(&self, a: f64, c: f64) -> Currents {
+    fn em(&self, a: T, c: T) -> Currents<T> {
         let xa = a * self.inv_vt;
         let xc = c * self.inv_vt;
         let ea = exp_limited(xa);
@@ -288,18 +424,18 @@ impl Junction {
         let sc = exp_slope(xc, ec) * self.inv_vt;
         // Early factor on the transport current, held above zero far into reverse operation.
         let (q, dq) = {
-            let q = 1.0 - c * self.inv_va;
-            if q > 0.05 {
+            let q = T::ONE - c * self.inv_va;
+            if q > T::of(0.05) {
                 (q, -self.inv_va)
             } else {
-                (0.05, 0.0)
+                (T::of(0.05), T::ZERO)
             }
         };
         let it = self.is * (ea - ec) * q;
         let dit_a = self.is * sa * q;
         let dit_c = -self.is * sc * q + self.is * (ea - ec) * dq;
-        let ibe = self.is_bf * (ea - 1.0) + self.gmin * a;
-        let ibc = self.is_br * (ec - 1.0) + self.gmin * c;
+        let ibe = self.is_bf * (ea - T::ONE) + self.gmin * a;
+        let ibc = self.is_br * (ec - T::ONE) + self.gmin * c;
         let dibe = self.is_bf * sa + self.gmin;
         let dibc = self.is_br * sc + self.gmin;
         Currents {
@@ -312,7 +448,7 @@ impl Junction {
 
     /// Terminal currents at the stage's nodes for junction voltages x = (VBE, VBC) between the
     /// stage's base, emitter and collector nodes, with the fault applied.
-    fn currents(&self, x: [f64; 2]) -> Currents {
+    fn currents(&self, x: [T; 2]) -> Currents<T> {
         let [vbe, vbc] = x;
         match self.fault {
             Some(DeviceFault::Reversed) => {
@@ -331,23 +467,23 @@ impl Junction {
             }
             Some(DeviceFault::BeShort) => {
                 let mut d = self.em(vbe, vbc);
-                d.ib += SHORT_CONDUCTANCE * vbe;
-                d.dib[0] += SHORT_CONDUCTANCE;
+                d.ib += T::of(SHORT_CONDUCTANCE) * vbe;
+                d.dib[0] += T::of(SHORT_CONDUCTANCE);
                 d
             }
             Some(DeviceFault::BcShort) => {
                 let mut d = self.em(vbe, vbc);
-                d.ib += SHORT_CONDUCTANCE * vbc;
-                d.dib[1] += SHORT_CONDUCTANCE;
-                d.ic -= SHORT_CONDUCTANCE * vbc;
-                d.dic[1] -= SHORT_CONDUCTANCE;
+                d.ib += T::of(SHORT_CONDUCTANCE) * vbc;
+                d.dib[1] += T::of(SHORT_CONDUCTANCE);
+                d.ic -= T::of(SHORT_CONDUCTANCE) * vbc;
+                d.dic[1] -= T::of(SHORT_CONDUCTANCE);
                 d
             }
             Some(DeviceFault::CeShort) => {
                 let mut d = self.em(vbe, vbc);
-                d.ic += SHORT_CONDUCTANCE * (vbe - vbc);
-                d.dic[0] += SHORT_CONDUCTANCE;
-                d.dic[1] -= SHORT_CONDUCTANCE;
+                d.ic += T::of(SHORT_CONDUCTANCE) * (vbe - vbc);
+                d.dic[0] += T::of(SHORT_CONDUCTANCE);
+                d.dic[1] -= T::of(SHORT_CONDUCTANCE);
                 d
             }
             _ => self.em(vbe, vbc),
@@ -355,29 +491,29 @@ impl Junction {
     }
 
     /// The critical voltage of the junction-limiting rule, V.
-    fn vcrit(&self) -> f64 {
-        self.vt * libm::log(self.vt / (core::f64::consts::SQRT_2 * self.is))
+    fn vcrit(&self) -> T {
+        self.vt * (self.vt / (T::of(core::f64::consts::SQRT_2) * self.is)).ln()
     }
 }
 
 /// Limit a junction-voltage update so the exponential cannot run away (the classic rule of
 /// circuit solvers: above the critical voltage, steps grow only logarithmically).
-fn limit_junction(new: f64, old: f64, vt: f64, j: &Junction) -> (f64, bool) {
+fn limit_junction<T: Real>(new: T, old: T, vt: T, j: &Junction<T>) -> (T, bool) {
     // The critical voltage is always positive, so a step that ends at or below zero is free.
-    if new <= 0.0 || libm::fabs(new - old) <= 2.0 * vt {
+    if new <= T::ZERO || (new - old).abs() <= T::of(2.0) * vt {
         return (new, false);
     }
     let vcrit = j.vcrit();
     if new > vcrit {
-        if old > 0.0 {
-            let arg = 1.0 + (new - old) / vt;
-            if arg > 0.0 {
-                (old + vt * libm::log(arg), true)
+        if old > T::ZERO {
+            let arg = T::ONE + (new - old) / vt;
+            if arg > T::ZERO {
+                (old + vt * arg.ln(), true)
             } else {
                 (vcrit, true)
             }
         } else {
-            (vt * libm::log(new / vt), true)
+            (vt * (new / vt).ln(), true)
         }
     } else {
         (new, false)
@@ -386,20 +522,20 @@ fn limit_junction(new: f64, old: f64, vt: f64, j: &Junction) -> (f64, bool) {
 
 /// The network, the junction and the fault arrangement of one solve, in the NPN frame.
 #[derive(Debug, Clone, Copy)]
-struct Problem {
-    vcc: f64,
-    base: Net,
-    coll: Net,
-    emit: Net,
+struct Problem<T> {
+    vcc: T,
+    base: Net<T>,
+    coll: Net<T>,
+    emit: Net<T>,
     /// Which device terminals see nothing (a floating node or an open lead): base, collector, emitter.
     free: [bool; 3],
     /// The two equations for this arrangement.
-    equations: [Equation; 2],
-    j: Junction,
+    equations: [Equation<T>; 2],
+    j: Junction<T>,
 }
 
 /// One equation: residual and its gradient with respect to (VBE, VBC).
-type Row = (f64, [f64; 2]);
+type Row<T> = (T, [T; 2]);
 
 /// Terminals of the transistor.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -411,28 +547,29 @@ enum Terminal {
 
 /// One of the two equations the junction voltages must satisfy.
 #[derive(Debug, Clone, Copy, PartialEq)]
-enum Equation {
+enum Equation<T> {
     /// A floating terminal carries no current.
     NoCurrent(Terminal),
     /// Kirchhoff's voltage law between two driven terminals: V(from) − V(to) equals the
     /// junction drop `coef · (VBE, VBC)`.
-    Loop(Terminal, Terminal, [f64; 2]),
+    Loop(Terminal, Terminal, [T; 2]),
 }
 
 /// The two equations for a set of floating terminals (base, collector, emitter).
-fn pick_equations(free: [bool; 3]) -> [Equation; 2] {
+fn pick_equations<T: Real>(free: [bool; 3]) -> [Equation<T>; 2] {
     use Terminal::{Base, Collector, Emitter};
+    let (one, zero) = (T::ONE, T::ZERO);
     if free == [false; 3] {
         return [
-            Equation::Loop(Base, Emitter, [1.0, 0.0]),
-            Equation::Loop(Base, Collector, [0.0, 1.0]),
+            Equation::Loop(Base, Emitter, [one, zero]),
+            Equation::Loop(Base, Collector, [zero, one]),
         ];
     }
     let terminals = [Base, Collector, Emitter];
     let loops = [
-        Equation::Loop(Base, Emitter, [1.0, 0.0]),
-        Equation::Loop(Base, Collector, [0.0, 1.0]),
-        Equation::Loop(Collector, Emitter, [1.0, -1.0]),
+        Equation::Loop(Base, Emitter, [one, zero]),
+        Equation::Loop(Base, Collector, [zero, one]),
+        Equation::Loop(Collector, Emitter, [one, -one]),
     ];
     let is_free = |t: Terminal| match t {
         Base => free[0],
@@ -453,7 +590,7 @@ fn pick_equations(free: [bool; 3]) -> [Equation; 2] {
 }
 
 /// Current into one device terminal and its gradient.
-fn terminal_current(cur: &Currents, t: Terminal) -> Row {
+fn terminal_current<T: Real>(cur: &Currents<T>, t: Terminal) -> Row<T> {
     match t {
         Terminal::Base => (cur.ib, cur.dib),
         Terminal::Collector => (cur.ic, cur.dic),
@@ -465,7 +602,12 @@ fn terminal_current(cur: &Currents, t: Terminal) -> Row {
 }
 
 /// Voltage of a driven terminal (0 for a floating one) and its gradient.
-fn terminal_voltage(p: &Problem, vcc_scale: f64, cur: &Currents, t: Terminal) -> Row {
+fn terminal_voltage<T: Real>(
+    p: &Problem<T>,
+    vcc_scale: T,
+    cur: &Currents<T>,
+    t: Terminal,
+) -> Row<T> {
     let net = match t {
         Terminal::Base => p.base,
         Terminal::Collector => p.coll,
@@ -476,12 +618,12 @@ fn terminal_voltage(p: &Problem, vcc_scale: f64, cur: &Currents, t: Terminal) ->
             let (i, g) = terminal_current(cur, t);
             (vth * vcc_scale - r * i, [-r * g[0], -r * g[1]])
         }
-        Net::Free => (0.0, [0.0; 2]),
+        Net::Free => (T::ZERO, [T::ZERO; 2]),
     }
 }
 
 /// Residuals and Jacobian of the two equations at x.
-fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
+fn equations<T: Real>(p: &Problem<T>, vcc_scale: T, x: [T; 2]) -> ([Row<T>; 2], Currents<T>) {
     let cur = p.j.currents(x);
     // The usual arrangement, every terminal driven, written out: it is most of the work.
     if let (
@@ -501,7 +643,7 @@ fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
         let r0 = (
             vb - ve - x[0],
             [
-                -rb * cur.dib[0] - re * die[0] - 1.0,
+                -rb * cur.dib[0] - re * die[0] - T::ONE,
                 -rb * cur.dib[1] - re * die[1],
             ],
         );
@@ -509,12 +651,12 @@ fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
             vb - vc - x[1],
             [
                 -rb * cur.dib[0] + rc * cur.dic[0],
-                -rb * cur.dib[1] + rc * cur.dic[1] - 1.0,
+                -rb * cur.dib[1] + rc * cur.dic[1] - T::ONE,
             ],
         );
         return ([r0, r1], cur);
     }
-    let row = |e: Equation| match e {
+    let row = |e: Equation<T>| match e {
         Equation::NoCurrent(t) => terminal_current(&cur, t),
         Equation::Loop(a, b, c) => {
             let (va, ga) = terminal_voltage(p, vcc_scale, &cur, a);
@@ -535,29 +677,29 @@ fn equations(p: &Problem, vcc_scale: f64, x: [f64; 2]) -> ([Row; 2], Currents) {
 /// VBE, by (1 + dVBE/VT); the collector-junction slopes the same way when its step was small, or,
 /// when it stayed reverse biased, through the Early factor alone (its exponential is then below
 /// e^-15 of the emitter's). Otherwise they are evaluated afresh.
-fn settled_currents(
-    p: &Problem,
-    cur: &Currents,
-    d: [f64; 2],
-    old: [f64; 2],
-    new: [f64; 2],
-) -> Currents {
+fn settled_currents<T: Real>(
+    p: &Problem<T>,
+    cur: &Currents<T>,
+    d: [T; 2],
+    old: [T; 2],
+    new: [T; 2],
+) -> Currents<T> {
     if p.j.fault.is_some() || p.free != [false; 3] {
         return p.j.currents(new);
     }
     let [d0, d1] = d;
-    let step = |v: f64, g: [f64; 2]| v + g[0] * d0 + g[1] * d1;
-    let k0 = 1.0 + d0 * p.j.inv_vt;
-    let (dib1, dic0, dic1) = if libm::fabs(d1) <= SETTLED_V {
-        let k1 = 1.0 + d1 * p.j.inv_vt;
+    let step = |v: T, g: [T; 2]| v + g[0] * d0 + g[1] * d1;
+    let k0 = T::ONE + d0 * p.j.inv_vt;
+    let (dib1, dic0, dic1) = if d1.abs() <= T::SETTLED_V {
+        let k1 = T::ONE + d1 * p.j.inv_vt;
         (cur.dib[1] * k1, cur.dic[0] * k0, cur.dic[1] * k1)
     } else {
-        let q = |c: f64| {
-            let q = 1.0 - c * p.j.inv_va;
-            if q > 0.05 {
+        let q = |c: T| {
+            let q = T::ONE - c * p.j.inv_va;
+            if q > T::of(0.05) {
                 q
             } else {
-                0.05
+                T::of(0.05)
             }
         };
         let early = q(new[1]) / q(old[1]);
@@ -580,32 +722,32 @@ const REVERSE_STEP_V: f64 = 0.1;
 /// One junction voltage has settled after a Newton step `d` from `old` to `new` (the other
 /// junction went from `other_old` to `other_new`): the step is below `SETTLED_V`, or the junction
 /// stayed reverse biased, where its equations are linear so that the step was exact.
-fn settled(d: f64, new: f64, old: f64, other_new: f64, other_old: f64) -> bool {
-    let d = libm::fabs(d);
-    d <= SETTLED_V
-        || (d <= REVERSE_STEP_V
-            && new < other_new - REVERSE_MARGIN_V
-            && old < other_old - REVERSE_MARGIN_V)
+fn settled<T: Real>(d: T, new: T, old: T, other_new: T, other_old: T) -> bool {
+    let d = d.abs();
+    d <= T::SETTLED_V
+        || (d <= T::of(REVERSE_STEP_V)
+            && new < other_new - T::of(REVERSE_MARGIN_V)
+            && old < other_old - T::of(REVERSE_MARGIN_V))
 }
 
 /// Newton's method from `x`; returns the settled point with the device currents there, or `None`.
-fn newton(
-    p: &Problem,
-    vcc_scale: f64,
-    mut x: [f64; 2],
+fn newton<T: Real>(
+    p: &Problem<T>,
+    vcc_scale: T,
+    mut x: [T; 2],
     iterations: &mut u16,
-) -> Option<([f64; 2], Currents)> {
+) -> Option<([T; 2], Currents<T>)> {
     let vt = p.j.vt;
     for _ in 0..MAX_ITERATIONS {
         *iterations = iterations.saturating_add(1);
         let ([(f0, [a, b]), (f1, [c, d])], cur) = equations(p, vcc_scale, x);
         let det = a * d - b * c;
-        if !(det.is_finite() && det != 0.0) {
+        if !(det.finite() && det != T::ZERO) {
             return None;
         }
         let d0 = -(f0 * d - f1 * b) / det;
         let d1 = -(a * f1 - c * f0) / det;
-        if !(d0.is_finite() && d1.is_finite()) {
+        if !(d0.finite() && d1.finite()) {
             return None;
         }
         let (n0, l0) = limit_junction(x[0] + d0, x[0], vt, &p.j);
@@ -625,7 +767,7 @@ fn newton(
 }
 
 /// Thévenin source of a resistor to a rail, or nothing if it is open.
-fn to_rail(v: f64, r: f64) -> Net {
+fn to_rail(v: f64, r: f64) -> Net<f64> {
     if r.is_finite() {
         Net::Driven { vth: v, r }
     } else {
@@ -634,7 +776,7 @@ fn to_rail(v: f64, r: f64) -> Net {
 }
 
 /// The divider R1 (to `v_top`) and R2 (to 0 V) as seen from the base.
-fn divider(v_top: f64, r_top: f64, r_bottom: f64) -> Result<Net, SolveError> {
+fn divider(v_top: f64, r_top: f64, r_bottom: f64) -> Result<Net<f64>, SolveError> {
     if r_top == 0.0 && r_bottom == 0.0 {
         return Err(SolveError::SupplyShorted);
     }
@@ -674,6 +816,9 @@ fn parallel(a: f64, b: f64) -> f64 {
     }
 }
 
+/// The networks seen from the base, the collector and the emitter.
+type Nets = (Net<f64>, Net<f64>, Net<f64>);
+
 /// The three networks (NPN frame) with the resistances `loads` from the nodes to ground of the
 /// real circuit. In the mirrored frame of a PNP stage the real ground is the rail at `vcc`, so a
 /// load there pulls its node towards `vcc`: the emitter network then has a Thévenin voltage
@@ -686,7 +831,7 @@ fn loaded_nets(
     rc: f64,
     re: f64,
     loads: NodeLoads,
-) -> Result<(Net, Net, Net), SolveError> {
+) -> Result<Nets, SolveError> {
     let load = |r: Option<f64>| r.unwrap_or(f64::INFINITY);
     // R2 runs from the base to ground in the real circuit, like the base's load.
     let r2 = parallel(r2, load(loads.base));
@@ -712,7 +857,7 @@ fn loaded_nets(
 
 /// A node with `r_top` to the rail at `v_top` and `r_bottom` to 0 V as a Thévenin source; never
 /// both zero here (a load is positive), and open when both are open.
-fn two_rails(v_top: f64, r_top: f64, r_bottom: f64) -> Net {
+fn two_rails(v_top: f64, r_top: f64, r_bottom: f64) -> Net<f64> {
     if r_top == 0.0 {
         Net::Driven { vth: v_top, r: 0.0 }
     } else if r_bottom == 0.0 {
@@ -733,8 +878,8 @@ fn two_rails(v_top: f64, r_top: f64, r_bottom: f64) -> Net {
 }
 
 /// Positive and finite (false for NaN).
-fn positive_finite(x: f64) -> bool {
-    x > 0.0 && x < f64::INFINITY
+fn positive_finite<T: Real>(x: T) -> bool {
+    x > T::ZERO && x < T::of(f64::INFINITY)
 }
 
 /// VBE assumed for the very first current estimate, V: low on purpose, so that a
@@ -744,12 +889,13 @@ const VBE_START: f64 = 0.55;
 const FIRST_GUESS_REFINEMENTS: u32 = 2;
 
 /// ln(r) for a ratio near 1 by its Taylor series (error below 2e-7 within 10 %), else `log`.
-fn ln_ratio(r: f64) -> f64 {
-    let x = r - 1.0;
-    if libm::fabs(x) <= 0.1 {
-        x * (1.0 - x * (0.5 - x * (1.0 / 3.0 - x * (0.25 - 0.2 * x))))
+fn ln_ratio<T: Real>(r: T) -> T {
+    let x = r - T::ONE;
+    if x.abs() <= T::of(0.1) {
+        x * (T::ONE
+            - x * (T::of(0.5) - x * (T::of(1.0 / 3.0) - x * (T::of(0.25) - T::of(0.2) * x))))
     } else {
-        libm::log(r)
+        r.ln()
     }
 }
 
@@ -757,37 +903,37 @@ fn ln_ratio(r: f64) -> f64 {
 /// logarithm sets VBE from a first current estimate; each refinement then moves VBE by
 /// VT·ln(IE'/IE) as the current estimate improves (the error shrinks by VT/(VTH − VBE), about
 /// fifty-fold, per refinement), so Newton usually starts within a microvolt.
-fn first_guess(p: &Problem) -> [f64; 2] {
+fn first_guess<T: Real>(p: &Problem<T>) -> [T; 2] {
     let vt = p.j.vt;
     let beta = p.j.is / p.j.is_bf;
-    let alpha = beta / (beta + 1.0);
-    let cut_off = |vthb: f64| {
+    let alpha = beta / (beta + T::ONE);
+    let cut_off = |vthb: T| {
         // Cut off (or no emitter path): the divider voltage stands across the junction.
-        let vbe = vt * libm::log(1e-3 / p.j.is);
+        let vbe = vt * (T::of(1e-3) / p.j.is).ln();
         let v = if vthb < vbe { vthb } else { vbe };
         [v, v - p.vcc]
     };
     let (vthb, rb) = match p.base {
         Net::Driven { vth, r } => (vth, r),
-        Net::Free => return [0.3, -p.vcc * 0.5],
+        Net::Free => return [T::of(0.3), -p.vcc * T::of(0.5)],
     };
     let (vthe, re) = match p.emit {
         Net::Driven { vth, r } => (vth, r),
-        Net::Free => (0.0, f64::INFINITY),
+        Net::Free => (T::ZERO, T::of(f64::INFINITY)),
     };
     let (vthc, rc) = match p.coll {
         Net::Driven { vth, r } => (vth, r),
-        Net::Free => (p.vcc, 0.0),
+        Net::Free => (p.vcc, T::ZERO),
     };
     // The drive of the base-emitter loop: the divider's voltage above the emitter's Thévenin
     // voltage (0 V unless a load is attached at the emitter of a PNP stage).
     let vthb = vthb - vthe;
-    let req = re + rb / (beta + 1.0);
-    let mut ie = (vthb - VBE_START) / req;
+    let req = re + rb / (beta + T::ONE);
+    let mut ie = (vthb - T::of(VBE_START)) / req;
     if !positive_finite(ie) {
         return cut_off(vthb);
     }
-    let mut vbe = vt * libm::log(ie * alpha / p.j.is + 1.0);
+    let mut vbe = vt * (ie * alpha / p.j.is + T::ONE).ln();
     for _ in 0..FIRST_GUESS_REFINEMENTS {
         let next = (vthb - vbe) / req;
         if !positive_finite(next) {
@@ -797,18 +943,18 @@ fn first_guess(p: &Problem) -> [f64; 2] {
         ie = next;
     }
     let ic = ie * alpha;
-    let vb = vthb + vthe - rb * ie / (beta + 1.0);
+    let vb = vthb + vthe - rb * ie / (beta + T::ONE);
     let vc = vthc - ic * rc;
     let vbc = vb - vc;
     // Saturated: put VCE at about 0.1 V.
-    if vbc > vbe - 0.1 {
-        [vbe, vbe - 0.1]
+    if vbc > vbe - T::of(0.1) {
+        [vbe, vbe - T::of(0.1)]
     } else {
         [vbe, vbc]
     }
 }
 
-impl Problem {
+impl<T> Problem<T> {
     /// Every terminal driven and a good transistor: the case the hand method's start is made for.
     fn is_regular(&self) -> bool {
         self.free == [false; 3] && self.j.fault.is_none()
@@ -818,8 +964,8 @@ impl Problem {
 /// On a regular problem ([`Problem::is_regular`]), the hand method's start is as good as a warm
 /// start where it says forward active (Newton then settles in one or two iterations); elsewhere
 /// (saturation, a floating terminal, a transistor fault) it is only a rough start.
-fn guess_is_close(x: [f64; 2]) -> bool {
-    x[1] < x[0] - 0.2
+fn guess_is_close<T: Real>(x: [T; 2]) -> bool {
+    x[1] < x[0] - T::of(0.2)
 }
 
 /// Solve the DC operating point of `stage` with `profile` under `cond`.
@@ -835,12 +981,14 @@ pub fn solve(
 }
 
 /// Where a warm-started solve begins: the solver's own unknowns at an earlier solution (the two
-/// junction voltages, NPN frame, V) and the saturation current it used. Obtained from
-/// [`solve_from`]; opaque, so that only a real solution can seed a solve.
+/// junction voltages, NPN frame, V, in the solver's number type `T`: `f64` for [`solve_from`],
+/// `f32` for [`solve_from_single`]) and the saturation current it used. Obtained from
+/// [`solve_from`] or [`solve_from_single`]; opaque, so that only a real solution can seed a
+/// solve.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Start {
+pub struct Start<T = f64> {
     /// VBE and VBC between the stage's base, emitter and collector nodes (NPN frame), V.
-    x: [f64; 2],
+    x: [T; 2],
     /// The ambient at which `is` was computed, °C.
     temp_c: f64,
     /// The profile's IS at 25 °C from which `is` was computed, A.
@@ -848,6 +996,9 @@ pub struct Start {
     /// IS at `temp_c`, A.
     is: f64,
 }
+
+/// Where a [`solve_from_single`] begins: an earlier single-precision solution.
+pub type StartSingle = Start<f32>;
 
 /// [`solve`], with Newton's method started from an earlier solution `start` of a similar problem
 /// (the same stage with a part value, hFE, temperature or supply a little different, or another
@@ -863,6 +1014,87 @@ pub fn solve_from(
     cond: Conditions,
     start: Option<&Start>,
 ) -> Result<(OperatingPoint, Start), SolveError> {
+    solve_in::<f64>(stage, profile, cond, start)
+}
+
+/// [`solve_from`] in single precision: the same model, network and method, with Newton's method,
+/// the junction exponentials and the node voltages in `f32` (the set-up in `f64`, rounded once),
+/// and the answer widened to `f64`. For the diagnosis's predictions on the instrument, whose FPU
+/// does `f32` in hardware and `f64` in software routines. Node voltages agree with
+/// [`solve_from`]'s to some microvolts (a thousandth of the default meter's 5 mV offset alone),
+/// admittances to 1e-4 relative, and it converges wherever [`solve_from`] does (tested over
+/// random stages, faults, loads, temperatures and hFE in `tests/solve_single.rs`). Every other
+/// caller keeps [`solve_from`].
+pub fn solve_from_single(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    start: Option<&StartSingle>,
+) -> Result<(OperatingPoint, StartSingle), SolveError> {
+    // Three transistor faults leave the stage's collector current the small difference of much
+    // larger currents, which `f32` cannot resolve; they are solved in `f64`. A collector-emitter
+    // short holds VCE = VBE − VBC at the short's few nanovolts, the difference of two unknowns
+    // near 0.65 V whose `f32` resolution is 60 nV (the short's 10⁴ S times that is 0.6 mA); a
+    // base-collector short carries the base drive through the short, against the transport
+    // current; a reversed transistor works inversely, its collector-node current the sum of the
+    // device's opposing base and collector currents.
+    if matches!(
+        cond.fault,
+        Some(DeviceFault::CeShort | DeviceFault::BcShort | DeviceFault::Reversed)
+    ) {
+        return solve_double_for_single(stage, profile, cond, start);
+    }
+    match solve_in::<f32>(stage, profile, cond, start) {
+        Ok((op, next)) if within_supply(&op) => Ok((op, next)),
+        // Where the junction currents are far beyond any part's (a junction straight across
+        // the supply, with amperes to 10²³ A on the exponential's straight continuation), the
+        // collector current is the difference of two such currents and lost in `f32`: a node
+        // then lands outside the supply, which no passive network with one supply can do.
+        // Solved in `f64`, as is a stage that did not converge.
+        _ => solve_double_for_single(stage, profile, cond, start),
+    }
+}
+
+/// Every node voltage within the supply rails, give or take a thousandth of the supply: true of
+/// every operating point of the stage (the transistor, the resistors and the loads are passive),
+/// so a node outside says the `f32` arithmetic lost the answer.
+fn within_supply(op: &OperatingPoint) -> bool {
+    let margin = 1e-3 * op.vcc;
+    [op.vb, op.ve, op.vc]
+        .iter()
+        .all(|v| *v >= -margin && *v <= op.vcc + margin)
+}
+
+/// [`solve_from`] for a caller of [`solve_from_single`]: the start widened, the next one rounded.
+fn solve_double_for_single(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    start: Option<&StartSingle>,
+) -> Result<(OperatingPoint, StartSingle), SolveError> {
+    let start = start.map(|s| Start {
+        x: s.x.map(f64::from),
+        temp_c: s.temp_c,
+        is_25: s.is_25,
+        is: s.is,
+    });
+    let (op, next) = solve_in::<f64>(stage, profile, cond, start.as_ref())?;
+    let next = Start {
+        x: next.x.map(f32::of),
+        temp_c: next.temp_c,
+        is_25: next.is_25,
+        is: next.is,
+    };
+    Ok((op, next))
+}
+
+/// [`solve_from`] in the number type `T`.
+fn solve_in<T: Real>(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    start: Option<&Start<T>>,
+) -> Result<(OperatingPoint, Start<T>), SolveError> {
     let vcc = stage.vcc.value;
     let (r_top, r_bottom) = match stage.polarity {
         // In the mirrored NPN frame of a PNP stage, R1 (supply side) takes the place of R2.
@@ -925,13 +1157,13 @@ pub fn solve_from(
         }
     };
     let p = Problem {
-        vcc,
-        base,
-        coll,
-        emit,
+        vcc: T::of(vcc),
+        base: base.narrow(),
+        coll: coll.narrow(),
+        emit: emit.narrow(),
         free,
         equations: pick_equations(free),
-        j,
+        j: j.narrow(),
     };
     // A NaN or an infinity anywhere makes the sum non-finite.
     if !((vcc + vt + is + beta).is_finite() && is > 0.0) {
@@ -943,14 +1175,14 @@ pub fn solve_from(
     let x0 = (regular || start.is_none()).then(|| first_guess(&p));
     let warm = start
         .map(|s| s.x)
-        .filter(|x| x[0].is_finite() && x[1].is_finite())
+        .filter(|x| x[0].finite() && x[1].finite())
         .filter(|_| !(regular && x0.is_some_and(guess_is_close)));
-    let from_warm = warm.and_then(|x| newton(&p, 1.0, x, &mut iterations));
+    let from_warm = warm.and_then(|x| newton(&p, T::ONE, x, &mut iterations));
     let settled = match from_warm {
         Some(settled) => Some(settled),
         None => newton(
             &p,
-            1.0,
+            T::ONE,
             x0.unwrap_or_else(|| first_guess(&p)),
             &mut iterations,
         ),
@@ -959,21 +1191,59 @@ pub fn solve_from(
         Some(settled) => settled,
         None => ramp(&p, &mut iterations)?,
     };
+    if T::CURRENT_LIMIT < f64::INFINITY {
+        // IS·exp(V/VT) above the limit at either junction: V/VT above ln(limit/IS).
+        let most = (T::of(T::CURRENT_LIMIT) / p.j.is).ln();
+        if x[0] * p.j.inv_vt > most || x[1] * p.j.inv_vt > most {
+            return Err(SolveError::NoConvergence);
+        }
+    }
     let next = Start {
         x,
         temp_c: temp,
         is_25: profile.is_25,
         is,
     };
-    finish(stage, &p, x, cur, beta, iterations).map(|op| (op, next))
+    let cur = if T::EXACT_FREE {
+        exact_free_currents(cur, free)
+    } else {
+        cur
+    };
+    let node = meter_nodes(&p, x, &cur).map(Real::wide);
+    let wide = Currents {
+        ib: cur.ib.wide(),
+        ic: cur.ic.wide(),
+        dib: cur.dib.map(Real::wide),
+        dic: cur.dic.map(Real::wide),
+    };
+    finish(stage, vcc, vt, node, wide, beta, iterations).map(|op| (op, next))
+}
+
+/// The currents with those of the floating terminals (base, collector, emitter) set to their
+/// exact zero. Evaluated at the settled point, such a current is the difference of the device's
+/// larger currents (with a floating collector, the transport current less the base-collector
+/// junction's): zero within the equations' tolerance, but in `f32` some 10⁻⁷ of those currents,
+/// which the emitter resistor would turn into a reading off by a fraction of a millivolt.
+fn exact_free_currents<T: Real>(cur: Currents<T>, free: [bool; 3]) -> Currents<T> {
+    let (ib, ic) = match free {
+        [false, false, false] => (cur.ib, cur.ic),
+        [true, false, false] => (T::ZERO, cur.ic),
+        [false, true, false] => (cur.ib, T::ZERO),
+        [false, false, true] => (cur.ib, -cur.ib),
+        _ => (T::ZERO, T::ZERO),
+    };
+    Currents { ib, ic, ..cur }
 }
 
 /// Source stepping: raise the supply from a small fraction to full, each step from the last.
-fn ramp(p: &Problem, iterations: &mut u16) -> Result<([f64; 2], Currents), SolveError> {
-    let mut x = [0.0, 0.0];
+fn ramp<T: Real>(
+    p: &Problem<T>,
+    iterations: &mut u16,
+) -> Result<([T; 2], Currents<T>), SolveError> {
+    let mut x = [T::ZERO, T::ZERO];
     let mut last = None;
     for k in 1..=RAMP_STEPS {
-        let scale = f64::from(k) / f64::from(RAMP_STEPS);
+        let scale = T::of(f64::from(k)) / T::of(f64::from(RAMP_STEPS));
         match newton(p, scale, x, iterations) {
             Some((next, cur)) => {
                 x = next;
@@ -985,19 +1255,20 @@ fn ramp(p: &Problem, iterations: &mut u16) -> Result<([f64; 2], Currents), Solve
     last.ok_or(SolveError::NoConvergence)
 }
 
-/// Node voltages, currents, region and small-signal admittances at the settled point.
+/// Node voltages, currents, region and small-signal admittances at the settled point, from what
+/// a meter reads at the nodes (NPN frame, V) and the device currents there.
 fn finish(
     stage: &Stage,
-    p: &Problem,
-    x: [f64; 2],
-    cur: Currents,
+    vcc: f64,
+    vt: f64,
+    node: [f64; 3],
+    cur: Currents<f64>,
     beta: f64,
     iterations: u16,
 ) -> Result<OperatingPoint, SolveError> {
-    let node = meter_nodes(p, x, &cur);
     let (ib, ic) = (cur.ib, cur.ic);
     let ie = ib + ic;
-    let region = classify(stage, p, ib, ic, beta);
+    let region = classify(stage, vcc, ib, ic, beta);
     let y = Admittance {
         y11: cur.dib[0] + cur.dib[1],
         y12: -cur.dib[1],
@@ -1006,10 +1277,10 @@ fn finish(
     };
     let (vb, vc, ve) = match stage.polarity {
         Polarity::Npn => (node[0], node[1], node[2]),
-        Polarity::Pnp => (p.vcc - node[0], p.vcc - node[1], p.vcc - node[2]),
+        Polarity::Pnp => (vcc - node[0], vcc - node[1], vcc - node[2]),
     };
     let op = OperatingPoint {
-        vcc: p.vcc,
+        vcc,
         vb,
         ve,
         vc,
@@ -1019,7 +1290,7 @@ fn finish(
         ic,
         ie,
         region,
-        vt: p.j.vt,
+        vt,
         beta,
         y,
         iterations,
@@ -1034,7 +1305,7 @@ fn finish(
 }
 
 /// What a meter reads at the base, collector and emitter nodes (NPN frame), V.
-fn meter_nodes(p: &Problem, x: [f64; 2], cur: &Currents) -> [f64; 3] {
+fn meter_nodes<T: Real>(p: &Problem<T>, x: [T; 2], cur: &Currents<T>) -> [T; 3] {
     if let (
         Net::Driven { vth: vb0, r: rb },
         Net::Driven { vth: vc0, r: rc },
@@ -1051,14 +1322,14 @@ fn meter_nodes(p: &Problem, x: [f64; 2], cur: &Currents) -> [f64; 3] {
     let device_i = [cur.ib, cur.ic, -(cur.ib + cur.ic)];
     let nets = [p.base, p.coll, p.emit];
     // Voltages of the device terminals (NPN frame) where the network fixes them.
-    let driven: [Option<f64>; 3] =
+    let driven: [Option<T>; 3] =
         core::array::from_fn(|k| match (nets.get(k), p.free.get(k), device_i.get(k)) {
-            (Some(Net::Driven { vth, r }), Some(false), Some(i)) => Some(vth - r * i),
+            (Some(Net::Driven { vth, r }), Some(false), Some(i)) => Some(*vth - *r * *i),
             _ => None,
         });
     // Floating terminals follow from a fixed one through the junction voltages.
     // Offsets of each terminal from the base: base 0, collector −VBC, emitter −VBE.
-    let offset = [0.0, -x[1], -x[0]];
+    let offset = [T::ZERO, -x[1], -x[0]];
     let base_v = driven
         .iter()
         .zip(offset)
@@ -1066,9 +1337,9 @@ fn meter_nodes(p: &Problem, x: [f64; 2], cur: &Currents) -> [f64; 3] {
         .unwrap_or(x[0]);
     // What a meter reads at each node: the network's own voltage where the transistor lead is
     // open (no current flows), otherwise the terminal voltage.
-    let node: [f64; 3] = core::array::from_fn(|k| {
+    let node: [T; 3] = core::array::from_fn(|k| {
         let own = driven.get(k).copied().flatten();
-        let off = offset.get(k).copied().unwrap_or(0.0);
+        let off = offset.get(k).copied().unwrap_or(T::ZERO);
         match (own, nets.get(k)) {
             (Some(v), _) => v,
             (None, Some(Net::Driven { vth, .. })) => *vth,
@@ -1080,10 +1351,10 @@ fn meter_nodes(p: &Problem, x: [f64; 2], cur: &Currents) -> [f64; 3] {
 
 /// Region from the currents: cut off below a thousandth of the stage's saturation current
 /// (VCC/(RC+RE)) or 1 nA, saturated where IC falls below 90 % of hFE·IB.
-fn classify(stage: &Stage, p: &Problem, ib: f64, ic: f64, beta: f64) -> Region {
+fn classify(stage: &Stage, vcc: f64, ib: f64, ic: f64, beta: f64) -> Region {
     let path = stage.rc.value + stage.re_total();
     let scale = if path.is_finite() && path > 0.0 {
-        p.vcc / path
+        vcc / path
     } else {
         0.0
     };
