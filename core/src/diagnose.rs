@@ -28,7 +28,7 @@
 //! fit, ranked no better than [`SCREEN_MARGIN`] above the best fully fitted χ².
 //!
 //! Cost: about 185 operating-point solves (at most about 255), each started from the last one
-//! ([`solve_from`]: about 2 Newton iterations each).
+//! ([`solve_from_single`]: about 2 Newton iterations each, in single precision).
 
 use heapless::Vec;
 
@@ -41,7 +41,7 @@ use crate::response::{CapState, Caps};
 use crate::settings::Inputs;
 use crate::settings::ReadNode;
 use crate::signaltest::{SignalMeter, ToneReading, MAX_TONES};
-use crate::solve::{solve_from, Conditions, NodeLoads, OperatingPoint, Start};
+use crate::solve::{solve_from_single, Conditions, NodeLoads, OperatingPoint, StartSingle};
 use crate::spread::Variation;
 use crate::stage::{Capacitor, DeviceFault, Fault, Readings, Resistor, Stage};
 
@@ -340,7 +340,7 @@ struct Ctx<'a> {
     inputs: Inputs,
     solves: u32,
     /// The last solution, where the next solve starts (successive solves differ a little).
-    start: Option<Start>,
+    start: Option<StartSingle>,
 }
 
 /// A change to the board for a sensitivity solve.
@@ -477,7 +477,7 @@ impl Ctx<'_> {
     #[inline(always)]
     fn solve(&mut self, stage: &Stage, cond: Conditions) -> Option<OperatingPoint> {
         self.solves = self.solves.saturating_add(1);
-        let (op, next) = solve_from(stage, self.profile, cond, self.start.as_ref()).ok()?;
+        let (op, next) = solve_from_single(stage, self.profile, cond, self.start.as_ref()).ok()?;
         self.start = Some(next);
         Some(op)
     }
