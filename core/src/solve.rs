@@ -60,6 +60,10 @@ trait Real:
     fn ln(self) -> Self;
     fn abs(self) -> Self;
     fn finite(self) -> bool;
+    /// A network rounded to this type.
+    fn net(n: Net<f64>) -> Net<Self>;
+    /// Transistor parameters rounded to this type.
+    fn junction(j: Junction<f64>) -> Junction<Self>;
 }
 
 impl Real for f64 {
@@ -85,6 +89,12 @@ impl Real for f64 {
     }
     fn finite(self) -> bool {
         f64::is_finite(self)
+    }
+    fn net(n: Net<f64>) -> Net<Self> {
+        n
+    }
+    fn junction(j: Junction<f64>) -> Junction<Self> {
+        j
     }
 }
 
@@ -115,6 +125,12 @@ impl Real for f32 {
     }
     fn finite(self) -> bool {
         f32::is_finite(self)
+    }
+    fn net(n: Net<f64>) -> Net<Self> {
+        n.narrow()
+    }
+    fn junction(j: Junction<f64>) -> Junction<Self> {
+        j.narrow()
     }
 }
 
@@ -998,7 +1014,15 @@ pub struct Start<T = f64> {
 }
 
 /// Where a [`solve_from_single`] begins: an earlier single-precision solution.
-pub type StartSingle = Start<f32>;
+pub type StartSingle = Start<Single>;
+
+/// The number type of [`solve_from_single`]: `f32` where the signal test is built (the default
+/// images and the PC), `f64` in the budget build (see there).
+#[cfg(feature = "signal-test")]
+pub type Single = f32;
+/// The number type of [`solve_from_single`]: `f64` in the budget build without the signal test.
+#[cfg(not(feature = "signal-test"))]
+pub type Single = f64;
 
 /// [`solve`], with Newton's method started from an earlier solution `start` of a similar problem
 /// (the same stage with a part value, hFE, temperature or supply a little different, or another
@@ -1020,11 +1044,13 @@ pub fn solve_from(
 /// [`solve_from`] in single precision: the same model, network and method, with Newton's method,
 /// the junction exponentials and the node voltages in `f32` (the set-up in `f64`, rounded once),
 /// and the answer widened to `f64`. For the diagnosis's predictions on the instrument, whose FPU
-/// does `f32` in hardware and `f64` in software routines. Node voltages agree with
-/// [`solve_from`]'s to some microvolts (a thousandth of the default meter's 5 mV offset alone),
-/// admittances to 1e-4 relative, and it converges wherever [`solve_from`] does (tested over
-/// random stages, faults, loads, temperatures and hFE in `tests/solve_single.rs`). Every other
-/// caller keeps [`solve_from`].
+/// does `f32` in hardware and `f64` in software routines. Against [`solve_from`] (tested over
+/// random stages, faults, loads, temperatures and hFE in `tests/solve_single.rs`): node voltages
+/// within a hundredth of the default meter's error at the reading (mostly within a few
+/// microvolts; at worst some tenths of a millivolt where the stage's current is the difference
+/// of larger device currents), admittances within 1e-4 of their row, and an answer wherever
+/// [`solve_from`] gives one. Every other caller keeps [`solve_from`].
+#[cfg(feature = "signal-test")]
 pub fn solve_from_single(
     stage: &Stage,
     profile: &Profile,
@@ -1055,9 +1081,23 @@ pub fn solve_from_single(
     }
 }
 
+/// [`solve_from`] itself in the budget build for parts with 128 KiB of flash (no signal test):
+/// it has no room for a second instance of the solver (about 6.5 KB with `expf` and `logf`), so
+/// its diagnosis stays in `f64` ([`StartSingle`] is then a double-precision start).
+#[cfg(not(feature = "signal-test"))]
+pub fn solve_from_single(
+    stage: &Stage,
+    profile: &Profile,
+    cond: Conditions,
+    start: Option<&StartSingle>,
+) -> Result<(OperatingPoint, StartSingle), SolveError> {
+    solve_in::<f64>(stage, profile, cond, start)
+}
+
 /// Every node voltage within the supply rails, give or take a thousandth of the supply: true of
 /// every operating point of the stage (the transistor, the resistors and the loads are passive),
 /// so a node outside says the `f32` arithmetic lost the answer.
+#[cfg(feature = "signal-test")]
 fn within_supply(op: &OperatingPoint) -> bool {
     let margin = 1e-3 * op.vcc;
     [op.vb, op.ve, op.vc]
@@ -1066,6 +1106,7 @@ fn within_supply(op: &OperatingPoint) -> bool {
 }
 
 /// [`solve_from`] for a caller of [`solve_from_single`]: the start widened, the next one rounded.
+#[cfg(feature = "signal-test")]
 fn solve_double_for_single(
     stage: &Stage,
     profile: &Profile,
@@ -1158,12 +1199,12 @@ fn solve_in<T: Real>(
     };
     let p = Problem {
         vcc: T::of(vcc),
-        base: base.narrow(),
-        coll: coll.narrow(),
-        emit: emit.narrow(),
+        base: T::net(base),
+        coll: T::net(coll),
+        emit: T::net(emit),
         free,
         equations: pick_equations(free),
-        j: j.narrow(),
+        j: T::junction(j),
     };
     // A NaN or an infinity anywhere makes the sum non-finite.
     if !((vcc + vt + is + beta).is_finite() && is > 0.0) {
@@ -1209,14 +1250,8 @@ fn solve_in<T: Real>(
     } else {
         cur
     };
-    let node = meter_nodes(&p, x, &cur).map(Real::wide);
-    let wide = Currents {
-        ib: cur.ib.wide(),
-        ic: cur.ic.wide(),
-        dib: cur.dib.map(Real::wide),
-        dic: cur.dic.map(Real::wide),
-    };
-    finish(stage, vcc, vt, node, wide, beta, iterations).map(|op| (op, next))
+    let node = meter_nodes(&p, x, &cur);
+    finish(stage, vcc, vt, node, &cur, beta, iterations).map(|op| (op, next))
 }
 
 /// The currents with those of the floating terminals (base, collector, emitter) set to their
@@ -1257,24 +1292,28 @@ fn ramp<T: Real>(
 
 /// Node voltages, currents, region and small-signal admittances at the settled point, from what
 /// a meter reads at the nodes (NPN frame, V) and the device currents there.
-fn finish(
+/// Given in `f64` (widened from `T` where needed).
+fn finish<T: Real>(
     stage: &Stage,
     vcc: f64,
     vt: f64,
-    node: [f64; 3],
-    cur: Currents<f64>,
+    node: [T; 3],
+    cur: &Currents<T>,
     beta: f64,
     iterations: u16,
 ) -> Result<OperatingPoint, SolveError> {
-    let (ib, ic) = (cur.ib, cur.ic);
+    let (ib, ic) = (cur.ib.wide(), cur.ic.wide());
     let ie = ib + ic;
     let region = classify(stage, vcc, ib, ic, beta);
+    let [dib0, dib1] = [cur.dib[0].wide(), cur.dib[1].wide()];
+    let [dic0, dic1] = [cur.dic[0].wide(), cur.dic[1].wide()];
     let y = Admittance {
-        y11: cur.dib[0] + cur.dib[1],
-        y12: -cur.dib[1],
-        y21: cur.dic[0] + cur.dic[1],
-        y22: -cur.dic[1],
+        y11: dib0 + dib1,
+        y12: -dib1,
+        y21: dic0 + dic1,
+        y22: -dic1,
     };
+    let node = [node[0].wide(), node[1].wide(), node[2].wide()];
     let (vb, vc, ve) = match stage.polarity {
         Polarity::Npn => (node[0], node[1], node[2]),
         Polarity::Pnp => (vcc - node[0], vcc - node[1], vcc - node[2]),

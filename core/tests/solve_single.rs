@@ -4,7 +4,9 @@
 //! fault, each resistor open, shorted and a decade off, the measuring inputs' loads, -40 to
 //! 85 °C, hFE over its spread, warm starts chained as the diagnosis chains them), the single
 //! solve must converge wherever the double one does and agree with it far inside the meter's
-//! error.
+//! error. The single-precision instance is built with the signal test (the budget build solves
+//! in `f64` throughout).
+#![cfg(feature = "signal-test")]
 
 use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::limits::Meter;
