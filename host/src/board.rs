@@ -9,13 +9,11 @@ use serde_json::{json, Value};
 use thiserror::Error;
 
 use crate::boardlog::{self, Appender, LogError};
-use crate::cmd::check::{
-    board_windows, outcome_json, overrides_json, settings_json, Outcome, Station,
-};
-use crate::cmd::limits::NODES;
 use crate::error::CliError;
 use crate::record::{self, BoardRecord, Edges, Nominal, Source};
 use crate::store::{Store, StoreError, TraceArgs};
+use crate::verdict::json::{outcome_json, overrides_json, settings_json};
+use crate::verdict::{board_windows, Outcome, Station, NODES};
 
 /// The settings digest (hex SHA-256) of everything the verdict depends on: the core's digest of
 /// the stage, transistor and test settings (test ambient, meter, measuring inputs).
@@ -320,5 +318,5 @@ pub fn write_limits_csv(
         out.write_record(r).map_err(|e| bad(e.to_string()))?;
     }
     let bytes = out.into_inner().map_err(|e| bad(e.to_string()))?;
-    crate::designfile::write_atomic(path, &bytes).map_err(|e| bad(e.to_string()))
+    crate::files::write_atomic(path, &bytes).map_err(|e| bad(e.to_string()))
 }

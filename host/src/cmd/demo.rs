@@ -14,9 +14,9 @@ use biasjig_core::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
 use rand_core::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
-use crate::designfile;
-use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 use crate::Global;
+use biasjig::designfile;
+use biasjig::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 
 /// `biasjig demo`: no arguments needed.
 #[derive(clap::Args, Debug)]

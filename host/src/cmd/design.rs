@@ -16,11 +16,12 @@ use biasjig_core::stage::{Polarity, Resistor, Stage};
 use biasjig_core::units::{capacitor_code, resistor_code};
 use serde_json::json;
 
-use crate::designfile::{self, DesignDoc, Predicted};
-use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::stage_args::{check_temp, default_profile, ProfileArgs};
-use crate::text::{bands, eng, fmt_pct};
-use crate::{json, text, values, Global};
+use crate::Global;
+use biasjig::designfile::{self, DesignDoc, Predicted};
+use biasjig::error::{CliError, CmdResult, EXIT_OK};
+use biasjig::stage_args::{check_temp, default_profile, ProfileArgs};
+use biasjig::text::{bands, eng, fmt_pct};
+use biasjig::{json, text, values};
 
 /// Default collector-current budget, A.
 pub const DEFAULT_IC_MAX: f64 = 2e-3;
@@ -121,7 +122,7 @@ pub struct Cmd {
     profile: ProfileArgs,
     /// The measuring inputs of the test station, stated in the design file's `[test]` table
     #[command(flatten)]
-    inputs: crate::stage_args::InputArgs,
+    inputs: biasjig::stage_args::InputArgs,
     /// How many candidates to show, 1 to 8
     #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(1..=8))]
     count: u8,
@@ -245,7 +246,7 @@ impl Cmd {
             ..biasjig_core::settings::TestSettings::DEFAULT
         };
         test.validate()
-            .map_err(|e| crate::stage_args::settings_error(&test, e))?;
+            .map_err(|e| biasjig::stage_args::settings_error(&test, e))?;
         if let (Some(k), Some(best), Some(rin)) = (
             shown
                 .first()

@@ -9,11 +9,12 @@ use std::path::PathBuf;
 
 use serde_json::{json, Value};
 
-use crate::boardlog;
-use crate::error::{CliError, CmdResult, EXIT_OK, EXIT_USAGE};
-use crate::record::{BoardRecord, RepairRecord};
-use crate::store::{self, IMPORT_CHUNK};
-use crate::{json, Global};
+use crate::Global;
+use biasjig::boardlog;
+use biasjig::error::{CliError, CmdResult, EXIT_OK, EXIT_USAGE};
+use biasjig::json;
+use biasjig::record::{BoardRecord, RepairRecord};
+use biasjig::store::{self, IMPORT_CHUNK};
 
 /// At most this many refused lines are named one by one on stderr (all are counted).
 const NAMED: usize = 50;

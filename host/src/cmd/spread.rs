@@ -8,59 +8,20 @@ use std::time::{Duration, Instant};
 
 use biasjig_core::limits::{limits, Meter};
 use biasjig_core::spread::{
-    centre, spread_observed, Distribution, McSettings, Node, Requirement, Sample, Spread,
-    SpreadError, Variation,
+    centre, spread_observed, Distribution, McSettings, Node, Requirement, Sample, Spread, Variation,
 };
 use serde_json::{json, Map, Value};
 
-use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::stage_args::{check_temp, stage_error, StageArgs};
-use crate::text::eng4;
-use crate::{json, plot, values, Global};
+use crate::Global;
+use biasjig::error::{CliError, CmdResult, EXIT_OK};
+use biasjig::stage_args::{spread_error, stage_error, StageArgs, TempRange};
+use biasjig::text::eng4;
+use biasjig::{json, plot, values};
 
 /// Most Monte Carlo samples one run takes.
 pub const MAX_RUNS: u32 = 10_000_000;
 /// Most Q-points kept for the load-line plot.
 const CLOUD_MAX: usize = 4000;
-
-/// Ambient range flags shared by `spread` and `limits`.
-#[derive(clap::Args, Debug, Clone, Default)]
-pub struct TempRange {
-    /// Lowest ambient, °C [default: --temp]
-    #[arg(long = "temp-min", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Spread")]
-    pub temp_min: Option<f64>,
-    /// Highest ambient, °C [default: --temp]
-    #[arg(long = "temp-max", value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Spread")]
-    pub temp_max: Option<f64>,
-}
-
-impl TempRange {
-    /// The ambient range, each end defaulting to `temp_c`, checked.
-    pub fn variation(&self, temp_c: f64) -> Result<Variation, CliError> {
-        let lo = self.temp_min.unwrap_or(temp_c);
-        let hi = self.temp_max.unwrap_or(temp_c);
-        check_temp("--temp-min", lo)?;
-        check_temp("--temp-max", hi)?;
-        if lo > hi {
-            return Err(CliError::field(
-                "--temp-min/--temp-max",
-                format!("{lo}/{hi}"),
-                "the lowest ambient must not be above the highest",
-            ));
-        }
-        Ok(Variation::between(lo, hi))
-    }
-}
-
-/// Explain a spread error naming the flag.
-pub fn spread_error(e: SpreadError) -> CliError {
-    match e {
-        SpreadError::TempRange => CliError::usage(format!("--temp-min/--temp-max: {e}")),
-        SpreadError::Sigmas => CliError::usage(format!("--normal: {e}")),
-        _ => CliError::usage(format!("{e}")),
-    }
-}
-
 /// `biasjig spread`: give the stage by flags or `--design FILE`.
 #[derive(clap::Args, Debug)]
 pub struct Cmd {
@@ -69,7 +30,7 @@ pub struct Cmd {
     #[command(flatten)]
     temps: TempRange,
     #[command(flatten)]
-    inputs: crate::stage_args::InputArgs,
+    inputs: biasjig::stage_args::InputArgs,
     /// Number of Monte Carlo samples
     #[arg(long, default_value_t = 1000, help_heading = "Spread")]
     runs: u32,
@@ -347,7 +308,7 @@ impl Cmd {
     /// and the text lines; `None` without `--ac-f`.
     fn ac_spread(
         &self,
-        r: &crate::stage_args::Resolved,
+        r: &biasjig::stage_args::Resolved,
         var: &Variation,
     ) -> Result<Option<(Value, String)>, CliError> {
         use biasjig_core::signaltest;
@@ -383,7 +344,7 @@ impl Cmd {
             }));
             text.push_str(&format!(
                 "  {:>9}  nominal {:.3}   worst {:.3} to {:.3}   Monte Carlo mean {:.3}, std {:.3} ({used} runs)\n",
-                crate::text::eng4(w.f, "Hz"),
+                biasjig::text::eng4(w.f, "Hz"),
                 w.nominal,
                 w.min,
                 w.max,
@@ -574,7 +535,7 @@ pub fn report(
     let _ = writeln!(
         s,
         "Spread: ambient {}, parts {dist}; {} Monte Carlo samples, seed {}",
-        crate::text::ambient(var.temp_min_c, var.temp_max_c),
+        biasjig::text::ambient(var.temp_min_c, var.temp_max_c),
         m.runs,
         st.seed
     );
