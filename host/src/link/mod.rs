@@ -15,6 +15,7 @@ use std::io;
 use std::time::{Duration, Instant};
 
 use biasjig_core::console::{MAX_DATA_LINES, MAX_OUT_LINE};
+use biasjig_core::kv;
 use thiserror::Error;
 
 use crate::error::CliError;
@@ -56,13 +57,10 @@ impl Reply {
         is_ok(&self.status)
     }
 
-    /// The value of `key` in the machine data lines.
+    /// The value of `key` in the machine data lines (the first `key=value` word, read by the
+    /// core's [`kv`] reader).
     pub fn value(&self, key: &str) -> Option<&str> {
-        let prefix = format!("{key}=");
-        self.data
-            .iter()
-            .flat_map(|l| l.split(' '))
-            .find_map(|kv| kv.strip_prefix(prefix.as_str()))
+        self.data.iter().find_map(|l| kv::value(l, key))
     }
 }
 

@@ -3,6 +3,7 @@
 
 use serde_json::{json, Map, Value};
 
+use biasjig_core::kv;
 use biasjig_core::settings::TestSettings;
 
 use crate::link::Reply;
@@ -41,12 +42,10 @@ pub fn record(
     let mut explained = None;
     let mut ac = Vec::new();
     for l in &reply.data {
-        let kv: Map<String, Value> = l
-            .split(' ')
-            .filter_map(|p| p.split_once('='))
+        let words: Map<String, Value> = kv::pairs(l)
             .map(|(k, v)| (k.to_owned(), Value::String(v.to_owned())))
             .collect();
-        let get = |k: &str| kv.get(k).and_then(Value::as_str);
+        let get = |k: &str| words.get(k).and_then(Value::as_str);
         if let Some(node) = get("node") {
             nodes.insert(
                 node.to_owned(),

@@ -2,6 +2,7 @@
 //! of `biasjig check`.
 
 use biasjig_core::explain::{listing, suspect_of, Listed};
+use biasjig_core::kv;
 use biasjig_core::stage::Stage;
 
 use crate::link::Reply;
@@ -31,10 +32,7 @@ pub(crate) fn big(word: &str) -> String {
 pub fn listed_faults(reply: &Reply) -> Vec<Listed> {
     let mut v = Vec::new();
     for l in reply.data.iter().filter(|l| l.starts_with("fault=")) {
-        let get = |k: &str| {
-            l.split(' ')
-                .find_map(|kv| kv.strip_prefix(k).and_then(|r| r.strip_prefix('=')))
-        };
+        let get = |k: &str| kv::value(l, k);
         let Some(suspect) = get("fault")
             .zip(get("mode"))
             .and_then(|(p, m)| suspect_of(p, m))
