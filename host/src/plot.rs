@@ -14,10 +14,40 @@ use biasjig_core::spread::{Factor, Node, Range, Spread, Stats};
 use biasjig_core::stage::{Polarity, Stage};
 use plotters::prelude::*;
 
+use thiserror::Error;
+
 use crate::error::CliError;
 use crate::text::eng;
 
 type PlotResult = Result<(), Box<dyn Error>>;
+
+/// Why the plots could not be written (exit 2).
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum PlotError {
+    /// The folder could not be created.
+    #[error("--plot: {}: cannot create the folder: {why}", .dir.display())]
+    Folder {
+        /// The folder.
+        dir: PathBuf,
+        /// Why.
+        why: std::io::Error,
+    },
+    /// A plot could not be drawn or written.
+    #[error("--plot: {}: cannot write the plot: {why}", .path.display())]
+    Write {
+        /// The plot's file.
+        path: PathBuf,
+        /// Why.
+        why: Box<dyn Error>,
+    },
+}
+
+impl From<PlotError> for CliError {
+    fn from(e: PlotError) -> Self {
+        CliError::usage(e.to_string())
+    }
+}
 
 /// Write every plot into `dir` (created if missing); returns the files written.
 pub fn write_all(
@@ -28,16 +58,14 @@ pub fn write_all(
     lim: Option<&Limits>,
     cloud: &[(f64, f64)],
     req_lines: &[(Node, f64)],
-) -> Result<Vec<PathBuf>, CliError> {
-    std::fs::create_dir_all(dir).map_err(|e| {
-        CliError::field(
-            "--plot",
-            dir.display(),
-            format!("cannot create the folder: {e}"),
-        )
+) -> Result<Vec<PathBuf>, PlotError> {
+    std::fs::create_dir_all(dir).map_err(|why| PlotError::Folder {
+        dir: dir.to_path_buf(),
+        why,
     })?;
-    let fail = |p: &Path, e: Box<dyn Error>| {
-        CliError::field("--plot", p.display(), format!("cannot write the plot: {e}"))
+    let fail = |p: &Path, why: Box<dyn Error>| PlotError::Write {
+        path: p.to_path_buf(),
+        why,
     };
     let mut written = Vec::new();
     for n in Node::ALL {

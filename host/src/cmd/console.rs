@@ -7,7 +7,7 @@ use embedded_io_adapters::std::FromStd;
 use crate::Global;
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
 use biasjig::link::relay::relay;
-use biasjig::link::{link_error, sync_budget, Link, SerialLink};
+use biasjig::link::{sync_budget, Link, SerialLink};
 use biasjig::local::local_console;
 
 /// `biasjig console [--port PATH [--baud N]]`.
@@ -42,9 +42,9 @@ impl Cmd {
                 }
             }
             Some(path) => {
-                let port = SerialLink::open(path, self.baud).map_err(link_error)?;
+                let port = SerialLink::open(path, self.baud)?;
                 let mut link = Link::new(port);
-                let id = link.sync(budget).map_err(link_error)?;
+                let id = link.sync(budget)?;
                 eprintln!("connected: {id}");
                 let stdin = std::io::stdin();
                 relay(&mut link, stdin.lock(), &mut std::io::stdout().lock())?;

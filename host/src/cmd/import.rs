@@ -49,7 +49,7 @@ impl Cmd {
         for log in &self.logs {
             let name = log.display().to_string();
             let mut named = 0usize;
-            boardlog::for_each(
+            boardlog::for_each::<CliError>(
                 log,
                 |line, v: Value| {
                     if v.get("kind").and_then(Value::as_str) == Some("repair") {

@@ -103,7 +103,7 @@ impl Cmd {
             None => Vec::new(),
         };
         for log in &self.logs {
-            boardlog::for_each(
+            boardlog::for_each::<CliError>(
                 log,
                 |_, v| {
                     if v.get("kind").and_then(Value::as_str) == Some("repair") {
@@ -138,7 +138,7 @@ impl Cmd {
             let name = log.display().to_string();
             let mut refused = 0u64;
             let mut skipped = 0u64;
-            boardlog::for_each(
+            boardlog::for_each::<CliError>(
                 log,
                 |line, v| {
                     if v.get("kind").and_then(Value::as_str) == Some("repair") {

@@ -26,9 +26,9 @@ use crate::Global;
 use biasjig::board::StationSink;
 use biasjig::designfile;
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
-use biasjig::link::{link_error, sync_budget, LinkError, MemoryPort, SerialLink};
+use biasjig::link::{sync_budget, LinkError, MemoryPort, SerialLink};
 use biasjig::stage_args::{settings_error, InputArgs, TestArgs};
-use biasjig::station::{expected, provenance, push_lines, run_loop, serve, BoardError, Station};
+use biasjig::station::{expected, provenance, push_lines, run_loop, serve, Station};
 use biasjig::store::TraceArgs;
 use biasjig::values;
 
@@ -156,13 +156,12 @@ impl Cmd {
                 doc.id.clone(),
                 doc.stage,
                 budget,
-            )
-            .map_err(link_error)?;
+            )?;
             if adopt {
                 st = st.inputs_from_unit(doc.profile, settings, mode_stated);
             }
             st = st.keep_as(self.keep.clone());
-            st.prepare().map_err(board_err)?;
+            st.prepare()?;
             let mut sink = StationSink::open(Some(&self.log), &self.trace)?;
             run_loop(&mut st, stdin.lock(), &mut out, &mut sink, true)?
         } else {
@@ -177,13 +176,12 @@ impl Cmd {
                 doc.id.clone(),
                 doc.stage,
                 budget,
-            )
-            .map_err(link_error)?;
+            )?;
             if adopt {
                 st = st.inputs_from_unit(doc.profile, settings, mode_stated);
             }
             st = st.keep_as(self.keep.clone());
-            let id = st.prepare().map_err(board_err)?;
+            let id = st.prepare()?;
             let inputs = if adopt { st.inputs() } else { settings.inputs };
             eprintln!(
                 "instrument: {id}; design {} and test settings verified (settings digest {}); \
@@ -212,12 +210,5 @@ impl Cmd {
             }
         );
         Ok(EXIT_OK)
-    }
-}
-
-fn board_err(e: BoardError) -> CliError {
-    match e {
-        BoardError::Link(l) => link_error(l),
-        BoardError::Refused(m) => CliError::link(format!("instrument: {m}")),
     }
 }

@@ -218,20 +218,25 @@ impl<P: Port> Link<P> {
     }
 }
 
-/// A link failure as the exit-3 error.
-pub fn link_error(e: LinkError) -> CliError {
-    CliError::link(e.to_string())
+/// A synchronisation budget outside what is allowed (exit 2).
+#[derive(Debug, Clone, Copy, PartialEq, Error)]
+#[error("--sync-timeout: {seconds}: allowed 0.1 to 600 seconds")]
+pub struct BudgetError {
+    /// The budget given, s.
+    pub seconds: f64,
+}
+
+impl From<BudgetError> for CliError {
+    fn from(e: BudgetError) -> Self {
+        CliError::usage(e.to_string())
+    }
 }
 
 /// Check a synchronisation budget in seconds.
-pub fn sync_budget(s: f64) -> Result<Duration, CliError> {
-    if s.is_finite() && (0.1..=600.0).contains(&s) {
-        Ok(Duration::from_secs_f64(s))
+pub fn sync_budget(seconds: f64) -> Result<Duration, BudgetError> {
+    if seconds.is_finite() && (0.1..=600.0).contains(&seconds) {
+        Ok(Duration::from_secs_f64(seconds))
     } else {
-        Err(CliError::field(
-            "--sync-timeout",
-            s,
-            "allowed 0.1 to 600 seconds",
-        ))
+        Err(BudgetError { seconds })
     }
 }

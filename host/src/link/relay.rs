@@ -6,8 +6,34 @@ use std::io::{Read, Write};
 use biasjig_core::console::line::{Feed, LineBuf, LineError};
 use biasjig_core::console::{Code, LINE_MAX};
 
-use super::{link_error, Link, Port};
+use thiserror::Error;
+
+use super::{Link, LinkError, Port};
 use crate::error::CliError;
+
+/// Why a relayed session stopped.
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum RelayError {
+    /// The typed input could not be read (exit 2).
+    #[error("stdin: {0}")]
+    Input(std::io::Error),
+    /// A reply could not be shown (exit 3).
+    #[error("stdout: {0}")]
+    Output(std::io::Error),
+    /// The link failed (exit 3).
+    #[error(transparent)]
+    Link(#[from] LinkError),
+}
+
+impl From<RelayError> for CliError {
+    fn from(e: RelayError) -> Self {
+        match e {
+            RelayError::Input(_) => CliError::usage(e.to_string()),
+            _ => CliError::link(e.to_string()),
+        }
+    }
+}
 
 /// Carry lines from `input` to the instrument and its replies to `out`, until the end of input.
 ///
@@ -21,14 +47,14 @@ pub fn relay<P: Port>(
     link: &mut Link<P>,
     mut input: impl Read,
     out: &mut impl Write,
-) -> Result<(), CliError> {
+) -> Result<(), RelayError> {
     let mut lines: LineBuf<LINE_MAX> = LineBuf::new();
     let mut buf = [0u8; 256];
     loop {
         let n = match input.read(&mut buf) {
             Ok(n) => n,
             Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
-            Err(e) => return Err(CliError::usage(format!("stdin: {e}"))),
+            Err(e) => return Err(RelayError::Input(e)),
         };
         let Some(chunk) = buf.get(..n).filter(|c| !c.is_empty()) else {
             if let Some(line) = lines.finish().map(|l| l.map(str::to_owned)) {
@@ -64,10 +90,10 @@ fn relay_line<P: Port>(
     link: &mut Link<P>,
     line: Result<String, LineError>,
     out: &mut impl Write,
-) -> Result<(), CliError> {
+) -> Result<(), RelayError> {
     match line {
         Ok(text) => {
-            let reply = link.command(&text).map_err(link_error)?;
+            let reply = link.command(&text)?;
             answer(out, &reply.data, &reply.status)
         }
         Err(e) => {
@@ -81,10 +107,9 @@ fn relay_line<P: Port>(
 }
 
 /// Data lines, then the status line.
-fn answer(out: &mut impl Write, data: &[String], status: &str) -> Result<(), CliError> {
-    let io = |e: std::io::Error| CliError::link(format!("stdout: {e}"));
+fn answer(out: &mut impl Write, data: &[String], status: &str) -> Result<(), RelayError> {
     for l in data.iter().map(String::as_str).chain([status]) {
-        writeln!(out, "{l}").map_err(io)?;
+        writeln!(out, "{l}").map_err(RelayError::Output)?;
     }
-    out.flush().map_err(io)
+    out.flush().map_err(RelayError::Output)
 }

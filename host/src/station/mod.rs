@@ -32,6 +32,7 @@ mod tests;
 
 pub use push::{expected, push_lines};
 pub use records::{provenance, record, refused_record};
+pub use run::StationError;
 pub use run::{run_loop, serve};
 pub use screen::{banner, listed_faults};
 pub use session::{BoardError, Station};

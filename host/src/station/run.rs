@@ -9,11 +9,38 @@ use std::time::Duration;
 use super::records::{record, refused_record};
 use super::screen::{banner, big};
 use super::session::{BoardError, Station};
-use crate::board::StationSink;
+use thiserror::Error;
+
+use crate::board::{RecordError, StationSink};
 use crate::boardlog;
 use crate::error::CliError;
-use crate::link::{link_error, LinkError, MemoryPort, Port};
+use crate::link::{LinkError, MemoryPort, Port};
 use crate::local::local_console;
+
+/// Why the station's loop stopped.
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum StationError {
+    /// The typed input could not be read (exit 2).
+    #[error("stdin: {0}")]
+    Input(std::io::Error),
+    /// The instrument failed or refused what no retry mends (exit 3).
+    #[error(transparent)]
+    Board(#[from] BoardError),
+    /// A record could not be written (nothing of it was kept).
+    #[error(transparent)]
+    Record(#[from] RecordError),
+}
+
+impl From<StationError> for CliError {
+    fn from(e: StationError) -> Self {
+        match e {
+            StationError::Input(_) => CliError::usage(e.to_string()),
+            StationError::Board(b) => b.into(),
+            StationError::Record(r) => r.into(),
+        }
+    }
+}
 
 /// Status codes that say the typed line was not readings (typing errors: ask again, log nothing).
 const NOT_READINGS: [&str; 6] = [
@@ -53,7 +80,7 @@ fn serials_in(log: Option<&Path>) -> HashMap<String, usize> {
     let mut seen = HashMap::new();
     if log.exists() {
         // Tests only: a repair record in the log names the serial too.
-        let _ = boardlog::for_each(
+        let _ = boardlog::for_each::<boardlog::ReadLogError>(
             log,
             |_, r| {
                 if let (Some(s), None) = (r["serial"].as_str(), r.get("kind")) {
@@ -81,16 +108,16 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
     out: &mut impl Write,
     sink: &mut StationSink,
     manual: bool,
-) -> Result<usize, CliError> {
+) -> Result<usize, StationError> {
     let mut boards = 0;
     let mut seen = serials_in(sink.log.as_deref());
-    let mut ask = |out: &mut dyn Write, prompt: &str| -> Result<Option<String>, CliError> {
+    let mut ask = |out: &mut dyn Write, prompt: &str| -> Result<Option<String>, StationError> {
         write!(out, "{prompt}").ok();
         out.flush().ok();
         let mut l = Vec::new();
         let n = input
             .read_until(b'\n', &mut l)
-            .map_err(|e| CliError::usage(format!("stdin: {e}")))?;
+            .map_err(StationError::Input)?;
         Ok((n > 0).then(|| String::from_utf8_lossy(&l).trim().to_owned()))
     };
     'boards: while let Some(serial) = ask(out, "serial number (empty to stop): ")? {
@@ -157,7 +184,7 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
                 Ok(r) => break r,
                 Err(BoardError::Refused(status)) if NOT_READINGS.contains(&code_of(&status)) => {
                     if !manual {
-                        return Err(CliError::link(format!("instrument: {status}")));
+                        return Err(BoardError::Refused(status).into());
                     }
                     writeln!(out, "not readings: {status}; type them again").ok();
                 }
@@ -187,10 +214,7 @@ pub fn run_loop<P: Port, F: FnMut() -> Result<P, LinkError>>(
                     }
                     writeln!(out, "type the readings again (empty: next board)").ok();
                 }
-                Err(BoardError::Refused(m)) => {
-                    return Err(CliError::link(format!("instrument: {m}")))
-                }
-                Err(BoardError::Link(e)) => return Err(link_error(e)),
+                Err(e) => return Err(e.into()),
             }
         };
         let time = boardlog::now_utc();

@@ -7,21 +7,32 @@ use biasjig_core::device::Profile;
 use biasjig_core::settings::{InputMode, Inputs, TestSettings};
 use biasjig_core::stage::Stage;
 use serde_json::{json, Value};
+use thiserror::Error;
 
 use super::push::{expected, push_lines};
 use super::run::code_of;
+use crate::error::CliError;
 use crate::link::{Link, LinkError, Port, Reply};
 
 /// Tries per board before the station gives up.
 const TRIES: usize = 3;
 
-/// Why one board could not be done.
-#[derive(Debug)]
+/// Why one board could not be done (exit 3).
+#[derive(Debug, Error)]
+#[non_exhaustive]
 pub enum BoardError {
     /// The link failed (the station resynchronises and tries again).
+    #[error(transparent)]
     Link(LinkError),
     /// The instrument refused (an `err` status): not worth repeating.
+    #[error("instrument: {0}")]
     Refused(String),
+}
+
+impl From<BoardError> for CliError {
+    fn from(e: BoardError) -> Self {
+        CliError::link(e.to_string())
+    }
 }
 
 /// The technician's loop over any port.

@@ -16,6 +16,8 @@ use biasjig_core::spread::Node;
 use biasjig_core::stage::{Readings, Stage};
 use serde_json::Value;
 
+use thiserror::Error;
+
 use crate::error::CliError;
 use crate::stage_args::Resolved;
 
@@ -87,18 +89,41 @@ pub fn stage_hash(stage: &Stage, profile: &Profile) -> String {
     crate::designfile::hash(stage, profile)
 }
 
-/// A core judging error that is not a board's refusal, as bad input naming the flags.
-pub fn judge_error(e: JudgeError) -> CliError {
-    match e {
-        JudgeError::NotActive(_) => CliError::usage(format!("stage: {e}")),
-        JudgeError::Settings(_) => CliError::usage(format!("test settings: {e}")),
-        _ => CliError::usage(e.to_string()),
+/// A core judging error that is not a board's refusal: the stage or the settings cannot judge
+/// any board (exit 2).
+#[derive(Debug, Clone, Copy, Error)]
+#[non_exhaustive]
+pub enum JudgingError {
+    /// The stage is not forward active at its nominal point: it gets no windows.
+    #[error("stage: {0}")]
+    Stage(JudgeError),
+    /// The test settings are refused.
+    #[error("test settings: {0}")]
+    Settings(JudgeError),
+    /// Another refusal of the judging path.
+    #[error("{0}")]
+    Other(JudgeError),
+}
+
+impl From<JudgeError> for JudgingError {
+    fn from(e: JudgeError) -> Self {
+        match e {
+            JudgeError::NotActive(_) => Self::Stage(e),
+            JudgeError::Settings(_) => Self::Settings(e),
+            _ => Self::Other(e),
+        }
+    }
+}
+
+impl From<JudgingError> for CliError {
+    fn from(e: JudgingError) -> Self {
+        CliError::usage(e.to_string())
     }
 }
 
 /// The windows the station applies at the measured supply (the core's [`judge::windows`]).
-pub fn board_windows(st: &Station, vcc: f64) -> Result<Windows, CliError> {
-    judge::windows(&st.stage, &st.profile, &st.settings, vcc).map_err(judge_error)
+pub fn board_windows(st: &Station, vcc: f64) -> Result<Windows, JudgingError> {
+    Ok(judge::windows(&st.stage, &st.profile, &st.settings, vcc)?)
 }
 
 /// A warning about what the windows rest on: a machine word for `--json` (`warnings`) and a
@@ -161,13 +186,17 @@ impl Outcome {
 
 /// Check one board through the one judging path (and diagnose it when it fails), with its gain
 /// readings `tones` (the signal test; none for a DC test).
-pub fn evaluate(st: &Station, r: &Readings, tones: &[ToneReading]) -> Result<Outcome, CliError> {
+pub fn evaluate(
+    st: &Station,
+    r: &Readings,
+    tones: &[ToneReading],
+) -> Result<Outcome, JudgingError> {
     match judge::judge_with_signal(&st.stage, &st.profile, &st.settings, r, tones) {
         Ok(j) => Ok(Outcome::Judged(Box::new(j))),
         Err(e @ (JudgeError::Supply { .. } | JudgeError::Implausible(_))) => {
             Ok(Outcome::Refused(e))
         }
-        Err(e) => Err(judge_error(e)),
+        Err(e) => Err(e.into()),
     }
 }
 
