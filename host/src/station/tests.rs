@@ -108,6 +108,65 @@ fn instrument(
     }
 }
 
+/// A console engine on `jig` served on one end of a memory pair (its `feed`, as the
+/// instrument's byte router does); returns the other end.
+fn serve_jig<J: Jig + Send + 'static>(jig: J) -> MemoryPort {
+    let (host, mut unit) = MemoryPort::pair();
+    std::thread::spawn(move || {
+        let mut c = Console::new(
+            Identity::new("fake", "1"),
+            jig,
+            MemoryStore::default(),
+            StdClock::default(),
+        );
+        let mut buf = [0u8; 256];
+        while let Ok(n) = unit.recv(&mut buf, Duration::from_secs(30)) {
+            let mut out = Vec::new();
+            let _ = c.feed(&buf[..n], &mut FromStd::new(&mut out));
+            if unit.send(&out).is_err() {
+                return;
+            }
+        }
+    });
+    host
+}
+
+/// A station pushing [`pushed`] with the default transistor and `settings` over `host`
+/// (opened once), with the digest and design hash they give.
+fn station_on(
+    host: MemoryPort,
+    settings: &TestSettings,
+) -> (
+    Station<MemoryPort, impl FnMut() -> Result<MemoryPort, LinkError>>,
+    String,
+    u64,
+) {
+    let (stage, profile) = (pushed(), default_profile());
+    let (digest, hash) = expected(&stage, &profile, settings).unwrap();
+    let mut h = Some(host);
+    let st = Station::new(
+        move || h.take().ok_or(LinkError::Disconnected("gone".into())),
+        push_lines(&stage, &profile, settings),
+        digest.clone(),
+        hash,
+        provenance(settings, json!({}), "file-digest"),
+        "demo-1".into(),
+        stage,
+        Duration::from_secs(5),
+    )
+    .unwrap();
+    (st, digest, hash)
+}
+
+/// A fresh log file `name` in this process's folder `dir` under the temporary folder.
+fn fresh_log(dir: &str, name: &str) -> std::path::PathBuf {
+    let dir = std::env::temp_dir().join(format!("{dir}-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let log = dir.join(name);
+    let _ = std::fs::remove_file(&log);
+    log
+}
+
 #[test]
 fn resets_and_garbage_lose_no_record() {
     let (host, unit) = MemoryPort::pair();
@@ -133,10 +192,7 @@ fn resets_and_garbage_lose_no_record() {
     .unwrap();
     st.set_reply_timeout(Duration::from_millis(1500));
     st.prepare().unwrap();
-    let dir = std::env::temp_dir().join(format!("biasjig-station-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let log = dir.join("boards.jsonl");
-    let _ = std::fs::remove_file(&log);
+    let log = fresh_log("biasjig-station", "boards.jsonl");
     // Serial numbers typed; the board counter follows the serial (board i is SN-i).
     struct Feed(Arc<AtomicUsize>, usize, Vec<u8>, usize);
     impl std::io::Read for Feed {
@@ -308,8 +364,8 @@ fn a_unit_with_other_settings_is_pushed_before_the_lot() {
         },
         signal: biasjig_core::signaltest::SignalMeter::DEFAULT,
     };
-    let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
-    let mut link = Link::new(host.clone());
+    let (mut st, _, hash) = station_on(host.clone(), &settings);
+    let mut link = Link::new(host);
     link.sync(Duration::from_secs(5)).unwrap();
     assert!(link.command("mode machine").unwrap().ok());
     // The unit holds the same stage with another meter and ambient: the old stage hash alone
@@ -319,18 +375,6 @@ fn a_unit_with_other_settings_is_pushed_before_the_lot() {
     }
     let r = link.command("hash").unwrap();
     assert_eq!(r.value("hash"), Some(format!("{hash:016x}").as_str()));
-    let mut h = Some(host);
-    let mut st = Station::new(
-        move || h.take().ok_or(LinkError::Disconnected("gone".into())),
-        push_lines(&stage, &profile, &settings),
-        digest.clone(),
-        hash,
-        provenance(&settings, json!({}), "file-digest"),
-        "demo-1".into(),
-        stage,
-        Duration::from_secs(5),
-    )
-    .unwrap();
     st.prepare().unwrap();
     assert!(st.digest_ok().unwrap());
     let r = st.link.command("meter").unwrap();
@@ -356,46 +400,11 @@ impl Jig for OpenProbeEvery3 {
 /// the unit's reason, and the next boards are judged.
 #[test]
 fn a_refused_board_is_logged_and_the_run_goes_on() {
-    let (host, mut unit) = MemoryPort::pair();
     let board = Arc::new(AtomicUsize::new(1));
-    let b2 = board.clone();
-    std::thread::spawn(move || {
-        let mut c = Console::new(
-            Identity::new("fake", "1"),
-            OpenProbeEvery3(b2),
-            MemoryStore::default(),
-            StdClock::default(),
-        );
-        let mut buf = [0u8; 256];
-        while let Ok(n) = unit.recv(&mut buf, Duration::from_secs(30)) {
-            let mut out = Vec::new();
-            let _ = c.feed(&buf[..n], &mut FromStd::new(&mut out));
-            if unit.send(&out).is_err() {
-                return;
-            }
-        }
-    });
-    let stage = pushed();
-    let profile = default_profile();
-    let settings = TestSettings::DEFAULT;
-    let (digest, hash) = expected(&stage, &profile, &settings).unwrap();
-    let mut h = Some(host);
-    let mut st = Station::new(
-        move || h.take().ok_or(LinkError::Disconnected("gone".into())),
-        push_lines(&stage, &profile, &settings),
-        digest,
-        hash,
-        provenance(&settings, json!({}), "file-digest"),
-        "demo-1".into(),
-        stage,
-        Duration::from_secs(5),
-    )
-    .unwrap();
+    let host = serve_jig(OpenProbeEvery3(board.clone()));
+    let (mut st, _, _) = station_on(host, &TestSettings::DEFAULT);
     st.prepare().unwrap();
-    let dir = std::env::temp_dir().join(format!("biasjig-refused-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let log = dir.join("boards.jsonl");
-    let _ = std::fs::remove_file(&log);
+    let log = fresh_log("biasjig-refused", "boards.jsonl");
     // Serials SN-2, SN-3 (open probe), SN-4; the jig's board follows the serial.
     struct Feed(Arc<AtomicUsize>, Vec<&'static str>);
     impl std::io::Read for Feed {
@@ -453,40 +462,10 @@ impl Jig for LoadingJig {
 /// dividers), pushes them back as they are, and the digest and records carry them.
 #[test]
 fn unstated_inputs_are_the_instruments_own() {
-    let (host, mut unit) = MemoryPort::pair();
-    std::thread::spawn(move || {
-        let mut c = Console::new(
-            Identity::new("fake", "1"),
-            LoadingJig(Arc::new(AtomicUsize::new(0))),
-            MemoryStore::default(),
-            StdClock::default(),
-        );
-        let mut buf = [0u8; 256];
-        while let Ok(n) = unit.recv(&mut buf, Duration::from_secs(30)) {
-            let mut out = Vec::new();
-            let _ = c.feed(&buf[..n], &mut FromStd::new(&mut out));
-            if unit.send(&out).is_err() {
-                return;
-            }
-        }
-    });
-    let stage = pushed();
-    let profile = default_profile();
-    let settings = TestSettings::DEFAULT;
-    let (digest0, hash) = expected(&stage, &profile, &settings).unwrap();
-    let mut h = Some(host);
-    let mut st = Station::new(
-        move || h.take().ok_or(LinkError::Disconnected("gone".into())),
-        push_lines(&stage, &profile, &settings),
-        digest0.clone(),
-        hash,
-        provenance(&settings, json!({}), "file-digest"),
-        "demo-1".into(),
-        stage,
-        Duration::from_secs(5),
-    )
-    .unwrap()
-    .inputs_from_unit(profile, settings, false);
+    let host = serve_jig(LoadingJig(Arc::new(AtomicUsize::new(0))));
+    let (stage, profile, settings) = (pushed(), default_profile(), TestSettings::DEFAULT);
+    let (st, digest0, _) = station_on(host, &settings);
+    let mut st = st.inputs_from_unit(profile, settings, false);
     st.prepare().unwrap();
     assert_eq!(st.inputs().r, Some(11e6));
     let with_jig = TestSettings {
