@@ -9,7 +9,6 @@ use serde_json::{json, Value};
 use thiserror::Error;
 
 use crate::boardlog::{self, Appender, LogError, ReadLogError};
-use crate::error::CliError;
 use crate::record::{self, BoardRecord, Edges, Nominal, Source};
 use crate::store::{self, Store, StoreError, TraceArgs};
 use crate::verdict::json::{outcome_json, overrides_json, settings_json};
@@ -129,16 +128,6 @@ pub enum RecordError {
         /// Why.
         why: serde_json::Error,
     },
-}
-
-impl From<RecordError> for CliError {
-    fn from(e: RecordError) -> Self {
-        match e {
-            RecordError::Log(l) => l.into(),
-            RecordError::Store(s) => s.into(),
-            other => CliError::usage(other.to_string()),
-        }
-    }
 }
 
 /// Where records go: the log, the store, or both.
@@ -304,12 +293,6 @@ pub struct CsvError {
     pub path: PathBuf,
     /// Why.
     pub why: String,
-}
-
-impl From<CsvError> for CliError {
-    fn from(e: CsvError) -> Self {
-        CliError::usage(e.to_string())
-    }
 }
 
 /// Write the windows as CSV for other testers (test, low, high, unit, design hash, settings

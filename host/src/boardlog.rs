@@ -16,8 +16,6 @@ use serde::Serialize;
 use serde_json::Value;
 use thiserror::Error;
 
-use crate::error::CliError;
-
 pub use crate::clock::now_utc;
 
 /// The longest log line read, bytes (a record is a few kilobytes).
@@ -52,12 +50,6 @@ pub enum LogError {
     Encode(String),
 }
 
-impl From<LogError> for CliError {
-    fn from(e: LogError) -> Self {
-        CliError::usage(format!("--log: {e}"))
-    }
-}
-
 /// Why a log could not be read (a line that is not a record is skipped with a warning, not an
 /// error).
 #[derive(Debug, Error)]
@@ -79,12 +71,6 @@ pub enum ReadLogError {
         /// Why.
         why: std::io::Error,
     },
-}
-
-impl From<ReadLogError> for CliError {
-    fn from(e: ReadLogError) -> Self {
-        CliError::usage(e.to_string())
-    }
 }
 
 /// An open log for many appends (a batch): one open, a sync every [`SYNC_EVERY`] records and

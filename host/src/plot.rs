@@ -16,7 +16,6 @@ use plotters::prelude::*;
 
 use thiserror::Error;
 
-use crate::error::CliError;
 use crate::text::eng;
 
 type PlotResult = Result<(), Box<dyn Error>>;
@@ -41,12 +40,6 @@ pub enum PlotError {
         /// Why.
         why: Box<dyn Error>,
     },
-}
-
-impl From<PlotError> for CliError {
-    fn from(e: PlotError) -> Self {
-        CliError::usage(e.to_string())
-    }
 }
 
 /// Write every plot into `dir` (created if missing); returns the files written.

@@ -19,6 +19,7 @@
 
 use std::path::PathBuf;
 
+use biasjig_core::device::Profile;
 use biasjig_core::settings::{InputMode, TestSettings};
 use serde_json::{json, Map, Value};
 
@@ -26,9 +27,9 @@ use crate::Global;
 use biasjig::board::StationSink;
 use biasjig::designfile;
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
-use biasjig::link::{sync_budget, LinkError, MemoryPort, SerialLink};
+use biasjig::link::{sync_budget, LinkError, MemoryPort, Port, SerialLink};
 use biasjig::stage_args::{settings_error, InputArgs, TestArgs};
-use biasjig::station::{expected, provenance, push_lines, run_loop, serve, Station};
+use biasjig::station::{provenance, run_loop, serve, Plan, Station};
 use biasjig::store::TraceArgs;
 use biasjig::values;
 
@@ -127,8 +128,15 @@ impl Cmd {
         }
         let (settings, overrides) = self.test_settings(doc.test)?;
         let prov = provenance(&settings, overrides, &doc.digest);
-        let push = push_lines(&doc.stage, &doc.profile, &settings);
-        let (digest, hash) = expected(&doc.stage, &doc.profile, &settings).ok_or_else(|| {
+        let plan = Plan::new(
+            doc.stage,
+            &doc.profile,
+            &settings,
+            prov,
+            doc.id.clone(),
+            budget,
+        )
+        .ok_or_else(|| {
             CliError::field(
                 "--design",
                 self.design.display(),
@@ -138,49 +146,26 @@ impl Cmd {
         // Inputs stated by neither the design file nor a flag: the instrument's own.
         let adopt = doc.test.inputs.r.is_none() && self.inputs.input_r.is_none();
         let mode_stated = self.inputs.inputs.is_some();
+        let unit_inputs = adopt.then_some((doc.profile, settings, mode_stated));
         let stdin = std::io::stdin();
         let mut out = std::io::stderr();
         let boards = if self.manual {
             let (host, unit) = MemoryPort::pair();
             std::thread::spawn(move || serve(unit));
             let mut host = Some(host);
-            let mut st = Station::new(
-                move || {
-                    host.take()
-                        .ok_or(LinkError::Disconnected("in-process console".into()))
-                },
-                push,
-                digest,
-                hash,
-                prov.clone(),
-                doc.id.clone(),
-                doc.stage,
-                budget,
-            )?;
-            if adopt {
-                st = st.inputs_from_unit(doc.profile, settings, mode_stated);
-            }
-            st = st.keep_as(self.keep.clone());
+            let reopen = move || {
+                host.take()
+                    .ok_or(LinkError::Disconnected("in-process console".into()))
+            };
+            let mut st = configured(Station::new(reopen, plan)?, unit_inputs, &self.keep);
             st.prepare()?;
             let mut sink = StationSink::open(Some(&self.log), &self.trace)?;
             run_loop(&mut st, stdin.lock(), &mut out, &mut sink, true)?
         } else {
             let path = self.port.clone().unwrap_or_default();
             let baud = self.baud;
-            let mut st = Station::new(
-                || SerialLink::open(&path, baud),
-                push,
-                digest,
-                hash,
-                prov.clone(),
-                doc.id.clone(),
-                doc.stage,
-                budget,
-            )?;
-            if adopt {
-                st = st.inputs_from_unit(doc.profile, settings, mode_stated);
-            }
-            st = st.keep_as(self.keep.clone());
+            let reopen = || SerialLink::open(&path, baud);
+            let mut st = configured(Station::new(reopen, plan)?, unit_inputs, &self.keep);
             let id = st.prepare()?;
             let inputs = if adopt { st.inputs() } else { settings.inputs };
             eprintln!(
@@ -211,4 +196,21 @@ impl Cmd {
         );
         Ok(EXIT_OK)
     }
+}
+
+/// The station with the command's options: the instrument's own measuring inputs when none were
+/// stated (`unit_inputs`: the transistor, the test settings and whether `--inputs` was given),
+/// and `--keep`.
+fn configured<P: Port, F: FnMut() -> Result<P, LinkError>>(
+    st: Station<P, F>,
+    unit_inputs: Option<(Profile, TestSettings, bool)>,
+    keep: &Option<String>,
+) -> Station<P, F> {
+    let st = match unit_inputs {
+        Some((profile, settings, mode_stated)) => {
+            st.inputs_from_unit(profile, settings, mode_stated)
+        }
+        None => st,
+    };
+    st.keep_as(keep.clone())
 }

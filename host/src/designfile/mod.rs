@@ -73,7 +73,6 @@ use biasjig_core::stage::Stage;
 use serde::{Deserialize, Serialize};
 use thiserror::Error;
 
-use crate::error::CliError;
 use crate::files::{read_limited, write_atomic, ReadError};
 pub use digest::digest;
 pub use format::to_text;
@@ -198,12 +197,6 @@ pub enum DesignFileError {
         /// Why.
         why: std::io::Error,
     },
-}
-
-impl From<DesignFileError> for CliError {
-    fn from(e: DesignFileError) -> Self {
-        CliError::usage(e.to_string())
-    }
 }
 
 /// The design hash: the core's one definition

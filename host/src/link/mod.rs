@@ -18,7 +18,6 @@ use biasjig_core::console::{MAX_DATA_LINES, MAX_OUT_LINE};
 use biasjig_core::kv;
 use thiserror::Error;
 
-use crate::error::CliError;
 pub use port::{MemoryPort, Pipe, Port, SerialLink};
 
 /// Why the link failed.
@@ -34,12 +33,6 @@ pub enum LinkError {
     /// Bytes that are not the console's protocol.
     #[error("instrument sent garbage: {0}")]
     Garbage(String),
-}
-
-impl From<LinkError> for CliError {
-    fn from(e: LinkError) -> Self {
-        CliError::link(e.to_string())
-    }
 }
 
 /// One reply: data lines and the status line.
@@ -224,12 +217,6 @@ impl<P: Port> Link<P> {
 pub struct BudgetError {
     /// The budget given, s.
     pub seconds: f64,
-}
-
-impl From<BudgetError> for CliError {
-    fn from(e: BudgetError) -> Self {
-        CliError::usage(e.to_string())
-    }
 }
 
 /// Check a synchronisation budget in seconds.

@@ -9,7 +9,6 @@ use biasjig_core::console::{Code, LINE_MAX};
 use thiserror::Error;
 
 use super::{Link, LinkError, Port};
-use crate::error::CliError;
 
 /// Why a relayed session stopped.
 #[derive(Debug, Error)]
@@ -24,15 +23,6 @@ pub enum RelayError {
     /// The link failed (exit 3).
     #[error(transparent)]
     Link(#[from] LinkError),
-}
-
-impl From<RelayError> for CliError {
-    fn from(e: RelayError) -> Self {
-        match e {
-            RelayError::Input(_) => CliError::usage(e.to_string()),
-            _ => CliError::link(e.to_string()),
-        }
-    }
 }
 
 /// Carry lines from `input` to the instrument and its replies to `out`, until the end of input.

@@ -11,7 +11,6 @@ use thiserror::Error;
 
 use super::flags::TempRange;
 use crate::designfile::DesignFileError;
-use crate::error::CliError;
 
 /// Why the flags (or the design file they name) do not give a stage the engine can take.
 #[derive(Debug, Error)]
@@ -69,12 +68,6 @@ impl FlagError {
             value: value.to_string(),
             allowed: allowed.to_string(),
         }
-    }
-}
-
-impl From<FlagError> for CliError {
-    fn from(e: FlagError) -> Self {
-        CliError::usage(e.to_string())
     }
 }
 

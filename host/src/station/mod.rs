@@ -35,4 +35,4 @@ pub use records::{provenance, record, refused_record};
 pub use run::StationError;
 pub use run::{run_loop, serve};
 pub use screen::{banner, listed_faults};
-pub use session::{BoardError, Station};
+pub use session::{BoardError, Plan, Station};

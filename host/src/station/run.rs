@@ -13,7 +13,6 @@ use thiserror::Error;
 
 use crate::board::{RecordError, StationSink};
 use crate::boardlog;
-use crate::error::CliError;
 use crate::link::{LinkError, MemoryPort, Port};
 use crate::local::local_console;
 
@@ -30,16 +29,6 @@ pub enum StationError {
     /// A record could not be written (nothing of it was kept).
     #[error(transparent)]
     Record(#[from] RecordError),
-}
-
-impl From<StationError> for CliError {
-    fn from(e: StationError) -> Self {
-        match e {
-            StationError::Input(_) => CliError::usage(e.to_string()),
-            StationError::Board(b) => b.into(),
-            StationError::Record(r) => r.into(),
-        }
-    }
 }
 
 /// Status codes that say the typed line was not readings (typing errors: ask again, log nothing).

@@ -11,7 +11,6 @@ use thiserror::Error;
 
 use super::push::{expected, push_lines};
 use super::run::code_of;
-use crate::error::CliError;
 use crate::link::{Link, LinkError, Port, Reply};
 
 /// Tries per board before the station gives up.
@@ -29,9 +28,47 @@ pub enum BoardError {
     Refused(String),
 }
 
-impl From<BoardError> for CliError {
-    fn from(e: BoardError) -> Self {
-        CliError::link(e.to_string())
+/// What a station puts on the instrument and carries into every record.
+#[derive(Debug, Clone)]
+pub struct Plan {
+    /// The lines that put the design and the test settings on the instrument ([`push_lines`]).
+    pub push: Vec<String>,
+    /// The settings digest they give (64 hex digits, [`expected`]).
+    pub digest: String,
+    /// The design hash (stage and transistor), for the log.
+    pub hash: u64,
+    /// What each record carries besides the board: `settings`, `overrides`, and the design
+    /// file's digest ([`super::provenance`]).
+    pub provenance: Value,
+    /// The design identifier, for the log.
+    pub design_id: String,
+    /// The stage pushed (for the fault words on the screen).
+    pub stage: Stage,
+    /// Synchronisation budget.
+    pub budget: Duration,
+}
+
+impl Plan {
+    /// The plan for `stage`, `profile` and `settings`: the lines to push and the digest and
+    /// hash they give (`None` when the console engine refuses them).
+    pub fn new(
+        stage: Stage,
+        profile: &Profile,
+        settings: &TestSettings,
+        provenance: Value,
+        design_id: String,
+        budget: Duration,
+    ) -> Option<Self> {
+        let (digest, hash) = expected(&stage, profile, settings)?;
+        Some(Self {
+            push: push_lines(&stage, profile, settings),
+            digest,
+            hash,
+            provenance,
+            design_id,
+            stage,
+            budget,
+        })
     }
 }
 
@@ -44,8 +81,7 @@ pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     digest: String,
     /// The design hash (stage and transistor), for the log.
     hash: u64,
-    /// What each record carries besides the board: `settings`, `overrides`, and the design
-    /// file's digest ([`provenance`]).
+    /// What each record carries besides the board ([`Plan::provenance`]).
     provenance: Value,
     design_id: String,
     /// The stage pushed (for the fault words on the screen).
@@ -72,32 +108,20 @@ struct Adopt {
 }
 
 impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
-    /// A station on the port `reopen` opens; `push` are the lines that put the design and the
-    /// test settings on the instrument and `digest` the settings digest they give
-    /// ([`expected`]), `hash` the design hash and `provenance` what every record carries besides
-    /// the board ([`provenance`]).
-    #[allow(clippy::too_many_arguments)]
-    pub fn new(
-        mut reopen: F,
-        push: Vec<String>,
-        digest: String,
-        hash: u64,
-        provenance: Value,
-        design_id: String,
-        stage: Stage,
-        budget: Duration,
-    ) -> Result<Self, LinkError> {
+    /// A station carrying out `plan` on the port `reopen` opens (and opens again after a
+    /// failure).
+    pub fn new(mut reopen: F, plan: Plan) -> Result<Self, LinkError> {
         let port = reopen()?;
         Ok(Self {
             link: Link::new(port),
             reopen,
-            push,
-            digest,
-            hash,
-            provenance,
-            design_id,
-            stage,
-            budget,
+            push: plan.push,
+            digest: plan.digest,
+            hash: plan.hash,
+            provenance: plan.provenance,
+            design_id: plan.design_id,
+            stage: plan.stage,
+            budget: plan.budget,
             adopt: None,
             inputs_used: Inputs::IDEAL,
             keep: None,

@@ -131,6 +131,19 @@ fn serve_jig<J: Jig + Send + 'static>(jig: J) -> MemoryPort {
     host
 }
 
+/// The plan of a station pushing [`pushed`] with the default transistor and `settings`.
+fn plan(settings: &TestSettings) -> Plan {
+    Plan::new(
+        pushed(),
+        &default_profile(),
+        settings,
+        provenance(settings, json!({}), "file-digest"),
+        "demo-1".into(),
+        Duration::from_secs(5),
+    )
+    .unwrap()
+}
+
 /// A station pushing [`pushed`] with the default transistor and `settings` over `host`
 /// (opened once), with the digest and design hash they give.
 fn station_on(
@@ -141,18 +154,12 @@ fn station_on(
     String,
     u64,
 ) {
-    let (stage, profile) = (pushed(), default_profile());
-    let (digest, hash) = expected(&stage, &profile, settings).unwrap();
+    let plan = plan(settings);
+    let (digest, hash) = (plan.digest.clone(), plan.hash);
     let mut h = Some(host);
     let st = Station::new(
         move || h.take().ok_or(LinkError::Disconnected("gone".into())),
-        push_lines(&stage, &profile, settings),
-        digest.clone(),
-        hash,
-        provenance(settings, json!({}), "file-digest"),
-        "demo-1".into(),
-        stage,
-        Duration::from_secs(5),
+        plan,
     )
     .unwrap();
     (st, digest, hash)
@@ -181,13 +188,7 @@ fn resets_and_garbage_lose_no_record() {
     let keep = host.clone();
     let mut st = Station::new(
         move || Ok(host.take().or_else(|| keep.clone()).unwrap()),
-        push_lines(&stage, &profile, &settings),
-        digest.clone(),
-        hash,
-        provenance(&settings, json!({}), "file-digest"),
-        "demo-1".into(),
-        stage,
-        Duration::from_secs(5),
+        plan(&settings),
     )
     .unwrap();
     st.set_reply_timeout(Duration::from_millis(1500));

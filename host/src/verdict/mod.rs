@@ -18,7 +18,6 @@ use serde_json::Value;
 
 use thiserror::Error;
 
-use crate::error::CliError;
 use crate::stage_args::Resolved;
 
 /// How many fault hypotheses a result lists at most.
@@ -112,12 +111,6 @@ impl From<JudgeError> for JudgingError {
             JudgeError::Settings(_) => Self::Settings(e),
             _ => Self::Other(e),
         }
-    }
-}
-
-impl From<JudgingError> for CliError {
-    fn from(e: JudgingError) -> Self {
-        CliError::usage(e.to_string())
     }
 }
 
