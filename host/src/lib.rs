@@ -13,6 +13,7 @@
 //!   record, and the recorder that writes the log and the store);
 //! - the instrument: [`link`] (the serial link and the console's framing), [`local`] (the
 //!   console engine in this process), [`station`] (the technician's loop over the link);
+//! - the demo: [`demo`] (the built-in scenario);
 //! - figures: [`plot`] (the spread's SVG plots), [`analysis`] (the report's figures per design).
 //!
 //! Each operation has its own error type (`thiserror`); [`error::CliError`] is the one type the
@@ -41,6 +42,7 @@ pub mod analysis;
 pub mod board;
 pub mod boardlog;
 pub mod clock;
+pub mod demo;
 pub mod designfile;
 pub mod error;
 pub mod files;

@@ -76,17 +76,9 @@ impl Plan {
 pub struct Station<P: Port, F: FnMut() -> Result<P, LinkError>> {
     pub(super) link: Link<P>,
     reopen: F,
-    push: Vec<String>,
-    /// The settings digest the instrument must report (64 hex digits).
-    digest: String,
-    /// The design hash (stage and transistor), for the log.
-    hash: u64,
-    /// What each record carries besides the board ([`Plan::provenance`]).
-    provenance: Value,
-    design_id: String,
-    /// The stage pushed (for the fault words on the screen).
-    stage: Stage,
-    budget: Duration,
+    /// What is pushed and recorded (the lines, digest and hash follow the instrument's own
+    /// measuring inputs when they are taken).
+    plan: Plan,
     /// When no measuring inputs were stated: the transistor and the test settings, to take the
     /// instrument's own inputs into them ([`Station::inputs_from_unit`]).
     adopt: Option<Adopt>,
@@ -115,13 +107,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
         Ok(Self {
             link: Link::new(port),
             reopen,
-            push: plan.push,
-            digest: plan.digest,
-            hash: plan.hash,
-            provenance: plan.provenance,
-            design_id: plan.design_id,
-            stage: plan.stage,
-            budget: plan.budget,
+            plan,
             adopt: None,
             inputs_used: Inputs::IDEAL,
             keep: None,
@@ -168,16 +154,16 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 ts.inputs.mode = m;
             }
         }
-        let (digest, hash) = expected(&self.stage, &a.profile, &ts).ok_or_else(|| {
+        let (digest, hash) = expected(&self.plan.stage, &a.profile, &ts).ok_or_else(|| {
             BoardError::Refused(format!(
                 "the instrument's own measuring inputs ({:?}) are not accepted",
                 r.data
             ))
         })?;
-        self.push = push_lines(&self.stage, &a.profile, &ts);
-        self.digest = digest;
-        self.hash = hash;
-        if let Some(o) = self.provenance.as_object_mut() {
+        self.plan.push = push_lines(&self.plan.stage, &a.profile, &ts);
+        self.plan.digest = digest;
+        self.plan.hash = hash;
+        if let Some(o) = self.plan.provenance.as_object_mut() {
             o.insert("settings".into(), crate::verdict::json::settings_json(&ts));
         }
         self.inputs_used = ts.inputs;
@@ -191,7 +177,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
 
     /// The instrument reports the expected settings digest.
     pub(super) fn digest_ok(&mut self) -> Result<bool, LinkError> {
-        Ok(self.digest_reply()?.value("digest") == Some(self.digest.as_str()))
+        Ok(self.digest_reply()?.value("digest") == Some(self.plan.digest.as_str()))
     }
 
     fn digest_reply(&mut self) -> Result<Reply, LinkError> {
@@ -210,7 +196,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
     /// every test setting: when its settings digest differs, push them all, then verify the
     /// digest.
     pub fn prepare(&mut self) -> Result<String, BoardError> {
-        let id = self.link.sync(self.budget).map_err(BoardError::Link)?;
+        let id = self.link.sync(self.plan.budget).map_err(BoardError::Link)?;
         for l in ["echo off", "mode machine"] {
             let r = self.link.command(l).map_err(BoardError::Link)?;
             if !r.ok() {
@@ -226,8 +212,8 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                 first.status
             )));
         }
-        if first.value("digest") != Some(self.digest.as_str()) {
-            for l in self.push.clone() {
+        if first.value("digest") != Some(self.plan.digest.as_str()) {
+            for l in self.plan.push.clone() {
                 let r = self.link.command(&l).map_err(BoardError::Link)?;
                 if !r.ok() {
                     return Err(BoardError::Refused(format!("{l}: {}", r.status)));
@@ -300,28 +286,28 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
 
     /// The design identifier for the log.
     pub fn design_id(&self) -> &str {
-        &self.design_id
+        &self.plan.design_id
     }
 
     /// The design hash (stage and transistor) of what was pushed.
     pub fn hash(&self) -> u64 {
-        self.hash
+        self.plan.hash
     }
 
     /// The stage pushed (for the fault words on the screen).
     pub fn stage(&self) -> &Stage {
-        &self.stage
+        &self.plan.stage
     }
 
     /// The settings digest verified on the instrument.
     pub fn digest(&self) -> &str {
-        &self.digest
+        &self.plan.digest
     }
 
     /// A record with what judged it: `settings`, `digest` (verified on the instrument),
     /// `overrides`, and `design.digest` (the design file's).
     pub fn stamp(&self, mut record: Value) -> Value {
-        if let (Some(o), Some(p)) = (record.as_object_mut(), self.provenance.as_object()) {
+        if let (Some(o), Some(p)) = (record.as_object_mut(), self.plan.provenance.as_object()) {
             for (k, v) in p {
                 match (
                     k.as_str(),
@@ -335,7 +321,7 @@ impl<P: Port, F: FnMut() -> Result<P, LinkError>> Station<P, F> {
                     }
                 }
             }
-            o.insert("digest".into(), json!(self.digest));
+            o.insert("digest".into(), json!(self.plan.digest));
         }
         record
     }
