@@ -19,6 +19,8 @@
 //! Each operation has its own error type (`thiserror`); [`error::CliError`] is the one type the
 //! binary's commands return, with the exit status of the machine interface.
 
+#![deny(missing_docs)]
+
 /// Like `println!`, but a closed standard output (a pipe whose reader went away) ends the
 /// output quietly instead of panicking.
 #[macro_export]

@@ -76,8 +76,6 @@ pub fn tone_reading(text: &str) -> Result<ToneReading, String> {
     Ok(r)
 }
 
-/// A design ready for the station: stage, profile, test settings, identity.
-
 impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {

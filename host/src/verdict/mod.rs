@@ -26,6 +26,7 @@ pub const LISTED_FAULTS: usize = 6;
 /// The nodes a station judges, in the order they are listed.
 pub const NODES: [Node; 6] = [Node::Vb, Node::Ve, Node::Vc, Node::Vbe, Node::Vce, Node::Ic];
 
+/// A design ready for the station: stage, profile, test settings, identity.
 #[derive(Debug, Clone)]
 pub struct Station {
     /// The design (nominal supply).
