@@ -12,6 +12,7 @@ use biasjig_core::device::Profile;
 use biasjig_core::limits::Limits;
 use biasjig_core::spread::{Factor, Node, Range, Spread, Stats};
 use biasjig_core::stage::{Polarity, Stage};
+use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use thiserror::Error;
@@ -40,6 +41,25 @@ pub enum PlotError {
         /// Why.
         why: Box<dyn Error>,
     },
+}
+
+/// Draw the legend of the labelled series and finish the file.
+fn legend_and_finish<'a, DB, CT>(
+    chart: &mut ChartContext<'a, DB, CT>,
+    root: &DrawingArea<DB, Shift>,
+) -> PlotResult
+where
+    DB: DrawingBackend + 'a,
+    DB::ErrorType: 'static,
+    CT: CoordTranslate,
+{
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()?;
+    root.present()?;
+    Ok(())
 }
 
 /// Write every plot into `dir` (created if missing); returns the files written.
@@ -172,13 +192,7 @@ fn histogram(
                 )
             });
     }
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .draw()?;
-    root.present()?;
-    Ok(())
+    legend_and_finish(&mut chart, &root)
 }
 
 /// The DC load line IC = (VCC − |VCE|)/(RC + RE1 + RE2), the AC load line through the nominal
@@ -261,13 +275,7 @@ fn load_lines(
         .draw_series([Circle::new((vq, iq), 5, RED.filled())])?
         .label("nominal Q-point")
         .legend(|(x, y)| Circle::new((x + 8, y), 4, RED.filled()));
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .draw()?;
-    root.present()?;
-    Ok(())
+    legend_and_finish(&mut chart, &root)
 }
 
 /// Bars of each factor's share of the variance, one panel per DC node.

@@ -1,6 +1,8 @@
 //! SVG pictures for the HTML report: the individuals chart of a node in test order and the
 //! histogram of its readings against the window at the nominal supply.
 
+use plotters::coord::ranged1d::{AsRangedCoord, ValueFormatter};
+use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::stats::Chart;
@@ -23,6 +25,37 @@ fn err(e: impl std::fmt::Display) -> String {
     e.to_string()
 }
 
+/// The frame of a picture: the caption over a chart of `x` by `y`, `y_labels` pixels for the
+/// value labels, with its mesh drawn.
+fn frame<'a, DB, X, Y>(
+    root: &'a DrawingArea<DB, Shift>,
+    caption: String,
+    y_labels: u32,
+    x: X,
+    y: Y,
+) -> Result<ChartContext<'a, DB, Cartesian2d<X::CoordDescType, Y::CoordDescType>>, String>
+where
+    DB: DrawingBackend,
+    X: AsRangedCoord,
+    Y: AsRangedCoord,
+    X::CoordDescType: ValueFormatter<X::Value>,
+    Y::CoordDescType: ValueFormatter<Y::Value>,
+{
+    let mut chart = ChartBuilder::on(root)
+        .caption(caption, ("sans-serif", 15))
+        .margin(10)
+        .x_label_area_size(30)
+        .y_label_area_size(y_labels)
+        .build_cartesian_2d(x, y)
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .disable_x_mesh()
+        .draw()
+        .map_err(err)?;
+    Ok(chart)
+}
+
 /// The individuals chart: points in test order, centre and control limits, signals in red.
 pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
     let mut svg = String::new();
@@ -42,25 +75,12 @@ pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
         }
         let pad = 0.05 * (hi - lo);
         let len = n.values.len().max(2);
-        let mut chart = ChartBuilder::on(&root)
-            .caption(
-                format!(
-                    "{} ({}) individuals chart, first tests in test order",
-                    n.name.to_uppercase(),
-                    n.unit
-                ),
-                ("sans-serif", 15),
-            )
-            .margin(10)
-            .x_label_area_size(30)
-            .y_label_area_size(60)
-            .build_cartesian_2d(0..len, (lo - pad)..(hi + pad))
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .disable_x_mesh()
-            .draw()
-            .map_err(err)?;
+        let caption = format!(
+            "{} ({}) individuals chart, first tests in test order",
+            n.name.to_uppercase(),
+            n.unit
+        );
+        let mut chart = frame(&root, caption, 60, 0..len, (lo - pad)..(hi + pad))?;
         chart
             .draw_series(LineSeries::new(
                 n.values.iter().enumerate().map(|(i, v)| (i, *v)),
@@ -115,25 +135,12 @@ pub fn histogram(n: &NodePlot<'_>) -> Result<String, String> {
             }
         }
         let top = counts.iter().copied().max().unwrap_or(1).max(1);
-        let mut chart = ChartBuilder::on(&root)
-            .caption(
-                format!(
-                    "{} ({}) at the nominal supply; window dashed",
-                    n.name.to_uppercase(),
-                    n.unit
-                ),
-                ("sans-serif", 15),
-            )
-            .margin(10)
-            .x_label_area_size(30)
-            .y_label_area_size(40)
-            .build_cartesian_2d(lo..hi, 0u32..top + 1)
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .disable_x_mesh()
-            .draw()
-            .map_err(err)?;
+        let caption = format!(
+            "{} ({}) at the nominal supply; window dashed",
+            n.name.to_uppercase(),
+            n.unit
+        );
+        let mut chart = frame(&root, caption, 40, lo..hi, 0u32..top + 1)?;
         chart
             .draw_series(counts.iter().enumerate().map(|(k, c)| {
                 let x0 = lo + width * k as f64;
