@@ -126,7 +126,7 @@ impl Cmd {
                 Err(msg) => {
                     t.bad += 1;
                     eprintln!("biasjig: {name}: line {n}: {msg}");
-                    js.error(json!({"line": n, "message": msg}));
+                    js.error(json!({"line": n, "message": msg.to_string()}));
                     continue;
                 }
             };
