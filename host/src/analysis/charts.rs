@@ -25,6 +25,13 @@ fn err(e: impl std::fmt::Display) -> String {
     e.to_string()
 }
 
+/// A chart of `X` by `Y` on the backend `DB`.
+type Frame<'a, DB, X, Y> = ChartContext<
+    'a,
+    DB,
+    Cartesian2d<<X as AsRangedCoord>::CoordDescType, <Y as AsRangedCoord>::CoordDescType>,
+>;
+
 /// The frame of a picture: the caption over a chart of `x` by `y`, `y_labels` pixels for the
 /// value labels, with its mesh drawn.
 fn frame<'a, DB, X, Y>(
@@ -33,7 +40,7 @@ fn frame<'a, DB, X, Y>(
     y_labels: u32,
     x: X,
     y: Y,
-) -> Result<ChartContext<'a, DB, Cartesian2d<X::CoordDescType, Y::CoordDescType>>, String>
+) -> Result<Frame<'a, DB, X, Y>, String>
 where
     DB: DrawingBackend,
     X: AsRangedCoord,
