@@ -3,7 +3,8 @@
 //!
 //! From the bottom up:
 //! - values and words: [`values`] (the value grammar of the flags), [`text`] and [`json`] (the
-//!   engine's results in words and in the machine interface), [`clock`] (ISO 8601 UTC);
+//!   engine's results in words and in the machine interface), [`clock`] (ISO 8601 UTC),
+//!   [`files`] (size-bounded reads, atomic writes);
 //! - the stage: [`designfile`] (design files: TOML, digest, atomic writes), [`stage_args`] (the
 //!   stage flags or `--design FILE`, resolved into core types; errors naming the flag);
 //! - boards: [`verdict`] (a board judged on this PC: the one judging path and its outcome),
@@ -16,8 +17,9 @@
 //! - the demo: [`demo`] (the built-in scenario);
 //! - figures: [`plot`] (the spread's SVG plots), [`analysis`] (the report's figures per design).
 //!
-//! Each operation has its own error type (`thiserror`); [`error::CliError`] is the one type the
-//! binary's commands return, with the exit status of the machine interface.
+//! Each operation has its own error type (`thiserror`, typed fields); [`error::CliError`] is
+//! the one type the binary's commands return, and [`error`] holds the one table of which error
+//! gets which exit status of the machine interface.
 
 #![deny(missing_docs)]
 

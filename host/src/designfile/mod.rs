@@ -53,8 +53,9 @@
 //! file must be written again by `biasjig design -o`. Files are read up to [`MAX_BYTES`] and
 //! written atomically (a temporary file beside it, then a rename).
 //!
-//! By job: [`format`] (the TOML shape and the text of a design), [`parse`] (from text to a
-//! checked [`DesignDoc`]), [`digest`] (the file digest).
+//! By job: [`format`](mod@format) (the TOML shape and the text of a design),
+//! [`parse`](mod@parse) (from text to a checked [`DesignDoc`]), [`digest`](mod@digest) (the
+//! file digest).
 
 pub mod digest;
 pub mod format;
