@@ -148,3 +148,70 @@ impl From<StationError> for CliError {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::io;
+
+    fn io_error() -> io::Error {
+        io::Error::new(io::ErrorKind::BrokenPipe, "gone")
+    }
+
+    /// The exit statuses of the machine interface (CONTRACT.md): 2 bad input, 3 instrument or
+    /// serial link; the message is the error's own text. The texts are a regression pin: what
+    /// the commands printed before their errors were typed.
+    #[test]
+    fn each_error_gets_its_exit_status_and_keeps_its_text() {
+        let cases: Vec<(CliError, u8, &str)> = vec![
+            (
+                FlagError::Missing { flag: "--r1" }.into(),
+                EXIT_USAGE,
+                "--r1: missing: give it (a value such as 4k7), or --design FILE",
+            ),
+            (
+                BudgetError { seconds: 0.0 }.into(),
+                EXIT_USAGE,
+                "--sync-timeout: 0: allowed 0.1 to 600 seconds",
+            ),
+            (
+                LinkError::Timeout("no reply".into()).into(),
+                EXIT_LINK,
+                "instrument timeout: no reply",
+            ),
+            (
+                BoardError::Refused("err JIG open probe".into()).into(),
+                EXIT_LINK,
+                "instrument: err JIG open probe",
+            ),
+            (
+                RelayError::Input(io_error()).into(),
+                EXIT_USAGE,
+                "stdin: gone",
+            ),
+            (
+                RelayError::Output(io_error()).into(),
+                EXIT_LINK,
+                "stdout: gone",
+            ),
+            (
+                StationError::Input(io_error()).into(),
+                EXIT_USAGE,
+                "stdin: gone",
+            ),
+            (
+                StationError::Board(BoardError::Link(LinkError::Garbage("x".into()))).into(),
+                EXIT_LINK,
+                "instrument sent garbage: x",
+            ),
+            (
+                RecordError::Log(LogError::Encode("bad".into())).into(),
+                EXIT_USAGE,
+                "--log: cannot encode the record: bad",
+            ),
+        ];
+        for (e, code, text) in cases {
+            assert_eq!((e.code, e.message.as_str()), (code, text));
+        }
+    }
+}
