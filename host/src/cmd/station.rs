@@ -1,21 +1,7 @@
-//! `biasjig station`: the technician's loop. Push the design and every test setting (test
-//! ambient, meter, measuring inputs) to the instrument and verify the one settings digest, then
-//! per board: read the serial number (one already in the log is said and recorded as a retest),
-//! trigger measure and check, show the verdict large with the likely faults in the words of
-//! `biasjig check`, append one complete JSON line to the log.
-//!
-//! An instrument reset, a timeout, garbage on the line or another settings digest makes the
-//! station synchronise again, push again and repeat the board; a record is written only from
-//! one complete reply with the right digest before and after it, once, so nothing is lost or
-//! doubled. `--manual` runs the same loop against the console engine in this process, with the
-//! readings typed from a meter: a line that is not readings is asked again, readings the engine
-//! refuses are logged as refused with the reason.
-//!
-//! The log is the board log of `biasjig check --log` ([`biasjig::boardlog`]: append-only JSON
-//! Lines, torn tails skipped), and each record has the shape of `biasjig check --json` plus
-//! `time`, `serial`, `design` (`id`, `hash`, `digest`), `readings`, `settings`, `digest`,
-//! `overrides` and `retest` (and `typed` for refused typed readings); with `--store` the same
-//! records go to the results store with station, operator and lot ([`biasjig::board::StationSink`]).
+//! `biasjig station`: the technician's loop (the library's [`biasjig::station`]) on the
+//! instrument over a serial port, or with `--manual` on the console engine in this process with
+//! the readings typed from a meter. The flags give the design file, the log and store, and the
+//! test settings pushed with the design.
 
 use std::path::PathBuf;
 
