@@ -6,15 +6,14 @@
 use std::path::PathBuf;
 
 use biasjig_core::device::Profile;
-use biasjig_core::settings::{InputMode, TestSettings};
-use serde_json::{json, Map, Value};
+use biasjig_core::settings::TestSettings;
 
 use crate::Global;
 use biasjig::board::StationSink;
 use biasjig::designfile;
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
 use biasjig::link::{sync_budget, LinkError, MemoryPort, Port, SerialLink};
-use biasjig::stage_args::{settings_error, InputArgs, TestArgs};
+use biasjig::stage_args::{station_settings, InputArgs, TestArgs};
 use biasjig::station::{provenance, run_loop, serve, Plan, Station};
 use biasjig::store::TraceArgs;
 use biasjig::values;
@@ -57,48 +56,6 @@ pub struct Cmd {
 }
 
 impl Cmd {
-    /// The test settings the station pushes: the design file's (or the core's defaults), changed
-    /// by the flags, and the flags that changed them (`overrides` of each record).
-    pub fn test_settings(&self, base: TestSettings) -> Result<(TestSettings, Value), CliError> {
-        let mut ts = base;
-        let mut over = Map::new();
-        let mut add = |flag: &str, v: Option<f64>| {
-            if let Some(v) = v {
-                over.insert(flag.to_owned(), json!(v));
-            }
-        };
-        if let Some(t) = self.temp {
-            ts.temp_min_c = t;
-            ts.temp_max_c = t;
-        }
-        add("--temp", self.temp);
-        let t = &self.test;
-        ts.temp_min_c = t.temp_min.unwrap_or(ts.temp_min_c);
-        ts.temp_max_c = t.temp_max.unwrap_or(ts.temp_max_c);
-        ts.meter.gain_error = t.meter.meter.unwrap_or(ts.meter.gain_error);
-        ts.meter.offset = t.meter.meter_offset.unwrap_or(ts.meter.offset);
-        ts.meter.divider_tol = t.meter.divider_tol.unwrap_or(ts.meter.divider_tol);
-        ts.inputs.r = self.inputs.input_r.or(ts.inputs.r);
-        ts.inputs.mode = self.inputs.inputs.unwrap_or(ts.inputs.mode);
-        add("--temp-min", t.temp_min);
-        add("--temp-max", t.temp_max);
-        add("--meter", t.meter.meter.map(|g| 100.0 * g));
-        add("--meter-offset", t.meter.meter_offset);
-        add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
-        add("--input-r", self.inputs.input_r);
-        add(
-            "--inputs",
-            self.inputs.inputs.map(|m| match m {
-                InputMode::Together => 0.0,
-                InputMode::One => 1.0,
-            }),
-        );
-        ts.validate().map_err(|e| settings_error(&ts, e))?;
-        Ok((ts, Value::Object(over)))
-    }
-}
-
-impl Cmd {
     /// Run the command.
     pub fn run(&self, _g: &Global) -> CmdResult {
         let budget = sync_budget(self.sync_timeout)?;
@@ -112,7 +69,8 @@ impl Cmd {
                 ));
             }
         }
-        let (settings, overrides) = self.test_settings(doc.test)?;
+        let (settings, overrides) =
+            station_settings(doc.test, self.temp, &self.test, &self.inputs)?;
         let prov = provenance(&settings, overrides, &doc.digest);
         let plan = Plan::new(
             doc.stage,

@@ -11,6 +11,7 @@ use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::limits::Meter;
 use biasjig_core::settings::{self, InputMode, Inputs, TestSettings};
 use biasjig_core::stage::{Part, Polarity, Resistor, Stage};
+use serde_json::{json, Map, Value};
 
 use crate::designfile::{self, DesignDoc};
 use explain::TOLERANCE_ALLOWED;
@@ -111,6 +112,52 @@ impl ProfileArgs {
 /// spread, VBE 0.65 V at 1 mA.
 pub fn default_profile() -> Profile {
     settings::default_profile()
+}
+
+/// The test settings a station pushes: `base` (the design file's) changed by the flags
+/// (`temp`: `--temp`), and the flags that changed them as JSON, flag -> value as given (the
+/// `overrides` of each station record; percentages in percent, `--inputs` 0 together, 1 one).
+pub fn station_settings(
+    base: TestSettings,
+    temp: Option<f64>,
+    test: &TestArgs,
+    inputs: &InputArgs,
+) -> Result<(TestSettings, Value), FlagError> {
+    let mut ts = base;
+    let mut over = Map::new();
+    let mut add = |flag: &str, v: Option<f64>| {
+        if let Some(v) = v {
+            over.insert(flag.to_owned(), json!(v));
+        }
+    };
+    if let Some(t) = temp {
+        ts.temp_min_c = t;
+        ts.temp_max_c = t;
+    }
+    add("--temp", temp);
+    let t = test;
+    ts.temp_min_c = t.temp_min.unwrap_or(ts.temp_min_c);
+    ts.temp_max_c = t.temp_max.unwrap_or(ts.temp_max_c);
+    ts.meter.gain_error = t.meter.meter.unwrap_or(ts.meter.gain_error);
+    ts.meter.offset = t.meter.meter_offset.unwrap_or(ts.meter.offset);
+    ts.meter.divider_tol = t.meter.divider_tol.unwrap_or(ts.meter.divider_tol);
+    ts.inputs.r = inputs.input_r.or(ts.inputs.r);
+    ts.inputs.mode = inputs.inputs.unwrap_or(ts.inputs.mode);
+    add("--temp-min", t.temp_min);
+    add("--temp-max", t.temp_max);
+    add("--meter", t.meter.meter.map(|g| 100.0 * g));
+    add("--meter-offset", t.meter.meter_offset);
+    add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
+    add("--input-r", inputs.input_r);
+    add(
+        "--inputs",
+        inputs.inputs.map(|m| match m {
+            InputMode::Together => 0.0,
+            InputMode::One => 1.0,
+        }),
+    );
+    ts.validate().map_err(|e| settings_error(&ts, e))?;
+    Ok((ts, Value::Object(over)))
 }
 
 impl StageArgs {
