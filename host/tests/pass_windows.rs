@@ -1,94 +1,34 @@
-//! Issue 11: a PASS means what it says. One set of windows (`limits` == `check` == the console,
-//! bit for bit, continuous in the ambient), measuring inputs modelled, the supply judged, a stage
-//! that does not work refused, units checked, what judged a board on record. Each test names the
-//! finding of the issue it pins (it fails on the code before the fix). Stages are invented;
-//! readings come from the engine.
+//! Issue 11: a PASS means what it says; here, one set of windows: `limits` == `check` == the
+//! console, bit for bit, with the same defaults, continuous in the ambient and the same with a
+//! design file. Each test names the finding of the issue it pins (it fails on the code before
+//! the fix). Stages are invented; readings come from the engine.
 
-use std::io::Write;
-use std::path::PathBuf;
-use std::process::{Command, Output, Stdio};
+mod common;
 
 use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::judge::readings_through;
 use biasjig_core::settings::{InputMode, Inputs};
 use biasjig_core::solve::Conditions;
-use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Resistor, Stage};
+use biasjig_core::stage::{Part, Polarity, Stage};
+use common::console::replies;
+use common::demo;
+use common::{json, run, stderr, strs};
+use rand_core::{Rng, SeedableRng};
+use rand_xoshiro::SplitMix64;
 use serde_json::Value;
 
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-}
+/// The scratch folder of this file.
+const TAG: &str = "pass-windows";
 
-fn run(args: &[String]) -> Output {
-    bin().args(args).output().expect("run biasjig")
-}
-
-fn strs(a: &[&str]) -> Vec<String> {
-    a.iter().map(|s| s.to_string()).collect()
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-fn json(o: &Output) -> Value {
-    serde_json::from_slice(&o.stdout).unwrap_or_else(|e| {
-        panic!(
-            "not JSON ({e}): {} {}",
-            String::from_utf8_lossy(&o.stdout),
-            stderr(o)
-        )
-    })
-}
-
-fn temp(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("biasjig-pass-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let p = dir.join(name);
-    let _ = std::fs::remove_file(&p);
-    p
-}
-
-/// Run the in-process console on `lines`; the replies (data and status lines) per input line.
-fn console(lines: &[String]) -> Vec<Vec<String>> {
-    let mut child = bin()
-        .arg("console")
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
-    {
-        let mut stdin = child.stdin.take().unwrap();
-        for l in lines {
-            writeln!(stdin, "{l}").unwrap();
-        }
-    }
-    let out = child.wait_with_output().unwrap();
-    let text = String::from_utf8_lossy(&out.stdout).into_owned();
-    let mut replies = Vec::new();
-    let mut cur = Vec::new();
-    for l in text.lines() {
-        let l = l.trim_end_matches('\r').to_string();
-        let status = l == "ok" || l.starts_with("ok ") || l.starts_with("err ");
-        cur.push(l);
-        if status {
-            replies.push(std::mem::take(&mut cur));
-        }
-    }
-    replies
-}
-
-/// A small deterministic generator (splitmix64) for the random stages.
-struct Draw(u64);
+/// A small deterministic generator for the random stages (splitmix64).
+struct Draw(SplitMix64);
 
 impl Draw {
+    fn new(seed: u64) -> Self {
+        Self(SplitMix64::seed_from_u64(seed))
+    }
     fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-        z ^ (z >> 31)
+        self.0.next_u64()
     }
     fn unit(&mut self) -> f64 {
         (self.next() >> 11) as f64 / (1u64 << 53) as f64
@@ -118,7 +58,7 @@ struct Case {
 }
 
 fn case(seed: u64) -> Case {
-    let mut g = Draw(seed);
+    let mut g = Draw::new(seed);
     let pnp = g.unit() < 0.3;
     let vcc = g.part(6.0, 30.0);
     let ic = g.range(0.3e-3, 3e-3);
@@ -330,7 +270,7 @@ fn limits_check_and_console_give_the_same_windows_bit_for_bit() {
         let mut lines = c.set.clone();
         lines.push(format!("check {} {} {} {}", rd[0], rd[1], rd[2], rd[3]));
         lines.push("digest".into());
-        let replies = console(&lines);
+        let replies = replies(&lines);
         let chk = &replies[replies.len() - 2];
         assert!(
             chk.last().is_some_and(|s| s == "ok"),
@@ -394,7 +334,7 @@ fn the_console_and_the_command_line_share_their_defaults() {
         "set re2 820",
         "limits",
     ]);
-    let replies = console(&lines);
+    let replies = replies(&lines);
     let lim = replies.last().unwrap();
     for n in NODES {
         let line = lim
@@ -424,43 +364,6 @@ fn the_console_and_the_command_line_share_their_defaults() {
     assert_eq!(lj["supply"]["low"].as_f64(), Some(12.0 * 0.95));
 }
 
-fn design_file(name: &str, extra: &[&str]) -> PathBuf {
-    let f = temp(name);
-    let mut a = strs(&[
-        "design",
-        "--vcc",
-        "12",
-        "--gain",
-        "15",
-        "--rl",
-        "15k",
-        "--rs",
-        "600",
-        "--f-low",
-        "5",
-        "--ic-max",
-        "2m",
-        "--temp-min",
-        "-10",
-        "--temp-max",
-        "55",
-        "--beta-min",
-        "100",
-        "--beta-max",
-        "300",
-        // The first round's design (held at nominal): with `design`'s default worst-case hold
-        // the demo's gain needs ±12 % (see design_cli).
-        "--hold",
-        "nominal",
-        "-o",
-    ]);
-    a.push(f.to_str().unwrap().into());
-    a.extend(strs(extra));
-    let o = run(&a);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
-    f
-}
-
 /// Issue 11, first finding: `--temp 25` was read as "not given" (the design's whole operating
 /// range then applied) and gave windows a third wider than `--temp 24.9` or `25.1`; `limits
 /// --design` published 25 °C windows while `check --design` applied the range. Now the test
@@ -468,7 +371,7 @@ fn design_file(name: &str, extra: &[&str]) -> PathBuf {
 /// `check --design --vcc V`.
 #[test]
 fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
-    let f = design_file("cont.toml", &[]);
+    let f = demo::first_round(TAG, "cont.toml");
     let d = f.to_str().unwrap();
     let lj = json(&run(&strs(&["limits", "--json", "--design", d])));
     let (vb, ve, vc) = (
@@ -569,388 +472,3 @@ fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
     assert!((w_n / w25 - 1.0).abs() < 1e-3, "{w_n} {w25}");
 }
 
-/// A high-impedance stage of our own (24 V, R1 470 k, R2 100 k, RC 47 k, RE 10 k + 0).
-const HIGH_Z: [&str; 14] = [
-    "--vcc",
-    "24",
-    "--r1",
-    "470k",
-    "--r2",
-    "100k",
-    "--rc",
-    "47k",
-    "--re1",
-    "10k",
-    "--re2",
-    "0",
-    "--beta-min",
-    "100",
-];
-
-fn high_z() -> (Stage, Profile) {
-    let s = Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(24.0, 0.05),
-        r1: Part::new(470e3, 0.05),
-        r2: Part::new(100e3, 0.05),
-        rc: Part::new(47e3, 0.05),
-        re1: Part::new(10e3, 0.05),
-        re2: Part::new(0.0, 0.05),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    };
-    let p = Profile {
-        beta_min: 100.0,
-        ..Profile::default()
-    };
-    (s, p)
-}
-
-/// Readings of the high-impedance stage through 110 kΩ inputs attached together, with a fault.
-fn high_z_readings(fault: Option<Fault>, beta: f64) -> [String; 4] {
-    let (s, p) = high_z();
-    let (s, dev) = match fault {
-        Some(Fault::Device(d)) => (s, Some(d)),
-        Some(f) => (s.with_fault(f), None),
-        None => (s, None),
-    };
-    let cond = Conditions {
-        beta_25: beta,
-        fault: dev,
-        ..Conditions::typical(&p)
-    };
-    let inputs = Inputs {
-        r: Some(110e3),
-        mode: InputMode::Together,
-    };
-    let r = readings_through(&s, &p, cond, &inputs).unwrap();
-    [24.0, r.vb, r.ve, r.vc].map(|v| format!("{v}"))
-}
-
-fn check_high_z(r: &[String; 4], extra: &[&str]) -> Output {
-    let mut a = strs(&["check", "--json"]);
-    a.extend(strs(&HIGH_Z));
-    a.extend(strs(&["--vb", &r[1], "--ve", &r[2], "--vc", &r[3]]));
-    a.extend(strs(extra));
-    run(&a)
-}
-
-/// Issue 11, second finding: the jig's 110 kΩ inputs pulled a good board's VB far below its
-/// window, so every good board failed. With `--input-r 110k --inputs together` good boards
-/// pass and open/short faults are still named; without it the same board fails.
-#[test]
-fn modelled_inputs_pass_good_boards_and_still_name_faults() {
-    let inputs = ["--input-r", "110k", "--inputs", "together"];
-    for beta in [100.0, 200.0] {
-        let good = high_z_readings(None, beta);
-        let o = check_high_z(&good, &inputs);
-        assert_eq!(o.status.code(), Some(0), "hFE {beta}: {}", stderr(&o));
-        let bare = check_high_z(&good, &[]);
-        assert_eq!(
-            bare.status.code(),
-            Some(1),
-            "read as if by an ideal meter it fails"
-        );
-    }
-    for (fault, part, mode) in [
-        (Fault::Open(Resistor::R1), "R1", "open"),
-        (Fault::Open(Resistor::R2), "R2", "open"),
-        (Fault::Open(Resistor::Rc), "RC", "open"),
-        (Fault::Short(Resistor::Re1), "RE1", "short"),
-        (Fault::Short(Resistor::R2), "R2", "short"),
-        (Fault::Device(DeviceFault::BeOpen), "Q", "be_open"),
-    ] {
-        let r = high_z_readings(Some(fault), 200.0);
-        let o = check_high_z(&r, &inputs);
-        assert_eq!(o.status.code(), Some(1), "{part} {mode}: {}", stderr(&o));
-        let j = json(&o);
-        let named = std::iter::once(&j["faults"][0])
-            .chain(
-                j["faults"][0]["equivalent"]
-                    .as_array()
-                    .into_iter()
-                    .flatten(),
-            )
-            .any(|f| f["part"] == part && f["mode"] == mode);
-        assert!(named, "{part} {mode} not named first: {}", j["faults"]);
-    }
-}
-
-/// `--inputs one`: each node read with only its own input attached; a good board passes.
-#[test]
-fn one_input_at_a_time() {
-    let (s, p) = high_z();
-    let inputs = Inputs {
-        r: Some(1e6),
-        mode: InputMode::One,
-    };
-    let r = readings_through(&s, &p, Conditions::typical(&p), &inputs).unwrap();
-    let rd = [24.0, r.vb, r.ve, r.vc].map(|v| format!("{v}"));
-    let o = check_high_z(&rd, &["--input-r", "1M", "--inputs", "one"]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
-    let j = json(&o);
-    assert_eq!(j["settings"]["inputs"]["mode"], "one");
-    assert_eq!(j["settings"]["inputs"]["r"], 1e6);
-}
-
-/// `analyze` warns when the divider is too stiff a load for the inputs; the readings it
-/// predicts are through them.
-#[test]
-fn analyze_warns_of_loading_and_predicts_the_readings() {
-    let mut a = strs(&["analyze", "--json", "--input-r", "110k"]);
-    a.extend(strs(&HIGH_Z));
-    let o = run(&a);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
-    assert!(stderr(&o).contains("R1 ‖ R2"), "{}", stderr(&o));
-    let j = json(&o);
-    assert!(j["warnings"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .any(|w| w == "divider_loaded_by_inputs"));
-    let want = high_z_readings(None, 200.0);
-    assert_eq!(j["readings"]["vb"].as_f64().unwrap().to_string(), want[1]);
-    assert!(j["readings"]["vb"].as_f64().unwrap() < j["dc"]["vb"].as_f64().unwrap() - 0.5);
-}
-
-/// Issue 11, third finding: a 21.5 V supply on a 24 V design passed. A supply outside its
-/// window is never a pass: exit 2, the message names the supply window, the log says refused.
-#[test]
-fn a_supply_out_of_tolerance_is_never_a_pass() {
-    let good = high_z_readings(None, 200.0);
-    let log = temp("supply.jsonl");
-    let mut a = strs(&["check", "--json", "--vcc", "21.5", "--vcc-nominal", "24"]);
-    a.extend(strs(&HIGH_Z[2..]));
-    a.extend(strs(&[
-        "--vb", &good[1], "--ve", &good[2], "--vc", &good[3],
-    ]));
-    a.extend(strs(&["--input-r", "110k", "--log", log.to_str().unwrap()]));
-    let o = run(&a);
-    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
-    let e = stderr(&o);
-    assert!(
-        e.contains("21.500") && e.contains("22.800") && e.contains("25.200"),
-        "{e}"
-    );
-    let rec: Value = serde_json::from_str(
-        std::fs::read_to_string(&log)
-            .unwrap()
-            .lines()
-            .next()
-            .unwrap(),
-    )
-    .unwrap();
-    assert_eq!(rec["verdict"], "refused");
-    assert_eq!(rec["supply"]["ok"], false);
-    // With a design file (5 % by default): the file's nominal is judged.
-    let f = design_file("supply.toml", &[]);
-    let o = run(&strs(&[
-        "check",
-        "--design",
-        f.to_str().unwrap(),
-        "--vcc",
-        "10.7",
-        "--vb",
-        "2",
-        "--ve",
-        "1.3",
-        "--vc",
-        "6",
-    ]));
-    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
-    assert!(stderr(&o).contains("supply"), "{}", stderr(&o));
-    // And the supply window is printed with the nodes.
-    let lim = run(&strs(&["limits", "--design", f.to_str().unwrap()]));
-    let text = String::from_utf8_lossy(&lim.stdout);
-    assert!(
-        text.contains("VCC") && text.contains("11.4") && text.contains("12.6"),
-        "{text}"
-    );
-}
-
-/// Issue 11, third finding: windows were given (VCE 18..53 mV), and boards passed, for a stage
-/// saturated at its nominal point. `limits` and `check` now exit 2 naming the region.
-#[test]
-fn a_saturated_stage_gets_no_windows() {
-    let flags = strs(&[
-        "--vcc", "12", "--r1", "47k", "--r2", "10k", "--rc", "47k", "--re1", "220", "--re2", "820",
-    ]);
-    let mut l = strs(&["limits"]);
-    l.extend(flags.iter().cloned());
-    let o = run(&l);
-    assert_eq!(o.status.code(), Some(2));
-    assert!(stderr(&o).contains("saturation"), "{}", stderr(&o));
-    let mut c = strs(&["check", "--vb", "1.9", "--ve", "1.25", "--vc", "1.3"]);
-    c.extend(flags.iter().cloned());
-    let o = run(&c);
-    assert_eq!(o.status.code(), Some(2));
-    assert!(stderr(&o).contains("saturation"), "{}", stderr(&o));
-    // The console warns after the `set` that saturates the stage (a data line, then ok).
-    let r = console(&strs(&[
-        "mode machine",
-        "*RST",
-        "set rc 47k",
-        "set tol 20",
-        "limits",
-    ]));
-    assert_eq!(
-        r[2],
-        vec![
-            "warning=not_active region=saturation".to_string(),
-            "ok".into()
-        ]
-    );
-    assert!(
-        r[3].iter()
-            .any(|l| l.starts_with("warning=unusual_tolerance part=R1")),
-        "{:?}",
-        r[3]
-    );
-    assert!(r[4].last().unwrap().starts_with("err RANGE"), "{:?}", r[4]);
-}
-
-/// Issue 11, third finding: `--rc 3.3mA` was read as 3.3 mΩ, `--cin 10uV` and `--vcc 12A`
-/// accepted. A unit that does not fit is refused naming the field, the value and the allowed
-/// units; the field's own unit is accepted.
-#[test]
-fn units_that_do_not_fit_the_field_are_refused() {
-    let base = [
-        "analyze", "--vcc", "12", "--r1", "47k", "--r2", "10k", "--rc", "4k7", "--re1", "220",
-        "--re2", "820",
-    ];
-    let with = |flag: &str, value: &str| {
-        let mut a: Vec<String> = strs(&base);
-        if let Some(k) = a.iter().position(|x| x == flag) {
-            a[k + 1] = value.into();
-        } else {
-            a.extend(strs(&[flag, value]));
-        }
-        a.push("--json".into());
-        run(&a)
-    };
-    for (flag, value, allowed) in [
-        ("--rc", "3.3mA", "Ω"),
-        ("--cin", "10uV", "F"),
-        ("--vcc", "12A", "V"),
-        ("--beta", "200V", "no unit"),
-    ] {
-        let o = with(flag, value);
-        assert_eq!(o.status.code(), Some(2), "{flag} {value}");
-        let e = stderr(&o);
-        assert!(
-            e.contains(flag) && e.contains(value) && e.contains(allowed),
-            "{e}"
-        );
-    }
-    let plain = json(&with("--rc", "4k7"));
-    for (flag, value) in [
-        ("--rc", "4.7kΩ"),
-        ("--rc", "4.7kohm"),
-        ("--rc", "4k7"),
-        ("--vcc", "12V"),
-        ("--cin", "10uF"),
-    ] {
-        let o = with(flag, value);
-        assert_eq!(o.status.code(), Some(0), "{flag} {value}: {}", stderr(&o));
-        if flag == "--rc" {
-            assert_eq!(json(&o)["dc"], plain["dc"]);
-        }
-    }
-    // The console refuses them too, naming the allowed units, and changes nothing.
-    let r = console(&strs(&[
-        "mode machine",
-        "set rc 3.3mA",
-        "set cin 10uV",
-        "set vcc 12A",
-        "set rc 4.7kohm",
-        "stage",
-    ]));
-    assert!(
-        r[1][0].starts_with("err VALUE") && r[1][0].contains("Ω"),
-        "{:?}",
-        r[1]
-    );
-    assert!(
-        r[2][0].starts_with("err VALUE") && r[2][0].contains("F"),
-        "{:?}",
-        r[2]
-    );
-    assert!(r[3][0].starts_with("err VALUE"), "{:?}", r[3]);
-    assert_eq!(r[4], vec!["ok".to_string()]);
-    assert!(r[5].iter().any(|l| l.starts_with("rc=4700 ")), "{:?}", r[5]);
-    // Meter settings name their range.
-    let o = run(&strs(&[
-        "limits", "--vcc", "12", "--r1", "47k", "--r2", "10k", "--rc", "4k7", "--re1", "220",
-        "--meter", "30",
-    ]));
-    assert_eq!(o.status.code(), Some(2));
-    assert!(
-        stderr(&o).contains("--meter") && stderr(&o).contains("20 %"),
-        "{}",
-        stderr(&o)
-    );
-}
-
-/// Issue 11, item 8: flags given with `--design` changed the windows while the log kept the
-/// file's hash. Now each record stores the settings digest of what judged the board and the
-/// overrides in force.
-#[test]
-fn overrides_and_the_digest_are_on_record() {
-    let f = design_file("rec.toml", &[]);
-    let d = f.to_str().unwrap();
-    let lj = json(&run(&strs(&["limits", "--json", "--design", d])));
-    let mid = |n: &str| (lj[n]["low"].as_f64().unwrap() + lj[n]["high"].as_f64().unwrap()) / 2.0;
-    let log = temp("rec.jsonl");
-    let args = |extra: &[&str]| {
-        let mut a = strs(&[
-            "check",
-            "--design",
-            d,
-            "--vcc",
-            "12",
-            "--vb",
-            &mid("vb").to_string(),
-            "--ve",
-            &mid("ve").to_string(),
-            "--vc",
-            &mid("vc").to_string(),
-            "--log",
-            log.to_str().unwrap(),
-        ]);
-        a.extend(strs(extra));
-        a
-    };
-    assert_eq!(run(&args(&[])).status.code(), Some(0));
-    let o = run(&args(&["--tol", "20", "--meter", "3"]));
-    assert!(stderr(&o).contains("override"), "{}", stderr(&o));
-    let recs: Vec<Value> = std::fs::read_to_string(&log)
-        .unwrap()
-        .lines()
-        .map(|l| serde_json::from_str(l).unwrap())
-        .collect();
-    assert_eq!(recs.len(), 2);
-    assert_eq!(recs[0]["overrides"], serde_json::json!({}));
-    assert_eq!(recs[1]["overrides"]["--tol"], 20.0);
-    assert_eq!(recs[1]["overrides"]["--meter"], 3.0);
-    assert_eq!(
-        recs[0]["digest"], lj["digest"],
-        "no override: the digest limits gives"
-    );
-    assert_ne!(
-        recs[1]["digest"], recs[0]["digest"],
-        "the overrides change the digest"
-    );
-    assert_eq!(recs[0]["design"]["digest"], recs[1]["design"]["digest"]);
-    assert_eq!(recs[0]["design"]["digest"].as_str().unwrap().len(), 64);
-}
-
-/// Issue 11, item 9 (size limits): `--design /dev/zero` grew to 1.4 GB; it is refused at once.
-#[test]
-fn an_endless_design_file_is_refused() {
-    let o = run(&strs(&["analyze", "--design", "/dev/zero"]));
-    assert_eq!(o.status.code(), Some(2));
-    assert!(stderr(&o).contains("at most"), "{}", stderr(&o));
-}
