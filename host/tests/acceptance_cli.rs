@@ -2,42 +2,18 @@
 //! only: each test pins a discrepancy an independent acceptance run found after the issue's work
 //! was merged (each fails on the code before its fix). Stages are invented.
 
-use std::path::PathBuf;
-use std::process::{Command, Output};
+mod common;
 
-use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::process::Output;
 
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(args)
-        .output()
-        .expect("run biasjig")
-}
+use common::{assert_exit, json, path_str, run, stderr, stdout, temp};
 
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-fn stdout(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-fn json(o: &Output) -> Value {
-    serde_json::from_slice(&o.stdout)
-        .unwrap_or_else(|e| panic!("not one JSON document ({e}): {} {}", stdout(o), stderr(o)))
-}
-
-fn temp(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("biasjig-accept-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let p = dir.join(name);
-    let _ = std::fs::remove_file(&p);
-    p
-}
-
+/// A design file of an invented requirement (12 V, gain 12 into 22 kΩ from 1 kΩ, hFE 120 to
+/// 350), `name` in this file's scratch folder.
 fn design_file(name: &str) -> PathBuf {
-    let f = temp(name);
-    let o = run(&[
+    let f = temp("accept-cli", name);
+    let o = run([
         "design",
         "--vcc",
         "12",
@@ -52,10 +28,19 @@ fn design_file(name: &str) -> PathBuf {
         "--beta-max",
         "350",
         "-o",
-        f.to_str().unwrap(),
+        path_str(&f),
     ]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert_exit(&o, 0);
     f
+}
+
+/// `limits --json --design FILE EXTRA`, which must exit 0.
+fn design_limits(f: &Path, extra: &[&str]) -> Output {
+    let mut a = vec!["limits", "--json", "--design", path_str(f)];
+    a.extend_from_slice(extra);
+    let o = run(a);
+    assert_exit(&o, 0);
+    o
 }
 
 /// An invented NPN stage, active.
@@ -82,7 +67,7 @@ fn a_refused_supply_still_gives_its_json_document() {
     assert!(stderr(&o).contains("11.400"), "{}", stderr(&o));
     // And with a design file (the file's nominal and tolerance).
     let f = design_file("refused.toml");
-    let o = run(&[
+    let o = run([
         "check",
         "--json",
         "--design",
@@ -117,7 +102,7 @@ fn a_design_file_without_its_hash_line_is_refused() {
     assert_ne!(edited, text);
     std::fs::write(&f, edited).unwrap();
     for cmd in ["limits", "analyze"] {
-        let o = run(&[cmd, "--design", f.to_str().unwrap()]);
+        let o = run([cmd, "--design", f.to_str().unwrap()]);
         assert_eq!(o.status.code(), Some(2), "{cmd}: {}", stderr(&o));
         let e = stderr(&o);
         assert!(
@@ -233,15 +218,7 @@ fn inputs_that_saturate_the_stage_are_warned_about() {
 #[test]
 fn limits_at_a_supply_outside_its_window_says_so() {
     let f = design_file("atvcc.toml");
-    let o = run(&[
-        "limits",
-        "--json",
-        "--design",
-        f.to_str().unwrap(),
-        "--at-vcc",
-        "10",
-    ]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = design_limits(&f, &["--at-vcc", "10"]);
     let d = json(&o);
     assert_eq!(d["warnings"], serde_json::json!(["supply_outside_window"]));
     assert!(stderr(&o).contains("11.4 V"), "{}", stderr(&o));
@@ -294,17 +271,7 @@ fn the_check_screen_reads_right() {
 #[test]
 fn overrides_keep_their_words() {
     let f = design_file("over.toml");
-    let o = run(&[
-        "limits",
-        "--json",
-        "--design",
-        f.to_str().unwrap(),
-        "--input-r",
-        "10M",
-        "--inputs",
-        "one",
-    ]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = design_limits(&f, &["--input-r", "10M", "--inputs", "one"]);
     let d = json(&o);
     assert_eq!(d["overrides"]["--inputs"], "one", "{d}");
     assert_eq!(d["overrides"]["--input-r"].as_f64(), Some(10e6), "{d}");

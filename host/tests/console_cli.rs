@@ -2,7 +2,7 @@
 
 mod common;
 
-use common::console::{statuses, station};
+use common::console::{station, statuses};
 use common::demo::{self, typed};
 use common::{assert_exit, code, json, json_lines, path_str, run, stderr, stdout, temp};
 

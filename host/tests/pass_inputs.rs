@@ -174,4 +174,3 @@ fn a_supply_out_of_tolerance_is_never_a_pass() {
         "{text}"
     );
 }
-

@@ -6,7 +6,6 @@
 
 mod common;
 
-
 use common::console::replies;
 use common::{demo, json, run, stderr, strs, temp};
 use serde_json::Value;

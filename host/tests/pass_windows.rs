@@ -471,4 +471,3 @@ fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
     let w_n = narrow["vc"]["high"].as_f64().unwrap() - narrow["vc"]["low"].as_f64().unwrap();
     assert!((w_n / w25 - 1.0).abs() < 1e-3, "{w_n} {w25}");
 }
-

@@ -33,7 +33,14 @@ fn check(serial: &str, r: [f64; 4], g: [f64; 2], log: &Path) -> Output {
     common::signal::check(
         r,
         &[(TONES[0], g[0]), (TONES[1], g[1])],
-        &["--serial", serial, "--station", "bench-g", "--log", path_str(log)],
+        &[
+            "--serial",
+            serial,
+            "--station",
+            "bench-g",
+            "--log",
+            path_str(log),
+        ],
     )
 }
 

@@ -104,7 +104,7 @@ fn capacitor_faults_are_named_from_dc_and_gain_readings() {
 fn limits_publish_the_windows_check_applies_and_propose_tones() {
     let out = bin()
         .arg("limits")
-        .args(SIGNAL.0)
+        .args(SIGNAL.words())
         .args(["--ac-f", "1k", "--ac-f", "5", "--json"])
         .output()
         .unwrap();
@@ -131,7 +131,7 @@ fn limits_publish_the_windows_check_applies_and_propose_tones() {
     // Without --ac-f: two proposed frequencies, each with its reason.
     let out = bin()
         .arg("limits")
-        .args(SIGNAL.0)
+        .args(SIGNAL.words())
         .arg("--json")
         .output()
         .unwrap();
@@ -163,7 +163,7 @@ fn bad_gain_readings_are_refused_naming_the_flag() {
     }
     let out = bin()
         .arg("limits")
-        .args(SIGNAL.0)
+        .args(SIGNAL.words())
         .args(["--ac-f", "0"])
         .output()
         .unwrap();

@@ -6,7 +6,7 @@ mod common;
 
 use std::process::{Command, Output, Stdio};
 
-use common::line::{assert_group, batch_cmd, board, expect, outcomes, report, write_csv, Board};
+use common::line::{assert_group, batch_cmd, expect, lot, outcomes, report, write_csv};
 use common::stage::DESIGN_A;
 use common::{assert_exit, bin, stderr, temp};
 use serde_json::Value;
@@ -26,7 +26,11 @@ fn on_a_full_disk(kib: u32, args: &str) -> String {
         "trap '' XFSZ; ulimit -f {kib}; exec '{}' {args}",
         env!("CARGO_BIN_EXE_biasjig")
     );
-    let out = Command::new("bash").arg("-c").arg(&cmd).output().expect("bash runs");
+    let out = Command::new("bash")
+        .arg("-c")
+        .arg(&cmd)
+        .output()
+        .expect("bash runs");
     assert_eq!(out.status.code(), Some(2), "{out:?}");
     let err = stderr(&out);
     assert!(err.contains("were not tested"), "{err}");
@@ -35,9 +39,7 @@ fn on_a_full_disk(kib: u32, args: &str) -> String {
 
 #[test]
 fn a_full_disk_stops_the_batch_whole_and_the_rerun_completes() {
-    let rows: Vec<Board> = (0..200)
-        .map(|k| board(&format!("F{k:03}"), DESIGN_A, 15.0, k % 4 != 0, k))
-        .collect();
+    let rows = lot(DESIGN_A, 200, |k| (format!("F{k:03}"), 15.0, k % 4 != 0));
     let p = write_csv(TAG, "full.csv", &rows);
     let log = temp(TAG, "full.jsonl");
     // The log's disk is full after 64 KiB.
@@ -45,7 +47,7 @@ fn a_full_disk_stops_the_batch_whole_and_the_rerun_completes() {
         64,
         &format!(
             "batch {} '{}' --log '{}'",
-            DESIGN_A.0.join(" "),
+            DESIGN_A.0,
             p.display(),
             log.display()
         ),
@@ -62,7 +64,7 @@ fn a_full_disk_stops_the_batch_whole_and_the_rerun_completes() {
     assert!(err.contains(&format!("line {}", kept + 2)), "{err}");
     let out = bin()
         .arg("batch")
-        .args(DESIGN_A.0)
+        .args(DESIGN_A.words())
         .arg(&p)
         .arg("--log")
         .arg(&log)
@@ -76,9 +78,7 @@ fn a_full_disk_stops_the_batch_whole_and_the_rerun_completes() {
 
 #[test]
 fn a_full_disk_under_the_sqlite_store_keeps_whole_tests_and_the_rerun_completes() {
-    let rows: Vec<Board> = (0..120)
-        .map(|k| board(&format!("G{k:03}"), DESIGN_A, 15.0, k % 4 != 0, k))
-        .collect();
+    let rows = lot(DESIGN_A, 120, |k| (format!("G{k:03}"), 15.0, k % 4 != 0));
     let p = write_csv(TAG, "fulldb.csv", &rows);
     let db = temp(TAG, "full.db");
     let url = format!("sqlite:{}", db.display());
@@ -87,7 +87,7 @@ fn a_full_disk_under_the_sqlite_store_keeps_whole_tests_and_the_rerun_completes(
         256,
         &format!(
             "batch {} '{}' --store '{url}' --station bench-f",
-            DESIGN_A.0.join(" "),
+            DESIGN_A.0,
             p.display()
         ),
     );

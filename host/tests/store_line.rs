@@ -14,7 +14,7 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 
 use common::line::{
-    assert_group, batch_cmd, board, design_entry, expect, outcomes, report, write_csv, Board,
+    assert_group, batch_cmd, board, design_entry, expect, lot, outcomes, report, write_csv, Board,
 };
 use common::stage::{DESIGN_A, DESIGN_B};
 use common::{assert_exit, bin, stderr, temp};
@@ -30,28 +30,12 @@ fn output(mut c: Command) -> Output {
 /// Two stations write at once (two processes); then a retest batch on one of them and a second
 /// design; the report's figures per design and station match the rows.
 fn two_stations_retests_and_two_designs(url: &str) {
-    let a1: Vec<Board> = (0..120)
-        .map(|k| {
-            board(
-                &format!("A1-{k:03}"),
-                DESIGN_A,
-                14.9 + 0.002 * k as f64,
-                k % 7 != 3,
-                k,
-            )
-        })
-        .collect();
-    let a2: Vec<Board> = (0..120)
-        .map(|k| {
-            board(
-                &format!("A2-{k:03}"),
-                DESIGN_A,
-                15.1 - 0.002 * k as f64,
-                k % 5 != 1,
-                k,
-            )
-        })
-        .collect();
+    let a1 = lot(DESIGN_A, 120, |k| {
+        (format!("A1-{k:03}"), 14.9 + 0.002 * k as f64, k % 7 != 3)
+    });
+    let a2 = lot(DESIGN_A, 120, |k| {
+        (format!("A2-{k:03}"), 15.1 - 0.002 * k as f64, k % 5 != 1)
+    });
     let (p1, p2) = (write_csv(TAG, "s1.csv", &a1), write_csv(TAG, "s2.csv", &a2));
     let c1 = batch_cmd(DESIGN_A, &p1, url, "bench-1", "L7")
         .spawn()
@@ -76,9 +60,7 @@ fn two_stations_retests_and_two_designs(url: &str) {
     let o3 = output(batch_cmd(DESIGN_A, &p3, url, "bench-2", "L7"));
     assert_exit(&o3, 0);
     // A second design on bench-1.
-    let b1: Vec<Board> = (0..40)
-        .map(|k| board(&format!("B-{k:03}"), DESIGN_B, 15.0, k % 4 != 0, k))
-        .collect();
+    let b1 = lot(DESIGN_B, 40, |k| (format!("B-{k:03}"), 15.0, k % 4 != 0));
     let p4 = write_csv(TAG, "b.csv", &b1);
     let o4 = output(batch_cmd(DESIGN_B, &p4, url, "bench-1", "L8"));
     assert_exit(&o4, 1);
@@ -129,7 +111,11 @@ fn two_stations_retests_and_two_designs(url: &str) {
     assert_eq!(only2["designs"].as_array().unwrap().len(), 1);
     let l8 = report(url, &["--lot", "L8"]);
     assert_eq!(l8["designs"].as_array().unwrap().len(), 1);
-    assert_group(design_entry(&l8, DESIGN_B, TAG), &expect(&tests_b), "--lot L8");
+    assert_group(
+        design_entry(&l8, DESIGN_B, TAG),
+        &expect(&tests_b),
+        "--lot L8",
+    );
     // Every failed board of design A is counted once in the Pareto (fault, group or
     // unexplained).
     let pareto = &da["pareto"];
@@ -148,17 +134,9 @@ fn two_stations_retests_and_two_designs(url: &str) {
 /// A batch killed with SIGKILL mid-run leaves only whole tests; run again it completes without
 /// doubling a board.
 fn killed_station_resumes(url: &str) {
-    let rows: Vec<Board> = (0..1500)
-        .map(|k| {
-            board(
-                &format!("K{k:04}"),
-                DESIGN_A,
-                14.95 + 0.0001 * k as f64,
-                k % 3 != 0,
-                k,
-            )
-        })
-        .collect();
+    let rows = lot(DESIGN_A, 1500, |k| {
+        (format!("K{k:04}"), 14.95 + 0.0001 * k as f64, k % 3 != 0)
+    });
     let p = write_csv(TAG, "kill.csv", &rows);
     let log = temp(TAG, "kill.jsonl");
     let mut c = batch_cmd(DESIGN_A, &p, url, "bench-k", "LK");
@@ -187,7 +165,11 @@ fn killed_station_resumes(url: &str) {
     assert!(stderr(&out).contains("already recorded"));
     let rep = report(url, &["--station", "bench-k"]);
     let tests = outcomes(&rows);
-    assert_group(design_entry(&rep, DESIGN_A, TAG), &expect(&tests), "after the kill");
+    assert_group(
+        design_entry(&rep, DESIGN_A, TAG),
+        &expect(&tests),
+        "after the kill",
+    );
     // The log too holds every row once (a kill between the store and the log write is
     // repaired by the second run).
     let text = std::fs::read_to_string(&log).unwrap();
@@ -203,14 +185,12 @@ fn killed_station_resumes(url: &str) {
 
 /// A log imported twice doubles nothing; the report of the log and of the store agree.
 fn import_twice(url: &str) {
-    let rows: Vec<Board> = (0..30)
-        .map(|k| board(&format!("I{k:02}"), DESIGN_A, 15.0, k % 6 != 0, k))
-        .collect();
+    let rows = lot(DESIGN_A, 30, |k| (format!("I{k:02}"), 15.0, k % 6 != 0));
     let p = write_csv(TAG, "imp.csv", &rows);
     let log = temp(TAG, "imp.jsonl");
     let out = bin()
         .arg("batch")
-        .args(DESIGN_A.0)
+        .args(DESIGN_A.words())
         .arg(&p)
         .args(["--station", "bench-i", "--lot", "LI", "--log"])
         .arg(&log)
@@ -243,8 +223,16 @@ fn import_twice(url: &str) {
         .unwrap();
     let from_log: Value = serde_json::from_slice(&out.stdout).unwrap();
     let tests = outcomes(&rows);
-    assert_group(design_entry(&from_store, DESIGN_A, TAG), &expect(&tests), "store");
-    assert_group(design_entry(&from_log, DESIGN_A, TAG), &expect(&tests), "log");
+    assert_group(
+        design_entry(&from_store, DESIGN_A, TAG),
+        &expect(&tests),
+        "store",
+    );
+    assert_group(
+        design_entry(&from_log, DESIGN_A, TAG),
+        &expect(&tests),
+        "log",
+    );
 }
 
 /// The rework loop: a repair that names the diagnosis's first fault counts as named first, one
@@ -260,7 +248,7 @@ fn rework_loop(url: &str) {
     // What the diagnosis named first (asked of check itself, not assumed).
     let out = bin()
         .arg("check")
-        .args(DESIGN_A.0)
+        .args(DESIGN_A.words())
         .args([
             "--vb",
             &bad[0].r[1].to_string(),
@@ -340,7 +328,10 @@ impl Server {
              leave this test out openly with `cargo test -- --skip postgres`): {}",
             stderr(&out)
         );
-        let url = String::from_utf8(out.stdout).expect("a URL").trim().to_string();
+        let url = String::from_utf8(out.stdout)
+            .expect("a URL")
+            .trim()
+            .to_string();
         Self {
             url,
             dir: Some(dir),

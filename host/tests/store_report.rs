@@ -8,7 +8,7 @@ mod common;
 use std::io::Write;
 use std::process::{Command, Output};
 
-use common::line::{batch_cmd, board, csv, hash_of, report, write_csv, Board};
+use common::line::{batch_cmd, board, csv, hash_of, lot, report, write_csv};
 use common::stage::DESIGN_A;
 use common::{bin, temp};
 use serde_json::Value;
@@ -31,7 +31,7 @@ fn report_refuses_records_that_are_not_whole() {
     let log = temp(TAG, "e.jsonl");
     let out = bin()
         .arg("batch")
-        .args(DESIGN_A.0)
+        .args(DESIGN_A.words())
         .arg(&p)
         .arg("--log")
         .arg(&log)
@@ -76,7 +76,7 @@ fn batch_says_duplicate_serials_and_columns() {
     drop(f);
     let out = bin()
         .arg("batch")
-        .args(DESIGN_A.0)
+        .args(DESIGN_A.words())
         .arg(&p)
         .arg("--json")
         .output()
@@ -88,7 +88,12 @@ fn batch_says_duplicate_serials_and_columns() {
     assert_eq!(v["boards"][1]["retest"], true);
     assert_eq!(v["summary"]["retests"], 1);
     std::fs::write(&p, "serial,vcc,vb,ve,vc,serial\n").unwrap();
-    let out = bin().arg("batch").args(DESIGN_A.0).arg(&p).output().unwrap();
+    let out = bin()
+        .arg("batch")
+        .args(DESIGN_A.words())
+        .arg(&p)
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("column 'serial' appears 2 times"));
 }
@@ -98,7 +103,7 @@ fn limits_csv_has_exactly_the_windows_and_hashes_check_records() {
     let csv_path = temp(TAG, "limits.csv");
     let out = bin()
         .arg("limits")
-        .args(DESIGN_A.0)
+        .args(DESIGN_A.words())
         .arg("--csv")
         .arg(&csv_path)
         .output()
@@ -114,7 +119,7 @@ fn limits_csv_has_exactly_the_windows_and_hashes_check_records() {
     let log = temp(TAG, "limits.jsonl");
     let out = bin()
         .arg("check")
-        .args(DESIGN_A.0)
+        .args(DESIGN_A.words())
         .args(["--vb", &b.r[1].to_string(), "--ve", &b.r[2].to_string()])
         .args(["--vc", &b.r[3].to_string(), "--serial", "C1", "--log"])
         .arg(&log)
@@ -150,9 +155,7 @@ fn limits_csv_has_exactly_the_windows_and_hashes_check_records() {
 
 #[test]
 fn the_html_report_names_the_design_dates_and_lot() {
-    let rows: Vec<Board> = (0..12)
-        .map(|k| board(&format!("H{k:02}"), DESIGN_A, 15.0, k != 5, k))
-        .collect();
+    let rows = lot(DESIGN_A, 12, |k| (format!("H{k:02}"), 15.0, k != 5));
     let p = write_csv(TAG, "html.csv", &rows);
     let url = format!("sqlite:{}", temp(TAG, "html.db").display());
     let out = output(batch_cmd(DESIGN_A, &p, &url, "bench-h", "LOT-42"));

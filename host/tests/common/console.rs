@@ -70,3 +70,16 @@ pub fn station(design: &Path, log: &Path, extra: &[&str], input: &str) -> Output
     a.extend_from_slice(extra);
     run_with_input(a, input.as_bytes())
 }
+
+/// The record of an unpowered board typed at the station (`0 0 0 0`): logged as refused, with
+/// the reason and what was typed.
+#[track_caller]
+pub fn assert_refused_unpowered(rec: &serde_json::Value) {
+    assert!(
+        rec["reason"]
+            .as_str()
+            .is_some_and(|r| r.starts_with("IMPLAUSIBLE")),
+        "{rec}"
+    );
+    assert_eq!(rec["typed"], "0 0 0 0");
+}

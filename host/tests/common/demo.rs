@@ -40,7 +40,9 @@ pub fn write_design(file: &Path, extra: &[&str]) -> toml::Table {
 
 /// The collector resistor of a design file, Ω.
 pub fn rc_of(file: &toml::Table) -> f64 {
-    file["parts"]["rc"]["value"].as_float().expect("parts.rc.value")
+    file["parts"]["rc"]["value"]
+        .as_float()
+        .expect("parts.rc.value")
 }
 
 /// The design hash of a design file.

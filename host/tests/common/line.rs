@@ -39,6 +39,17 @@ pub fn board(serial: &str, design: Flags, vcc: f64, good: bool, k: usize) -> Boa
     }
 }
 
+/// `n` boards of `design`; board `k` is `row(k)`: (serial, supply, good). A faulty board has RC
+/// or R2 open, alternating by `k`.
+pub fn lot(design: Flags, n: usize, row: impl Fn(usize) -> (String, f64, bool)) -> Vec<Board> {
+    (0..n)
+        .map(|k| {
+            let (serial, vcc, good) = row(k);
+            board(&serial, design, vcc, good, k)
+        })
+        .collect()
+}
+
 /// The batch CSV of the rows.
 pub fn csv(rows: &[Board]) -> String {
     let mut s = String::from("serial,vcc,vb,ve,vc\n");
@@ -60,7 +71,7 @@ pub fn outcomes(rows: &[Board]) -> Vec<(&str, bool)> {
 pub fn batch_cmd(design: Flags, rows: &Path, url: &str, station: &str, lot: &str) -> Command {
     let mut c = bin();
     c.arg("batch")
-        .args(design.0)
+        .args(design.words())
         .arg(rows)
         .args(["--store", url, "--station", station, "--lot", lot])
         .stdout(Stdio::null())
@@ -84,7 +95,7 @@ pub fn hash_of(design: Flags, tag: &str) -> String {
     let log = super::temp(tag, "hash.jsonl");
     let out = bin()
         .arg("check")
-        .args(design.0)
+        .args(design.words())
         .args(["--vb", &b.r[1].to_string(), "--ve", &b.r[2].to_string()])
         .args(["--vc", &b.r[3].to_string(), "--serial", "H1", "--log"])
         .arg(&log)
@@ -94,7 +105,10 @@ pub fn hash_of(design: Flags, tag: &str) -> String {
     let line = std::fs::read_to_string(&log).expect("the check's log");
     let _ = std::fs::remove_file(&log);
     let v: Value = serde_json::from_str(line.lines().next().expect("one record")).expect("JSON");
-    v["design"]["hash"].as_str().expect("a design hash").to_string()
+    v["design"]["hash"]
+        .as_str()
+        .expect("a design hash")
+        .to_string()
 }
 
 /// The report's entry of `design`.

@@ -86,13 +86,8 @@ pub fn assert_exit(o: &Output, want: i32) {
 /// The one JSON document on stdout.
 #[track_caller]
 pub fn json(o: &Output) -> Value {
-    serde_json::from_slice(&o.stdout).unwrap_or_else(|e| {
-        panic!(
-            "not one JSON document ({e}): {} {}",
-            stdout(o),
-            stderr(o)
-        )
-    })
+    serde_json::from_slice(&o.stdout)
+        .unwrap_or_else(|e| panic!("not one JSON document ({e}): {} {}", stdout(o), stderr(o)))
 }
 
 /// The JSON document of a run that must succeed (exit 0).

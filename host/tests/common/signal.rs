@@ -7,8 +7,8 @@ use biasjig_core::response::{magnitude_at, CapState, Caps};
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::stage::Capacitor;
 
-use super::stage::{reading_flags, SIGNAL};
 use super::bin;
+use super::stage::{reading_flags, SIGNAL};
 
 /// The test tones of the signal tests, Hz (a midband tone and one near the low corner).
 pub const TONES: [f64; 2] = [1000.0, 5.0];

@@ -7,55 +7,54 @@ use biasjig_core::solve::{solve, Conditions, OperatingPoint};
 use biasjig_core::stage::{Fault, Part, Polarity, Stage};
 use biasjig_core::units::parse_value;
 
-/// A stage as flag/value pairs (`--pnp` stands alone).
+/// A stage as the flags a user types, one line: flag/value pairs (`--pnp` stands alone).
 #[derive(Debug, Clone, Copy)]
-pub struct Flags(pub &'static [&'static str]);
+pub struct Flags(pub &'static str);
 
 /// Design A of the check and store tests (15 V, 68k/15k divider, 3k9 collector, 220 + 820
 /// emitter, hFE 120/210/360, VBE 0.66 V).
-pub const DESIGN_A: Flags = Flags(&[
-    "--vcc", "15", "--r1", "68k", "--r2", "15k", "--rc", "3k9", "--re1", "220", "--re2", "820",
-    "--beta-min", "120", "--beta", "210", "--beta-max", "360", "--vbe", "0.66",
-]);
+pub const DESIGN_A: Flags = Flags(
+    "--vcc 15 --r1 68k --r2 15k --rc 3k9 --re1 220 --re2 820 --beta-min 120 --beta 210 --beta-max 360 --vbe 0.66",
+);
 
 /// Design B: design A with a 4k7 collector resistor (another design hash).
-pub const DESIGN_B: Flags = Flags(&[
-    "--vcc", "15", "--r1", "68k", "--r2", "15k", "--rc", "4k7", "--re1", "220", "--re2", "820",
-    "--beta-min", "120", "--beta", "210", "--beta-max", "360", "--vbe", "0.66",
-]);
+pub const DESIGN_B: Flags = Flags(
+    "--vcc 15 --r1 68k --r2 15k --rc 4k7 --re1 220 --re2 820 --beta-min 120 --beta 210 --beta-max 360 --vbe 0.66",
+);
 
 /// The signal-test stage (12 V, 47k/10k divider, 4k7 collector, 220 + 820 emitter, 15k load,
 /// 600 Ω source, 10 µ/10 µ/470 µ, hFE 100/200/300).
-pub const SIGNAL: Flags = Flags(&[
-    "--vcc", "12", "--r1", "47k", "--r2", "10k", "--rc", "4k7", "--re1", "220", "--re2", "820",
-    "--rl", "15k", "--rs", "600", "--cin", "10u", "--cout", "10u", "--ce", "470u", "--beta-min",
-    "100", "--beta", "200", "--beta-max", "300",
-]);
+pub const SIGNAL: Flags = Flags(
+    "--vcc 12 --r1 47k --r2 10k --rc 4k7 --re1 220 --re2 820 --rl 15k --rs 600 --cin 10u --cout 10u --ce 470u --beta-min 100 --beta 200 --beta-max 300",
+);
 
 /// A high-impedance stage (24 V, R1 470 k, R2 100 k, RC 47 k, RE 10 k + 0, hFE from 100).
-pub const HIGH_Z: Flags = Flags(&[
-    "--vcc", "24", "--r1", "470k", "--r2", "100k", "--rc", "47k", "--re1", "10k", "--re2", "0",
-    "--beta-min", "100",
-]);
+pub const HIGH_Z: Flags =
+    Flags("--vcc 24 --r1 470k --r2 100k --rc 47k --re1 10k --re2 0 --beta-min 100");
 
 /// Capacitors are taken at ±20 % (the tool's default for them).
 const CAP_TOL: f64 = 0.2;
 
 impl Flags {
+    /// The flags, one argument each.
+    pub fn words(self) -> std::str::SplitWhitespace<'static> {
+        self.0.split_whitespace()
+    }
+
     /// The flags as owned arguments.
     pub fn args(self) -> Vec<String> {
-        super::strs(self.0)
+        self.words().map(String::from).collect()
     }
 
     /// The flags without `--vcc` and its value (a command that takes the measured supply).
     pub fn without_vcc(self) -> Vec<String> {
         let mut out = Vec::new();
-        let mut it = self.0.iter();
+        let mut it = self.words();
         while let Some(f) = it.next() {
-            if *f == "--vcc" {
+            if f == "--vcc" {
                 it.next();
             } else {
-                out.push((*f).to_string());
+                out.push(f.to_string());
             }
         }
         out
@@ -63,8 +62,9 @@ impl Flags {
 
     /// The value typed after `flag`, if the flag is there.
     pub fn text(self, flag: &str) -> Option<&'static str> {
-        let k = self.0.iter().position(|f| *f == flag)?;
-        self.0.get(k + 1).copied()
+        let mut it = self.words();
+        it.find(|f| *f == flag)?;
+        it.next()
     }
 
     /// The value after `flag` read as `biasjig` reads it (Ω, F, V or plain).
@@ -82,7 +82,7 @@ impl Flags {
         let r = |f| self.part(f, 0.05);
         let cap = |f| self.value(f).map(|v| Part::new(v, CAP_TOL));
         Stage {
-            polarity: if self.0.contains(&"--pnp") {
+            polarity: if self.words().any(|f| f == "--pnp") {
                 Polarity::Pnp
             } else {
                 Polarity::Npn
@@ -118,7 +118,13 @@ impl Flags {
 /// goes to the conditions.
 pub fn with_fault(stage: &Stage, cond: Conditions, fault: Option<Fault>) -> (Stage, Conditions) {
     match fault {
-        Some(Fault::Device(d)) => (*stage, Conditions { fault: Some(d), ..cond }),
+        Some(Fault::Device(d)) => (
+            *stage,
+            Conditions {
+                fault: Some(d),
+                ..cond
+            },
+        ),
         Some(f) => (stage.with_fault(f), cond),
         None => (*stage, cond),
     }
