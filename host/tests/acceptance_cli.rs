@@ -43,6 +43,13 @@ fn design_limits(f: &Path, extra: &[&str]) -> Output {
     o
 }
 
+/// `limits --vcc 12 FLAG VALUE` of the NPN stage.
+fn limits_npn(flag: &str, value: &str) -> Output {
+    let mut a = vec!["limits", "--vcc", "12", flag, value];
+    a.extend(NPN);
+    run(&a)
+}
+
 /// An invented NPN stage, active.
 const NPN: [&str; 12] = [
     "--r1", "180k", "--r2", "43k", "--rc", "12k", "--re1", "680", "--re2", "3k3", "--beta", "180",
@@ -145,9 +152,7 @@ fn a_tolerance_out_of_range_names_its_flag_and_value() {
         ("--vcc-tol", "101", "101"),
         ("--cap-tol", "150", "150"),
     ] {
-        let mut a = vec!["limits", "--vcc", "12", flag, value];
-        a.extend(NPN);
-        let o = run(&a);
+        let o = limits_npn(flag, value);
         assert_eq!(o.status.code(), Some(2), "{flag}: {}", stderr(&o));
         let e = stderr(&o);
         assert!(
@@ -291,9 +296,7 @@ fn temperatures_and_coefficients_refuse_other_units() {
         ("--tj-max", "150A"),
         ("--beta-tc", "0.5V"),
     ] {
-        let mut a = vec!["limits", "--vcc", "12", flag, value];
-        a.extend(NPN);
-        let o = run(&a);
+        let o = limits_npn(flag, value);
         assert_eq!(o.status.code(), Some(2), "{flag} {value}: {}", stderr(&o));
         let e = stderr(&o);
         assert!(
@@ -308,9 +311,7 @@ fn temperatures_and_coefficients_refuse_other_units() {
         ("--temp-min", "24.9C"),
         ("--beta-tc", "-0.2%"),
     ] {
-        let mut a = vec!["limits", "--vcc", "12", flag, value];
-        a.extend(NPN);
-        let o = run(&a);
+        let o = limits_npn(flag, value);
         assert_eq!(o.status.code(), Some(0), "{flag} {value}: {}", stderr(&o));
     }
 }

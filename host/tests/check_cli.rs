@@ -7,8 +7,9 @@ use std::io::Write;
 use std::process::{Output, Stdio};
 
 use biasjig_core::stage::{DeviceFault, Fault, Resistor};
+use common::line::batch;
 use common::stage::{reading_flags, DESIGN_A};
-use common::{assert_exit, bin, temp};
+use common::{assert_exit, bin, kill_after_lines, path_str, temp};
 use serde_json::Value;
 
 /// The scratch folder of this file.
@@ -182,15 +183,7 @@ fn batch_with_bad_rows_loses_no_good_row_and_logs_each_board() {
     );
     text.push('\n');
     std::fs::write(&csv, text).unwrap();
-    let out = bin()
-        .arg("batch")
-        .args(stage_flags())
-        .arg(&csv)
-        .arg("--log")
-        .arg(&log)
-        .arg("--json")
-        .output()
-        .unwrap();
+    let out = batch(&stage_flags(), &csv, &["--log", path_str(&log), "--json"]);
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(
@@ -232,7 +225,7 @@ fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
         })
         .collect();
     std::fs::write(&csv, csv_of(&rows)).unwrap();
-    let mut child = bin()
+    let child = bin()
         .arg("batch")
         .args(stage_flags())
         .arg(&csv)
@@ -243,16 +236,7 @@ fn the_log_survives_a_kill_in_the_middle_of_a_batch() {
         .spawn()
         .unwrap();
     // Wait until a few records are on disk, then kill the batch mid-run.
-    let start = std::time::Instant::now();
-    loop {
-        let n = std::fs::read_to_string(&log).map_or(0, |s| s.lines().count());
-        if n >= 4 || start.elapsed().as_secs() > 60 {
-            break;
-        }
-        std::thread::sleep(std::time::Duration::from_millis(5));
-    }
-    child.kill().unwrap();
-    child.wait().unwrap();
+    kill_after_lines(child, &log, 4, 60);
     let before = std::fs::read_to_string(&log).unwrap();
     let complete = before
         .lines()

@@ -5,13 +5,14 @@
 
 mod common;
 
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::judge::readings_through;
 use biasjig_core::settings::{InputMode, Inputs};
 use biasjig_core::solve::Conditions;
-use biasjig_core::stage::{Part, Polarity, Stage};
+use biasjig_core::stage::Stage;
 use common::console::replies;
 use common::demo;
+use common::stage::Flags;
 use common::{json, run, stderr, strs};
 use rand_core::{Rng, SeedableRng};
 use rand_xoshiro::SplitMix64;
@@ -94,27 +95,6 @@ fn case(seed: u64) -> Case {
         InputMode::One
     };
     let measured_vcc = vcc * (1.0 + 0.9 * vcc_tol / 100.0 * (2.0 * g.unit() - 1.0));
-    let stage = Stage {
-        polarity: if pnp { Polarity::Pnp } else { Polarity::Npn },
-        vcc: Part::new(vcc, vcc_tol / 100.0),
-        r1: Part::new(r1, tol / 100.0),
-        r2: Part::new(r2, tol / 100.0),
-        rc: Part::new(rc, tol / 100.0),
-        re1: Part::new(re1, tol / 100.0),
-        re2: Part::new(re2, tol / 100.0),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    };
-    let profile = Profile {
-        beta_min: bmin,
-        beta_typ: beta,
-        beta_max: bmax,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    };
     let v = |x: f64| format!("{x}");
     let mut flags = strs(&[
         "--r1",
@@ -154,6 +134,9 @@ fn case(seed: u64) -> Case {
     if let Some(r) = input_r {
         flags.extend(strs(&["--input-r", &v(r)]));
     }
+    // The same stage and transistor for the engine, read from the flags as `biasjig` reads them.
+    let drawn = Flags::owned(format!("--vcc {} {}", v(vcc), flags.join(" ")));
+    let (stage, profile) = (drawn.stage(), drawn.profile());
     let mut set = strs(&["mode machine", "*RST"]);
     set.push(format!("set polarity {}", if pnp { "pnp" } else { "npn" }));
     // The console starts from the demo stage: no load, source or capacitors here.
@@ -379,23 +362,20 @@ fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
         (lj["ve"]["low"].as_f64().unwrap() + lj["ve"]["high"].as_f64().unwrap()) / 2.0,
         (lj["vc"]["low"].as_f64().unwrap() + lj["vc"]["high"].as_f64().unwrap()) / 2.0,
     );
+    // `check --json --design` of the board in the middle of the windows, at supply `vcc`.
+    let check_mid = |vcc: &str, extra: &[&str]| {
+        let mut a = strs(&["check", "--json", "--design", d, "--vcc", vcc]);
+        a.extend(
+            [vb, ve, vc]
+                .iter()
+                .zip(["--vb", "--ve", "--vc"])
+                .flat_map(|(v, f)| [f.to_string(), v.to_string()]),
+        );
+        a.extend(strs(extra));
+        run(&a)
+    };
     let width = |temp: &str, vcc: &str| {
-        let c = run(&strs(&[
-            "check",
-            "--json",
-            "--design",
-            d,
-            "--vcc",
-            vcc,
-            "--vb",
-            &vb.to_string(),
-            "--ve",
-            &ve.to_string(),
-            "--vc",
-            &vc.to_string(),
-            "--temp",
-            temp,
-        ]));
+        let c = check_mid(vcc, &["--temp", temp]);
         assert!(matches!(c.status.code(), Some(0 | 1)), "{}", stderr(&c));
         let j = json(&c);
         let w =
@@ -432,24 +412,7 @@ fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
         "--temp-max",
         "35",
     ])));
-    let c = run(&strs(&[
-        "check",
-        "--json",
-        "--design",
-        d,
-        "--vcc",
-        "11.8",
-        "--vb",
-        &vb.to_string(),
-        "--ve",
-        &ve.to_string(),
-        "--vc",
-        &vc.to_string(),
-        "--temp-min",
-        "15",
-        "--temp-max",
-        "35",
-    ]));
+    let c = check_mid("11.8", &["--temp-min", "15", "--temp-max", "35"]);
     let cj = json(&c);
     for n in NODES {
         assert_eq!(bits(&la[n]["low"]), bits(&cj["nodes"][n]["low"]), "{n}");

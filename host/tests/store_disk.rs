@@ -4,11 +4,11 @@
 
 mod common;
 
-use std::process::{Command, Output, Stdio};
+use std::process::{Command, Output};
 
-use common::line::{assert_group, batch_cmd, expect, lot, outcomes, report, write_csv};
+use common::line::{assert_group, batch, batch_cmd, expect, lot, outcomes, report, write_csv};
 use common::stage::DESIGN_A;
-use common::{assert_exit, bin, stderr, temp};
+use common::{assert_exit, path_str, stderr, temp};
 use serde_json::Value;
 
 /// The scratch folder of this file.
@@ -62,15 +62,7 @@ fn a_full_disk_stops_the_batch_whole_and_the_rerun_completes() {
     assert!((1..200).contains(&kept), "{kept}");
     // The message names the first row not tested: the one after the last kept.
     assert!(err.contains(&format!("line {}", kept + 2)), "{err}");
-    let out = bin()
-        .arg("batch")
-        .args(DESIGN_A.words())
-        .arg(&p)
-        .arg("--log")
-        .arg(&log)
-        .stdout(Stdio::null())
-        .output()
-        .unwrap();
+    let out = batch(&DESIGN_A.args(), &p, &["--log", path_str(&log)]);
     assert_eq!(out.status.code(), Some(1));
     let text = std::fs::read_to_string(&log).unwrap();
     assert_eq!(text.lines().count(), 200);

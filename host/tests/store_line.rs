@@ -14,10 +14,11 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 
 use common::line::{
-    assert_group, batch_cmd, board, design_entry, expect, lot, outcomes, report, write_csv, Board,
+    assert_group, batch, batch_cmd, board, design_entry, expect, lot, outcomes, report, write_csv,
+    Board,
 };
 use common::stage::{DESIGN_A, DESIGN_B};
-use common::{assert_exit, bin, stderr, temp};
+use common::{assert_exit, bin, kill_after_lines, path_str, stderr, temp};
 use serde_json::Value;
 
 /// The scratch folder of this file.
@@ -141,17 +142,7 @@ fn killed_station_resumes(url: &str) {
     let log = temp(TAG, "kill.jsonl");
     let mut c = batch_cmd(DESIGN_A, &p, url, "bench-k", "LK");
     c.arg("--log").arg(&log).stderr(Stdio::null());
-    let mut child = c.spawn().unwrap();
-    let start = std::time::Instant::now();
-    loop {
-        let n = std::fs::read_to_string(&log).map_or(0, |s| s.lines().count());
-        if n >= 50 || start.elapsed().as_secs() > 120 {
-            break;
-        }
-        std::thread::sleep(std::time::Duration::from_millis(5));
-    }
-    child.kill().unwrap(); // SIGKILL
-    child.wait().unwrap();
+    kill_after_lines(c.spawn().unwrap(), &log, 50, 120);
     let mid = report(url, &["--station", "bench-k"]);
     let done = design_entry(&mid, DESIGN_A, TAG)["tests"].as_u64().unwrap();
     assert!((50..1500).contains(&done), "killed after {done} tests");
@@ -188,14 +179,18 @@ fn import_twice(url: &str) {
     let rows = lot(DESIGN_A, 30, |k| (format!("I{k:02}"), 15.0, k % 6 != 0));
     let p = write_csv(TAG, "imp.csv", &rows);
     let log = temp(TAG, "imp.jsonl");
-    let out = bin()
-        .arg("batch")
-        .args(DESIGN_A.words())
-        .arg(&p)
-        .args(["--station", "bench-i", "--lot", "LI", "--log"])
-        .arg(&log)
-        .output()
-        .unwrap();
+    let out = batch(
+        &DESIGN_A.args(),
+        &p,
+        &[
+            "--station",
+            "bench-i",
+            "--lot",
+            "LI",
+            "--log",
+            path_str(&log),
+        ],
+    );
     assert_eq!(out.status.code(), Some(1));
     for pass in 0..2 {
         let out = bin()

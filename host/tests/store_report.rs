@@ -8,9 +8,9 @@ mod common;
 use std::io::Write;
 use std::process::{Command, Output};
 
-use common::line::{batch_cmd, board, csv, hash_of, lot, report, write_csv};
+use common::line::{batch, batch_cmd, board, csv, hash_of, lot, report, write_csv};
 use common::stage::DESIGN_A;
-use common::{bin, temp};
+use common::{bin, path_str, temp};
 use serde_json::Value;
 
 /// The scratch folder of this file.
@@ -29,14 +29,7 @@ fn report_refuses_records_that_are_not_whole() {
     ];
     let p = write_csv(TAG, "e.csv", &rows);
     let log = temp(TAG, "e.jsonl");
-    let out = bin()
-        .arg("batch")
-        .args(DESIGN_A.words())
-        .arg(&p)
-        .arg("--log")
-        .arg(&log)
-        .output()
-        .unwrap();
+    let out = batch(&DESIGN_A.args(), &p, &["--log", path_str(&log)]);
     assert_eq!(out.status.code(), Some(1));
     let text = std::fs::read_to_string(&log).unwrap();
     // The failed board's verdict edited to "pass", and a bare line.
@@ -74,13 +67,7 @@ fn batch_says_duplicate_serials_and_columns() {
     f.write_all(csv(&rows).replace('\n', "\r\n").as_bytes())
         .unwrap();
     drop(f);
-    let out = bin()
-        .arg("batch")
-        .args(DESIGN_A.words())
-        .arg(&p)
-        .arg("--json")
-        .output()
-        .unwrap();
+    let out = batch(&DESIGN_A.args(), &p, &["--json"]);
     assert_eq!(out.status.code(), Some(0));
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("line 3: serial D1 also on line 2"), "{err}");
@@ -88,12 +75,7 @@ fn batch_says_duplicate_serials_and_columns() {
     assert_eq!(v["boards"][1]["retest"], true);
     assert_eq!(v["summary"]["retests"], 1);
     std::fs::write(&p, "serial,vcc,vb,ve,vc,serial\n").unwrap();
-    let out = bin()
-        .arg("batch")
-        .args(DESIGN_A.words())
-        .arg(&p)
-        .output()
-        .unwrap();
+    let out = batch(&DESIGN_A.args(), &p, &[]);
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("column 'serial' appears 2 times"));
 }

@@ -4,7 +4,7 @@
 
 use std::collections::BTreeMap;
 use std::path::Path;
-use std::process::{Command, Stdio};
+use std::process::{Command, Output, Stdio};
 
 use biasjig_core::stage::{Fault, Resistor};
 use serde_json::Value;
@@ -77,6 +77,17 @@ pub fn batch_cmd(design: Flags, rows: &Path, url: &str, station: &str, lot: &str
         .stdout(Stdio::null())
         .stderr(Stdio::piped());
     c
+}
+
+/// `batch STAGE ROWS EXTRA`.
+pub fn batch(stage: &[String], rows: &Path, extra: &[&str]) -> Output {
+    bin()
+        .arg("batch")
+        .args(stage)
+        .arg(rows)
+        .args(extra)
+        .output()
+        .expect("biasjig runs")
 }
 
 /// `report --store URL --json` with `extra` flags.

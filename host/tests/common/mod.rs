@@ -133,3 +133,17 @@ pub fn temp(tag: &str, name: &str) -> PathBuf {
 pub fn path_str(p: &Path) -> &str {
     p.to_str().expect("a UTF-8 path")
 }
+
+/// Kill `child` (SIGKILL) once `log` holds `lines` lines, or after `timeout_s` seconds.
+pub fn kill_after_lines(mut child: std::process::Child, log: &Path, lines: usize, timeout_s: u64) {
+    let start = std::time::Instant::now();
+    loop {
+        let n = std::fs::read_to_string(log).map_or(0, |s| s.lines().count());
+        if n >= lines || start.elapsed().as_secs() > timeout_s {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    }
+    child.kill().expect("the child is killed"); // SIGKILL
+    child.wait().expect("the child ends");
+}

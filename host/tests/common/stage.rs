@@ -36,6 +36,11 @@ pub const HIGH_Z: Flags =
 const CAP_TOL: f64 = 0.2;
 
 impl Flags {
+    /// Flags made at run time (a drawn stage); the text lives as long as the test.
+    pub fn owned(text: String) -> Self {
+        Self(text.leak())
+    }
+
     /// The flags, one argument each.
     pub fn words(self) -> std::str::SplitWhitespace<'static> {
         self.0.split_whitespace()
@@ -77,9 +82,15 @@ impl Flags {
         Part::new(self.value(flag).unwrap_or(0.0), tol)
     }
 
-    /// The stage the flags give (resistors at 5 %; tolerances play no part in a solve).
+    /// A tolerance flag in percent as a fraction, 5 % when it is not given.
+    fn tol(self, flag: &str) -> f64 {
+        self.value(flag).map_or(0.05, |t| t / 100.0)
+    }
+
+    /// The stage the flags give (`--tol` and `--vcc-tol` as given, or 5 %).
     pub fn stage(self) -> Stage {
-        let r = |f| self.part(f, 0.05);
+        let tol = self.tol("--tol");
+        let r = |f| self.part(f, tol);
         let cap = |f| self.value(f).map(|v| Part::new(v, CAP_TOL));
         Stage {
             polarity: if self.words().any(|f| f == "--pnp") {
@@ -87,7 +98,7 @@ impl Flags {
             } else {
                 Polarity::Npn
             },
-            vcc: self.part("--vcc", 0.05),
+            vcc: self.part("--vcc", self.tol("--vcc-tol")),
             r1: r("--r1"),
             r2: r("--r2"),
             rc: r("--rc"),
