@@ -9,6 +9,7 @@
 //! lose and double nothing, a killed station leaves only whole tests, and writing a record that
 //! is already there (an import of the same log, a resumed batch) changes nothing.
 
+mod backend;
 mod columns;
 mod postgres;
 mod sqlite;

@@ -1,0 +1,168 @@
+//! What the SQLite and PostgreSQL stores share, written once: bringing a store to the current
+//! schema, one transaction per test, an import in chunks of [`IMPORT_CHUNK`] tests, and the SQL
+//! text that differs between them only in how a parameter is written.
+
+use super::columns::REPAIR_COLUMNS;
+use super::{StoreError, Written, IMPORT_CHUNK, SCHEMA_VERSION};
+use crate::record::BoardRecord;
+
+/// One SQL dialect's spelling of what both stores write.
+pub trait Dialect {
+    /// Parameter `k` (from 1): `?k` or `$k`.
+    fn param(k: usize) -> String;
+    /// The type of the schema table's version column.
+    const VERSION_TYPE: &'static str;
+}
+
+/// The schema table, made when it is missing.
+pub fn schema_table<D: Dialect>() -> String {
+    format!(
+        "CREATE TABLE IF NOT EXISTS biasjig_schema (
+             version {} PRIMARY KEY, applied_utc TEXT NOT NULL)",
+        D::VERSION_TYPE
+    )
+}
+
+/// The schema version of a store (0 for a new one).
+pub const SCHEMA_VERSION_SQL: &str = "SELECT COALESCE(MAX(version), 0) FROM biasjig_schema";
+
+/// Records that a migration was applied.
+pub fn applied_sql<D: Dialect>() -> String {
+    format!(
+        "INSERT INTO biasjig_schema (version, applied_utc) VALUES ({}, {})",
+        D::param(1),
+        D::param(2)
+    )
+}
+
+/// The steps of a migration inside one transaction, as each backend runs them.
+pub trait Migrate {
+    /// Run SQL statements.
+    fn batch(&mut self, sql: &str) -> Result<(), StoreError>;
+    /// The store's schema version (0 for a new store).
+    fn version(&mut self) -> Result<i64, StoreError>;
+    /// Record that version `v` was applied at `utc`.
+    fn applied(&mut self, v: i64, utc: &str) -> Result<(), StoreError>;
+}
+
+/// Bring a store to the current schema inside the transaction `tx`: make the schema table, then
+/// apply each of `migrations` (version, SQL) above the store's version, in order. A store made
+/// by a newer tool is refused.
+pub fn migrate<D: Dialect>(
+    tx: &mut impl Migrate,
+    migrations: &[(i64, &str)],
+) -> Result<(), StoreError> {
+    tx.batch(&schema_table::<D>())?;
+    let have = tx.version()?;
+    if have > SCHEMA_VERSION {
+        return Err(StoreError::Schema {
+            found: have,
+            known: SCHEMA_VERSION,
+        });
+    }
+    for (v, sql) in migrations {
+        if *v > have {
+            tx.batch(sql)?;
+            tx.applied(*v, &crate::clock::now_utc())?;
+        }
+    }
+    Ok(())
+}
+
+/// A backend's transactions: begin, write a test, commit.
+pub trait Transactions {
+    /// An open transaction.
+    type Tx<'a>
+    where
+        Self: 'a;
+    /// Begin a transaction that writes.
+    fn begin(&mut self) -> Result<Self::Tx<'_>, StoreError>;
+    /// Write one test inside `tx`; false when a record with its id was already there. Sets
+    /// `rec.retest` when the serial was tested before with the same design.
+    fn insert_in(tx: &mut Self::Tx<'_>, rec: &mut BoardRecord) -> Result<bool, StoreError>;
+    /// Commit `tx`.
+    fn commit(tx: Self::Tx<'_>) -> Result<(), StoreError>;
+}
+
+/// Write one test in one transaction.
+pub fn insert_one<B: Transactions>(b: &mut B, rec: &mut BoardRecord) -> Result<Written, StoreError> {
+    let mut tx = b.begin()?;
+    let new = B::insert_in(&mut tx, rec)?;
+    B::commit(tx)?;
+    Ok(Written { new })
+}
+
+/// Write many tests, [`IMPORT_CHUNK`] per transaction; how many were new.
+pub fn insert_chunked<B: Transactions>(
+    b: &mut B,
+    recs: &mut [BoardRecord],
+) -> Result<usize, StoreError> {
+    let mut new = 0;
+    for chunk in recs.chunks_mut(IMPORT_CHUNK) {
+        let mut tx = b.begin()?;
+        for rec in chunk {
+            new += usize::from(B::insert_in(&mut tx, rec)?);
+        }
+        B::commit(tx)?;
+    }
+    Ok(new)
+}
+
+/// The parameters 1..=n, comma-separated.
+pub fn params<D: Dialect>(n: usize) -> String {
+    (1..=n).map(D::param).collect::<Vec<_>>().join(", ")
+}
+
+/// The insert of a repair; a record id already there changes nothing.
+pub fn insert_repair_sql<D: Dialect>() -> String {
+    format!(
+        "INSERT INTO repairs ({}) VALUES ({}) ON CONFLICT (record_id) DO NOTHING",
+        REPAIR_COLUMNS.join(", "),
+        params::<D>(REPAIR_COLUMNS.len())
+    )
+}
+
+/// Every repair, in time order.
+pub fn repairs_sql() -> String {
+    format!(
+        "SELECT {} FROM repairs ORDER BY time_ms, seq",
+        REPAIR_COLUMNS.join(", ")
+    )
+}
+
+/// The tests of a serial with a design hash.
+pub fn tests_of_sql<D: Dialect>() -> String {
+    format!(
+        "SELECT COUNT(*) FROM tests WHERE serial = {} AND design_hash = {}",
+        D::param(1),
+        D::param(2)
+    )
+}
+
+/// A test with a record id.
+pub fn contains_sql<D: Dialect>() -> String {
+    format!("SELECT 1 FROM tests WHERE record_id = {}", D::param(1))
+}
+
+/// The schema version of a store.
+pub const MAX_VERSION_SQL: &str = "SELECT MAX(version) FROM biasjig_schema";
+
+/// The tests that pass a filter, in test order: `columns` is the select list, `text` and
+/// `int` the casts of a text and an integer parameter (empty for SQLite).
+pub fn filtered_tests_sql<D: Dialect>(columns: &str, text: &str, int: &str) -> String {
+    let p = |k: usize| D::param(k);
+    format!(
+        "SELECT {columns} FROM tests WHERE ({s}{text} IS NULL OR station = {s}) \
+         AND ({l}{text} IS NULL OR lot = {l}) AND ({f}{int} IS NULL OR time_ms >= {f}) \
+         AND ({u}{int} IS NULL OR time_ms <= {u}) ORDER BY time_ms, seq",
+        s = p(1),
+        l = p(2),
+        f = p(3),
+        u = p(4)
+    )
+}
+
+/// A count read from a store as the unsigned count it is (a negative count reads as 0).
+pub fn count(n: i64) -> u64 {
+    u64::try_from(n).unwrap_or(0)
+}
