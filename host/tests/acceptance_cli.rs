@@ -50,6 +50,13 @@ fn limits_npn(flag: &str, value: &str) -> Output {
     run(&a)
 }
 
+/// The document's `warnings` hold `w`.
+fn warns(d: &serde_json::Value, w: &str) -> bool {
+    d["warnings"]
+        .as_array()
+        .is_some_and(|ws| ws.iter().any(|x| x == w))
+}
+
 /// An invented NPN stage, active.
 const NPN: [&str; 12] = [
     "--r1", "180k", "--r2", "43k", "--rc", "12k", "--re1", "680", "--re2", "3k3", "--beta", "180",
@@ -190,26 +197,12 @@ fn inputs_that_saturate_the_stage_are_warned_about() {
     let o = run(&a);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let d = json(&o);
-    assert!(
-        d["warnings"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .any(|w| w == "inputs_move_the_stage_to_saturation"),
-        "{d}"
-    );
+    assert!(warns(&d, "inputs_move_the_stage_to_saturation"), "{d}");
     assert!(stderr(&o).contains("saturation"), "{}", stderr(&o));
     let mut a = vec!["analyze", "--json"];
     a.extend(stage);
     let d = json(&run(&a));
-    assert!(
-        d["warnings"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .any(|w| w == "inputs_move_the_stage_to_saturation"),
-        "{d}"
-    );
+    assert!(warns(&d, "inputs_move_the_stage_to_saturation"), "{d}");
     // With inputs of a hundred times R1 ‖ R2 the stage stays active: no such warning.
     let mut a = vec!["limits", "--json"];
     a.extend(&stage[..stage.len() - 1]);

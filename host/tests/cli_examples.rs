@@ -9,6 +9,9 @@
 #[test]
 fn cli_examples_print_what_their_files_say() {
     trycmd::TestCases::new()
-        .register_bin("biasjig", std::path::Path::new(env!("CARGO_BIN_EXE_biasjig")))
+        .register_bin(
+            "biasjig",
+            std::path::Path::new(env!("CARGO_BIN_EXE_biasjig")),
+        )
         .case("tests/cmd/*.toml");
 }

@@ -8,7 +8,7 @@ mod common;
 use std::io::Write;
 use std::process::{Command, Output};
 
-use common::line::{batch, batch_cmd, board, csv, hash_of, lot, report, write_csv};
+use common::line::{batch, batch_cmd, board, check_logged, csv, hash_of, lot, report, write_csv};
 use common::stage::DESIGN_A;
 use common::{bin, path_str, temp};
 use serde_json::Value;
@@ -99,15 +99,7 @@ fn limits_csv_has_exactly_the_windows_and_hashes_check_records() {
     );
     let b = board("C1", DESIGN_A, 15.0, true, 0);
     let log = temp(TAG, "limits.jsonl");
-    let out = bin()
-        .arg("check")
-        .args(DESIGN_A.words())
-        .args(["--vb", &b.r[1].to_string(), "--ve", &b.r[2].to_string()])
-        .args(["--vc", &b.r[3].to_string(), "--serial", "C1", "--log"])
-        .arg(&log)
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    check_logged(DESIGN_A, &b, &log);
     let rec: Value = serde_json::from_str(&std::fs::read_to_string(&log).unwrap()).unwrap();
     let mut n = 0;
     for l in lines {

@@ -7,19 +7,47 @@ use super::{StoreError, Written, IMPORT_CHUNK, SCHEMA_VERSION};
 use crate::record::BoardRecord;
 
 /// One SQL dialect's spelling of what both stores write.
-pub trait Dialect {
-    /// Parameter `k` (from 1): `?k` or `$k`.
-    fn param(k: usize) -> String;
+#[derive(Debug, Clone, Copy)]
+pub struct Dialect {
+    /// What comes before a parameter's number.
+    mark: char,
     /// The type of the schema table's version column.
-    const VERSION_TYPE: &'static str;
+    version_type: &'static str,
+}
+
+/// SQLite: `?1`, versions as `INTEGER`.
+pub const SQLITE: Dialect = Dialect {
+    mark: '?',
+    version_type: "INTEGER",
+};
+
+/// PostgreSQL: `$1`, versions as `BIGINT`.
+pub const POSTGRES: Dialect = Dialect {
+    mark: '$',
+    version_type: "BIGINT",
+};
+
+impl Dialect {
+    /// Parameter `k` (from 1).
+    pub fn param(self, k: usize) -> String {
+        format!("{}{k}", self.mark)
+    }
+
+    /// The parameters 1..=n, comma-separated.
+    pub fn params(self, n: usize) -> String {
+        (1..=n)
+            .map(|k| self.param(k))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
 }
 
 /// The schema table, made when it is missing.
-pub fn schema_table<D: Dialect>() -> String {
+pub fn schema_table(d: Dialect) -> String {
     format!(
         "CREATE TABLE IF NOT EXISTS biasjig_schema (
              version {} PRIMARY KEY, applied_utc TEXT NOT NULL)",
-        D::VERSION_TYPE
+        d.version_type
     )
 }
 
@@ -27,11 +55,11 @@ pub fn schema_table<D: Dialect>() -> String {
 pub const SCHEMA_VERSION_SQL: &str = "SELECT COALESCE(MAX(version), 0) FROM biasjig_schema";
 
 /// Records that a migration was applied.
-pub fn applied_sql<D: Dialect>() -> String {
+pub fn applied_sql(d: Dialect) -> String {
     format!(
         "INSERT INTO biasjig_schema (version, applied_utc) VALUES ({}, {})",
-        D::param(1),
-        D::param(2)
+        d.param(1),
+        d.param(2)
     )
 }
 
@@ -48,11 +76,12 @@ pub trait Migrate {
 /// Bring a store to the current schema inside the transaction `tx`: make the schema table, then
 /// apply each of `migrations` (version, SQL) above the store's version, in order. A store made
 /// by a newer tool is refused.
-pub fn migrate<D: Dialect>(
+pub fn migrate(
+    d: Dialect,
     tx: &mut impl Migrate,
     migrations: &[(i64, &str)],
 ) -> Result<(), StoreError> {
-    tx.batch(&schema_table::<D>())?;
+    tx.batch(&schema_table(d))?;
     let have = tx.version()?;
     if have > SCHEMA_VERSION {
         return Err(StoreError::Schema {
@@ -85,7 +114,10 @@ pub trait Transactions {
 }
 
 /// Write one test in one transaction.
-pub fn insert_one<B: Transactions>(b: &mut B, rec: &mut BoardRecord) -> Result<Written, StoreError> {
+pub fn insert_one<B: Transactions>(
+    b: &mut B,
+    rec: &mut BoardRecord,
+) -> Result<Written, StoreError> {
     let mut tx = b.begin()?;
     let new = B::insert_in(&mut tx, rec)?;
     B::commit(tx)?;
@@ -108,17 +140,12 @@ pub fn insert_chunked<B: Transactions>(
     Ok(new)
 }
 
-/// The parameters 1..=n, comma-separated.
-pub fn params<D: Dialect>(n: usize) -> String {
-    (1..=n).map(D::param).collect::<Vec<_>>().join(", ")
-}
-
 /// The insert of a repair; a record id already there changes nothing.
-pub fn insert_repair_sql<D: Dialect>() -> String {
+pub fn insert_repair_sql(d: Dialect) -> String {
     format!(
         "INSERT INTO repairs ({}) VALUES ({}) ON CONFLICT (record_id) DO NOTHING",
         REPAIR_COLUMNS.join(", "),
-        params::<D>(REPAIR_COLUMNS.len())
+        d.params(REPAIR_COLUMNS.len())
     )
 }
 
@@ -131,17 +158,17 @@ pub fn repairs_sql() -> String {
 }
 
 /// The tests of a serial with a design hash.
-pub fn tests_of_sql<D: Dialect>() -> String {
+pub fn tests_of_sql(d: Dialect) -> String {
     format!(
         "SELECT COUNT(*) FROM tests WHERE serial = {} AND design_hash = {}",
-        D::param(1),
-        D::param(2)
+        d.param(1),
+        d.param(2)
     )
 }
 
 /// A test with a record id.
-pub fn contains_sql<D: Dialect>() -> String {
-    format!("SELECT 1 FROM tests WHERE record_id = {}", D::param(1))
+pub fn contains_sql(d: Dialect) -> String {
+    format!("SELECT 1 FROM tests WHERE record_id = {}", d.param(1))
 }
 
 /// The schema version of a store.
@@ -149,8 +176,8 @@ pub const MAX_VERSION_SQL: &str = "SELECT MAX(version) FROM biasjig_schema";
 
 /// The tests that pass a filter, in test order: `columns` is the select list, `text` and
 /// `int` the casts of a text and an integer parameter (empty for SQLite).
-pub fn filtered_tests_sql<D: Dialect>(columns: &str, text: &str, int: &str) -> String {
-    let p = |k: usize| D::param(k);
+pub fn filtered_tests_sql(d: Dialect, columns: &str, text: &str, int: &str) -> String {
+    let p = |k: usize| d.param(k);
     format!(
         "SELECT {columns} FROM tests WHERE ({s}{text} IS NULL OR station = {s}) \
          AND ({l}{text} IS NULL OR lot = {l}) AND ({f}{int} IS NULL OR time_ms >= {f}) \

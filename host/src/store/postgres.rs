@@ -5,7 +5,7 @@
 
 use ::postgres::{Client, NoTls, Statement, Transaction};
 
-use super::backend::{self, Dialect, Migrate, Transactions};
+use super::backend::{self, Migrate, Transactions, POSTGRES};
 use super::columns::{ColumnSource, ColumnValue, RepairRow, Row, COLUMNS, JSON_COLUMNS};
 use super::{Filter, Store, StoreError, Written};
 use crate::record::{BoardRecord, RepairRecord};
@@ -15,16 +15,6 @@ const MIGRATIONS: [(i64, &str); 1] = [(1, include_str!("sql/postgres/0001_tests.
 
 /// Advisory lock key of the migrations ("biasjig" in ASCII).
 const MIGRATION_LOCK: i64 = 0x0062_6961_736a_6967;
-
-/// PostgreSQL's spelling.
-struct Pg;
-
-impl Dialect for Pg {
-    fn param(k: usize) -> String {
-        format!("${k}")
-    }
-    const VERSION_TYPE: &'static str = "BIGINT";
-}
 
 /// An open PostgreSQL store.
 pub struct Postgres {
@@ -39,7 +29,7 @@ impl Postgres {
         let mut client = Client::connect(url, NoTls)?;
         let mut tx = client.transaction()?;
         tx.execute("SELECT pg_advisory_xact_lock($1)", &[&MIGRATION_LOCK])?;
-        backend::migrate::<Pg>(&mut tx, &MIGRATIONS)?;
+        backend::migrate(POSTGRES, &mut tx, &MIGRATIONS)?;
         tx.commit()?;
         let insert = client.prepare(&insert_sql())?;
         Ok(Self { client, insert })
@@ -52,11 +42,13 @@ impl Migrate for Transaction<'_> {
     }
 
     fn version(&mut self) -> Result<i64, StoreError> {
-        Ok(self.query_one(backend::SCHEMA_VERSION_SQL, &[])?.try_get(0)?)
+        Ok(self
+            .query_one(backend::SCHEMA_VERSION_SQL, &[])?
+            .try_get(0)?)
     }
 
     fn applied(&mut self, v: i64, utc: &str) -> Result<(), StoreError> {
-        self.execute(backend::applied_sql::<Pg>().as_str(), &[&v, &utc])?;
+        self.execute(backend::applied_sql(POSTGRES).as_str(), &[&v, &utc])?;
         Ok(())
     }
 }
@@ -152,7 +144,7 @@ impl Store for Postgres {
     fn contains(&mut self, record_id: &str) -> Result<bool, StoreError> {
         Ok(self
             .client
-            .query_opt(backend::contains_sql::<Pg>().as_str(), &[&record_id])?
+            .query_opt(backend::contains_sql(POSTGRES).as_str(), &[&record_id])?
             .is_some())
     }
 
@@ -160,7 +152,7 @@ impl Store for Postgres {
         let n: i64 = self
             .client
             .query_one(
-                backend::tests_of_sql::<Pg>().as_str(),
+                backend::tests_of_sql(POSTGRES).as_str(),
                 &[&serial, &design_hash],
             )?
             .try_get(0)?;
@@ -170,7 +162,7 @@ impl Store for Postgres {
     fn insert_repair(&mut self, rep: &RepairRecord) -> Result<bool, StoreError> {
         let row = RepairRow::of(rep);
         let n = self.client.execute(
-            backend::insert_repair_sql::<Pg>().as_str(),
+            backend::insert_repair_sql(POSTGRES).as_str(),
             &row.postgres_values(),
         )?;
         Ok(n == 1)
@@ -181,7 +173,7 @@ impl Store for Postgres {
         filter: &Filter,
         f: &mut dyn FnMut(BoardRecord) -> Result<(), StoreError>,
     ) -> Result<(), StoreError> {
-        let sql = backend::filtered_tests_sql::<Pg>(&select_list(), "::text", "::bigint");
+        let sql = backend::filtered_tests_sql(POSTGRES, &select_list(), "::text", "::bigint");
         let params: [&(dyn ::postgres::types::ToSql + Sync); 4] = [
             &filter.station,
             &filter.lot,

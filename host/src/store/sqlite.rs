@@ -9,7 +9,7 @@ use rusqlite::{
     params, params_from_iter, Connection, OptionalExtension, Transaction, TransactionBehavior,
 };
 
-use super::backend::{self, Dialect, Migrate, Transactions};
+use super::backend::{self, Migrate, Transactions, SQLITE};
 use super::columns::{ColumnSource, ColumnValue, RepairRow, Row, COLUMNS};
 use super::{Filter, Store, StoreError, Written};
 use crate::record::{BoardRecord, RepairRecord};
@@ -19,16 +19,6 @@ const MIGRATIONS: [(i64, &str); 1] = [(1, include_str!("sql/sqlite/0001_tests.sq
 
 /// How long a writer waits for another station's transaction.
 const BUSY: Duration = Duration::from_secs(60);
-
-/// SQLite's spelling.
-struct Sqlite3;
-
-impl Dialect for Sqlite3 {
-    fn param(k: usize) -> String {
-        format!("?{k}")
-    }
-    const VERSION_TYPE: &'static str = "INTEGER";
-}
 
 /// An open SQLite store.
 pub struct Sqlite {
@@ -61,7 +51,7 @@ impl Sqlite {
         conn.pragma_update(None, "synchronous", "FULL")?;
         conn.pragma_update(None, "foreign_keys", "ON")?;
         let mut tx = conn.transaction_with_behavior(TransactionBehavior::Immediate)?;
-        backend::migrate::<Sqlite3>(&mut tx, &MIGRATIONS)?;
+        backend::migrate(SQLITE, &mut tx, &MIGRATIONS)?;
         tx.commit()?;
         Ok(Self { conn })
     }
@@ -85,7 +75,7 @@ impl Migrate for Transaction<'_> {
     }
 
     fn applied(&mut self, v: i64, utc: &str) -> Result<(), StoreError> {
-        self.execute(&backend::applied_sql::<Sqlite3>(), params![v, utc])?;
+        self.execute(&backend::applied_sql(SQLITE), params![v, utc])?;
         Ok(())
     }
 }
@@ -102,7 +92,7 @@ fn insert_sql() -> String {
     format!(
         "INSERT INTO tests ({}) VALUES ({}) ON CONFLICT (record_id) DO NOTHING",
         COLUMNS.join(", "),
-        backend::params::<Sqlite3>(COLUMNS.len())
+        SQLITE.params(COLUMNS.len())
     )
 }
 
@@ -149,7 +139,7 @@ impl Store for Sqlite {
     fn contains(&mut self, record_id: &str) -> Result<bool, StoreError> {
         Ok(self
             .conn
-            .prepare_cached(&backend::contains_sql::<Sqlite3>())?
+            .prepare_cached(&backend::contains_sql(SQLITE))?
             .query_row([record_id], |_| Ok(()))
             .optional()?
             .is_some())
@@ -158,7 +148,7 @@ impl Store for Sqlite {
     fn tests_of(&mut self, serial: &str, design_hash: &str) -> Result<u64, StoreError> {
         let n: i64 = self
             .conn
-            .prepare_cached(&backend::tests_of_sql::<Sqlite3>())?
+            .prepare_cached(&backend::tests_of_sql(SQLITE))?
             .query_row([serial, design_hash], |r| r.get(0))?;
         Ok(backend::count(n))
     }
@@ -166,7 +156,7 @@ impl Store for Sqlite {
     fn insert_repair(&mut self, rep: &RepairRecord) -> Result<bool, StoreError> {
         let row = RepairRow::of(rep);
         let n = self.conn.execute(
-            &backend::insert_repair_sql::<Sqlite3>(),
+            &backend::insert_repair_sql(SQLITE),
             params_from_iter(row.sqlite_values()),
         )?;
         Ok(n == 1)
@@ -177,7 +167,7 @@ impl Store for Sqlite {
         filter: &Filter,
         f: &mut dyn FnMut(BoardRecord) -> Result<(), StoreError>,
     ) -> Result<(), StoreError> {
-        let sql = backend::filtered_tests_sql::<Sqlite3>(&COLUMNS.join(", "), "", "");
+        let sql = backend::filtered_tests_sql(SQLITE, &COLUMNS.join(", "), "", "");
         let mut stmt = self.conn.prepare(&sql)?;
         let p: [rusqlite::types::Value; 4] = [
             filter.station.clone().into(),

@@ -25,7 +25,7 @@ pub struct Board {
 
 /// A board of `design` at supply `vcc`, good or with RC or R2 open (alternating by `k`).
 pub fn board(serial: &str, design: Flags, vcc: f64, good: bool, k: usize) -> Board {
-    let fault = (!good).then(|| {
+    let fault = (!good).then_some({
         Fault::Open(if k % 2 == 0 {
             Resistor::Rc
         } else {
@@ -102,17 +102,8 @@ pub fn report(url: &str, extra: &[&str]) -> Value {
 
 /// The design hash `biasjig` records for a design (from a logged check of one good board).
 pub fn hash_of(design: Flags, tag: &str) -> String {
-    let b = board("H1", design, 15.0, true, 0);
     let log = super::temp(tag, "hash.jsonl");
-    let out = bin()
-        .arg("check")
-        .args(design.words())
-        .args(["--vb", &b.r[1].to_string(), "--ve", &b.r[2].to_string()])
-        .args(["--vc", &b.r[3].to_string(), "--serial", "H1", "--log"])
-        .arg(&log)
-        .output()
-        .expect("biasjig runs");
-    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    check_logged(design, &board("H1", design, 15.0, true, 0), &log);
     let line = std::fs::read_to_string(&log).expect("the check's log");
     let _ = std::fs::remove_file(&log);
     let v: Value = serde_json::from_str(line.lines().next().expect("one record")).expect("JSON");
@@ -120,6 +111,20 @@ pub fn hash_of(design: Flags, tag: &str) -> String {
         .as_str()
         .expect("a design hash")
         .to_string()
+}
+
+/// `check` of a good board `b` of `design` at the design's supply, logged to `log`; it passes.
+#[track_caller]
+pub fn check_logged(design: Flags, b: &Board, log: &Path) {
+    let out = bin()
+        .arg("check")
+        .args(design.words())
+        .args(["--vb", &b.r[1].to_string(), "--ve", &b.r[2].to_string()])
+        .args(["--vc", &b.r[3].to_string(), "--serial", &b.serial, "--log"])
+        .arg(log)
+        .output()
+        .expect("biasjig runs");
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
 }
 
 /// The report's entry of `design`.
