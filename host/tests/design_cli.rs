@@ -92,7 +92,7 @@ fn supply_24v_gain_10_at_300ua_into_47k_is_designed() {
     let g = c["predicted"]["ac"]["gain"].as_f64().unwrap().abs();
     assert!((g / 10.0 - 1.0).abs() <= 0.10, "{g}");
     // Held at every corner too (fixed hFE and ambient by default: the resistor corners).
-    let out = run(&base);
+    let out = run(base);
     assert!(out.status.success(), "{}", stderr(&out));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let h = &v["candidates"][0]["held"];
@@ -103,7 +103,7 @@ fn supply_24v_gain_10_at_300ua_into_47k_is_designed() {
 #[test]
 fn impossible_gain_tolerance_is_refused_naming_the_gain() {
     // Gain ±1 % with 5 % resistors: the ratio RC‖RL/RE1 alone moves several percent.
-    let out = run(&[
+    let out = run([
         "design",
         "--vcc",
         "12",
@@ -118,7 +118,7 @@ fn impossible_gain_tolerance_is_refused_naming_the_gain() {
     let err = stderr(&out);
     assert!(err.contains("gain:"), "{err}");
     assert!(err.contains("±1.0 %"), "{err}");
-    let bad = run(&["design", "--vcc", "12", "--gain", "10", "--gain-tol", "0"]);
+    let bad = run(["design", "--vcc", "12", "--gain", "10", "--gain-tol", "0"]);
     assert_eq!(bad.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&bad.stderr).contains("--gain-tol"));
 }
@@ -143,7 +143,7 @@ fn human_report_shows_candidates_and_part_list() {
 
 #[test]
 fn impossible_gain_exits_2_naming_the_requirement() {
-    let out = run(&[
+    let out = run([
         "design", "--vcc", "12", "--gain", "80", "--rl", "4k7", "--ic-max", "100u",
     ]);
     assert_eq!(out.status.code(), Some(2));
@@ -154,18 +154,18 @@ fn impossible_gain_exits_2_naming_the_requirement() {
 
 #[test]
 fn impossible_swing_exits_2() {
-    let out = run(&["design", "--vcc", "5", "--gain", "10", "--swing", "4.9"]);
+    let out = run(["design", "--vcc", "5", "--gain", "10", "--swing", "4.9"]);
     assert_eq!(out.status.code(), Some(2));
     assert!(stderr(&out).contains("swing"));
 }
 
 #[test]
 fn bad_field_exits_2_naming_flag_and_value() {
-    let out = run(&["design", "--vcc", "12", "--gain", "5000"]);
+    let out = run(["design", "--vcc", "12", "--gain", "5000"]);
     assert_eq!(out.status.code(), Some(2));
     let err = stderr(&out);
     assert!(err.contains("--gain: 5000:"), "{err}");
-    let out = run(&["design", "--vcc", "12", "--gain", "10", "--series", "E7"]);
+    let out = run(["design", "--vcc", "12", "--gain", "10", "--series", "E7"]);
     assert_eq!(out.status.code(), Some(2));
     assert!(stderr(&out).contains("E24"));
 }
@@ -178,7 +178,7 @@ fn design_file_round_trip_through_analyze() {
     let out = run(&args);
     assert!(out.status.success(), "{}", stderr(&out));
     let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-    let a = run(&["--json", "analyze", "--design", file.to_str().unwrap()]);
+    let a = run(["--json", "analyze", "--design", file.to_str().unwrap()]);
     assert!(a.status.success(), "{}", String::from_utf8_lossy(&a.stderr));
     let a: serde_json::Value = serde_json::from_slice(&a.stdout).unwrap();
     let want = &d["candidates"][0]["predicted"];
@@ -189,11 +189,11 @@ fn design_file_round_trip_through_analyze() {
     let text = std::fs::read_to_string(&file).unwrap();
     let edited = dir.join("e.toml");
     std::fs::write(&edited, text.replace("[ambient]", "[ambient]\ncolour = 1")).unwrap();
-    let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
+    let e = run(["analyze", "--design", edited.to_str().unwrap()]);
     assert_eq!(e.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&e.stderr).contains("colour"));
     std::fs::write(&edited, text.replace("version = 2", "version = 9")).unwrap();
-    let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
+    let e = run(["analyze", "--design", edited.to_str().unwrap()]);
     assert_eq!(e.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&e.stderr).contains("version"));
     // Issue 11, item 8: `design -o` does not replace a file without --force.

@@ -151,7 +151,7 @@ fn a_supply_out_of_tolerance_is_never_a_pass() {
     assert_eq!(rec["supply"]["ok"], false);
     // With a design file (5 % by default): the file's nominal is judged.
     let f = demo::first_round(TAG, "supply.toml");
-    let o = run(&strs(&[
+    let o = run(strs(&[
         "check",
         "--design",
         f.to_str().unwrap(),
@@ -167,7 +167,7 @@ fn a_supply_out_of_tolerance_is_never_a_pass() {
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
     assert!(stderr(&o).contains("supply"), "{}", stderr(&o));
     // And the supply window is printed with the nodes.
-    let lim = run(&strs(&["limits", "--design", f.to_str().unwrap()]));
+    let lim = run(strs(&["limits", "--design", f.to_str().unwrap()]));
     let text = String::from_utf8_lossy(&lim.stdout);
     assert!(
         text.contains("VCC") && text.contains("11.4") && text.contains("12.6"),

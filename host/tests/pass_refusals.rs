@@ -124,7 +124,7 @@ fn units_that_do_not_fit_the_field_are_refused() {
     assert_eq!(r[4], vec!["ok".to_string()]);
     assert!(r[5].iter().any(|l| l.starts_with("rc=4700 ")), "{:?}", r[5]);
     // Meter settings name their range.
-    let o = run(&strs(&[
+    let o = run(strs(&[
         "limits", "--vcc", "12", "--r1", "47k", "--r2", "10k", "--rc", "4k7", "--re1", "220",
         "--meter", "30",
     ]));
@@ -143,7 +143,7 @@ fn units_that_do_not_fit_the_field_are_refused() {
 fn overrides_and_the_digest_are_on_record() {
     let f = demo::first_round(TAG, "rec.toml");
     let d = f.to_str().unwrap();
-    let lj = json(&run(&strs(&["limits", "--json", "--design", d])));
+    let lj = json(&run(strs(&["limits", "--json", "--design", d])));
     let mid = |n: &str| (lj[n]["low"].as_f64().unwrap() + lj[n]["high"].as_f64().unwrap()) / 2.0;
     let log = temp(TAG, "rec.jsonl");
     let args = |extra: &[&str]| {
@@ -165,8 +165,8 @@ fn overrides_and_the_digest_are_on_record() {
         a.extend(strs(extra));
         a
     };
-    assert_eq!(run(&args(&[])).status.code(), Some(0));
-    let o = run(&args(&["--tol", "20", "--meter", "3"]));
+    assert_eq!(run(args(&[])).status.code(), Some(0));
+    let o = run(args(&["--tol", "20", "--meter", "3"]));
     assert!(stderr(&o).contains("override"), "{}", stderr(&o));
     let recs: Vec<Value> = std::fs::read_to_string(&log)
         .unwrap()
@@ -192,7 +192,7 @@ fn overrides_and_the_digest_are_on_record() {
 /// Issue 11, item 9 (size limits): `--design /dev/zero` grew to 1.4 GB; it is refused at once.
 #[test]
 fn an_endless_design_file_is_refused() {
-    let o = run(&strs(&["analyze", "--design", "/dev/zero"]));
+    let o = run(strs(&["analyze", "--design", "/dev/zero"]));
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("at most"), "{}", stderr(&o));
 }

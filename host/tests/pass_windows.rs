@@ -356,7 +356,7 @@ fn the_console_and_the_command_line_share_their_defaults() {
 fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
     let f = demo::first_round(TAG, "cont.toml");
     let d = f.to_str().unwrap();
-    let lj = json(&run(&strs(&["limits", "--json", "--design", d])));
+    let lj = json(&run(strs(&["limits", "--json", "--design", d])));
     let (vb, ve, vc) = (
         (lj["vb"]["low"].as_f64().unwrap() + lj["vb"]["high"].as_f64().unwrap()) / 2.0,
         (lj["ve"]["low"].as_f64().unwrap() + lj["ve"]["high"].as_f64().unwrap()) / 2.0,
@@ -392,7 +392,7 @@ fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
         );
     }
     // limits --design at 25 °C == check --design --temp 25, bit for bit.
-    let lt = json(&run(&strs(&[
+    let lt = json(&run(strs(&[
         "limits", "--json", "--design", d, "--temp", "25",
     ])));
     for n in NODES {
@@ -400,7 +400,7 @@ fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
         assert_eq!(bits(&lt[n]["high"]), bits(&j25["nodes"][n]["high"]), "{n}");
     }
     // And at another measured supply, with a test ambient range.
-    let la = json(&run(&strs(&[
+    let la = json(&run(strs(&[
         "limits",
         "--json",
         "--design",
@@ -421,7 +421,7 @@ fn windows_are_continuous_in_the_ambient_and_the_same_with_a_design_file() {
     assert_eq!(la["temperature"]["min"], 15.0);
     assert_eq!(cj["settings"]["temp_max"], 35.0);
     // A range that shrinks to a point gives the point's windows (continuity at the ends).
-    let narrow = json(&run(&strs(&[
+    let narrow = json(&run(strs(&[
         "limits",
         "--json",
         "--design",
