@@ -4,7 +4,7 @@ mod common;
 
 use common::console::{station, statuses};
 use common::demo::{self, typed};
-use common::{assert_exit, code, json, json_lines, path_str, run, stderr, stdout, temp};
+use common::{assert_exit, code, json, json_lines, path_str, run, stderr, stdout};
 
 /// The scratch folder of this file.
 const TAG: &str = "console-cli";
@@ -67,13 +67,15 @@ fn ports_lists_without_failing() {
 
 #[test]
 fn station_manual_runs_end_to_end() {
-    let design = temp(TAG, "demo.toml");
-    let log = temp(TAG, "boards.jsonl");
+    let demo::Bench {
+        design,
+        log,
+        file,
+        good,
+        bad,
+    } = demo::bench(TAG);
     let d = path_str(&design);
-    let file = demo::write_design(&design, &[]);
     let file_hash = demo::hash_of(&file);
-    let good = demo::predicted(&design, &[]);
-    let bad = demo::decade_slip(&design, &file);
     let line = typed;
     let input = format!(
         "SN-1\n{}\nSN-2\n{}\nSN-3\n3 1 1 1\nSN-4\n12 x 1 1\n\n",

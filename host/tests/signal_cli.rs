@@ -6,7 +6,7 @@
 mod common;
 
 use biasjig_core::response::CapState;
-use biasjig_core::solve::{solve, Conditions, NodeLoads};
+use biasjig_core::solve::{solve, NodeLoads};
 use biasjig_core::stage::Capacitor;
 use common::signal::{board, check, TONES};
 use common::stage::SIGNAL;
@@ -74,19 +74,11 @@ fn capacitor_faults_are_named_from_dc_and_gain_readings() {
     // A shorted CIN shows at DC (RS from the base to ground while the nodes are read): the DC
     // readings alone fail and name it.
     let (s, p) = (SIGNAL.stage(), SIGNAL.profile());
-    let op = solve(
-        &s,
-        &p,
-        Conditions {
-            beta_25: 180.0,
-            loads: NodeLoads {
-                base: Some(600.0),
-                ..NodeLoads::NONE
-            },
-            ..Conditions::typical(&p)
-        },
-    )
-    .unwrap();
+    let loads = NodeLoads {
+        base: Some(600.0),
+        ..NodeLoads::NONE
+    };
+    let op = solve(&s, &p, common::signal::conditions(&p).loaded(loads)).unwrap();
     let out = check([op.vcc, op.vb, op.ve, op.vc], &[], &["--json"]);
     assert_eq!(out.status.code(), Some(1));
     let j = json(&out);

@@ -23,12 +23,14 @@ fn station(design: &Path, log: &Path, input: &str) -> (String, i32) {
 
 #[test]
 fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault() {
-    let design = temp(TAG, "demo.toml");
-    let log = temp(TAG, "boards.jsonl");
+    let demo::Bench {
+        design,
+        log,
+        file,
+        good,
+        bad,
+    } = demo::bench(TAG);
     let d = path_str(&design);
-    let file = demo::write_design(&design, &[]);
-    let good = demo::predicted(&design, &[]);
-    let bad = demo::decade_slip(&design, &file);
     let line = typed;
     // SN-2: first a line that is not readings, then a typo the unit refuses, then the readings.
     // SN-3: readings of an unpowered board (refused), then given up (empty line).

@@ -45,24 +45,22 @@ fn station_with_store(
 
 #[test]
 fn manual_station_with_store_and_log_keeps_retests_and_refusals_in_both() {
-    let design = temp(TAG, "demo.toml");
-    let log = temp(TAG, "boards.jsonl");
+    let bench = demo::bench(TAG);
+    let (design, log) = (&bench.design, &bench.log);
     let log2 = temp(TAG, "second.jsonl");
     let db = temp(TAG, "line.db");
-    let file = demo::write_design(&design, &[]);
-    let hash = demo::hash_of(&file);
-    let good = typed(demo::predicted(&design, &[]));
-    let bad = typed(demo::decade_slip(&design, &file));
+    let hash = demo::hash_of(&bench.file);
+    let (good, bad) = (typed(bench.good), typed(bench.bad));
     let url = format!("sqlite:{}", db.display());
     // B1 passes; B2 fails; B3 is refused (an unpowered board), then given up; B2 retested good.
     let screen = station_with_store(
-        &design,
-        &log,
+        design,
+        log,
         &url,
         &format!("B1\n{good}\nB2\n{bad}\nB3\n0 0 0 0\n\nB2\n{good}\n\n"),
     );
     assert!(screen.contains("board B2 was tested before"), "{screen}");
-    let recs = json_lines(&log);
+    let recs = json_lines(log);
     let got: Vec<(String, String, bool)> = recs
         .iter()
         .map(|r| {
@@ -108,7 +106,7 @@ fn manual_station_with_store_and_log_keeps_retests_and_refusals_in_both() {
     assert!(recs[0]["nodes"].as_object().is_some_and(|n| n.len() >= 3));
 
     // A second session on a new log: B1 is known only to the store, and is a retest.
-    let screen = station_with_store(&design, &log2, &url, &format!("B1\n{good}\n\n"));
+    let screen = station_with_store(design, &log2, &url, &format!("B1\n{good}\n\n"));
     assert!(
         screen.contains("board B1 was tested before (1 record in the store)"),
         "{screen}"
@@ -145,7 +143,7 @@ fn manual_station_with_store_and_log_keeps_retests_and_refusals_in_both() {
     assert_eq!(dsg["refused_tests"], 1);
     assert_eq!(dsg["retests"], 2);
     // The logs give the same figures: the station's refused line is a whole refused test.
-    let from_logs = json_ok(["report", "--json", path_str(&log), path_str(&log2)]);
+    let from_logs = json_ok(["report", "--json", path_str(log), path_str(&log2)]);
     assert_eq!(from_logs["refused_records"], 0, "{from_logs}");
     assert_group_with_final(&from_logs["designs"][0], &want, "logs");
     assert_eq!(from_logs["designs"][0]["refused_tests"], 1);

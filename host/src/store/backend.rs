@@ -193,3 +193,18 @@ pub fn filtered_tests_sql(d: Dialect, columns: &str, text: &str, int: &str) -> S
 pub fn count(n: i64) -> u64 {
     u64::try_from(n).unwrap_or(0)
 }
+
+/// The `insert` and `insert_many` of a [`super::Store`] whose backend implements
+/// [`Transactions`]: one transaction per test, an import in chunks.
+macro_rules! writes_by_transactions {
+    () => {
+        fn insert(&mut self, rec: &mut BoardRecord) -> Result<Written, StoreError> {
+            backend::insert_one(self, rec)
+        }
+
+        fn insert_many(&mut self, recs: &mut [BoardRecord]) -> Result<usize, StoreError> {
+            backend::insert_chunked(self, recs)
+        }
+    };
+}
+pub(super) use writes_by_transactions;

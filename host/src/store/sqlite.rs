@@ -128,13 +128,7 @@ impl Transactions for Sqlite {
 }
 
 impl Store for Sqlite {
-    fn insert(&mut self, rec: &mut BoardRecord) -> Result<Written, StoreError> {
-        backend::insert_one(self, rec)
-    }
-
-    fn insert_many(&mut self, recs: &mut [BoardRecord]) -> Result<usize, StoreError> {
-        backend::insert_chunked(self, recs)
-    }
+    backend::writes_by_transactions!();
 
     fn contains(&mut self, record_id: &str) -> Result<bool, StoreError> {
         Ok(self

@@ -87,3 +87,29 @@ pub fn first_round(tag: &str, name: &str) -> std::path::PathBuf {
     write_design(&f, &FIRST_ROUND);
     f
 }
+
+/// A station's bench with the demo's design: the design file, a fresh log, and the readings of a
+/// good board and of one with a decade slip in RC (VB, VE, VC at 12 V).
+pub struct Bench {
+    pub design: std::path::PathBuf,
+    pub log: std::path::PathBuf,
+    pub file: toml::Table,
+    pub good: [f64; 3],
+    pub bad: [f64; 3],
+}
+
+/// The bench of the test file `tag`.
+pub fn bench(tag: &str) -> Bench {
+    let design = super::temp(tag, "demo.toml");
+    let log = super::temp(tag, "boards.jsonl");
+    let file = write_design(&design, &[]);
+    let good = predicted(&design, &[]);
+    let bad = decade_slip(&design, &file);
+    Bench {
+        design,
+        log,
+        file,
+        good,
+        bad,
+    }
+}

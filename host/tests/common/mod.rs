@@ -14,9 +14,8 @@ pub mod signal;
 pub mod stage;
 
 use std::ffi::OsStr;
-use std::io::Write;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::{Command, Output};
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 use serde_json::Value;
@@ -35,26 +34,22 @@ where
     bin().args(args).output().expect("biasjig runs")
 }
 
-/// Run `biasjig` with `args`, `input` on its standard input.
+/// Run `biasjig` with `args`, `input` on its standard input (read from a file, then the end of
+/// input, as a technician's typing ends when the terminal closes).
 pub fn run_with_input<I, S>(args: I, input: &[u8]) -> Output
 where
     I: IntoIterator<Item = S>,
     S: AsRef<OsStr>,
 {
-    let mut child = bin()
+    let typed = temp("stdin", "typed.txt");
+    std::fs::write(&typed, input).expect("the input is written");
+    let out = bin()
         .args(args)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
+        .stdin(std::fs::File::open(&typed).expect("the input reads back"))
+        .output()
         .expect("biasjig runs");
-    child
-        .stdin
-        .take()
-        .expect("stdin is piped")
-        .write_all(input)
-        .expect("biasjig reads its input");
-    child.wait_with_output().expect("biasjig ends")
+    let _ = std::fs::remove_file(&typed);
+    out
 }
 
 /// Owned `String`s of `&str`s (argument lists built from parts).
