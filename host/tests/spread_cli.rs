@@ -101,12 +101,7 @@ fn spread_human_report_and_plots() {
     for word in "worst min|mean|std|Yield|Sensitivity|Distributions".split('|') {
         assert!(text.contains(word), "{word} missing in:\n{text}");
     }
-    for f in [
-        "histogram_vb.svg",
-        "histogram_ic.svg",
-        "load_lines.svg",
-        "sensitivity.svg",
-    ] {
+    for f in "histogram_vb.svg|histogram_ic.svg|load_lines.svg|sensitivity.svg".split('|') {
         let svg = std::fs::read_to_string(dir.join(f)).unwrap();
         assert!(svg.starts_with("<svg") && svg.contains("<text"), "{f}");
     }

@@ -23,13 +23,9 @@ fn station(design: &Path, log: &Path, input: &str) -> (String, i32) {
 
 #[test]
 fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault() {
-    let demo::Bench {
-        design,
-        log,
-        file,
-        good,
-        bad,
-    } = demo::bench(TAG);
+    let bench = demo::bench(TAG);
+    let (design, log, file) = (bench.design, bench.log, bench.file);
+    let (good, bad) = (bench.good, bench.bad);
     let d = path_str(&design);
     let line = typed;
     // SN-2: first a line that is not readings, then a typo the unit refuses, then the readings.

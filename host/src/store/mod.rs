@@ -98,6 +98,9 @@ pub struct Written {
     pub new: bool,
 }
 
+/// What [`Store::for_each_test`] calls with each test.
+pub type Visit<'a> = &'a mut dyn FnMut(BoardRecord) -> Result<(), StoreError>;
+
 /// A results store.
 pub trait Store {
     /// Write one test in one transaction. Sets `rec.retest` when the serial was tested before
@@ -113,11 +116,7 @@ pub trait Store {
     /// Record a repair; false when it was already there.
     fn insert_repair(&mut self, rep: &RepairRecord) -> Result<bool, StoreError>;
     /// Visit the tests that pass the filter in test order (time, then arrival), one at a time.
-    fn for_each_test(
-        &mut self,
-        filter: &Filter,
-        f: &mut dyn FnMut(BoardRecord) -> Result<(), StoreError>,
-    ) -> Result<(), StoreError>;
+    fn for_each_test(&mut self, filter: &Filter, f: Visit<'_>) -> Result<(), StoreError>;
     /// Every repair, in time order.
     fn repairs(&mut self) -> Result<Vec<RepairRecord>, StoreError>;
     /// For a batch: commits no longer wait for the disk (SQLite `synchronous = NORMAL` in its

@@ -7,7 +7,7 @@ use ::postgres::{Client, NoTls, Statement, Transaction};
 
 use super::backend::{self, Migrate, Transactions, POSTGRES};
 use super::columns::{ColumnSource, ColumnValue, RepairRow, Row, COLUMNS, JSON_COLUMNS};
-use super::{Filter, Store, StoreError, Written};
+use super::{Filter, Store, StoreError, Visit, Written};
 use crate::record::{BoardRecord, RepairRecord};
 
 /// The migrations, in order: (version, SQL).
@@ -162,11 +162,7 @@ impl Store for Postgres {
         Ok(n == 1)
     }
 
-    fn for_each_test(
-        &mut self,
-        filter: &Filter,
-        f: &mut dyn FnMut(BoardRecord) -> Result<(), StoreError>,
-    ) -> Result<(), StoreError> {
+    fn for_each_test(&mut self, filter: &Filter, f: Visit<'_>) -> Result<(), StoreError> {
         let sql = backend::filtered_tests_sql(POSTGRES, &select_list(), "::text", "::bigint");
         let params: [&(dyn ::postgres::types::ToSql + Sync); 4] = [
             &filter.station,

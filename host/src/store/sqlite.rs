@@ -11,7 +11,7 @@ use rusqlite::{
 
 use super::backend::{self, Migrate, Transactions, SQLITE};
 use super::columns::{ColumnSource, ColumnValue, RepairRow, Row, COLUMNS};
-use super::{Filter, Store, StoreError, Written};
+use super::{Filter, Store, StoreError, Visit, Written};
 use crate::record::{BoardRecord, RepairRecord};
 
 /// The migrations, in order: (version, SQL).
@@ -156,11 +156,7 @@ impl Store for Sqlite {
         Ok(n == 1)
     }
 
-    fn for_each_test(
-        &mut self,
-        filter: &Filter,
-        f: &mut dyn FnMut(BoardRecord) -> Result<(), StoreError>,
-    ) -> Result<(), StoreError> {
+    fn for_each_test(&mut self, filter: &Filter, f: Visit<'_>) -> Result<(), StoreError> {
         let sql = backend::filtered_tests_sql(SQLITE, &COLUMNS.join(", "), "", "");
         let mut stmt = self.conn.prepare(&sql)?;
         let p: [rusqlite::types::Value; 4] = [
