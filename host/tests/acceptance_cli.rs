@@ -227,7 +227,7 @@ fn limits_at_a_supply_outside_its_window_says_so() {
 /// centred on the measured supply itself (always "in" it: nothing was judged), and an hFE that
 /// cannot be derived showed as "-".
 #[test]
-fn the_check_screen_reads_right() {
+fn the_check_screen_aligns_its_letters_and_judges_the_supply_against_a_nominal() {
     let mut a = vec!["check", "--vcc", "12"];
     a.extend(NPN);
     // Readings from the engine's own prediction of this stage (analyze), so the board passes.

@@ -57,7 +57,7 @@ fn pnp_readings_are_signed() {
 }
 
 #[test]
-fn value_forms_are_equivalent() {
+fn value_forms_give_the_same_operating_point() {
     let a = analyze_json(&[]);
     let mut args = vec!["analyze", "--json"];
     let plain = [

@@ -16,7 +16,7 @@ fn console(input: &[u8], args: &[&str]) -> (String, String, i32) {
 }
 
 #[test]
-fn line_discipline_on_stdin() {
+fn each_stdin_line_gets_one_reply_and_a_bad_line_its_error() {
     let mut input = b"*IDN?\r\njunk words here\n".to_vec();
     input.extend(vec![b'z'; 500]);
     input.extend_from_slice(b"\nstage\x07\n\xc3\x28\n\r\nmode machine\nhash\n*idn?");
@@ -35,7 +35,7 @@ fn line_discipline_on_stdin() {
 }
 
 #[test]
-fn help_shows_safety() {
+fn help_shows_the_safety_notes() {
     let (out, _, _) = console(b"help\n", &[]);
     assert!(out.contains("de-energise the board before changing probes or parts"));
     assert!(out.contains("No mains-connected circuits without isolation"));
@@ -59,14 +59,14 @@ fn a_bad_sync_timeout_is_exit_2() {
 }
 
 #[test]
-fn ports_lists_without_failing() {
+fn ports_lists_the_serial_ports_as_json() {
     let out = run(["ports", "--json"]);
     assert_exit(&out, 0);
     assert!(json(&out)["ports"].is_array());
 }
 
 #[test]
-fn station_manual_runs_end_to_end() {
+fn station_manual_logs_pass_fail_and_refused_as_check_judges_them() {
     let demo::Bench {
         design,
         log,

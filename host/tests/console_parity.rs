@@ -224,7 +224,7 @@ fn compare(label: &str, data: &[String], doc: &Value) {
 }
 
 #[test]
-fn console_check_equals_check_json() {
+fn console_check_gives_the_verdict_windows_and_faults_of_check_json() {
     let mut failed_boards = 0;
     for c in &CASES {
         let mut lines = console_setup(c);

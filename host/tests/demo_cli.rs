@@ -5,7 +5,7 @@ mod common;
 use common::{run, stderr, stdout};
 
 #[test]
-fn demo_runs_the_whole_job() {
+fn demo_runs_every_step_and_fails_only_the_planted_faults() {
     let dir = common::scratch("demo-test").join("out");
     let out = run(["demo".as_ref(), "--out".as_ref(), dir.as_os_str()]);
     let text = stdout(&out);

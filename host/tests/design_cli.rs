@@ -171,7 +171,7 @@ fn bad_field_exits_2_naming_flag_and_value() {
 }
 
 #[test]
-fn design_file_round_trip_through_analyze() {
+fn a_design_file_reads_back_the_same_and_refuses_edits_and_overwrites() {
     let dir = common::scratch("design-cli");
     let file = dir.join("d.toml");
     let args = demo_json(&["--count", "1", "-o", common::path_str(&file)]);

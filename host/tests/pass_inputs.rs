@@ -85,7 +85,7 @@ fn modelled_inputs_pass_good_boards_and_still_name_faults() {
 
 /// `--inputs one`: each node read with only its own input attached; a good board passes.
 #[test]
-fn one_input_at_a_time() {
+fn one_input_at_a_time_passes_a_good_board() {
     let (s, p) = (HIGH_Z.stage(), HIGH_Z.profile());
     let inputs = Inputs {
         r: Some(1e6),

@@ -60,7 +60,7 @@ fn spread_json_has_the_contract_keys() {
 }
 
 #[test]
-fn spread_repeats_per_seed() {
+fn spread_gives_the_same_numbers_for_the_same_seed() {
     let a = json_of(&with(&["spread", "--json", "--runs", "200", "--seed", "9"]));
     let b = json_of(&with(&["spread", "--json", "--runs", "200", "--seed", "9"]));
     let c = json_of(&with(&[
@@ -81,7 +81,7 @@ fn spread_default_ambient_is_temp_alone() {
 }
 
 #[test]
-fn spread_human_report_and_plots() {
+fn spread_prints_its_report_and_writes_svg_plots_without_a_progress_bar() {
     let dir = common::scratch("spread-plots");
     let d = path_str(&dir).to_string();
     let mut args = with(&[
