@@ -208,3 +208,49 @@ macro_rules! writes_by_transactions {
     };
 }
 pub(super) use writes_by_transactions;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The SQL both stores ran before it was written once here, character for character.
+    #[test]
+    fn each_dialect_spells_the_sql_as_its_store_did() {
+        assert_eq!(
+            filtered_tests_sql(SQLITE, "a, b", "", ""),
+            "SELECT a, b FROM tests WHERE (?1 IS NULL OR station = ?1) AND (?2 IS NULL OR lot = ?2) \
+             AND (?3 IS NULL OR time_ms >= ?3) AND (?4 IS NULL OR time_ms <= ?4) \
+             ORDER BY time_ms, seq"
+        );
+        assert_eq!(
+            filtered_tests_sql(POSTGRES, "a, b", "::text", "::bigint"),
+            "SELECT a, b FROM tests WHERE ($1::text IS NULL OR station = $1) \
+             AND ($2::text IS NULL OR lot = $2) AND ($3::bigint IS NULL OR time_ms >= $3) \
+             AND ($4::bigint IS NULL OR time_ms <= $4) ORDER BY time_ms, seq"
+        );
+        assert_eq!(
+            insert_repair_sql(SQLITE),
+            "INSERT INTO repairs (record_id, time_utc, time_ms, serial, part, mode, technician, \
+             note) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8) ON CONFLICT (record_id) DO NOTHING"
+        );
+        assert_eq!(
+            insert_repair_sql(POSTGRES),
+            "INSERT INTO repairs (record_id, time_utc, time_ms, serial, part, mode, technician, \
+             note) VALUES ($1, $2, $3, $4, $5, $6, $7, $8) ON CONFLICT (record_id) DO NOTHING"
+        );
+        assert_eq!(
+            tests_of_sql(POSTGRES),
+            "SELECT COUNT(*) FROM tests WHERE serial = $1 AND design_hash = $2"
+        );
+        assert_eq!(
+            contains_sql(SQLITE),
+            "SELECT 1 FROM tests WHERE record_id = ?1"
+        );
+        assert_eq!(
+            applied_sql(POSTGRES),
+            "INSERT INTO biasjig_schema (version, applied_utc) VALUES ($1, $2)"
+        );
+        assert!(schema_table(SQLITE).contains("version INTEGER PRIMARY KEY"));
+        assert!(schema_table(POSTGRES).contains("version BIGINT PRIMARY KEY"));
+    }
+}

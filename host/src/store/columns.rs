@@ -250,3 +250,27 @@ impl RepairRow {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The bind order the stores used before the columns were written once (the `tests` and
+    /// `repairs` tables of migration 1).
+    #[test]
+    fn columns_keep_their_bind_order() {
+        let tests = "record_id time_utc time_ms serial design_hash design_id design_digest \
+                     settings_hash overrides station operator lot tool_version firmware_version \
+                     retest source vcc vb ve vc verdict reason windows signal nominal derived \
+                     faults explained supply settings typed";
+        assert_eq!(COLUMNS, tests.split_whitespace().collect::<Vec<_>>());
+        let repairs = "record_id time_utc time_ms serial part mode technician note";
+        assert_eq!(
+            REPAIR_COLUMNS,
+            repairs.split_whitespace().collect::<Vec<_>>()
+        );
+        for c in JSON_COLUMNS {
+            assert!(COLUMNS.contains(&c), "{c}");
+        }
+    }
+}
