@@ -9,9 +9,10 @@ use common::{assert_exit, json_ok, path_str, run, stderr, stdout};
 
 /// An invented stage (12 V, 47k/10k divider, 4k7 collector, 220 + 1k emitter, 15k load, 600 Ω
 /// source, hFE 100/180/300).
-const STAGE: Flags = Flags(
-    "--vcc 12 --r1 47k --r2 10k --rc 4k7 --re1 220 --re2 1k --rl 15k --rs 600 --beta 180 --beta-min 100 --beta-max 300",
-);
+const STAGE: Flags = Flags(concat!(
+    "--vcc 12 --r1 47k --r2 10k --rc 4k7 --re1 220 --re2 1k --rl 15k --rs 600 ",
+    "--beta 180 --beta-min 100 --beta-max 300",
+));
 
 fn json_of(args: &[&str]) -> serde_json::Value {
     json_ok(args)

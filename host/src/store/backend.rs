@@ -218,9 +218,9 @@ mod tests {
     fn each_dialect_spells_the_sql_as_its_store_did() {
         assert_eq!(
             filtered_tests_sql(SQLITE, "a, b", "", ""),
-            "SELECT a, b FROM tests WHERE (?1 IS NULL OR station = ?1) AND (?2 IS NULL OR lot = ?2) \
-             AND (?3 IS NULL OR time_ms >= ?3) AND (?4 IS NULL OR time_ms <= ?4) \
-             ORDER BY time_ms, seq"
+            "SELECT a, b FROM tests WHERE (?1 IS NULL OR station = ?1) \
+             AND (?2 IS NULL OR lot = ?2) AND (?3 IS NULL OR time_ms >= ?3) \
+             AND (?4 IS NULL OR time_ms <= ?4) ORDER BY time_ms, seq"
         );
         assert_eq!(
             filtered_tests_sql(POSTGRES, "a, b", "::text", "::bigint"),

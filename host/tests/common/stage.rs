@@ -13,20 +13,23 @@ pub struct Flags(pub &'static str);
 
 /// Design A of the check and store tests (15 V, 68k/15k divider, 3k9 collector, 220 + 820
 /// emitter, hFE 120/210/360, VBE 0.66 V).
-pub const DESIGN_A: Flags = Flags(
-    "--vcc 15 --r1 68k --r2 15k --rc 3k9 --re1 220 --re2 820 --beta-min 120 --beta 210 --beta-max 360 --vbe 0.66",
-);
+pub const DESIGN_A: Flags = Flags(concat!(
+    "--vcc 15 --r1 68k --r2 15k --rc 3k9 --re1 220 --re2 820 ",
+    "--beta-min 120 --beta 210 --beta-max 360 --vbe 0.66",
+));
 
 /// Design B: design A with a 4k7 collector resistor (another design hash).
-pub const DESIGN_B: Flags = Flags(
-    "--vcc 15 --r1 68k --r2 15k --rc 4k7 --re1 220 --re2 820 --beta-min 120 --beta 210 --beta-max 360 --vbe 0.66",
-);
+pub const DESIGN_B: Flags = Flags(concat!(
+    "--vcc 15 --r1 68k --r2 15k --rc 4k7 --re1 220 --re2 820 ",
+    "--beta-min 120 --beta 210 --beta-max 360 --vbe 0.66",
+));
 
 /// The signal-test stage (12 V, 47k/10k divider, 4k7 collector, 220 + 820 emitter, 15k load,
 /// 600 Ω source, 10 µ/10 µ/470 µ, hFE 100/200/300).
-pub const SIGNAL: Flags = Flags(
-    "--vcc 12 --r1 47k --r2 10k --rc 4k7 --re1 220 --re2 820 --rl 15k --rs 600 --cin 10u --cout 10u --ce 470u --beta-min 100 --beta 200 --beta-max 300",
-);
+pub const SIGNAL: Flags = Flags(concat!(
+    "--vcc 12 --r1 47k --r2 10k --rc 4k7 --re1 220 --re2 820 --rl 15k --rs 600 ",
+    "--cin 10u --cout 10u --ce 470u --beta-min 100 --beta 200 --beta-max 300",
+));
 
 /// A high-impedance stage (24 V, R1 470 k, R2 100 k, RC 47 k, RE 10 k + 0, hFE from 100).
 pub const HIGH_Z: Flags =
