@@ -8,6 +8,12 @@
 //! Each test is written in one transaction, keyed by its record id: stations writing at once
 //! lose and double nothing, a killed station leaves only whole tests, and writing a record that
 //! is already there (an import of the same log, a resumed batch) changes nothing.
+//!
+//! The two backends (`sqlite`, `postgres`) hold only what their server does differently; what
+//! they share is written once: `columns` (each table's columns, read and bound for either) and
+//! `backend` (migrations, one transaction per test, imports in chunks, the SQL both spell with
+//! their own parameter marks). The `.sql` migrations stay one file per dialect: their column
+//! types differ, and a migration is frozen text.
 
 mod backend;
 mod columns;
