@@ -114,6 +114,38 @@ pub fn default_profile() -> Profile {
     settings::default_profile()
 }
 
+/// The test-ambient, meter (with `signal`, the signal-test meter's too) and measuring-input
+/// flags given, in this order, to `add` as (flag, value as given: percentages in percent,
+/// `--inputs` 0 together, 1 one).
+fn list_test_flags(
+    test: Option<&TestArgs>,
+    inputs: Option<&InputArgs>,
+    signal: bool,
+    add: &mut impl FnMut(&str, Option<f64>),
+) {
+    if let Some(t) = test {
+        add("--temp-min", t.temp_min);
+        add("--temp-max", t.temp_max);
+        add("--meter", t.meter.meter.map(|g| 100.0 * g));
+        add("--meter-offset", t.meter.meter_offset);
+        add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
+        if signal {
+            add("--signal-error", t.meter.signal_error.map(|d| 100.0 * d));
+            add("--signal-floor", t.meter.signal_floor);
+        }
+    }
+    if let Some(i) = inputs {
+        add("--input-r", i.input_r);
+        add(
+            "--inputs",
+            i.inputs.map(|m| match m {
+                InputMode::Together => 0.0,
+                InputMode::One => 1.0,
+            }),
+        );
+    }
+}
+
 /// The test settings a station pushes: `base` (the design file's) changed by the flags
 /// (`temp`: `--temp`), and the flags that changed them as JSON, flag -> value as given (the
 /// `overrides` of each station record; percentages in percent, `--inputs` 0 together, 1 one).
@@ -143,19 +175,8 @@ pub fn station_settings(
     ts.meter.divider_tol = t.meter.divider_tol.unwrap_or(ts.meter.divider_tol);
     ts.inputs.r = inputs.input_r.or(ts.inputs.r);
     ts.inputs.mode = inputs.inputs.unwrap_or(ts.inputs.mode);
-    add("--temp-min", t.temp_min);
-    add("--temp-max", t.temp_max);
-    add("--meter", t.meter.meter.map(|g| 100.0 * g));
-    add("--meter-offset", t.meter.meter_offset);
-    add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
-    add("--input-r", inputs.input_r);
-    add(
-        "--inputs",
-        inputs.inputs.map(|m| match m {
-            InputMode::Together => 0.0,
-            InputMode::One => 1.0,
-        }),
-    );
+    // The station pushes no signal-test meter: its flags are not listed.
+    list_test_flags(Some(test), Some(inputs), false, &mut add);
     ts.validate().map_err(|e| settings_error(&ts, e))?;
     Ok((ts, Value::Object(over)))
 }
@@ -310,25 +331,7 @@ impl StageArgs {
         add("--vce-sat", p.vce_sat);
         add("--power-rating", p.power_rating);
         add("--tj-max", p.tj_max);
-        if let Some(t) = test {
-            add("--temp-min", t.temp_min);
-            add("--temp-max", t.temp_max);
-            add("--meter", t.meter.meter.map(|g| 100.0 * g));
-            add("--meter-offset", t.meter.meter_offset);
-            add("--divider-tol", t.meter.divider_tol.map(|d| 100.0 * d));
-            add("--signal-error", t.meter.signal_error.map(|d| 100.0 * d));
-            add("--signal-floor", t.meter.signal_floor);
-        }
-        if let Some(i) = inputs {
-            add("--input-r", i.input_r);
-            add(
-                "--inputs",
-                i.inputs.map(|m| match m {
-                    InputMode::Together => 0.0,
-                    InputMode::One => 1.0,
-                }),
-            );
-        }
+        list_test_flags(test, inputs, true, &mut add);
     }
 
     fn override_file(&self, stage: &mut Stage, tol: Option<f64>, cap_tol: f64) {
