@@ -4,6 +4,7 @@
 use plotters::coord::ranged1d::{AsRangedCoord, ValueFormatter};
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use thiserror::Error;
 
 use super::stats::Chart;
 
@@ -21,8 +22,16 @@ pub struct NodePlot<'a> {
     pub chart: Option<&'a Chart>,
 }
 
-fn err(e: impl std::fmt::Display) -> String {
-    e.to_string()
+/// Why a picture could not be drawn (what the drawing library says).
+#[derive(Debug, Error)]
+#[error("{why}")]
+pub struct DrawError {
+    /// What the drawing library says.
+    pub why: String,
+}
+
+fn err(e: impl std::fmt::Display) -> DrawError {
+    DrawError { why: e.to_string() }
 }
 
 /// A chart of `X` by `Y` on the backend `DB`.
@@ -40,7 +49,7 @@ fn frame<'a, DB, X, Y>(
     y_labels: u32,
     x: X,
     y: Y,
-) -> Result<Frame<'a, DB, X, Y>, String>
+) -> Result<Frame<'a, DB, X, Y>, DrawError>
 where
     DB: DrawingBackend,
     X: AsRangedCoord,
@@ -64,7 +73,7 @@ where
 }
 
 /// The individuals chart: points in test order, centre and control limits, signals in red.
-pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
+pub fn control(n: &NodePlot<'_>) -> Result<String, DrawError> {
     let mut svg = String::new();
     let Some(c) = n.chart else {
         return Ok(svg);
@@ -116,7 +125,7 @@ pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
 }
 
 /// Histogram of the readings with the window at the nominal supply dashed.
-pub fn histogram(n: &NodePlot<'_>) -> Result<String, String> {
+pub fn histogram(n: &NodePlot<'_>) -> Result<String, DrawError> {
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (480, 300)).into_drawing_area();

@@ -257,11 +257,11 @@ impl Cmd {
                 for (kind, svg) in [
                     (
                         "chart",
-                        biasjig::analysis::charts::control(&p).map_err(&bad)?,
+                        biasjig::analysis::charts::control(&p).map_err(|e| bad(e.to_string()))?,
                     ),
                     (
                         "histogram",
-                        biasjig::analysis::charts::histogram(&p).map_err(&bad)?,
+                        biasjig::analysis::charts::histogram(&p).map_err(|e| bad(e.to_string()))?,
                     ),
                 ] {
                     let f = dir.join(format!("{}-{}-{kind}.svg", d.hash, n.name));
