@@ -18,6 +18,7 @@
 //! | engine | [`response`] | the complex gain at any frequency, good or with a faulty capacitor |
 //! | engine | [`power`] | dissipation and supply current |
 //! | engine | [`predict`] | all of the above for one stage in one call |
+//! | job | [`common`] | what the job layers share: nodes, ranges, the variation, the spread's error |
 //! | job | [`design`] | from a requirement to ranked standard-value part lists |
 //! | job | [`spread`] | worst case, Monte Carlo and sensitivity |
 //! | job | [`limits`] | guard-banded pass windows per node |
@@ -53,6 +54,7 @@
 
 mod acnet;
 pub mod check;
+pub mod common;
 pub mod console;
 pub mod design;
 pub mod device;
