@@ -28,6 +28,7 @@
 //! | job | [`check`] | measured against limits: verdict and derived quantities |
 //! | job | [`diagnose`] | ranked single-fault hypotheses |
 //! | job | [`explain`] | faults in plain words, the measurement that separates them |
+//! | numbers | [`fnv`] | FNV-1a 64, the hash of design records and stored records |
 //! | numbers | [`goertzel`] | the amplitude of one tone in sampled data (single precision) |
 //! | front | [`console`] | the line console protocol over `embedded-io` |
 //!
@@ -61,6 +62,7 @@ pub mod device;
 pub mod diagnose;
 pub mod estimate;
 pub mod explain;
+pub mod fnv;
 pub mod goertzel;
 pub mod judge;
 pub mod limits;
