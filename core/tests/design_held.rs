@@ -200,7 +200,7 @@ fn gain_within_one_percent_with_5_percent_parts_is_refused_naming_the_gain() {
     }
     let msg = e.to_string();
     assert!(
-        msg.starts_with("gain:") && msg.contains("--gain-tol"),
+        msg.starts_with("gain:") && msg.contains("gain_tol"),
         "{msg}"
     );
 }

@@ -70,7 +70,7 @@ mod score;
 mod search;
 pub mod warnings;
 
-pub use error::DesignError;
+pub use error::{DesignError, NamedError, Naming, Setting};
 pub use first_pass::{first_pass, FirstPassMiss, Ideal};
 pub use held::{held, Held};
 pub use requirement::{Check, Requirement, RequirementError};
