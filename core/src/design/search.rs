@@ -103,10 +103,16 @@ impl Best {
     }
 }
 
-/// The neighbours of a value in a series: `steps` (at most 2) positions either side of the
-/// nearest member, within the resistor range.
-fn around(series: Series, x: f64, steps: u8) -> heapless::Vec<f64, 5> {
-    let steps = steps.min(2);
+/// Most steps [`around`] takes either side of a value.
+const AROUND_STEPS: u8 = 2;
+/// Most neighbours [`around`] gives: the nearest member and every step either side.
+const AROUND: usize = 5;
+const _: () = assert!(AROUND == 2 * AROUND_STEPS as usize + 1);
+
+/// The neighbours of a value in a series: `steps` (at most [`AROUND_STEPS`]) positions either
+/// side of the nearest member, within the resistor range.
+fn around(series: Series, x: f64, steps: u8) -> heapless::Vec<f64, AROUND> {
+    let steps = steps.min(AROUND_STEPS);
     let keep = |v: &f64| (R_MIN..=R_MAX).contains(v);
     let mut out = heapless::Vec::new();
     for v in series.around(x, steps, steps).filter(keep) {

@@ -49,6 +49,8 @@ impl Factor {
 
 /// Number of factors.
 pub const FACTORS: usize = 8;
+// Every factor has its slot, and a corner of the box is a bit mask of the factors in a `u16`.
+const _: () = assert!(Factor::ALL.len() == FACTORS && FACTORS <= u16::BITS as usize);
 
 /// A point of the factor box in physical terms.
 #[derive(Debug, Clone, Copy, PartialEq)]

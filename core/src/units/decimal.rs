@@ -8,6 +8,8 @@ const EXACT_POW10: [f64; 23] = [
 
 /// Words of [`Big`]: 1536 bits, enough for 40 digits × 10^312 shifted by 2^55.
 const BIG_WORDS: usize = 48;
+// 10^40 < 2^133 and 10^312 < 2^1037: the largest numerator, shifted, takes 133 + 1037 + 55 bits.
+const _: () = assert!(BIG_WORDS * 32 >= 133 + 1037 + 55);
 
 /// A fixed-size unsigned integer (little-endian 32-bit words) for exact decimal conversion.
 #[derive(Clone, Copy)]

@@ -307,6 +307,7 @@ fn parse_magnitude(body: &str, rich: bool) -> Result<f64, ValueError> {
 /// Build the value `int.frac × 10^exp` with one correctly rounded conversion, then range-check it.
 fn finish(int: &str, frac: &str, exp: i64) -> Result<f64, ValueError> {
     const MAX_DIGITS: usize = 40;
+    const _: () = assert!(MAX_DIGITS <= 64);
     let mut buf: heapless::String<64> = heapless::String::new();
     let mut significant = false;
     let mut taken = 0usize;
