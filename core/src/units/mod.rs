@@ -27,6 +27,7 @@ mod parse;
 mod print;
 
 pub use codes::{capacitor_code, resistor_code};
+pub(crate) use decimal::EXACT_POW10;
 pub use parse::{
     parse_percent, parse_signed, parse_signed_in, parse_value, parse_value_in, Unit, ValueError,
 };
