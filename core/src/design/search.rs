@@ -48,6 +48,20 @@ impl Best {
         }
     }
 
+    /// Analyse the resistor set `r` in full (unless it cannot beat the list) and offer it.
+    fn consider(
+        &mut self,
+        req: &Requirement,
+        real: &Requirement,
+        profile: &Profile,
+        r: [f64; 5],
+        level: f64,
+    ) {
+        if let Some(ev) = evaluate(req, real, profile, r, level, self.bound(), true) {
+            self.offer(&ev);
+        }
+    }
+
     fn offer(&mut self, ev: &Eval) {
         if !ev.meets && ev.estimated && !self.near.iter().any(|e| e.r == ev.r) {
             let at = self
@@ -183,17 +197,7 @@ fn search_level(
         for &r1 in r1s.iter() {
             for &r2 in r2s.iter() {
                 for &re2 in re2s.iter() {
-                    if let Some(ev) = evaluate(
-                        req,
-                        real,
-                        profile,
-                        [r1, r2, rc, re1, re2],
-                        ideal.ic,
-                        best.bound(),
-                        true,
-                    ) {
-                        best.offer(&ev);
-                    }
+                    best.consider(req, real, profile, [r1, r2, rc, re1, re2], ideal.ic);
                 }
             }
         }
@@ -216,17 +220,7 @@ fn polish(req: &Requirement, real: &Requirement, profile: &Profile, best: &mut B
                 if rc == rc0 && re1 == re10 {
                     continue;
                 }
-                if let Some(ev) = evaluate(
-                    req,
-                    real,
-                    profile,
-                    [r1, r2, rc, re1, re2],
-                    seed.level,
-                    best.bound(),
-                    true,
-                ) {
-                    best.offer(&ev);
-                }
+                best.consider(req, real, profile, [r1, r2, rc, re1, re2], seed.level);
             }
         }
     }
@@ -381,30 +375,21 @@ fn search(
             achieved,
         });
     }
-    let mut low_err = None;
-    // The closest part set that does not hold: its margin and what it holds.
-    let mut closest: Option<(f64, Held)> = None;
-    for kept in best.list.iter().take(finalists) {
-        match finish(req, real, profile, kept) {
-            Ok(Finished::Holds(c)) => push_ranked(out, c),
-            Ok(Finished::Misses(h)) => note_closest(real, &mut closest, h),
-            Err(e) => {
-                low_err.get_or_insert(e);
-            }
-        }
-    }
-    if worst && out.is_empty() && finalists == MAX_CANDIDATES {
+    let mut finals = Finals {
+        out,
+        closest: None,
+        low_err: None,
+    };
+    finals.judge(req, real, profile, best.list.iter().take(finalists));
+    if worst && finals.out.is_empty() && finalists == MAX_CANDIDATES {
         // No kept set holds: the near misses of the estimate, judged at the exact corners.
-        for kept in best.near.iter() {
-            match finish(req, real, profile, kept) {
-                Ok(Finished::Holds(c)) => push_ranked(out, c),
-                Ok(Finished::Misses(h)) => note_closest(real, &mut closest, h),
-                Err(e) => {
-                    low_err.get_or_insert(e);
-                }
-            }
-        }
+        finals.judge(req, real, profile, best.near.iter());
     }
+    let Finals {
+        out,
+        closest,
+        low_err,
+    } = finals;
     if !out.is_empty() {
         return Ok(());
     }
@@ -437,6 +422,36 @@ enum Finished {
     Holds(Candidate),
     /// With capacitors, missing a requirement at a corner: what it holds.
     Misses(Held),
+}
+
+/// The finalists judged so far: those that hold (ranked into `out`), the closest that does not,
+/// and the first error choosing capacitors.
+struct Finals<'a> {
+    out: &'a mut Candidates,
+    /// The closest part set that does not hold: its margin and what it holds.
+    closest: Option<(f64, Held)>,
+    low_err: Option<DesignError>,
+}
+
+impl Finals<'_> {
+    /// Finish each kept part set and sort it in.
+    fn judge<'k>(
+        &mut self,
+        req: &Requirement,
+        real: &Requirement,
+        profile: &Profile,
+        kept: impl Iterator<Item = &'k Kept>,
+    ) {
+        for kept in kept {
+            match finish(req, real, profile, kept) {
+                Ok(Finished::Holds(c)) => push_ranked(self.out, c),
+                Ok(Finished::Misses(h)) => note_closest(real, &mut self.closest, h),
+                Err(e) => {
+                    self.low_err.get_or_insert(e);
+                }
+            }
+        }
+    }
 }
 
 /// Keep `h` when it is the closest to holding so far.
