@@ -103,30 +103,19 @@ pub fn midband(
     let (gain, vb) = source_gain(stage, y).ok_or(SignalError::Singular)?;
     let gain_stage = if vb != 0.0 { gain / vb } else { 0.0 };
     // The real part of the voltage at `node` with 1 A injected there: its impedance, Ω.
-    let driven = |node, setup: Setup| {
+    let driven = |node, with_source, with_load| {
         let setup = Setup {
+            with_source,
+            with_load,
             inject: acnet::injection(node, acnet::GROUND),
-            ..setup
+            ..Setup::midband()
         };
         let v = acnet::solve(stage, y, &setup).ok_or(SignalError::Singular)?;
         Ok(acnet::at(&v, node).re)
     };
-    // Input impedance: no source.
-    let zin = driven(
-        IN,
-        Setup {
-            with_source: false,
-            ..Setup::midband()
-        },
-    )?;
-    // Output impedance: source at rest behind RS, no load.
-    let zout = driven(
-        OUT,
-        Setup {
-            with_load: false,
-            ..Setup::midband()
-        },
-    )?;
+    // Input impedance: no source. Output impedance: source at rest behind RS, no load.
+    let zin = driven(IN, false, true)?;
+    let zout = driven(OUT, true, false)?;
     let (swing_pp, clips) = swing(stage, profile, op);
     let inv = |g: f64| if g > 0.0 { 1.0 / g } else { f64::INFINITY };
     Ok(Midband {

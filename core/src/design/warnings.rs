@@ -23,27 +23,8 @@ pub const MAX_WARNINGS: usize = 10;
 // capacitor.
 const _: () = assert!(MAX_WARNINGS == 2 + Resistor::ALL.len() + Capacitor::ALL.len());
 
-/// Which capacitor.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Cap {
-    /// Input coupling.
-    Cin,
-    /// Output coupling.
-    Cout,
-    /// Emitter bypass.
-    Ce,
-}
-
-impl Cap {
-    /// The trade's name.
-    pub fn name(self) -> &'static str {
-        match self {
-            Self::Cin => "CIN",
-            Self::Cout => "COUT",
-            Self::Ce => "CE",
-        }
-    }
-}
+/// Which capacitor (the stage's own designators).
+pub use crate::stage::Capacitor as Cap;
 
 /// One warning.
 #[derive(Debug, Clone, Copy, PartialEq)]
