@@ -3,6 +3,7 @@
 use super::in_range;
 use super::print::sci_digits;
 
+/// Which code letters a value code uses below 1 (in the value's unit).
 #[derive(Clone, Copy)]
 enum CodeStyle {
     /// Resistors: `R` for 0.001 ..< 1000 Ω (R47, R047), prefixes elsewhere.

@@ -199,11 +199,6 @@ pub(super) fn decimal_to_f64(digits: &[u8], exp: i64) -> f64 {
     f64::from_bits(((biased as u64) << 52) | (q & ((1u64 << 52) - 1)))
 }
 
-/// A value with its unit for printing: `value` in the SI base unit, `unit` its symbol ("Ω", "V").
-///
-/// `Display` prints 3 significant digits (or the formatter's precision, 1 to 17: `{:.4}`) with an
-/// SI prefix from p to G and trailing zeros trimmed: 4700 Ω prints `4.7 kΩ`, 0.00123 A `1.23 mA`,
-
 #[cfg(test)]
 mod tests {
     use super::*;

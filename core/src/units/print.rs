@@ -4,6 +4,11 @@ use core::fmt::{self, Write as _};
 
 use super::{MAX_MAGNITUDE, MIN_MAGNITUDE};
 
+/// A value with its unit for printing: `value` in the SI base unit, `unit` its symbol ("Ω", "V").
+///
+/// `Display` prints 3 significant digits (or the formatter's precision, 1 to 17: `{:.4}`) with an
+/// SI prefix from p to G and trailing zeros trimmed: 4700 Ω prints `4.7 kΩ`, 0.00123 A `1.23 mA`,
+/// 0 V `0 V`. An empty unit prints without the space (`4.7k`). Magnitudes of 1e15 and above or
 /// below 1e-15 print in exponent form (`1.23e20 V`); non-finite values print `n/a`.
 /// The output parses back with [`parse_signed`](super::parse_signed) when the unit is one it ignores.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -342,8 +347,6 @@ impl fmt::Display for Eng {
         }
     }
 }
-
-/// Which code letters a value code uses below 1 (in the value's unit).
 
 #[cfg(test)]
 mod tests {
