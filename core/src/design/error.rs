@@ -77,7 +77,7 @@ pub enum DesignError {
         /// The capacitance that would be needed, F.
         needs: f64,
     },
-    /// No part set holds every requirement at every corner of the spread ([`Hold::WorstCase`]);
+    /// No part set holds every requirement at every corner of the spread ([`Hold::WorstCase`](super::Hold::WorstCase));
     /// the figures are the exact engine's at the corners of the closest part set.
     NotHeld {
         /// The requirement held worst.

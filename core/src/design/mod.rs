@@ -39,7 +39,7 @@
 //! a cheap bound of their worst case (the hFE and ambient ends solved, each resistor's effect at
 //! +tol added in the unfavourable direction: five more solves per competitive set) and its margins
 //! (gain window centred, swing and IC budget with room); the best [`MAX_CANDIDATES`] are confirmed
-//! with the exact engine at every corner ([`held`], up to 129 solves each, the capacitors chosen
+//! with the exact engine at every corner ([`held`](fn@held), up to 129 solves each, the capacitors chosen
 //! for their low tolerance) and ranked by the exact worst case. When the closest set's gain range
 //! fits the window but off centre, a second search aims the nominal gain to centre it. A
 //! requirement that no set holds is refused as [`DesignError::NotHeld`] with the closest set's
@@ -95,7 +95,7 @@ pub const GAIN_TOLERANCE: f64 = 0.05;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Hold {
     /// At every corner of the resistor tolerance, hFE min..max and the ambient range (checked
-    /// with the exact engine at every corner: see [`held`]).
+    /// with the exact engine at every corner: see [`held`](fn@held)).
     WorstCase,
     /// At the nominal point only (typical hFE, nominal parts, nominal ambient).
     Nominal,
@@ -184,7 +184,7 @@ pub struct Candidate {
     /// The collector current the first pass aimed at, A.
     pub level: f64,
     /// What the part set holds at every corner of the spread (exact engine), when the design
-    /// asked for [`Hold::WorstCase`]; see [`held`] for the nominal mode.
+    /// asked for [`Hold::WorstCase`]; see [`held`](fn@held) for the nominal mode.
     pub held: Option<Held>,
 }
 
