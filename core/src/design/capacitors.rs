@@ -25,6 +25,7 @@ fn probe_poles(stage: &Stage, op: &OperatingPoint, c: f64) -> [Option<f64>; 3] {
 
 /// Capacitors for a candidate: the set with the least total capacitance whose pole sum is at or
 /// below `F_LOW_MARGIN` × the required low corner. Returns (CIN, COUT, CE, pole sum).
+#[inline]
 pub(super) fn capacitors(
     req: &Requirement,
     stage: &Stage,

@@ -201,6 +201,7 @@ pub(super) fn evaluate_with(
 ///
 /// `low(stage, op)` gives the sample's low corner, Hz (a closure returning 0 when it is not
 /// judged, which the compiler removes).
+#[inline]
 pub(super) fn evaluate_in(
     s: &mut Stage,
     profile: &Profile,
