@@ -9,7 +9,8 @@ use std::path::PathBuf;
 use biasjig_core::design::distortion::{second_harmonic, Distortion, HD2_LIMIT};
 use biasjig_core::design::warnings::{warnings, Warning};
 use biasjig_core::design::{
-    design, held, Candidate, DesignError, Held, Hold, Requirement, RequirementError, MAX_CANDIDATES,
+    design, held, Candidate, DesignError, Held, Hold, Naming, Requirement, RequirementError,
+    Setting, MAX_CANDIDATES,
 };
 use biasjig_core::predict::{predict, Prediction};
 use biasjig_core::series::Series;
@@ -143,6 +144,23 @@ pub struct Cmd {
     id: Option<String>,
 }
 
+/// The flag of each setting a refusal advises changing; tolerances in percent as the flags take
+/// them.
+const FLAGS: Naming = Naming {
+    name: |s| match s {
+        Setting::IcMax => "--ic-max",
+        Setting::SwingPp => "--swing",
+        Setting::FLow => "--f-low",
+        Setting::GainTol => "--gain-tol",
+        Setting::Series => "--series",
+        Setting::Tol => "--tol",
+        Setting::Hold => "--hold",
+        Setting::PowerRating => "--power-rating",
+        _ => "",
+    },
+    percent: true,
+};
+
 /// The command-line flag and value of a requirement field.
 fn field_error(req: &Requirement, e: RequirementError) -> CliError {
     let (flag, value) = match e {
@@ -221,7 +239,7 @@ impl Cmd {
         let profile = self.profile.apply(default_profile())?;
         let cands = design(&req, &profile).map_err(|e| match e {
             DesignError::Invalid(f) => field_error(&req, f),
-            other => CliError::usage(other.to_string()),
+            other => CliError::usage(other.named(FLAGS).to_string()),
         })?;
         let shown: Vec<&Candidate> = cands
             .iter()
