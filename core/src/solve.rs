@@ -1050,13 +1050,19 @@ pub fn solve_from(
 /// microvolts; at worst some tenths of a millivolt where the stage's current is the difference
 /// of larger device currents), admittances within 1e-4 of their row, and an answer wherever
 /// [`solve_from`] gives one. Every other caller keeps [`solve_from`].
-#[cfg(feature = "signal-test")]
+///
+/// The budget build for parts with 128 KiB of flash (no signal test) has no room for a second
+/// instance of the solver (about 6.5 KB with `expf` and `logf`): there this is [`solve_from`]
+/// itself ([`Single`] is `f64`), so its diagnosis stays in `f64`.
 pub fn solve_from_single(
     stage: &Stage,
     profile: &Profile,
     cond: Conditions,
     start: Option<&StartSingle>,
 ) -> Result<(OperatingPoint, StartSingle), SolveError> {
+    if !cfg!(feature = "signal-test") {
+        return solve_in::<Single>(stage, profile, cond, start);
+    }
     // Three transistor faults leave the stage's collector current the small difference of much
     // larger currents, which `f32` cannot resolve; they are solved in `f64`. A collector-emitter
     // short holds VCE = VBE − VBC at the short's few nanovolts, the difference of two unknowns
@@ -1070,7 +1076,7 @@ pub fn solve_from_single(
     ) {
         return solve_double_for_single(stage, profile, cond, start);
     }
-    match solve_in::<f32>(stage, profile, cond, start) {
+    match solve_in::<Single>(stage, profile, cond, start) {
         Ok((op, next)) if within_supply(&op) => Ok((op, next)),
         // Where the junction currents are far beyond any part's (a junction straight across
         // the supply, with amperes to 10²³ A on the exponential's straight continuation), the
@@ -1081,23 +1087,9 @@ pub fn solve_from_single(
     }
 }
 
-/// [`solve_from`] itself in the budget build for parts with 128 KiB of flash (no signal test):
-/// it has no room for a second instance of the solver (about 6.5 KB with `expf` and `logf`), so
-/// its diagnosis stays in `f64` ([`StartSingle`] is then a double-precision start).
-#[cfg(not(feature = "signal-test"))]
-pub fn solve_from_single(
-    stage: &Stage,
-    profile: &Profile,
-    cond: Conditions,
-    start: Option<&StartSingle>,
-) -> Result<(OperatingPoint, StartSingle), SolveError> {
-    solve_in::<f64>(stage, profile, cond, start)
-}
-
 /// Every node voltage within the supply rails, give or take a thousandth of the supply: true of
 /// every operating point of the stage (the transistor, the resistors and the loads are passive),
 /// so a node outside says the `f32` arithmetic lost the answer.
-#[cfg(feature = "signal-test")]
 fn within_supply(op: &OperatingPoint) -> bool {
     let margin = 1e-3 * op.vcc;
     [op.vb, op.ve, op.vc]
@@ -1106,7 +1098,6 @@ fn within_supply(op: &OperatingPoint) -> bool {
 }
 
 /// [`solve_from`] for a caller of [`solve_from_single`]: the start widened, the next one rounded.
-#[cfg(feature = "signal-test")]
 fn solve_double_for_single(
     stage: &Stage,
     profile: &Profile,
@@ -1114,14 +1105,14 @@ fn solve_double_for_single(
     start: Option<&StartSingle>,
 ) -> Result<(OperatingPoint, StartSingle), SolveError> {
     let start = start.map(|s| Start {
-        x: s.x.map(f64::from),
+        x: s.x.map(Real::wide),
         temp_c: s.temp_c,
         is_25: s.is_25,
         is: s.is,
     });
     let (op, next) = solve_in::<f64>(stage, profile, cond, start.as_ref())?;
     let next = Start {
-        x: next.x.map(f32::of),
+        x: next.x.map(Single::of),
         temp_c: next.temp_c,
         is_25: next.is_25,
         is: next.is,
