@@ -8,158 +8,23 @@ use biasjig_core::check;
 use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::record::design_hash;
 use biasjig_core::console::{
-    default_profile, default_requirement, default_stage, Clock, Code, Console, Identity, Jig,
-    JigError, Num, MAX_DATA_LINES, MAX_OUT_LINE,
+    default_profile, default_requirement, default_stage, Code, Console, Num,
 };
 use biasjig_core::design;
 use biasjig_core::diagnose::diagnose;
 use biasjig_core::limits::{limits, Meter};
-use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::{self, McSettings, Method, Variation};
-use biasjig_core::stage::{DeviceFault, Fault, Polarity, Readings, Resistor, Stage};
-
-#[derive(Default, Clone)]
-struct FixedClock;
-
-impl Clock for FixedClock {
-    fn now_ms(&mut self) -> u64 {
-        0
-    }
-}
-
-/// A jig that reads the engine's operating point of the default stage with a fault.
-#[derive(Default)]
-struct EngineJig {
-    fault: Option<Fault>,
-}
-
-fn readings_of(stage: &Stage, fault: Option<Fault>) -> Readings {
-    let profile = default_profile();
-    let (s, dev) = match fault {
-        Some(Fault::Device(d)) => (*stage, Some(d)),
-        Some(f) => (stage.with_fault(f), None),
-        None => (*stage, None),
-    };
-    let op = solve(
-        &s,
-        &profile,
-        Conditions {
-            fault: dev,
-            ..Conditions::typical(&profile)
-        },
-    )
-    .expect("the engine solves the board");
-    Readings {
-        vcc: stage.vcc.value,
-        vb: op.vb,
-        ve: op.ve,
-        vc: op.vc,
-    }
-}
-
-impl Jig for EngineJig {
-    fn measure(&mut self, _samples: u16) -> Result<Readings, JigError> {
-        Ok(readings_of(&default_stage(), self.fault))
-    }
-    fn inject(&mut self, fault: Option<Fault>) -> Result<(), JigError> {
-        self.fault = fault;
-        Ok(())
-    }
-}
-
-#[derive(Default)]
-struct Out(Vec<u8>);
-
-impl embedded_io::ErrorType for Out {
-    type Error = core::convert::Infallible;
-}
-
-impl embedded_io::Write for Out {
-    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
-        self.0.extend_from_slice(buf);
-        Ok(buf.len())
-    }
-    fn flush(&mut self) -> Result<(), Self::Error> {
-        Ok(())
-    }
-}
+use biasjig_core::stage::{DeviceFault, Fault, Polarity, Readings, Resistor};
+use biasjig_testkit::session::{
+    cmd, console_with, default_readings as readings_of, err, line, num, ok, value, EngineJig,
+    FixedClock,
+};
 
 type Fake = Console<EngineJig, MemoryStore, FixedClock>;
 
+/// A console on the engine's board (no measuring inputs, no signal test).
 fn console() -> Fake {
-    Console::new(
-        Identity::new("console", "0.1.0"),
-        EngineJig::default(),
-        MemoryStore::default(),
-        FixedClock,
-    )
-}
-
-fn is_status(l: &str) -> bool {
-    l == "ok" || l.starts_with("ok ") || l.starts_with("err ")
-}
-
-fn cmd<J: Jig>(c: &mut Console<J, MemoryStore, FixedClock>, line: &str) -> (Vec<String>, String) {
-    let mut out = Out::default();
-    c.feed(format!("{line}\n").as_bytes(), &mut out).unwrap();
-    let text = String::from_utf8(out.0).unwrap();
-    let mut lines: Vec<String> = text
-        .split("\r\n")
-        .filter(|l| !l.is_empty())
-        .map(str::to_owned)
-        .collect();
-    let status = lines.pop().unwrap_or_default();
-    assert!(is_status(&status), "{line:?} -> {status:?}");
-    assert!(lines.iter().all(|l| !is_status(l)), "{line:?}: {lines:?}");
-    assert!(
-        lines.len() <= MAX_DATA_LINES,
-        "{line:?}: {} lines",
-        lines.len()
-    );
-    assert!(lines
-        .iter()
-        .chain([&status])
-        .all(|l| l.len() <= MAX_OUT_LINE));
-    (lines, status)
-}
-
-fn ok<J: Jig>(c: &mut Console<J, MemoryStore, FixedClock>, line: &str) -> Vec<String> {
-    let (data, status) = cmd(c, line);
-    assert!(status.starts_with("ok"), "{line:?} -> {status}");
-    data
-}
-
-fn err<J: Jig>(c: &mut Console<J, MemoryStore, FixedClock>, line: &str, code: &str) -> String {
-    let (data, status) = cmd(c, line);
-    assert!(data.is_empty(), "{line:?}: {data:?}");
-    assert!(
-        status.starts_with(&format!("err {code} ")),
-        "{line:?} -> {status}"
-    );
-    status
-}
-
-/// The value of `key` on the first line that has it.
-fn value(data: &[String], key: &str) -> String {
-    data.iter()
-        .flat_map(|l| l.split(' '))
-        .find_map(|kv| kv.strip_prefix(&format!("{key}=")))
-        .unwrap_or_else(|| panic!("{key} not in {data:?}"))
-        .to_owned()
-}
-
-/// The line that starts with `prefix`.
-fn line<'a>(data: &'a [String], prefix: &str) -> &'a str {
-    data.iter()
-        .find(|l| l.starts_with(prefix))
-        .unwrap_or_else(|| panic!("no {prefix:?} in {data:?}"))
-}
-
-fn num(data: &[String], prefix: &str, key: &str) -> f64 {
-    let l = line(data, prefix);
-    let v = value(&[l.to_owned()], key);
-    v.parse()
-        .unwrap_or_else(|_| panic!("{key}={v} in {l:?} is not a number"))
+    console_with("0.1.0", EngineJig::default(), FixedClock)
 }
 
 fn check_line(r: &Readings) -> String {
@@ -391,12 +256,7 @@ fn test_measures_then_checks() {
     let d = ok(&mut c, "diagnose");
     assert!(d[0].starts_with("verdict=fail"), "{d:?}");
     // A unit with no jig cannot test.
-    let mut n = Console::new(
-        Identity::new("console", "0"),
-        NoJig,
-        MemoryStore::default(),
-        FixedClock,
-    );
+    let mut n = console_with("0", NoJig, FixedClock);
     err(&mut n, "test", "NOT_SUPPORTED");
 }
 

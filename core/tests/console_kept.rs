@@ -3,16 +3,8 @@
 //! last, the lock guards them, and the store holds at most eight.
 
 use biasjig_core::console::jig::{MemoryStore, NoJig, DESIGN_SLOTS};
-use biasjig_core::console::{Clock, Console, Identity};
-
-#[derive(Clone, Copy, Default)]
-struct Still;
-
-impl Clock for Still {
-    fn now_ms(&mut self) -> u64 {
-        0
-    }
-}
+use biasjig_core::console::{Console, Identity};
+use biasjig_testkit::session::{lines_of, ok, split_reply, FixedClock as Still};
 
 type Unit = Console<NoJig, MemoryStore, Still>;
 
@@ -22,25 +14,13 @@ fn unit(store: MemoryStore) -> Unit {
     c
 }
 
+/// One command through [`Console::line`] (a fixed buffer, not a stream): data and status.
 fn cmd(c: &mut Unit, line: &str) -> (Vec<String>, String) {
     let mut buf = [0u8; 4096];
     let mut out: &mut [u8] = &mut buf;
     c.line(line, &mut out).expect("the reply fits the buffer");
     let left = out.len();
-    let text = String::from_utf8(buf[..buf.len() - left].to_vec()).expect("UTF-8");
-    let mut lines: Vec<String> = text
-        .split("\r\n")
-        .filter(|l| !l.is_empty())
-        .map(str::to_owned)
-        .collect();
-    let status = lines.pop().unwrap_or_default();
-    (lines, status)
-}
-
-fn ok(c: &mut Unit, line: &str) -> Vec<String> {
-    let (data, status) = cmd(c, line);
-    assert!(status.starts_with("ok"), "{line:?} -> {status} {data:?}");
-    data
+    split_reply(lines_of(&buf[..buf.len() - left]))
 }
 
 fn hash(c: &mut Unit) -> String {

@@ -1,23 +1,9 @@
 //! A scripted session through the console engine: every command, the help text and the errors.
 
-use std::cell::Cell;
-use std::rc::Rc;
-
 use biasjig_core::console::jig::{MemoryStore, NoJig};
-use biasjig_core::console::{
-    Calibration, Channel, Clock, Console, Identity, Jig, JigError, LINE_MAX, MAX_OUT_LINE,
-};
+use biasjig_core::console::{Calibration, Channel, Console, Identity, Jig, JigError, LINE_MAX};
 use biasjig_core::stage::{Fault, Readings};
-
-/// A clock the test moves by hand.
-#[derive(Clone, Default)]
-struct TestClock(Rc<Cell<u64>>);
-
-impl Clock for TestClock {
-    fn now_ms(&mut self) -> u64 {
-        self.0.get()
-    }
-}
+use biasjig_testkit::session::{cmd, console_with, err, ok, send, value, HandClock};
 
 /// A jig that reads fixed node voltages through a raw gain error, and records injections.
 #[derive(Default)]
@@ -53,98 +39,16 @@ impl Jig for FakeJig {
     }
 }
 
-/// Output collected in memory.
-#[derive(Default)]
-struct Out(Vec<u8>);
+type Fake = Console<FakeJig, MemoryStore, HandClock>;
 
-impl embedded_io::ErrorType for Out {
-    type Error = core::convert::Infallible;
-}
-
-impl embedded_io::Write for Out {
-    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
-        self.0.extend_from_slice(buf);
-        Ok(buf.len())
-    }
-    fn flush(&mut self) -> Result<(), Self::Error> {
-        Ok(())
-    }
-}
-
-type Fake = Console<FakeJig, MemoryStore, TestClock>;
-
-fn console() -> (Fake, TestClock) {
-    let clock = TestClock::default();
+fn console() -> (Fake, HandClock) {
+    let clock = HandClock::default();
     let jig = FakeJig {
         nodes: [12.0, 2.0, 1.35, 5.5],
         raw_gain: 1.0,
         ..FakeJig::default()
     };
-    (
-        Console::new(
-            Identity::new("console", "0.1.0"),
-            jig,
-            MemoryStore::default(),
-            clock.clone(),
-        ),
-        clock,
-    )
-}
-
-/// Send bytes, return the output lines (CR LF split).
-fn send<J: Jig, S: biasjig_core::console::Store, C: Clock>(
-    c: &mut Console<J, S, C>,
-    input: &[u8],
-) -> Vec<String> {
-    let mut out = Out::default();
-    c.feed(input, &mut out).expect("memory never fails");
-    let text = String::from_utf8(out.0).expect("output is UTF-8");
-    assert!(text.is_empty() || text.ends_with("\r\n"), "{text:?}");
-    text.split("\r\n")
-        .filter(|l| !l.is_empty())
-        .map(str::to_owned)
-        .collect()
-}
-
-fn is_status(l: &str) -> bool {
-    l == "ok" || l.starts_with("ok ") || l.starts_with("err ")
-}
-
-/// One command: the data lines and the status line; exactly one status line, last.
-fn cmd(c: &mut Fake, line: &str) -> (Vec<String>, String) {
-    let mut lines = send(c, format!("{line}\n").as_bytes());
-    let status = lines.pop().unwrap_or_default();
-    assert!(is_status(&status), "{line:?} -> {status:?}");
-    assert!(lines.iter().all(|l| !is_status(l)), "{line:?}: {lines:?}");
-    assert!(lines
-        .iter()
-        .chain([&status])
-        .all(|l| l.len() <= MAX_OUT_LINE));
-    (lines, status)
-}
-
-fn ok(c: &mut Fake, line: &str) -> Vec<String> {
-    let (data, status) = cmd(c, line);
-    assert!(status.starts_with("ok"), "{line:?} -> {status}");
-    data
-}
-
-fn err(c: &mut Fake, line: &str, code: &str) -> String {
-    let (data, status) = cmd(c, line);
-    assert!(data.is_empty(), "{line:?}: {data:?}");
-    assert!(
-        status.starts_with(&format!("err {code} ")),
-        "{line:?} -> {status}"
-    );
-    status
-}
-
-fn value(data: &[String], key: &str) -> String {
-    data.iter()
-        .flat_map(|l| l.split(' '))
-        .find_map(|kv| kv.strip_prefix(&format!("{key}=")))
-        .unwrap_or_else(|| panic!("{key} not in {data:?}"))
-        .to_owned()
+    (console_with("0.1.0", jig, clock.clone()), clock)
 }
 
 #[test]
@@ -411,12 +315,7 @@ fn meter_measure_readings_calibrate_inject() {
 
 #[test]
 fn no_jig_says_not_supported() {
-    let mut c = Console::new(
-        Identity::new("console", "0"),
-        NoJig,
-        MemoryStore::default(),
-        TestClock::default(),
-    );
+    let mut c = console_with("0", NoJig, HandClock::default());
     let lines = send(&mut c, b"measure\ninject none\ncalibrate vb low 1\n");
     assert_eq!(lines.len(), 3);
     assert!(
@@ -557,28 +456,28 @@ fn line_discipline() {
     }
     assert_eq!(all, ["biasjig,console,0,0.1.0", "ok"]);
     // An unfinished last line is answered at the end of input.
-    let mut out = Out::default();
+    let mut out = Vec::new();
     c.feed(b"*IDN?", &mut out).unwrap();
-    assert!(out.0.is_empty());
+    assert!(out.is_empty());
     c.finish(&mut out).unwrap();
-    assert!(String::from_utf8(out.0).unwrap().ends_with("ok\r\n"));
+    assert!(String::from_utf8(out).unwrap().ends_with("ok\r\n"));
 }
 
 #[test]
 fn echo_and_editing() {
     let (mut c, _) = console();
-    let mut out = Out::default();
+    let mut out = Vec::new();
     c.feed(b"echo on\r\n", &mut out).unwrap();
-    assert_eq!(String::from_utf8(out.0).unwrap(), "ok\r\n");
-    let mut out = Out::default();
+    assert_eq!(String::from_utf8(out).unwrap(), "ok\r\n");
+    let mut out = Vec::new();
     c.feed(b"*IDX\x08N?\r\n", &mut out).unwrap();
     assert_eq!(
-        String::from_utf8(out.0).unwrap(),
+        String::from_utf8(out).unwrap(),
         "*IDX\x08 \x08N?\r\nbiasjig,console,0,0.1.0\r\nok\r\n"
     );
-    let mut out = Out::default();
+    let mut out = Vec::new();
     c.feed(b"echo off\n", &mut out).unwrap();
-    assert_eq!(String::from_utf8(out.0).unwrap(), "echo off\r\nok\r\n");
+    assert_eq!(String::from_utf8(out).unwrap(), "echo off\r\nok\r\n");
     assert_eq!(send(&mut c, b"x\n"), ["err UNKNOWN command: x: see help"]);
 }
 

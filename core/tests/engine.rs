@@ -2,39 +2,21 @@
 //! examples of voltage-divider bias, the closed-form Lambert-W solution of the bias loop, and
 //! properties every correct solution has.
 
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::estimate::estimate;
 use biasjig_core::predict::predict;
 use biasjig_core::solve::{solve, solve_from, Conditions, OperatingPoint, Region};
-use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Resistor, Stage};
+use biasjig_core::stage::{DeviceFault, Fault, Polarity, Resistor, Stage};
 use biasjig_core::thermal_voltage;
+use biasjig_testkit::fixtures as kit;
 use proptest::prelude::*;
 
 fn npn(vcc: f64, r1: f64, r2: f64, rc: f64, re1: f64, re2: f64) -> Stage {
-    Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(vcc, 0.0),
-        r1: Part::new(r1, 0.05),
-        r2: Part::new(r2, 0.05),
-        rc: Part::new(rc, 0.05),
-        re1: Part::new(re1, 0.05),
-        re2: Part::new(re2, 0.05),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    }
+    kit::npn(vcc, [r1, r2, rc, re1, re2])
 }
 
 fn profile(beta: f64, vbe_1ma: f64) -> Profile {
-    Profile {
-        beta_min: beta,
-        beta_typ: beta,
-        beta_max: beta,
-        is_25: is_from_vbe(vbe_1ma),
-        ..Profile::default()
-    }
+    kit::fixed_profile(beta, vbe_1ma)
 }
 
 fn close(a: f64, b: f64, rel: f64, abs: f64) -> bool {

@@ -4,7 +4,7 @@
 use std::collections::BTreeMap;
 
 use biasjig_core::diagnose::{Diagnosis, ResistorMode, Suspect};
-use biasjig_core::stage::{DeviceFault, Fault, Resistor, Stage};
+use biasjig_core::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
 
 use crate::rng::Rng;
 
@@ -34,6 +34,28 @@ pub fn all_faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, Fault)> {
         v.push((Suspect::Device(d), Fault::Device(d)));
     }
     v
+}
+
+/// A board of `design`: the supply within ±`supply` (fraction) of nominal, every resistor
+/// anywhere in its tolerance (drawn in that order).
+pub fn in_tolerance(design: &Stage, supply: f64, rng: &mut Rng) -> Stage {
+    let mut board = *design;
+    board.vcc.value = design.vcc.value * rng.range(1.0 - supply, 1.0 + supply);
+    for r in Resistor::ALL {
+        let p = board.part_mut(r);
+        p.value *= 1.0 + p.tol * rng.range(-1.0, 1.0);
+    }
+    board
+}
+
+/// `clean` with up to ±`noise` (V) on each reading, drawn VCC, VB, VE, VC.
+pub fn with_noise(clean: &Readings, noise: f64, rng: &mut Rng) -> Readings {
+    Readings {
+        vcc: clean.vcc + rng.range(-noise, noise),
+        vb: clean.vb + rng.range(-noise, noise),
+        ve: clean.ve + rng.range(-noise, noise),
+        vc: clean.vc + rng.range(-noise, noise),
+    }
 }
 
 /// Whether the fault listed at `rank` is `truth` or has it among its equivalents.
