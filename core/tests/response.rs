@@ -4,44 +4,25 @@
 //! with emitter resistance and its low-frequency response by short-circuit time constants;
 //! from memory), and the midband limit equal to the midband figures.
 
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::lowfreq::low_corner;
 use biasjig_core::response::{gain_at, magnitude_at, CapState, Caps, Gain};
 use biasjig_core::signal::midband;
 use biasjig_core::solve::{solve, Conditions, OperatingPoint};
-use biasjig_core::stage::{Part, Polarity, Stage};
+use biasjig_core::stage::Stage;
+use biasjig_testkit::fixtures::{demo_stage, fixed_profile, with_signal};
 use std::f64::consts::PI;
 
-// Invented stage values (ours).
+// Invented stage values (ours): the demo board with its capacitors.
 fn stage() -> Stage {
-    Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.0),
-        r1: Part::new(47e3, 0.05),
-        r2: Part::new(10e3, 0.05),
-        rc: Part::new(4.7e3, 0.05),
-        re1: Part::new(220.0, 0.05),
-        re2: Part::new(1e3, 0.05),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: Some(Part::new(1e-6, 0.2)),
-        cout: Some(Part::new(1e-6, 0.2)),
-        ce: Some(Part::new(47e-6, 0.2)),
-    }
+    with_signal(demo_stage(), 15e3, 600.0, [1e-6, 1e-6, 47e-6])
 }
 
+/// hFE 150 with no temperature coefficient, VBE 0.65 V at 1 mA.
 fn profile() -> Profile {
     Profile {
-        beta_min: 150.0,
-        beta_typ: 150.0,
-        beta_max: 150.0,
-        beta_rev: 1.0,
         beta_tc: 0.0,
-        is_25: is_from_vbe(0.65),
-        early: None,
-        vce_sat: 0.2,
-        power_25: 0.3,
-        tj_max: 150.0,
+        ..fixed_profile(150.0, 0.65)
     }
 }
 

@@ -1,7 +1,7 @@
 //! Spread and limits: worst case against Monte Carlo, convergence, reproducibility, the law of
 //! propagation of uncertainty, sensitivity shares, and guard-banded windows.
 
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::limits::{derived_ic, limits, LimitsError, Meter};
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::{
@@ -11,40 +11,9 @@ use biasjig_core::spread::{
 use biasjig_core::stage::{Part, Polarity, Resistor, Stage};
 use proptest::prelude::*;
 
-/// The demo board's stage (the invented vibration-sensor preamp of the brief): 12 V, 15 kΩ load,
-/// 600 Ω source, E24 5 % parts.
-fn demo_stage() -> Stage {
-    let t = 0.05;
-    Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.0),
-        r1: Part::new(47e3, t),
-        r2: Part::new(10e3, t),
-        rc: Part::new(4.7e3, t),
-        re1: Part::new(220.0, t),
-        re2: Part::new(1e3, t),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    }
-}
-
-/// The demo profile: hFE 100 to 300, VBE 0.65 V at 1 mA (invented).
-fn demo_profile() -> Profile {
-    Profile {
-        beta_min: 100.0,
-        beta_typ: 180.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    }
-}
-
-fn demo_var() -> Variation {
-    Variation::between(-10.0, 55.0)
-}
+use biasjig_testkit::fixtures::{
+    demo_profile, demo_stage, demo_variation as demo_var, npn, with_resistor_tol, with_signal,
+};
 
 const DC: [Node; 6] = [Node::Vb, Node::Ve, Node::Vc, Node::Vbe, Node::Vce, Node::Ic];
 
@@ -133,10 +102,8 @@ fn worst_case_matches_hand_corners_of_the_divider() {
         &hi,
         &p,
         Conditions {
-            temp_c: 25.0,
             beta_25: 300.0,
-            fault: None,
-            loads: Default::default(),
+            ..Conditions::typical(&p)
         },
     )
     .unwrap();
@@ -164,17 +131,7 @@ fn monte_carlo_mean_converges_to_nominal_as_tolerances_shrink() {
         };
         let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
         let mc = monte_carlo(&s, &p, &v, &wc, &settings(1000, 3), |_, _| {}).unwrap();
-        let nom = solve(
-            &s,
-            &p,
-            Conditions {
-                temp_c: 25.0,
-                beta_25: p.beta_typ,
-                fault: None,
-                loads: Default::default(),
-            },
-        )
-        .unwrap();
+        let nom = solve(&s, &p, Conditions::typical(&p)).unwrap();
         let worst_rel = DC
             .iter()
             .map(|n| {
@@ -270,20 +227,9 @@ fn normal_deviates_are_reproducible_and_inside_the_tolerance() {
 /// A stage whose VB is close to linear in R1 and R2: hFE so high that the base current is
 /// negligible, other parts exact.
 fn divider_stage(tol: f64) -> (Stage, Profile) {
-    let s = Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(10.0, 0.0),
-        r1: Part::new(33e3, tol),
-        r2: Part::new(12e3, tol),
-        rc: Part::new(3.3e3, 0.0),
-        re1: Part::new(0.0, 0.0),
-        re2: Part::new(1.5e3, 0.0),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    };
+    let mut s = with_resistor_tol(npn(10.0, [33e3, 12e3, 3.3e3, 0.0, 1.5e3]), 0.0);
+    s.r1.tol = tol;
+    s.r2.tol = tol;
     let p = Profile {
         beta_min: 1e6,
         beta_typ: 1e6,
@@ -655,23 +601,14 @@ proptest! {
 /// every sample has the same operating point and the low corner moves with CIN, COUT, CE alone.
 /// Invented values.
 fn cap_only_stage() -> (Stage, Profile, Variation) {
-    let s = Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.0),
-        r1: Part::new(47e3, 0.0),
-        r2: Part::new(10e3, 0.0),
-        rc: Part::new(4.7e3, 0.0),
-        re1: Part::new(220.0, 0.0),
-        re2: Part::new(1e3, 0.0),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: Some(Part::new(2.2e-6, 0.2)),
-        cout: Some(Part::new(1e-6, 0.2)),
-        ce: Some(Part::new(22e-6, 0.2)),
-    };
+    let s = with_signal(
+        with_resistor_tol(demo_stage(), 0.0),
+        15e3,
+        600.0,
+        [2.2e-6, 1e-6, 22e-6],
+    );
     let p = Profile {
         beta_min: 180.0,
-        beta_typ: 180.0,
         beta_max: 180.0,
         ..demo_profile()
     };
