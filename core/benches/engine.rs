@@ -6,35 +6,22 @@
 use std::hint::black_box;
 use std::time::Instant;
 
-use biasjig_core::device::Profile;
 use biasjig_core::solve::{solve, Conditions};
-use biasjig_core::stage::{Part, Polarity, Stage};
+use biasjig_core::stage::Stage;
+use biasjig_testkit::fixtures::{npn, profile};
 
 /// The demo-like stage the benchmark solves, with hFE stepped so every solve does real work.
 fn stage() -> Stage {
     Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.0),
-        r1: Part::new(56e3, 0.05),
-        r2: Part::new(12e3, 0.05),
-        rc: Part::new(3.3e3, 0.05),
-        re1: Part::new(180.0, 0.05),
-        re2: Part::new(820.0, 0.05),
         rl: Some(15e3),
         rs: 600.0,
-        cin: None,
-        cout: None,
-        ce: None,
+        ..npn(12.0, [56e3, 12e3, 3.3e3, 180.0, 820.0])
     }
 }
 
 fn run(n: u64) -> f64 {
     let s = stage();
-    let p = Profile {
-        beta_min: 100.0,
-        beta_max: 300.0,
-        ..Profile::default()
-    };
+    let p = profile(100.0, 200.0, 300.0, 0.65);
     let mut acc = 0.0;
     for i in 0..n {
         let beta = 100.0 + (i % 200) as f64;

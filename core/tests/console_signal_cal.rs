@@ -4,9 +4,7 @@
 
 use biasjig_core::console::jig::{MemoryStore, Slot, Store, RECORD_LEN};
 use biasjig_core::console::record::{decode_calibration, encode_calibration_v4};
-use biasjig_core::console::{
-    Calibration, Channel, ChannelCal, Console, Identity, Jig, JigError,
-};
+use biasjig_core::console::{Calibration, Channel, ChannelCal, Console, Identity, Jig, JigError};
 use biasjig_core::stage::Readings;
 use biasjig_testkit::fnv::fnv1a64 as fnv1a;
 use biasjig_testkit::session::{console_with, send, FixedClock as NoClock};

@@ -5,34 +5,51 @@ use biasjig_core::units::{
 };
 use proptest::prelude::*;
 
+/// Each text parses to exactly its value.
+fn parse_to(parse: fn(&str) -> Result<f64, ValueError>, cases: &[(&str, f64)]) {
+    for &(text, want) in cases {
+        assert_eq!(parse(text), Ok(want), "{text:?}");
+    }
+}
+
 fn close(a: f64, b: f64, rel: f64) -> bool {
     (a - b).abs() <= rel * b.abs().max(f64::MIN_POSITIVE)
 }
 
 #[test]
 fn plain_and_exponent_numbers() {
-    assert_eq!(parse_value("4700"), Ok(4700.0));
-    assert_eq!(parse_value("0.5"), Ok(0.5));
-    assert_eq!(parse_value(".5"), Ok(0.5));
-    assert_eq!(parse_value("5."), Ok(5.0));
-    assert_eq!(parse_value("+12"), Ok(12.0));
-    assert_eq!(parse_value("0"), Ok(0.0));
-    assert_eq!(parse_value("4.2e-05"), Ok(4.2e-5));
-    assert_eq!(parse_value("1E3"), Ok(1000.0));
-    assert_eq!(parse_value("1e+3"), Ok(1000.0));
-    assert_eq!(parse_value("  4700\t"), Ok(4700.0));
-    assert_eq!(parse_value("1e15"), Ok(1e15));
-    assert_eq!(parse_value("1e-15"), Ok(1e-15));
-    assert_eq!(parse_value("0.000000000047k"), Ok(4.7e-8));
+    parse_to(
+        parse_value,
+        &[
+            ("4700", 4700.0),
+            ("0.5", 0.5),
+            (".5", 0.5),
+            ("5.", 5.0),
+            ("+12", 12.0),
+            ("0", 0.0),
+            ("4.2e-05", 4.2e-5),
+            ("1E3", 1000.0),
+            ("1e+3", 1000.0),
+            ("  4700\t", 4700.0),
+            ("1e15", 1e15),
+            ("1e-15", 1e-15),
+            ("0.000000000047k", 4.7e-8),
+        ],
+    );
 }
 
 #[test]
 fn signed_values() {
     // Contract: measured readings may be negative (`--ve -0.0012`).
-    assert_eq!(parse_signed("-0.0012"), Ok(-0.0012));
-    assert_eq!(parse_signed("-1.2m"), Ok(-1.2e-3));
-    assert_eq!(parse_signed("-4k7"), Ok(-4700.0));
-    assert_eq!(parse_signed("-0"), Ok(0.0));
+    parse_to(
+        parse_signed,
+        &[
+            ("-0.0012", -0.0012),
+            ("-1.2m", -1.2e-3),
+            ("-4k7", -4700.0),
+            ("-0", 0.0),
+        ],
+    );
     assert_eq!(parse_value("-0"), Ok(0.0));
     assert_eq!(parse_value("-0.0012"), Err(ValueError::Negative));
     assert_eq!(parse_value("-1.2m"), Err(ValueError::Negative));
@@ -41,59 +58,74 @@ fn signed_values() {
 #[test]
 fn si_prefixes_and_units() {
     // SI prefixes (SI Brochure, 9th edition, from memory): p n µ m k M G.
-    assert_eq!(parse_value("100p"), Ok(1e-10));
-    assert_eq!(parse_value("100n"), Ok(1e-7));
-    assert_eq!(parse_value("10u"), Ok(1e-5));
-    assert_eq!(parse_value("10\u{00B5}"), Ok(1e-5));
-    assert_eq!(parse_value("10\u{03BC}"), Ok(1e-5));
-    assert_eq!(parse_value("2m"), Ok(2e-3));
-    assert_eq!(parse_value("4.7k"), Ok(4700.0));
-    assert_eq!(parse_value("4.7K"), Ok(4700.0));
-    assert_eq!(parse_value("2.2M"), Ok(2.2e6));
-    assert_eq!(parse_value("1G"), Ok(1e9));
-    assert_eq!(parse_value("4.7kΩ"), Ok(4700.0));
-    assert_eq!(parse_value("4.7 kohm"), Ok(4700.0));
-    assert_eq!(parse_value("470 ohms"), Ok(470.0));
-    assert_eq!(parse_value("100nF"), Ok(1e-7));
-    assert_eq!(parse_value("2mA"), Ok(2e-3));
-    assert_eq!(parse_value("10 µF"), Ok(1e-5));
-    assert_eq!(parse_value("12 V"), Ok(12.0));
-    assert_eq!(parse_value("12V"), Ok(12.0));
-    assert_eq!(parse_value("5 Hz"), Ok(5.0));
-    assert_eq!(parse_value("300mW"), Ok(0.3));
-    assert_eq!(parse_value("1e3k"), Ok(1e6));
-    assert_eq!(parse_value("15 k"), Ok(15e3));
+    parse_to(
+        parse_value,
+        &[
+            ("100p", 1e-10),
+            ("100n", 1e-7),
+            ("10u", 1e-5),
+            ("10\u{00B5}", 1e-5),
+            ("10\u{03BC}", 1e-5),
+            ("2m", 2e-3),
+            ("4.7k", 4700.0),
+            ("4.7K", 4700.0),
+            ("2.2M", 2.2e6),
+            ("1G", 1e9),
+            ("4.7kΩ", 4700.0),
+            ("4.7 kohm", 4700.0),
+            ("470 ohms", 470.0),
+            ("100nF", 1e-7),
+            ("2mA", 2e-3),
+            ("10 µF", 1e-5),
+            ("12 V", 12.0),
+            ("12V", 12.0),
+            ("5 Hz", 5.0),
+            ("300mW", 0.3),
+            ("1e3k", 1e6),
+            ("15 k", 15e3),
+        ],
+    );
 }
 
 #[test]
 fn iec_60062_codes() {
     // IEC 60062:2016 RKM value code (letter as decimal point), from memory.
-    assert_eq!(parse_value("4k7"), Ok(4700.0));
-    assert_eq!(parse_value("4K7"), Ok(4700.0));
-    assert_eq!(parse_value("2M2"), Ok(2.2e6));
-    assert_eq!(parse_value("470R"), Ok(470.0));
-    assert_eq!(parse_value("R47"), Ok(0.47));
-    assert_eq!(parse_value("4n7"), Ok(4.7e-9));
-    assert_eq!(parse_value("2u2"), Ok(2.2e-6));
-    assert_eq!(parse_value("2µ2"), Ok(2.2e-6));
-    assert_eq!(parse_value("1p5"), Ok(1.5e-12));
-    assert_eq!(parse_value("0R1"), Ok(0.1));
-    assert_eq!(parse_value("4R7"), Ok(4.7));
-    assert_eq!(parse_value("1G0"), Ok(1e9));
-    assert_eq!(parse_value("1R0"), Ok(1.0));
-    assert_eq!(parse_value("4k75"), Ok(4750.0));
-    assert_eq!(parse_value("n47"), Ok(4.7e-10));
-    assert_eq!(parse_value("4n7F"), Ok(4.7e-9));
-    assert_eq!(parse_value("4k7Ω"), Ok(4700.0));
+    parse_to(
+        parse_value,
+        &[
+            ("4k7", 4700.0),
+            ("4K7", 4700.0),
+            ("2M2", 2.2e6),
+            ("470R", 470.0),
+            ("R47", 0.47),
+            ("4n7", 4.7e-9),
+            ("2u2", 2.2e-6),
+            ("2µ2", 2.2e-6),
+            ("1p5", 1.5e-12),
+            ("0R1", 0.1),
+            ("4R7", 4.7),
+            ("1G0", 1e9),
+            ("1R0", 1.0),
+            ("4k75", 4750.0),
+            ("n47", 4.7e-10),
+            ("4n7F", 4.7e-9),
+            ("4k7Ω", 4700.0),
+        ],
+    );
 }
 
 #[test]
 fn percentages() {
-    assert_eq!(parse_percent("5"), Ok(5.0));
-    assert_eq!(parse_percent("5%"), Ok(5.0));
-    assert_eq!(parse_percent("0.5 %"), Ok(0.5));
-    assert_eq!(parse_percent(" 1e-1% "), Ok(0.1));
-    assert_eq!(parse_percent("0"), Ok(0.0));
+    parse_to(
+        parse_percent,
+        &[
+            ("5", 5.0),
+            ("5%", 5.0),
+            ("0.5 %", 0.5),
+            (" 1e-1% ", 0.1),
+            ("0", 0.0),
+        ],
+    );
     assert_eq!(parse_percent(""), Err(ValueError::Empty));
     assert_eq!(parse_percent("%"), Err(ValueError::Malformed));
     assert_eq!(parse_percent("5  %"), Err(ValueError::Malformed));
@@ -175,89 +207,48 @@ fn eng(value: f64, unit: &'static str) -> String {
 #[test]
 fn formatting() {
     // SI prefixes (SI Brochure, from memory); 3 significant digits by default.
-    assert_eq!(eng(4700.0, "Ω"), "4.7 kΩ");
-    assert_eq!(eng(0.00123, "A"), "1.23 mA");
-    assert_eq!(eng(12.0, "V"), "12 V");
-    assert_eq!(eng(1.0e-7, "F"), "100 nF");
-    assert_eq!(eng(0.0, "V"), "0 V");
-    assert_eq!(eng(-0.0, "V"), "0 V");
-    assert_eq!(eng(-0.0012, "V"), "-1.2 mV");
-    assert_eq!(eng(2.2e6, "Ω"), "2.2 MΩ");
-    assert_eq!(eng(1.0e-5, "F"), "10 µF");
-    assert_eq!(eng(4.7e-12, "F"), "4.7 pF");
-    assert_eq!(eng(1.5e9, "Hz"), "1.5 GHz");
-    assert_eq!(eng(999.6, "V"), "1 kV");
-    assert_eq!(eng(999.4, "V"), "999 V");
-    assert_eq!(eng(123_456.0, "Ω"), "123 kΩ");
-    assert_eq!(eng(0.5, "W"), "500 mW");
-    assert_eq!(eng(1e12, "Ω"), "1000 GΩ");
-    assert_eq!(eng(1e-13, "F"), "0.1 pF");
-    assert_eq!(eng(1.23e20, "V"), "1.23e20 V");
-    assert_eq!(eng(1e-20, "F"), "1e-20 F");
-    assert_eq!(eng(f64::NAN, "V"), "n/a");
-    assert_eq!(eng(f64::INFINITY, "V"), "n/a");
-    assert_eq!(eng(4700.0, ""), "4.7k");
-    assert_eq!(eng(12.0, ""), "12");
-    assert_eq!(
-        format!(
-            "{:.4}",
-            Eng {
-                value: 4750.0,
-                unit: "Ω"
-            }
-        ),
-        "4.75 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:.4}",
-            Eng {
-                value: 4751.26,
-                unit: "Ω"
-            }
-        ),
-        "4.751 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:.1}",
-            Eng {
-                value: 4751.26,
-                unit: "Ω"
-            }
-        ),
-        "5 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:.0}",
-            Eng {
-                value: 4751.26,
-                unit: "Ω"
-            }
-        ),
-        "5 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:>8}",
-            Eng {
-                value: 12.0,
-                unit: "V"
-            }
-        ),
-        "    12 V"
-    );
-    assert_eq!(
-        format!(
-            "{:<6}|",
-            Eng {
-                value: 12.0,
-                unit: "V"
-            }
-        ),
-        "12 V  |"
-    );
+    for (value, unit, want) in [
+        (4700.0, "Ω", "4.7 kΩ"),
+        (0.00123, "A", "1.23 mA"),
+        (12.0, "V", "12 V"),
+        (1.0e-7, "F", "100 nF"),
+        (0.0, "V", "0 V"),
+        (-0.0, "V", "0 V"),
+        (-0.0012, "V", "-1.2 mV"),
+        (2.2e6, "Ω", "2.2 MΩ"),
+        (1.0e-5, "F", "10 µF"),
+        (4.7e-12, "F", "4.7 pF"),
+        (1.5e9, "Hz", "1.5 GHz"),
+        (999.6, "V", "1 kV"),
+        (999.4, "V", "999 V"),
+        (123_456.0, "Ω", "123 kΩ"),
+        (0.5, "W", "500 mW"),
+        (1e12, "Ω", "1000 GΩ"),
+        (1e-13, "F", "0.1 pF"),
+        (1.23e20, "V", "1.23e20 V"),
+        (1e-20, "F", "1e-20 F"),
+        (f64::NAN, "V", "n/a"),
+        (f64::INFINITY, "V", "n/a"),
+        (4700.0, "", "4.7k"),
+        (12.0, "", "12"),
+    ] {
+        assert_eq!(eng(value, unit), want, "{value} {unit}");
+    }
+    for (digits, value, want) in [
+        (4, 4750.0, "4.75 kΩ"),
+        (4, 4751.26, "4.751 kΩ"),
+        (1, 4751.26, "5 kΩ"),
+        (0, 4751.26, "5 kΩ"),
+    ] {
+        let text = format!("{:.*}", digits, Eng { value, unit: "Ω" });
+        assert_eq!(text, want, "{value} to {digits} digits");
+    }
+    let twelve = Eng {
+        value: 12.0,
+        unit: "V",
+    };
+    assert_eq!(format!("{twelve:>8}"), "    12 V");
+    assert_eq!(format!("{twelve:<6}|"), "12 V  |");
     let long_unit = Eng {
         value: 1.0,
         unit:
