@@ -8,6 +8,7 @@ use std::time::Instant;
 
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::stage::Stage;
+use biasjig_testkit::bench::runs;
 use biasjig_testkit::fixtures::{npn, profile};
 
 /// The demo-like stage the benchmark solves, with hFE stepped so every solve does real work.
@@ -37,16 +38,9 @@ fn run(n: u64) -> f64 {
 }
 
 fn main() {
-    // `--counts`: the two counts and the unit that scripts/instructions.sh measures with.
-    if std::env::args().any(|a| a == "--counts") {
-        println!("1000 11000 solve");
+    let Some(n) = runs("1000 11000 solve", 100_000) else {
         return;
-    }
-    // Under `cargo bench` the harness passes `--bench`; a bare number sets the solve count.
-    let n: u64 = std::env::args()
-        .skip(1)
-        .find_map(|a| a.parse().ok())
-        .unwrap_or(100_000);
+    };
     let t = Instant::now();
     black_box(run(1));
     let one = t.elapsed();

@@ -16,8 +16,8 @@ use biasjig_core::limits::{limits, Meter};
 use biasjig_core::spread::{self, McSettings, Method, Variation};
 use biasjig_core::stage::{DeviceFault, Fault, Polarity, Readings, Resistor};
 use biasjig_testkit::session::{
-    cmd, console_with, default_readings as readings_of, err, line, num, ok, value, EngineJig,
-    FixedClock,
+    assert_values, cmd, console_with, default_readings as readings_of, err, errs, line, num, ok,
+    oks, value, EngineJig, FixedClock,
 };
 
 type Fake = Console<EngineJig, MemoryStore, FixedClock>;
@@ -192,9 +192,7 @@ fn a_pnp_board_is_judged_too() {
     let mut c = console();
     ok(&mut c, "mode machine");
     // The default stage mirrored: R1 now runs from the supply to the base.
-    ok(&mut c, "set polarity pnp");
-    ok(&mut c, "set r1 10k");
-    ok(&mut c, "set r2 47k");
+    oks(&mut c, &["set polarity pnp", "set r1 10k", "set r2 47k"]);
     let mut stage = default_stage();
     stage.polarity = Polarity::Pnp;
     stage.r1.value = 10e3;
@@ -278,15 +276,21 @@ fn a_change_of_the_stage_drops_the_last_verdict() {
 #[test]
 fn ambient_range_feeds_the_limits() {
     let mut c = console();
-    ok(&mut c, "mode machine");
-    ok(&mut c, "set temp-min -10");
-    ok(&mut c, "set temp-max 55");
+    oks(
+        &mut c,
+        &["mode machine", "set temp-min -10", "set temp-max 55"],
+    );
     let s = ok(&mut c, "stage");
     assert_eq!(value(&s, "temp_min"), "-10");
     assert_eq!(value(&s, "temp_max"), "55");
-    err(&mut c, "set temp-min 30", "RANGE");
-    err(&mut c, "set temp-max 20", "RANGE");
-    err(&mut c, "set temp-max 200", "RANGE");
+    errs(
+        &mut c,
+        &[
+            ("set temp-min 30", "RANGE"),
+            ("set temp-max 20", "RANGE"),
+            ("set temp-max 200", "RANGE"),
+        ],
+    );
     let d = ok(&mut c, "limits");
     let l = limits(
         &default_stage(),
@@ -311,34 +315,54 @@ fn requirement_show_set_and_errors() {
     ok(&mut c, "mode machine");
     let d = ok(&mut c, "requirement");
     assert_eq!(d.len(), 3);
-    assert_eq!(value(&d, "vcc"), "12");
-    assert_eq!(value(&d, "gain"), "15");
-    assert_eq!(value(&d, "rl"), "15000");
-    assert_eq!(value(&d, "f_low"), "5");
-    assert_eq!(value(&d, "temp_min"), "-10");
-    assert_eq!(value(&d, "series"), "E24");
-    ok(&mut c, "requirement gain 20");
-    ok(&mut c, "requirement rl none");
-    ok(&mut c, "requirement series E12");
-    ok(&mut c, "requirement tol 1%");
-    ok(&mut c, "requirement ic-max 5m");
-    ok(&mut c, "requirement polarity pnp");
+    assert_values(
+        &d,
+        &[
+            ("vcc", "12"),
+            ("gain", "15"),
+            ("rl", "15000"),
+            ("f_low", "5"),
+            ("temp_min", "-10"),
+            ("series", "E24"),
+        ],
+    );
+    oks(
+        &mut c,
+        &[
+            "requirement gain 20",
+            "requirement rl none",
+            "requirement series E12",
+            "requirement tol 1%",
+            "requirement ic-max 5m",
+            "requirement polarity pnp",
+        ],
+    );
     let d = ok(&mut c, "requirement");
-    assert_eq!(value(&d, "gain"), "20");
-    assert_eq!(value(&d, "rl"), "none");
-    assert_eq!(value(&d, "series"), "E12");
-    assert_eq!(value(&d, "tol"), "0.01");
-    assert_eq!(value(&d, "ic_max"), "0.005");
-    assert_eq!(value(&d, "polarity"), "pnp");
+    assert_values(
+        &d,
+        &[
+            ("gain", "20"),
+            ("rl", "none"),
+            ("series", "E12"),
+            ("tol", "0.01"),
+            ("ic_max", "0.005"),
+            ("polarity", "pnp"),
+        ],
+    );
     let e = err(&mut c, "requirement gain x", "VALUE");
     assert!(e.contains("gain") && e.contains("x"), "{e}");
     let e = err(&mut c, "requirement colour red", "VALUE");
     assert!(e.contains("ic-max"), "{e}");
     let e = err(&mut c, "requirement gain 5000", "RANGE");
     assert!(e.contains("gain"), "{e}");
-    err(&mut c, "requirement series E7", "VALUE");
-    err(&mut c, "requirement temp 80", "RANGE");
-    err(&mut c, "requirement gain", "USAGE");
+    errs(
+        &mut c,
+        &[
+            ("requirement series E7", "VALUE"),
+            ("requirement temp 80", "RANGE"),
+            ("requirement gain", "USAGE"),
+        ],
+    );
     assert_eq!(
         c.requirement().gain,
         20.0,
@@ -444,10 +468,15 @@ fn spread_matches_the_spread_module() {
     assert_ne!(ok(&mut c, "spread 200 8"), d);
     let d = ok(&mut c, "spread");
     assert_eq!(value(&d, "runs"), "500");
-    err(&mut c, "spread 0", "VALUE");
-    err(&mut c, "spread 3000", "VALUE");
-    err(&mut c, "spread 10 x", "VALUE");
-    err(&mut c, "spread 1 2 3", "USAGE");
+    errs(
+        &mut c,
+        &[
+            ("spread 0", "VALUE"),
+            ("spread 3000", "VALUE"),
+            ("spread 10 x", "VALUE"),
+            ("spread 1 2 3", "USAGE"),
+        ],
+    );
     ok(&mut c, "mode human");
     let h = ok(&mut c, "spread 50").join("\n");
     assert!(h.contains("worst") && h.contains("Monte Carlo"), "{h}");

@@ -4,7 +4,7 @@
 
 use biasjig_core::console::jig::{MemoryStore, NoJig, DESIGN_SLOTS};
 use biasjig_core::console::{Console, Identity};
-use biasjig_testkit::session::{lines_of, ok, split_reply, FixedClock as Still};
+use biasjig_testkit::session::{lines_of, ok, oks, split_reply, FixedClock as Still};
 
 type Unit = Console<NoJig, MemoryStore, Still>;
 
@@ -39,9 +39,7 @@ fn kept_designs_survive_a_restart_and_the_last_chosen_comes_back() {
     let (_, st) = cmd(&mut c, "keep preamp-12");
     assert!(st.starts_with("ok kept preamp-12, design hash"), "{st}");
     let h12 = hash(&mut c);
-    ok(&mut c, "set vcc 15");
-    ok(&mut c, "set temp-max 55");
-    ok(&mut c, "meter gain 1%");
+    oks(&mut c, &["set vcc 15", "set temp-max 55", "meter gain 1%"]);
     // After an edit the stage is no longer the kept design.
     assert!(ok(&mut c, "stage").last().unwrap().ends_with("design=none"));
     ok(&mut c, "keep Pump15");
@@ -121,10 +119,7 @@ fn eight_designs_fit_a_ninth_is_refused_and_a_name_is_replaced_in_place() {
 #[test]
 fn the_lock_guards_the_kept_designs_and_names_are_checked() {
     let mut c = unit(MemoryStore::default());
-    ok(&mut c, "keep a");
-    ok(&mut c, "set vcc 9");
-    ok(&mut c, "keep b");
-    ok(&mut c, "lock 1234");
+    oks(&mut c, &["keep a", "set vcc 9", "keep b", "lock 1234"]);
     for l in ["keep c", "choose a", "forget a"] {
         assert!(cmd(&mut c, l).1.starts_with("err LOCKED"), "{l}");
     }
@@ -144,9 +139,7 @@ fn the_lock_guards_the_kept_designs_and_names_are_checked() {
 #[test]
 fn a_damaged_design_record_is_left_out_not_loaded() {
     let mut c = unit(MemoryStore::default());
-    ok(&mut c, "keep a");
-    ok(&mut c, "set vcc 9");
-    ok(&mut c, "keep b");
+    oks(&mut c, &["keep a", "set vcc 9", "keep b"]);
     let mut store = c.store;
     // Slot 1 holds b: flip one byte of its payload.
     if let Some(rec) = store.records[3].as_mut() {
@@ -161,10 +154,15 @@ fn a_damaged_design_record_is_left_out_not_loaded() {
 #[test]
 fn a_kept_design_carries_the_measuring_inputs() {
     let mut c = unit(MemoryStore::default());
-    ok(&mut c, "set input-r 110k");
-    ok(&mut c, "keep jig110k");
-    ok(&mut c, "set input-r 10M");
-    ok(&mut c, "keep meter10M");
+    oks(
+        &mut c,
+        &[
+            "set input-r 110k",
+            "keep jig110k",
+            "set input-r 10M",
+            "keep meter10M",
+        ],
+    );
     assert!(ok(&mut c, "meter")[0].contains("input_r=1e7"));
     ok(&mut c, "choose jig110k");
     let mut c = restart(c);

@@ -3,7 +3,9 @@
 use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::{Calibration, Channel, Console, Identity, Jig, JigError, LINE_MAX};
 use biasjig_core::stage::{Fault, Readings};
-use biasjig_testkit::session::{cmd, console_with, err, ok, send, value, HandClock};
+use biasjig_testkit::session::{
+    assert_values, cmd, console_with, err, errs, ok, oks, send, value, HandClock,
+};
 
 /// A jig that reads fixed node voltages through a raw gain error, and records injections.
 #[derive(Default)]
@@ -146,15 +148,21 @@ fn stage_set_and_show() {
     ok(&mut c, "SET VCC 9");
     assert_eq!(value(&ok(&mut c, "stage"), "vcc"), "9");
     // Profile figures.
-    ok(&mut c, "set beta 150");
-    ok(&mut c, "set beta-max 400");
-    ok(&mut c, "set vbe 0.6");
-    ok(&mut c, "set early 80");
-    ok(&mut c, "set beta-tc 0.4%");
+    oks(
+        &mut c,
+        &[
+            "set beta 150",
+            "set beta-max 400",
+            "set vbe 0.6",
+            "set early 80",
+            "set beta-tc 0.4%",
+        ],
+    );
     let p = ok(&mut c, "profile");
-    assert_eq!(value(&p, "beta_min"), "150");
-    assert_eq!(value(&p, "beta_max"), "400");
-    assert_eq!(value(&p, "early"), "80");
+    assert_values(
+        &p,
+        &[("beta_min", "150"), ("beta_max", "400"), ("early", "80")],
+    );
     assert!((value(&p, "vbe").parse::<f64>().unwrap() - 0.6).abs() < 1e-9);
     // Errors name the field, the value and what is allowed; the stage stays as it was.
     let e = err(&mut c, "set r1 4x7", "VALUE");
@@ -162,12 +170,17 @@ fn stage_set_and_show() {
         e.contains("r1") && e.contains("4x7") && e.contains("4k7"),
         "{e}"
     );
-    err(&mut c, "set zz 1", "VALUE");
-    err(&mut c, "set r1", "USAGE");
-    err(&mut c, "set beta-min 500", "RANGE");
-    err(&mut c, "set vcc 0.1", "RANGE");
-    err(&mut c, "set temp 500", "RANGE");
-    err(&mut c, "set polarity xyz", "VALUE");
+    errs(
+        &mut c,
+        &[
+            ("set zz 1", "VALUE"),
+            ("set r1", "USAGE"),
+            ("set beta-min 500", "RANGE"),
+            ("set vcc 0.1", "RANGE"),
+            ("set temp 500", "RANGE"),
+            ("set polarity xyz", "VALUE"),
+        ],
+    );
     assert_eq!(value(&ok(&mut c, "stage"), "vcc"), "9");
     // *RST: the defaults again.
     ok(&mut c, "*RST");
@@ -262,22 +275,29 @@ fn meter_measure_readings_calibrate_inject() {
     let (mut c, _) = console();
     ok(&mut c, "mode machine");
     err(&mut c, "readings", "NO_READINGS");
-    ok(&mut c, "meter gain 1%");
-    ok(&mut c, "meter offset 2m");
-    ok(&mut c, "meter divider 0.2");
+    oks(
+        &mut c,
+        &["meter gain 1%", "meter offset 2m", "meter divider 0.2"],
+    );
     let m = ok(&mut c, "meter");
-    assert_eq!(value(&m, "gain"), "0.01");
-    assert_eq!(value(&m, "offset"), "0.002");
-    assert_eq!(value(&m, "divider"), "0.002");
+    assert_values(
+        &m,
+        &[("gain", "0.01"), ("offset", "0.002"), ("divider", "0.002")],
+    );
     err(&mut c, "meter gain 50", "RANGE");
     err(&mut c, "meter volume 3", "USAGE");
     let d = ok(&mut c, "measure 32");
     assert_eq!(value(&d, "vb"), "2");
     assert_eq!(value(&d, "source"), "measured");
     assert_eq!(ok(&mut c, "readings"), d);
-    err(&mut c, "measure 0", "VALUE");
-    err(&mut c, "measure 5000", "VALUE");
-    err(&mut c, "measure 1 2", "USAGE");
+    errs(
+        &mut c,
+        &[
+            ("measure 0", "VALUE"),
+            ("measure 5000", "VALUE"),
+            ("measure 1 2", "USAGE"),
+        ],
+    );
     // Two-point calibration of a channel reading 2 % high with a 10 mV offset.
     c.jig.raw_gain = 1.02;
     c.jig.applied = 1.0;
@@ -295,9 +315,14 @@ fn meter_measure_readings_calibrate_inject() {
     assert!((vb - 2.0).abs() < 0.011, "{vb}");
     c.jig.applied = 1.0;
     ok(&mut c, "calibrate ve low 1");
-    err(&mut c, "calibrate ve high 1.05", "VALUE");
-    err(&mut c, "calibrate xx low 1", "VALUE");
-    err(&mut c, "calibrate vb middle 1", "VALUE");
+    errs(
+        &mut c,
+        &[
+            ("calibrate ve high 1.05", "VALUE"),
+            ("calibrate xx low 1", "VALUE"),
+            ("calibrate vb middle 1", "VALUE"),
+        ],
+    );
     ok(&mut c, "calibrate reset");
     assert_eq!(c.jig.cal, Calibration::default());
     ok(&mut c, "inject r1 open");
@@ -305,9 +330,7 @@ fn meter_measure_readings_calibrate_inject() {
         c.jig.injected,
         Some(Some(Fault::Open(biasjig_core::stage::Resistor::R1)))
     );
-    ok(&mut c, "inject q be_open");
-    ok(&mut c, "inject rc 47");
-    ok(&mut c, "inject none");
+    oks(&mut c, &["inject q be_open", "inject rc 47", "inject none"]);
     assert_eq!(c.jig.injected, Some(None));
     err(&mut c, "inject q sideways", "VALUE");
     err(&mut c, "inject", "USAGE");
@@ -401,9 +424,7 @@ fn lock_survives_a_restart_through_the_store() {
 #[test]
 fn save_keeps_settings_and_calibration() {
     let (mut c, clock) = console();
-    ok(&mut c, "set rc 3k9");
-    ok(&mut c, "meter gain 0.3");
-    ok(&mut c, "save");
+    oks(&mut c, &["set rc 3k9", "meter gain 0.3", "save"]);
     let store = c.store.clone();
     let mut again = Console::new(
         Identity::new("console", "0"),
@@ -560,10 +581,15 @@ fn readings_and_temperatures_with_another_unit_are_refused() {
     ok(&mut c, "mode machine");
     let e = err(&mut c, "check 12 2.29 1.67mA 3.72", "VALUE");
     assert!(e.contains("ve"), "{e}");
-    err(&mut c, "set temp 25V", "VALUE");
-    err(&mut c, "set temp-min 20F", "VALUE");
-    err(&mut c, "set tj-max 150A", "VALUE");
-    err(&mut c, "calibrate vb low 1mA", "VALUE");
+    errs(
+        &mut c,
+        &[
+            ("set temp 25V", "VALUE"),
+            ("set temp-min 20F", "VALUE"),
+            ("set tj-max 150A", "VALUE"),
+            ("calibrate vb low 1mA", "VALUE"),
+        ],
+    );
     // The field's own unit is still accepted.
     ok(&mut c, "set temp 30C");
     ok(&mut c, "set temp 25°C");

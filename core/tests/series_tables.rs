@@ -269,21 +269,10 @@ fn colour_band_errors() {
 
 #[test]
 fn colour_names() {
+    use Colour::*;
     let all = [
-        Colour::Black,
-        Colour::Brown,
-        Colour::Red,
-        Colour::Orange,
-        Colour::Yellow,
-        Colour::Green,
-        Colour::Blue,
-        Colour::Violet,
-        Colour::Grey,
-        Colour::White,
-        Colour::Gold,
-        Colour::Silver,
-        Colour::Pink,
-        Colour::None,
+        Black, Brown, Red, Orange, Yellow, Green, Blue, Violet, Grey, White, Gold, Silver, Pink,
+        None,
     ];
     let names: Vec<&str> = all.iter().map(|c| c.name()).collect();
     assert_eq!(

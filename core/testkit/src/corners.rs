@@ -8,6 +8,22 @@ use biasjig_core::signal::midband;
 use biasjig_core::solve::{solve, Conditions, NodeLoads, Region};
 use biasjig_core::stage::Stage;
 
+/// The requirement fields a design refusal starts with.
+pub const REQUIREMENT_WORDS: [&str; 7] = [
+    "gain",
+    "swing",
+    "ic-max",
+    "hFE",
+    "f-low",
+    "dissipation",
+    "bias",
+];
+
+/// Whether a design refusal's message starts by naming a requirement field.
+pub fn names_a_requirement(msg: &str) -> bool {
+    REQUIREMENT_WORDS.iter().any(|k| msg.starts_with(k))
+}
+
 /// What a stage does over all 128 corners.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Corners {

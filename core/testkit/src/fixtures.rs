@@ -103,28 +103,21 @@ pub fn demo_requirement() -> Requirement {
 /// Invented DC test designs of the sweeps (not from any book): two NPN, two PNP, one without
 /// RE1.
 pub fn dc_designs() -> Vec<(&'static str, Stage, Profile)> {
-    vec![
-        (
-            "npn15",
-            stage(Polarity::Npn, 15.0, [68e3, 15e3, 3.9e3, 220.0, 820.0]),
-            profile(120.0, 210.0, 360.0, 0.66),
-        ),
-        (
-            "pnp9",
-            stage(Polarity::Pnp, 9.0, [12e3, 47e3, 2.7e3, 150.0, 820.0]),
-            profile(100.0, 180.0, 300.0, 0.64),
-        ),
-        (
-            "npn24",
-            stage(Polarity::Npn, 24.0, [150e3, 18e3, 10e3, 0.0, 1.5e3]),
-            profile(80.0, 150.0, 250.0, 0.68),
-        ),
-        (
-            "pnp5",
-            stage(Polarity::Pnp, 5.0, [10e3, 18e3, 1e3, 47.0, 470.0]),
-            profile(150.0, 250.0, 450.0, 0.62),
-        ),
-    ]
+    use Polarity::{Npn, Pnp};
+    // (name, polarity, supply V, [R1, R2, RC, RE1, RE2] Ω, [hFE min, typ, max, VBE V at 1 mA]).
+    #[rustfmt::skip]
+    let table: [(&str, Polarity, f64, [f64; 5], [f64; 4]); 4] = [
+        ("npn15", Npn, 15.0, [68e3, 15e3, 3.9e3, 220.0, 820.0], [120.0, 210.0, 360.0, 0.66]),
+        ("pnp9", Pnp, 9.0, [12e3, 47e3, 2.7e3, 150.0, 820.0], [100.0, 180.0, 300.0, 0.64]),
+        ("npn24", Npn, 24.0, [150e3, 18e3, 10e3, 0.0, 1.5e3], [80.0, 150.0, 250.0, 0.68]),
+        ("pnp5", Pnp, 5.0, [10e3, 18e3, 1e3, 47.0, 470.0], [150.0, 250.0, 450.0, 0.62]),
+    ];
+    table
+        .into_iter()
+        .map(|(name, pol, vcc, r, [min, typ, max, vbe])| {
+            (name, stage(pol, vcc, r), profile(min, typ, max, vbe))
+        })
+        .collect()
 }
 
 /// Invented test designs with the signal path (not from any book): supply at 10 %, resistors

@@ -217,6 +217,27 @@ pub fn err<J: Jig, S: Store, C: Clock>(c: &mut Console<J, S, C>, line: &str, cod
     status
 }
 
+/// Commands that must each answer `ok`, in order.
+pub fn oks<J: Jig, S: Store, C: Clock>(c: &mut Console<J, S, C>, lines: &[&str]) {
+    for l in lines {
+        ok(c, l);
+    }
+}
+
+/// Commands that must each answer `err CODE` (line, code), in order.
+pub fn errs<J: Jig, S: Store, C: Clock>(c: &mut Console<J, S, C>, cases: &[(&str, &str)]) {
+    for (l, code) in cases {
+        err(c, l, code);
+    }
+}
+
+/// Each `key` has `want` as its value (on the first line that has the key).
+pub fn assert_values(data: &[String], pairs: &[(&str, &str)]) {
+    for (key, want) in pairs {
+        assert_eq!(value(data, key), *want, "{key} in {data:?}");
+    }
+}
+
 /// The value of `key` on the first line that has it.
 pub fn value(data: &[String], key: &str) -> String {
     data.iter()

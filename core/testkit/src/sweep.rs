@@ -181,4 +181,26 @@ impl Tally {
             pct(self.top3, self.ranked),
         ]
     }
+
+    /// Print the confusion table and the summary; the rates of [`Tally::rates`].
+    pub fn report(&self, detectable_column: bool) -> [f64; 4] {
+        self.print_table(detectable_column);
+        let rates = self.rates();
+        let [good_rate, detected_rate, first_rate, top3_rate] = rates;
+        println!(
+            "good boards pass {}/{} ({good_rate:.1} %); detectable faults fail {}/{} \
+             ({detected_rate:.1} %)",
+            self.good_pass, self.good, self.detectable_fail, self.detectable
+        );
+        println!(
+            "true fault first or in its group {}/{} ({first_rate:.1} %), within three {}/{} \
+             ({top3_rate:.1} %); {:.0} solves per diagnosis on average",
+            self.first,
+            self.ranked,
+            self.top3,
+            self.ranked,
+            self.solves_all as f64 / f64::from(self.ranked.max(1))
+        );
+        rates
+    }
 }
