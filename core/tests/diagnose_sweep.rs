@@ -5,12 +5,12 @@
 //! confusion table.
 
 use biasjig_core::check::check;
-use biasjig_core::diagnose::diagnose;
+use biasjig_core::diagnose::{diagnose, Hypothesis};
 use biasjig_core::limits::{limits, Meter, Window};
 use biasjig_core::spread::Variation;
 use biasjig_testkit::fixtures::{dc_designs as designs, readings_of};
 use biasjig_testkit::rng::Rng;
-use biasjig_testkit::sweep::{all_faults, in_tolerance, label, pct, with_noise, Tally};
+use biasjig_testkit::sweep::{all_faults, in_tolerance, pct, print_detail, with_noise, Tally};
 
 #[test]
 fn seeded_sweep_of_good_and_faulty_boards() {
@@ -77,21 +77,9 @@ fn seeded_sweep_of_good_and_faulty_boards() {
             let d = diagnose(&design, &prof, &r, &meter, &var).unwrap();
             solves_max = solves_max.max(d.solves);
             unexplained_true += u32::from(!d.explained);
-            if !t.rank(name, truth, &d) && std::env::var_os("SWEEP_DETAIL").is_some() {
-                let tr = d.ranked.iter().find(|h| h.suspect == truth);
-                let b = d.faults().next();
-                println!(
-                    "{name} truth {} {:?} -> chi2 {:?} est {:?} | pick {:?} chi2 {:?} est {:?} | r {r:?} t {:?} b {:?}",
-                    label(truth),
-                    fault.map(|f| f.1),
-                    tr.map(|h| h.chi2),
-                    tr.and_then(|h| h.estimate),
-                    b.map(|h| label(h.suspect)),
-                    b.map(|h| h.chi2),
-                    b.and_then(|h| h.estimate),
-                    tr.map(|h| h.predicted),
-                    b.map(|h| h.predicted),
-                );
+            if !t.rank(name, truth, &d) {
+                let predicted = |h: &Hypothesis| format!("{:?}", h.predicted);
+                print_detail(name, truth, &fault, &d, predicted, &format!("r {r:?}"));
             }
         }
     }

@@ -8,7 +8,7 @@
 //! confusion table.
 
 use biasjig_core::device::Profile;
-use biasjig_core::diagnose::{ResistorMode, Suspect};
+use biasjig_core::diagnose::{Hypothesis, ResistorMode, Suspect};
 use biasjig_core::judge::{judge_with_signal, JudgeError};
 use biasjig_core::limits::Window;
 use biasjig_core::response::{magnitude_at, CapState, Caps};
@@ -19,7 +19,7 @@ use biasjig_core::spread::Variation;
 use biasjig_core::stage::{Capacitor, Fault, Readings, Resistor, Stage};
 use biasjig_testkit::fixtures::{readings, signal_designs as designs};
 use biasjig_testkit::rng::Rng;
-use biasjig_testkit::sweep::{all_faults, in_tolerance, label, with_noise, Tally};
+use biasjig_testkit::sweep::{all_faults, in_tolerance, print_detail, with_noise, Tally};
 
 /// A board's fault: a resistor or transistor fault (the engine's), or a capacitor's state.
 #[derive(Clone, Copy, Debug)]
@@ -206,23 +206,9 @@ fn seeded_sweep_with_capacitor_faults() {
             }
             t.row(truth).failed += 1;
             let d = j.diagnosis.expect("a failed board is diagnosed");
-            if !t.rank(name, truth, &d) && std::env::var_os("SWEEP_DETAIL").is_some() {
-                let tr = d.ranked.iter().find(|h| h.suspect == truth);
-                let b = d.faults().next();
-                println!(
-                    "{name} truth {} {:?} -> chi2 {:?} est {:?} g {:?} | pick {:?} chi2 {:?} est {:?} g {:?} | read {:?} {:?}",
-                    label(truth),
-                    fault.map(|f| f.1),
-                    tr.map(|h| h.chi2),
-                    tr.and_then(|h| h.estimate),
-                    tr.map(|h| h.gains),
-                    b.map(|h| label(h.suspect)),
-                    b.map(|h| h.chi2),
-                    b.and_then(|h| h.estimate),
-                    b.map(|h| h.gains),
-                    r,
-                    gains,
-                );
+            if !t.rank(name, truth, &d) {
+                let g = |h: &Hypothesis| format!("g {:?}", h.gains);
+                print_detail(name, truth, &fault, &d, g, &format!("read {r:?} {gains:?}"));
             }
         }
     }

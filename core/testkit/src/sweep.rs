@@ -3,7 +3,7 @@
 
 use std::collections::BTreeMap;
 
-use biasjig_core::diagnose::{Diagnosis, ResistorMode, Suspect};
+use biasjig_core::diagnose::{Diagnosis, Hypothesis, ResistorMode, Suspect};
 use biasjig_core::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
 
 use crate::rng::Rng;
@@ -75,6 +75,38 @@ pub fn label(s: Suspect) -> String {
 /// A percentage `a` of `b` (0 when `b` is 0).
 pub fn pct(a: u32, b: u32) -> f64 {
     100.0 * f64::from(a) / f64::from(b.max(1))
+}
+
+/// With `SWEEP_DETAIL` set: a line on a board whose true fault `truth` (placed as `fault`) was
+/// not picked first: the fit of the true fault and of the pick (chi², estimate and `more` of
+/// each), then `tail`.
+pub fn print_detail(
+    name: &str,
+    truth: Suspect,
+    fault: &dyn core::fmt::Debug,
+    d: &Diagnosis,
+    more: impl Fn(&Hypothesis) -> String,
+    tail: &str,
+) {
+    if std::env::var_os("SWEEP_DETAIL").is_none() {
+        return;
+    }
+    let fit = |h: Option<&Hypothesis>| {
+        h.map_or("none".to_string(), |h| {
+            format!(
+                "{} chi2 {} est {:?} {}",
+                label(h.suspect),
+                h.chi2,
+                h.estimate,
+                more(h)
+            )
+        })
+    };
+    println!(
+        "{name} truth {fault:?} -> {} | pick {} | {tail}",
+        fit(d.ranked.iter().find(|h| h.suspect == truth)),
+        fit(d.faults().next())
+    );
 }
 
 /// One row of the confusion table: the boards of one true fault.
