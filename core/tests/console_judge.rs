@@ -232,7 +232,7 @@ fn implausible_readings_are_refused_with_their_own_code() {
 }
 
 #[test]
-fn test_measures_then_checks() {
+fn test_measures_then_judges_and_names_the_fault() {
     let mut c = console();
     ok(&mut c, "mode machine");
     let d = ok(&mut c, "test 32");
@@ -310,7 +310,7 @@ fn ambient_range_feeds_the_limits() {
 }
 
 #[test]
-fn requirement_show_set_and_errors() {
+fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
     let mut c = console();
     ok(&mut c, "mode machine");
     let d = ok(&mut c, "requirement");

@@ -54,7 +54,7 @@ fn console() -> (Fake, HandClock) {
 }
 
 #[test]
-fn identification() {
+fn identify_and_idn_answer_four_ieee_488_2_fields() {
     let (mut c, _) = console();
     let d = ok(&mut c, "*IDN?");
     assert_eq!(d, ["biasjig,console,0,0.1.0"]);
@@ -114,7 +114,7 @@ fn help_has_every_command_and_the_safety_cautions() {
 }
 
 #[test]
-fn stage_set_and_show() {
+fn set_shows_in_stage_and_profile_and_the_hash_follows_the_parts() {
     let (mut c, _) = console();
     ok(&mut c, "mode machine");
     assert_eq!(ok(&mut c, "mode"), ["mode=machine"]);
@@ -188,7 +188,7 @@ fn stage_set_and_show() {
 }
 
 #[test]
-fn parts_with_codes_and_bands() {
+fn parts_lists_iec_60062_codes_and_colour_bands() {
     let (mut c, _) = console();
     let human = ok(&mut c, "parts").join("\n");
     // IEC 60062: 47 kΩ 5 % is yellow violet orange gold; 4.7 kΩ yellow violet red gold.
@@ -271,7 +271,7 @@ fn limits_come_from_the_limits_module() {
 }
 
 #[test]
-fn meter_measure_readings_calibrate_inject() {
+fn meter_measure_calibrate_and_inject_reach_the_jig() {
     let (mut c, _) = console();
     ok(&mut c, "mode machine");
     err(&mut c, "readings", "NO_READINGS");
@@ -438,7 +438,7 @@ fn save_keeps_settings_and_calibration() {
 }
 
 #[test]
-fn line_discipline() {
+fn every_line_end_and_every_bad_line_gets_one_reply() {
     let (mut c, _) = console();
     // Blank lines and comments answer ok (hosts synchronise with a blank line).
     assert_eq!(
@@ -485,7 +485,7 @@ fn line_discipline() {
 }
 
 #[test]
-fn echo_and_editing() {
+fn echo_repeats_the_input_and_backspace_edits_it() {
     let (mut c, _) = console();
     let mut out = Vec::new();
     c.feed(b"echo on\r\n", &mut out).unwrap();

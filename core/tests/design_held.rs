@@ -112,7 +112,7 @@ proptest! {
 }
 
 #[test]
-fn supply_24v_gain_10_at_300ua_into_47k() {
+fn supply_24v_gain_10_at_300ua_into_47k_is_designed_and_held() {
     // Refused in the first round ("gain 10 into 47 kΩ needs IC >= 328 µA") although a hand
     // design builds it at about 250 µA: the first pass now stiffens a divider whose R1 would
     // pass 1 MΩ instead of giving up at that current.

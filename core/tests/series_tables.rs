@@ -211,7 +211,7 @@ fn bands(ohms: f64, tol: f64, count: BandCount) -> Result<Vec<Colour>, BandError
 }
 
 #[test]
-fn colour_bands_examples() {
+fn colour_bands_follow_iec_60062() {
     use Colour::*;
     // Source: IEC 60062:2016 colour code, from memory.
     let four: &[(f64, f64, &[Colour])] = &[
@@ -268,7 +268,7 @@ fn colour_band_errors() {
 }
 
 #[test]
-fn colour_names() {
+fn colour_names_are_lower_case_english() {
     use Colour::*;
     let all = [
         Black, Brown, Red, Orange, Yellow, Green, Blue, Violet, Grey, White, Gold, Silver, Pink,

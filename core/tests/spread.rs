@@ -171,9 +171,9 @@ fn same_seed_same_numbers_other_seed_others() {
 }
 
 #[test]
-fn seeded_run_snapshot() {
-    // Pinned figures of one seeded run: a change of the generator, the deviates or the solver on
-    // any platform shows here. (Regenerate deliberately only when the engine changes.)
+fn seeded_run_matches_its_regression_pin() {
+    // A regression pin: figures copied from our own output of one seeded run. A change of the
+    // generator, the deviates or the solver on any platform shows here. (Regenerate deliberately only when the engine changes.)
     // The gain mean moved from -13.5634475313286 to -13.56344531549726 (1.6e-7) when the
     // midband gain became the closed form of the same network: the closed form is the exact
     // one (checked against a 50-digit solve in `signal`'s tests), the 6×6 elimination lost

@@ -17,7 +17,7 @@ fn close(a: f64, b: f64, rel: f64) -> bool {
 }
 
 #[test]
-fn plain_and_exponent_numbers() {
+fn plain_and_exponent_numbers_parse() {
     #[rustfmt::skip]
     let cases = [
         ("4700", 4700.0), ("0.5", 0.5), (".5", 0.5), ("5.", 5.0), ("+12", 12.0), ("0", 0.0),
@@ -28,7 +28,7 @@ fn plain_and_exponent_numbers() {
 }
 
 #[test]
-fn signed_values() {
+fn signed_values_parse_and_plain_values_refuse_a_sign() {
     // Contract: measured readings may be negative (`--ve -0.0012`).
     #[rustfmt::skip]
     let cases = [
@@ -41,7 +41,7 @@ fn signed_values() {
 }
 
 #[test]
-fn si_prefixes_and_units() {
+fn si_prefixes_and_units_parse() {
     // SI prefixes (SI Brochure, 9th edition, from memory): p n µ m k M G.
     #[rustfmt::skip]
     let cases = [
@@ -55,7 +55,7 @@ fn si_prefixes_and_units() {
 }
 
 #[test]
-fn iec_60062_codes() {
+fn iec_60062_codes_parse() {
     // IEC 60062:2016 RKM value code (letter as decimal point), from memory.
     #[rustfmt::skip]
     let cases = [
@@ -68,7 +68,7 @@ fn iec_60062_codes() {
 }
 
 #[test]
-fn percentages() {
+fn percentages_parse_with_or_without_the_sign() {
     #[rustfmt::skip]
     let cases = [
         ("5", 5.0), ("5%", 5.0), ("0.5 %", 0.5), (" 1e-1% ", 0.1), ("0", 0.0),
@@ -84,7 +84,7 @@ fn percentages() {
 }
 
 #[test]
-fn errors() {
+fn malformed_non_finite_and_out_of_range_texts_are_refused() {
     assert_eq!(parse_value(""), Err(ValueError::Empty));
     assert_eq!(parse_value("   "), Err(ValueError::Empty));
     for junk in [
@@ -133,7 +133,7 @@ fn errors() {
 }
 
 #[test]
-fn long_inputs() {
+fn long_inputs_parse() {
     let long = format!("{}1", "0".repeat(200));
     assert_eq!(parse_value(&long), Ok(1.0));
     let long = format!("0.{}1k", "0".repeat(10));
@@ -153,7 +153,7 @@ fn eng(value: f64, unit: &'static str) -> String {
 }
 
 #[test]
-fn formatting() {
+fn eng_prints_three_significant_digits_with_si_prefixes() {
     // SI prefixes (SI Brochure, from memory); 3 significant digits by default.
     #[rustfmt::skip]
     let cases = [
@@ -193,7 +193,7 @@ fn formatting() {
 }
 
 #[test]
-fn resistor_codes() {
+fn resistor_codes_follow_iec_60062() {
     // IEC 60062:2016 RKM code, from memory; "1R0"/"10k" style is common practice.
     #[rustfmt::skip]
     let cases: &[(f64, &str)] = &[
@@ -212,7 +212,7 @@ fn resistor_codes() {
 }
 
 #[test]
-fn capacitor_codes() {
+fn capacitor_codes_follow_iec_60062() {
     // IEC 60062:2016 capacitance code, from memory.
     #[rustfmt::skip]
     let cases: &[(f64, &str)] = &[
@@ -285,7 +285,7 @@ proptest! {
     }
 
     #[test]
-    fn parse_never_panics_alphabet(s in "[0123456789.eE+\\-kKmMuµnpGRr %Ω ]{0,16}") {
+    fn alphabet_texts_never_panic_and_parse_finite_and_in_range(s in "[0123456789.eE+\\-kKmMuµnpGRr %Ω ]{0,16}") {
         let a = parse_signed(&s);
         let _ = parse_value(&s);
         let _ = parse_percent(&s);
