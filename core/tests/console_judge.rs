@@ -4,6 +4,17 @@
 //! Every expected number here comes from calling the same core function directly; the console
 //! prints shortest round-trip decimals, so the numbers compare exactly.
 
+// The design, spread and fault-detail commands are tested where the build has them; a budget
+// build without them is tested to say so.
+#![cfg_attr(
+    not(all(
+        feature = "synthesis",
+        feature = "monte-carlo",
+        feature = "fault-detail"
+    )),
+    allow(unused_imports)
+)]
+
 use biasjig_core::check;
 use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::record::design_hash;
@@ -172,6 +183,7 @@ fn a_decade_slip_is_said_in_words() {
     );
 }
 
+#[cfg(feature = "fault-detail")]
 #[test]
 fn equivalent_faults_say_how_to_tell_them_apart() {
     let mut c = console();
@@ -309,6 +321,7 @@ fn ambient_range_feeds_the_limits() {
     assert_eq!(value(&s, "temp_max"), "30");
 }
 
+#[cfg(feature = "synthesis")]
 #[test]
 fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
     let mut c = console();
@@ -374,6 +387,7 @@ fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
     assert_eq!(*c.requirement(), default_requirement());
 }
 
+#[cfg(feature = "synthesis")]
 #[test]
 fn design_and_pick_make_the_core_candidates_the_stage() {
     let mut c = console();
@@ -420,6 +434,7 @@ fn design_and_pick_make_the_core_candidates_the_stage() {
     assert!(h.starts_with("  1. R1 ") && h.contains("gain"), "{h}");
 }
 
+#[cfg(feature = "monte-carlo")]
 #[test]
 fn spread_matches_the_spread_module() {
     let mut c = console();
@@ -482,6 +497,7 @@ fn spread_matches_the_spread_module() {
     assert!(h.contains("worst") && h.contains("Monte Carlo"), "{h}");
 }
 
+#[cfg(all(feature = "synthesis", feature = "spread"))]
 #[test]
 fn locked_units_still_judge_but_do_not_design() {
     let mut c = console();
@@ -501,6 +517,7 @@ fn locked_units_still_judge_but_do_not_design() {
     }
 }
 
+#[cfg(all(feature = "synthesis", feature = "spread"))]
 #[test]
 fn every_new_reply_stays_within_bounds() {
     let mut c = console();
@@ -513,5 +530,33 @@ fn every_new_reply_stays_within_bounds() {
             assert!(!status.contains("cut"), "{l}: {status}");
             assert!(!data.is_empty(), "{l}");
         }
+    }
+}
+
+/// Without the design search the unit refuses `design`, `pick` and `requirement`, naming the PC
+/// command that does it; locked or not.
+#[cfg(not(feature = "synthesis"))]
+#[test]
+fn a_unit_without_the_design_search_names_the_pc_command() {
+    let mut c = console();
+    for l in ["design", "pick 1", "requirement", "requirement gain 20"] {
+        assert!(err(&mut c, l, "NOT_SUPPORTED").contains("run biasjig design on a PC"));
+    }
+    ok(&mut c, "lock 2468");
+    err(&mut c, "design", "NOT_SUPPORTED");
+}
+
+/// Without the spread the unit refuses `spread`, naming the PC command that does it; the rest of
+/// the judging still works.
+#[cfg(not(feature = "spread"))]
+#[test]
+fn a_unit_without_the_spread_names_the_pc_command() {
+    let mut c = console();
+    for l in ["spread", "spread 20"] {
+        assert!(err(&mut c, l, "NOT_SUPPORTED").contains("run biasjig spread on a PC"));
+    }
+    let rd = readings_of(&default_stage(), None);
+    for l in [check_line(&rd).as_str(), "test", "diagnose"] {
+        ok(&mut c, l);
     }
 }

@@ -2,6 +2,9 @@
 //! survive a restart of the console on the same store, the unit starts on the design chosen
 //! last, the lock guards them, and the store holds at most eight.
 
+// A budget build without kept designs is tested to refuse them.
+#![cfg_attr(not(feature = "kept-designs"), allow(dead_code, unused_imports))]
+
 use biasjig_core::console::jig::{MemoryStore, NoJig, DESIGN_SLOTS};
 use biasjig_core::console::{Console, Identity};
 use biasjig_testkit::session::{lines_of, ok, oks, split_reply, FixedClock as Still};
@@ -31,6 +34,7 @@ fn restart(c: Unit) -> Unit {
     unit(c.store)
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn kept_designs_survive_a_restart_and_the_last_chosen_comes_back() {
     let mut c = unit(MemoryStore::default());
@@ -89,6 +93,7 @@ fn kept_designs_survive_a_restart_and_the_last_chosen_comes_back() {
     assert!(ok(&mut c, "stage").last().unwrap().ends_with("design=none"));
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn eight_designs_fit_a_ninth_is_refused_and_a_name_is_replaced_in_place() {
     let mut c = unit(MemoryStore::default());
@@ -116,6 +121,7 @@ fn eight_designs_fit_a_ninth_is_refused_and_a_name_is_replaced_in_place() {
     assert!(ok(&mut c, "designs")[5].starts_with("design=d8 "));
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn the_lock_guards_the_kept_designs_and_names_are_checked() {
     let mut c = unit(MemoryStore::default());
@@ -136,6 +142,7 @@ fn the_lock_guards_the_kept_designs_and_names_are_checked() {
     }
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn a_damaged_design_record_is_left_out_not_loaded() {
     let mut c = unit(MemoryStore::default());
@@ -151,6 +158,7 @@ fn a_damaged_design_record_is_left_out_not_loaded() {
     assert!(list[0].starts_with("design=a "));
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn a_kept_design_carries_the_measuring_inputs() {
     let mut c = unit(MemoryStore::default());
@@ -171,4 +179,18 @@ fn a_kept_design_carries_the_measuring_inputs() {
         "{:?}",
         ok(&mut c, "meter")
     );
+}
+
+/// Without kept designs the unit refuses `keep`, `designs`, `choose` and `forget`.
+#[cfg(not(feature = "kept-designs"))]
+#[test]
+fn a_unit_without_kept_designs_refuses_them() {
+    let mut c = unit(MemoryStore::default());
+    for l in ["keep a", "designs", "choose a", "forget a"] {
+        let (data, status) = cmd(&mut c, l);
+        assert!(
+            data.is_empty() && status.starts_with("err NOT_SUPPORTED "),
+            "{l}: {status}"
+        );
+    }
 }

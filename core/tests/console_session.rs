@@ -187,6 +187,7 @@ fn set_shows_in_stage_and_profile_and_the_hash_follows_the_parts() {
     assert_eq!(value(&ok(&mut c, "hash"), "hash"), h0);
 }
 
+#[cfg(feature = "spread")]
 #[test]
 fn parts_lists_iec_60062_codes_and_colour_bands() {
     let (mut c, _) = console();
@@ -215,6 +216,7 @@ fn parts_lists_iec_60062_codes_and_colour_bands() {
     err(&mut c, "parts 7", "VALUE");
 }
 
+#[cfg(feature = "analysis")]
 #[test]
 fn predict_matches_the_engine() {
     use biasjig_core::console::{default_profile, default_stage};
@@ -347,6 +349,7 @@ fn no_jig_says_not_supported() {
     );
 }
 
+#[cfg(all(feature = "synthesis", feature = "spread", feature = "analysis"))]
 #[test]
 fn lock_refuses_changes_and_slows_wrong_pins() {
     let (mut c, clock) = console();
@@ -547,6 +550,7 @@ fn write_errors_end_the_call() {
     }
 }
 
+#[cfg(all(feature = "spread", feature = "analysis"))]
 #[test]
 fn replies_stay_within_bounds() {
     use biasjig_core::console::MAX_DATA_LINES;
@@ -593,4 +597,16 @@ fn readings_and_temperatures_with_another_unit_are_refused() {
     // The field's own unit is still accepted.
     ok(&mut c, "set temp 30C");
     ok(&mut c, "set temp 25°C");
+}
+
+/// Without the spread and the analysis the unit refuses `parts` and `predict`, naming the PC
+/// command that does it.
+#[cfg(not(any(feature = "spread", feature = "analysis")))]
+#[test]
+fn a_unit_without_the_spread_and_analysis_names_the_pc_commands() {
+    let (mut c, _) = console();
+    for (l, pc) in [("parts", "biasjig design"), ("predict", "biasjig analyze")] {
+        let e = err(&mut c, l, "NOT_SUPPORTED");
+        assert!(e.contains(pc), "{l}: {e}");
+    }
 }

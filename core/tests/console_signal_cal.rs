@@ -2,6 +2,8 @@
 //! gain, applied by the jig's gain measurement, kept through a restart, and old calibration
 //! records (version 4, channels only) still read.
 
+#![cfg_attr(not(feature = "signal-test"), allow(dead_code, unused_imports))]
+
 use biasjig_core::console::jig::{MemoryStore, Slot, Store, RECORD_LEN};
 use biasjig_core::console::record::{decode_calibration, encode_calibration_v4};
 use biasjig_core::console::{Calibration, Channel, ChannelCal, Console, Identity, Jig, JigError};
@@ -60,6 +62,7 @@ fn correction(data: &[String]) -> f64 {
         .unwrap()
 }
 
+#[cfg(feature = "signal-test")]
 #[test]
 fn a_through_connection_corrects_the_gain_and_the_correction_is_kept() {
     // Load input reading 3 % high: a through connection (gain 1) reads 1.03 before.
@@ -92,6 +95,7 @@ fn a_through_connection_corrects_the_gain_and_the_correction_is_kept() {
     assert_eq!(c.jig.cal.signal, 1.0);
 }
 
+#[cfg(feature = "signal-test")]
 #[test]
 fn bad_calibrations_are_refused_and_change_nothing() {
     let mut c = console_with("0", jig(1.0), NoClock);
@@ -144,4 +148,14 @@ fn a_version_4_calibration_record_is_read_with_the_signal_path_uncorrected() {
         decode_calibration(&bad).is_some(),
         "the re-sealing is right"
     );
+}
+
+/// Without the signal test the unit refuses `calibrate gain` and changes nothing.
+#[cfg(not(feature = "signal-test"))]
+#[test]
+fn a_unit_without_the_signal_test_refuses_a_gain_calibration() {
+    let mut c = console_with("0", jig(1.03), NoClock);
+    let s = status(&mut c, "calibrate gain 1k 1");
+    assert!(s.starts_with("err NOT_SUPPORTED calibrate gain:"), "{s}");
+    assert_eq!(c.jig.cal.signal, 1.0);
 }

@@ -7,6 +7,9 @@
 //! Run with `cargo test --release -p biasjig-core --test signal_sweep -- --nocapture` to see the
 //! confusion table.
 
+// The judging path with gains exists in builds with the signal test only.
+#![cfg(feature = "signal-test")]
+
 use biasjig_core::device::Profile;
 use biasjig_core::diagnose::{Hypothesis, ResistorMode, Suspect};
 use biasjig_core::judge::{judge_with_signal, JudgeError};

@@ -104,9 +104,10 @@ pub fn demo_requirement() -> Requirement {
 /// RE1.
 pub fn dc_designs() -> Vec<(&'static str, Stage, Profile)> {
     use Polarity::{Npn, Pnp};
+    type Row = (&'static str, Polarity, f64, [f64; 5], [f64; 4]);
     // (name, polarity, supply V, [R1, R2, RC, RE1, RE2] Ω, [hFE min, typ, max, VBE V at 1 mA]).
     #[rustfmt::skip]
-    let table: [(&str, Polarity, f64, [f64; 5], [f64; 4]); 4] = [
+    let table: [Row; 4] = [
         ("npn15", Npn, 15.0, [68e3, 15e3, 3.9e3, 220.0, 820.0], [120.0, 210.0, 360.0, 0.66]),
         ("pnp9", Pnp, 9.0, [12e3, 47e3, 2.7e3, 150.0, 820.0], [100.0, 180.0, 300.0, 0.64]),
         ("npn24", Npn, 24.0, [150e3, 18e3, 10e3, 0.0, 1.5e3], [80.0, 150.0, 250.0, 0.68]),
