@@ -27,8 +27,8 @@ use biasjig_core::limits::{limits, Meter};
 use biasjig_core::spread::{self, McSettings, Method, Variation};
 use biasjig_core::stage::{DeviceFault, Fault, Polarity, Readings, Resistor};
 use biasjig_testkit::session::{
-    assert_values, cmd, console_with, default_readings as readings_of, err, errs, line, num, ok,
-    oks, value, EngineJig, FixedClock,
+    assert_contains, assert_values, cmd, console_with, default_readings as readings_of, err, errs,
+    line, num, ok, oks, value, EngineJig, FixedClock,
 };
 
 type Fake = Console<EngineJig, MemoryStore, FixedClock>;
@@ -94,10 +94,7 @@ fn a_good_board_passes_with_the_core_windows() {
     // Human mode: a verdict for a glance.
     ok(&mut c, "mode human");
     let h = ok(&mut c, &check_line(&rd)).join("\n");
-    assert!(
-        h.contains("PASS") && h.contains("window") && h.contains("hFE"),
-        "{h}"
-    );
+    assert_contains(&h, &["PASS", "window", "hFE"]);
 }
 
 #[test]
@@ -177,10 +174,7 @@ fn a_decade_slip_is_said_in_words() {
     let rd = readings_of(&default_stage(), Some(Fault::Value(Resistor::Rc, 47e3)));
     let h = ok(&mut c, &check_line(&rd)).join("\n");
     assert!(h.contains("FAIL"), "{h}");
-    assert!(
-        h.contains("RC reads like") && h.contains("decade slip"),
-        "{h}"
-    );
+    assert_contains(&h, &["RC reads like", "decade slip"]);
 }
 
 #[cfg(feature = "fault-detail")]
@@ -363,7 +357,7 @@ fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
         ],
     );
     let e = err(&mut c, "requirement gain x", "VALUE");
-    assert!(e.contains("gain") && e.contains("x"), "{e}");
+    assert_contains(&e, &["gain", "x"]);
     let e = err(&mut c, "requirement colour red", "VALUE");
     assert!(e.contains("ic-max"), "{e}");
     let e = err(&mut c, "requirement gain 5000", "RANGE");
@@ -494,7 +488,7 @@ fn spread_matches_the_spread_module() {
     );
     ok(&mut c, "mode human");
     let h = ok(&mut c, "spread 50").join("\n");
-    assert!(h.contains("worst") && h.contains("Monte Carlo"), "{h}");
+    assert_contains(&h, &["worst", "Monte Carlo"]);
 }
 
 #[cfg(all(feature = "synthesis", feature = "spread"))]

@@ -4,7 +4,8 @@ use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::{Calibration, Channel, Console, Identity, Jig, JigError, LINE_MAX};
 use biasjig_core::stage::{Fault, Readings};
 use biasjig_testkit::session::{
-    assert_values, cmd, console_with, err, errs, ok, oks, send, value, HandClock,
+    assert_contains, assert_line_with, assert_values, cmd, console_with, err, errs, ok, oks, send,
+    value, HandClock,
 };
 
 /// A jig that reads fixed node voltages through a raw gain error, and records injections.
@@ -166,10 +167,7 @@ fn set_shows_in_stage_and_profile_and_the_hash_follows_the_parts() {
     assert!((value(&p, "vbe").parse::<f64>().unwrap() - 0.6).abs() < 1e-9);
     // Errors name the field, the value and what is allowed; the stage stays as it was.
     let e = err(&mut c, "set r1 4x7", "VALUE");
-    assert!(
-        e.contains("r1") && e.contains("4x7") && e.contains("4k7"),
-        "{e}"
-    );
+    assert_contains(&e, &["r1", "4x7", "4k7"]);
     errs(
         &mut c,
         &[
@@ -193,26 +191,12 @@ fn parts_lists_iec_60062_codes_and_colour_bands() {
     let (mut c, _) = console();
     let human = ok(&mut c, "parts").join("\n");
     // IEC 60062: 47 kΩ 5 % is yellow violet orange gold; 4.7 kΩ yellow violet red gold.
-    assert!(
-        human.contains("47k") && human.contains("yellow violet orange gold"),
-        "{human}"
-    );
-    assert!(
-        human.contains("4k7") && human.contains("yellow violet red gold"),
-        "{human}"
-    );
+    assert_contains(&human, &["47k", "yellow violet orange gold"]);
+    assert_contains(&human, &["4k7", "yellow violet red gold"]);
     ok(&mut c, "mode machine");
     let m = ok(&mut c, "parts 5");
-    assert!(
-        m.iter()
-            .any(|l| l.contains("part=R2") && l.contains("bands=brown,black,black,red,gold")),
-        "{m:?}"
-    );
-    assert!(
-        m.iter()
-            .any(|l| l.contains("part=CE") && l.contains("code=470u")),
-        "{m:?}"
-    );
+    assert_line_with(&m, &["part=R2", "bands=brown,black,black,red,gold"]);
+    assert_line_with(&m, &["part=CE", "code=470u"]);
     err(&mut c, "parts 7", "VALUE");
 }
 
@@ -224,10 +208,7 @@ fn predict_matches_the_engine() {
     use biasjig_core::solve::Conditions;
     let (mut c, _) = console();
     let human = ok(&mut c, "predict").join("\n");
-    assert!(
-        human.contains("Q-point") && human.contains("active"),
-        "{human}"
-    );
+    assert_contains(&human, &["Q-point", "active"]);
     ok(&mut c, "mode machine");
     let d = ok(&mut c, "predict");
     let p = predict(

@@ -393,10 +393,7 @@ proptest! {
                 }
             }
             // A refusal names a requirement.
-            Err(e) => {
-                let msg = e.to_string();
-                prop_assert!(names_a_requirement(&msg), "{}", msg);
-            }
+            Err(e) => prop_assert!(names_a_requirement(&e.to_string()), "{}", e),
         }
     }
 

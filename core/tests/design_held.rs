@@ -77,10 +77,7 @@ proptest! {
                 prop_assert!((h.gain_min - g_lo).abs() <= 1e-9 * g_lo);
                 prop_assert!((h.ic_max - ic).abs() <= 1e-9 * ic);
             }
-            Err(e) => {
-                let msg = e.to_string();
-                prop_assert!(names_a_requirement(&msg), "{}", msg);
-            }
+            Err(e) => prop_assert!(names_a_requirement(&e.to_string()), "{}", e),
         }
     }
 

@@ -6,11 +6,13 @@
 
 use biasjig_core::check::check;
 use biasjig_core::diagnose::{diagnose, Hypothesis};
-use biasjig_core::limits::{limits, Meter, Window};
+use biasjig_core::limits::{limits, Meter};
 use biasjig_core::spread::Variation;
 use biasjig_testkit::fixtures::{dc_designs as designs, readings_of};
 use biasjig_testkit::rng::Rng;
-use biasjig_testkit::sweep::{all_faults, in_tolerance, pct, print_detail, with_noise, Tally};
+use biasjig_testkit::sweep::{
+    all_faults, in_tolerance, leaves_a_window, pct, print_detail, with_noise, Tally,
+};
 
 #[test]
 fn seeded_sweep_of_good_and_faulty_boards() {
@@ -56,14 +58,7 @@ fn seeded_sweep_of_good_and_faulty_boards() {
             faulty += 1;
             faulty_fail += u32::from(!verdict.pass);
             // Detectable: the noise-free readings fail the limits by more than the noise.
-            let margin = |v: f64, w: Window| (w.low - v).max(v - w.high);
-            let clean_fail = [
-                margin(clean.vb, limits.vb),
-                margin(clean.ve, limits.ve),
-                margin(clean.vc, limits.vc),
-            ]
-            .iter()
-            .any(|m| *m > 2.0 * noise);
+            let clean_fail = leaves_a_window(&clean, &limits, 2.0 * noise);
             t.row(truth).boards += 1;
             if !clean_fail {
                 continue;

@@ -13,7 +13,6 @@
 use biasjig_core::device::Profile;
 use biasjig_core::diagnose::{Hypothesis, ResistorMode, Suspect};
 use biasjig_core::judge::{judge_with_signal, JudgeError};
-use biasjig_core::limits::Window;
 use biasjig_core::response::{magnitude_at, CapState, Caps};
 use biasjig_core::settings::TestSettings;
 use biasjig_core::signaltest::{propose, ToneReading};
@@ -22,7 +21,9 @@ use biasjig_core::spread::Variation;
 use biasjig_core::stage::{Capacitor, Fault, Readings, Resistor, Stage};
 use biasjig_testkit::fixtures::{readings, signal_designs as designs};
 use biasjig_testkit::rng::Rng;
-use biasjig_testkit::sweep::{all_faults, in_tolerance, print_detail, with_noise, Tally};
+use biasjig_testkit::sweep::{
+    all_faults, in_tolerance, leaves_a_window, print_detail, with_noise, Tally,
+};
 
 /// A board's fault: a resistor or transistor fault (the engine's), or a capacitor's state.
 #[derive(Clone, Copy, Debug)]
@@ -184,15 +185,7 @@ fn seeded_sweep_with_capacitor_faults() {
                 continue;
             };
             // Detectable: the noise-free readings leave a window by more than twice the noise.
-            let lim = &j.windows.limits;
-            let margin = |v: f64, w: Window| (w.low - v).max(v - w.high);
-            let dc_out = [
-                margin(clean.vb, lim.vb),
-                margin(clean.ve, lim.ve),
-                margin(clean.vc, lim.vc),
-            ]
-            .iter()
-            .any(|m| *m > 2.0 * noise);
+            let dc_out = leaves_a_window(&clean, &j.windows.limits, 2.0 * noise);
             let ac_out = j
                 .tones
                 .iter()

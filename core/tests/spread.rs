@@ -6,7 +6,8 @@ use biasjig_core::limits::{derived_ic, limits, LimitsError, Meter};
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::{
     centre, monte_carlo, monte_carlo_observed, sensitivity, spread, variance_factor, worst_case,
-    Distribution, Factor, McSettings, Method, Node, Requirement, SpreadError, Variation,
+    Distribution, Factor, McSettings, Method, MonteCarlo, Node, Requirement, Sample, SpreadError,
+    Variation, WorstCase,
 };
 use biasjig_core::stage::{Part, Polarity, Resistor, Stage};
 use proptest::prelude::*;
@@ -25,6 +26,17 @@ fn settings(runs: u32, seed: u64) -> McSettings {
     }
 }
 
+/// The demo's Monte Carlo (`runs` samples from `seed`) with `on_sample` called on each.
+fn demo_observed(
+    wc: &WorstCase,
+    runs: u32,
+    seed: u64,
+    on_sample: impl FnMut(&Sample),
+) -> MonteCarlo {
+    let (s, p, v) = (demo_stage(), demo_profile(), demo_var());
+    monte_carlo_observed(&s, &p, &v, wc, &settings(runs, seed), |_, _| {}, on_sample).unwrap()
+}
+
 #[test]
 fn worst_case_brackets_demo_monte_carlo_and_centre() {
     let (s, p, v) = (demo_stage(), demo_profile(), demo_var());
@@ -34,22 +46,13 @@ fn worst_case_brackets_demo_monte_carlo_and_centre() {
     assert_eq!(wc.solves, 129);
     let c = centre(&s, &p, &v).unwrap();
     let mut outside = 0u32;
-    let mc = monte_carlo_observed(
-        &s,
-        &p,
-        &v,
-        &wc,
-        &settings(2000, 7),
-        |_, _| {},
-        |smp| {
-            for n in DC {
-                if !wc.nodes.get(n).brackets(*smp.values.get(n), 1e-9, 1e-15) {
-                    outside += 1;
-                }
+    let mc = demo_observed(&wc, 2000, 7, |smp| {
+        for n in DC {
+            if !wc.nodes.get(n).brackets(*smp.values.get(n), 1e-9, 1e-15) {
+                outside += 1;
             }
-        },
-    )
-    .unwrap();
+        }
+    });
     assert_eq!(outside, 0);
     assert_eq!(mc.failed, 0);
     for n in Node::ALL {
@@ -475,24 +478,15 @@ fn derived_ic_window_holds_every_board_at_that_supply() {
     let lim = limits(&s, &p, &v, &Meter::IDEAL, 12.0).unwrap();
     let wc = worst_case(&s, &p, &v, Method::default()).unwrap();
     let mut outside = 0;
-    let _ = monte_carlo_observed(
-        &s,
-        &p,
-        &v,
-        &wc,
-        &settings(1000, 4),
-        |_, _| {},
-        |smp| {
-            let ic = derived_ic(&s, 12.0, smp.values.vc);
-            if !(ic >= lim.ic.low - 1e-15 && ic <= lim.ic.high + 1e-15) {
-                outside += 1;
-            }
-            if !(lim.vb.contains(smp.values.vb) && lim.vce.contains(smp.values.vce)) {
-                outside += 1;
-            }
-        },
-    )
-    .unwrap();
+    let _ = demo_observed(&wc, 1000, 4, |smp| {
+        let ic = derived_ic(&s, 12.0, smp.values.vc);
+        if !(ic >= lim.ic.low - 1e-15 && ic <= lim.ic.high + 1e-15) {
+            outside += 1;
+        }
+        if !(lim.vb.contains(smp.values.vb) && lim.vce.contains(smp.values.vce)) {
+            outside += 1;
+        }
+    });
     assert_eq!(outside, 0);
     // RC's tolerance is inside the derived IC window: wider than the true IC's own spread.
     assert!(lim.ic.width() > wc.nodes.ic.max - wc.nodes.ic.min);

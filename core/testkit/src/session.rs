@@ -238,6 +238,21 @@ pub fn assert_values(data: &[String], pairs: &[(&str, &str)]) {
     }
 }
 
+/// `text` contains every one of `words`.
+pub fn assert_contains(text: &str, words: &[&str]) {
+    for w in words {
+        assert!(text.contains(w), "{w:?} not in {text}");
+    }
+}
+
+/// Some line of `data` contains every one of `words`.
+pub fn assert_line_with(data: &[String], words: &[&str]) {
+    assert!(
+        data.iter().any(|l| words.iter().all(|w| l.contains(w))),
+        "no line with all of {words:?} in {data:?}"
+    );
+}
+
 /// The value of `key` on the first line that has it.
 pub fn value(data: &[String], key: &str) -> String {
     data.iter()

@@ -4,6 +4,7 @@
 use std::collections::BTreeMap;
 
 use biasjig_core::diagnose::{Diagnosis, Hypothesis, ResistorMode, Suspect};
+use biasjig_core::limits::{Limits, Window};
 use biasjig_core::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
 
 use crate::rng::Rng;
@@ -56,6 +57,19 @@ pub fn with_noise(clean: &Readings, noise: f64, rng: &mut Rng) -> Readings {
         ve: clean.ve + rng.range(-noise, noise),
         vc: clean.vc + rng.range(-noise, noise),
     }
+}
+
+/// Whether the noise-free readings `clean` leave a node window of `lim` (VB, VE or VC) by more
+/// than `by` (V): a fault the check can see through that much noise.
+pub fn leaves_a_window(clean: &Readings, lim: &Limits, by: f64) -> bool {
+    let margin = |v: f64, w: Window| (w.low - v).max(v - w.high);
+    [
+        margin(clean.vb, lim.vb),
+        margin(clean.ve, lim.ve),
+        margin(clean.vc, lim.vc),
+    ]
+    .iter()
+    .any(|m| *m > by)
 }
 
 /// Whether the fault listed at `rank` is `truth` or has it among its equivalents.
