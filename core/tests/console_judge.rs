@@ -38,14 +38,20 @@ fn console() -> Fake {
     console_with("0.1.0", EngineJig::default(), FixedClock)
 }
 
+/// The same in machine mode.
+fn machine_console() -> Fake {
+    let mut c = console();
+    ok(&mut c, "mode machine");
+    c
+}
+
 fn check_line(r: &Readings) -> String {
     format!("check {} {} {} {}", r.vcc, r.vb, r.ve, r.vc)
 }
 
 #[test]
 fn a_good_board_passes_with_the_core_windows() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let stage = default_stage();
     let rd = readings_of(&stage, None);
     let d = ok(&mut c, &check_line(&rd));
@@ -195,8 +201,7 @@ fn equivalent_faults_say_how_to_tell_them_apart() {
 
 #[test]
 fn a_pnp_board_is_judged_too() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     // The default stage mirrored: R1 now runs from the supply to the base.
     oks(&mut c, &["set polarity pnp", "set r1 10k", "set r2 47k"]);
     let mut stage = default_stage();
@@ -216,8 +221,7 @@ fn a_pnp_board_is_judged_too() {
 
 #[test]
 fn implausible_readings_are_refused_with_their_own_code() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let e = err(&mut c, "check 3 2 1.35 5.5", "IMPLAUSIBLE");
     assert!(e.contains("supply"), "{e}");
     let e = err(&mut c, "check 12 2 2 2", "IMPLAUSIBLE");
@@ -239,8 +243,7 @@ fn implausible_readings_are_refused_with_their_own_code() {
 
 #[test]
 fn test_measures_then_judges_and_names_the_fault() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let d = ok(&mut c, "test 32");
     assert_eq!(value(&d, "source"), "measured");
     assert_eq!(value(&d, "verdict"), "pass");
@@ -266,8 +269,7 @@ fn test_measures_then_judges_and_names_the_fault() {
 
 #[test]
 fn a_change_of_the_stage_drops_the_last_verdict() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let rd = readings_of(&default_stage(), Some(Fault::Open(Resistor::R2)));
     ok(&mut c, &check_line(&rd));
     assert!(c.last_check().is_some());
@@ -318,8 +320,7 @@ fn ambient_range_feeds_the_limits() {
 #[cfg(feature = "synthesis")]
 #[test]
 fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let d = ok(&mut c, "requirement");
     assert_eq!(d.len(), 3);
     assert_values(
@@ -384,8 +385,7 @@ fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
 #[cfg(feature = "synthesis")]
 #[test]
 fn design_and_pick_make_the_core_candidates_the_stage() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     err(&mut c, "pick 1", "NO_DESIGN");
     let (d, s) = cmd(&mut c, "design");
     assert!(s.starts_with("ok ") && s.contains("candidates"), "{s}");
@@ -431,8 +431,7 @@ fn design_and_pick_make_the_core_candidates_the_stage() {
 #[cfg(feature = "monte-carlo")]
 #[test]
 fn spread_matches_the_spread_module() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let d = ok(&mut c, "spread 200 7");
     let (s, p) = (default_stage(), default_profile());
     let var = Variation::at(25.0);

@@ -11,7 +11,7 @@ use biasjig_core::spread::Variation;
 use biasjig_testkit::fixtures::{dc_designs as designs, readings_of};
 use biasjig_testkit::rng::Rng;
 use biasjig_testkit::sweep::{
-    all_faults, in_tolerance, leaves_a_window, pct, print_detail, with_noise, Tally,
+    all_faults, draw_fault, in_tolerance, leaves_a_window, pct, print_detail, with_noise, Tally,
 };
 
 #[test]
@@ -29,12 +29,7 @@ fn seeded_sweep_of_good_and_faulty_boards() {
             // the supply within ±10 % of nominal.
             let board = in_tolerance(&design, 0.1, &mut rng);
             let beta = rng.range(prof.beta_min, prof.beta_max);
-            let fault = if rng.unit() < 0.2 {
-                None
-            } else {
-                let list = all_faults(&board, &mut rng);
-                Some(rng.pick(&list))
-            };
+            let fault = draw_fault(&mut rng, |rng| all_faults(&board, rng));
             let Some(clean) = readings_of(&board, &prof, beta, fault.map(|f| f.1)) else {
                 panic!("{name}: the engine could not solve {fault:?}");
             };

@@ -22,7 +22,7 @@ use biasjig_core::stage::{Capacitor, Fault, Readings, Resistor, Stage};
 use biasjig_testkit::fixtures::{readings, signal_designs as designs};
 use biasjig_testkit::rng::Rng;
 use biasjig_testkit::sweep::{
-    all_faults, in_tolerance, leaves_a_window, print_detail, with_noise, Tally,
+    all_faults, draw_fault, in_tolerance, leaves_a_window, print_detail, with_noise, Tally,
 };
 
 /// A board's fault: a resistor or transistor fault (the engine's), or a capacitor's state.
@@ -141,12 +141,7 @@ fn seeded_sweep_with_capacitor_faults() {
                 p.value *= 1.0 + p.tol * rng.range(-1.0, 1.0);
             }
             let beta = rng.range(prof.beta_min, prof.beta_max);
-            let fault = if rng.unit() < 0.2 {
-                None
-            } else {
-                let list = faults(&board, &mut rng);
-                Some(rng.pick(&list))
-            };
+            let fault = draw_fault(&mut rng, |rng| faults(&board, rng));
             let (clean, gains) = readings_of(&board, &prof, beta, fault.map(|f| f.1), &tones)
                 .unwrap_or_else(|| panic!("{name}: the engine could not solve {fault:?}"));
             let noise = 0.004;

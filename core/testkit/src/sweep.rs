@@ -37,6 +37,16 @@ pub fn all_faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, Fault)> {
     v
 }
 
+/// A board's fault: none on one board in five, else one of `faults` (drawn after that choice).
+pub fn draw_fault<T: Copy>(rng: &mut Rng, faults: impl FnOnce(&mut Rng) -> Vec<T>) -> Option<T> {
+    if rng.unit() < 0.2 {
+        None
+    } else {
+        let list = faults(rng);
+        Some(rng.pick(&list))
+    }
+}
+
 /// A board of `design`: the supply within ±`supply` (fraction) of nominal, every resistor
 /// anywhere in its tolerance (drawn in that order).
 pub fn in_tolerance(design: &Stage, supply: f64, rng: &mut Rng) -> Stage {
