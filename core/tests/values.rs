@@ -249,20 +249,13 @@ const UNITS: [&str; 6] = ["Ω", "F", "V", "A", "Hz", "W"];
 
 proptest! {
     #[test]
-    fn resistor_code_round_trip(exp in -12.0f64..12.0) {
+    fn resistor_and_capacitor_codes_round_trip(exp in -12.0f64..12.0) {
         let x = 10f64.powf(exp);
-        let code = resistor_code(x);
-        let back = parse_value(&code).unwrap();
-        // 3 significant digits: error at most half a unit in the third digit.
-        prop_assert!(close(back, x, 0.005 + 1e-12), "{} -> {} -> {}", x, code, back);
-    }
-
-    #[test]
-    fn capacitor_code_round_trip(exp in -12.0f64..12.0) {
-        let x = 10f64.powf(exp);
-        let code = capacitor_code(x);
-        let back = parse_value(&code).unwrap();
-        prop_assert!(close(back, x, 0.005 + 1e-12), "{} -> {} -> {}", x, code, back);
+        for code in [resistor_code(x), capacitor_code(x)] {
+            let back = parse_value(&code).unwrap();
+            // 3 significant digits: error at most half a unit in the third digit.
+            prop_assert!(close(back, x, 0.005 + 1e-12), "{} -> {} -> {}", x, code, back);
+        }
     }
 
     #[test]
