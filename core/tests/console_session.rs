@@ -69,11 +69,36 @@ fn identify_and_idn_answer_four_ieee_488_2_fields() {
 fn help_has_every_command_and_the_safety_cautions() {
     let (mut c, _) = console();
     let d = ok(&mut c, "help").join("\n");
-    let commands =
-        "help identify *IDN? *RST stage set profile parts predict hash requirement design \
-        pick spread limits meter measure check test diagnose readings calibrate inject lock unlock \
-        echo mode save";
-    for word in commands.split_whitespace() {
+    for word in [
+        "help",
+        "identify",
+        "*IDN?",
+        "*RST",
+        "stage",
+        "set",
+        "profile",
+        "parts",
+        "predict",
+        "hash",
+        "requirement",
+        "design",
+        "pick",
+        "spread",
+        "limits",
+        "meter",
+        "measure",
+        "check",
+        "test",
+        "diagnose",
+        "readings",
+        "calibrate",
+        "inject",
+        "lock",
+        "unlock",
+        "echo",
+        "mode",
+        "save",
+    ] {
         assert!(d.contains(word), "help lacks {word}");
     }
     for caution in [
