@@ -3,14 +3,17 @@
 //! corner walk, not the design's), refusals that name the requirement, and the first pass beside
 //! two published hand procedures.
 
+mod hand_method;
+
 use biasjig_core::design::{
-    classic, design, first_pass, held, Check, DesignError, Hold, Requirement, MAX_CANDIDATES,
+    design, first_pass, held, Check, DesignError, Hold, Requirement, MAX_CANDIDATES,
 };
 use biasjig_core::device::Profile;
 use biasjig_core::stage::{Polarity, Stage};
 use biasjig_testkit::corners::corners as kit_corners;
 use biasjig_testkit::corners::names_a_requirement;
 use biasjig_testkit::fixtures::{demo_profile, npn};
+use hand_method::classic;
 use proptest::prelude::*;
 
 /// What a stage does over every corner, by the test's own walk: (least |gain|, largest |gain|,
