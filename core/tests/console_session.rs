@@ -1,5 +1,12 @@
 //! A scripted session through the console engine: every command, the help text and the errors.
 
+// The parts and predict tests need the spread and the analysis; a budget build tests that it
+// refuses them.
+#![cfg_attr(
+    not(all(feature = "spread", feature = "analysis")),
+    allow(unused_imports)
+)]
+
 use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::{Calibration, Channel, Console, Identity, Jig, JigError, LINE_MAX};
 use biasjig_core::stage::{Fault, Readings};
