@@ -61,6 +61,7 @@ pub mod estimate;
 pub mod explain;
 pub mod goertzel;
 pub mod judge;
+pub mod kv;
 pub mod limits;
 pub mod lowfreq;
 mod order;
