@@ -17,8 +17,8 @@ use super::jig::{Clock, Jig, Store};
 use super::parse::Tones;
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console, Source, MAX_OUT_LINE};
-use crate::check::Verdict;
-use crate::diagnose::Diagnosis;
+use crate::check::{NodeVerdict, Verdict};
+use crate::diagnose::{Diagnosis, Hypothesis};
 use crate::explain::{listing, Listed};
 use crate::judge::JudgeError;
 #[cfg(feature = "monte-carlo")]
@@ -44,6 +44,37 @@ pub struct LastCheck {
     pub diagnosis: Option<Diagnosis>,
     /// The gain readings judged (signal test), with their windows, in order.
     pub tones: crate::judge::ToneVerdicts,
+}
+
+/// What a screen draws from the last judged board, typed (no text to parse back): the same
+/// facts the machine-mode reply of `check`, `test` and `diagnose` lists, in its order.
+impl LastCheck {
+    /// The board passed (`verdict=pass`): every node and every gain reading inside its window.
+    pub fn pass(&self) -> bool {
+        self.verdict.pass
+    }
+
+    /// The nodes with their readings (V, A for the currents) and windows, in the reply's order
+    /// (`node=` lines).
+    pub fn nodes(&self) -> &[NodeVerdict] {
+        &self.verdict.nodes
+    }
+
+    /// The first node outside its window (the first `node= ... ok=0` line), if any.
+    pub fn first_failing(&self) -> Option<&NodeVerdict> {
+        self.verdict.failing().next()
+    }
+
+    /// The most likely fault (the first `fault=` line) when the board failed; `None` for a
+    /// passing board or a diagnosis that found no fault to list.
+    pub fn first_fault(&self) -> Option<&Hypothesis> {
+        self.diagnosis.as_ref()?.faults().next()
+    }
+
+    /// The diagnosis explains the readings (`explained=1`); `None` for a passing board.
+    pub fn explained(&self) -> Option<bool> {
+        self.diagnosis.as_ref().map(|d| d.explained)
+    }
 }
 
 /// The status of a board the judging path did not judge.
@@ -402,5 +433,94 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             ));
         }
         Ok(None)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::jig::{MemoryStore, NoJig};
+    use super::super::{Clock, Console, Identity};
+    use std::string::String;
+    use std::vec::Vec;
+
+    struct Still;
+
+    impl Clock for Still {
+        fn now_ms(&mut self) -> u64 {
+            0
+        }
+    }
+
+    struct Out(Vec<u8>);
+
+    impl embedded_io::ErrorType for Out {
+        type Error = core::convert::Infallible;
+    }
+
+    impl embedded_io::Write for Out {
+        fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
+            self.0.extend_from_slice(buf);
+            Ok(buf.len())
+        }
+        fn flush(&mut self) -> Result<(), Self::Error> {
+            Ok(())
+        }
+    }
+
+    fn reply(c: &mut Console<NoJig, MemoryStore, Still>, line: &str) -> String {
+        let mut out = Out(Vec::new());
+        let _ = c.line(line, &mut out);
+        String::from_utf8(out.0).unwrap_or_default()
+    }
+
+    /// The typed last check says what the machine-mode reply of the same `check` lists: the
+    /// verdict, the first node out of its window and the first fault.
+    #[test]
+    fn last_check_matches_the_machine_reply() {
+        let mut c = Console::new(
+            Identity::new("console", "0"),
+            NoJig,
+            MemoryStore::default(),
+            Still,
+        );
+        assert!(c.last_check().is_none());
+        reply(&mut c, "mode machine");
+        for (line, pass) in [
+            ("check 12 1.95 1.3 11.6", false),
+            ("check 12 1.95 1.3 6.2", true),
+        ] {
+            let text = reply(&mut c, line);
+            let l = c.last_check().unwrap_or_else(|| panic!("{line}: {text}"));
+            assert_eq!(l.pass(), pass, "{text}");
+            assert!(
+                text.contains(if pass { "verdict=pass" } else { "verdict=fail" }),
+                "{text}"
+            );
+            let failing = text
+                .split("\r\n")
+                .find(|t| t.starts_with("node=") && t.ends_with(" ok=0"))
+                .and_then(|t| t.strip_prefix("node="))
+                .and_then(|t| t.split(' ').next());
+            assert_eq!(l.first_failing().map(|n| n.node.name()), failing, "{text}");
+            let fault = text
+                .split("\r\n")
+                .find_map(|t| t.strip_prefix("fault="))
+                .map(|t| {
+                    let mut w = t.split(' ');
+                    let part = w.next().unwrap_or("");
+                    let mode = w.next().and_then(|m| m.strip_prefix("mode=")).unwrap_or("");
+                    (String::from(part), String::from(mode))
+                });
+            let typed = l.first_fault().map(|h| {
+                (
+                    String::from(h.suspect.part()),
+                    String::from(h.suspect.mode()),
+                )
+            });
+            assert_eq!(typed, fault, "{text}");
+            assert_eq!(pass, fault.is_none(), "{text}");
+            assert_eq!(l.explained().is_some(), !pass);
+            assert_eq!(l.nodes().len(), text.matches("node=").count());
+        }
     }
 }

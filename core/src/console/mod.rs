@@ -391,7 +391,12 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.readings
     }
 
-    /// The last judged board: readings, verdict and (when it failed) the diagnosis.
+    /// The last judged board, typed, as the session keeps it (a reference, no copy): the
+    /// readings and where they came from, the verdict with every node's window, the gain
+    /// readings with theirs and (when it failed) the diagnosis; [`LastCheck::first_failing`]
+    /// and [`LastCheck::first_fault`] give what a screen shows. Set by `check`, `test` and
+    /// `diagnose`; a board that is not judged (an `err` status) leaves the previous one;
+    /// cleared when the stage, the transistor or the test settings change.
     pub fn last_check(&self) -> Option<&LastCheck> {
         self.last.as_ref()
     }
