@@ -1,5 +1,4 @@
-//! The commands that judge a board and spread a stage: `check`, `test`, `diagnose` and
-//! `spread`.
+//! The commands that judge a board: `measure`, `check`, `test` and `diagnose`.
 //!
 //! `check` and `test` call the one judging path of `biasjig check`, [`crate::judge::judge`], with
 //! the console's stage, transistor and test settings (ambient, meter, measuring inputs).
@@ -12,19 +11,19 @@ use core::fmt::Write as _;
 
 use embedded_io::Write;
 
-use super::commands::{show_readings, Num, Opt};
+use super::format::{Num, Opt};
+#[cfg(feature = "signal-test")]
+use super::jig::JigError;
 use super::jig::{Clock, Jig, Store};
 use super::parse::Tones;
 use super::reply::{Fail, Outcome, Reply, Text};
+use super::session::jig_fail;
+use super::show::show_readings;
 use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::{NodeVerdict, Verdict};
 use crate::diagnose::{Diagnosis, Hypothesis};
 use crate::explain::{listing, Listed};
 use crate::judge::JudgeError;
-#[cfg(feature = "monte-carlo")]
-use crate::spread::McSettings;
-#[cfg(feature = "spread")]
-use crate::spread::{self, Method, SpreadError};
 use crate::stage::Readings;
 use crate::units::{Eng, Fixed};
 
@@ -85,15 +84,6 @@ pub(super) fn judge_fail(e: JudgeError) -> Fail {
         _ => Code::Solve,
     };
     Fail::new(code, format_args!("{e}"))
-}
-
-#[cfg(feature = "spread")]
-fn spread_fail(what: &str, e: SpreadError) -> Fail {
-    let code = match e {
-        SpreadError::Solve(_) => Code::Solve,
-        _ => Code::Range,
-    };
-    Fail::new(code, format_args!("{what}: {e}"))
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
@@ -165,7 +155,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(())
     }
 
-    fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>) {
+    pub(super) fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>) {
         let word = if l.verdict.pass { "pass" } else { "fail" };
         match &l.diagnosis {
             Some(d) => r.data(format_args!(
@@ -271,7 +261,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     }
 
     #[inline(never)]
-    fn show_faults<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
+    pub(super) fn show_faults<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
         if r.machine() {
             for h in d.faults().take(LISTED_FAULTS) {
                 let mut t = Text::default();
@@ -313,7 +303,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// The likely faults in words (human mode), in a frame of its own: the machine path does
     /// not carry the listing's stack.
     #[inline(never)]
-    fn show_fault_words<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
+    pub(super) fn show_fault_words<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
         let items: heapless::Vec<Listed, LISTED_FAULTS> = d
             .faults()
             .take(LISTED_FAULTS)
@@ -355,84 +345,70 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             )))),
         }
     }
+}
 
-    /// `spread RUNS SEED`: the worst case over the corners and a seeded Monte Carlo summary.
+impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
-    #[cfg(feature = "spread")]
-    pub(super) fn spread<W: Write>(&self, runs: u32, seed: u64, r: &mut Reply<'_, W>) -> Outcome {
-        let st = &self.settings;
-        let var = st.variation();
-        let wc = spread::worst_case(&st.stage, &st.profile, &var, Method::default())
-            .map_err(|e| spread_fail("spread", e))?;
-        #[cfg(feature = "monte-carlo")]
-        let mc = {
-            let settings = McSettings {
-                runs,
-                seed,
-                signal: true,
-                requirement: spread::Requirement::default(),
-            };
-            let mc = spread::monte_carlo(&st.stage, &st.profile, &var, &wc, &settings, |_, _| {})
-                .map_err(|e| spread_fail("spread", e))?;
-            Some(mc)
-        };
-        #[cfg(not(feature = "monte-carlo"))]
-        let mc: Option<spread::MonteCarlo> = None;
-        for node in spread::Node::ALL {
-            let w = wc.nodes.get(node);
-            let s = mc.as_ref().map(|mc| mc.nodes.get(node));
-            if r.machine() {
-                r.data(format_args!(
-                    "worst={} min={} max={}",
-                    node.name(),
-                    Num(w.min),
-                    Num(w.max)
-                ));
-                if let Some(s) = s {
-                    r.data(format_args!(
-                        "mc={} mean={} std={} min={} max={}",
-                        node.name(),
-                        Num(s.mean),
-                        Num(s.std()),
-                        Num(s.range.min),
-                        Num(s.range.max)
-                    ));
-                }
-            } else {
-                let u = node.unit();
-                let (lo, hi) = (Eng::new(w.min, u), Eng::new(w.max, u));
-                match s {
-                    Some(s) => r.data(format_args!(
-                        "{:<6} worst {lo} to {hi}   Monte Carlo mean {}, std {}",
-                        node.label(),
-                        Eng::new(s.mean, u),
-                        Eng::new(s.std(), u)
-                    )),
-                    None => r.data(format_args!("{:<6} worst {lo} to {hi}", node.label())),
+    pub(super) fn cmd_measure<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
+        let rd = self.measure(n)?;
+        show_readings(&rd, Source::Measured, r);
+        Ok(None)
+    }
+
+    #[inline(never)]
+    pub(super) fn cmd_judge<W: Write>(
+        &mut self,
+        rd: Readings,
+        tones: &super::parse::Tones,
+        src: Source,
+        r: &mut Reply<'_, W>,
+    ) -> Outcome {
+        self.judge(rd, tones, src)?;
+        self.show_check(r);
+        Ok(None)
+    }
+
+    /// `test`: the DC nodes first, then the gain at the two test frequencies the signal test
+    /// proposes for the design (when the stage has a load and the jig can drive a tone).
+    #[inline(never)]
+    pub(super) fn cmd_test<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
+        let rd = self.measure(n)?;
+        #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
+        let mut tones = super::parse::Tones::new();
+        #[cfg(feature = "signal-test")]
+        if self.settings.stage.rl.is_some() {
+            let st = &self.settings;
+            if let Ok(p) = crate::signaltest::propose(
+                &st.stage,
+                &st.profile,
+                &st.variation(),
+                &st.test_settings().signal,
+            ) {
+                for f in [p.midband, p.poles] {
+                    match self.jig.gain(f) {
+                        Ok(gain) => {
+                            let _ = tones.push(crate::signaltest::ToneReading { f, gain });
+                        }
+                        Err(JigError::NotSupported) => break,
+                        Err(e) => return Err(jig_fail(e)),
+                    }
                 }
             }
         }
-        let Some(mc) = mc else {
-            let _ = (runs, seed);
-            return Ok(Some(Text::of(format_args!(
-                "worst case from {} solves; no Monte Carlo on this unit (left out to fit its \
-                 flash): run biasjig spread on a PC",
-                wc.solves
-            ))));
-        };
-        if r.machine() {
-            r.data(format_args!(
-                "runs={} failed={} active={} seed={seed} solves={}",
-                mc.runs, mc.failed, mc.active, wc.solves
-            ));
-        } else {
-            r.data(format_args!(
-                "{} runs (seed {seed}): {} without an operating point, {} active; worst case \
-                 from {} solves",
-                mc.runs, mc.failed, mc.active, wc.solves
+        self.cmd_judge(rd, &tones, Source::Measured, r)
+    }
+
+    #[inline(never)]
+    pub(super) fn measure(&mut self, samples: u16) -> Result<Readings, Fail> {
+        let rd = self.jig.measure(samples).map_err(jig_fail)?;
+        if ![rd.vcc, rd.vb, rd.ve, rd.vc].iter().all(|v| v.is_finite()) {
+            return Err(Fail::new(
+                Code::Jig,
+                format_args!("the jig gave a reading that is not a number"),
             ));
         }
-        Ok(None)
+        self.readings = Some((rd, Source::Measured));
+        Ok(rd)
     }
 }
 
@@ -441,7 +417,6 @@ mod tests {
     use super::super::jig::{MemoryStore, NoJig};
     use super::super::{Clock, Console, Identity};
     use std::string::String;
-    use std::vec::Vec;
 
     struct Still;
 
@@ -451,26 +426,13 @@ mod tests {
         }
     }
 
-    struct Out(Vec<u8>);
-
-    impl embedded_io::ErrorType for Out {
-        type Error = core::convert::Infallible;
-    }
-
-    impl embedded_io::Write for Out {
-        fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
-            self.0.extend_from_slice(buf);
-            Ok(buf.len())
-        }
-        fn flush(&mut self) -> Result<(), Self::Error> {
-            Ok(())
-        }
-    }
-
     fn reply(c: &mut Console<NoJig, MemoryStore, Still>, line: &str) -> String {
-        let mut out = Out(Vec::new());
+        let mut buf = [0u8; 8192];
+        let mut out: &mut [u8] = &mut buf;
         let _ = c.line(line, &mut out);
-        String::from_utf8(out.0).unwrap_or_default()
+        let left = out.len();
+        let used = buf.len() - left;
+        String::from_utf8_lossy(buf.get(..used).unwrap_or(&[])).into_owned()
     }
 
     /// The typed last check says what the machine-mode reply of the same `check` lists: the

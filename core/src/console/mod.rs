@@ -18,14 +18,20 @@
 //! state in [`Console`], the commands, [`jig`] (traits the front end implements) and [`record`]
 //! (store records and the design hash).
 
-mod commands;
+mod calibration;
+mod format;
 pub mod jig;
 mod judge;
 mod kept;
 pub mod line;
 pub mod parse;
+#[cfg(any(feature = "analysis", feature = "spread"))]
+mod predict;
 pub mod record;
 pub mod reply;
+mod session;
+mod settings;
+mod show;
 #[cfg(feature = "synthesis")]
 mod synthesis;
 
@@ -37,7 +43,7 @@ use parse::Mode;
 use record::Settings;
 use reply::{write_all, Fail, Reply, Text};
 
-pub use commands::Num;
+pub use format::Num;
 pub use judge::{LastCheck, LISTED_FAULTS};
 pub use kept::{KeptDesign, KeptList};
 
