@@ -18,7 +18,9 @@
 //! state in [`Console`], the commands, [`jig`] (traits the front end implements) and [`record`]
 //! (store records and the design hash).
 
+mod args;
 mod calibration;
+mod fields;
 mod format;
 pub mod jig;
 mod judge;
@@ -34,6 +36,7 @@ mod settings;
 mod show;
 #[cfg(feature = "synthesis")]
 mod synthesis;
+mod table;
 
 use embedded_io::{Read, Write};
 
@@ -46,6 +49,7 @@ use reply::{write_all, Fail, Reply, Text};
 pub use format::Num;
 pub use judge::{LastCheck, LISTED_FAULTS};
 pub use kept::{KeptDesign, KeptList};
+pub use table::{Spec, COMMANDS, SAFETY};
 
 use crate::design::{Candidates, Requirement};
 use crate::device::Profile;

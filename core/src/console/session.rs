@@ -9,135 +9,11 @@
 use embedded_io::Write;
 
 use super::jig::{Clock, Jig, JigError, Slot, Store, RECORD_LEN};
-use super::parse::{Command, Mode, SET_NAMES};
+use super::parse::{Command, Mode};
 use super::record;
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::show::show_readings;
 use super::{Code, Console, Source, PIN_FREE_TRIES};
-
-/// The commands with their usage and a line of help, in the order `help` lists them.
-pub const COMMANDS: [(&str, &str, &str); 32] = [
-    ("help", "help [COMMAND]", "this list, or one command"),
-    (
-        "identify",
-        "identify | *IDN?",
-        "maker,model,serial,firmware",
-    ),
-    (
-        "*rst",
-        "*RST",
-        "stage, transistor, meter, readings back to the defaults",
-    ),
-    ("stage", "stage", "show the stage"),
-    (
-        "set",
-        "set NAME VALUE [TOL%]",
-        "change one part or figure (help set)",
-    ),
-    ("profile", "profile", "show the transistor"),
-    (
-        "parts",
-        "parts [4|5]",
-        "part values, codes and colour bands",
-    ),
-    (
-        "predict",
-        "predict",
-        "operating point, estimate, gain, corner, power",
-    ),
-    ("hash", "hash", "design hash of the stage and transistor"),
-    (
-        "digest",
-        "digest",
-        "settings digest: stage, transistor, test ambient, meter and inputs",
-    ),
-    (
-        "requirement",
-        "requirement [NAME VALUE]",
-        "show or set the requirement",
-    ),
-    (
-        "design",
-        "design",
-        "candidate part lists for the requirement",
-    ),
-    ("pick", "pick N", "take candidate N as the stage"),
-    (
-        "spread",
-        "spread [RUNS] [SEED]",
-        "worst case and Monte Carlo spread (runs 1..2000)",
-    ),
-    (
-        "limits",
-        "limits",
-        "pass windows per node at the nominal supply",
-    ),
-    (
-        "meter",
-        "meter [gain P% | offset V | divider P%]",
-        "meter and jig accuracy",
-    ),
-    (
-        "measure",
-        "measure [SAMPLES]",
-        "read the nodes with the jig (1..1024 averaged)",
-    ),
-    (
-        "check",
-        "check VCC VB VE VC",
-        "judge typed readings; the likely fault when it fails",
-    ),
-    ("test", "test [SAMPLES]", "measure, then check"),
-    (
-        "diagnose",
-        "diagnose",
-        "likely faults of the last board, again",
-    ),
-    ("readings", "readings", "show the last readings"),
-    (
-        "calibrate",
-        "calibrate [CH low V | CH high V | gain F KNOWN | reset]",
-        "jig calibration: two points per channel, the signal path against a known gain",
-    ),
-    (
-        "inject",
-        "inject PART MODE | none (PART also cin cout ce)",
-        "emulated jig: make the board faulty",
-    ),
-    ("lock", "lock PIN", "lock editing of the stage and limits"),
-    ("unlock", "unlock PIN", "unlock editing"),
-    (
-        "echo",
-        "echo on|off",
-        "echo typed characters (for terminals)",
-    ),
-    (
-        "mode",
-        "mode [machine|human]",
-        "key=value data lines in SI units, or text",
-    ),
-    ("save", "save", "keep the settings and calibration"),
-    (
-        "keep",
-        "keep NAME",
-        "keep the stage and settings on the unit as NAME",
-    ),
-    ("designs", "designs", "list the designs kept on the unit"),
-    (
-        "choose",
-        "choose NAME",
-        "a kept design becomes the stage (also at power-up)",
-    ),
-    ("forget", "forget NAME", "remove a kept design"),
-];
-
-/// The safety cautions shown by `help`.
-pub const SAFETY: [&str; 4] = [
-    "Safety: de-energise the board before changing probes or parts.",
-    "Keep jig inputs within their rated range.",
-    "No mains-connected circuits without isolation.",
-    "Local codes and licensed practice take precedence.",
-];
 
 /// The refusal of a design-search command by a unit built without them (core feature
 /// `synthesis`, left out of the instrument's budget build).
@@ -223,7 +99,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     pub(super) fn exec<W: Write>(&mut self, cmd: Command<'_>, r: &mut Reply<'_, W>) -> Outcome {
         match cmd {
             Command::Nothing => Ok(None),
-            Command::Help(topic) => help(topic, r),
+            Command::Help(topic) => super::table::help(topic, r),
             Command::Identify => {
                 let id = &self.identity;
                 r.raw(format_args!(
@@ -473,46 +349,6 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Code::Pin,
                 format_args!("wrong PIN ({n} in a row)"),
             ))
-        }
-    }
-}
-
-#[inline(never)]
-fn help<W: Write>(topic: Option<&str>, r: &mut Reply<'_, W>) -> Outcome {
-    match topic {
-        None => {
-            r.data(format_args!("Commands (words are case-insensitive):"));
-            for (_, usage, what) in COMMANDS {
-                r.data(format_args!("{usage:<40} {what}"));
-            }
-            for s in SAFETY {
-                r.data(format_args!("{s}"));
-            }
-            Ok(None)
-        }
-        Some(t) if t.eq_ignore_ascii_case("set") => {
-            r.data(format_args!("set NAME VALUE [TOL%]; NAME one of:"));
-            r.data(format_args!("{SET_NAMES}"));
-            r.data(format_args!(
-                "rl, cin, cout, ce, early take `none`; beta sets min, typ and max"
-            ));
-            Ok(None)
-        }
-        Some(t) => {
-            let found = COMMANDS.iter().find(|(name, _, _)| {
-                name.eq_ignore_ascii_case(t)
-                    || (t.eq_ignore_ascii_case("*idn?") && *name == "identify")
-            });
-            match found {
-                Some((_, usage, what)) => {
-                    r.data(format_args!("{usage:<40} {what}"));
-                    Ok(None)
-                }
-                None => Err(Fail::new(
-                    Code::Unknown,
-                    format_args!("help: {t}: no such command"),
-                )),
-            }
         }
     }
 }

@@ -1,0 +1,293 @@
+//! The one command table: each row names a command (and any other word for it), its usage, its
+//! line of help and how its arguments are read. `help` lists it, [`super::parse::parse`] looks
+//! the command word up in it, and the help test checks it against docs/protocol.md; the parsed
+//! [`Command`] is run by [`super::Console::exec`] in the module of its job.
+#![expect(
+    clippy::result_large_err,
+    reason = "an outcome carries its status text in a fixed buffer, with no allocation"
+)]
+
+use embedded_io::Write;
+
+use super::args::{self, bare, Read};
+use super::parse::{Command, SET_NAMES};
+use super::reply::{Fail, Outcome, Reply};
+use super::Code;
+
+/// One console command.
+#[derive(Clone, Copy)]
+pub struct Spec {
+    /// The command's words, separated by spaces: its name first, then any other word for it
+    /// (`identify *idn?`). Matched without regard to case.
+    pub names: &'static str,
+    /// How it is written, as `help` shows it.
+    pub usage: &'static str,
+    /// What it does, in one line.
+    pub help: &'static str,
+    /// Reads its arguments.
+    read: Read,
+}
+
+impl Spec {
+    /// The command's name (its first word).
+    pub fn name(&self) -> &'static str {
+        self.names.split(' ').next().unwrap_or(self.names)
+    }
+
+    /// `word` is one of the command's words (case-insensitive).
+    pub fn is(&self, word: &str) -> bool {
+        self.names.split(' ').any(|n| n.eq_ignore_ascii_case(word))
+    }
+
+    /// Read the arguments of a line whose command word is this command's.
+    pub(super) fn read<'s, 'l>(
+        &self,
+        a: args::Args<'s, 'l>,
+    ) -> Result<Command<'l>, super::parse::ParseError<'l>> {
+        (self.read)(a)
+    }
+}
+
+/// The row of a command word, if there is one.
+pub fn find(word: &str) -> Option<&'static Spec> {
+    COMMANDS.iter().find(|s| s.is(word))
+}
+
+/// Every command, in the order `help` lists them.
+pub const COMMANDS: [Spec; 32] = [
+    Spec {
+        names: "help",
+        usage: "help [COMMAND]",
+        help: "this list, or one command",
+        read: args::help,
+    },
+    Spec {
+        names: "identify *idn?",
+        usage: "identify | *IDN?",
+        help: "maker,model,serial,firmware",
+        read: |a| bare(a, Command::Identify),
+    },
+    Spec {
+        names: "*rst",
+        usage: "*RST",
+        help: "stage, transistor, meter, readings back to the defaults",
+        read: |a| bare(a, Command::Reset),
+    },
+    Spec {
+        names: "stage",
+        usage: "stage",
+        help: "show the stage",
+        read: |a| bare(a, Command::Stage),
+    },
+    Spec {
+        names: "set",
+        usage: "set NAME VALUE [TOL%]",
+        help: "change one part or figure (help set)",
+        read: args::set,
+    },
+    Spec {
+        names: "profile",
+        usage: "profile",
+        help: "show the transistor",
+        read: |a| bare(a, Command::Profile),
+    },
+    Spec {
+        names: "parts",
+        usage: "parts [4|5]",
+        help: "part values, codes and colour bands",
+        read: args::parts,
+    },
+    Spec {
+        names: "predict",
+        usage: "predict",
+        help: "operating point, estimate, gain, corner, power",
+        read: |a| bare(a, Command::Predict),
+    },
+    Spec {
+        names: "hash",
+        usage: "hash",
+        help: "design hash of the stage and transistor",
+        read: |a| bare(a, Command::Hash),
+    },
+    Spec {
+        names: "digest",
+        usage: "digest",
+        help: "settings digest: stage, transistor, test ambient, meter and inputs",
+        read: |a| bare(a, Command::Digest),
+    },
+    Spec {
+        names: "requirement",
+        usage: "requirement [NAME VALUE]",
+        help: "show or set the requirement",
+        read: args::requirement,
+    },
+    Spec {
+        names: "design",
+        usage: "design",
+        help: "candidate part lists for the requirement",
+        read: |a| bare(a, Command::Design),
+    },
+    Spec {
+        names: "pick",
+        usage: "pick N",
+        help: "take candidate N as the stage",
+        read: args::pick,
+    },
+    Spec {
+        names: "spread",
+        usage: "spread [RUNS] [SEED]",
+        help: "worst case and Monte Carlo spread (runs 1..2000)",
+        read: args::spread,
+    },
+    Spec {
+        names: "limits",
+        usage: "limits",
+        help: "pass windows per node at the nominal supply",
+        read: |a| bare(a, Command::Limits),
+    },
+    Spec {
+        names: "meter",
+        usage: "meter [gain P% | offset V | divider P%]",
+        help: "meter and jig accuracy",
+        read: args::meter,
+    },
+    Spec {
+        names: "measure",
+        usage: "measure [SAMPLES]",
+        help: "read the nodes with the jig (1..1024 averaged)",
+        read: args::measure,
+    },
+    Spec {
+        names: "check",
+        usage: "check VCC VB VE VC",
+        help: "judge typed readings; the likely fault when it fails",
+        read: args::check,
+    },
+    Spec {
+        names: "test",
+        usage: "test [SAMPLES]",
+        help: "measure, then check",
+        read: args::test,
+    },
+    Spec {
+        names: "diagnose",
+        usage: "diagnose",
+        help: "likely faults of the last board, again",
+        read: |a| bare(a, Command::Diagnose),
+    },
+    Spec {
+        names: "readings",
+        usage: "readings",
+        help: "show the last readings",
+        read: |a| bare(a, Command::Readings),
+    },
+    Spec {
+        names: "calibrate",
+        usage: "calibrate [CH low V | CH high V | gain F KNOWN | reset]",
+        help: "jig calibration: two points per channel, the signal path against a known gain",
+        read: args::calibrate,
+    },
+    Spec {
+        names: "inject",
+        usage: "inject PART MODE | none (PART also cin cout ce)",
+        help: "emulated jig: make the board faulty",
+        read: args::inject,
+    },
+    Spec {
+        names: "lock",
+        usage: "lock PIN",
+        help: "lock editing of the stage and limits",
+        read: args::lock,
+    },
+    Spec {
+        names: "unlock",
+        usage: "unlock PIN",
+        help: "unlock editing",
+        read: args::unlock,
+    },
+    Spec {
+        names: "echo",
+        usage: "echo on|off",
+        help: "echo typed characters (for terminals)",
+        read: args::echo,
+    },
+    Spec {
+        names: "mode",
+        usage: "mode [machine|human]",
+        help: "key=value data lines in SI units, or text",
+        read: args::mode,
+    },
+    Spec {
+        names: "save",
+        usage: "save",
+        help: "keep the settings and calibration",
+        read: |a| bare(a, Command::Save),
+    },
+    Spec {
+        names: "keep",
+        usage: "keep NAME",
+        help: "keep the stage and settings on the unit as NAME",
+        read: args::keep,
+    },
+    Spec {
+        names: "designs",
+        usage: "designs",
+        help: "list the designs kept on the unit",
+        read: |a| bare(a, Command::Designs),
+    },
+    Spec {
+        names: "choose",
+        usage: "choose NAME",
+        help: "a kept design becomes the stage (also at power-up)",
+        read: args::choose,
+    },
+    Spec {
+        names: "forget",
+        usage: "forget NAME",
+        help: "remove a kept design",
+        read: args::forget,
+    },
+];
+
+/// The safety cautions shown by `help`.
+pub const SAFETY: [&str; 4] = [
+    "Safety: de-energise the board before changing probes or parts.",
+    "Keep jig inputs within their rated range.",
+    "No mains-connected circuits without isolation.",
+    "Local codes and licensed practice take precedence.",
+];
+
+/// `help [COMMAND]`: the table with the safety cautions, one row, or the names of `set`.
+#[inline(never)]
+pub(super) fn help<W: Write>(topic: Option<&str>, r: &mut Reply<'_, W>) -> Outcome {
+    match topic {
+        None => {
+            r.data(format_args!("Commands (words are case-insensitive):"));
+            for s in &COMMANDS {
+                r.data(format_args!("{:<40} {}", s.usage, s.help));
+            }
+            for s in SAFETY {
+                r.data(format_args!("{s}"));
+            }
+            Ok(None)
+        }
+        Some(t) if t.eq_ignore_ascii_case("set") => {
+            r.data(format_args!("set NAME VALUE [TOL%]; NAME one of:"));
+            r.data(format_args!("{SET_NAMES}"));
+            r.data(format_args!(
+                "rl, cin, cout, ce, early take `none`; beta sets min, typ and max"
+            ));
+            Ok(None)
+        }
+        Some(t) => match find(t) {
+            Some(s) => {
+                r.data(format_args!("{:<40} {}", s.usage, s.help));
+                Ok(None)
+            }
+            None => Err(Fail::new(
+                Code::Unknown,
+                format_args!("help: {t}: no such command"),
+            )),
+        },
+    }
+}
