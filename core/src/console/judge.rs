@@ -21,10 +21,16 @@ use super::session::jig_fail;
 use super::show::show_readings;
 use super::{Code, Console, Source, MAX_OUT_LINE};
 use crate::check::{NodeVerdict, Verdict};
+#[cfg(feature = "signal-test")]
+use crate::device::Profile;
 use crate::diagnose::{Diagnosis, Hypothesis};
 use crate::explain::{listing, Listed};
 use crate::judge::JudgeError;
+#[cfg(feature = "signal-test")]
+use crate::settings::TestSettings;
 use crate::stage::Readings;
+#[cfg(feature = "signal-test")]
+use crate::stage::Stage;
 use crate::units::{Eng, Fixed};
 
 /// How many fault hypotheses `check`, `test` and `diagnose` list at most (as `biasjig check`).
@@ -74,6 +80,18 @@ impl LastCheck {
     pub fn explained(&self) -> Option<bool> {
         self.diagnosis.as_ref().map(|d| d.explained)
     }
+}
+
+/// The test frequencies `test` proposed, with the stage, transistor and test settings they were
+/// proposed for (the whole input of [`crate::signaltest::propose`]).
+#[cfg(feature = "signal-test")]
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Proposed {
+    stage: Stage,
+    profile: Profile,
+    settings: TestSettings,
+    /// Midband and poles frequency, Hz; `None` when none were proposed.
+    frequencies: Option<[f64; 2]>,
 }
 
 /// The status of a board the judging path did not judge.
@@ -377,14 +395,8 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let mut tones = super::parse::Tones::new();
         #[cfg(feature = "signal-test")]
         if self.settings.stage.rl.is_some() {
-            let st = &self.settings;
-            if let Ok(p) = crate::signaltest::propose(
-                &st.stage,
-                &st.profile,
-                &st.variation(),
-                &st.test_settings().signal,
-            ) {
-                for f in [p.midband, p.poles] {
+            if let Some(fs) = self.test_frequencies() {
+                for f in fs {
                     match self.jig.gain(f) {
                         Ok(gain) => {
                             let _ = tones.push(crate::signaltest::ToneReading { f, gain });
@@ -396,6 +408,34 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             }
         }
         self.cmd_judge(rd, &tones, Source::Measured, r)
+    }
+
+    /// The two test frequencies of `test` (midband, then where the capacitors tell apart best),
+    /// Hz; `None` when the signal test proposes none for this stage. Proposed once per stage,
+    /// transistor and test settings: the proposal is kept with the settings it was made for and
+    /// made again only when any of them differs (a `set`, `meter`, `*RST`, `pick`, `choose` or
+    /// a load from the store), so it is the same as proposing every time.
+    #[cfg(feature = "signal-test")]
+    #[inline(never)]
+    fn test_frequencies(&mut self) -> Option<[f64; 2]> {
+        let st = &self.settings;
+        let ts = st.test_settings();
+        if let Some(p) = &self.proposed {
+            if p.stage == st.stage && p.profile == st.profile && p.settings == ts {
+                return p.frequencies;
+            }
+        }
+        let frequencies =
+            crate::signaltest::propose(&st.stage, &st.profile, &st.variation(), &ts.signal)
+                .ok()
+                .map(|p| [p.midband, p.poles]);
+        self.proposed = Some(Proposed {
+            stage: st.stage,
+            profile: st.profile,
+            settings: ts,
+            frequencies,
+        });
+        frequencies
     }
 
     #[inline(never)]
@@ -484,5 +524,57 @@ mod tests {
             assert_eq!(l.explained().is_some(), !pass);
             assert_eq!(l.nodes().len(), text.matches("node=").count());
         }
+    }
+
+    /// The kept proposal is what proposing again gives, after every kind of settings change
+    /// (a kept proposal for other settings would test the board at the wrong frequencies).
+    #[cfg(feature = "signal-test")]
+    #[test]
+    fn kept_test_frequencies_follow_every_settings_change() {
+        let mut c = Console::new(
+            Identity::new("console", "0"),
+            NoJig,
+            MemoryStore::default(),
+            Still,
+        );
+        let fresh = |c: &Console<NoJig, MemoryStore, Still>| {
+            let st = c.settings();
+            crate::signaltest::propose(
+                &st.stage,
+                &st.profile,
+                &st.variation(),
+                &st.test_settings().signal,
+            )
+            .ok()
+            .map(|p| [p.midband, p.poles])
+        };
+        let first = c.test_frequencies();
+        assert!(first.is_some());
+        assert_eq!(first, fresh(&c));
+        let mut seen = std::vec![first];
+        for line in [
+            "set ce 100u",
+            "set rc 3.9k",
+            "set rl 4.7k",
+            "set temp-min -40",
+            "set beta 80",
+            "meter gain 2%",
+            "set input-r none",
+            "set rl none",
+            "*RST",
+        ] {
+            let status = reply(&mut c, line);
+            assert!(status.ends_with("ok\r\n"), "{line}: {status}");
+            let kept = c.test_frequencies();
+            assert_eq!(kept, fresh(&c), "{line}");
+            // Asked again without a change: the same.
+            assert_eq!(c.test_frequencies(), kept, "{line}");
+            seen.push(kept);
+        }
+        // The changes moved the frequencies (the check above could not pass by a stale value).
+        assert!(
+            seen.windows(2).filter(|w| w[0] != w[1]).count() >= 3,
+            "{seen:?}"
+        );
     }
 }

@@ -298,6 +298,9 @@ pub struct Console<J: Jig, S: Store, C: Clock> {
     readings: Option<(Readings, Source)>,
     /// The last judged board (cleared when the stage or the meter changes).
     last: Option<LastCheck>,
+    /// The test frequencies of `test`, with the settings they were proposed for.
+    #[cfg(feature = "signal-test")]
+    proposed: Option<judge::Proposed>,
     requirement: Requirement,
     candidates: Candidates,
     echo: bool,
@@ -333,6 +336,8 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             cal_low: [None; 4],
             readings: None,
             last: None,
+            #[cfg(feature = "signal-test")]
+            proposed: None,
             requirement: default_requirement(),
             candidates: Candidates::new(),
             echo: false,
