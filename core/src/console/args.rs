@@ -250,17 +250,31 @@ pub(super) fn inject<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>>
     fault(a.list).map(Command::Inject)
 }
 
-/// The PIN of `lock PIN` and `unlock PIN`.
-fn pin<'l>(a: Args<'_, 'l>) -> Result<Pin, ParseError<'l>> {
+/// The one argument of a command, read by `parse` (refused as `field`, with what is allowed);
+/// `usage` when there is not exactly one.
+fn one<'l, T>(
+    a: Args<'_, 'l>,
+    parse: fn(&str) -> Option<T>,
+    field: &'l str,
+    allowed: &'static str,
+    usage: &'static str,
+) -> Result<T, ParseError<'l>> {
     match a.list {
-        [p] => Pin::parse(p).ok_or(err(Code::Value, "pin", "", "4 to 8 digits")),
-        _ => Err(err(
-            Code::Usage,
-            a.word,
-            "",
-            "lock PIN | unlock PIN (4 to 8 digits)",
-        )),
+        [w] => parse(w).ok_or(err(Code::Value, field, w, allowed)),
+        _ => Err(err(Code::Usage, a.word, "", usage)),
     }
+}
+
+/// The PIN of `lock PIN` and `unlock PIN` (a wrong PIN is not echoed).
+fn pin<'l>(a: Args<'_, 'l>) -> Result<Pin, ParseError<'l>> {
+    one(
+        a,
+        Pin::parse,
+        "pin",
+        "4 to 8 digits",
+        "lock PIN | unlock PIN (4 to 8 digits)",
+    )
+    .map_err(|e| ParseError { value: "", ..e })
 }
 
 /// `lock PIN`.
@@ -294,20 +308,13 @@ pub(super) fn mode<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
 
 /// The NAME of `keep`, `choose` and `forget`.
 fn name<'l>(a: Args<'_, 'l>) -> Result<Name, ParseError<'l>> {
-    match a.list {
-        [n] => Name::parse(n).ok_or(err(
-            Code::Value,
-            "name",
-            n,
-            "1 to 16 letters, digits, - _ or .",
-        )),
-        _ => Err(err(
-            Code::Usage,
-            a.word,
-            "",
-            "keep NAME | choose NAME | forget NAME",
-        )),
-    }
+    one(
+        a,
+        Name::parse,
+        "name",
+        "1 to 16 letters, digits, - _ or .",
+        "keep NAME | choose NAME | forget NAME",
+    )
 }
 
 /// `keep NAME`.

@@ -7,7 +7,7 @@
 
 use embedded_io::Write;
 
-use super::format::Num;
+use super::format::{Field, Val};
 use super::jig::{Channel, ChannelCal, Clock, Jig, Store};
 use super::parse::CalibrateStep;
 use super::reply::{Fail, Outcome, Reply, Text};
@@ -15,7 +15,8 @@ use super::session::jig_fail;
 #[cfg(not(feature = "signal-test"))]
 use super::session::not_here;
 use super::{Code, Console};
-use crate::units::{Eng, Fixed};
+#[cfg(feature = "signal-test")]
+use crate::units::Fixed;
 
 /// Conversions averaged for one calibration point.
 const CAL_SAMPLES: u16 = 64;
@@ -32,35 +33,15 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 for c in Channel::ALL {
                     let k = self.calibration.get(c);
                     let pending = self.cal_low.get(c.index()).copied().flatten().is_some();
-                    if r.machine() {
-                        r.data(format_args!(
-                            "channel={} gain={} offset={} low_taken={}",
-                            c.name(),
-                            Num(k.gain),
-                            Num(k.offset),
-                            u8::from(pending)
-                        ));
-                    } else {
-                        r.data(format_args!(
-                            "{:<4} gain {}  offset {}{}",
-                            c.name(),
-                            Fixed(k.gain, 6),
-                            Eng::new(k.offset, "V"),
-                            if pending { "  (low point taken)" } else { "" }
-                        ));
-                    }
+                    channel_line(
+                        r,
+                        c,
+                        k,
+                        ("low_taken", Val::Flag(pending, "  (low point taken)", "")),
+                        "{0:4} gain {1}  offset {2}{3}",
+                    );
                 }
-                if r.machine() {
-                    r.data(format_args!(
-                        "signal load_over_source={}",
-                        Num(self.calibration.signal)
-                    ));
-                } else {
-                    r.data(format_args!(
-                        "signal path: load input reads {} of the source input",
-                        Fixed(self.calibration.signal, 6)
-                    ));
-                }
+                signal_line(r, self.calibration.signal);
                 Ok(None)
             }
             #[cfg(feature = "signal-test")]
@@ -110,21 +91,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     .set_calibration(&self.calibration)
                     .map_err(jig_fail)?;
                 self.save_calibration()?;
-                if r.machine() {
-                    r.data(format_args!(
-                        "channel={} gain={} offset={}",
-                        c.name(),
-                        Num(k.gain),
-                        Num(k.offset)
-                    ));
-                } else {
-                    r.data(format_args!(
-                        "{} gain {}  offset {}",
-                        c.name(),
-                        Fixed(k.gain, 6),
-                        Eng::new(k.offset, "V")
-                    ));
-                }
+                channel_line(r, c, k, ("", Val::Label(&"")), "{0} gain {1}  offset {2}");
                 Ok(None)
             }
             CalibrateStep::Reset => {
@@ -171,14 +138,38 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.jig.set_calibration(&cal).map_err(jig_fail)?;
         self.calibration = cal;
         self.save_calibration()?;
-        if r.machine() {
-            r.data(format_args!("signal load_over_source={}", Num(k)));
-        } else {
-            r.data(format_args!(
-                "signal path: load input reads {} of the source input",
-                Fixed(k, 6)
-            ));
-        }
+        signal_line(r, k);
         Ok(None)
     }
+}
+
+/// A channel's calibration (gain, offset in V) with one more field; `human` the line for a
+/// person.
+fn channel_line<W: Write>(
+    r: &mut Reply<'_, W>,
+    c: Channel,
+    k: ChannelCal,
+    more: Field<'_>,
+    human: &str,
+) {
+    r.fields(
+        &[
+            ("channel", Val::Word(c.name())),
+            ("gain", Val::Fixed(k.gain, 6)),
+            ("offset", Val::Si(k.offset, "V")),
+            more,
+        ],
+        human,
+    );
+}
+
+/// The signal path's correction: what the load input reads per unit the source input reads.
+fn signal_line<W: Write>(r: &mut Reply<'_, W>, k: f64) {
+    r.fields(
+        &[
+            ("", Val::Word("signal")),
+            ("load_over_source", Val::Fixed(k, 6)),
+        ],
+        "signal path: load input reads {1} of the source input",
+    );
 }

@@ -27,16 +27,22 @@ pub(super) fn value<'a>(field: &'a str, text: &'a str) -> Result<f64, ParseError
     units::parse_value(text).map_err(|_| err(Code::Value, field, text, VALUE_FORMS))
 }
 
+/// The refusal of `text` as a value of `field`: the units it allows when it had another's,
+/// else the forms of a value.
+fn value_error<'a>(field: &'a str, text: &'a str, e: units::ValueError) -> ParseError<'a> {
+    match e {
+        units::ValueError::WrongUnit(u) => err(Code::Value, field, text, u.allowed()),
+        _ => err(Code::Value, field, text, VALUE_FORMS),
+    }
+}
+
 /// A non-negative value of a field of `unit` (its own unit letters may follow, no other's).
 pub(super) fn value_in<'a>(
     field: &'a str,
     text: &'a str,
     unit: Unit,
 ) -> Result<f64, ParseError<'a>> {
-    units::parse_value_in(text, unit).map_err(|e| match e {
-        units::ValueError::WrongUnit(u) => err(Code::Value, field, text, u.allowed()),
-        _ => err(Code::Value, field, text, VALUE_FORMS),
-    })
+    units::parse_value_in(text, unit).map_err(|e| value_error(field, text, e))
 }
 
 /// A value of a field of `unit`, or `none`.
@@ -59,10 +65,7 @@ pub(super) fn signed_in<'a>(
     text: &'a str,
     unit: Unit,
 ) -> Result<f64, ParseError<'a>> {
-    units::parse_signed_in(text, unit).map_err(|e| match e {
-        units::ValueError::WrongUnit(u) => err(Code::Value, field, text, u.allowed()),
-        _ => err(Code::Value, field, text, VALUE_FORMS),
-    })
+    units::parse_signed_in(text, unit).map_err(|e| value_error(field, text, e))
 }
 
 /// A temperature in °C: a number that may be negative, `°C` or `C` may follow; no other unit.

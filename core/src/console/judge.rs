@@ -11,7 +11,7 @@ use core::fmt::Write as _;
 
 use embedded_io::Write;
 
-use super::format::{Num, Opt};
+use super::format::{Num, Opt, Val};
 #[cfg(feature = "signal-test")]
 use super::jig::JigError;
 use super::jig::{Clock, Jig, Store};
@@ -31,7 +31,6 @@ use crate::settings::TestSettings;
 use crate::stage::Readings;
 #[cfg(feature = "signal-test")]
 use crate::stage::Stage;
-use crate::units::{Eng, Fixed};
 
 /// How many fault hypotheses `check`, `test` and `diagnose` list at most (as `biasjig check`).
 pub const LISTED_FAULTS: usize = 6;
@@ -173,15 +172,24 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(())
     }
 
-    pub(super) fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>) {
-        let word = if l.verdict.pass { "pass" } else { "fail" };
-        match &l.diagnosis {
-            Some(d) => r.data(format_args!(
-                "verdict={word} explained={}",
-                u8::from(d.explained)
-            )),
-            None => r.data(format_args!("verdict={word}")),
-        }
+    /// The verdict: `verdict=pass|fail` (with `explained=` when diagnosed) for a program; for a
+    /// person the first template when it passed, the second (failing and judged node counts
+    /// `{2}`, `{3}`) when it failed.
+    fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>, human: [&str; 2]) {
+        let v = &l.verdict;
+        let explained = match &l.diagnosis {
+            Some(d) => ("explained", Val::Flag(d.explained, "", "")),
+            None => ("", Val::Label(&"")),
+        };
+        r.fields(
+            &[
+                ("verdict", Val::Word(if v.pass { "pass" } else { "fail" })),
+                explained,
+                ("", Val::Label(&v.failing().count())),
+                ("", Val::Label(&v.nodes.len())),
+            ],
+            if v.pass { human[0] } else { human[1] },
+        );
     }
 
     /// The last check: readings, verdict, nodes, derived quantities and the likely faults.
@@ -191,88 +199,53 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         show_readings(&l.readings, l.source, r);
         let v = &l.verdict;
         let dv = &v.derived;
-        if r.machine() {
-            Self::verdict_line(l, r);
-            for n in &v.nodes {
-                r.data(format_args!(
-                    "node={} measured={} low={} high={} ok={}",
-                    n.node.name(),
-                    Num(n.measured),
-                    Num(n.low),
-                    Num(n.high),
-                    u8::from(n.ok)
-                ));
-            }
-            for t in &l.tones {
-                r.data(format_args!(
-                    "ac f={} measured={} low={} high={} ok={}",
-                    Num(t.reading.f),
-                    Num(t.reading.gain),
-                    Num(t.window.low),
-                    Num(t.window.high),
-                    u8::from(t.ok)
-                ));
-            }
-            r.data(format_args!(
-                "derived ic={} ib={} ie={} vbe={} vce={} beta={} region={}",
-                Num(dv.ic),
-                Num(dv.ib),
-                Opt(dv.ie),
-                Num(dv.vbe),
-                Num(dv.vce),
-                Opt(dv.beta),
-                dv.region.name()
-            ));
-        } else {
-            let failing = v.failing().count();
-            if v.pass {
-                r.data(format_args!("PASS   every node inside its window"));
-            } else {
-                r.data(format_args!(
-                    "FAIL   {failing} of {} out of window",
-                    v.nodes.len()
-                ));
-            }
-            for n in &v.nodes {
-                let u = n.node.unit();
-                r.data(format_args!(
-                    "{:<4} {:<10} window {} to {}{}",
-                    n.node.label(),
-                    Eng::new(n.measured, u),
-                    Eng::new(n.low, u),
-                    Eng::new(n.high, u),
-                    if n.ok { "" } else { "   OUT" }
-                ));
-            }
-            for t in &l.tones {
-                r.data(format_args!(
-                    "gain at {}: {} window {} to {}{}",
-                    Eng::new(t.reading.f, "Hz"),
-                    Fixed(t.reading.gain, 3),
-                    Fixed(t.window.low, 3),
-                    Fixed(t.window.high, 3),
-                    if t.ok { "" } else { "   OUT" }
-                ));
-            }
-            let mut beta = Text::default();
-            match dv.beta {
-                Some(b) => {
-                    let _ = write!(beta, "{}", Fixed(b, 0));
-                }
-                None => {
-                    let _ = beta.write_str("-");
-                }
-            }
-            r.data(format_args!(
-                "IC {}, IB {}, hFE {}, VBE {}, VCE {}, {}",
-                Eng::new(dv.ic, "A"),
-                Eng::new(dv.ib, "A"),
-                beta.as_str(),
-                Eng::new(dv.vbe, "V"),
-                Eng::new(dv.vce, "V"),
-                dv.region.name()
-            ));
+        Self::verdict_line(
+            l,
+            r,
+            [
+                "PASS   every node inside its window",
+                "FAIL   {2} of {3} out of window",
+            ],
+        );
+        for n in &v.nodes {
+            let u = n.node.unit();
+            r.fields(
+                &[
+                    ("node", Val::Words(n.node.name(), n.node.label())),
+                    ("measured", Val::Si(n.measured, u)),
+                    ("low", Val::Si(n.low, u)),
+                    ("high", Val::Si(n.high, u)),
+                    ("ok", Val::Flag(n.ok, "", "   OUT")),
+                ],
+                "{0:4} {1:10} window {2} to {3}{4}",
+            );
         }
+        for t in &l.tones {
+            r.fields(
+                &[
+                    ("", Val::Word("ac")),
+                    ("f", Val::Si(t.reading.f, "Hz")),
+                    ("measured", Val::Fixed(t.reading.gain, 3)),
+                    ("low", Val::Fixed(t.window.low, 3)),
+                    ("high", Val::Fixed(t.window.high, 3)),
+                    ("ok", Val::Flag(t.ok, "", "   OUT")),
+                ],
+                "gain at {1}: {2} window {3} to {4}{5}",
+            );
+        }
+        r.fields(
+            &[
+                ("", Val::Word("derived")),
+                ("ic", Val::Si(dv.ic, "A")),
+                ("ib", Val::Si(dv.ib, "A")),
+                ("ie", Val::OptSi(dv.ie, "A")),
+                ("vbe", Val::Si(dv.vbe, "V")),
+                ("vce", Val::Si(dv.vce, "V")),
+                ("beta", Val::OptFixed(dv.beta, 0)),
+                ("region", Val::Word(dv.region.name())),
+            ],
+            "IC {1}, IB {2}, hFE {6}, VBE {4}, VCE {5}, {7}",
+        );
         if let Some(d) = &l.diagnosis {
             self.show_faults(d, r);
         }
@@ -350,9 +323,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let Some(l) = &self.last else {
             return Ok(None);
         };
-        if r.machine() {
-            Self::verdict_line(l, r);
-        }
+        Self::verdict_line(l, r, ["", ""]);
         match &l.diagnosis {
             Some(d) => {
                 self.show_faults(d, r);
@@ -466,6 +437,15 @@ mod tests {
         }
     }
 
+    fn console() -> Console<NoJig, MemoryStore, Still> {
+        Console::new(
+            Identity::new("console", "0"),
+            NoJig,
+            MemoryStore::default(),
+            Still,
+        )
+    }
+
     fn reply(c: &mut Console<NoJig, MemoryStore, Still>, line: &str) -> String {
         let mut buf = [0u8; 8192];
         let mut out: &mut [u8] = &mut buf;
@@ -479,12 +459,7 @@ mod tests {
     /// verdict, the first node out of its window and the first fault.
     #[test]
     fn last_check_matches_the_machine_reply() {
-        let mut c = Console::new(
-            Identity::new("console", "0"),
-            NoJig,
-            MemoryStore::default(),
-            Still,
-        );
+        let mut c = console();
         assert!(c.last_check().is_none());
         reply(&mut c, "mode machine");
         for (line, pass) in [
@@ -531,12 +506,7 @@ mod tests {
     #[cfg(feature = "signal-test")]
     #[test]
     fn kept_test_frequencies_follow_every_settings_change() {
-        let mut c = Console::new(
-            Identity::new("console", "0"),
-            NoJig,
-            MemoryStore::default(),
-            Still,
-        );
+        let mut c = console();
         let fresh = |c: &Console<NoJig, MemoryStore, Still>| {
             let st = c.settings();
             crate::signaltest::propose(

@@ -14,9 +14,11 @@
 //! - a write error (or a write of zero bytes) ends the call with an error value; nothing blocks
 //!   on it and nothing panics.
 //!
-//! Layers: [`line`] (assembling lines), [`parse`] (line to [`parse::Command`]), the session
-//! state in [`Console`], the commands, [`jig`] (traits the front end implements) and [`record`]
-//! (store records and the design hash).
+//! Layers: [`line`] (assembling lines), [`parse`] (line to [`parse::Command`] through the one
+//! command table [`COMMANDS`]), the session state in [`Console`], the commands by job (session,
+//! settings, calibration, show, predict, judge, synthesis, kept designs) writing their data
+//! lines through one formatting module (each item once, the mode chooses the layout), [`jig`]
+//! (traits the front end implements) and [`record`] (store records and the design hash).
 
 mod args;
 mod calibration;

@@ -10,9 +10,9 @@ use core::fmt;
 
 use embedded_io::Write;
 
-use super::format::Num;
 #[cfg(feature = "analysis")]
-use super::format::{lower, Human, Opt};
+use super::format::lower;
+use super::format::Val;
 use super::jig::{Clock, Jig, Store};
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console};
@@ -26,9 +26,6 @@ use crate::spread::McSettings;
 use crate::spread::{self, Method, SpreadError};
 #[cfg(feature = "analysis")]
 use crate::stage::Resistor;
-use crate::units::Eng;
-#[cfg(feature = "analysis")]
-use crate::units::Fixed;
 
 #[cfg(feature = "spread")]
 fn spread_fail(what: &str, e: SpreadError) -> Fail {
@@ -75,109 +72,68 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 );
             }
         }
-        if r.machine() {
-            r.data(format_args!(
-                "vb={} ve={} vc={} vbe={} vce={}",
-                Num(op.vb),
-                Num(op.ve),
-                Num(op.vc),
-                Num(op.vbe),
-                Num(op.vce),
-            ));
-            r.data(format_args!(
-                "ic={} ib={} ie={} region={}",
-                Num(op.ic),
-                Num(op.ib),
-                Num(op.ie),
-                op.region.name()
-            ));
-            r.data(format_args!(
-                "est_vb={} est_ve={} est_vc={} est_ic={} est_vce={}",
-                Num(e.vb),
-                Num(e.ve),
-                Num(e.vc),
-                Num(e.ic),
-                Num(e.vce)
-            ));
-            match &p.midband {
-                Some(m) => {
-                    r.data(format_args!(
-                        "gain={} gain_stage={} zin={} zout={}",
-                        Num(m.gain),
-                        Num(m.gain_stage),
-                        Num(m.zin),
-                        Num(m.zout),
-                    ));
-                    r.data(format_args!(
-                        "swing_pp={} clips={} f_low={}",
-                        Num(m.swing_pp),
-                        m.clips.name(),
-                        Opt(p.low.f_low)
-                    ));
-                }
-                None => r.data(format_args!("gain=none f_low={}", Opt(p.low.f_low))),
-            }
-            r.data(format_args!(
-                "transistor={} rating={} supply_current={}",
-                Num(p.power.transistor),
-                Num(p.power.rating),
-                Num(p.power.supply_current)
-            ));
-            r.data(format_args!(
-                "warnings={}",
-                if list.as_str().is_empty() {
-                    "none"
-                } else {
-                    list.as_str()
-                }
-            ));
-        } else {
-            r.data(format_args!(
-                "Q-point  VB {}  VE {}  VC {}  ({})",
-                Eng::new(op.vb, "V"),
-                Eng::new(op.ve, "V"),
-                Eng::new(op.vc, "V"),
-                op.region.name()
-            ));
-            r.data(format_args!(
-                "         VBE {}  VCE {}  IC {}  IB {}",
-                Eng::new(op.vbe, "V"),
-                Eng::new(op.vce, "V"),
-                Eng::new(op.ic, "A"),
-                Eng::new(op.ib, "A")
-            ));
-            r.data(format_args!(
-                "estimate VB {}  VE {}  VC {}  IC {}",
-                Eng::new(e.vb, "V"),
-                Eng::new(e.ve, "V"),
-                Eng::new(e.vc, "V"),
-                Eng::new(e.ic, "A")
-            ));
-            if let Some(m) = &p.midband {
-                r.data(format_args!(
-                    "gain {} (stage {})  zin {}  zout {}",
-                    Fixed(m.gain, 3),
-                    Fixed(m.gain_stage, 3),
-                    Eng::new(m.zin, "Ω"),
-                    Eng::new(m.zout, "Ω")
-                ));
-                r.data(format_args!(
-                    "swing {} peak-to-peak, {} clips first",
-                    Eng::new(m.swing_pp, "V"),
-                    m.clips.name()
-                ));
-            }
-            r.data(format_args!("low corner {}", Human(p.low.f_low, "Hz")));
-            r.data(format_args!(
-                "power Q {} of {} rated, supply current {}",
-                Eng::new(p.power.transistor, "W"),
-                Eng::new(p.power.rating, "W"),
-                Eng::new(p.power.supply_current, "A")
-            ));
-            if !list.as_str().is_empty() {
-                r.data(format_args!("warnings: {}", list.as_str()));
-            }
+        r.fields(
+            &[
+                ("vb", Val::Si(op.vb, "V")),
+                ("ve", Val::Si(op.ve, "V")),
+                ("vc", Val::Si(op.vc, "V")),
+                ("vbe", Val::Si(op.vbe, "V")),
+                ("vce", Val::Si(op.vce, "V")),
+                ("", Val::Break),
+                ("ic", Val::Si(op.ic, "A")),
+                ("ib", Val::Si(op.ib, "A")),
+                ("ie", Val::Si(op.ie, "A")),
+                ("region", Val::Word(op.region.name())),
+                ("", Val::Break),
+                ("est_vb", Val::Si(e.vb, "V")),
+                ("est_ve", Val::Si(e.ve, "V")),
+                ("est_vc", Val::Si(e.vc, "V")),
+                ("est_ic", Val::Si(e.ic, "A")),
+                ("est_vce", Val::Si(e.vce, "V")),
+            ],
+            "Q-point  VB {0}  VE {1}  VC {2}  ({9})\n         VBE {3}  VCE {4}  IC {6}  IB {7}\n\
+             estimate VB {11}  VE {12}  VC {13}  IC {14}",
+        );
+        let f_low = Val::OptSi(p.low.f_low, "Hz");
+        match &p.midband {
+            Some(m) => r.fields(
+                &[
+                    ("gain", Val::Fixed(m.gain, 3)),
+                    ("gain_stage", Val::Fixed(m.gain_stage, 3)),
+                    ("zin", Val::Si(m.zin, "Ω")),
+                    ("zout", Val::Si(m.zout, "Ω")),
+                    ("", Val::Break),
+                    ("swing_pp", Val::Si(m.swing_pp, "V")),
+                    ("clips", Val::Word(m.clips.name())),
+                    ("f_low", f_low),
+                ],
+                "gain {0} (stage {1})  zin {2}  zout {3}\n\
+                 swing {5} peak-to-peak, {6} clips first\n\
+                 low corner {7}",
+            ),
+            None => r.fields(
+                &[("gain", Val::Word("none")), ("f_low", f_low)],
+                "low corner {1}",
+            ),
         }
+        let none = list.as_str().is_empty();
+        r.fields(
+            &[
+                ("transistor", Val::Si(p.power.transistor, "W")),
+                ("rating", Val::Si(p.power.rating, "W")),
+                ("supply_current", Val::Si(p.power.supply_current, "A")),
+                ("", Val::Break),
+                (
+                    "warnings",
+                    Val::Words(if none { "none" } else { list.as_str() }, list.as_str()),
+                ),
+            ],
+            if none {
+                "power Q {0} of {1} rated, supply current {2}"
+            } else {
+                "power Q {0} of {1} rated, supply current {2}\nwarnings: {4}"
+            },
+        );
         Ok(None)
     }
 
@@ -206,35 +162,31 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         for node in spread::Node::ALL {
             let w = wc.nodes.get(node);
             let s = mc.as_ref().map(|mc| mc.nodes.get(node));
-            if r.machine() {
-                r.data(format_args!(
-                    "worst={} min={} max={}",
-                    node.name(),
-                    Num(w.min),
-                    Num(w.max)
-                ));
-                if let Some(s) = s {
-                    r.data(format_args!(
-                        "mc={} mean={} std={} min={} max={}",
-                        node.name(),
-                        Num(s.mean),
-                        Num(s.std()),
-                        Num(s.range.min),
-                        Num(s.range.max)
-                    ));
+            let u = node.unit();
+            let worst = [
+                ("worst", Val::Words(node.name(), node.label())),
+                ("min", Val::Si(w.min, u)),
+                ("max", Val::Si(w.max, u)),
+            ];
+            match s {
+                Some(s) => {
+                    let [a, b, c] = worst;
+                    r.fields(
+                        &[
+                            a,
+                            b,
+                            c,
+                            ("", Val::Break),
+                            ("mc", Val::Word(node.name())),
+                            ("mean", Val::Si(s.mean, u)),
+                            ("std", Val::Si(s.std(), u)),
+                            ("min", Val::Si(s.range.min, u)),
+                            ("max", Val::Si(s.range.max, u)),
+                        ],
+                        "{0:6} worst {1} to {2}   Monte Carlo mean {5}, std {6}",
+                    )
                 }
-            } else {
-                let u = node.unit();
-                let (lo, hi) = (Eng::new(w.min, u), Eng::new(w.max, u));
-                match s {
-                    Some(s) => r.data(format_args!(
-                        "{:<6} worst {lo} to {hi}   Monte Carlo mean {}, std {}",
-                        node.label(),
-                        Eng::new(s.mean, u),
-                        Eng::new(s.std(), u)
-                    )),
-                    None => r.data(format_args!("{:<6} worst {lo} to {hi}", node.label())),
-                }
+                None => r.fields(&worst, "{0:6} worst {1} to {2}"),
             }
         }
         let Some(mc) = mc else {
@@ -245,18 +197,17 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 wc.solves
             ))));
         };
-        if r.machine() {
-            r.data(format_args!(
-                "runs={} failed={} active={} seed={seed} solves={}",
-                mc.runs, mc.failed, mc.active, wc.solves
-            ));
-        } else {
-            r.data(format_args!(
-                "{} runs (seed {seed}): {} without an operating point, {} active; worst case \
-                 from {} solves",
-                mc.runs, mc.failed, mc.active, wc.solves
-            ));
-        }
+        r.fields(
+            &[
+                ("runs", Val::Shown(&mc.runs)),
+                ("failed", Val::Shown(&mc.failed)),
+                ("active", Val::Shown(&mc.active)),
+                ("seed", Val::Shown(&seed)),
+                ("solves", Val::Shown(&wc.solves)),
+            ],
+            "{0} runs (seed {3}): {1} without an operating point, {2} active; worst case from {4} \
+             solves",
+        );
         Ok(None)
     }
 }

@@ -8,6 +8,7 @@
 
 use embedded_io::Write;
 
+use super::format::Val;
 use super::jig::{Clock, Jig, JigError, Slot, Store, RECORD_LEN};
 use super::parse::{Command, Mode};
 use super::record;
@@ -147,22 +148,16 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 ),
             )),
             Command::Hash => {
-                let h = self.design_hash();
-                if r.machine() {
-                    r.data(format_args!("hash={h:016x}"));
-                } else {
-                    r.data(format_args!("design hash {h:016x}"));
-                }
+                r.fields(
+                    &[("hash", Val::Hash(self.design_hash()))],
+                    "design hash {0}",
+                );
                 Ok(None)
             }
             Command::Digest => {
                 let st = &self.settings;
                 let d = crate::settings::digest(&st.stage, &st.profile, &st.test_settings());
-                if r.machine() {
-                    r.data(format_args!("digest={d}"));
-                } else {
-                    r.data(format_args!("settings digest {d}"));
-                }
+                r.fields(&[("digest", Val::Shown(&d))], "settings digest {0}");
                 Ok(None)
             }
             #[cfg(not(feature = "synthesis"))]
@@ -249,11 +244,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                     Mode::Human => "human",
                     Mode::Machine => "machine",
                 };
-                if r.machine() {
-                    r.data(format_args!("mode={m}"));
-                } else {
-                    r.data(format_args!("mode {m}"));
-                }
+                r.fields(&[("mode", Val::Word(m))], "mode {0}");
                 Ok(None)
             }
             Command::Mode(Some(m)) => {

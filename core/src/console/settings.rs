@@ -7,7 +7,7 @@
 
 use embedded_io::Write;
 
-use super::format::{Num, Pct};
+use super::format::{Num, Pct, Val};
 use super::jig::{Clock, Jig, Store};
 use super::parse::{MeterSetting, Setting};
 use super::record::Settings;
@@ -130,52 +130,37 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let st = &self.settings;
         match crate::judge::nominal_region(&st.stage, &st.profile, &st.test_settings()) {
             Ok(crate::solve::Region::Active) => {}
-            Ok(region) => {
-                if r.machine() {
-                    r.data(format_args!("warning=not_active region={}", region.name()));
-                } else {
-                    r.data(format_args!(
-                        "warning: the stage is not forward active at its nominal point (region: \
-                         {}): limits, check and test refuse it until the bias is changed",
-                        region.name()
-                    ));
-                }
-            }
+            Ok(region) => r.fields(
+                &[
+                    ("warning", Val::Word("not_active")),
+                    ("region", Val::Word(region.name())),
+                ],
+                "warning: the stage is not forward active at its nominal point (region: {1}): \
+                 limits, check and test refuse it until the bias is changed",
+            ),
             Err(e) => r.data(format_args!(
                 "warning: the nominal point does not solve: {e}"
             )),
         }
         let supply = st.stage.vcc.tol;
         if supply > UNUSUAL_SUPPLY_TOL || supply == 0.0 {
-            if r.machine() {
-                r.data(format_args!(
-                    "warning=unusual_tolerance part=VCC tol={}",
-                    Num(supply)
-                ));
-            } else {
-                r.data(format_args!(
-                    "warning: supply tolerance {} is unusual (a bench supply is set to within a \
-                     few %; 0 % refuses any supply not exactly nominal)",
-                    Pct(supply)
-                ));
-            }
+            unusual(
+                r,
+                "VCC",
+                supply,
+                "warning: supply tolerance {2} is unusual (a bench supply is set to within a few \
+                 %; 0 % refuses any supply not exactly nominal)",
+            );
         }
         for which in Resistor::ALL {
             let t = st.stage.part(which).tol;
             if t > UNUSUAL_TOL {
-                if r.machine() {
-                    r.data(format_args!(
-                        "warning=unusual_tolerance part={} tol={}",
-                        which.name(),
-                        Num(t)
-                    ));
-                } else {
-                    r.data(format_args!(
-                        "warning: {} tolerance {} is unusual for a bias resistor (1 % to 10 %)",
-                        which.name(),
-                        Pct(t)
-                    ));
-                }
+                unusual(
+                    r,
+                    which.name(),
+                    t,
+                    "warning: {1} tolerance {2} is unusual for a bias resistor (1 % to 10 %)",
+                );
             }
         }
     }
@@ -209,4 +194,17 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         }
         Ok(None)
     }
+}
+
+/// The warning of an unusual tolerance `tol` (fraction) of `part`; `human` the text for a
+/// person.
+fn unusual<W: Write>(r: &mut Reply<'_, W>, part: &str, tol: f64, human: &str) {
+    r.fields(
+        &[
+            ("warning", Val::Word("unusual_tolerance")),
+            ("part", Val::Word(part)),
+            ("tol", Val::Pct(tol)),
+        ],
+        human,
+    );
 }

@@ -5,163 +5,116 @@
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
 )]
 
-#[cfg(feature = "spread")]
-use core::fmt;
 use core::fmt::Write as _;
 
 use embedded_io::Write;
 
-use super::format::{cap_name, lower, Human, Num, Opt, Pct, Upper};
+use super::format::{cap_name, lower, polarity_name, Val};
 use super::jig::{Clock, Jig, Store};
 use super::reply::{Outcome, Reply, Text};
 use super::{Console, Source};
 #[cfg(feature = "spread")]
 use crate::series::{colour_bands, BandCount};
-use crate::stage::{Capacitor, Polarity, Readings, Resistor};
-use crate::units::Eng;
+use crate::stage::{Capacitor, Readings, Resistor};
 #[cfg(feature = "spread")]
 use crate::units::{capacitor_code, resistor_code};
+
+/// The key of a part's value (`r1`, `cin`) and of its tolerance (`r1_tol`).
+fn part_keys(name: &str) -> (Text, Text) {
+    let key = lower(name);
+    let mut tol = key.clone();
+    let _ = tol.write_str("_tol");
+    (key, tol)
+}
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
     pub(super) fn show_stage<W: Write>(&self, r: &mut Reply<'_, W>) {
-        let s = &self.settings.stage;
-        let pol = match s.polarity {
-            Polarity::Npn => "npn",
-            Polarity::Pnp => "pnp",
-        };
-        let caps = [
+        let st = &self.settings;
+        let s = &st.stage;
+        let pol = polarity_name(s.polarity);
+        r.fields(
+            &[
+                ("polarity", Val::Upper(pol)),
+                ("vcc", Val::Si(s.vcc.value, "V")),
+                ("vcc_tol", Val::Pct(s.vcc.tol)),
+                ("temp", Val::Num(st.temp_c)),
+                ("temp_min", Val::Num(st.temp_min_c)),
+                ("temp_max", Val::Num(st.temp_max_c)),
+            ],
+            "{0}  VCC {1} ±{2}  ambient {3} °C (range {4} to {5} °C)",
+        );
+        for which in Resistor::ALL {
+            let p = s.part(which);
+            let (key, tol) = part_keys(which.name());
+            r.fields(
+                &[
+                    ("", Val::Label(&which.name())),
+                    (key.as_str(), Val::Si(p.value, "Ω")),
+                    (tol.as_str(), Val::Pct(p.tol)),
+                ],
+                "{0:4} {1} ±{2}",
+            );
+        }
+        r.fields(
+            &[("rl", Val::OptSi(s.rl, "Ω")), ("rs", Val::Si(s.rs, "Ω"))],
+            "RL   {0}\nRS   {1}",
+        );
+        for (c, p) in [
             (Capacitor::Cin, s.cin),
             (Capacitor::Cout, s.cout),
             (Capacitor::Ce, s.ce),
-        ];
-        if r.machine() {
-            r.data(format_args!(
-                "polarity={pol} vcc={} vcc_tol={} temp={} temp_min={} temp_max={}",
-                Num(s.vcc.value),
-                Num(s.vcc.tol),
-                Num(self.settings.temp_c),
-                Num(self.settings.temp_min_c),
-                Num(self.settings.temp_max_c)
-            ));
-            for which in Resistor::ALL {
-                let p = s.part(which);
-                let n = lower(which.name());
-                r.data(format_args!(
-                    "{0}={1} {0}_tol={2}",
-                    n.as_str(),
-                    Num(p.value),
-                    Num(p.tol)
-                ));
-            }
-            r.data(format_args!("rl={} rs={}", Opt(s.rl), Num(s.rs)));
-            for (c, p) in caps {
-                let n = lower(cap_name(c));
-                r.data(format_args!(
-                    "{0}={1} {0}_tol={2}",
-                    n.as_str(),
-                    Opt(p.map(|p| p.value)),
-                    Opt(p.map(|p| p.tol))
-                ));
-            }
-            r.data(format_args!(
-                "locked={} hash={:016x} design={}",
-                u8::from(self.is_locked()),
-                self.design_hash(),
-                self.settings.design.as_ref().map_or("none", |n| n.as_str())
-            ));
-        } else {
-            r.data(format_args!(
-                "{}  VCC {} ±{}  ambient {} °C (range {} to {} °C)",
-                if s.polarity == Polarity::Npn {
-                    "NPN"
-                } else {
-                    "PNP"
-                },
-                Eng::new(s.vcc.value, "V"),
-                Pct(s.vcc.tol),
-                Num(self.settings.temp_c),
-                Num(self.settings.temp_min_c),
-                Num(self.settings.temp_max_c)
-            ));
-            for which in Resistor::ALL {
-                let p = s.part(which);
-                r.data(format_args!(
-                    "{:<4} {} ±{}",
-                    which.name(),
-                    Eng::new(p.value, "Ω"),
-                    Pct(p.tol)
-                ));
-            }
-            r.data(format_args!("RL   {}", Human(s.rl, "Ω")));
-            r.data(format_args!("RS   {}", Eng::new(s.rs, "Ω")));
-            for (c, p) in caps {
-                match p {
-                    Some(p) => r.data(format_args!(
-                        "{:<4} {} ±{}",
-                        cap_name(c),
-                        Eng::new(p.value, "F"),
-                        Pct(p.tol)
-                    )),
-                    None => r.data(format_args!("{:<4} ideal", cap_name(c))),
-                }
-            }
-            r.data(format_args!(
-                "{}  design hash {:016x}  kept as {}",
-                if self.is_locked() {
-                    "locked"
-                } else {
-                    "unlocked"
-                },
-                self.design_hash(),
-                self.settings.design.as_ref().map_or("-", |n| n.as_str())
-            ));
+        ] {
+            let (key, tol) = part_keys(cap_name(c));
+            let (value, t, human) = match p {
+                Some(p) => (Val::Si(p.value, "F"), Val::Pct(p.tol), "{0:4} {1} ±{2}"),
+                None => (Val::Word("none"), Val::Word("none"), "{0:4} ideal"),
+            };
+            r.fields(
+                &[
+                    ("", Val::Label(&cap_name(c))),
+                    (key.as_str(), value),
+                    (tol.as_str(), t),
+                ],
+                human,
+            );
         }
+        let kept = st.design.as_ref().map(|n| n.as_str());
+        r.fields(
+            &[
+                ("locked", Val::Flag(self.is_locked(), "locked", "unlocked")),
+                ("hash", Val::Hash(self.design_hash())),
+                (
+                    "design",
+                    Val::Words(kept.unwrap_or("none"), kept.unwrap_or("-")),
+                ),
+            ],
+            "{0}  design hash {1}  kept as {2}",
+        );
     }
 
     #[inline(never)]
     pub(super) fn show_profile<W: Write>(&self, r: &mut Reply<'_, W>) {
         let p = &self.settings.profile;
-        if r.machine() {
-            r.data(format_args!(
-                "beta_min={} beta_typ={} beta_max={} beta_rev={} beta_tc={}",
-                Num(p.beta_min),
-                Num(p.beta_typ),
-                Num(p.beta_max),
-                Num(p.beta_rev),
-                Num(p.beta_tc)
-            ));
-            r.data(format_args!(
-                "is={} vbe={} early={} vce_sat={} power_rating={} tj_max={}",
-                Num(p.is_25),
-                Num(p.vbe_1ma()),
-                Opt(p.early),
-                Num(p.vce_sat),
-                Num(p.power_25),
-                Num(p.tj_max)
-            ));
-        } else {
-            r.data(format_args!(
-                "hFE {} / {} / {} (min/typ/max at 25 °C), reverse {}, tc {} per °C",
-                Num(p.beta_min),
-                Num(p.beta_typ),
-                Num(p.beta_max),
-                Num(p.beta_rev),
-                Pct(p.beta_tc)
-            ));
-            r.data(format_args!(
-                "IS {} (VBE {} at 1 mA), Early {}",
-                Eng::new(p.is_25, "A"),
-                Eng::new(p.vbe_1ma(), "V"),
-                Human(p.early, "V")
-            ));
-            r.data(format_args!(
-                "VCE(sat) {}, rating {} at 25 °C, to zero at {} °C",
-                Eng::new(p.vce_sat, "V"),
-                Eng::new(p.power_25, "W"),
-                Num(p.tj_max)
-            ));
-        }
+        r.fields(
+            &[
+                ("beta_min", Val::Num(p.beta_min)),
+                ("beta_typ", Val::Num(p.beta_typ)),
+                ("beta_max", Val::Num(p.beta_max)),
+                ("beta_rev", Val::Num(p.beta_rev)),
+                ("beta_tc", Val::Pct(p.beta_tc)),
+                ("", Val::Break),
+                ("is", Val::Si(p.is_25, "A")),
+                ("vbe", Val::Si(p.vbe_1ma(), "V")),
+                ("early", Val::OptSi(p.early, "V")),
+                ("vce_sat", Val::Si(p.vce_sat, "V")),
+                ("power_rating", Val::Si(p.power_25, "W")),
+                ("tj_max", Val::Num(p.tj_max)),
+            ],
+            "hFE {0} / {1} / {2} (min/typ/max at 25 °C), reverse {3}, tc {4} per °C\n\
+             IS {6} (VBE {7} at 1 mA), Early {8}\n\
+             VCE(sat) {9}, rating {10} at 25 °C, to zero at {11} °C",
+        );
     }
 
     #[cfg(feature = "spread")]
@@ -170,71 +123,65 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let s = &self.settings.stage;
         for which in Resistor::ALL {
             let p = s.part(which);
-            let mut bands = Text::default();
-            let why = match colour_bands(p.value, p.tol, count) {
+            // The bands: comma-separated for a program, spaced for a person.
+            let (mut listed, mut spaced) = (Text::default(), Text::default());
+            let mut why = Text::default();
+            match colour_bands(p.value, p.tol, count) {
                 Ok(b) => {
-                    let sep = if r.machine() { "," } else { " " };
                     for (i, c) in b.iter().enumerate() {
-                        let _ = fmt::Write::write_fmt(
-                            &mut bands,
-                            format_args!("{}{}", if i == 0 { "" } else { sep }, c.name()),
-                        );
+                        let (comma, space) = if i == 0 { ("", "") } else { (",", " ") };
+                        let _ = write!(listed, "{comma}{}", c.name());
+                        let _ = write!(spaced, "{space}{}", c.name());
                     }
-                    None
                 }
                 Err(e) => {
-                    let _ = fmt::Write::write_str(&mut bands, "none");
-                    Some(e)
-                }
-            };
-            if r.machine() {
-                r.data(format_args!(
-                    "part={} value={} tol={} code={} bands={}",
-                    which.name(),
-                    Num(p.value),
-                    Num(p.tol),
-                    resistor_code(p.value),
-                    bands.as_str()
-                ));
-            } else {
-                match why {
-                    None => r.data(format_args!(
-                        "{:<4} {:<6} ±{:<6} {}",
-                        which.name(),
-                        resistor_code(p.value),
-                        Pct(p.tol),
-                        bands.as_str()
-                    )),
-                    Some(e) => r.data(format_args!(
-                        "{:<4} {:<6} ±{:<6} no bands: {e}",
-                        which.name(),
-                        resistor_code(p.value),
-                        Pct(p.tol)
-                    )),
+                    let _ = listed.write_str("none");
+                    let _ = spaced.write_str("none");
+                    let _ = write!(why, "{e}");
                 }
             }
+            let code = resistor_code(p.value);
+            r.fields(
+                &[
+                    ("part", Val::Word(which.name())),
+                    ("value", Val::Num(p.value)),
+                    ("tol", Val::Pct(p.tol)),
+                    ("code", Val::Word(code.as_str())),
+                    ("bands", Val::Words(listed.as_str(), spaced.as_str())),
+                    ("", Val::Label(&why.as_str())),
+                ],
+                if why.as_str().is_empty() {
+                    "{0:4} {3:6} ±{2:6} {4}"
+                } else {
+                    "{0:4} {3:6} ±{2:6} no bands: {5}"
+                },
+            );
         }
         for (c, p) in [
             (Capacitor::Cin, s.cin),
             (Capacitor::Cout, s.cout),
             (Capacitor::Ce, s.ce),
         ] {
-            match (p, r.machine()) {
-                (Some(p), true) => r.data(format_args!(
-                    "part={} value={} tol={} code={}",
-                    cap_name(c),
-                    Num(p.value),
-                    Num(p.tol),
-                    capacitor_code(p.value)
-                )),
-                (None, true) => r.data(format_args!("part={} value=none", cap_name(c))),
-                (Some(p), false) => r.data(format_args!(
-                    "{:<4} {:<6} ±{}",
-                    cap_name(c),
-                    capacitor_code(p.value),
-                    Pct(p.tol)
-                )),
-                (None, false) => r.data(format_args!("{:<4} ideal", cap_name(c))),
+            match p {
+                Some(p) => {
+                    let code = capacitor_code(p.value);
+                    r.fields(
+                        &[
+                            ("part", Val::Word(cap_name(c))),
+                            ("value", Val::Num(p.value)),
+                            ("tol", Val::Pct(p.tol)),
+                            ("code", Val::Word(code.as_str())),
+                        ],
+                        "{0:4} {3:6} ±{2}",
+                    );
+                }
+                None => r.fields(
+                    &[
+                        ("part", Val::Word(cap_name(c))),
+                        ("value", Val::Word("none")),
+                    ],
+                    "{0:4} ideal",
+                ),
             }
         }
     }
@@ -255,63 +202,39 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             ("ic", l.ic, "A"),
         ];
         for (name, w, unit) in rows {
-            if r.machine() {
-                r.data(format_args!(
-                    "node={name} low={} high={}",
-                    Num(w.low),
-                    Num(w.high)
-                ));
+            r.fields(
+                &[
+                    ("node", Val::Upper(name)),
+                    ("low", Val::Si(w.low, unit)),
+                    ("high", Val::Si(w.high, unit)),
+                ],
+                "{0:4} {1} to {2}",
+            );
+        }
+        r.fields(
+            &[
+                ("node", Val::Word("supply")),
+                ("low", Val::Si(w.supply.low, "V")),
+                ("high", Val::Si(w.supply.high, "V")),
+                ("", Val::Break),
+                ("vcc", Val::Si(l.vcc, "V")),
+                ("", Val::Break),
+                ("", Val::Word("ambient")),
+                ("min", Val::Num(ts.temp_min_c)),
+                ("max", Val::Num(ts.temp_max_c)),
+                ("input_r", Val::OptSi(ts.inputs.r, "Ω")),
+                ("inputs", Val::Word(ts.inputs.mode.name())),
+            ],
+            if ts.inputs.r.is_some() {
+                "VCC  {1} to {2} (supply window: outside it a board is not judged)\n\
+                 at VCC {4}\n\
+                 ambient {7} to {8} °C; inputs {9} to ground, {10}"
             } else {
-                r.data(format_args!(
-                    "{:<4} {} to {}",
-                    Upper(name),
-                    Eng::new(w.low, unit),
-                    Eng::new(w.high, unit)
-                ));
-            }
-        }
-        if r.machine() {
-            r.data(format_args!(
-                "node=supply low={} high={}",
-                Num(w.supply.low),
-                Num(w.supply.high)
-            ));
-            r.data(format_args!("vcc={}", Num(l.vcc)));
-            r.data(format_args!(
-                "ambient min={} max={} input_r={} inputs={}",
-                Num(ts.temp_min_c),
-                Num(ts.temp_max_c),
-                Opt(ts.inputs.r),
-                ts.inputs.mode.name()
-            ));
-        } else {
-            r.data(format_args!(
-                "VCC  {} to {} (supply window: outside it a board is not judged)",
-                Eng::new(w.supply.low, "V"),
-                Eng::new(w.supply.high, "V")
-            ));
-            r.data(format_args!("at VCC {}", Eng::new(l.vcc, "V")));
-            let mut inputs = Text::default();
-            match ts.inputs.r {
-                Some(rin) => {
-                    let _ = write!(
-                        inputs,
-                        "inputs {} to ground, {}",
-                        Eng::new(rin, "Ω"),
-                        ts.inputs.mode.name()
-                    );
-                }
-                None => {
-                    let _ = inputs.write_str("an ideal meter (no inputs modelled)");
-                }
-            }
-            r.data(format_args!(
-                "ambient {} to {} °C; {}",
-                Num(ts.temp_min_c),
-                Num(ts.temp_max_c),
-                inputs.as_str()
-            ));
-        }
+                "VCC  {1} to {2} (supply window: outside it a board is not judged)\n\
+                 at VCC {4}\n\
+                 ambient {7} to {8} °C; an ideal meter (no inputs modelled)"
+            },
+        );
         Ok(None)
     }
 
@@ -319,31 +242,22 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     pub(super) fn show_meter<W: Write>(&self, r: &mut Reply<'_, W>) {
         let m = &self.settings.meter;
         let i = &self.settings.inputs;
-        if r.machine() {
-            r.data(format_args!(
-                "gain={} offset={} divider={} input_r={} inputs={}",
-                Num(m.gain_error),
-                Num(m.offset),
-                Num(m.divider_tol),
-                Opt(i.r),
-                i.mode.name()
-            ));
-        } else {
-            r.data(format_args!(
-                "meter ±{} of reading ±{}, jig divider ±{}",
-                Pct(m.gain_error),
-                Eng::new(m.offset, "V"),
-                Pct(m.divider_tol)
-            ));
-            match i.r {
-                Some(rin) => r.data(format_args!(
-                    "measuring inputs {} from each node to ground, {}",
-                    Eng::new(rin, "Ω"),
-                    i.mode.name()
-                )),
-                None => r.data(format_args!("measuring inputs: ideal (none modelled)")),
-            }
-        }
+        r.fields(
+            &[
+                ("gain", Val::Pct(m.gain_error)),
+                ("offset", Val::Si(m.offset, "V")),
+                ("divider", Val::Pct(m.divider_tol)),
+                ("input_r", Val::OptSi(i.r, "Ω")),
+                ("inputs", Val::Word(i.mode.name())),
+            ],
+            if i.r.is_some() {
+                "meter ±{0} of reading ±{1}, jig divider ±{2}\n\
+                 measuring inputs {3} from each node to ground, {4}"
+            } else {
+                "meter ±{0} of reading ±{1}, jig divider ±{2}\n\
+                 measuring inputs: ideal (none modelled)"
+            },
+        );
     }
 }
 
@@ -353,21 +267,14 @@ pub(super) fn show_readings<W: Write>(rd: &Readings, src: Source, r: &mut Reply<
         Source::Measured => "measured",
         Source::Typed => "typed",
     };
-    if r.machine() {
-        r.data(format_args!(
-            "vcc={} vb={} ve={} vc={} source={src}",
-            Num(rd.vcc),
-            Num(rd.vb),
-            Num(rd.ve),
-            Num(rd.vc)
-        ));
-    } else {
-        r.data(format_args!(
-            "VCC {}  VB {}  VE {}  VC {}  ({src})",
-            Eng::new(rd.vcc, "V"),
-            Eng::new(rd.vb, "V"),
-            Eng::new(rd.ve, "V"),
-            Eng::new(rd.vc, "V")
-        ));
-    }
+    r.fields(
+        &[
+            ("vcc", Val::Si(rd.vcc, "V")),
+            ("vb", Val::Si(rd.vb, "V")),
+            ("ve", Val::Si(rd.ve, "V")),
+            ("vc", Val::Si(rd.vc, "V")),
+            ("source", Val::Word(src)),
+        ],
+        "VCC {0}  VB {1}  VE {2}  VC {3}  ({4})",
+    );
 }
