@@ -53,11 +53,6 @@ pub(super) fn help<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
     }
 }
 
-/// `set NAME VALUE [TOL%]`.
-pub(super) fn set<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    setting(a.list).map(Command::Set)
-}
-
 /// `parts [4|5]`.
 pub(super) fn parts<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
     match a.list {
@@ -143,7 +138,7 @@ pub(super) fn meter<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> 
 }
 
 /// The samples of `measure [SAMPLES]` and `test [SAMPLES]`.
-fn samples<'l>(a: Args<'_, 'l>) -> Result<u16, ParseError<'l>> {
+pub(super) fn samples<'l>(a: Args<'_, 'l>) -> Result<u16, ParseError<'l>> {
     if a.list.len() > 1 {
         return Err(err(
             Code::Usage,
@@ -153,16 +148,6 @@ fn samples<'l>(a: Args<'_, 'l>) -> Result<u16, ParseError<'l>> {
         ));
     }
     count("samples", a.list.first().copied())
-}
-
-/// `measure [SAMPLES]`.
-pub(super) fn measure<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    samples(a).map(Command::Measure)
-}
-
-/// `test [SAMPLES]`.
-pub(super) fn test<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    samples(a).map(Command::Test)
 }
 
 /// `check VCC VB VE VC [F:G ...]`.
@@ -266,7 +251,7 @@ fn one<'l, T>(
 }
 
 /// The PIN of `lock PIN` and `unlock PIN` (a wrong PIN is not echoed).
-fn pin<'l>(a: Args<'_, 'l>) -> Result<Pin, ParseError<'l>> {
+pub(super) fn pin<'l>(a: Args<'_, 'l>) -> Result<Pin, ParseError<'l>> {
     one(
         a,
         Pin::parse,
@@ -275,16 +260,6 @@ fn pin<'l>(a: Args<'_, 'l>) -> Result<Pin, ParseError<'l>> {
         "lock PIN | unlock PIN (4 to 8 digits)",
     )
     .map_err(|e| ParseError { value: "", ..e })
-}
-
-/// `lock PIN`.
-pub(super) fn lock<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    pin(a).map(Command::Lock)
-}
-
-/// `unlock PIN`.
-pub(super) fn unlock<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    pin(a).map(Command::Unlock)
 }
 
 /// `echo on|off`.
@@ -307,7 +282,7 @@ pub(super) fn mode<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
 }
 
 /// The NAME of `keep`, `choose` and `forget`.
-fn name<'l>(a: Args<'_, 'l>) -> Result<Name, ParseError<'l>> {
+pub(super) fn name<'l>(a: Args<'_, 'l>) -> Result<Name, ParseError<'l>> {
     one(
         a,
         Name::parse,
@@ -315,21 +290,6 @@ fn name<'l>(a: Args<'_, 'l>) -> Result<Name, ParseError<'l>> {
         "1 to 16 letters, digits, - _ or .",
         "keep NAME | choose NAME | forget NAME",
     )
-}
-
-/// `keep NAME`.
-pub(super) fn keep<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    name(a).map(Command::Keep)
-}
-
-/// `choose NAME`.
-pub(super) fn choose<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    name(a).map(Command::Choose)
-}
-
-/// `forget NAME`.
-pub(super) fn forget<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
-    name(a).map(Command::Forget)
 }
 
 #[cfg(feature = "synthesis")]
@@ -380,7 +340,7 @@ fn requirement_field<'a>(name: &'a str, v: &'a str) -> Result<ReqSetting, ParseE
     })
 }
 
-fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
+pub(super) fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
     let usage = "set NAME VALUE [TOL%], NAME one of the names in `help set`";
     let (name, v, tol) = match words {
         [name, v] => (*name, *v, None),

@@ -83,7 +83,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "set",
         usage: "set NAME VALUE [TOL%]",
         help: "change one part or figure (help set)",
-        read: args::set,
+        read: |a| args::setting(a.list).map(Command::Set),
     },
     Spec {
         names: "profile",
@@ -155,7 +155,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "measure",
         usage: "measure [SAMPLES]",
         help: "read the nodes with the jig (1..1024 averaged)",
-        read: args::measure,
+        read: |a| args::samples(a).map(Command::Measure),
     },
     Spec {
         names: "check",
@@ -167,7 +167,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "test",
         usage: "test [SAMPLES]",
         help: "measure, then check",
-        read: args::test,
+        read: |a| args::samples(a).map(Command::Test),
     },
     Spec {
         names: "diagnose",
@@ -197,13 +197,13 @@ pub const COMMANDS: [Spec; 32] = [
         names: "lock",
         usage: "lock PIN",
         help: "lock editing of the stage and limits",
-        read: args::lock,
+        read: |a| args::pin(a).map(Command::Lock),
     },
     Spec {
         names: "unlock",
         usage: "unlock PIN",
         help: "unlock editing",
-        read: args::unlock,
+        read: |a| args::pin(a).map(Command::Unlock),
     },
     Spec {
         names: "echo",
@@ -227,7 +227,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "keep",
         usage: "keep NAME",
         help: "keep the stage and settings on the unit as NAME",
-        read: args::keep,
+        read: |a| args::name(a).map(Command::Keep),
     },
     Spec {
         names: "designs",
@@ -239,13 +239,13 @@ pub const COMMANDS: [Spec; 32] = [
         names: "choose",
         usage: "choose NAME",
         help: "a kept design becomes the stage (also at power-up)",
-        read: args::choose,
+        read: |a| args::name(a).map(Command::Choose),
     },
     Spec {
         names: "forget",
         usage: "forget NAME",
         help: "remove a kept design",
-        read: args::forget,
+        read: |a| args::name(a).map(Command::Forget),
     },
 ];
 
