@@ -218,7 +218,11 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 ("high", Val::Si(w.supply.high, "V")),
                 ("", Val::Break),
                 ("vcc", Val::Si(l.vcc, "V")),
-                ("", Val::Break),
+            ],
+            "VCC  {1} to {2} (supply window: outside it a board is not judged)\nat VCC {4}",
+        );
+        r.fields(
+            &[
                 ("", Val::Word("ambient")),
                 ("min", Val::Num(ts.temp_min_c)),
                 ("max", Val::Num(ts.temp_max_c)),
@@ -226,13 +230,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 ("inputs", Val::Word(ts.inputs.mode.name())),
             ],
             if ts.inputs.r.is_some() {
-                "VCC  {1} to {2} (supply window: outside it a board is not judged)\n\
-                 at VCC {4}\n\
-                 ambient {7} to {8} °C; inputs {9} to ground, {10}"
+                "ambient {1} to {2} °C; inputs {3} to ground, {4}"
             } else {
-                "VCC  {1} to {2} (supply window: outside it a board is not judged)\n\
-                 at VCC {4}\n\
-                 ambient {7} to {8} °C; an ideal meter (no inputs modelled)"
+                "ambient {1} to {2} °C; an ideal meter (no inputs modelled)"
             },
         );
         Ok(None)

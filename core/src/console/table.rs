@@ -25,7 +25,67 @@ pub struct Spec {
     /// What it does, in one line.
     pub help: &'static str,
     /// Reads its arguments.
-    read: Read,
+    read: Reader,
+}
+
+/// How a row reads its arguments.
+#[derive(Clone, Copy)]
+enum Reader {
+    /// The command takes none: `USAGE` when any are given.
+    Bare(Bare),
+    /// This function reads them.
+    Args(Read),
+}
+
+/// The commands that take no arguments (a small value in the table, not a function each).
+#[derive(Clone, Copy)]
+enum Bare {
+    /// [`Command::Identify`].
+    Identify,
+    /// [`Command::Reset`].
+    Reset,
+    /// [`Command::Stage`].
+    Stage,
+    /// [`Command::Profile`].
+    Profile,
+    /// [`Command::Predict`].
+    Predict,
+    /// [`Command::Hash`].
+    Hash,
+    /// [`Command::Digest`].
+    Digest,
+    /// [`Command::Design`].
+    Design,
+    /// [`Command::Limits`].
+    Limits,
+    /// [`Command::Diagnose`].
+    Diagnose,
+    /// [`Command::Readings`].
+    Readings,
+    /// [`Command::Save`].
+    Save,
+    /// [`Command::Designs`].
+    Designs,
+}
+
+impl Bare {
+    fn command(self) -> Command<'static> {
+        match self {
+            Bare::Identify => Command::Identify,
+            Bare::Reset => Command::Reset,
+            Bare::Stage => Command::Stage,
+            Bare::Profile => Command::Profile,
+            Bare::Predict => Command::Predict,
+            Bare::Hash => Command::Hash,
+            Bare::Digest => Command::Digest,
+            Bare::Design => Command::Design,
+            Bare::Limits => Command::Limits,
+            Bare::Diagnose => Command::Diagnose,
+            Bare::Readings => Command::Readings,
+            Bare::Save => Command::Save,
+            Bare::Designs => Command::Designs,
+        }
+    }
 }
 
 impl Spec {
@@ -44,7 +104,10 @@ impl Spec {
         &self,
         a: args::Args<'s, 'l>,
     ) -> Result<Command<'l>, super::parse::ParseError<'l>> {
-        (self.read)(a)
+        match self.read {
+            Reader::Bare(b) => bare(a, b.command()),
+            Reader::Args(read) => read(a),
+        }
     }
 }
 
@@ -59,193 +122,193 @@ pub const COMMANDS: [Spec; 32] = [
         names: "help",
         usage: "help [COMMAND]",
         help: "this list, or one command",
-        read: args::help,
+        read: Reader::Args(args::help),
     },
     Spec {
         names: "identify *idn?",
         usage: "identify | *IDN?",
         help: "maker,model,serial,firmware",
-        read: |a| bare(a, Command::Identify),
+        read: Reader::Bare(Bare::Identify),
     },
     Spec {
         names: "*rst",
         usage: "*RST",
         help: "stage, transistor, meter, readings back to the defaults",
-        read: |a| bare(a, Command::Reset),
+        read: Reader::Bare(Bare::Reset),
     },
     Spec {
         names: "stage",
         usage: "stage",
         help: "show the stage",
-        read: |a| bare(a, Command::Stage),
+        read: Reader::Bare(Bare::Stage),
     },
     Spec {
         names: "set",
         usage: "set NAME VALUE [TOL%]",
         help: "change one part or figure (help set)",
-        read: |a| args::setting(a.list).map(Command::Set),
+        read: Reader::Args(|a| args::setting(a.list).map(Command::Set)),
     },
     Spec {
         names: "profile",
         usage: "profile",
         help: "show the transistor",
-        read: |a| bare(a, Command::Profile),
+        read: Reader::Bare(Bare::Profile),
     },
     Spec {
         names: "parts",
         usage: "parts [4|5]",
         help: "part values, codes and colour bands",
-        read: args::parts,
+        read: Reader::Args(args::parts),
     },
     Spec {
         names: "predict",
         usage: "predict",
         help: "operating point, estimate, gain, corner, power",
-        read: |a| bare(a, Command::Predict),
+        read: Reader::Bare(Bare::Predict),
     },
     Spec {
         names: "hash",
         usage: "hash",
         help: "design hash of the stage and transistor",
-        read: |a| bare(a, Command::Hash),
+        read: Reader::Bare(Bare::Hash),
     },
     Spec {
         names: "digest",
         usage: "digest",
         help: "settings digest: stage, transistor, test ambient, meter and inputs",
-        read: |a| bare(a, Command::Digest),
+        read: Reader::Bare(Bare::Digest),
     },
     Spec {
         names: "requirement",
         usage: "requirement [NAME VALUE]",
         help: "show or set the requirement",
-        read: args::requirement,
+        read: Reader::Args(args::requirement),
     },
     Spec {
         names: "design",
         usage: "design",
         help: "candidate part lists for the requirement",
-        read: |a| bare(a, Command::Design),
+        read: Reader::Bare(Bare::Design),
     },
     Spec {
         names: "pick",
         usage: "pick N",
         help: "take candidate N as the stage",
-        read: args::pick,
+        read: Reader::Args(args::pick),
     },
     Spec {
         names: "spread",
         usage: "spread [RUNS] [SEED]",
         help: "worst case and Monte Carlo spread (runs 1..2000)",
-        read: args::spread,
+        read: Reader::Args(args::spread),
     },
     Spec {
         names: "limits",
         usage: "limits",
         help: "pass windows per node at the nominal supply",
-        read: |a| bare(a, Command::Limits),
+        read: Reader::Bare(Bare::Limits),
     },
     Spec {
         names: "meter",
         usage: "meter [gain P% | offset V | divider P%]",
         help: "meter and jig accuracy",
-        read: args::meter,
+        read: Reader::Args(args::meter),
     },
     Spec {
         names: "measure",
         usage: "measure [SAMPLES]",
         help: "read the nodes with the jig (1..1024 averaged)",
-        read: |a| args::samples(a).map(Command::Measure),
+        read: Reader::Args(|a| args::samples(a).map(Command::Measure)),
     },
     Spec {
         names: "check",
         usage: "check VCC VB VE VC",
         help: "judge typed readings; the likely fault when it fails",
-        read: args::check,
+        read: Reader::Args(args::check),
     },
     Spec {
         names: "test",
         usage: "test [SAMPLES]",
         help: "measure, then check",
-        read: |a| args::samples(a).map(Command::Test),
+        read: Reader::Args(|a| args::samples(a).map(Command::Test)),
     },
     Spec {
         names: "diagnose",
         usage: "diagnose",
         help: "likely faults of the last board, again",
-        read: |a| bare(a, Command::Diagnose),
+        read: Reader::Bare(Bare::Diagnose),
     },
     Spec {
         names: "readings",
         usage: "readings",
         help: "show the last readings",
-        read: |a| bare(a, Command::Readings),
+        read: Reader::Bare(Bare::Readings),
     },
     Spec {
         names: "calibrate",
         usage: "calibrate [CH low V | CH high V | gain F KNOWN | reset]",
         help: "jig calibration: two points per channel, the signal path against a known gain",
-        read: args::calibrate,
+        read: Reader::Args(args::calibrate),
     },
     Spec {
         names: "inject",
         usage: "inject PART MODE | none (PART also cin cout ce)",
         help: "emulated jig: make the board faulty",
-        read: args::inject,
+        read: Reader::Args(args::inject),
     },
     Spec {
         names: "lock",
         usage: "lock PIN",
         help: "lock editing of the stage and limits",
-        read: |a| args::pin(a).map(Command::Lock),
+        read: Reader::Args(|a| args::pin(a).map(Command::Lock)),
     },
     Spec {
         names: "unlock",
         usage: "unlock PIN",
         help: "unlock editing",
-        read: |a| args::pin(a).map(Command::Unlock),
+        read: Reader::Args(|a| args::pin(a).map(Command::Unlock)),
     },
     Spec {
         names: "echo",
         usage: "echo on|off",
         help: "echo typed characters (for terminals)",
-        read: args::echo,
+        read: Reader::Args(args::echo),
     },
     Spec {
         names: "mode",
         usage: "mode [machine|human]",
         help: "key=value data lines in SI units, or text",
-        read: args::mode,
+        read: Reader::Args(args::mode),
     },
     Spec {
         names: "save",
         usage: "save",
         help: "keep the settings and calibration",
-        read: |a| bare(a, Command::Save),
+        read: Reader::Bare(Bare::Save),
     },
     Spec {
         names: "keep",
         usage: "keep NAME",
         help: "keep the stage and settings on the unit as NAME",
-        read: |a| args::name(a).map(Command::Keep),
+        read: Reader::Args(|a| args::name(a).map(Command::Keep)),
     },
     Spec {
         names: "designs",
         usage: "designs",
         help: "list the designs kept on the unit",
-        read: |a| bare(a, Command::Designs),
+        read: Reader::Bare(Bare::Designs),
     },
     Spec {
         names: "choose",
         usage: "choose NAME",
         help: "a kept design becomes the stage (also at power-up)",
-        read: |a| args::name(a).map(Command::Choose),
+        read: Reader::Args(|a| args::name(a).map(Command::Choose)),
     },
     Spec {
         names: "forget",
         usage: "forget NAME",
         help: "remove a kept design",
-        read: |a| args::name(a).map(Command::Forget),
+        read: Reader::Args(|a| args::name(a).map(Command::Forget)),
     },
 ];
 
