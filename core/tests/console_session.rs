@@ -8,7 +8,9 @@
 )]
 
 use biasjig_core::console::jig::{MemoryStore, NoJig};
-use biasjig_core::console::{Calibration, Channel, Console, Identity, Jig, JigError, LINE_MAX};
+use biasjig_core::console::{
+    parse, Calibration, Channel, Code, Console, Identity, Jig, JigError, COMMANDS, LINE_MAX,
+};
 use biasjig_core::stage::{Fault, Readings};
 use biasjig_testkit::session::{
     assert_contains, assert_line_with, assert_values, cmd, console_with, err, errs, ok, oks, send,
@@ -72,42 +74,73 @@ fn identify_and_idn_answer_four_ieee_488_2_fields() {
     assert_eq!(ok(&mut c, "*idn?"), d);
 }
 
-#[test]
-fn help_has_every_command_and_the_safety_cautions() {
-    let (mut c, _) = console();
-    let d = ok(&mut c, "help").join("\n");
-    for word in [
-        "help",
-        "identify",
-        "*IDN?",
-        "*RST",
-        "stage",
-        "set",
-        "profile",
-        "parts",
-        "predict",
-        "hash",
-        "requirement",
-        "design",
-        "pick",
-        "spread",
-        "limits",
-        "meter",
-        "measure",
-        "check",
-        "test",
-        "diagnose",
-        "readings",
-        "calibrate",
-        "inject",
-        "lock",
-        "unlock",
-        "echo",
-        "mode",
-        "save",
-    ] {
-        assert!(d.contains(word), "help lacks {word}");
+/// The command words of docs/protocol.md's command table (the contract a station script is
+/// written from): the first word of each `code` span in the first cell of each row.
+fn documented_commands() -> Vec<String> {
+    let doc = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/../docs/protocol.md"))
+        .expect("docs/protocol.md");
+    let table = doc
+        .split("\n## Commands\n")
+        .nth(1)
+        .and_then(|t| t.split("\n#").next())
+        .expect("a Commands section");
+    let mut words = Vec::new();
+    for row in table.lines().filter(|l| l.starts_with("| `")) {
+        let cell = row.split(" | ").next().unwrap_or("");
+        for (k, span) in cell.split('`').enumerate() {
+            if k % 2 == 1 {
+                let w = span.split(' ').next().unwrap_or("").to_ascii_lowercase();
+                if !words.contains(&w) {
+                    words.push(w);
+                }
+            }
+        }
     }
+    words
+}
+
+#[test]
+fn help_lists_the_command_table_as_documented_and_the_safety_cautions() {
+    let (mut c, _) = console();
+    let d = ok(&mut c, "help");
+    // The table is the protocol document's command list, no more and no less.
+    let documented = documented_commands();
+    assert!(documented.len() >= 32, "{documented:?}");
+    for w in &documented {
+        assert!(
+            COMMANDS.iter().any(|s| s.is(w)),
+            "{w} documented but not a command"
+        );
+    }
+    for s in &COMMANDS {
+        for w in s.names.split(' ') {
+            assert!(
+                documented.iter().any(|d| d == w),
+                "{w} not in docs/protocol.md"
+            );
+            // The parser knows every word of the table.
+            if let Err(e) = parse::parse(w) {
+                assert_ne!(e.code, Code::Unknown, "{w}");
+            }
+        }
+        // `help` lists each row once, and `help NAME` shows it alone.
+        let row = format!("{:<40} {}", s.usage, s.help);
+        assert_eq!(
+            d.iter().filter(|l| l.trim_start() == row).count(),
+            1,
+            "{row}"
+        );
+        // (`help set` lists the names `set` takes instead.)
+        for w in s.names.split(' ').filter(|w| *w != "set") {
+            assert_eq!(
+                ok(&mut c, &format!("help {w}")),
+                [format!("  {row}")],
+                "{w}"
+            );
+        }
+    }
+    assert_eq!(d.len(), 1 + COMMANDS.len() + 4);
+    let d = d.join("\n");
     for caution in [
         "de-energise the board before changing probes or parts",
         "within their rated range",
