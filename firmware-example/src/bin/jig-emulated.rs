@@ -13,9 +13,9 @@
 #![no_main]
 
 use biasjig_core::console::{Console, Identity};
-use biasjig_firmware::console::{App, Board, Show};
+use biasjig_firmware::console::{App, Board};
 use biasjig_firmware::jig::EmulatedJig;
-use biasjig_firmware::screen::{draw_show, FrameBuffer};
+use biasjig_firmware::screen::{draw_show, FrameBuffer, Show};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::store::{FlashStore, RamFlash};
 use biasjig_firmware::target::{stack, store_mem, ticks, usart1, usart1::Usart1};

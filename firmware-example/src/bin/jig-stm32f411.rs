@@ -15,10 +15,10 @@
 
 use biasjig_core::console::{Channel, Console, Identity};
 use biasjig_firmware::button::Debounce;
-use biasjig_firmware::console::{App, Board, Show};
+use biasjig_firmware::console::{App, Board};
 use biasjig_firmware::cost::Ticks;
 use biasjig_firmware::jig::{AdcJig, SampleSource};
-use biasjig_firmware::screen::draw_show;
+use biasjig_firmware::screen::{draw_show, Show};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::store::FlashStore;
 use biasjig_firmware::target::internal_flash::InternalFlash;
