@@ -16,7 +16,7 @@
 use embedded_io::Write;
 
 #[cfg(feature = "kept-designs")]
-use super::commands::Num;
+use super::format::Num;
 use super::jig::{Clock, Jig, Slot, Store, DESIGN_SLOTS, RECORD_LEN};
 use super::parse::Name;
 use super::record::{self, Settings};

@@ -18,14 +18,20 @@
 //! state in [`Console`], the commands, [`jig`] (traits the front end implements) and [`record`]
 //! (store records and the design hash).
 
-mod commands;
+mod calibration;
+mod format;
 pub mod jig;
 mod judge;
 mod kept;
 pub mod line;
 pub mod parse;
+#[cfg(any(feature = "analysis", feature = "spread"))]
+mod predict;
 pub mod record;
 pub mod reply;
+mod session;
+mod settings;
+mod show;
 #[cfg(feature = "synthesis")]
 mod synthesis;
 
@@ -37,7 +43,7 @@ use parse::Mode;
 use record::Settings;
 use reply::{write_all, Fail, Reply, Text};
 
-pub use commands::Num;
+pub use format::Num;
 pub use judge::{LastCheck, LISTED_FAULTS};
 pub use kept::{KeptDesign, KeptList};
 
@@ -391,7 +397,12 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.readings
     }
 
-    /// The last judged board: readings, verdict and (when it failed) the diagnosis.
+    /// The last judged board, typed, as the session keeps it (a reference, no copy): the
+    /// readings and where they came from, the verdict with every node's window, the gain
+    /// readings with theirs and (when it failed) the diagnosis; [`LastCheck::first_failing`]
+    /// and [`LastCheck::first_fault`] give what a screen shows. Set by `check`, `test` and
+    /// `diagnose`; a board that is not judged (an `err` status) leaves the previous one;
+    /// cleared when the stage, the transistor or the test settings change.
     pub fn last_check(&self) -> Option<&LastCheck> {
         self.last.as_ref()
     }

@@ -1,5 +1,5 @@
 //! The commands of the design search: `requirement`, `design` and `pick` (core feature
-//! `synthesis`; a unit built without it refuses them, see [`super::commands`]).
+//! `synthesis`; a unit built without it refuses them, see [`super::session`]).
 #![expect(
     clippy::result_large_err,
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
@@ -9,7 +9,7 @@ use core::fmt::Write as _;
 
 use embedded_io::Write;
 
-use super::commands::{Human, Num, Opt, Pct, Upper};
+use super::format::{Human, Num, Opt, Pct, Upper};
 use super::jig::{Clock, Jig, Store};
 use super::parse::ReqSetting;
 use super::reply::{Fail, Outcome, Reply, Text};
