@@ -26,7 +26,7 @@ pub(super) fn verdict_screen<'t, J: Jig, S: Store, C: Clock>(
     text: &'t mut heapless::String<FAULT_TEXT>,
 ) -> Option<VerdictScreen<'t>> {
     let last = console.last_check()?;
-    let verdict = if last.verdict.pass {
+    let verdict = if last.pass() {
         Verdict::Pass
     } else {
         Verdict::Fail
@@ -37,7 +37,11 @@ pub(super) fn verdict_screen<'t, J: Jig, S: Store, C: Clock>(
     Some(VerdictScreen {
         verdict,
         // The first node outside its window that the jig reads, in the reply's order.
-        failing_node: last.verdict.failing().find_map(|n| channel(n.node)),
+        failing_node: last
+            .nodes()
+            .iter()
+            .filter(|n| !n.ok)
+            .find_map(|n| channel(n.node)),
         fault: text.as_str(),
     })
 }
@@ -49,12 +53,12 @@ fn fault_words<J: Jig, S: Store, C: Clock>(
     last: &LastCheck,
     console: &Console<J, S, C>,
 ) {
-    let Some(d) = last.diagnosis.as_ref() else {
+    let Some(explained) = last.explained() else {
         return;
     };
     let mut ascii = Ascii(out);
-    let _ = match d.faults().next() {
-        Some(h) if d.explained => core::fmt::Write::write_fmt(
+    let _ = match last.first_fault() {
+        Some(h) if explained => core::fmt::Write::write_fmt(
             &mut ascii,
             format_args!("{}", FaultWords::of(&console.settings().stage, h)),
         ),
