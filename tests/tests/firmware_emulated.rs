@@ -29,6 +29,7 @@ use images::*;
 use judged::*;
 use qemu::*;
 use std::collections::HashMap;
+use std::path::Path;
 use std::time::{Duration, Instant};
 
 /// Flash of the budget build (`--no-default-features`), for parts with 128 KiB: the product
@@ -494,6 +495,14 @@ fn budget_image_refuses_the_design_search() {
     raw.screen("budget-not-here");
 }
 
+/// Resets the machine (QEMU's `system_reset`) and opens a new console session in machine mode.
+fn reset_and_open(sock: &Path, pts: &str) -> Session {
+    monitor(sock, "system_reset");
+    let mut s = Session::open(pts);
+    s.ok("mode machine");
+    s
+}
+
 /// Designs kept on the unit survive a reset of the machine (QEMU's `system_reset`: the RAM
 /// flash model is not cleared): the unit comes back on the design chosen last, with the same
 /// hash and calibration; the button path (a long press) chooses the other; the wrong-PIN count
@@ -536,9 +545,7 @@ fn kept_designs_survive_a_reset_and_the_button_chooses() {
     assert!((k * 1.05 - 1.0).abs() < 0.02, "signal correction: {cal:?}");
     s.close();
 
-    monitor(&sock, "system_reset");
-    let mut s = Session::open(&pts);
-    s.ok("mode machine");
+    let mut s = reset_and_open(&sock, &pts);
     assert_eq!(
         s.ok("hash"),
         h15,
@@ -564,9 +571,7 @@ fn kept_designs_survive_a_reset_and_the_button_chooses() {
     );
     s.close();
 
-    monitor(&sock, "system_reset");
-    let mut s = Session::open(&pts);
-    s.ok("mode machine");
+    let mut s = reset_and_open(&sock, &pts);
     assert_eq!(
         s.ok("hash"),
         h12,

@@ -1,5 +1,5 @@
 //! The screens: the verdict of a check, a measurement, the chosen design, a message.
-use super::text::{large, paragraph, small, small_centred};
+use super::text::{large, paragraph, small, text};
 use super::{label, HEIGHT, WIDTH};
 use crate::jig::reading;
 use biasjig_core::console::{Channel, JigError};
@@ -8,6 +8,7 @@ use biasjig_core::units::Fixed;
 use core::fmt::Write as _;
 use embedded_graphics::pixelcolor::BinaryColor;
 use embedded_graphics::prelude::*;
+use embedded_graphics::text::Alignment;
 use heapless::String;
 
 /// The middle of the screen, pixels.
@@ -63,7 +64,7 @@ pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
     d.clear(BinaryColor::Off)?;
     match r {
         Ok(v) => {
-            small_centred(d, "MEASURED", MID, 0)?;
+            text(d, "MEASURED", Point::new(MID, 0), Alignment::Center)?;
             for (i, node) in Channel::ALL.into_iter().enumerate() {
                 let mut b = String::<24>::new();
                 let _ = write!(b, "{:<3} {:>7} V", label(node), Fixed(reading(v, node), 3));
@@ -107,7 +108,7 @@ pub fn draw_design<D: DrawTarget<Color = BinaryColor>>(
     if s.name.len() <= 10 {
         large(d, s.name, MID, 12)?;
     } else {
-        small_centred(d, s.name, MID, 17)?;
+        text(d, s.name, Point::new(MID, 17), Alignment::Center)?;
     }
     b.clear();
     let _ = write!(b, "VCC {} V {:08x}", Fixed(s.vcc, 1), s.hash >> 32);

@@ -23,24 +23,12 @@ fn lit(fb: &FrameBuffer, y0: u32, y1: u32) -> usize {
 #[test]
 fn framebuffer_pixels_and_art() {
     let mut fb = FrameBuffer::new();
-    Pixel(Point::new(0, 0), BinaryColor::On)
-        .draw(&mut fb)
-        .unwrap();
-    Pixel(Point::new(1, 1), BinaryColor::On)
-        .draw(&mut fb)
-        .unwrap();
-    Pixel(Point::new(2, 0), BinaryColor::On)
-        .draw(&mut fb)
-        .unwrap();
-    Pixel(Point::new(2, 1), BinaryColor::On)
-        .draw(&mut fb)
-        .unwrap();
-    Pixel(Point::new(-1, 5), BinaryColor::On)
-        .draw(&mut fb)
-        .unwrap();
-    Pixel(Point::new(500, 5), BinaryColor::On)
-        .draw(&mut fb)
-        .unwrap();
+    // Two off the screen, which are dropped.
+    for (x, y) in [(0, 0), (1, 1), (2, 0), (2, 1), (-1, 5), (500, 5)] {
+        Pixel(Point::new(x, y), BinaryColor::On)
+            .draw(&mut fb)
+            .unwrap();
+    }
     assert!(fb.pixel(0, 0) && fb.pixel(1, 1) && !fb.pixel(1, 0) && !fb.pixel(999, 0));
     let a = art(&fb);
     let lines: Vec<&str> = a.split("\r\n").collect();

@@ -61,18 +61,8 @@ pub(super) fn small<D: DrawTarget<Color = BinaryColor>>(
     text(d, s, Point::new(x, y), Alignment::Left)
 }
 
-/// Small text centred on `x`, top at `y`.
-pub(super) fn small_centred<D: DrawTarget<Color = BinaryColor>>(
-    d: &mut D,
-    s: &str,
-    x: i32,
-    y: i32,
-) -> Result<(), D::Error> {
-    text(d, s, Point::new(x, y), Alignment::Center)
-}
-
 /// Text in the one font, top at `at.y`, aligned on `at.x`.
-fn text<D: DrawTarget<Color = BinaryColor>>(
+pub(super) fn text<D: DrawTarget<Color = BinaryColor>>(
     d: &mut D,
     s: &str,
     at: Point,

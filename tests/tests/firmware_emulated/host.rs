@@ -45,6 +45,17 @@ pub fn biasjig() -> PathBuf {
         .clone()
 }
 
+/// Sends each line of `stream` to `tx`, from a thread of its own, until either ends.
+pub fn forward_lines<R: Read + Send + 'static>(stream: R, tx: mpsc::Sender<String>) {
+    std::thread::spawn(move || {
+        for line in BufReader::new(stream).lines().map_while(Result::ok) {
+            if tx.send(line).is_err() {
+                break;
+            }
+        }
+    });
+}
+
 /// A child process killed when dropped.
 pub struct Guard(Child);
 
@@ -78,23 +89,9 @@ impl Session {
             .expect("start biasjig console --port");
         let stdin = child.stdin.take();
         let (tx, lines) = mpsc::channel();
-        let out = child.stdout.take().expect("piped stdout");
-        std::thread::spawn(move || {
-            for l in BufReader::new(out).lines().map_while(Result::ok) {
-                if tx.send(l).is_err() {
-                    break;
-                }
-            }
-        });
+        forward_lines(child.stdout.take().expect("piped stdout"), tx);
         let (etx, stderr) = mpsc::channel();
-        let err = child.stderr.take().expect("piped stderr");
-        std::thread::spawn(move || {
-            for l in BufReader::new(err).lines().map_while(Result::ok) {
-                if etx.send(l).is_err() {
-                    break;
-                }
-            }
-        });
+        forward_lines(child.stderr.take().expect("piped stderr"), etx);
         Session {
             child: Guard(child),
             stdin,

@@ -76,44 +76,60 @@ pub fn names_first(r: &Result_, part: &str, mode: &str) -> bool {
     })
 }
 
-/// `biasjig check --design FILE` on the readings the instrument reports (its `readings` line,
-/// exact decimals), compared with the instrument's own result: verdict, windows, first fault.
-pub fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &str) {
+/// `biasjig check --design FILE --json` with the jig's input resistance on the DC readings the
+/// instrument reports (its `readings` line, exact decimals) and `extra` arguments; gives the exit
+/// code and the JSON.
+fn host_check(
+    design: &Path,
+    readings: &[String],
+    extra: &[String],
+    what: &str,
+) -> (i32, serde_json::Value) {
     let line = readings.first().map(String::as_str).unwrap_or("");
     let p = pairs(line);
-    let get = |k: &str| {
-        p.get(k)
-            .map(|v| (*v).to_owned())
-            .unwrap_or_else(|| panic!("{what}: no {k} in the readings line {line:?}"))
-    };
-    let (vcc, vb, ve, vc) = (get("vcc"), get("vb"), get("ve"), get("vc"));
     let d = design.to_str().expect("utf-8 path");
     // The jig's inputs (10 MΩ + 1 MΩ dividers, every one connected while the nodes are read)
     // load the board; the instrument models them by default, the host is told.
-    let (code, out, err) = run_host(&[
-        "check",
-        "--design",
-        d,
-        "--vcc",
-        &vcc,
-        "--vb",
-        &vb,
-        "--ve",
-        &ve,
-        "--vc",
-        &vc,
-        "--json",
-        "--input-r",
-        JIG_INPUT_R,
-        "--inputs",
-        "together",
-    ]);
+    let mut args: Vec<String> = ["check", "--design", d, "--json", "--input-r", JIG_INPUT_R]
+        .iter()
+        .map(|s| (*s).to_owned())
+        .collect();
+    for k in ["vcc", "vb", "ve", "vc"] {
+        let v = p
+            .get(k)
+            .unwrap_or_else(|| panic!("{what}: no {k} in the readings line {line:?}"));
+        args.push(format!("--{k}"));
+        args.push((*v).to_owned());
+    }
+    args.extend(extra.iter().cloned());
+    let argv: Vec<&str> = args.iter().map(String::as_str).collect();
+    let (code, out, err) = run_host(&argv);
     assert!(
         code == 0 || code == 1,
         "{what}: biasjig check exit {code}: {err}"
     );
     let j: serde_json::Value = serde_json::from_str(&out)
         .unwrap_or_else(|e| panic!("{what}: check --json output is not JSON ({e}): {out}"));
+    (code, j)
+}
+
+/// The host's first fault is the instrument's.
+fn assert_first_fault(j: &serde_json::Value, inst: &Result_, what: &str) {
+    let host_first = j["faults"].get(0).map(|f| {
+        (
+            f["part"].as_str().unwrap_or("").to_owned(),
+            f["mode"].as_str().unwrap_or("").to_owned(),
+        )
+    });
+    let inst_first = inst.faults.first().map(|(p, m, _)| (p.clone(), m.clone()));
+    assert_eq!(host_first, inst_first, "{what}: first fault");
+}
+
+/// `biasjig check --design FILE` on the readings the instrument reports (its `readings` line,
+/// exact decimals), compared with the instrument's own result: verdict, windows, first fault.
+pub fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &str) {
+    let extra = ["--inputs".to_owned(), "together".to_owned()];
+    let (code, j) = host_check(design, readings, &extra, what);
     assert_eq!(j["verdict"], inst.verdict.as_str(), "{what}: verdict");
     assert_eq!(code == 0, inst.verdict == "pass", "{what}: exit status");
     assert!(
@@ -133,14 +149,7 @@ pub fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &
         );
         assert_eq!(h["ok"].as_bool(), Some(*ok), "{what}: {node} ok");
     }
-    let host_first = j["faults"].get(0).map(|f| {
-        (
-            f["part"].as_str().unwrap_or("").to_owned(),
-            f["mode"].as_str().unwrap_or("").to_owned(),
-        )
-    });
-    let inst_first = inst.faults.first().map(|(p, m, _)| (p.clone(), m.clone()));
-    assert_eq!(host_first, inst_first, "{what}: first fault");
+    assert_first_fault(&j, inst, what);
 }
 
 /// The jig's input resistance from each node to ground (firmware-example/README.md, wiring).
@@ -173,36 +182,14 @@ pub fn assert_signal_parity(
     inst: &Result_,
     what: &str,
 ) {
-    let line = readings.first().map(String::as_str).unwrap_or("");
-    let p = pairs(line);
-    let get = |k: &str| {
-        (*p.get(k)
-            .unwrap_or_else(|| panic!("{what}: no {k} in {line:?}")))
-        .to_owned()
-    };
     let ac = ac_lines(data);
     assert_eq!(ac.len(), 2, "{what}: two gain readings in {data:?}");
-    let d = design.to_str().expect("utf-8 path");
-    let mut args: Vec<String> = ["check", "--design", d, "--json", "--input-r", JIG_INPUT_R]
-        .iter()
-        .map(|s| (*s).to_owned())
-        .collect();
-    for k in ["vcc", "vb", "ve", "vc"] {
-        args.push(format!("--{k}"));
-        args.push(get(k));
-    }
+    let mut extra = Vec::new();
     for (f, g, ..) in &ac {
-        args.push("--ac".into());
-        args.push(format!("{f}:{g}"));
+        extra.push("--ac".to_owned());
+        extra.push(format!("{f}:{g}"));
     }
-    let argv: Vec<&str> = args.iter().map(String::as_str).collect();
-    let (code, out, err) = run_host(&argv);
-    assert!(
-        code == 0 || code == 1,
-        "{what}: biasjig check exit {code}: {err}"
-    );
-    let j: serde_json::Value = serde_json::from_str(&out)
-        .unwrap_or_else(|e| panic!("{what}: check --json output is not JSON ({e}): {out}"));
+    let (_, j) = host_check(design, readings, &extra, what);
     assert_eq!(j["verdict"], inst.verdict.as_str(), "{what}: verdict");
     for (node, (_, low, high, _)) in &inst.nodes {
         let h = &j["nodes"][node.as_str()];
@@ -227,12 +214,5 @@ pub fn assert_signal_parity(
         );
         assert_eq!(h["ok"].as_bool(), Some(*ok), "{what}: ac {k} ok");
     }
-    let host_first = j["faults"].get(0).map(|f| {
-        (
-            f["part"].as_str().unwrap_or("").to_owned(),
-            f["mode"].as_str().unwrap_or("").to_owned(),
-        )
-    });
-    let inst_first = inst.faults.first().map(|(p, m, _)| (p.clone(), m.clone()));
-    assert_eq!(host_first, inst_first, "{what}: first fault");
+    assert_first_fault(&j, inst, what);
 }

@@ -1,7 +1,8 @@
 //! QEMU: the emulated jig image booted on `netduinoplus2`, its serial port on a pseudo-terminal,
 //! its monitor on a Unix socket.
+use crate::host::forward_lines;
 use crate::images::setup_hint;
-use std::io::{BufRead, BufReader, Read, Write};
+use std::io::{Read, Write};
 use std::path::Path;
 use std::process::{Child, Command, Stdio};
 use std::sync::mpsc;
@@ -57,27 +58,11 @@ pub fn boot_with(elf: &Path, monitor: Option<&Path>) -> (Qemu, String) {
         .spawn()
         .expect("start qemu-system-arm");
     let (tx, rx) = mpsc::channel::<String>();
-    for stream in [
-        child
-            .stdout
-            .take()
-            .map(|s| Box::new(s) as Box<dyn Read + Send>),
-        child
-            .stderr
-            .take()
-            .map(|s| Box::new(s) as Box<dyn Read + Send>),
-    ]
-    .into_iter()
-    .flatten()
-    {
-        let tx = tx.clone();
-        std::thread::spawn(move || {
-            for line in BufReader::new(stream).lines().map_while(Result::ok) {
-                if tx.send(line).is_err() {
-                    break;
-                }
-            }
-        });
+    if let Some(out) = child.stdout.take() {
+        forward_lines(out, tx.clone());
+    }
+    if let Some(err) = child.stderr.take() {
+        forward_lines(err, tx);
     }
     let qemu = Qemu(child);
     let deadline = Instant::now() + Duration::from_secs(10);
