@@ -176,12 +176,7 @@ fn emulated_jig_end_to_end_through_the_host() {
         if i == 0 {
             test_cost = Some(cost);
         }
-        assert_eq!(r.verdict, "fail", "{inject}: {r:?}");
-        assert!(
-            names_first(&r, part, mode),
-            "{inject}: the instrument's first fault is not {part} {mode}: {:?}",
-            r.faults
-        );
+        assert_fails_naming(&r, part, mode, inject);
         let rd = s.ok("readings");
         // The host is given what the instrument judged: the DC readings and, when `test` read
         // the tones (the default images), the gain readings too (RE2 short and CE short read
@@ -374,12 +369,7 @@ fn emulated_jig_names_capacitor_faults() {
             ac_lines(&data),
             r.faults.first()
         );
-        assert_eq!(r.verdict, "fail", "{inject}: {data:?}");
-        assert!(
-            names_first(&r, part, mode),
-            "{inject}: the instrument's first fault is not {part} {mode}: {:?}",
-            r.faults
-        );
+        assert_fails_naming(&r, part, mode, inject);
         let rd = s.ok("readings");
         assert_signal_parity(&design, &rd, &data, &r, inject);
     }

@@ -76,6 +76,29 @@ pub fn names_first(r: &Result_, part: &str, mode: &str) -> bool {
     })
 }
 
+/// The board failed and the instrument names `part`/`mode` first (or as indistinguishable from
+/// the first).
+pub fn assert_fails_naming(r: &Result_, part: &str, mode: &str, what: &str) {
+    assert_eq!(r.verdict, "fail", "{what}: {r:?}");
+    assert!(
+        names_first(r, part, mode),
+        "{what}: the instrument's first fault is not {part} {mode}: {:?}",
+        r.faults
+    );
+}
+
+/// The host's window `(low, high)` is the instrument's.
+fn assert_window(inst: (f64, f64), host: (f64, f64), what: &str) {
+    assert!(
+        close(host.0, inst.0) && close(host.1, inst.1),
+        "{what}: instrument {}..{}, host {}..{}",
+        inst.0,
+        inst.1,
+        host.0,
+        host.1
+    );
+}
+
 /// `biasjig check --design FILE --json` with the jig's input resistance on the DC readings the
 /// instrument reports (its `readings` line, exact decimals) and `extra` arguments; gives the exit
 /// code and the JSON.
@@ -141,11 +164,10 @@ pub fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &
         assert!(h.is_object(), "{what}: host has no node {node}: {j}");
         let f = |k: &str| h[k].as_f64().unwrap_or(f64::NAN);
         assert!(close(f("measured"), *measured), "{what}: {node} measured");
-        assert!(
-            close(f("low"), *low) && close(f("high"), *high),
-            "{what}: window of {node}: instrument {low}..{high}, host {}..{}",
-            f("low"),
-            f("high")
+        assert_window(
+            (*low, *high),
+            (f("low"), f("high")),
+            &format!("{what}: window of {node}"),
         );
         assert_eq!(h["ok"].as_bool(), Some(*ok), "{what}: {node} ok");
     }
@@ -194,9 +216,10 @@ pub fn assert_signal_parity(
     for (node, (_, low, high, _)) in &inst.nodes {
         let h = &j["nodes"][node.as_str()];
         let f = |k: &str| h[k].as_f64().unwrap_or(f64::NAN);
-        assert!(
-            close(f("low"), *low) && close(f("high"), *high),
-            "{what}: window of {node}"
+        assert_window(
+            (*low, *high),
+            (f("low"), f("high")),
+            &format!("{what}: window of {node}"),
         );
     }
     for (k, (f, g, low, high, ok)) in ac.iter().enumerate() {
@@ -206,11 +229,10 @@ pub fn assert_signal_parity(
             close(v("f"), num(f)) && close(v("measured"), num(g)),
             "{what}: ac {k}: {h}"
         );
-        assert!(
-            close(v("low"), *low) && close(v("high"), *high),
-            "{what}: gain window at {f} Hz: instrument {low}..{high}, host {}..{}",
-            v("low"),
-            v("high")
+        assert_window(
+            (*low, *high),
+            (v("low"), v("high")),
+            &format!("{what}: gain window at {f} Hz"),
         );
         assert_eq!(h["ok"].as_bool(), Some(*ok), "{what}: ac {k} ok");
     }
