@@ -1,7 +1,7 @@
 //! The emulated board under test: part values drawn within their tolerance from a seed around
 //! the console's current design, an hFE within the profile's spread, one injected fault, and
 //! its node voltages from the core engine (`solve::solve`, the one circuit model) with the jig's
-//! inputs attached to every node, as on the real jig ([`crate::jig::JIG_INPUT_R`]). The
+//! inputs attached to every node, as on the real jig ([`crate::adc::JIG_INPUT_R`]). The
 //! capacitors are drawn within their tolerance too, and one of them may carry a fault of its own
 //! (open, short, a wrong value): its signal response comes from `response::gain_at`, and a short
 //! shows at DC as in the jig's set-up (RS stays on the input and RL on the output while the
@@ -33,6 +33,32 @@ impl Draws {
     }
 }
 
+/// A small deterministic generator (xorshift32) for reading noise.
+#[derive(Debug, Clone, Copy)]
+pub struct Noise(u32);
+
+impl Noise {
+    /// A generator from a non-zero state (0 is replaced).
+    pub const fn new(state: u32) -> Self {
+        Noise(if state == 0 { 0x1234_5678 } else { state })
+    }
+
+    /// The next 32 random bits.
+    pub fn next_u32(&mut self) -> u32 {
+        let mut x = self.0;
+        x ^= x << 13;
+        x ^= x >> 17;
+        x ^= x << 5;
+        self.0 = x;
+        x
+    }
+
+    /// Uniform in -1 ..= 1.
+    pub fn unit(&mut self) -> f32 {
+        (self.next_u32() >> 8) as f32 / 8_388_607.5 - 1.0
+    }
+}
+
 /// The emulated board: design, seed, drawn parts, fault, cached node voltages.
 #[derive(Debug, Clone)]
 pub struct BoardModel {
@@ -61,7 +87,7 @@ impl BoardModel {
             temp_c: s.temp_c,
             fault: None,
             cap_fault: None,
-            input_r: Some(crate::jig::JIG_INPUT_R),
+            input_r: Some(crate::adc::JIG_INPUT_R),
             drawn: None,
             nodes: None,
         }

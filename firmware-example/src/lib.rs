@@ -13,15 +13,16 @@
 //! | [`adc`] | ADC channel math: divider ratio, two-point calibration, oversampling, clipping, open probe |
 //! | [`jig`] | the core `Jig` over ADC channels ([`jig::AdcJig`]) and the emulated jig ([`jig::EmulatedJig`]) |
 //! | [`tone`] | the signal test: tone output, the two signal inputs sampled at a fixed rate, Goertzel; the emulated jig's synthesised samples |
-//! | [`board`] | the emulated board under test: parts drawn within tolerance, a fault, the core engine's node voltages |
+//! | [`board`] | the emulated board under test: parts drawn within tolerance (SplitMix64), a fault, the core engine's node voltages; the emulated reading noise |
 //! | [`screen`] | what is shown ([`screen::Show`]), a 128x64 one-bit framebuffer and its text art, the screen layouts |
 //! | [`stack`] | stack painting and the high-water mark |
 //! | [`store`] | the console's records on NOR flash (power-fail safe, wear levelled) and a RAM-backed flash model |
 //! | `target` | Cortex-M only: tick sources, stack painting on the real stack, the emulated image's USART1, the store's memory and the internal flash |
 //!
-//! A module uses only the ones above it in this list or below it in the dependency order
-//! `console` -> `screen`, `jig` -> `board`, `tone`, `adc`: the screen never reaches back into the
-//! application.
+//! Dependencies point one way, no circles: `console` uses `screen`, `jig`, `cost` and `button`;
+//! `screen` uses `jig` (a reading by node); `jig` uses `adc`, `board` and `tone`; `tone` uses
+//! `board` (its reading noise); `board` uses `adc` (the inputs' resistance); `target` uses
+//! `cost` and `stack`. The screen never reaches back into the application.
 #![cfg_attr(not(test), no_std)]
 #![deny(unsafe_code)]
 #![deny(missing_docs)]
