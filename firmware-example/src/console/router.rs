@@ -35,6 +35,9 @@ pub(super) struct Router {
     held: [u8; 3],
     /// After a firmware query ended with CR: an LF right after belongs to it.
     after_query_cr: bool,
+    /// After a console line ended with CR: an LF right after belongs to it (the console takes
+    /// it, but it is not a line to time or to follow).
+    after_console_cr: bool,
     /// The firmware query line.
     query: LineBuf<FW_LINE>,
     /// First word of the console line, lower case (to know a `test` or `check` line).
@@ -49,6 +52,7 @@ impl Router {
             state: State::Prefix(0),
             held: [0; 3],
             after_query_cr: false,
+            after_console_cr: false,
             query: LineBuf::new(),
             word: heapless::Vec::new(),
             word_done: false,
@@ -95,6 +99,9 @@ impl<J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'_, J, S, C, B,
         if core::mem::take(&mut self.router.after_query_cr) && b == b'\n' {
             return Ok(());
         }
+        if core::mem::take(&mut self.router.after_console_cr) && b == b'\n' {
+            return self.replies.feed(self.console, b"\n", out, false);
+        }
         match self.router.state {
             State::Prefix(n) => {
                 if FW.get(n) == Some(&b.to_ascii_lowercase()) {
@@ -129,6 +136,7 @@ impl<J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'_, J, S, C, B,
         let end = b == b'\r' || b == b'\n';
         if end {
             self.router.state = State::Prefix(0);
+            self.router.after_console_cr = b == b'\r';
         } else {
             self.router.note_word(b);
         }

@@ -43,7 +43,10 @@ impl Board for TestBoard {
 
 type TestApp = App<'static, EmulatedJig, MemoryStore, Ms, TestBoard, NoTicks>;
 
-fn app() -> TestApp {
+type TestConsole = Console<EmulatedJig, MemoryStore, Ms>;
+
+/// A console on the emulated jig (board seed 5) and a board with a framebuffer.
+fn parts() -> (&'static mut TestConsole, TestBoard) {
     let console = Box::leak(Box::new(Console::new(
         Identity::new("test", crate::VERSION),
         EmulatedJig::new(5),
@@ -54,6 +57,11 @@ fn app() -> TestApp {
         fb: FrameBuffer::new(),
         shown: 0,
     };
+    (console, board)
+}
+
+fn app() -> TestApp {
+    let (console, board) = parts();
     App::new(console, board, NoTicks)
 }
 
@@ -330,6 +338,36 @@ fn button_path_chooses_designs_and_judges() {
     crate::screen::tests::golden("locked", &screen(&mut a));
     assert_eq!(talk(&mut a, b"hash\n"), hash15, "locked: the design stays");
     assert!(talk(&mut a, b"fw:press sideways\n").starts_with("err VALUE press"));
+}
+
+/// Ticks that count how often they are read (twice per timed line).
+struct Counted(std::rc::Rc<std::cell::Cell<u32>>);
+impl crate::cost::Ticks for Counted {
+    fn now(&mut self) -> u32 {
+        self.0.set(self.0.get() + 1);
+        0
+    }
+}
+
+/// A console line is timed once: the LF of its CR LF goes to the console but is not a line of
+/// its own, so it does not replace the line's cost with its own.
+#[test]
+fn a_cr_lf_line_is_timed_once() {
+    let reads = std::rc::Rc::new(std::cell::Cell::new(0));
+    let (console, board) = parts();
+    let mut a = App::new(console, board, Counted(reads.clone()));
+    let before = reads.get();
+    let mut out = Vec::new();
+    for &b in b"hash\r\n" {
+        a.feed(b, &mut out).unwrap();
+    }
+    assert!(String::from_utf8(out).unwrap().ends_with("ok\r\n"));
+    assert_eq!(reads.get() - before, 2);
+    // An empty line after it is a line: answered and timed.
+    let mut out = Vec::new();
+    a.feed(b'\n', &mut out).unwrap();
+    assert_eq!(out, b"ok\r\n");
+    assert_eq!(reads.get() - before, 4);
 }
 
 #[test]
