@@ -35,8 +35,8 @@ pub(super) struct Router {
     held: [u8; 3],
     /// After a firmware query ended with CR: an LF right after belongs to it.
     after_query_cr: bool,
-    /// After a console line ended with CR: an LF right after belongs to it (the console takes
-    /// it, but it is not a line to time or to follow).
+    /// The last byte the console took was a CR: an LF next belongs to that line end (the
+    /// console's own view; query lines in between do not reach it).
     after_console_cr: bool,
     /// The firmware query line.
     query: LineBuf<FW_LINE>,
@@ -99,9 +99,6 @@ impl<J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'_, J, S, C, B,
         if core::mem::take(&mut self.router.after_query_cr) && b == b'\n' {
             return Ok(());
         }
-        if core::mem::take(&mut self.router.after_console_cr) && b == b'\n' {
-            return self.replies.feed(self.console, b"\n", out, false);
-        }
         match self.router.state {
             State::Prefix(n) => {
                 if FW.get(n) == Some(&b.to_ascii_lowercase()) {
@@ -131,8 +128,10 @@ impl<J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'_, J, S, C, B,
         }
     }
 
-    /// A byte of a console line.
+    /// A byte of a console line. The LF of a CR LF goes to the console too (it takes it as part
+    /// of that line end), but it ends no line here: it is not timed and not followed.
     fn console_byte<W: Write>(&mut self, b: u8, out: &mut W) -> Result<(), W::Error> {
+        let after_cr = core::mem::take(&mut self.router.after_console_cr);
         let end = b == b'\r' || b == b'\n';
         if end {
             self.router.state = State::Prefix(0);
@@ -140,9 +139,10 @@ impl<J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'_, J, S, C, B,
         } else {
             self.router.note_word(b);
         }
+        let line_end = end && !(after_cr && b == b'\n');
         self.replies
-            .feed(self.console, core::slice::from_ref(&b), out, end)?;
-        if end {
+            .feed(self.console, core::slice::from_ref(&b), out, line_end)?;
+        if line_end {
             self.after_line();
         }
         Ok(())
