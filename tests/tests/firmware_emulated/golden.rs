@@ -64,9 +64,50 @@ impl Raw {
             .timeout(Duration::from_millis(100))
             .open()
             .unwrap_or_else(|e| panic!("open {pts}: {e}"));
-        Raw {
+        let mut raw = Raw {
             port,
             transcript: String::new(),
+        };
+        raw.sync();
+        raw
+    }
+
+    /// Waits until the unit answers: bytes sent while it still starts up (before its USART is
+    /// on) are lost, so empty lines are sent until one is answered `ok`; then any late answers
+    /// are read and dropped, and the session starts clean.
+    fn sync(&mut self) {
+        let deadline = Instant::now() + Duration::from_secs(30);
+        let mut seen = Vec::new();
+        let mut buf = [0u8; 64];
+        'outer: while Instant::now() < deadline {
+            self.port
+                .write_all(b"\n")
+                .expect("write to the emulated jig");
+            let wait = Instant::now() + Duration::from_millis(500);
+            while Instant::now() < wait {
+                match self.port.read(&mut buf) {
+                    Ok(n) => seen.extend_from_slice(&buf[..n]),
+                    Err(e) if e.kind() == std::io::ErrorKind::TimedOut => {}
+                    Err(e) => panic!("read from the emulated jig: {e}"),
+                }
+                if seen.ends_with(b"ok\r\n") {
+                    break 'outer;
+                }
+            }
+        }
+        assert!(
+            seen.ends_with(b"ok\r\n"),
+            "the emulated jig did not answer an empty line: {:?}",
+            String::from_utf8_lossy(&seen)
+        );
+        // Late answers to the other empty lines, if any.
+        let quiet = Instant::now() + Duration::from_millis(300);
+        while Instant::now() < quiet {
+            match self.port.read(&mut buf) {
+                Ok(_) => {}
+                Err(e) if e.kind() == std::io::ErrorKind::TimedOut => {}
+                Err(e) => panic!("read from the emulated jig: {e}"),
+            }
         }
     }
 
