@@ -12,6 +12,10 @@ use biasjig_core::signaltest::{self, ToneReading, MAX_TONES};
 use biasjig_core::stage::Readings;
 use biasjig_core::units::{self, Unit};
 
+mod error;
+
+pub use error::{HeaderError, RowError};
+
 /// The longest row (and header) accepted, bytes.
 pub const MAX_ROW: usize = 4096;
 
@@ -19,7 +23,7 @@ pub const MAX_ROW: usize = 4096;
 const COLUMNS: [&str; 5] = ["serial", "vcc", "vb", "ve", "vc"];
 
 /// One readings row (serial, DC readings, gain readings), or why it is bad.
-pub type Row = Result<(String, Readings, Vec<ToneReading>), String>;
+pub type Row = Result<(String, Readings, Vec<ToneReading>), RowError>;
 
 /// Where the columns are.
 #[derive(Debug, Clone, PartialEq)]
@@ -51,14 +55,14 @@ fn fields(text: &str) -> Result<Vec<String>, String> {
     let mut rec = csv::StringRecord::new();
     match rdr.read_record(&mut rec) {
         Ok(_) => Ok(rec.iter().map(str::to_string).collect()),
-        Err(e) => Err(format!("not a CSV row: {e}")),
+        Err(e) => Err(e.to_string()),
     }
 }
 
 /// Read the header line: every needed column exactly once.
-pub fn header(text: &str) -> Result<Header, String> {
+pub fn header(text: &str) -> Result<Header, HeaderError> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let names = fields(text).map_err(|e| format!("line 1: header: {e}"))?;
+    let names = fields(text).map_err(|why| HeaderError::NotCsv { why })?;
     let mut cols = [0usize; 5];
     for (k, want) in COLUMNS.iter().enumerate() {
         let at: Vec<usize> = names
@@ -68,22 +72,13 @@ pub fn header(text: &str) -> Result<Header, String> {
             .map(|(i, _)| i + 1)
             .collect();
         match at.as_slice() {
-            [] => {
-                return Err(format!(
-                "line 1: header: no column '{want}'; the header must name serial, vcc, vb, ve and vc"
-            ))
-            }
+            [] => return Err(HeaderError::Missing { column: want }),
             [one] => cols[k] = one - 1,
             many => {
-                return Err(format!(
-                    "line 1: header: column '{want}' appears {} times (columns {}); give each \
-                     column once",
-                    many.len(),
-                    many.iter()
-                        .map(ToString::to_string)
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                ))
+                return Err(HeaderError::Repeated {
+                    column: want,
+                    at: many.to_vec(),
+                })
             }
         }
     }
@@ -95,42 +90,39 @@ pub fn header(text: &str) -> Result<Header, String> {
                 .strip_suffix("Hz")
                 .or_else(|| f.strip_suffix("hz"))
                 .unwrap_or(f);
-            let f = units::parse_value_in(f, Unit::Hertz).map_err(|e| {
-                format!(
-                    "line 1: header: column '{h}': frequency: {e}; allowed: gain@F with F in Hz \
-                     such as gain@1k"
-                )
+            let f =
+                units::parse_value_in(f, Unit::Hertz).map_err(|why| HeaderError::Frequency {
+                    column: h.clone(),
+                    why,
+                })?;
+            signaltest::validate_frequency(f).map_err(|why| HeaderError::Tone {
+                column: h.clone(),
+                why,
             })?;
-            signaltest::validate_frequency(f)
-                .map_err(|e| format!("line 1: header: column '{h}': {e}"))?;
             gains.push((k, h.clone(), f));
         }
     }
     if gains.len() > MAX_TONES {
-        return Err(format!(
-            "line 1: header: {} gain@F columns; allowed: at most {MAX_TONES}",
-            gains.len()
-        ));
+        return Err(HeaderError::TooManyTones { count: gains.len() });
     }
     Ok(Header { cols, gains })
 }
 
 /// Parse one row's text.
 pub fn row(h: &Header, text: &str) -> Row {
-    let f = fields(text)?;
+    let f = fields(text).map_err(|why| RowError::NotCsv { why })?;
     let field = |k: usize| f.get(h.cols[k]).map_or("", String::as_str);
-    let value = |k: usize| -> Result<f64, String> {
+    let value = |k: usize| -> Result<f64, RowError> {
         let t = field(k);
-        units::parse_signed_in(t, Unit::Volt).map_err(|e| {
-            format!(
-                "column {}: '{t}': {e}; allowed: a voltage such as 2.51 or -0.0012",
-                COLUMNS[k]
-            )
+        units::parse_signed_in(t, Unit::Volt).map_err(|why| RowError::Voltage {
+            column: COLUMNS[k],
+            text: t.to_string(),
+            why,
         })
     };
     let serial = field(0).to_string();
     if serial.is_empty() {
-        return Err("column serial: empty; every board needs a serial number".into());
+        return Err(RowError::NoSerial);
     }
     let readings = Readings {
         vcc: value(1)?,
@@ -144,13 +136,16 @@ pub fn row(h: &Header, text: &str) -> Row {
         if t.is_empty() {
             continue;
         }
-        let g: f64 = t.parse().map_err(|_| {
-            format!(
-                "column {name}: '{t}': not a plain number; allowed: a gain magnitude such as 14.2"
-            )
+        let g: f64 = t.parse().map_err(|_| RowError::Gain {
+            column: name.clone(),
+            text: t.to_string(),
         })?;
         let reading = ToneReading { f: *freq, gain: g };
-        signaltest::validate_reading(&reading).map_err(|e| format!("column {name}: '{t}': {e}"))?;
+        signaltest::validate_reading(&reading).map_err(|why| RowError::Tone {
+            column: name.clone(),
+            text: t.to_string(),
+            why,
+        })?;
         tones.push(reading);
     }
     Ok((serial, readings, tones))
@@ -201,18 +196,13 @@ fn next_line(
 
 impl<R: BufRead> Rows<R> {
     /// Read the header; the rows follow through the iterator.
-    pub fn new(mut rd: R) -> Result<Self, String> {
+    pub fn new(mut rd: R) -> Result<Self, HeaderError> {
         let mut buf = Vec::new();
-        let h = match next_line(&mut rd, &mut buf).map_err(|e| e.to_string())? {
-            None => return Err("line 1: header: the file is empty".into()),
-            Some(Err(len)) => {
-                return Err(format!(
-                    "line 1: header: {len} bytes long; allowed: at most {MAX_ROW}"
-                ))
-            }
+        let h = match next_line(&mut rd, &mut buf)? {
+            None => return Err(HeaderError::Empty),
+            Some(Err(len)) => return Err(HeaderError::TooLong { len }),
             Some(Ok(())) => {
-                let text = std::str::from_utf8(&buf)
-                    .map_err(|e| format!("line 1: header: not UTF-8 text ({e})"))?;
+                let text = std::str::from_utf8(&buf).map_err(|why| HeaderError::NotText { why })?;
                 header(text)?
             }
         };
@@ -237,14 +227,11 @@ impl<R: BufRead> Iterator for Rows<R> {
             };
             self.number += 1;
             let row = match got {
-                Err(len) => Err(format!(
-                    "{len} bytes long; allowed: at most {MAX_ROW}; the row was not tested"
-                )),
+                Err(len) => Err(RowError::TooLong { len }),
                 Ok(()) => match std::str::from_utf8(&buf) {
-                    Err(e) => Err(format!(
-                        "bytes that are not UTF-8 text (from byte {}); the row was not tested",
-                        e.valid_up_to() + 1
-                    )),
+                    Err(e) => Err(RowError::NotText {
+                        at: e.valid_up_to() + 1,
+                    }),
                     Ok(t) if t.trim().trim_matches(',').trim().is_empty() => continue,
                     Ok(t) => row(&self.header, t),
                 },
@@ -261,7 +248,7 @@ impl<R: BufRead> Iterator for Rows<R> {
 /// Parse a whole CSV text into rows with their line numbers (for tests).
 #[cfg(test)]
 pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
-    let rows = Rows::new(text.as_bytes())?;
+    let rows = Rows::new(text.as_bytes()).map_err(|e| e.to_string())?;
     rows.map(|l| l.map(|l| (l.number, l.row)).map_err(|e| e.to_string()))
         .collect()
 }
@@ -286,10 +273,23 @@ mod tests {
         assert!(tones.is_empty());
         assert_eq!((r.vcc, r.vb, r.ve, r.vc), (15.0, 2.55, 1.9, 8.0));
         assert_eq!(rows[1].0, 3);
-        assert!(rows[1].1.as_ref().unwrap_err().contains("column vb: 'abc'"));
+        assert!(rows[1]
+            .1
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("column vb: 'abc'"));
         assert_eq!(rows[2].1.as_ref().unwrap().1.ve, -0.0012);
-        assert!(rows[3].1.as_ref().unwrap_err().contains("serial"));
-        assert!(parse("serial,vb,ve,vc\n").unwrap_err().contains("'vcc'"));
+        assert!(rows[3]
+            .1
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("serial"));
+        assert!(parse("serial,vb,ve,vc\n")
+            .unwrap_err()
+            .to_string()
+            .contains("'vcc'"));
     }
 
     #[test]
@@ -298,7 +298,12 @@ mod tests {
         let rows = parse(text).unwrap();
         let lines: Vec<u64> = rows.iter().map(|r| r.0).collect();
         assert_eq!(lines, [2, 4, 5]);
-        assert!(rows[1].1.as_ref().unwrap_err().contains("column vb: 'x'"));
+        assert!(rows[1]
+            .1
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("column vb: 'x'"));
         assert_eq!(rows[2].1.as_ref().unwrap().1.vc, 8.0);
     }
 
@@ -310,7 +315,12 @@ mod tests {
         assert_eq!(rows.len(), 3);
         assert!(rows[0].row.is_ok() && rows[2].row.is_ok());
         assert_eq!(rows[1].number, 3);
-        assert!(rows[1].row.as_ref().unwrap_err().contains("not UTF-8"));
+        assert!(rows[1]
+            .row
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("not UTF-8"));
     }
 
     #[test]
@@ -323,7 +333,12 @@ mod tests {
         );
         let rows = parse(&long).unwrap();
         assert_eq!(rows.len(), 2);
-        assert!(rows[0].1.as_ref().unwrap_err().contains("allowed: at most"));
+        assert!(rows[0]
+            .1
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("allowed: at most"));
         assert_eq!(rows[1].0, 3);
         assert!(rows[1].1.is_ok());
     }
@@ -347,6 +362,7 @@ mod tests {
             .1
             .as_ref()
             .unwrap_err()
+            .to_string()
             .contains("column gain@1k: 'x'"));
         assert!(parse("serial,vcc,vb,ve,vc,gain@9M\n")
             .unwrap_err()
@@ -356,6 +372,11 @@ mod tests {
     #[test]
     fn a_reading_with_another_unit_is_refused() {
         let rows = parse("serial,vcc,vb,ve,vc\nA1,12,2.05,1.39mA,5.74\n").unwrap();
-        assert!(rows[0].1.as_ref().unwrap_err().contains("column ve"));
+        assert!(rows[0]
+            .1
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("column ve"));
     }
 }
