@@ -5,12 +5,7 @@ use crate::jig::EmulatedJig;
 use crate::screen::{draw_show, FrameBuffer};
 use biasjig_core::console::jig::MemoryStore;
 use biasjig_core::console::Identity;
-
-/// The value of `key` in a `key=value` line.
-fn value<'a>(line: &'a str, key: &str) -> Option<&'a str> {
-    line.split(' ')
-        .find_map(|kv| kv.strip_prefix(key).and_then(|v| v.strip_prefix('=')))
-}
+use biasjig_core::kv::value;
 
 struct Ms(u64);
 impl Clock for Ms {

@@ -4,11 +4,9 @@ use crate::host::run_host;
 use std::collections::HashMap;
 use std::path::Path;
 
-/// `key=value` pairs of one machine-mode line.
+/// `key=value` pairs of one machine-mode line, read by the core's reader (the one the host uses).
 pub fn pairs(line: &str) -> HashMap<&str, &str> {
-    line.split(' ')
-        .filter_map(|kv| kv.split_once('='))
-        .collect()
+    biasjig_core::kv::pairs(line).collect()
 }
 
 pub fn num(s: &str) -> f64 {
