@@ -18,7 +18,7 @@ use biasjig_core::response::{gain_at, Caps, Gain};
 use biasjig_core::solve::OperatingPoint;
 use biasjig_core::stage::Stage;
 
-use crate::jig::Noise;
+use crate::board::Noise;
 
 /// Periods of the tone measured in one block.
 pub const BLOCK_PERIODS: u32 = 4;
