@@ -238,6 +238,9 @@ pub struct EmulatedJig {
     pub board: BoardModel,
     /// The jig channels reading it.
     pub adc: AdcJig<EmulatedSamples>,
+    /// The clock that times the board's emulation apart from the instrument's work
+    /// ([`crate::cost::standing_in`]).
+    pub clock: fn() -> u32,
 }
 
 impl EmulatedJig {
@@ -256,10 +259,20 @@ impl EmulatedJig {
                 channels: [channel; 4],
                 signal_cal: crate::tone::SignalCal::default(),
             },
+            clock: crate::cost::no_clock,
         }
     }
 
+    /// The same jig with its emulation timed on `clock` (the image's tick counter).
+    pub fn timed_by(self, clock: fn() -> u32) -> Self {
+        Self { clock, ..self }
+    }
+
     fn load_nodes(&mut self) -> Result<(), JigError> {
+        crate::cost::standing_in(self.clock, || self.load_nodes_now())
+    }
+
+    fn load_nodes_now(&mut self) -> Result<(), JigError> {
         // No operating point (the solver gave up): the jig reports a hardware failure rather
         // than invent voltages.
         let r = self.board.nodes().map_err(|_| JigError::Hardware)?;
@@ -305,9 +318,14 @@ impl Jig for EmulatedJig {
     }
 
     fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
-        let (stage, caps, op) = self.board.solved().map_err(|_| JigError::Hardware)?;
+        let clock = self.clock;
+        let (stage, caps, op) = crate::cost::standing_in(clock, || self.board.solved())
+            .map_err(|_| JigError::Hardware)?;
         let noise = Noise::new(self.adc.source.noise.next_u32());
-        crate::tone::emulated_gain(stage, caps, op, noise, f_hz, &self.adc.signal_cal)
+        let mut tone = crate::tone::EmulatedTone::new(stage, caps, op, noise);
+        tone.clock = clock;
+        crate::tone::measure_gain(&mut tone, f_hz as f32, &self.adc.signal_cal)
+            .map(f64::from)
             .map_err(tone_error)
     }
 

@@ -172,7 +172,7 @@ fn emulated_jig_end_to_end_through_the_host() {
         let data = s.ok("test");
         let r = parse_result(&data);
         let cost = cost_of(&mut s);
-        costs.push((format!("{part} {mode}"), cost.1));
+        costs.push((format!("{part} {mode}"), cost.1, cost.2));
         if i == 0 {
             test_cost = Some(cost);
         }
@@ -194,10 +194,10 @@ fn emulated_jig_end_to_end_through_the_host() {
     let st = fw(&mut s, "fw:stack?");
     s.ok("inject rc open");
     s.close();
-    println!("jig-emulated: test (measure + check + diagnosis) per fault class, instructions (goal {TEST_GOAL_INSTRUCTIONS}):");
-    for (class, insns) in &costs {
+    println!("jig-emulated: test (measure + check + diagnosis) per fault class, instructions of the instrument (goal {TEST_GOAL_INSTRUCTIONS}; the first also proposes the test frequencies of the design) and of the emulated board standing in for the hardware:");
+    for (class, insns, emulated) in &costs {
         println!(
-            "  {class:<12} {insns:>10} {}",
+            "  {class:<12} {insns:>10} (board {emulated:>9}) {}",
             if *insns <= TEST_GOAL_INSTRUCTIONS {
                 "met"
             } else {
@@ -222,7 +222,7 @@ fn emulated_jig_end_to_end_through_the_host() {
         .and_then(|t| t.split_whitespace().next())
         .and_then(|t| t.parse().ok())
         .unwrap_or_else(|| panic!("stack: {st:?}"));
-    let (ticks, insns) = test_cost.expect("cost measured");
+    let (ticks, insns, _) = test_cost.expect("cost measured");
     println!(
         "jig-emulated: stack high-water {used} B; test (measure + check + diagnosis) on a failing board: {ticks} SysTick ticks, {insns} instructions (goal {TEST_GOAL_INSTRUCTIONS}: {})",
         if insns <= TEST_GOAL_INSTRUCTIONS { "met" } else { "not met" }
@@ -259,7 +259,7 @@ fn emulated_jig_designs_on_the_part() {
     }
     let d = s.ok("design");
     assert!(!d.is_empty(), "design gives candidates");
-    let (ticks, insns) = cost_of(&mut s);
+    let (ticks, insns, _) = cost_of(&mut s);
     let st = fw(&mut s, "fw:stack?");
     println!(
         "jig-emulated: design: {ticks} SysTick ticks, {insns} instructions (goal {DESIGN_GOAL_INSTRUCTIONS}: {}); {}",
@@ -373,10 +373,10 @@ fn emulated_jig_names_capacitor_faults() {
         let rd = s.ok("readings");
         assert_signal_parity(&design, &rd, &data, &r, inject);
     }
-    let (ticks, insns) = cost.expect("cost measured");
+    let (ticks, insns, emulated) = cost.expect("cost measured");
     let st = fw(&mut s, "fw:stack?");
     println!(
-        "jig-emulated --features full-console: test (DC, two tones, windows, diagnosis) on CE open: {ticks} SysTick ticks, {insns} instructions; {}",
+        "jig-emulated --features full-console: test (DC, two tones, windows, diagnosis) on CE open: {ticks} SysTick ticks, {insns} instructions (the emulated board {emulated} more); {}",
         st.join(" ")
     );
     s.close();

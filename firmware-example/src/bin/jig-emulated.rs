@@ -83,7 +83,7 @@ fn console() -> Option<&'static mut EmuConsole> {
     Some(Console::unloaded_in(
         slot,
         Identity::new("jig-emulated", biasjig_firmware::VERSION),
-        EmulatedJig::new(BOARD_SEED),
+        EmulatedJig::new(BOARD_SEED).timed_by(now32),
         store,
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
@@ -137,4 +137,9 @@ fn USART1() {
 #[exception]
 fn SysTick() {
     ticks::systick_wrapped();
+}
+
+/// SysTick ticks, wrapping at 32 bits: the clock that times the emulated board apart.
+fn now32() -> u32 {
+    ticks::now64() as u32
 }

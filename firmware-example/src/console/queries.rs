@@ -1,7 +1,8 @@
 //! The firmware queries: the `fw:` lines, answered here and not by the core console.
 //!
 //! Each is answered with data lines, then `ok` or `err CODE text`:
-//! `fw:stack?` (`stack USED SIZE`, bytes), `fw:cost?` (`cost TICKS` of the last console command,
+//! `fw:stack?` (`stack USED SIZE`, bytes), `fw:cost?` (`cost TICKS` of the last console command
+//! without the emulated board's own work, `emulated=` that work in instructions,
 //! and `instructions=N` where the board measured its tick rate), `fw:clock?`
 //! (`clock instructions= ticks=`: a known loop timed at start-up, relating cost ticks to
 //! instructions under QEMU), `fw:measure?` (`VCC 12.000` ... `VC 6.800`, also drawn on the
@@ -72,10 +73,15 @@ impl<J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'_, J, S, C, B,
             }
         } else if is("cost?") {
             let t = self.replies.last_cost();
+            let e = self.replies.last_stand_in();
             match self.board.tick_rate() {
                 Some((i, r)) if r > 0 => {
                     let insns = u64::from(t) * i / r;
-                    say(out, format_args!("cost {t} instructions={insns}\r\nok\r\n"))
+                    let emulated = u64::from(e) * i / r;
+                    say(
+                        out,
+                        format_args!("cost {t} instructions={insns} emulated={emulated}\r\nok\r\n"),
+                    )
                 }
                 _ => say(out, format_args!("cost {t}\r\nok\r\n")),
             }

@@ -168,9 +168,14 @@ impl<T: Ticks> Replies<T> {
         }
     }
 
-    /// Elapsed ticks of the last console line.
+    /// Elapsed ticks of the last console line (without the emulated board's).
     pub(super) fn last_cost(&self) -> u32 {
         self.cost.last()
+    }
+
+    /// Ticks the emulated board took during the last console line.
+    pub(super) fn last_stand_in(&self) -> u32 {
+        self.cost.last_stand_in()
     }
 
     /// The last reply ended with an `ok` status line.

@@ -253,7 +253,10 @@ pub fn fw(s: &mut Session, q: &str) -> Vec<String> {
     s.ok(q)
 }
 
-pub fn cost_of(s: &mut Session) -> (u64, u64) {
+/// The last console command's cost: SysTick ticks and instructions of the instrument's own work,
+/// and the instructions the emulated board took standing in for the hardware (left out of the
+/// cost: on the part they are the board and its converters).
+pub fn cost_of(s: &mut Session) -> (u64, u64, u64) {
     let c = fw(s, "fw:cost?");
     let first = c.first().cloned().unwrap_or_default();
     let ticks = first
@@ -261,9 +264,11 @@ pub fn cost_of(s: &mut Session) -> (u64, u64) {
         .and_then(|t| t.split(' ').next())
         .and_then(|t| t.parse().ok())
         .unwrap_or_else(|| panic!("cost: {c:?}"));
-    let insns = pairs(&first)
-        .get("instructions")
-        .and_then(|t| t.parse().ok())
-        .unwrap_or(0);
-    (ticks, insns)
+    let field = |k: &str| {
+        pairs(&first)
+            .get(k)
+            .and_then(|t| t.parse().ok())
+            .unwrap_or(0)
+    };
+    (ticks, field("instructions"), field("emulated"))
 }
