@@ -43,8 +43,12 @@ pub fn nominal_region(
     profile: &Profile,
     settings: &TestSettings,
 ) -> Result<Region, SolveError> {
-    let temp = 0.5 * (settings.temp_min_c + settings.temp_max_c);
-    solve(stage, profile, Conditions::typical(profile).at(temp)).map(|op| op.region)
+    solve(stage, profile, nominal_conditions(profile, settings)).map(|op| op.region)
+}
+
+/// Typical hFE at the middle of the test ambient, nothing attached.
+fn nominal_conditions(profile: &Profile, settings: &TestSettings) -> Conditions {
+    Conditions::typical(profile).at(0.5 * (settings.temp_min_c + settings.temp_max_c))
 }
 
 /// The operating region of the stage at its nominal point while it is read through the
@@ -58,11 +62,10 @@ pub fn nominal_region_through(
     profile: &Profile,
     settings: &TestSettings,
 ) -> Result<Region, SolveError> {
-    let temp = 0.5 * (settings.temp_min_c + settings.temp_max_c);
     region_through(
         stage,
         profile,
-        Conditions::typical(profile).at(temp),
+        nominal_conditions(profile, settings),
         &settings.inputs,
     )
 }
@@ -310,10 +313,10 @@ pub fn judge_with_signal(
     let diagnosis = if verdict.pass {
         None
     } else {
-        Some(
-            diagnosis_with_signal(stage, profile, settings, readings, tones)
-                .map_err(JudgeError::Diagnose)?,
-        )
+        let mut d = Diagnosis::new();
+        diagnosis_with_signal_into(stage, profile, settings, readings, tones, &mut d)
+            .map_err(JudgeError::Diagnose)?;
+        Some(d)
     };
     Ok(Judgement {
         windows,
@@ -324,7 +327,7 @@ pub fn judge_with_signal(
 }
 
 /// Steps 1 to 5 of [`judge`] without the diagnosis: the windows and the verdict. A small
-/// instrument calls this and then [`diagnosis`] for a failed board, keeping the diagnosis (a
+/// instrument calls this and then [`diagnosis_with_signal_into`] for a failed board, keeping the diagnosis (a
 /// few KB) where it is stored instead of moving it through a [`Judgement`].
 pub fn verdict(
     stage: &Stage,
@@ -406,20 +409,11 @@ pub fn verdict_with_signal(
     Ok((Windows { supply, limits }, verdict, judged))
 }
 
-/// [`diagnosis`] written into `out`: the instrument keeps it in its session state, never on its
-/// stack.
-#[inline(never)]
-pub fn diagnosis_into(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-    out: &mut Diagnosis,
-) -> Result<(), DiagnoseError> {
-    diagnosis_with_signal_into(stage, profile, settings, readings, &[], out)
-}
-
-/// [`diagnosis_into`] on DC and gain readings together.
+/// The diagnosis of [`judge`] for a failed board, on DC and gain readings together, with the same
+/// meter, test ambient and inputs, written into `out`: the instrument keeps it in its session
+/// state, never on its stack. (Its error is the diagnosis's own; not inlined, so that the
+/// diagnosis's working storage is not part of its caller's frame while the windows are
+/// computed.)
 #[inline(never)]
 pub fn diagnosis_with_signal_into(
     stage: &Stage,
@@ -438,39 +432,5 @@ pub fn diagnosis_with_signal_into(
         &settings.signal,
         &variation(settings),
         out,
-    )
-}
-
-/// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
-/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place; not
-/// inlined, so that the diagnosis's working storage is not part of its caller's frame while the
-/// windows are computed.)
-#[inline(never)]
-pub fn diagnosis(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-) -> Result<Diagnosis, DiagnoseError> {
-    diagnosis_with_signal(stage, profile, settings, readings, &[])
-}
-
-/// [`diagnosis`] on DC and gain readings together.
-#[inline]
-pub fn diagnosis_with_signal(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-    tones: &[ToneReading],
-) -> Result<Diagnosis, DiagnoseError> {
-    diagnose::diagnose_with_signal(
-        stage,
-        profile,
-        readings,
-        tones,
-        &settings.meter,
-        &settings.signal,
-        &variation(settings),
     )
 }
