@@ -211,13 +211,9 @@ pub(super) fn crude_inverse(ctx: &Ctx<'_>, meter: &Meter) -> Sym {
 mod tests {
     use super::*;
 
-    struct Sym3 {
-        a: f64,
-        b: f64,
-        c: f64,
-        d: f64,
-        e: f64,
-        f: f64,
+    /// The product of the first three rows and columns of `a` with `x`.
+    fn times(a: &Sym, x: [f64; 3]) -> [f64; 3] {
+        core::array::from_fn(|i| (0..3).map(|j| a.m[i][j] * x[j]).sum())
     }
 
     #[test]
@@ -231,34 +227,10 @@ mod tests {
         let mut m = Sym::diag(padded([2.0, 3.0, 4.0]), 3);
         m.add_outer(padded([1.0, 0.5, -0.25]));
         let inv = m.inverse();
-        let m = Sym3 {
-            a: m.m[0][0],
-            b: m.m[1][1],
-            c: m.m[2][2],
-            d: m.m[0][1],
-            e: m.m[0][2],
-            f: m.m[1][2],
-        };
-        let inv = Sym3 {
-            a: inv.m[0][0],
-            b: inv.m[1][1],
-            c: inv.m[2][2],
-            d: inv.m[0][1],
-            e: inv.m[0][2],
-            f: inv.m[1][2],
-        };
-        // M·M⁻¹ = I, checked through quadratic forms: (x)ᵀ M⁻¹ (M x) = xᵀ x.
+        // M·M⁻¹ = I, checked on a vector: M⁻¹ (M x) = x (every element of both, not only the
+        // upper triangle).
         let x = [0.3, -1.2, 0.7];
-        let mx = [
-            m.a * x[0] + m.d * x[1] + m.e * x[2],
-            m.d * x[0] + m.b * x[1] + m.f * x[2],
-            m.e * x[0] + m.f * x[1] + m.c * x[2],
-        ];
-        let back = [
-            inv.a * mx[0] + inv.d * mx[1] + inv.e * mx[2],
-            inv.d * mx[0] + inv.b * mx[1] + inv.f * mx[2],
-            inv.e * mx[0] + inv.f * mx[1] + inv.c * mx[2],
-        ];
+        let back = times(&inv, times(&m, x));
         for (a, b) in back.iter().zip(x) {
             assert!((a - b).abs() < 1e-12, "{back:?}");
         }
