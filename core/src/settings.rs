@@ -294,6 +294,87 @@ impl Digest {
     }
 }
 
+/// A canonical byte encoding (see the module notes): numbers as IEEE 754 binary64
+/// little-endian, an absent optional value as the byte 0 and a present one as 1 and its bytes.
+/// The settings digest ([`Canonical`]) writes through it; so can any other record of a design.
+pub trait Encode {
+    /// Raw bytes.
+    fn put(&mut self, bytes: &[u8]);
+
+    /// One byte.
+    fn u8(&mut self, v: u8) {
+        self.put(&[v]);
+    }
+
+    /// A number as binary64 little-endian.
+    fn f64(&mut self, v: f64) {
+        self.put(&v.to_le_bytes());
+    }
+
+    /// An optional number: 0, or 1 and the number.
+    fn opt(&mut self, v: Option<f64>) {
+        match v {
+            None => self.u8(0),
+            Some(x) => {
+                self.u8(1);
+                self.f64(x);
+            }
+        }
+    }
+
+    /// A part: its value and its tolerance.
+    fn part(&mut self, p: Part) {
+        self.f64(p.value);
+        self.f64(p.tol);
+    }
+
+    /// An optional part: 0, or 1 and the part.
+    fn opt_part(&mut self, p: Option<Part>) {
+        match p {
+            None => self.u8(0),
+            Some(p) => {
+                self.u8(1);
+                self.part(p);
+            }
+        }
+    }
+
+    /// A design, stage then transistor: polarity (0 NPN, 1 PNP); VCC, R1, R2, RC, RE1, RE2
+    /// value and tolerance each; RL optional; RS; CIN, COUT, CE optional parts; hFE min, typ,
+    /// max, reverse, tc; IS; Early optional; VCE(sat); power rating; maximum junction
+    /// temperature (246 bytes).
+    fn design(&mut self, stage: &Stage, profile: &Profile) {
+        self.u8(match stage.polarity {
+            Polarity::Npn => 0,
+            Polarity::Pnp => 1,
+        });
+        for p in [
+            stage.vcc, stage.r1, stage.r2, stage.rc, stage.re1, stage.re2,
+        ] {
+            self.part(p);
+        }
+        self.opt(stage.rl);
+        self.f64(stage.rs);
+        for c in [stage.cin, stage.cout, stage.ce] {
+            self.opt_part(c);
+        }
+        for v in [
+            profile.beta_min,
+            profile.beta_typ,
+            profile.beta_max,
+            profile.beta_rev,
+            profile.beta_tc,
+            profile.is_25,
+        ] {
+            self.f64(v);
+        }
+        self.opt(profile.early);
+        for v in [profile.vce_sat, profile.power_25, profile.tj_max] {
+            self.f64(v);
+        }
+    }
+}
+
 /// The canonical encoding fed into SHA-256 (see the module notes); a front end may append its
 /// own canonical fields (a design file's requirement, series and identifier) after the settings.
 #[derive(Clone)]
@@ -323,7 +404,7 @@ impl Canonical {
 
     /// One byte.
     pub fn u8(&mut self, v: u8) {
-        self.bytes(&[v]);
+        Encode::u8(self, v);
     }
 
     /// A number as binary64 little-endian, −0 as +0.
@@ -335,13 +416,7 @@ impl Canonical {
 
     /// An optional number: 0, or 1 and the number.
     pub fn opt(&mut self, v: Option<f64>) {
-        match v {
-            None => self.u8(0),
-            Some(x) => {
-                self.u8(1);
-                self.f64(x);
-            }
-        }
+        Encode::opt(self, v);
     }
 
     /// A text: its length (u32 little-endian) and its UTF-8 bytes.
@@ -351,63 +426,21 @@ impl Canonical {
         self.bytes(s.as_bytes());
     }
 
-    fn part(&mut self, p: Part) {
-        self.f64(p.value);
-        self.f64(p.tol);
-    }
-
-    fn all(&mut self, v: &[f64]) {
-        for x in v {
-            self.f64(*x);
-        }
-    }
-
-    fn opt_part(&mut self, p: Option<Part>) {
-        match p {
-            None => self.u8(0),
-            Some(p) => {
-                self.u8(1);
-                self.part(p);
-            }
-        }
-    }
-
     /// The stage, the profile and the test settings, in the order of the module notes.
     #[inline(never)]
     pub fn settings(&mut self, stage: &Stage, profile: &Profile, settings: &TestSettings) {
         self.bytes(b"biasjig-settings");
         self.u8(ENCODING_VERSION);
-        self.u8(match stage.polarity {
-            Polarity::Npn => 0,
-            Polarity::Pnp => 1,
-        });
-        for p in [
-            stage.vcc, stage.r1, stage.r2, stage.rc, stage.re1, stage.re2,
-        ] {
-            self.part(p);
-        }
-        self.opt(stage.rl);
-        self.f64(stage.rs);
-        for c in [stage.cin, stage.cout, stage.ce] {
-            self.opt_part(c);
-        }
-        self.all(&[
-            profile.beta_min,
-            profile.beta_typ,
-            profile.beta_max,
-            profile.beta_rev,
-            profile.beta_tc,
-            profile.is_25,
-        ]);
-        self.opt(profile.early);
-        self.all(&[profile.vce_sat, profile.power_25, profile.tj_max]);
-        self.all(&[
+        self.design(stage, profile);
+        for v in [
             settings.temp_min_c,
             settings.temp_max_c,
             settings.meter.gain_error,
             settings.meter.offset,
             settings.meter.divider_tol,
-        ]);
+        ] {
+            self.f64(v);
+        }
         self.opt(settings.inputs.r);
         self.u8(match settings.inputs.mode {
             InputMode::Together => 0,
@@ -424,6 +457,17 @@ impl Canonical {
     /// The SHA-256 of everything encoded.
     pub fn finish(self) -> Digest {
         Digest(self.0.finalize().into())
+    }
+}
+
+impl Encode for Canonical {
+    fn put(&mut self, bytes: &[u8]) {
+        self.bytes(bytes);
+    }
+
+    /// −0 as +0 ([`Canonical::f64`]).
+    fn f64(&mut self, v: f64) {
+        Canonical::f64(self, v);
     }
 }
 
