@@ -100,24 +100,10 @@ pub fn readings_through(
     cond: Conditions,
     inputs: &crate::settings::Inputs,
 ) -> Result<Readings, SolveError> {
-    use crate::settings::ReadNode;
-    let (vb, ve, vc) = match inputs.common_loads() {
-        Some(loads) => {
-            let op = solve(stage, profile, cond.loaded(loads))?;
-            (op.vb, op.ve, op.vc)
-        }
-        None => {
-            let at = |n: ReadNode| solve(stage, profile, cond.loaded(inputs.loads_reading(n)));
-            (
-                at(ReadNode::Base)?.vb,
-                at(ReadNode::Emitter)?.ve,
-                at(ReadNode::Collector)?.vc,
-            )
-        }
-    };
+    let (op, ve, vc) = inputs.read_through(|l| solve(stage, profile, cond.loaded(l)))?;
     Ok(Readings {
         vcc: stage.vcc.value,
-        vb,
+        vb: op.vb,
         ve,
         vc,
     })

@@ -26,7 +26,7 @@ use sha2::{Digest as _, Sha256};
 
 use crate::device::Profile;
 use crate::limits::Meter;
-use crate::solve::NodeLoads;
+use crate::solve::{NodeLoads, OperatingPoint};
 use crate::spread::Variation;
 use crate::stage::{Part, Polarity, Stage};
 
@@ -153,6 +153,28 @@ impl Inputs {
             (None, _) => Some(NodeLoads::NONE),
             (Some(_), InputMode::Together) => Some(NodeLoads::each(self.r)),
             (Some(_), InputMode::One) => None,
+        }
+    }
+
+    /// The stage as its nodes are read through these inputs: `solve` under the one set of loads
+    /// of every reading ([`Inputs::common_loads`]), or once per node with only that node's input
+    /// attached (base, emitter, collector, in that order). Gives the operating point of the first
+    /// solve (the base's reading) and VE and VC as read, V.
+    pub fn read_through<E>(
+        &self,
+        mut solve: impl FnMut(NodeLoads) -> Result<OperatingPoint, E>,
+    ) -> Result<(OperatingPoint, f64, f64), E> {
+        match self.common_loads() {
+            Some(loads) => {
+                let op = solve(loads)?;
+                Ok((op, op.ve, op.vc))
+            }
+            None => {
+                let op = solve(self.loads_reading(ReadNode::Base))?;
+                let ve = solve(self.loads_reading(ReadNode::Emitter))?.ve;
+                let vc = solve(self.loads_reading(ReadNode::Collector))?.vc;
+                Ok((op, ve, vc))
+            }
         }
     }
 }

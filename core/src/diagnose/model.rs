@@ -9,7 +9,7 @@ use crate::device::Profile;
 #[cfg(feature = "signal-test")]
 use crate::response;
 use crate::response::{CapState, Caps};
-use crate::settings::{Inputs, ReadNode};
+use crate::settings::Inputs;
 use crate::signaltest::SignalMeter;
 use crate::solve::{solve_from, Conditions, NodeLoads, OperatingPoint, Start};
 use crate::spread::Variation;
@@ -160,23 +160,11 @@ impl<'a> Ctx<'a> {
             },
             emitter: l.emitter,
         };
-        let (vb, ve, vc, op) = match self.inputs.common_loads() {
-            Some(l) => {
-                let op = self.solve(&dc_stage, cond.loaded(with(l)))?;
-                (op.vb, op.ve, op.vc, op)
-            }
-            None => {
-                // Each node read with only its own input attached: one solve per node.
-                let mut at = |n: ReadNode| {
-                    let l = self.inputs.loads_reading(n);
-                    self.solve(&dc_stage, cond.loaded(with(l)))
-                };
-                let b = at(ReadNode::Base)?;
-                let ve = at(ReadNode::Emitter)?.ve;
-                let vc = at(ReadNode::Collector)?.vc;
-                (b.vb, ve, vc, b)
-            }
-        };
+        let inputs = self.inputs;
+        let (op, ve, vc) = inputs
+            .read_through(|l| self.solve(&dc_stage, cond.loaded(with(l))).ok_or(()))
+            .ok()?;
+        let vb = op.vb;
         let mut y = [0.0; DIM];
         for (slot, v) in y.iter_mut().zip([vb, ve, vc]) {
             *slot = v;
