@@ -353,9 +353,7 @@ pub fn verdict_with_signal(
         signaltest::validate_reading(t).map_err(JudgeError::Signal)?;
     }
     let r = readings;
-    if ![r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
-        return Err(JudgeError::Implausible(Implausible::NotFinite));
-    }
+    check::finite(r).map_err(JudgeError::Implausible)?;
     let supply = supply_window(stage);
     if !supply.contains(r.vcc) {
         return Err(JudgeError::Supply {

@@ -5,7 +5,6 @@
 
 use super::model::{Ctx, Tweak};
 use super::{ResistorMode, Suspect, DIM, FLOATING_NODE_V, GAIN_NOISE, PROBE_NOISE_V};
-use crate::check::reading_error;
 use crate::limits::Meter;
 use crate::spread::Variation;
 use crate::stage::{Capacitor, Resistor};
@@ -137,7 +136,7 @@ pub(super) fn covariance(
     let mut diag = [0.0; DIM];
     for (k, (d, m)) in diag.iter_mut().zip(ctx.measured).enumerate() {
         if k < 3 || !cfg!(feature = "signal-test") {
-            let s = reading_error(meter, m) * INV_SQRT3;
+            let s = meter.error(m) * INV_SQRT3;
             let extra = if float.get(k).copied().unwrap_or(false) {
                 FLOATING_NODE_V
             } else {
@@ -187,7 +186,7 @@ pub(super) fn covariance(
         add(ctx, Tweak::Temp(var.temp_max_c), INV_SQRT3);
     }
     let vcc = ctx.stage.vcc.value;
-    let err = reading_error(meter, vcc);
+    let err = meter.error(vcc);
     add(ctx, Tweak::Supply(vcc + err), INV_SQRT3);
     cov
 }
@@ -198,7 +197,7 @@ pub(super) fn crude_inverse(ctx: &Ctx<'_>, meter: &Meter) -> Sym {
     let mut d = [0.0; DIM];
     for (k, (d, m)) in d.iter_mut().zip(ctx.measured).enumerate() {
         let s = if k < 3 {
-            reading_error(meter, m) + 0.03 * libm::fabs(m) + 0.01 * vcc
+            meter.error(m) + 0.03 * libm::fabs(m) + 0.01 * vcc
         } else {
             ctx.signal.error(m) + 0.05 * libm::fabs(m) + 0.02
         };

@@ -168,10 +168,7 @@ pub fn diagnose_with_signal_into(
     out.ranked.clear();
     out.explained = false;
     out.solves = 0;
-    if !(readings.vb.is_finite()
-        && readings.ve.is_finite()
-        && readings.vc.is_finite()
-        && readings.vcc.is_finite())
+    if crate::check::finite(readings).is_err()
         || tones.len() > GAIN_SLOTS
         || (cfg!(not(feature = "signal-test")) && !tones.is_empty())
         || tones

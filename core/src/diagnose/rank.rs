@@ -7,7 +7,6 @@ use heapless::Vec;
 #[cfg(feature = "signal-test")]
 use super::model::{Ctx, Tweak};
 use super::{Hypothesis, CAPACITY, DIM, FIT_PENALTY, UNEXPLAINED_CHI2};
-use crate::check::reading_error;
 #[cfg(feature = "signal-test")]
 use crate::device::Profile;
 use crate::limits::Meter;
@@ -51,7 +50,7 @@ pub(super) fn tolerances(meter: &Meter, signal: &SignalMeter, measured: &[f64; D
     core::array::from_fn(|k| {
         let v = measured.get(k).copied().unwrap_or(0.0);
         if k < 3 {
-            reading_error(meter, v)
+            meter.error(v)
         } else {
             signal.error(v)
         }
