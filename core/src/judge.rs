@@ -13,11 +13,11 @@
 //!    ([`check::plausible`]);
 //! 5. the windows at the measured supply over the test ambient with the measuring inputs
 //!    attached ([`limits::limits`]), the verdict ([`check::check`]) and, for a failed board, the
-//!    diagnosis with the same meter, ambient and inputs ([`diagnose::diagnose`]).
+//!    diagnosis with the same meter, ambient and inputs ([`crate::diagnose::diagnose`]).
 
 use crate::check::{self, Implausible, Verdict};
 use crate::device::Profile;
-use crate::diagnose::{self, DiagnoseError, Diagnosis};
+use crate::diagnose::{DiagnoseError, Diagnosis};
 use crate::limits::{self, Limits, LimitsError, Window};
 use crate::settings::{SettingsError, TestSettings};
 use crate::signaltest::{self, SignalTestError, ToneReading, ToneWindow, MAX_TONES};
@@ -286,7 +286,7 @@ pub fn judge(
 
 /// Judge one board by its DC readings and its gain readings `tones` (the signal test): each gain
 /// against its window ([`tone_windows`]), the verdict failed when any window fails, and the
-/// diagnosis on DC and signal readings together ([`diagnose::diagnose_with_signal`]).
+/// diagnosis on DC and signal readings together ([`crate::diagnose::diagnose_with_signal`]).
 pub fn judge_with_signal(
     stage: &Stage,
     profile: &Profile,
@@ -395,26 +395,5 @@ pub fn verdict_with_signal(
 
 /// The diagnosis of [`judge`] for a failed board, on DC and gain readings together, with the same
 /// meter, test ambient and inputs, written into `out`: the instrument keeps it in its session
-/// state, never on its stack. (Its error is the diagnosis's own; not inlined, so that the
-/// diagnosis's working storage is not part of its caller's frame while the windows are
-/// computed.)
-#[inline(never)]
-pub fn diagnosis_with_signal_into(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-    tones: &[ToneReading],
-    out: &mut Diagnosis,
-) -> Result<(), DiagnoseError> {
-    diagnose::diagnose_with_signal_into(
-        stage,
-        profile,
-        readings,
-        tones,
-        &settings.meter,
-        &settings.signal,
-        &variation(settings),
-        out,
-    )
-}
+/// state, never on its stack (the diagnosis's own entry, [`crate::diagnose::diagnose_into`]).
+pub use crate::diagnose::diagnose_into as diagnosis_with_signal_into;

@@ -245,6 +245,17 @@ impl TestSettings {
         signal: crate::signaltest::SignalMeter::DEFAULT,
     };
 
+    /// The test settings of the ambient and the measuring inputs of `var`, with the default
+    /// meter and signal meter (the other way round from [`TestSettings::variation`]).
+    pub fn for_variation(var: &Variation) -> Self {
+        Self {
+            temp_min_c: var.temp_min_c,
+            temp_max_c: var.temp_max_c,
+            inputs: var.inputs,
+            ..Self::DEFAULT
+        }
+    }
+
     /// The test ambient as the spread, limits and diagnosis take it, the nodes read through the
     /// measuring inputs.
     pub fn variation(&self) -> Variation {

@@ -5,8 +5,6 @@
 
 use super::model::{Ctx, Tweak};
 use super::{ResistorMode, Suspect, DIM, FLOATING_NODE_V, GAIN_NOISE, PROBE_NOISE_V};
-use crate::limits::Meter;
-use crate::spread::Variation;
 use crate::stage::{Capacitor, Resistor};
 
 /// A symmetric matrix over the first `n` of [`DIM`] readings (the rest unused).
@@ -118,8 +116,6 @@ fn floating(suspect: Suspect) -> [bool; 3] {
 /// the other parts' tolerances, the ambient range, the supply reading's error, the meter and noise.
 pub(super) fn covariance(
     ctx: &mut Ctx<'_>,
-    meter: &Meter,
-    var: &Variation,
     suspect: Suspect,
     value: f64,
     beta: f64,
@@ -128,7 +124,8 @@ pub(super) fn covariance(
     const INV_SQRT3: f64 = 0.577_350_269_189_625_8;
     // A node a fault leaves floating is held by the measuring input where one is modelled (the
     // prediction then includes it); only an ideal meter's reading of it is uncertain.
-    let float = if ctx.inputs.is_ideal() {
+    let meter = ctx.settings.meter;
+    let float = if ctx.settings.inputs.is_ideal() {
         floating(suspect)
     } else {
         [false; 3]
@@ -144,7 +141,7 @@ pub(super) fn covariance(
             };
             *d = s * s + PROBE_NOISE_V * PROBE_NOISE_V + extra * extra;
         } else {
-            let s = ctx.signal.error(m) * INV_SQRT3;
+            let s = ctx.settings.signal.error(m) * INV_SQRT3;
             *d = s * s + GAIN_NOISE * GAIN_NOISE;
         }
     }
@@ -181,9 +178,10 @@ pub(super) fn covariance(
             }
         }
     }
-    if var.temp_max_c > var.temp_min_c {
+    let (temp_min_c, temp_max_c) = (ctx.settings.temp_min_c, ctx.settings.temp_max_c);
+    if temp_max_c > temp_min_c {
         // Half the range as the step; a uniform spread over the range has σ = half/√3.
-        add(ctx, Tweak::Temp(var.temp_max_c), INV_SQRT3);
+        add(ctx, Tweak::Temp(temp_max_c), INV_SQRT3);
     }
     let vcc = ctx.stage.vcc.value;
     let err = meter.error(vcc);
@@ -192,14 +190,15 @@ pub(super) fn covariance(
 }
 
 /// A crude diagonal error model used to locate a part value before the full one is built.
-pub(super) fn crude_inverse(ctx: &Ctx<'_>, meter: &Meter) -> Sym {
+pub(super) fn crude_inverse(ctx: &Ctx<'_>) -> Sym {
+    let meter = ctx.settings.meter;
     let vcc = ctx.stage.vcc.value;
     let mut d = [0.0; DIM];
     for (k, (d, m)) in d.iter_mut().zip(ctx.measured).enumerate() {
         let s = if k < 3 {
             meter.error(m) + 0.03 * libm::fabs(m) + 0.01 * vcc
         } else {
-            ctx.signal.error(m) + 0.05 * libm::fabs(m) + 0.02
+            ctx.settings.signal.error(m) + 0.05 * libm::fabs(m) + 0.02
         };
         *d = 1.0 / (s * s);
     }

@@ -11,8 +11,6 @@ use super::{
     Hypothesis, ResistorMode, Suspect, CAPACITY, DIM, GAIN_SLOTS, SCREEN_KEEP, SCREEN_MARGIN,
     VALUE_RANGE,
 };
-use crate::limits::Meter;
-use crate::spread::Variation;
 use crate::stage::Stage;
 
 /// Screen every hypothesis of `dictionary` and give the full fit to those the screen cannot
@@ -21,14 +19,12 @@ use crate::stage::Stage;
 /// fully fitted one.
 pub(super) fn fit_all(
     ctx: &mut Ctx<'_>,
-    meter: &Meter,
-    var: &Variation,
     dictionary: impl IntoIterator<Item = Suspect>,
     ranked: &mut Vec<Hypothesis, CAPACITY>,
 ) {
     // 1. The screen: every hypothesis at typical hFE (value faults at the points of a coarse
     //    grid) under the crude error model.
-    let crude = crude_inverse(ctx, meter);
+    let crude = crude_inverse(ctx);
     // The screen's findings wait in the result's own slots (see `hold`), in dictionary order.
     let mut screened = [f64::INFINITY; CAPACITY];
     for suspect in dictionary {
@@ -53,7 +49,7 @@ pub(super) fn fit_all(
         let (suspect, c) = (h.suspect, held(h));
         let better = screened.iter().filter(|&&o| o < c.chi2).count();
         let full = if better < SCREEN_KEEP || c.chi2 <= best_coarse + SCREEN_MARGIN {
-            fit(ctx, meter, var, &crude, suspect, c)
+            fit(ctx, &crude, suspect, c)
         } else {
             None
         };
@@ -147,8 +143,6 @@ impl Top {
 /// Fit one hypothesis; returns (χ², value, beta, prediction).
 fn fit(
     ctx: &mut Ctx<'_>,
-    meter: &Meter,
-    var: &Variation,
     crude: &Sym,
     suspect: Suspect,
     coarse: Coarse,
@@ -182,7 +176,7 @@ fn fit(
     // 2. The full error model at that point (its prediction is the crude fit's).
     let value = libm::exp(at_typ.lv);
     let y0 = at_typ.y;
-    let inv = covariance(ctx, meter, var, suspect, value, beta_typ, y0).inverse();
+    let inv = covariance(ctx, suspect, value, beta_typ, y0).inverse();
     let mut top = Top {
         chi2: f64::INFINITY,
         value,

@@ -48,6 +48,7 @@ pub use rank::separating_tone;
 
 use crate::device::Profile;
 use crate::limits::Meter;
+use crate::settings::TestSettings;
 use crate::signaltest::{SignalMeter, ToneReading, MAX_TONES};
 use crate::spread::Variation;
 use crate::stage::{Readings, Stage};
@@ -144,25 +145,28 @@ pub fn diagnose_with_signal(
     signal: &SignalMeter,
     var: &Variation,
 ) -> Result<Diagnosis, DiagnoseError> {
+    let settings = TestSettings {
+        meter: *meter,
+        signal: *signal,
+        ..TestSettings::for_variation(var)
+    };
     let mut d = Diagnosis::new();
-    diagnose_with_signal_into(stage, profile, readings, tones, meter, signal, var, &mut d)?;
+    diagnose_into(stage, profile, &settings, readings, tones, &mut d)?;
     Ok(d)
 }
 
-/// [`diagnose_with_signal`] written into `out` (a few KB): an instrument keeps the result where
-/// it is stored instead of moving it through its stack. On an error `out` holds nothing useful.
-#[expect(
-    clippy::too_many_arguments,
-    reason = "the readings of both kinds and the accuracy of each, as the public entry points"
-)]
-pub fn diagnose_with_signal_into(
+/// The diagnosis under the test settings (the ambient, the meter and the signal meter, the
+/// measuring inputs), on DC and gain readings together, written into `out` (a few KB): an
+/// instrument keeps the result where it is stored instead of moving it through its stack. On an
+/// error `out` holds nothing useful. (Not inlined, so that its working storage is not part of
+/// its caller's frame.)
+#[inline(never)]
+pub fn diagnose_into(
     stage: &Stage,
     profile: &Profile,
+    settings: &TestSettings,
     readings: &Readings,
     tones: &[ToneReading],
-    meter: &Meter,
-    signal: &SignalMeter,
-    var: &Variation,
     out: &mut Diagnosis,
 ) -> Result<(), DiagnoseError> {
     out.ranked.clear();
@@ -191,7 +195,7 @@ pub fn diagnose_with_signal_into(
     for (slot, t) in freqs.iter_mut().zip(tones) {
         *slot = t.f;
     }
-    let mut ctx = Ctx::new(stage, profile, readings.vcc, var, signal);
+    let mut ctx = Ctx::new(stage, profile, readings.vcc, settings);
     ctx.measured = m;
     ctx.n = n;
     ctx.tones = freqs;
@@ -200,13 +204,13 @@ pub fn diagnose_with_signal_into(
     //    cannot rule out: the best SCREEN_KEEP and any within SCREEN_MARGIN of the best. The
     //    screen's findings wait in the result's own slots until the fits replace them.
     let dictionary = hypothesis::dictionary(stage, !tones.is_empty());
-    fit::fit_all(&mut ctx, meter, var, dictionary, &mut out.ranked);
+    fit::fit_all(&mut ctx, dictionary, &mut out.ranked);
     if out.ranked.is_empty() {
         return Err(DiagnoseError::NothingSolved);
     }
     // 3. Scores, then the groups of hypotheses the readings cannot tell apart.
     let explained = rank::rank(&mut out.ranked);
-    rank::group(&mut out.ranked, &rank::tolerances(meter, signal, &m), n);
+    rank::group(&mut out.ranked, &rank::tolerances(settings, &m), n);
     out.explained = explained;
     out.solves = ctx.solves;
     Ok(())

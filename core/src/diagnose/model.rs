@@ -9,10 +9,8 @@ use crate::device::Profile;
 #[cfg(feature = "signal-test")]
 use crate::response;
 use crate::response::{CapState, Caps};
-use crate::settings::Inputs;
-use crate::signaltest::SignalMeter;
+use crate::settings::TestSettings;
 use crate::solve::{solve_from, Conditions, NodeLoads, OperatingPoint, Start};
-use crate::spread::Variation;
 use crate::stage::{Capacitor, Fault, Resistor, Stage};
 
 /// A load `r` (Ω) added in parallel with an existing one.
@@ -31,12 +29,11 @@ pub(super) struct Ctx<'a> {
     pub(super) measured: [f64; DIM],
     /// Readings in use: 3 + the test frequencies.
     pub(super) n: usize,
-    /// The accuracy of a gain reading.
-    pub(super) signal: SignalMeter,
     /// The test frequencies, Hz.
     pub(super) tones: [f64; GAIN_SLOTS],
-    /// The measuring inputs attached while the nodes are read.
-    pub(super) inputs: Inputs,
+    /// The test ambient, the meter and the signal meter, the measuring inputs attached while
+    /// the nodes are read.
+    pub(super) settings: TestSettings,
     /// Operating-point solves spent.
     pub(super) solves: u32,
     /// The last solution, where the next solve starts (successive solves differ a little).
@@ -55,25 +52,23 @@ pub(super) enum Tweak {
 
 impl<'a> Ctx<'a> {
     /// The design `stage` at the measured supply `vcc` (V), solved at the middle of the test
-    /// ambient of `var` through its measuring inputs; no readings yet (`n` = 3, zeros).
+    /// ambient through the measuring inputs of `settings`; no readings yet (`n` = 3, zeros).
     pub(super) fn new(
         stage: &Stage,
         profile: &'a Profile,
         vcc: f64,
-        var: &Variation,
-        signal: &SignalMeter,
+        settings: &TestSettings,
     ) -> Self {
         let mut at_supply = *stage;
         at_supply.vcc.value = vcc;
         Self {
             stage: at_supply,
             profile,
-            temp_c: 0.5 * (var.temp_min_c + var.temp_max_c),
+            temp_c: 0.5 * (settings.temp_min_c + settings.temp_max_c),
             measured: [0.0; DIM],
             n: 3,
             tones: [0.0; GAIN_SLOTS],
-            signal: *signal,
-            inputs: var.inputs,
+            settings: *settings,
             solves: 0,
             start: None,
         }
@@ -160,7 +155,7 @@ impl<'a> Ctx<'a> {
             },
             emitter: l.emitter,
         };
-        let inputs = self.inputs;
+        let inputs = self.settings.inputs;
         let (op, ve, vc) = inputs
             .read_through(|l| self.solve(&dc_stage, cond.loaded(with(l))).ok_or(()))
             .ok()?;

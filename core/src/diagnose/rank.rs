@@ -9,7 +9,8 @@ use super::model::{Ctx, Tweak};
 use super::{Hypothesis, CAPACITY, DIM, FIT_PENALTY, UNEXPLAINED_CHI2};
 #[cfg(feature = "signal-test")]
 use crate::device::Profile;
-use crate::limits::Meter;
+use crate::settings::TestSettings;
+#[cfg(feature = "signal-test")]
 use crate::signaltest::SignalMeter;
 #[cfg(feature = "signal-test")]
 use crate::spread::Variation;
@@ -46,13 +47,13 @@ pub(super) fn rank(ranked: &mut [Hypothesis]) -> bool {
 
 /// How far two predictions of each reading may lie apart and still be the same: the meter's
 /// error at the measured value (VB, VE, VC), the signal meter's for a gain.
-pub(super) fn tolerances(meter: &Meter, signal: &SignalMeter, measured: &[f64; DIM]) -> [f64; DIM] {
+pub(super) fn tolerances(settings: &TestSettings, measured: &[f64; DIM]) -> [f64; DIM] {
     core::array::from_fn(|k| {
         let v = measured.get(k).copied().unwrap_or(0.0);
         if k < 3 {
-            meter.error(v)
+            settings.meter.error(v)
         } else {
-            signal.error(v)
+            settings.signal.error(v)
         }
     })
 }
@@ -116,7 +117,11 @@ pub fn separating_tone(
     if group.len() < 2 {
         return None;
     }
-    let mut ctx = Ctx::new(stage, profile, vcc, var, signal);
+    let settings = TestSettings {
+        signal: *signal,
+        ..TestSettings::for_variation(var)
+    };
+    let mut ctx = Ctx::new(stage, profile, vcc, &settings);
     ctx.n = 4;
     let mut best: Option<(f64, f64)> = None;
     for f in crate::signaltest::candidates() {
