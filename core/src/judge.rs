@@ -211,7 +211,7 @@ fn usable(stage: &Stage, profile: &Profile, settings: &TestSettings) -> Result<(
 }
 
 /// The windows [`judge`] applies to a board whose supply reads `vcc` (V). `biasjig limits`
-/// publishes these (at the nominal supply unless told `--at-vcc`).
+/// publishes these (at the nominal supply unless asked for another).
 pub fn windows(
     stage: &Stage,
     profile: &Profile,

@@ -30,7 +30,7 @@ use crate::solve::{NodeLoads, OperatingPoint};
 use crate::spread::Variation;
 use crate::stage::{Part, Polarity, Stage};
 
-/// Default test ambient, °C (`--temp`; the range defaults to it alone).
+/// Default test ambient, °C (the range defaults to it alone).
 pub const DEFAULT_TEMP_C: f64 = 25.0;
 /// Default supply tolerance, fraction: a bench or jig supply set to within 5 % (common
 /// practice); a measured supply outside it is not judged.
@@ -40,8 +40,8 @@ pub const DEFAULT_TOL: f64 = 0.05;
 /// Default capacitor tolerance, fraction (E6 parts are 20 %, common practice).
 pub const DEFAULT_CAP_TOL: f64 = 0.20;
 /// The transistor every front end starts from: the core's generic small-signal profile (hFE 200
-/// with no spread unless one is given, as the machine interface's `--beta-min/--beta-max`
-/// default to `--beta`; VBE 0.65 V at 1 mA).
+/// with no spread unless one is given: the lowest and highest hFE default to the typical; VBE
+/// 0.65 V at 1 mA).
 pub fn default_profile() -> Profile {
     Profile::default()
 }
