@@ -9,6 +9,10 @@ use heapless::Vec;
 const SEARCH_RESOLUTION: f64 = 1e-3;
 /// Evaluations of the parabolic refinement after a three-point start.
 pub(super) const REFINE_STEPS: u16 = 4;
+/// Points [`refine`] holds at most: the three it starts from and one per step.
+const REFINE_POINTS: usize = 8;
+// The fits' refinement never runs out of room (a longer one stops when the points are full).
+const _: () = assert!(3 + REFINE_STEPS as usize <= REFINE_POINTS);
 
 /// Index of the smallest f among the points (the first on a tie; 0 when none is below infinity).
 fn best_index(pts: &[(f64, f64)]) -> usize {
@@ -34,7 +38,7 @@ pub(super) fn refine(
     steps: u16,
 ) -> (f64, f64) {
     const GOLDEN: f64 = 0.381_966_011_250_105_1;
-    let mut pts: Vec<(f64, f64), 8> = Vec::new();
+    let mut pts: Vec<(f64, f64), REFINE_POINTS> = Vec::new();
     for p in start {
         let _ = pts.push(p);
     }
