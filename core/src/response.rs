@@ -10,7 +10,7 @@
 //!
 //! Cost: one complex 6×6 elimination per frequency (some 250 `f64` multiply-adds).
 
-use crate::acnet::{self, Cap, Setup, OUT};
+use crate::acnet::{self, Cap};
 use crate::solve::OperatingPoint;
 use crate::stage::{Capacitor, Stage};
 
@@ -114,15 +114,8 @@ pub fn gain_at(stage: &Stage, op: &OperatingPoint, caps: &Caps, f_hz: f64) -> Op
     let cin = state(caps.cin, &mut s.cin);
     let cout = state(caps.cout, &mut s.cout);
     let ce = state(caps.ce, &mut s.ce);
-    let setup = Setup {
-        cin,
-        cout,
-        ce,
-        inject: acnet::source_emf(&s),
-        ..Setup::midband()
-    };
-    let v = acnet::at(&acnet::solve(&s, &op.y, &setup)?, OUT);
-    (v.re.is_finite() && v.im.is_finite()).then_some(Gain { re: v.re, im: v.im })
+    let v = acnet::source_to_load(&s, &op.y, cin, cout, ce)?;
+    Some(Gain { re: v.re, im: v.im })
 }
 
 /// |v(load)/v(source EMF)| at `f_hz` (0 where the network is singular: no signal reaches the
