@@ -19,7 +19,7 @@ use crate::stage::Stage;
 /// fully fitted one.
 pub(super) fn fit_all(
     ctx: &mut Ctx<'_>,
-    dictionary: impl IntoIterator<Item = Suspect>,
+    dictionary: &[Suspect],
     ranked: &mut Vec<Hypothesis, CAPACITY>,
 ) {
     // 1. The screen: every hypothesis at typical hFE (value faults at the points of a coarse
@@ -27,7 +27,7 @@ pub(super) fn fit_all(
     let crude = crude_inverse(ctx);
     // The screen's findings wait in the result's own slots (see `hold`), in dictionary order.
     let mut screened = [f64::INFINITY; CAPACITY];
-    for suspect in dictionary {
+    for &suspect in dictionary {
         if let Some(c) = screen(ctx, &crude, suspect) {
             if let Some(slot) = screened.get_mut(ranked.len()) {
                 *slot = c.chi2;

@@ -204,7 +204,7 @@ pub fn diagnose_into(
     //    cannot rule out: the best SCREEN_KEEP and any within SCREEN_MARGIN of the best. The
     //    screen's findings wait in the result's own slots until the fits replace them.
     let dictionary = hypothesis::dictionary(stage, !tones.is_empty());
-    fit::fit_all(&mut ctx, dictionary, &mut out.ranked);
+    fit::fit_all(&mut ctx, &dictionary, &mut out.ranked);
     if out.ranked.is_empty() {
         return Err(DiagnoseError::NothingSolved);
     }
