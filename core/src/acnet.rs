@@ -519,10 +519,7 @@ fn reduced<T: Real>(
     let det =
         d * (g_bb + g_ee + g_cc) - g_bb * g_cc * (g_ee + s) - y11 * g_ee * g_cc - y22 * g_bb * g_ee;
     // A zero or not-a-number determinant: singular.
-    if !(det.norm_sqr() > T::zero()) {
-        return None;
-    }
-    Some(i_b * c13 / det * out_ratio)
+    (det.norm_sqr() > T::zero()).then(|| i_b * c13 / det * out_ratio)
 }
 
 /// Two resistors in parallel, Ω (an open one drops out; a short wins).

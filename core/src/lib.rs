@@ -18,6 +18,7 @@
 //! | engine | [`response`] | the complex gain at any frequency, good or with a faulty capacitor |
 //! | engine | [`power`] | dissipation and supply current |
 //! | engine | [`predict`] | all of the above for one stage in one call |
+//! | job | [`common`] | what the job layers share: nodes, ranges, the variation, the spread's error |
 //! | job | [`design`] | from a requirement to ranked standard-value part lists |
 //! | job | [`spread`] | worst case, Monte Carlo and sensitivity |
 //! | job | [`limits`] | guard-banded pass windows per node |
@@ -27,6 +28,7 @@
 //! | job | [`check`] | measured against limits: verdict and derived quantities |
 //! | job | [`diagnose`] | ranked single-fault hypotheses |
 //! | job | [`explain`] | faults in plain words, the measurement that separates them |
+//! | numbers | [`fnv`] | FNV-1a 64, the hash of design records and stored records |
 //! | numbers | [`goertzel`] | the amplitude of one tone in sampled data (single precision) |
 //! | front | [`console`] | the line console protocol over `embedded-io` |
 //!
@@ -53,14 +55,17 @@
 
 mod acnet;
 pub mod check;
+pub mod common;
 pub mod console;
 pub mod design;
 pub mod device;
 pub mod diagnose;
 pub mod estimate;
 pub mod explain;
+pub mod fnv;
 pub mod goertzel;
 pub mod judge;
+pub mod kv;
 pub mod limits;
 pub mod lowfreq;
 mod order;

@@ -4,41 +4,18 @@
 //! ([`Series::nearest`], [`Series::next_up`], [`Series::ceil`], ...) work across decade boundaries
 //! for any positive finite value (tested from 1e-3 to 1e12) and return `None` where no member
 //! exists (x <= 0, non-finite, or a result that overflows). Values are in the part's SI unit
-//! (Ω or F). The tables are transcribed from IEC 60063:2015, not generated: E24 and E192 contain
-//! values that differ from the rounded geometric series.
+//! (Ω or F). The E24 and E192 tables are transcribed from IEC 60063:2015, not generated (both
+//! contain values that differ from the rounded geometric series); E12, E6 and E3, E96 and E48
+//! are every other member of the series above them, as the standard makes them.
 
 use core::fmt;
 
-/// E3 mantissas ×100 (IEC 60063:2015, transcribed from the project reference file iec60063.txt).
-const E3: [u16; 3] = [100, 220, 470];
-
-/// E6 mantissas ×100 (IEC 60063:2015, transcribed from the project reference file iec60063.txt).
-const E6: [u16; 6] = [100, 150, 220, 330, 470, 680];
-
-/// E12 mantissas ×100 (IEC 60063:2015, transcribed from the project reference file iec60063.txt).
-const E12: [u16; 12] = [100, 120, 150, 180, 220, 270, 330, 390, 470, 560, 680, 820];
+use crate::units::EXACT_POW10;
 
 /// E24 mantissas ×100 (IEC 60063:2015, transcribed from the project reference file iec60063.txt).
 const E24: [u16; 24] = [
     100, 110, 120, 130, 150, 160, 180, 200, 220, 240, 270, 300, 330, 360, 390, 430, 470, 510, 560,
     620, 680, 750, 820, 910,
-];
-
-/// E48 mantissas ×100 (IEC 60063:2015, transcribed from the project reference file iec60063.txt).
-const E48: [u16; 48] = [
-    100, 105, 110, 115, 121, 127, 133, 140, 147, 154, 162, 169, 178, 187, 196, 205, 215, 226, 237,
-    249, 261, 274, 287, 301, 316, 332, 348, 365, 383, 402, 422, 442, 464, 487, 511, 536, 562, 590,
-    619, 649, 681, 715, 750, 787, 825, 866, 909, 953,
-];
-
-/// E96 mantissas ×100 (IEC 60063:2015, transcribed from the project reference file iec60063.txt).
-const E96: [u16; 96] = [
-    100, 102, 105, 107, 110, 113, 115, 118, 121, 124, 127, 130, 133, 137, 140, 143, 147, 150, 154,
-    158, 162, 165, 169, 174, 178, 182, 187, 191, 196, 200, 205, 210, 215, 221, 226, 232, 237, 243,
-    249, 255, 261, 267, 274, 280, 287, 294, 301, 309, 316, 324, 332, 340, 348, 357, 365, 374, 383,
-    392, 402, 412, 422, 432, 442, 453, 464, 475, 487, 499, 511, 523, 536, 549, 562, 576, 590, 604,
-    619, 634, 649, 665, 681, 698, 715, 732, 750, 768, 787, 806, 825, 845, 866, 887, 909, 931, 953,
-    976,
 ];
 
 /// E192 mantissas ×100 (IEC 60063:2015, transcribed from the project reference file iec60063.txt).
@@ -56,11 +33,34 @@ const E192: [u16; 192] = [
     976, 988,
 ];
 
-/// Exact powers of ten 1e0 ..= 1e22 (all exactly representable in `f64`).
-const POW10: [f64; 23] = [
-    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
-    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
-];
+/// Every other member of a series, from the first: the next series down (IEC 60063:2015: E12,
+/// E6 and E3 are so made from E24, E96 and E48 from E192; the tests check every table against
+/// the reference file).
+#[expect(
+    clippy::indexing_slicing,
+    reason = "evaluated at compile time only: an index out of range fails the build"
+)]
+const fn every_other<const N: usize, const M: usize>(t: &[u16; N]) -> [u16; M] {
+    assert!(2 * M == N);
+    let mut out = [0; M];
+    let mut i = 0;
+    while i < M {
+        out[i] = t[2 * i];
+        i += 1;
+    }
+    out
+}
+
+/// E12 mantissas ×100: every other E24 member.
+const E12: [u16; 12] = every_other(&E24);
+/// E6 mantissas ×100: every other E12 member.
+const E6: [u16; 6] = every_other(&E12);
+/// E3 mantissas ×100: every other E6 member.
+const E3: [u16; 3] = every_other(&E6);
+/// E96 mantissas ×100: every other E192 member.
+const E96: [u16; 96] = every_other(&E192);
+/// E48 mantissas ×100: every other E96 member.
+const E48: [u16; 48] = every_other(&E96);
 
 /// 10^e for a non-negative exponent: exact up to 1e22, correctly rounded up to 1e44 (one
 /// product of exact powers), within a few ulps beyond; infinity past 1e308.
@@ -73,7 +73,7 @@ pub(crate) fn pow10(e: i64) -> f64 {
     }
     let last = usize::try_from(rest)
         .ok()
-        .and_then(|i| POW10.get(i))
+        .and_then(|i| EXACT_POW10.get(i))
         .copied()
         .unwrap_or(1.0);
     p * last

@@ -102,28 +102,20 @@ pub fn midband(
     // Gain: a 1 V source EMF behind RS.
     let (gain, vb) = source_gain(stage, y).ok_or(SignalError::Singular)?;
     let gain_stage = if vb != 0.0 { gain / vb } else { 0.0 };
-    // Input impedance: no source, 1 A into the input.
-    let zin_setup = Setup {
-        with_source: false,
-        inject: acnet::injection(IN, acnet::GROUND),
-        ..Setup::midband()
+    // The real part of the voltage at `node` with 1 A injected there: its impedance, Ω.
+    let driven = |node, with_source, with_load| {
+        let setup = Setup {
+            with_source,
+            with_load,
+            inject: acnet::injection(node, acnet::GROUND),
+            ..Setup::midband()
+        };
+        let v = acnet::solve(stage, y, &setup).ok_or(SignalError::Singular)?;
+        Ok(acnet::at(&v, node).re)
     };
-    let zin = acnet::at(
-        &acnet::solve(stage, y, &zin_setup).ok_or(SignalError::Singular)?,
-        IN,
-    )
-    .re;
-    // Output impedance: source at rest behind RS, no load, 1 A into the output.
-    let zout_setup = Setup {
-        with_load: false,
-        inject: acnet::injection(OUT, acnet::GROUND),
-        ..Setup::midband()
-    };
-    let zout = acnet::at(
-        &acnet::solve(stage, y, &zout_setup).ok_or(SignalError::Singular)?,
-        OUT,
-    )
-    .re;
+    // Input impedance: no source. Output impedance: source at rest behind RS, no load.
+    let zin = driven(IN, false, true)?;
+    let zout = driven(OUT, true, false)?;
     let (swing_pp, clips) = swing(stage, profile, op);
     let inv = |g: f64| if g > 0.0 { 1.0 / g } else { f64::INFINITY };
     Ok(Midband {
@@ -193,27 +185,47 @@ mod tests {
         (a - b).abs() <= 1e-4 * a.abs().max(b.abs()) + 1e-9
     }
 
+    /// A stage on `vcc` volts with R1, R2, RC, RE1, RE2 of `r` (Ω, 5 %), load `rl`, source
+    /// `rs`, and CIN, CE of `caps` (no COUT).
+    fn stage(
+        polarity: Polarity,
+        vcc: f64,
+        r: [f64; 5],
+        rl: Option<f64>,
+        rs: f64,
+        [cin, ce]: [Option<Part>; 2],
+    ) -> Stage {
+        let [r1, r2, rc, re1, re2] = r.map(|v| Part::new(v, 0.05));
+        Stage {
+            polarity,
+            vcc: Part::new(vcc, 0.0),
+            r1,
+            r2,
+            rc,
+            re1,
+            re2,
+            rl,
+            rs,
+            cin,
+            cout: None,
+            ce,
+        }
+    }
+
     /// The closed form against the same 6-node network solved in 50-digit arithmetic (mpmath's
     /// `lu_solve`, the stamps of `acnet::solve` written out; run once, the result copied here):
     /// it agrees to 1e-15, where the general 6×6 complex solve in f64 gives −13.51406539800790
     /// (1.8e-8 off: the 1 MS shorts beside 0.2 mS conductances).
     #[test]
     fn closed_form_against_a_50_digit_solve() {
-        let t = 0.05;
-        let stage = Stage {
-            polarity: Polarity::Npn,
-            vcc: Part::new(12.0, 0.0),
-            r1: Part::new(47e3, t),
-            r2: Part::new(10e3, t),
-            rc: Part::new(4.7e3, t),
-            re1: Part::new(220.0, t),
-            re2: Part::new(1e3, t),
-            rl: Some(15e3),
-            rs: 600.0,
-            cin: None,
-            cout: None,
-            ce: None,
-        };
+        let stage = stage(
+            Polarity::Npn,
+            12.0,
+            [47e3, 10e3, 4.7e3, 220.0, 1e3],
+            Some(15e3),
+            600.0,
+            [None, None],
+        );
         let y = crate::solve::Admittance {
             y11: 2.4669602053497956e-4,
             y12: 0.0,
@@ -243,21 +255,9 @@ mod tests {
             beta in 30.0f64..500.0,
             temp in -40.0f64..85.0,
         ) {
-            let t = 0.05;
-            let stage = Stage {
-                polarity: if pnp { Polarity::Pnp } else { Polarity::Npn },
-                vcc: Part::new(vcc, 0.0),
-                r1: Part::new(r1, t),
-                r2: Part::new(r2, t),
-                rc: Part::new(rc, t),
-                re1: Part::new(re1, t),
-                re2: Part::new(re2, t),
-                rl,
-                rs,
-                cin: Some(Part::new(10e-6, 0.2)),
-                cout: None,
-                ce: Some(Part::new(100e-6, 0.2)),
-            };
+            let polarity = if pnp { Polarity::Pnp } else { Polarity::Npn };
+            let caps = [Some(Part::new(10e-6, 0.2)), Some(Part::new(100e-6, 0.2))];
+            let stage = stage(polarity, vcc, [r1, r2, rc, re1, re2], rl, rs, caps);
             let profile = Profile { beta_typ: beta, beta_min: beta, beta_max: beta, early,
                 is_25: is_from_vbe(0.65), ..Profile::default() };
             let cond = Conditions { temp_c: temp, ..Conditions::typical(&profile) };

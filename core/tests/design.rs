@@ -1,15 +1,18 @@
 //! Design: the first pass against textbook hand designs, the search's claims re-checked with
 //! the exact engine, impossible requirements, determinism and the hash.
 
+mod hand_method;
+
 use biasjig_core::design::{
-    centred_ic, classic, design, first_pass, fnv1a64, Candidate, Check, DesignError, Requirement,
-    RequirementError, DRIFT_LIMIT, GAIN_TOLERANCE,
+    design, first_pass, fnv1a64, Candidate, Check, DesignError, Requirement, RequirementError,
+    DRIFT_LIMIT, GAIN_TOLERANCE,
 };
 use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::predict::predict;
 use biasjig_core::series::Series;
 use biasjig_core::solve::{solve, Conditions, Region};
 use biasjig_core::stage::{Part, Polarity, Resistor, Stage};
+use hand_method::{centred_ic, classic};
 use proptest::prelude::*;
 
 fn close(a: f64, b: f64, rel: f64) -> bool {

@@ -8,14 +8,11 @@ use biasjig_core::stage::Readings;
 use serde_json::{json, Value};
 use thiserror::Error;
 
-use crate::boardlog::{self, Appender, LogError};
-use crate::cmd::check::{
-    board_windows, outcome_json, overrides_json, settings_json, Outcome, Station,
-};
-use crate::cmd::limits::NODES;
-use crate::error::CliError;
+use crate::boardlog::{self, Appender, LogError, ReadLogError};
 use crate::record::{self, BoardRecord, Edges, Nominal, Source};
-use crate::store::{Store, StoreError, TraceArgs};
+use crate::store::{self, Store, StoreError, TraceArgs};
+use crate::verdict::json::{outcome_json, overrides_json, settings_json};
+use crate::verdict::{board_windows, Outcome, Station, NODES};
 
 /// The settings digest (hex SHA-256) of everything the verdict depends on: the core's digest of
 /// the stage, transistor and test settings (test ambient, meter, measuring inputs).
@@ -78,7 +75,7 @@ pub fn from_outcome(
     o: &Outcome,
     id: Option<String>,
     source: Option<Source>,
-) -> Result<BoardRecord, CliError> {
+) -> Result<BoardRecord, RecordError> {
     let mut doc = outcome_json(o, r.vcc);
     let head = json!({
         "record_id": id.unwrap_or_else(|| record::fresh_id(serial)),
@@ -93,8 +90,10 @@ pub fn from_outcome(
     if let (Some(obj), Value::Object(h)) = (doc.as_object_mut(), head) {
         obj.extend(h);
     }
-    let mut rec: BoardRecord = serde_json::from_value(doc)
-        .map_err(|e| CliError::usage(format!("board {serial}: cannot form its record: {e}")))?;
+    let mut rec: BoardRecord = serde_json::from_value(doc).map_err(|why| RecordError::Form {
+        serial: serial.to_string(),
+        why,
+    })?;
     rec.settings_hash = Some(run.settings_hash.clone());
     rec.nominal.clone_from(&run.nominal);
     rec.source = source.or_else(|| {
@@ -108,7 +107,7 @@ pub fn from_outcome(
     Ok(rec)
 }
 
-/// Why a record could not be written.
+/// Why a record could not be formed or written, or its sinks not opened.
 #[derive(Debug, Error)]
 #[non_exhaustive]
 pub enum RecordError {
@@ -118,15 +117,17 @@ pub enum RecordError {
     /// The store failed (the transaction was rolled back).
     #[error(transparent)]
     Store(#[from] StoreError),
-}
-
-impl From<RecordError> for CliError {
-    fn from(e: RecordError) -> Self {
-        match e {
-            RecordError::Log(l) => l.into(),
-            RecordError::Store(s) => s.into(),
-        }
-    }
+    /// The log's record ids could not be read (a resumed run).
+    #[error(transparent)]
+    ReadLog(#[from] ReadLogError),
+    /// The board's result does not make a record.
+    #[error("board {serial}: cannot form its record: {why}")]
+    Form {
+        /// The board's serial number.
+        serial: String,
+        /// Why.
+        why: serde_json::Error,
+    },
 }
 
 /// Where records go: the log, the store, or both.
@@ -139,7 +140,7 @@ pub struct Recorder {
 impl Recorder {
     /// Open the sinks. With `resume`, the ids already in the log are read, so that records
     /// already there are not written again.
-    pub fn open(log: Option<&Path>, trace: &TraceArgs, resume: bool) -> Result<Self, CliError> {
+    pub fn open(log: Option<&Path>, trace: &TraceArgs, resume: bool) -> Result<Self, RecordError> {
         let log_ids = match (log, resume) {
             (Some(p), true) => Some(boardlog::ids(p)?),
             _ => None,
@@ -148,7 +149,7 @@ impl Recorder {
         Ok(Self {
             log,
             log_ids,
-            store: trace.open()?,
+            store: trace.store.as_deref().map(store::open).transpose()?,
         })
     }
 
@@ -235,7 +236,7 @@ pub struct StationSink {
 
 impl StationSink {
     /// A sink writing to `log` (and the store the trace flags name).
-    pub fn open(log: Option<&Path>, trace: &TraceArgs) -> Result<Self, CliError> {
+    pub fn open(log: Option<&Path>, trace: &TraceArgs) -> Result<Self, RecordError> {
         Ok(Self {
             rec: Recorder::open(log, trace, false)?,
             trace: trace.clone(),
@@ -245,21 +246,23 @@ impl StationSink {
     }
 
     /// Tests of this serial with this design (hash, hex) already in the store (0 without one).
-    pub fn earlier_tests(&mut self, serial: &str, design_hash: &str) -> Result<usize, CliError> {
+    pub fn earlier_tests(&mut self, serial: &str, design_hash: &str) -> Result<usize, RecordError> {
         let n = self.rec.store_tests_of(serial, design_hash)?;
         Ok(usize::try_from(n).unwrap_or(usize::MAX))
     }
 
     /// Write the record the station formed from the instrument's reply (the shape of
     /// `check --json` plus time, serial, design and readings).
-    pub fn write_value(&mut self, v: Value) -> Result<BoardRecord, CliError> {
+    pub fn write_value(&mut self, v: Value) -> Result<BoardRecord, RecordError> {
         let serial = v
             .get("serial")
             .and_then(Value::as_str)
             .unwrap_or("")
             .to_string();
-        let mut r: BoardRecord = serde_json::from_value(v)
-            .map_err(|e| CliError::usage(format!("board {serial}: cannot form its record: {e}")))?;
+        let mut r: BoardRecord = serde_json::from_value(v).map_err(|why| RecordError::Form {
+            serial: serial.clone(),
+            why,
+        })?;
         if r.record_id.is_empty() {
             r.record_id = record::fresh_id(&r.serial);
         }
@@ -282,14 +285,27 @@ impl StationSink {
     }
 }
 
+/// Why the windows could not be written as CSV (exit 2).
+#[derive(Debug, Error)]
+#[error("--csv: {}: {why}", .path.display())]
+pub struct CsvError {
+    /// The file.
+    pub path: PathBuf,
+    /// Why.
+    pub why: String,
+}
+
 /// Write the windows as CSV for other testers (test, low, high, unit, design hash, settings
 /// hash): the supply window and every node window `check` applies, whole or not at all.
 pub fn write_limits_csv(
     path: &Path,
     w: &biasjig_core::judge::Windows,
     st: &Station,
-) -> Result<(), CliError> {
-    let bad = |e: String| CliError::usage(format!("--csv: {}: {e}", path.display()));
+) -> Result<(), CsvError> {
+    let bad = |why: String| CsvError {
+        path: path.to_path_buf(),
+        why,
+    };
     let settings = settings_hash(st);
     let mut out = csv::Writer::from_writer(Vec::new());
     let row = |name: &str, low: f64, high: f64, unit: &str| {
@@ -320,5 +336,5 @@ pub fn write_limits_csv(
         out.write_record(r).map_err(|e| bad(e.to_string()))?;
     }
     let bytes = out.into_inner().map_err(|e| bad(e.to_string()))?;
-    crate::designfile::write_atomic(path, &bytes).map_err(|e| bad(e.to_string()))
+    crate::files::write_atomic(path, &bytes).map_err(|e| bad(e.to_string()))
 }

@@ -16,8 +16,6 @@ use serde::Serialize;
 use serde_json::Value;
 use thiserror::Error;
 
-use crate::error::CliError;
-
 pub use crate::clock::now_utc;
 
 /// The longest log line read, bytes (a record is a few kilobytes).
@@ -52,10 +50,27 @@ pub enum LogError {
     Encode(String),
 }
 
-impl From<LogError> for CliError {
-    fn from(e: LogError) -> Self {
-        CliError::usage(format!("--log: {e}"))
-    }
+/// Why a log could not be read (a line that is not a record is skipped with a warning, not an
+/// error).
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum ReadLogError {
+    /// The file could not be opened.
+    #[error("{}: cannot read the log: {why}", .path.display())]
+    Open {
+        /// The log.
+        path: PathBuf,
+        /// Why.
+        why: std::io::Error,
+    },
+    /// Reading stopped part way.
+    #[error("{}: {why}", .path.display())]
+    Read {
+        /// The log.
+        path: PathBuf,
+        /// Why.
+        why: std::io::Error,
+    },
 }
 
 /// An open log for many appends (a batch): one open, a sync every [`SYNC_EVERY`] records and
@@ -156,13 +171,20 @@ fn ends_torn(file: &mut File, len: u64) -> std::io::Result<bool> {
 
 /// Visit every complete record of a log in file order, one line in memory at a time: `f` gets
 /// the line number and the record; a skipped line gets a warning ("line N: ...") through `warn`.
-pub fn for_each(
+/// The visit stops at the first error of `f`.
+pub fn for_each<E: From<ReadLogError>>(
     path: &Path,
-    mut f: impl FnMut(u64, Value) -> Result<(), CliError>,
+    mut f: impl FnMut(u64, Value) -> Result<(), E>,
     mut warn: impl FnMut(String),
-) -> Result<(), CliError> {
-    let file = File::open(path)
-        .map_err(|e| CliError::usage(format!("{}: cannot read the log: {e}", path.display())))?;
+) -> Result<(), E> {
+    let file = File::open(path).map_err(|why| ReadLogError::Open {
+        path: path.to_path_buf(),
+        why,
+    })?;
+    let read = |why| ReadLogError::Read {
+        path: path.to_path_buf(),
+        why,
+    };
     let mut rd = BufReader::new(file);
     let mut buf = Vec::new();
     let mut line_no = 0u64;
@@ -171,7 +193,7 @@ pub fn for_each(
         let n = (&mut rd)
             .take(MAX_LINE as u64 + 1)
             .read_until(b'\n', &mut buf)
-            .map_err(|e| CliError::usage(format!("{}: {e}", path.display())))?;
+            .map_err(read)?;
         if n == 0 {
             return Ok(());
         }
@@ -188,7 +210,7 @@ pub fn for_each(
                 let m = (&mut rd)
                     .take(MAX_LINE as u64)
                     .read_until(b'\n', &mut sink)
-                    .map_err(|e| CliError::usage(format!("{}: {e}", path.display())))?;
+                    .map_err(read)?;
                 if m == 0 || sink.last() == Some(&b'\n') {
                     break;
                 }
@@ -227,10 +249,10 @@ pub struct Contents {
 
 /// Read a whole log into memory (small logs; see [`for_each`] for large ones).
 #[cfg(test)]
-pub fn read(path: &Path) -> Result<Contents, CliError> {
+pub fn read(path: &Path) -> Result<Contents, ReadLogError> {
     let mut out = Contents::default();
     let mut warnings = Vec::new();
-    for_each(
+    for_each::<ReadLogError>(
         path,
         |_, v| {
             out.records.push(v);
@@ -243,12 +265,12 @@ pub fn read(path: &Path) -> Result<Contents, CliError> {
 }
 
 /// The record ids already in a log (empty when the log does not exist yet).
-pub fn ids(path: &Path) -> Result<HashSet<String>, CliError> {
+pub fn ids(path: &Path) -> Result<HashSet<String>, ReadLogError> {
     let mut ids = HashSet::new();
     if !path.exists() {
         return Ok(ids);
     }
-    for_each(
+    for_each::<ReadLogError>(
         path,
         |_, v| {
             if let Some(id) = v.get("record_id").and_then(Value::as_str) {

@@ -2,48 +2,19 @@
 //! common-emitter stages, locally or through the jig instrument over a serial line.
 //!
 //! Every command is a thin front end: it parses arguments into core types, calls the core and
-//! prints the result (human text, or exactly one JSON document with `--json`). One file per
-//! subcommand under `cmd/`.
+//! the `biasjig` library and prints the result (human text, or exactly one JSON document with
+//! `--json`). One file per subcommand under `cmd/`.
 
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
-use crate::error::{CliError, CmdResult};
+use biasjig::error::{CliError, CmdResult};
 
-/// Like `println!`, but a closed standard output (a pipe whose reader went away) ends the
-/// output quietly instead of panicking.
-macro_rules! outln {
-    ($($arg:tt)*) => {{
-        use std::io::Write as _;
-        let _ = writeln!(std::io::stdout(), $($arg)*);
-    }};
-}
+#[macro_use]
+extern crate biasjig;
 
-/// Like `print!`, with the same treatment of a closed standard output as [`outln!`].
-macro_rules! out {
-    ($($arg:tt)*) => {{
-        use std::io::Write as _;
-        let _ = write!(std::io::stdout(), $($arg)*);
-    }};
-}
-
-mod analysis;
-mod board;
-mod boardlog;
-mod clock;
 mod cmd;
-mod designfile;
-mod error;
-mod json;
-mod link;
-mod plot;
-mod readings;
-mod record;
-mod stage_args;
-mod store;
-mod text;
-mod values;
 
 /// Options every command takes.
 #[derive(clap::Args, Debug, Clone, Default)]

@@ -12,12 +12,55 @@ use biasjig_core::device::Profile;
 use biasjig_core::limits::Limits;
 use biasjig_core::spread::{Factor, Node, Range, Spread, Stats};
 use biasjig_core::stage::{Polarity, Stage};
+use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use crate::error::CliError;
+use thiserror::Error;
+
 use crate::text::eng;
 
 type PlotResult = Result<(), Box<dyn Error>>;
+
+/// Why the plots could not be written (exit 2).
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum PlotError {
+    /// The folder could not be created.
+    #[error("--plot: {}: cannot create the folder: {why}", .dir.display())]
+    Folder {
+        /// The folder.
+        dir: PathBuf,
+        /// Why.
+        why: std::io::Error,
+    },
+    /// A plot could not be drawn or written.
+    #[error("--plot: {}: cannot write the plot: {why}", .path.display())]
+    Write {
+        /// The plot's file.
+        path: PathBuf,
+        /// Why.
+        why: Box<dyn Error>,
+    },
+}
+
+/// Draw the legend of the labelled series and finish the file.
+fn legend_and_finish<'a, DB, CT>(
+    chart: &mut ChartContext<'a, DB, CT>,
+    root: &DrawingArea<DB, Shift>,
+) -> PlotResult
+where
+    DB: DrawingBackend + 'a,
+    DB::ErrorType: 'static,
+    CT: CoordTranslate,
+{
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()?;
+    root.present()?;
+    Ok(())
+}
 
 /// Write every plot into `dir` (created if missing); returns the files written.
 pub fn write_all(
@@ -28,16 +71,14 @@ pub fn write_all(
     lim: Option<&Limits>,
     cloud: &[(f64, f64)],
     req_lines: &[(Node, f64)],
-) -> Result<Vec<PathBuf>, CliError> {
-    std::fs::create_dir_all(dir).map_err(|e| {
-        CliError::field(
-            "--plot",
-            dir.display(),
-            format!("cannot create the folder: {e}"),
-        )
+) -> Result<Vec<PathBuf>, PlotError> {
+    std::fs::create_dir_all(dir).map_err(|why| PlotError::Folder {
+        dir: dir.to_path_buf(),
+        why,
     })?;
-    let fail = |p: &Path, e: Box<dyn Error>| {
-        CliError::field("--plot", p.display(), format!("cannot write the plot: {e}"))
+    let fail = |p: &Path, why: Box<dyn Error>| PlotError::Write {
+        path: p.to_path_buf(),
+        why,
     };
     let mut written = Vec::new();
     for n in Node::ALL {
@@ -151,13 +192,7 @@ fn histogram(
                 )
             });
     }
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .draw()?;
-    root.present()?;
-    Ok(())
+    legend_and_finish(&mut chart, &root)
 }
 
 /// The DC load line IC = (VCC − |VCE|)/(RC + RE1 + RE2), the AC load line through the nominal
@@ -240,13 +275,7 @@ fn load_lines(
         .draw_series([Circle::new((vq, iq), 5, RED.filled())])?
         .label("nominal Q-point")
         .legend(|(x, y)| Circle::new((x + 8, y), 4, RED.filled()));
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .draw()?;
-    root.present()?;
-    Ok(())
+    legend_and_finish(&mut chart, &root)
 }
 
 /// Bars of each factor's share of the variance, one panel per DC node.

@@ -17,52 +17,36 @@ pub fn value(text: &str) -> Result<f64, String> {
     units::parse_value(text).map_err(explain)
 }
 
-fn value_in(text: &str, unit: units::Unit) -> Result<f64, String> {
-    units::parse_value_in(text, unit).map_err(explain)
+/// Parsers of a value in one unit: the unit's letters may follow the value, another unit's are
+/// refused.
+macro_rules! in_unit {
+    ($($(#[$doc:meta])* $name:ident => $unit:ident, $parse:ident;)*) => {
+        $(
+            $(#[$doc])*
+            pub fn $name(text: &str) -> Result<f64, String> {
+                units::$parse(text, units::Unit::$unit).map_err(explain)
+            }
+        )*
+    };
 }
 
-fn signed_in(text: &str, unit: units::Unit) -> Result<f64, String> {
-    units::parse_signed_in(text, unit).map_err(explain)
-}
-
-/// A resistance, Ω (`4k7`, `4.7kΩ`, `4.7kohm`; another unit is refused).
-pub fn ohms(text: &str) -> Result<f64, String> {
-    value_in(text, units::Unit::Ohm)
-}
-
-/// A capacitance, F (`10u`, `10uF`).
-pub fn farads(text: &str) -> Result<f64, String> {
-    value_in(text, units::Unit::Farad)
-}
-
-/// A voltage that is not negative, V (`12`, `12V`).
-pub fn volts(text: &str) -> Result<f64, String> {
-    value_in(text, units::Unit::Volt)
-}
-
-/// A measured voltage, V, that may be negative (`-1.2m`, `-1.2mV`).
-pub fn signed_volts(text: &str) -> Result<f64, String> {
-    signed_in(text, units::Unit::Volt)
-}
-
-/// A current, A (`2m`, `2mA`).
-pub fn amps(text: &str) -> Result<f64, String> {
-    value_in(text, units::Unit::Ampere)
-}
-
-/// A frequency, Hz (`1k`, `1kHz`).
-pub fn hertz(text: &str) -> Result<f64, String> {
-    value_in(text, units::Unit::Hertz)
-}
-
-/// A power, W (`300m`, `300mW`).
-pub fn watts(text: &str) -> Result<f64, String> {
-    value_in(text, units::Unit::Watt)
-}
-
-/// A plain number without unit letters (hFE).
-pub fn number(text: &str) -> Result<f64, String> {
-    value_in(text, units::Unit::Number)
+in_unit! {
+    /// A resistance, Ω (`4k7`, `4.7kΩ`, `4.7kohm`; another unit is refused).
+    ohms => Ohm, parse_value_in;
+    /// A capacitance, F (`10u`, `10uF`).
+    farads => Farad, parse_value_in;
+    /// A voltage that is not negative, V (`12`, `12V`).
+    volts => Volt, parse_value_in;
+    /// A measured voltage, V, that may be negative (`-1.2m`, `-1.2mV`).
+    signed_volts => Volt, parse_signed_in;
+    /// A current, A (`2m`, `2mA`).
+    amps => Ampere, parse_value_in;
+    /// A frequency, Hz (`1k`, `1kHz`).
+    hertz => Hertz, parse_value_in;
+    /// A power, W (`300m`, `300mW`).
+    watts => Watt, parse_value_in;
+    /// A plain number without unit letters (hFE).
+    number => Number, parse_value_in;
 }
 
 /// A percentage, returned as a fraction (5 or 5% -> 0.05).

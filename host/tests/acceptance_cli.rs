@@ -2,42 +2,18 @@
 //! only: each test pins a discrepancy an independent acceptance run found after the issue's work
 //! was merged (each fails on the code before its fix). Stages are invented.
 
-use std::path::PathBuf;
-use std::process::{Command, Output};
+mod common;
 
-use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::process::Output;
 
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(args)
-        .output()
-        .expect("run biasjig")
-}
+use common::{assert_exit, json, path_str, run, stderr, stdout, temp};
 
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-fn stdout(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-fn json(o: &Output) -> Value {
-    serde_json::from_slice(&o.stdout)
-        .unwrap_or_else(|e| panic!("not one JSON document ({e}): {} {}", stdout(o), stderr(o)))
-}
-
-fn temp(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("biasjig-accept-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let p = dir.join(name);
-    let _ = std::fs::remove_file(&p);
-    p
-}
-
+/// A design file of an invented requirement (12 V, gain 12 into 22 kΩ from 1 kΩ, hFE 120 to
+/// 350), `name` in this file's scratch folder.
 fn design_file(name: &str) -> PathBuf {
-    let f = temp(name);
-    let o = run(&[
+    let f = temp("accept-cli", name);
+    let o = run([
         "design",
         "--vcc",
         "12",
@@ -52,10 +28,33 @@ fn design_file(name: &str) -> PathBuf {
         "--beta-max",
         "350",
         "-o",
-        f.to_str().unwrap(),
+        path_str(&f),
     ]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert_exit(&o, 0);
     f
+}
+
+/// `limits --json --design FILE EXTRA`, which must exit 0.
+fn design_limits(f: &Path, extra: &[&str]) -> Output {
+    let mut a = vec!["limits", "--json", "--design", path_str(f)];
+    a.extend_from_slice(extra);
+    let o = run(a);
+    assert_exit(&o, 0);
+    o
+}
+
+/// `limits --vcc 12 FLAG VALUE` of the NPN stage.
+fn limits_npn(flag: &str, value: &str) -> Output {
+    let mut a = vec!["limits", "--vcc", "12", flag, value];
+    a.extend(NPN);
+    run(&a)
+}
+
+/// The document's `warnings` hold `w`.
+fn warns(d: &serde_json::Value, w: &str) -> bool {
+    d["warnings"]
+        .as_array()
+        .is_some_and(|ws| ws.iter().any(|x| x == w))
 }
 
 /// An invented NPN stage, active.
@@ -82,7 +81,7 @@ fn a_refused_supply_still_gives_its_json_document() {
     assert!(stderr(&o).contains("11.400"), "{}", stderr(&o));
     // And with a design file (the file's nominal and tolerance).
     let f = design_file("refused.toml");
-    let o = run(&[
+    let o = run([
         "check",
         "--json",
         "--design",
@@ -117,7 +116,7 @@ fn a_design_file_without_its_hash_line_is_refused() {
     assert_ne!(edited, text);
     std::fs::write(&f, edited).unwrap();
     for cmd in ["limits", "analyze"] {
-        let o = run(&[cmd, "--design", f.to_str().unwrap()]);
+        let o = run([cmd, "--design", f.to_str().unwrap()]);
         assert_eq!(o.status.code(), Some(2), "{cmd}: {}", stderr(&o));
         let e = stderr(&o);
         assert!(
@@ -160,9 +159,7 @@ fn a_tolerance_out_of_range_names_its_flag_and_value() {
         ("--vcc-tol", "101", "101"),
         ("--cap-tol", "150", "150"),
     ] {
-        let mut a = vec!["limits", "--vcc", "12", flag, value];
-        a.extend(NPN);
-        let o = run(&a);
+        let o = limits_npn(flag, value);
         assert_eq!(o.status.code(), Some(2), "{flag}: {}", stderr(&o));
         let e = stderr(&o);
         assert!(
@@ -200,26 +197,12 @@ fn inputs_that_saturate_the_stage_are_warned_about() {
     let o = run(&a);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let d = json(&o);
-    assert!(
-        d["warnings"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .any(|w| w == "inputs_move_the_stage_to_saturation"),
-        "{d}"
-    );
+    assert!(warns(&d, "inputs_move_the_stage_to_saturation"), "{d}");
     assert!(stderr(&o).contains("saturation"), "{}", stderr(&o));
     let mut a = vec!["analyze", "--json"];
     a.extend(stage);
     let d = json(&run(&a));
-    assert!(
-        d["warnings"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .any(|w| w == "inputs_move_the_stage_to_saturation"),
-        "{d}"
-    );
+    assert!(warns(&d, "inputs_move_the_stage_to_saturation"), "{d}");
     // With inputs of a hundred times R1 ‖ R2 the stage stays active: no such warning.
     let mut a = vec!["limits", "--json"];
     a.extend(&stage[..stage.len() - 1]);
@@ -233,15 +216,7 @@ fn inputs_that_saturate_the_stage_are_warned_about() {
 #[test]
 fn limits_at_a_supply_outside_its_window_says_so() {
     let f = design_file("atvcc.toml");
-    let o = run(&[
-        "limits",
-        "--json",
-        "--design",
-        f.to_str().unwrap(),
-        "--at-vcc",
-        "10",
-    ]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = design_limits(&f, &["--at-vcc", "10"]);
     let d = json(&o);
     assert_eq!(d["warnings"], serde_json::json!(["supply_outside_window"]));
     assert!(stderr(&o).contains("11.4 V"), "{}", stderr(&o));
@@ -252,7 +227,7 @@ fn limits_at_a_supply_outside_its_window_says_so() {
 /// centred on the measured supply itself (always "in" it: nothing was judged), and an hFE that
 /// cannot be derived showed as "-".
 #[test]
-fn the_check_screen_reads_right() {
+fn the_check_screen_aligns_its_letters_and_judges_the_supply_against_a_nominal() {
     let mut a = vec!["check", "--vcc", "12"];
     a.extend(NPN);
     // Readings from the engine's own prediction of this stage (analyze), so the board passes.
@@ -294,17 +269,7 @@ fn the_check_screen_reads_right() {
 #[test]
 fn overrides_keep_their_words() {
     let f = design_file("over.toml");
-    let o = run(&[
-        "limits",
-        "--json",
-        "--design",
-        f.to_str().unwrap(),
-        "--input-r",
-        "10M",
-        "--inputs",
-        "one",
-    ]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = design_limits(&f, &["--input-r", "10M", "--inputs", "one"]);
     let d = json(&o);
     assert_eq!(d["overrides"]["--inputs"], "one", "{d}");
     assert_eq!(d["overrides"]["--input-r"].as_f64(), Some(10e6), "{d}");
@@ -316,34 +281,28 @@ fn overrides_keep_their_words() {
 /// `--temp-min 20A`, `--tj-max 150A`, `--beta-tc 0.5V`), and `--temp 25K` was read as 25 000 °C.
 #[test]
 fn temperatures_and_coefficients_refuse_other_units() {
-    for (flag, value) in [
-        ("--temp", "25V"),
-        ("--temp", "25K"),
-        ("--temp-min", "20A"),
-        ("--temp-max", "30F"),
-        ("--tj-max", "150A"),
-        ("--beta-tc", "0.5V"),
+    // Refused (exit 2) naming the flag, the value and what is allowed; the field's own unit,
+    // and plain numbers, stay accepted (exit 0).
+    for (flag, value, want) in [
+        ("--temp", "25V", 2),
+        ("--temp", "25K", 2),
+        ("--temp-min", "20A", 2),
+        ("--temp-max", "30F", 2),
+        ("--tj-max", "150A", 2),
+        ("--beta-tc", "0.5V", 2),
+        ("--temp", "25°C", 0),
+        ("--temp", "-10", 0),
+        ("--temp-min", "24.9C", 0),
+        ("--beta-tc", "-0.2%", 0),
     ] {
-        let mut a = vec!["limits", "--vcc", "12", flag, value];
-        a.extend(NPN);
-        let o = run(&a);
-        assert_eq!(o.status.code(), Some(2), "{flag} {value}: {}", stderr(&o));
+        let o = limits_npn(flag, value);
         let e = stderr(&o);
-        assert!(
-            e.contains(flag) && e.contains(value) && e.contains("allowed"),
-            "{e}"
-        );
-    }
-    // The field's own unit, and plain numbers, stay accepted.
-    for (flag, value) in [
-        ("--temp", "25°C"),
-        ("--temp", "-10"),
-        ("--temp-min", "24.9C"),
-        ("--beta-tc", "-0.2%"),
-    ] {
-        let mut a = vec!["limits", "--vcc", "12", flag, value];
-        a.extend(NPN);
-        let o = run(&a);
-        assert_eq!(o.status.code(), Some(0), "{flag} {value}: {}", stderr(&o));
+        assert_eq!(o.status.code(), Some(want), "{flag} {value}: {e}");
+        if want == 2 {
+            assert!(
+                e.contains(flag) && e.contains(value) && e.contains("allowed"),
+                "{e}"
+            );
+        }
     }
 }

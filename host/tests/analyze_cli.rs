@@ -1,16 +1,10 @@
 //! `biasjig analyze` end to end: the JSON keys of the machine interface, the numbers against the
 //! core, and bad input (exit 2 with a message naming the field).
 
-use std::process::{Command, Output};
+mod common;
 
+use common::{json_ok, run as biasjig, stderr, stdout};
 use serde_json::Value;
-
-fn biasjig(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(args)
-        .output()
-        .expect("run biasjig")
-}
 
 const STAGE: [&str; 16] = [
     "--vcc", "12", "--r1", "56k", "--r2", "12k", "--rc", "3k3", "--re1", "180", "--re2", "820",
@@ -21,13 +15,7 @@ fn analyze_json(extra: &[&str]) -> Value {
     let mut args = vec!["analyze", "--json"];
     args.extend_from_slice(&STAGE);
     args.extend_from_slice(extra);
-    let out = biasjig(&args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).expect("one JSON document on stdout")
+    json_ok(&args)
 }
 
 #[test]
@@ -69,7 +57,7 @@ fn pnp_readings_are_signed() {
 }
 
 #[test]
-fn value_forms_are_equivalent() {
+fn value_forms_give_the_same_operating_point() {
     let a = analyze_json(&[]);
     let mut args = vec!["analyze", "--json"];
     let plain = [
@@ -88,7 +76,7 @@ fn human_report_shows_parts_and_q_point() {
     args.extend_from_slice(&STAGE);
     let out = biasjig(&args);
     assert!(out.status.success());
-    let text = String::from_utf8_lossy(&out.stdout);
+    let text = stdout(&out);
     // IEC 60062 colour code of 56 kΩ 5 %: green blue orange gold (from memory).
     assert!(text.contains("green-blue-orange-gold"), "{text}");
     assert!(text.contains("active"));
@@ -153,7 +141,7 @@ fn bad_input_names_the_field() {
     ] {
         let out = biasjig(&args);
         assert_eq!(out.status.code(), Some(2), "{args:?}");
-        let err = String::from_utf8_lossy(&out.stderr);
+        let err = stderr(&out);
         assert!(err.contains(field), "{args:?}: {err}");
         assert!(!err.contains("panicked"), "{err}");
     }

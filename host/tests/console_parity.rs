@@ -7,12 +7,14 @@
 //! to 1e-15 relative only because serde_json's default float parser (used here to read the
 //! JSON) may land one unit in the last place off a correctly rounded value.
 
-use std::io::Write;
-use std::process::{Command, Stdio};
+mod common;
 
-use biasjig_core::device::{is_from_vbe, Profile};
-use biasjig_core::solve::{solve, Conditions};
+use biasjig_core::device::Profile;
+use biasjig_core::solve::Conditions;
 use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Resistor, Stage};
+use common::console::{get, replies};
+use common::stage::{solve_with, Flags};
+use common::{code, stderr, stdout};
 use serde_json::Value;
 
 /// A stage given by the flags of the machine interface.
@@ -54,14 +56,11 @@ const FAULTS: [Option<Fault>; 6] = [
     Some(Fault::Device(DeviceFault::BeShort)),
 ];
 
+/// The transistor of every case, as flags (hFE 100/200/300, VBE 0.65 V).
+const TRANSISTOR: Flags = Flags("--beta 200 --beta-min 100 --beta-max 300 --vbe 0.65");
+
 fn profile() -> Profile {
-    Profile {
-        beta_min: 100.0,
-        beta_typ: 200.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    }
+    TRANSISTOR.profile()
 }
 
 fn stage(c: &Case) -> Stage {
@@ -84,22 +83,8 @@ fn stage(c: &Case) -> Stage {
 
 /// VCC VB VE VC of the board with `fault`, by the engine.
 fn readings(c: &Case, fault: Option<Fault>) -> [f64; 4] {
-    let s = stage(c);
     let pr = profile();
-    let (board, dev) = match fault {
-        Some(Fault::Device(d)) => (s, Some(d)),
-        Some(f) => (s.with_fault(f), None),
-        None => (s, None),
-    };
-    let op = solve(
-        &board,
-        &pr,
-        Conditions {
-            fault: dev,
-            ..Conditions::typical(&pr)
-        },
-    )
-    .expect("the engine solves the board");
+    let op = solve_with(&stage(c), &pr, Conditions::typical(&pr), fault);
     [c.vcc, op.vb, op.ve, op.vc]
 }
 
@@ -109,15 +94,7 @@ fn stage_flags(c: &Case) -> Vec<String> {
         v.push((*flag).into());
         v.push(format!("{r:?}"));
     }
-    for (flag, x) in [
-        ("--beta", "200"),
-        ("--beta-min", "100"),
-        ("--beta-max", "300"),
-        ("--vbe", "0.65"),
-    ] {
-        v.push(flag.into());
-        v.push(x.into());
-    }
+    v.extend(TRANSISTOR.args());
     if c.pnp {
         v.push("--pnp".into());
     }
@@ -155,58 +132,20 @@ fn cli_check(c: &Case, rd: [f64; 4]) -> (Option<Value>, i32, String) {
         args.push((*flag).into());
         args.push(format!("{x:?}"));
     }
-    let out = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(&args)
-        .output()
-        .expect("biasjig runs");
-    let code = out.status.code().unwrap_or(-1);
-    let text = String::from_utf8_lossy(&out.stdout).into_owned();
-    let doc = serde_json::from_str(&text).ok();
-    (doc, code, String::from_utf8_lossy(&out.stderr).into_owned())
+    let out = common::run(&args);
+    let doc = serde_json::from_str(&stdout(&out)).ok();
+    (doc, code(&out), stderr(&out))
 }
 
 /// Replies of a console session: (data lines, status) per input line.
 fn console_session(lines: &[String]) -> Vec<(Vec<String>, String)> {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .arg("console")
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .spawn()
-        .expect("biasjig runs");
-    let mut input = lines.join("\n");
-    input.push('\n');
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(input.as_bytes())
-        .unwrap();
-    let out = child.wait_with_output().unwrap();
-    assert_eq!(out.status.code(), Some(0));
-    let text = String::from_utf8(out.stdout).unwrap();
-    let mut replies = Vec::new();
-    let mut data = Vec::new();
-    for l in text.split("\r\n").filter(|l| !l.is_empty()) {
-        if l == "ok" || l.starts_with("ok ") || l.starts_with("err ") {
-            replies.push((std::mem::take(&mut data), l.to_owned()));
-        } else {
-            data.push(l.to_owned());
-        }
-    }
-    assert_eq!(replies.len(), lines.len(), "one status line per input line");
-    replies
-}
-
-fn kv(line: &str) -> Vec<(&str, &str)> {
-    line.split(' ').filter_map(|p| p.split_once('=')).collect()
-}
-
-fn get<'a>(line: &'a str, key: &str) -> &'a str {
-    kv(line)
+    replies(lines)
         .into_iter()
-        .find(|(k, _)| *k == key)
-        .map(|(_, v)| v)
-        .unwrap_or_else(|| panic!("{key} not in {line:?}"))
+        .map(|mut r| {
+            let status = r.pop().expect("a status line");
+            (r, status)
+        })
+        .collect()
 }
 
 /// A console number against a JSON number: both `none`/null, or equal (to the last place).
@@ -285,7 +224,7 @@ fn compare(label: &str, data: &[String], doc: &Value) {
 }
 
 #[test]
-fn console_check_equals_check_json() {
+fn console_check_gives_the_verdict_windows_and_faults_of_check_json() {
     let mut failed_boards = 0;
     for c in &CASES {
         let mut lines = console_setup(c);

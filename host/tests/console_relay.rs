@@ -2,15 +2,17 @@
 //! the console engine itself on the other end of a pseudo-terminal pair, so the binary runs its
 //! real serial path.
 
+mod common;
+
 use std::io::{Read, Write};
-use std::process::{Command, Stdio};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
 use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::{Clock, Console, Identity};
-use embedded_io_adapters::std::FromStd;
+use common::console::statuses;
+use common::{code, run_with_input, stderr, stdout};
 use serialport::{SerialPort, TTYPort};
 
 struct TestClock(Instant);
@@ -47,7 +49,8 @@ fn instrument(mut master: TTYPort, stop: Arc<AtomicBool>) {
             Err(_) => return,
         };
         let mut out = Vec::new();
-        c.feed(&buf[..n], &mut FromStd::new(&mut out))
+        // `Vec<u8>` is an embedded-io writer itself: the engine writes to memory.
+        c.feed(&buf[..n], &mut out)
             .expect("engine writes to memory");
         if master.write_all(&out).is_err() {
             return;
@@ -55,27 +58,10 @@ fn instrument(mut master: TTYPort, stop: Arc<AtomicBool>) {
     }
 }
 
+/// `biasjig ARGS` on `input`: stdout (line ends as `\n`), stderr and the exit code.
 fn run(args: &[&str], input: &[u8]) -> (String, String, i32) {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(args)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .expect("biasjig runs");
-    child.stdin.take().unwrap().write_all(input).unwrap();
-    let out = child.wait_with_output().unwrap();
-    (
-        String::from_utf8_lossy(&out.stdout).replace("\r\n", "\n"),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-        out.status.code().unwrap_or(-1),
-    )
-}
-
-fn statuses(out: &str) -> Vec<&str> {
-    out.lines()
-        .filter(|l| *l == "ok" || l.starts_with("ok ") || l.starts_with("err "))
-        .collect()
+    let out = run_with_input(args, input);
+    (stdout(&out).replace("\r\n", "\n"), stderr(&out), code(&out))
 }
 
 #[test]

@@ -1,22 +1,15 @@
 //! `biasjig demo`: the README's first command runs the whole job on the demo scenario.
 
-use std::process::Command;
+mod common;
+
+use common::{run, stderr, stdout};
 
 #[test]
-fn demo_runs_the_whole_job() {
-    let dir = std::env::temp_dir().join(format!("biasjig-demo-test-{}", std::process::id()));
-    let out = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(["demo", "--out"])
-        .arg(&dir)
-        .output()
-        .expect("run biasjig demo");
-    let text = String::from_utf8_lossy(&out.stdout);
-    assert!(
-        out.status.success(),
-        "{}\n{}",
-        text,
-        String::from_utf8_lossy(&out.stderr)
-    );
+fn demo_runs_every_step_and_fails_only_the_planted_faults() {
+    let dir = common::scratch("demo-test").join("out");
+    let out = run(["demo".as_ref(), "--out".as_ref(), dir.as_os_str()]);
+    let text = stdout(&out);
+    assert!(out.status.success(), "{text}\n{}", stderr(&out));
     for step in [
         "1. Design",
         "2. Spread",
@@ -41,9 +34,6 @@ fn demo_runs_the_whole_job() {
 
 #[test]
 fn demo_refuses_json() {
-    let out = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(["demo", "--json"])
-        .output()
-        .unwrap();
+    let out = run(["demo", "--json"]);
     assert_eq!(out.status.code(), Some(2));
 }

@@ -1,78 +1,43 @@
 //! `biasjig design` through the built binary: JSON shape, series membership, refusals with
 //! exit 2, and the design file read back by `analyze --design`.
 
-use std::process::{Command, Output};
+mod common;
 
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(args)
-        .output()
-        .expect("run biasjig")
+use common::demo::{self, CORNER_AND_AMBIENT, HFE_SPREAD};
+use common::series::{in_series, reference};
+use common::{run, stderr, strs};
+
+/// The demo scenario, held at every corner (the default) with the gain within ±12 %: ±10 % is
+/// out of reach with 5 % resistors there (see `ten_percent_on_the_demo_is_refused_with_figures`).
+fn demo() -> Vec<String> {
+    let mut a = demo::design_args(&["--gain-tol", "12", "--ic-max", "2m", "--beta", "173"]);
+    a.extend(strs(&CORNER_AND_AMBIENT));
+    a.extend(strs(&HFE_SPREAD));
+    a
 }
 
-// The demo scenario, held at every corner (the default) with the gain within ±12 %: ±10 % is
-// out of reach with 5 % resistors there (see `ten_percent_on_the_demo_is_refused_with_figures`).
-const DEMO: &[&str] = &[
-    "design",
-    "--vcc",
-    "12",
-    "--gain",
-    "15",
-    "--gain-tol",
-    "12",
-    "--rl",
-    "15k",
-    "--rs",
-    "600",
-    "--ic-max",
-    "2m",
-    "--f-low",
-    "5",
-    "--temp-min",
-    "-10",
-    "--temp-max",
-    "55",
-    "--beta",
-    "173",
-    "--beta-min",
-    "100",
-    "--beta-max",
-    "300",
-];
-
-fn in_series(v: f64, table: &[u16]) -> bool {
-    // IEC 60063 E24 and E6 values (the standard's tables).
-    let d = v.log10().floor();
-    let m = v / 10f64.powf(d) * 100.0;
-    table.iter().any(|&t| (m - f64::from(t)).abs() < 1e-6 * m)
+/// `--json` then the demo's design flags, then `extra`.
+fn demo_json(extra: &[&str]) -> Vec<String> {
+    let mut a = strs(&["--json"]);
+    a.extend(demo());
+    a.extend(strs(extra));
+    a
 }
-
-const E24: [u16; 24] = [
-    100, 110, 120, 130, 150, 160, 180, 200, 220, 240, 270, 300, 330, 360, 390, 430, 470, 510, 560,
-    620, 680, 750, 820, 910,
-];
-const E6: [u16; 6] = [100, 150, 220, 330, 470, 680];
 
 #[test]
 fn json_candidates_have_parts_in_series_and_predictions() {
-    let mut args = vec!["--json"];
-    args.extend_from_slice(DEMO);
-    args.extend_from_slice(&["--count", "4"]);
-    let out = run(&args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let out = run(demo_json(&["--count", "4"]));
+    let (e24, e6) = (reference("E24"), reference("E6"));
+    assert!(out.status.success(), "{}", stderr(&out));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("one JSON document");
     let c = v["candidates"].as_array().unwrap();
     assert_eq!(c.len(), 4);
     for cand in c {
         for k in ["r1", "r2", "rc", "re1", "re2"] {
-            assert!(in_series(cand["parts"][k].as_f64().unwrap(), &E24), "{k}");
+            assert!(in_series(cand["parts"][k].as_f64().unwrap(), &e24), "{k}");
         }
         for k in ["cin", "cout", "ce"] {
-            assert!(in_series(cand["parts"][k].as_f64().unwrap(), &E6), "{k}");
+            assert!(in_series(cand["parts"][k].as_f64().unwrap(), &e6), "{k}");
         }
         let p = &cand["predicted"];
         let gain = p["ac"]["gain"].as_f64().unwrap();
@@ -96,24 +61,19 @@ fn json_candidates_have_parts_in_series_and_predictions() {
 
 #[test]
 fn ten_percent_on_the_demo_is_refused_with_figures() {
-    let mut args: Vec<&str> = DEMO.to_vec();
+    let mut args = demo();
     // The default tolerance (10 %) instead of 12.
     let i = args.iter().position(|a| *a == "--gain-tol").unwrap();
     args.drain(i..i + 2);
     let out = run(&args);
     assert_eq!(out.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&out.stderr);
+    let err = stderr(&out);
     assert!(err.contains("gain:"), "{err}");
     assert!(err.contains("--gain-tol"), "{err}");
     // With --hold nominal the same requirement is designed (the first round's behaviour).
-    args.push("--hold");
-    args.push("nominal");
+    args.extend(strs(&["--hold", "nominal"]));
     let out = run(&args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    assert!(out.status.success(), "{}", stderr(&out));
 }
 
 #[test]
@@ -125,23 +85,15 @@ fn supply_24v_gain_10_at_300ua_into_47k_is_designed() {
     let mut args = base.to_vec();
     args.extend_from_slice(&["--hold", "nominal"]);
     let out = run(&args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    assert!(out.status.success(), "{}", stderr(&out));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let c = &v["candidates"][0];
     assert!(c["predicted"]["dc"]["ic"].as_f64().unwrap() <= 300e-6);
     let g = c["predicted"]["ac"]["gain"].as_f64().unwrap().abs();
     assert!((g / 10.0 - 1.0).abs() <= 0.10, "{g}");
     // Held at every corner too (fixed hFE and ambient by default: the resistor corners).
-    let out = run(&base);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let out = run(base);
+    assert!(out.status.success(), "{}", stderr(&out));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let h = &v["candidates"][0]["held"];
     assert!(h["ic_max"].as_f64().unwrap() <= 300e-6);
@@ -151,7 +103,7 @@ fn supply_24v_gain_10_at_300ua_into_47k_is_designed() {
 #[test]
 fn impossible_gain_tolerance_is_refused_naming_the_gain() {
     // Gain ±1 % with 5 % resistors: the ratio RC‖RL/RE1 alone moves several percent.
-    let out = run(&[
+    let out = run([
         "design",
         "--vcc",
         "12",
@@ -163,17 +115,17 @@ fn impossible_gain_tolerance_is_refused_naming_the_gain() {
         "1",
     ]);
     assert_eq!(out.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&out.stderr);
+    let err = stderr(&out);
     assert!(err.contains("gain:"), "{err}");
     assert!(err.contains("±1.0 %"), "{err}");
-    let bad = run(&["design", "--vcc", "12", "--gain", "10", "--gain-tol", "0"]);
+    let bad = run(["design", "--vcc", "12", "--gain", "10", "--gain-tol", "0"]);
     assert_eq!(bad.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&bad.stderr).contains("--gain-tol"));
 }
 
 #[test]
 fn human_report_shows_candidates_and_part_list() {
-    let out = run(DEMO);
+    let out = run(demo());
     assert!(out.status.success());
     let text = String::from_utf8_lossy(&out.stdout);
     for want in [
@@ -191,49 +143,42 @@ fn human_report_shows_candidates_and_part_list() {
 
 #[test]
 fn impossible_gain_exits_2_naming_the_requirement() {
-    let out = run(&[
+    let out = run([
         "design", "--vcc", "12", "--gain", "80", "--rl", "4k7", "--ic-max", "100u",
     ]);
     assert_eq!(out.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&out.stderr);
+    let err = stderr(&out);
     assert!(err.contains("gain: 80 into 4.7 kΩ needs IC >="), "{err}");
     assert!(out.stdout.is_empty());
 }
 
 #[test]
 fn impossible_swing_exits_2() {
-    let out = run(&["design", "--vcc", "5", "--gain", "10", "--swing", "4.9"]);
+    let out = run(["design", "--vcc", "5", "--gain", "10", "--swing", "4.9"]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("swing"));
+    assert!(stderr(&out).contains("swing"));
 }
 
 #[test]
 fn bad_field_exits_2_naming_flag_and_value() {
-    let out = run(&["design", "--vcc", "12", "--gain", "5000"]);
+    let out = run(["design", "--vcc", "12", "--gain", "5000"]);
     assert_eq!(out.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&out.stderr);
+    let err = stderr(&out);
     assert!(err.contains("--gain: 5000:"), "{err}");
-    let out = run(&["design", "--vcc", "12", "--gain", "10", "--series", "E7"]);
+    let out = run(["design", "--vcc", "12", "--gain", "10", "--series", "E7"]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("E24"));
+    assert!(stderr(&out).contains("E24"));
 }
 
 #[test]
-fn design_file_round_trip_through_analyze() {
-    let dir = std::env::temp_dir().join(format!("biasjig-design-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+fn a_design_file_reads_back_the_same_and_refuses_edits_and_overwrites() {
+    let dir = common::scratch("design-cli");
     let file = dir.join("d.toml");
-    let mut args = vec!["--json"];
-    args.extend_from_slice(DEMO);
-    args.extend_from_slice(&["--count", "1", "-o", file.to_str().unwrap()]);
+    let args = demo_json(&["--count", "1", "-o", common::path_str(&file)]);
     let out = run(&args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    assert!(out.status.success(), "{}", stderr(&out));
     let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-    let a = run(&["--json", "analyze", "--design", file.to_str().unwrap()]);
+    let a = run(["--json", "analyze", "--design", file.to_str().unwrap()]);
     assert!(a.status.success(), "{}", String::from_utf8_lossy(&a.stderr));
     let a: serde_json::Value = serde_json::from_slice(&a.stdout).unwrap();
     let want = &d["candidates"][0]["predicted"];
@@ -244,11 +189,11 @@ fn design_file_round_trip_through_analyze() {
     let text = std::fs::read_to_string(&file).unwrap();
     let edited = dir.join("e.toml");
     std::fs::write(&edited, text.replace("[ambient]", "[ambient]\ncolour = 1")).unwrap();
-    let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
+    let e = run(["analyze", "--design", edited.to_str().unwrap()]);
     assert_eq!(e.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&e.stderr).contains("colour"));
     std::fs::write(&edited, text.replace("version = 2", "version = 9")).unwrap();
-    let e = run(&["analyze", "--design", edited.to_str().unwrap()]);
+    let e = run(["analyze", "--design", edited.to_str().unwrap()]);
     assert_eq!(e.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&e.stderr).contains("version"));
     // Issue 11, item 8: `design -o` does not replace a file without --force.
@@ -257,7 +202,7 @@ fn design_file_round_trip_through_analyze() {
     assert!(String::from_utf8_lossy(&again.stderr).contains("--force"));
     assert_eq!(std::fs::read_to_string(&file).unwrap(), text, "left whole");
     let mut forced = args.clone();
-    forced.push("--force");
+    forced.push("--force".into());
     assert!(run(&forced).status.success());
     std::fs::remove_dir_all(&dir).ok();
 }

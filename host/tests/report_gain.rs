@@ -5,114 +5,43 @@
 //! emitter, 15k load, 600 Ω source, 10 µ/10 µ/470 µ); their DC readings and nominal gains come from
 //! the engine, the spread of the gains is chosen here.
 
-use std::path::PathBuf;
-use std::process::{Command, Output};
+mod common;
 
-use biasjig_core::device::{is_from_vbe, Profile};
-use biasjig_core::response::{magnitude_at, CapState, Caps};
-use biasjig_core::solve::{solve, Conditions};
-use biasjig_core::stage::{Capacitor, Part, Polarity, Stage};
+use std::path::Path;
+use std::process::Output;
+
+use biasjig_core::response::CapState;
+use biasjig_core::stage::Capacitor;
+use common::signal::TONES;
+use common::{path_str, run, temp};
 use serde_json::Value;
 
-const STAGE: [&str; 26] = [
-    "--r1",
-    "47k",
-    "--r2",
-    "10k",
-    "--rc",
-    "4k7",
-    "--re1",
-    "220",
-    "--re2",
-    "820",
-    "--rl",
-    "15k",
-    "--rs",
-    "600",
-    "--cin",
-    "10u",
-    "--cout",
-    "10u",
-    "--ce",
-    "470u",
-    "--beta-min",
-    "100",
-    "--beta",
-    "200",
-    "--beta-max",
-    "300",
-];
-
-const TONES: [f64; 2] = [1000.0, 5.0];
+/// The scratch folder of this file.
+const TAG: &str = "report-gain";
 
 /// Boards that pass (more than the report's minimum n of 30 for a Cpk).
 const GOOD: usize = 34;
 
+/// DC readings and the gains at the test tones of a board.
 fn board(cap: Option<(Capacitor, CapState)>) -> ([f64; 4], [f64; 2]) {
-    let c = |v| Some(Part::new(v, 0.2));
-    let s = Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.05),
-        r1: Part::new(47e3, 0.05),
-        r2: Part::new(10e3, 0.05),
-        rc: Part::new(4.7e3, 0.05),
-        re1: Part::new(220.0, 0.05),
-        re2: Part::new(820.0, 0.05),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: c(10e-6),
-        cout: c(10e-6),
-        ce: c(470e-6),
-    };
-    let p = Profile {
-        beta_min: 100.0,
-        beta_typ: 200.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    };
-    let op = solve(
-        &s,
-        &p,
-        Conditions {
-            beta_25: 180.0,
-            ..Conditions::typical(&p)
-        },
+    let (r, g) = common::signal::board(cap, &TONES);
+    (r, [g[0], g[1]])
+}
+
+/// `check` of one board, logged as `serial` at station bench-g.
+fn check(serial: &str, r: [f64; 4], g: [f64; 2], log: &Path) -> Output {
+    common::signal::check(
+        r,
+        &[(TONES[0], g[0]), (TONES[1], g[1])],
+        &[
+            "--serial",
+            serial,
+            "--station",
+            "bench-g",
+            "--log",
+            path_str(log),
+        ],
     )
-    .unwrap();
-    let mut caps = Caps::nominal(&s);
-    if let Some((c, st)) = cap {
-        caps = caps.with(c, st);
-    }
-    let g = TONES.map(|f| magnitude_at(&s, &op, &caps, f));
-    ([op.vcc, op.vb, op.ve, op.vc], g)
-}
-
-fn check(serial: &str, r: [f64; 4], g: [f64; 2], log: &PathBuf) -> Output {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_biasjig"));
-    c.arg("check").args(STAGE).args([
-        "--vcc".to_string(),
-        r[0].to_string(),
-        "--vb".into(),
-        r[1].to_string(),
-        "--ve".into(),
-        r[2].to_string(),
-        "--vc".into(),
-        r[3].to_string(),
-    ]);
-    for (f, x) in TONES.iter().zip(g) {
-        c.arg("--ac").arg(format!("{f}:{x}"));
-    }
-    c.args(["--serial", serial, "--station", "bench-g", "--log"])
-        .arg(log)
-        .output()
-        .unwrap()
-}
-
-fn temp(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("biasjig-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_file(&d);
-    d
 }
 
 /// Mean, sample standard deviation and Cpk = min(H - mean, mean - L) / (3 s) (common practice:
@@ -130,7 +59,7 @@ fn close(a: f64, b: f64) -> bool {
 
 #[test]
 fn report_shows_gain_cpk_per_frequency_and_capacitor_faults() {
-    let log = temp("gain.jsonl");
+    let log = temp(TAG, "gain.jsonl");
     let (r, g0) = board(None);
     // Gains chosen: within ±1.5 % of the nominal gain, a different pattern per tone.
     let mut chosen: [Vec<f64>; 2] = [Vec::new(), Vec::new()];
@@ -166,11 +95,7 @@ fn report_shows_gain_cpk_per_frequency_and_capacitor_faults() {
         })
         .collect();
 
-    let out = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(["report", "--json"])
-        .arg(&log)
-        .output()
-        .unwrap();
+    let out = run(["report", "--json", path_str(&log)]);
     assert_eq!(out.status.code(), Some(0));
     let rep: Value = serde_json::from_slice(&out.stdout).unwrap();
     let d = &rep["designs"][0];
@@ -217,11 +142,7 @@ fn report_shows_gain_cpk_per_frequency_and_capacitor_faults() {
     assert_eq!(ce, Some(Value::from(2)), "{}", d["pareto"]);
 
     // The text and the HTML report say the same figures.
-    let out = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .arg("report")
-        .arg(&log)
-        .output()
-        .unwrap();
+    let out = run(["report", path_str(&log)]);
     let txt = String::from_utf8_lossy(&out.stdout);
     assert!(txt.contains("signal test: gain"), "{txt}");
     assert!(txt.contains("no referral"), "{txt}");
@@ -232,14 +153,8 @@ fn report_shows_gain_cpk_per_frequency_and_capacitor_faults() {
     let line = line.unwrap_or_else(|| panic!("no 1 kHz line: {txt}"));
     assert!(line.contains(&format!("n {GOOD:>6}")), "{line}");
     assert!(line.contains(&format!("Cpk {cpk:.2}")), "{line}");
-    let html = temp("gain.html");
-    let out = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .arg("report")
-        .arg(&log)
-        .arg("--html")
-        .arg(&html)
-        .output()
-        .unwrap();
+    let html = temp(TAG, "gain.html");
+    let out = run(["report", path_str(&log), "--html", path_str(&html)]);
     assert_eq!(out.status.code(), Some(0));
     let page = std::fs::read_to_string(&html).unwrap();
     assert!(page.contains("signal test: gain"));
@@ -250,17 +165,13 @@ fn report_shows_gain_cpk_per_frequency_and_capacitor_faults() {
 
 #[test]
 fn below_the_minimum_n_no_gain_cpk_is_printed() {
-    let log = temp("gain-few.jsonl");
+    let log = temp(TAG, "gain-few.jsonl");
     let (r, g0) = board(None);
     for k in 0..5 {
         let g = [g0[0] * (1.0 + 0.002 * k as f64), g0[1]];
         assert_eq!(check(&format!("S{k}"), r, g, &log).status.code(), Some(0));
     }
-    let out = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(["report", "--json"])
-        .arg(&log)
-        .output()
-        .unwrap();
+    let out = run(["report", "--json", path_str(&log)]);
     let rep: Value = serde_json::from_slice(&out.stdout).unwrap();
     let e = &rep["designs"][0]["ac"]["frequencies"][1];
     assert_eq!(e["n"], 5);

@@ -3,139 +3,20 @@
 //! invented stage (12 V, 47k/10k divider, 4k7 collector, 220 + 820 emitter, 15k load, 600 Ω source,
 //! 10 µ/10 µ/470 µ).
 
-use std::process::{Command, Output};
+mod common;
 
-use biasjig_core::device::{is_from_vbe, Profile};
-use biasjig_core::response::{magnitude_at, CapState, Caps};
-use biasjig_core::solve::{solve, Conditions, NodeLoads};
-use biasjig_core::stage::{Capacitor, Part, Polarity, Stage};
-use serde_json::Value;
-
-const STAGE: [&str; 28] = [
-    "--vcc",
-    "12",
-    "--r1",
-    "47k",
-    "--r2",
-    "10k",
-    "--rc",
-    "4k7",
-    "--re1",
-    "220",
-    "--re2",
-    "820",
-    "--rl",
-    "15k",
-    "--rs",
-    "600",
-    "--cin",
-    "10u",
-    "--cout",
-    "10u",
-    "--ce",
-    "470u",
-    "--beta-min",
-    "100",
-    "--beta",
-    "200",
-    "--beta-max",
-    "300",
-];
-
-fn stage() -> (Stage, Profile) {
-    let c = |v| Some(Part::new(v, 0.2));
-    let s = Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.05),
-        r1: Part::new(47e3, 0.05),
-        r2: Part::new(10e3, 0.05),
-        rc: Part::new(4.7e3, 0.05),
-        re1: Part::new(220.0, 0.05),
-        re2: Part::new(820.0, 0.05),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: c(10e-6),
-        cout: c(10e-6),
-        ce: c(470e-6),
-    };
-    let p = Profile {
-        beta_min: 100.0,
-        beta_typ: 200.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    };
-    (s, p)
-}
-
-/// DC readings and the gains at `freqs` of the nominal board with hFE 180 and one capacitor in
-/// the state given (`None`: as designed).
-fn board(cap: Option<(Capacitor, CapState)>, freqs: &[f64]) -> ([f64; 4], Vec<f64>) {
-    let (s, p) = stage();
-    let op = solve(
-        &s,
-        &p,
-        Conditions {
-            beta_25: 180.0,
-            ..Conditions::typical(&p)
-        },
-    )
-    .unwrap();
-    let mut caps = Caps::nominal(&s);
-    if let Some((c, st)) = cap {
-        caps = caps.with(c, st);
-    }
-    let gains = freqs
-        .iter()
-        .map(|f| magnitude_at(&s, &op, &caps, *f))
-        .collect();
-    ([op.vcc, op.vb, op.ve, op.vc], gains)
-}
-
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-}
-
-fn check(r: [f64; 4], ac: &[(f64, f64)], extra: &[&str]) -> Output {
-    let mut c = bin();
-    c.arg("check").args(STAGE.iter().skip(2)).args([
-        "--vcc".to_string(),
-        r[0].to_string(),
-        "--vb".into(),
-        r[1].to_string(),
-        "--ve".into(),
-        r[2].to_string(),
-        "--vc".into(),
-        r[3].to_string(),
-    ]);
-    for (f, g) in ac {
-        c.arg("--ac").arg(format!("{f}:{g}"));
-    }
-    c.args(extra).output().unwrap()
-}
-
-fn json(out: &Output) -> Value {
-    serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
-        panic!(
-            "not JSON ({e}): {} {}",
-            String::from_utf8_lossy(&out.stdout),
-            String::from_utf8_lossy(&out.stderr)
-        )
-    })
-}
-
-const TONES: [f64; 2] = [1000.0, 5.0];
+use biasjig_core::response::CapState;
+use biasjig_core::solve::{solve, NodeLoads};
+use biasjig_core::stage::Capacitor;
+use common::signal::{board, check, TONES};
+use common::stage::SIGNAL;
+use common::{assert_exit, bin, json, stderr};
 
 #[test]
 fn a_good_board_passes_its_gain_windows() {
     let (r, g) = board(None, &TONES);
     let out = check(r, &[(TONES[0], g[0]), (TONES[1], g[1])], &["--json"]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    assert_exit(&out, 0);
     let j = json(&out);
     assert_eq!(j["verdict"], "pass");
     let ac = j["ac"].as_array().unwrap();
@@ -192,20 +73,12 @@ fn capacitor_faults_are_named_from_dc_and_gain_readings() {
     }
     // A shorted CIN shows at DC (RS from the base to ground while the nodes are read): the DC
     // readings alone fail and name it.
-    let (s, p) = stage();
-    let op = solve(
-        &s,
-        &p,
-        Conditions {
-            beta_25: 180.0,
-            loads: NodeLoads {
-                base: Some(600.0),
-                ..NodeLoads::NONE
-            },
-            ..Conditions::typical(&p)
-        },
-    )
-    .unwrap();
+    let (s, p) = (SIGNAL.stage(), SIGNAL.profile());
+    let loads = NodeLoads {
+        base: Some(600.0),
+        ..NodeLoads::NONE
+    };
+    let op = solve(&s, &p, common::signal::conditions(&p).loaded(loads)).unwrap();
     let out = check([op.vcc, op.vb, op.ve, op.vc], &[], &["--json"]);
     assert_eq!(out.status.code(), Some(1));
     let j = json(&out);
@@ -223,7 +96,7 @@ fn capacitor_faults_are_named_from_dc_and_gain_readings() {
 fn limits_publish_the_windows_check_applies_and_propose_tones() {
     let out = bin()
         .arg("limits")
-        .args(STAGE)
+        .args(SIGNAL.words())
         .args(["--ac-f", "1k", "--ac-f", "5", "--json"])
         .output()
         .unwrap();
@@ -250,7 +123,7 @@ fn limits_publish_the_windows_check_applies_and_propose_tones() {
     // Without --ac-f: two proposed frequencies, each with its reason.
     let out = bin()
         .arg("limits")
-        .args(STAGE)
+        .args(SIGNAL.words())
         .arg("--json")
         .output()
         .unwrap();
@@ -269,13 +142,12 @@ fn bad_gain_readings_are_refused_naming_the_flag() {
     for bad in ["1k", "1k:x", "1M:10", "1k:-3"] {
         let mut c = bin();
         c.arg("check")
-            .args(STAGE.iter().skip(2))
-            .args(["--vcc", &r[0].to_string(), "--vb", &r[1].to_string()])
-            .args(["--ve", &r[2].to_string(), "--vc", &r[3].to_string()])
+            .args(SIGNAL.without_vcc())
+            .args(common::stage::reading_flags(r))
             .args(["--ac", bad]);
         let out = c.output().unwrap();
         assert_eq!(out.status.code(), Some(2), "{bad}");
-        let err = String::from_utf8_lossy(&out.stderr);
+        let err = stderr(&out);
         assert!(
             err.contains("--ac") && err.contains("allowed"),
             "{bad}: {err}"
@@ -283,10 +155,10 @@ fn bad_gain_readings_are_refused_naming_the_flag() {
     }
     let out = bin()
         .arg("limits")
-        .args(STAGE)
+        .args(SIGNAL.words())
         .args(["--ac-f", "0"])
         .output()
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--ac-f"));
+    assert!(stderr(&out).contains("--ac-f"));
 }

@@ -1,57 +1,29 @@
 //! `biasjig spread` and `biasjig limits` through the binary: JSON keys of the machine interface,
 //! reproducibility per seed, plots, and bad input with exit 2.
 
-use std::process::{Command, Output};
+mod common;
 
-use serde_json::Value;
+use common::demo;
+use common::stage::Flags;
+use common::{assert_exit, json_ok, path_str, run, stderr, stdout};
 
-const STAGE: [&str; 22] = [
-    "--vcc",
-    "12",
-    "--r1",
-    "47k",
-    "--r2",
-    "10k",
-    "--rc",
-    "4k7",
-    "--re1",
-    "220",
-    "--re2",
-    "1k",
-    "--rl",
-    "15k",
-    "--rs",
-    "600",
-    "--beta",
-    "180",
-    "--beta-min",
-    "100",
-    "--beta-max",
-    "300",
-];
+/// An invented stage (12 V, 47k/10k divider, 4k7 collector, 220 + 1k emitter, 15k load, 600 Ω
+/// source, hFE 100/180/300).
+const STAGE: Flags = Flags(concat!(
+    "--vcc 12 --r1 47k --r2 10k --rc 4k7 --re1 220 --re2 1k --rl 15k --rs 600 ",
+    "--beta 180 --beta-min 100 --beta-max 300",
+));
 
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(args)
-        .output()
-        .expect("run biasjig")
-}
-
-fn json_of(args: &[&str]) -> Value {
-    let out = run(args);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).expect("one JSON document on stdout")
+fn json_of(args: &[&str]) -> serde_json::Value {
+    json_ok(args)
 }
 
 /// The subcommand (first of `extra`), the stage flags, then the rest of `extra`.
 fn with<'a>(extra: &[&'a str]) -> Vec<&'a str> {
-    let mut v: Vec<&str> = extra.iter().take(1).copied().collect();
-    v.extend_from_slice(&STAGE);
+    let mut v: Vec<&'a str> = extra.iter().take(1).copied().collect();
+    for w in STAGE.words() {
+        v.push(w);
+    }
     v.extend(extra.iter().skip(1).copied());
     v
 }
@@ -89,7 +61,7 @@ fn spread_json_has_the_contract_keys() {
 }
 
 #[test]
-fn spread_repeats_per_seed() {
+fn spread_gives_the_same_numbers_for_the_same_seed() {
     let a = json_of(&with(&["spread", "--json", "--runs", "200", "--seed", "9"]));
     let b = json_of(&with(&["spread", "--json", "--runs", "200", "--seed", "9"]));
     let c = json_of(&with(&[
@@ -110,9 +82,9 @@ fn spread_default_ambient_is_temp_alone() {
 }
 
 #[test]
-fn spread_human_report_and_plots() {
-    let dir = std::env::temp_dir().join(format!("biasjig-spread-plots-{}", std::process::id()));
-    let d = dir.to_str().unwrap().to_string();
+fn spread_prints_its_report_and_writes_svg_plots_without_a_progress_bar() {
+    let dir = common::scratch("spread-plots");
+    let d = path_str(&dir).to_string();
     let mut args = with(&[
         "spread",
         "--runs",
@@ -125,38 +97,17 @@ fn spread_human_report_and_plots() {
     ]);
     args.push(&d);
     let out = run(&args);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let text = String::from_utf8_lossy(&out.stdout);
-    for word in [
-        "worst min",
-        "mean",
-        "std",
-        "Yield",
-        "Sensitivity",
-        "Distributions",
-    ] {
+    assert_exit(&out, 0);
+    let text = stdout(&out);
+    for word in "worst min|mean|std|Yield|Sensitivity|Distributions".split('|') {
         assert!(text.contains(word), "{word} missing in:\n{text}");
     }
-    for f in [
-        "histogram_vb.svg",
-        "histogram_ic.svg",
-        "load_lines.svg",
-        "sensitivity.svg",
-    ] {
+    for f in "histogram_vb.svg|histogram_ic.svg|load_lines.svg|sensitivity.svg".split('|') {
         let svg = std::fs::read_to_string(dir.join(f)).unwrap();
         assert!(svg.starts_with("<svg") && svg.contains("<text"), "{f}");
     }
     // No progress bar on a pipe.
-    assert!(
-        out.stderr.is_empty(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    assert!(out.stderr.is_empty(), "{}", stderr(&out));
     let _ = std::fs::remove_dir_all(&dir);
 }
 
@@ -202,56 +153,32 @@ fn bad_input_exits_2_naming_the_field() {
         (&["limits", "--meter", "80"], "--meter"),
     ];
     for (extra, field) in cases {
-        let out = run(&with(extra));
+        let out = run(with(extra));
         assert_eq!(out.status.code(), Some(2), "{extra:?}");
-        let err = String::from_utf8_lossy(&out.stderr);
+        let err = stderr(&out);
         assert!(err.contains(field), "{extra:?}: {err}");
         assert!(out.stdout.is_empty(), "{extra:?}");
     }
-    let out = run(&["spread", "--r1", "47k"]);
+    let out = run(["spread", "--r1", "47k"]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--vcc"));
+    assert!(stderr(&out).contains("--vcc"));
 }
 
 #[test]
 fn spread_of_a_design_follows_its_ambient_and_requirement() {
-    let dir = std::env::temp_dir().join(format!("biasjig-spread-design-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let file = dir.join("d.toml");
-    let f = file.to_str().unwrap();
-    let out = run(&[
-        "design",
-        "--vcc",
-        "12",
-        "--gain",
-        "15",
-        "--gain-tol",
-        "12",
-        "--rl",
-        "15k",
-        "--rs",
-        "600",
-        "--temp-min",
-        "-10",
-        "--temp-max",
-        "55",
-        "--beta",
-        "180",
-        "--beta-min",
-        "100",
-        "--beta-max",
-        "300",
-        "--swing",
-        "1",
-        "-o",
-        f,
-    ]);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let v = json_of(&["spread", "--design", f, "--runs", "400", "--json"]);
+    let file = common::temp("spread-design", "d.toml");
+    let f = path_str(&file);
+    let mut a = demo::design_args(&["--gain-tol", "12", "--temp-min", "-10", "--temp-max", "55"]);
+    a.extend(common::strs(&["--beta", "180"]));
+    a.extend(common::strs(&demo::HFE_SPREAD));
+    a.extend(common::strs(&["--swing", "1", "-o", f]));
+    assert_exit(&run(&a), 0);
+    let spread_of = |extra: &[&str]| {
+        let mut a = vec!["spread", "--design", f, "--runs", "400", "--json"];
+        a.extend_from_slice(extra);
+        json_of(&a)
+    };
+    let v = spread_of(&[]);
     // The design's ambient range, not 25 °C alone.
     assert_eq!(v["temperature"]["min"], -10.0);
     assert_eq!(v["temperature"]["max"], 55.0);
@@ -274,49 +201,21 @@ fn spread_of_a_design_follows_its_ambient_and_requirement() {
     // Wider capacitors (--cap-tol 50 %): the corners with the capacitors at their low end miss
     // the low corner, and the Monte Carlo counts the part of the draws that misses it, in the
     // yield of the low corner and in the yield together.
-    let w = json_of(&[
-        "spread",
-        "--design",
-        f,
-        "--runs",
-        "400",
-        "--cap-tol",
-        "50",
-        "--json",
-    ]);
+    let w = spread_of(&["--cap-tol", "50"]);
     let wy = &w["yield"];
     assert_eq!(wy["low_corner"]["held"], false);
     let lc = wy["each"]["low_corner"].as_f64().unwrap();
     assert!(lc > 0.0 && lc < 1.0, "{lc}");
     assert!(wy["fraction"].as_f64().unwrap() <= lc);
     // The same seed gives the same numbers.
-    let again = json_of(&[
-        "spread",
-        "--design",
-        f,
-        "--runs",
-        "400",
-        "--cap-tol",
-        "50",
-        "--json",
-    ]);
+    let again = spread_of(&["--cap-tol", "50"]);
     assert_eq!(again["yield"], w["yield"]);
     // A tighter window given on the command line replaces the design's; the text report draws
     // the requirement's lines under the histograms.
-    let v = json_of(&[
-        "spread",
-        "--design",
-        f,
-        "--runs",
-        "400",
-        "--json",
-        "--gain-min",
-        "14.9",
-    ]);
+    let v = spread_of(&["--gain-min", "14.9"]);
     assert!(v["yield"]["fraction"].as_f64().unwrap() < 1.0);
-    let out = run(&["spread", "--design", f, "--runs", "200"]);
-    let text = String::from_utf8_lossy(&out.stdout);
+    let text = stdout(&run(["spread", "--design", f, "--runs", "200"]));
     assert!(text.contains("requirement: "), "{text}");
     assert!(text.contains("each on its own"), "{text}");
-    let _ = std::fs::remove_dir_all(&dir);
+    let _ = std::fs::remove_file(&file);
 }

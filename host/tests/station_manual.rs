@@ -3,93 +3,31 @@
 //! refused readings are logged as refused with the reason, and the verdict screen names the
 //! fault in the words of `biasjig check`.
 
-use std::io::Write;
-use std::process::{Command, Stdio};
+mod common;
 
-fn biasjig(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(args)
-        .output()
-        .expect("biasjig runs")
-}
+use common::console::assert_refused_unpowered;
 
-/// VB, VE, VC the engine predicts for the design file with `extra` flags (a faulty part).
-fn predicted(design: &str, extra: &[&str]) -> [f64; 3] {
-    let mut args = vec!["analyze", "--design", design, "--json"];
-    args.extend_from_slice(extra);
-    let out = biasjig(&args);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-    let dc = &v["dc"];
-    ["vb", "ve", "vc"].map(|k| dc[k].as_f64().unwrap())
-}
+use std::path::Path;
 
-fn station(design: &str, log: &std::path::Path, input: &str) -> (String, i32) {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_biasjig"))
-        .args(["station", "--manual", "--design", design, "--log"])
-        .arg(log)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(input.as_bytes())
-        .unwrap();
-    let out = child.wait_with_output().unwrap();
-    (
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-        out.status.code().unwrap_or(-1),
-    )
+use common::demo::{self, typed};
+use common::{code, json_lines, path_str, run, stderr, stdout, temp};
+
+/// The scratch folder of this file.
+const TAG: &str = "station-loop";
+
+/// The manual station's screen and exit code.
+fn station(design: &Path, log: &Path, input: &str) -> (String, i32) {
+    let out = common::console::station(design, log, &[], input);
+    (stderr(&out), code(&out))
 }
 
 #[test]
 fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault() {
-    let dir = std::env::temp_dir().join(format!("biasjig-station-loop-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let design = dir.join("demo.toml");
-    let log = dir.join("boards.jsonl");
-    let _ = std::fs::remove_file(&log);
-    let d = design.to_str().unwrap();
-    // The demo scenario's requirement (invented).
-    let out = biasjig(&[
-        "design",
-        "--vcc",
-        "12",
-        "--gain",
-        "15",
-        "--rl",
-        "15k",
-        "--rs",
-        "600",
-        "--f-low",
-        "5",
-        "--temp-min",
-        "-10",
-        "--temp-max",
-        "55",
-        "-o",
-        d,
-    ]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let file: toml::Table = std::fs::read_to_string(&design).unwrap().parse().unwrap();
-    let rc = file["parts"]["rc"]["value"].as_float().unwrap();
-    let good = predicted(d, &[]);
-    let bad = predicted(d, &["--rc", &format!("{}", rc * 10.0)]);
-    let line = |v: [f64; 3]| format!("12 {:?} {:?} {:?}", v[0], v[1], v[2]);
+    let bench = demo::bench(TAG);
+    let (design, log, file) = (bench.design, bench.log, bench.file);
+    let (good, bad) = (bench.good, bench.bad);
+    let d = path_str(&design);
+    let line = typed;
     // SN-2: first a line that is not readings, then a typo the unit refuses, then the readings.
     // SN-3: readings of an unpowered board (refused), then given up (empty line).
     // SN-1 again: a retest.
@@ -99,13 +37,10 @@ fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault()
         line(bad),
         line(good)
     );
-    let (screen, code) = station(d, &log, &input);
+    let (screen, code) = station(&design, &log, &input);
     assert_eq!(code, 0, "{screen}");
     let text = std::fs::read_to_string(&log).unwrap();
-    let recs: Vec<serde_json::Value> = text
-        .lines()
-        .map(|l| serde_json::from_str(l).unwrap())
-        .collect();
+    let recs = json_lines(&log);
     let summary: Vec<(String, String)> = recs
         .iter()
         .map(|r| {
@@ -130,14 +65,7 @@ fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault()
     assert_eq!(screen.matches("not readings").count(), 2, "{screen}");
     // The refusal is logged with its reason.
     let refused = &recs[2];
-    assert!(
-        refused["reason"]
-            .as_str()
-            .unwrap()
-            .starts_with("IMPLAUSIBLE"),
-        "{refused}"
-    );
-    assert_eq!(refused["typed"], "0 0 0 0");
+    assert_refused_unpowered(refused);
     assert_eq!(refused["design"]["hash"], file["hash"].as_str().unwrap());
     // The retest is said and recorded.
     assert!(screen.contains("board SN-1 was tested before"), "{screen}");
@@ -161,10 +89,10 @@ fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault()
         format!("{:?}", bad[1]),
         format!("{:?}", bad[2]),
     );
-    let check = biasjig(&[
+    let check = run([
         "check", "--design", d, "--vcc", "12", "--vb", &vb, "--ve", &ve, "--vc", &vc,
     ]);
-    let check_text = String::from_utf8_lossy(&check.stdout);
+    let check_text = stdout(&check);
     let first_fault = check_text
         .lines()
         .find(|l| l.trim_start().starts_with("1. "))
@@ -182,10 +110,9 @@ fn manual_loop_reasks_readings_marks_retests_logs_refusals_and_words_the_fault()
     );
 
     // Readings typed at the serial prompt are no serial number: they are said and asked again.
-    let log2 = dir.join("boards2.jsonl");
-    let _ = std::fs::remove_file(&log2);
+    let log2 = temp(TAG, "boards2.jsonl");
     let input = format!("{}\nSN-9\n{}\n\n", line(good), line(good));
-    let (screen, code) = station(d, &log2, &input);
+    let (screen, code) = station(&design, &log2, &input);
     assert_eq!(code, 0, "{screen}");
     assert!(screen.contains("not a serial number"), "{screen}");
     let text = std::fs::read_to_string(&log2).unwrap();

@@ -4,138 +4,63 @@
 //! corrupt lines); a serial already in the store is said and marked as a retest even when the
 //! log is new.
 
-use std::collections::BTreeMap;
-use std::io::Write;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Stdio};
+mod common;
 
+use common::console::assert_refused_unpowered;
+
+use common::console::station;
+use common::demo::{self, typed};
+use common::line::{assert_group, assert_group_with_final, expect, report, Expect};
+use common::{assert_exit, json_lines, json_ok, path_str, stderr, temp};
 use serde_json::Value;
 
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_biasjig"))
-}
-
-fn dir() -> PathBuf {
-    let d = std::env::temp_dir().join(format!("biasjig-station-store-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-/// VB, VE, VC the engine predicts for the design file with `extra` flags (a faulty part).
-fn predicted(design: &Path, extra: &[&str]) -> [f64; 3] {
-    let out = bin()
-        .args(["analyze", "--json", "--design"])
-        .arg(design)
-        .args(extra)
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(0), "{out:?}");
-    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
-    ["vb", "ve", "vc"].map(|k| v["dc"][k].as_f64().unwrap())
-}
+/// The scratch folder of this file.
+const TAG: &str = "station-store";
 
 /// Run the manual station with the store and the log; returns the screen.
-fn station(design: &Path, log: &Path, url: &str, input: &str) -> String {
-    let mut child = bin()
-        .args(["station", "--manual", "--design"])
-        .arg(design)
-        .arg("--log")
-        .arg(log)
-        .args(["--store", url, "--station", "bench-s", "--operator", "ana"])
-        .args(["--lot", "L7"])
-        .stdin(Stdio::piped())
-        .stdout(Stdio::null())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(input.as_bytes())
-        .unwrap();
-    let out = child.wait_with_output().unwrap();
-    let screen = String::from_utf8_lossy(&out.stderr).into_owned();
-    assert_eq!(out.status.code(), Some(0), "{screen}");
-    screen
-}
-
-fn lines(log: &Path) -> Vec<Value> {
-    std::fs::read_to_string(log)
-        .unwrap()
-        .lines()
-        .map(|l| serde_json::from_str(l).unwrap())
-        .collect()
-}
-
-fn report(args: &[&str]) -> Value {
-    let out = bin().arg("report").args(args).output().unwrap();
-    assert_eq!(out.status.code(), Some(0), "{out:?}");
-    serde_json::from_slice(&out.stdout).unwrap()
-}
-
-/// Boards, tests, first-pass and final yield of tests in test order (serial, verdict).
-fn figures(tests: &[(String, String)]) -> (u64, u64, f64, f64) {
-    let mut first: BTreeMap<&str, bool> = BTreeMap::new();
-    let mut last: BTreeMap<&str, bool> = BTreeMap::new();
-    for (s, v) in tests {
-        first.entry(s).or_insert(v == "pass");
-        last.insert(s, v == "pass");
-    }
-    let n = first.len() as f64;
-    let share = |m: &BTreeMap<&str, bool>| m.values().filter(|p| **p).count() as f64 / n;
-    (
-        first.len() as u64,
-        tests.len() as u64,
-        share(&first),
-        share(&last),
-    )
-}
-
-fn assert_figures(d: &Value, want: (u64, u64, f64, f64), what: &str) {
-    assert_eq!(d["boards"].as_u64(), Some(want.0), "{what}: boards {d}");
-    assert_eq!(d["tests"].as_u64(), Some(want.1), "{what}: tests");
-    let fpy = d["first_pass_yield"].as_f64().unwrap();
-    let fy = d["final_yield"].as_f64().unwrap();
-    assert!((fpy - want.2).abs() < 1e-12, "{what}: first-pass {fpy}");
-    assert!((fy - want.3).abs() < 1e-12, "{what}: final {fy}");
+fn station_with_store(
+    design: &std::path::Path,
+    log: &std::path::Path,
+    url: &str,
+    input: &str,
+) -> String {
+    let out = station(
+        design,
+        log,
+        &[
+            "--store",
+            url,
+            "--station",
+            "bench-s",
+            "--operator",
+            "ana",
+            "--lot",
+            "L7",
+        ],
+        input,
+    );
+    assert_exit(&out, 0);
+    stderr(&out)
 }
 
 #[test]
 fn manual_station_with_store_and_log_keeps_retests_and_refusals_in_both() {
-    let d = dir();
-    let design = d.join("demo.toml");
-    let log = d.join("boards.jsonl");
-    let log2 = d.join("second.jsonl");
-    let db = d.join("line.db");
-    for p in [&log, &log2, &db] {
-        let _ = std::fs::remove_file(p);
-    }
-    // The demo scenario's requirement (invented).
-    let out = bin()
-        .args(["design", "--vcc", "12", "--gain", "15", "--rl", "15k"])
-        .args(["--rs", "600", "--f-low", "5", "--temp-min", "-10"])
-        .args(["--temp-max", "55", "-o"])
-        .arg(&design)
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(0), "{out:?}");
-    let file: toml::Table = std::fs::read_to_string(&design).unwrap().parse().unwrap();
-    let rc = file["parts"]["rc"]["value"].as_float().unwrap();
-    let hash = file["hash"].as_str().unwrap().to_owned();
-    let line = |v: [f64; 3]| format!("12 {:?} {:?} {:?}", v[0], v[1], v[2]);
-    let good = line(predicted(&design, &[]));
-    let bad = line(predicted(&design, &["--rc", &format!("{}", rc * 10.0)]));
+    let bench = demo::bench(TAG);
+    let (design, log) = (&bench.design, &bench.log);
+    let log2 = temp(TAG, "second.jsonl");
+    let db = temp(TAG, "line.db");
+    let hash = demo::hash_of(&bench.file);
+    let (good, bad) = (typed(bench.good), typed(bench.bad));
     let url = format!("sqlite:{}", db.display());
     // B1 passes; B2 fails; B3 is refused (an unpowered board), then given up; B2 retested good.
-    let screen = station(
-        &design,
-        &log,
+    let screen = station_with_store(
+        design,
+        log,
         &url,
         &format!("B1\n{good}\nB2\n{bad}\nB3\n0 0 0 0\n\nB2\n{good}\n\n"),
     );
     assert!(screen.contains("board B2 was tested before"), "{screen}");
-    let recs = lines(&log);
+    let recs = json_lines(log);
     let got: Vec<(String, String, bool)> = recs
         .iter()
         .map(|r| {
@@ -175,25 +100,18 @@ fn manual_station_with_store_and_log_keeps_retests_and_refusals_in_both() {
         assert_eq!(r["source"]["kind"], "station");
     }
     let refused = &recs[2];
-    assert!(
-        refused["reason"]
-            .as_str()
-            .unwrap()
-            .starts_with("IMPLAUSIBLE"),
-        "{refused}"
-    );
-    assert_eq!(refused["typed"], "0 0 0 0");
+    assert_refused_unpowered(refused);
     assert_eq!(refused["readings"]["vcc"], 0.0);
     assert!(recs[1]["faults"].as_array().is_some_and(|f| !f.is_empty()));
     assert!(recs[0]["nodes"].as_object().is_some_and(|n| n.len() >= 3));
 
     // A second session on a new log: B1 is known only to the store, and is a retest.
-    let screen = station(&design, &log2, &url, &format!("B1\n{good}\n\n"));
+    let screen = station_with_store(design, &log2, &url, &format!("B1\n{good}\n\n"));
     assert!(
         screen.contains("board B1 was tested before (1 record in the store)"),
         "{screen}"
     );
-    let second = lines(&log2);
+    let second = json_lines(&log2);
     assert_eq!(second.len(), 1);
     assert_eq!(second[0]["retest"], true);
 
@@ -201,20 +119,81 @@ fn manual_station_with_store_and_log_keeps_retests_and_refusals_in_both() {
     let mut tests: Vec<(String, String)> =
         got.iter().map(|(s, v, _)| (s.clone(), v.clone())).collect();
     tests.push(("B1".into(), "pass".into()));
-    let want = figures(&tests);
+    let tests: Vec<(&str, bool)> = tests
+        .iter()
+        .map(|(s, v)| (s.as_str(), v == "pass"))
+        .collect();
+    let want = expect(&tests);
     // Boards B1, B2, B3; 5 tests; first pass B1 only; final B1 and B2.
-    assert_eq!(want, (3, 5, 1.0 / 3.0, 2.0 / 3.0));
-    let rep = report(&["--store", &url, "--json"]);
+    assert_eq!(
+        want,
+        Expect {
+            boards: 3,
+            tests: 5,
+            first_pass: 1,
+            final_pass: 2
+        }
+    );
+    let rep = report(&url, &[]);
     assert_eq!(rep["refused_records"], 0, "{rep}");
     let dsg = &rep["designs"][0];
     assert_eq!(dsg["hash"], hash.as_str());
-    assert_figures(dsg, want, "store");
-    assert_figures(&dsg["stations"]["bench-s"], want, "store, station bench-s");
+    assert_group_with_final(dsg, &want, "store");
+    assert_group_with_final(&dsg["stations"]["bench-s"], &want, "store, station bench-s");
     assert_eq!(dsg["refused_tests"], 1);
     assert_eq!(dsg["retests"], 2);
     // The logs give the same figures: the station's refused line is a whole refused test.
-    let from_logs = report(&["--json", log.to_str().unwrap(), log2.to_str().unwrap()]);
+    let from_logs = json_ok(["report", "--json", path_str(log), path_str(&log2)]);
     assert_eq!(from_logs["refused_records"], 0, "{from_logs}");
-    assert_figures(&from_logs["designs"][0], want, "logs");
+    assert_group_with_final(&from_logs["designs"][0], &want, "logs");
     assert_eq!(from_logs["designs"][0]["refused_tests"], 1);
+}
+
+#[test]
+fn the_manual_station_records_whole_tests_in_the_store() {
+    let design = temp(TAG, "station.toml");
+    let mut a = demo::design_args(&["--ic-max", "2m", "--f-low", "5", "--beta", "180"]);
+    a.extend(common::strs(&demo::HFE_SPREAD));
+    a.extend(["-o".to_string(), path_str(&design).to_string()]);
+    assert_exit(&common::run(&a), 0);
+    let dc: Value = json_ok(["analyze", "--json", "--design", path_str(&design)])["dc"].clone();
+    let good = format!("12 {} {} {}", dc["vb"], dc["ve"], dc["vc"]);
+    let bad = format!("12 {} {} 0.2", dc["vb"], dc["ve"]);
+    let url = format!("sqlite:{}", temp(TAG, "station.db").display());
+    let log = temp(TAG, "station.jsonl");
+    let input = format!("M1\n{good}\nM2\n{bad}\nM2\n{good}\n\n");
+    let out = station(
+        &design,
+        &log,
+        &[
+            "--store",
+            &url,
+            "--station",
+            "bench-m",
+            "--lot",
+            "LM",
+            "--operator",
+            "kim",
+        ],
+        &input,
+    );
+    assert!(out.status.success(), "{}", stderr(&out));
+    let rep = report(&url, &[]);
+    let d = &rep["designs"][0];
+    assert_eq!(rep["refused_records"], 0);
+    let want = expect(&[("M1", true), ("M2", false), ("M2", true)]);
+    assert_group(d, &want, "station");
+    assert_group(&d["stations"]["bench-m"], &want, "station bench-m");
+    // The log holds the same records (the store and the log are one record type).
+    let from_log = json_ok(["report", "--json", path_str(&log)]);
+    assert_group(&from_log["designs"][0], &want, "station log");
+    let lines = json_lines(&log);
+    assert_eq!(lines[0]["operator"], "kim");
+    assert_eq!(lines[0]["lot"], "LM");
+    // The store marks the second test of M2 as a retest, and the log carries the same flag.
+    let retest: Vec<bool> = lines
+        .iter()
+        .map(|l| l["retest"].as_bool().unwrap())
+        .collect();
+    assert_eq!(retest, [false, false, true]);
 }

@@ -16,7 +16,7 @@ use crate::device::Profile;
 use crate::lowfreq;
 use crate::signal::{source_gain, swing};
 use crate::solve::{solve, Conditions, OperatingPoint, Region};
-use crate::stage::{Part, Stage};
+use crate::stage::{Part, Resistor, Stage};
 
 use super::{Check, Requirement};
 
@@ -175,10 +175,14 @@ fn pole_sum_low(stage: &Stage, op: &OperatingPoint) -> f64 {
     lowfreq::pole_sum(&s, op)
 }
 
+/// Most factors of the corners: the five resistors, hFE and the ambient.
+const HELD_FACTORS: usize = 7;
+const _: () = assert!(HELD_FACTORS == Resistor::ALL.len() + 2);
+
 /// What `stage` (with its capacitors) holds over every corner of `req`'s spread, checked with
 /// the exact engine.
 pub fn held(req: &Requirement, profile: &Profile, stage: &Stage) -> Held {
-    let mut factors: heapless::Vec<Factor, 7> = heapless::Vec::new();
+    let mut factors: heapless::Vec<Factor, HELD_FACTORS> = heapless::Vec::new();
     for (k, p) in [stage.r1, stage.r2, stage.rc, stage.re1, stage.re2]
         .iter()
         .enumerate()

@@ -3,7 +3,7 @@
 use core::fmt;
 
 use crate::solve::OperatingPoint;
-use crate::stage::{Polarity, Stage};
+use crate::stage::{Capacitor, Polarity, Resistor, Stage};
 use crate::units::{Eng, Fixed};
 
 /// RE1 below this multiple of re = VT/IE lets the junction set a large part of the gain
@@ -19,28 +19,12 @@ pub const RESISTOR_HIGH: f64 = 1e6;
 pub const ELECTROLYTIC_FROM: f64 = 1e-6;
 /// Most warnings of one part set.
 pub const MAX_WARNINGS: usize = 10;
+// Every warning fits: one for the junction, one for the divider, one per resistor and one per
+// capacitor.
+const _: () = assert!(MAX_WARNINGS == 2 + Resistor::ALL.len() + Capacitor::ALL.len());
 
-/// Which capacitor.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Cap {
-    /// Input coupling.
-    Cin,
-    /// Output coupling.
-    Cout,
-    /// Emitter bypass.
-    Ce,
-}
-
-impl Cap {
-    /// The trade's name.
-    pub fn name(self) -> &'static str {
-        match self {
-            Self::Cin => "CIN",
-            Self::Cout => "COUT",
-            Self::Ce => "CE",
-        }
-    }
-}
+/// Which capacitor (the stage's own designators).
+pub use crate::stage::Capacitor as Cap;
 
 /// One warning.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -1,7 +1,10 @@
 //! SVG pictures for the HTML report: the individuals chart of a node in test order and the
 //! histogram of its readings against the window at the nominal supply.
 
+use plotters::coord::ranged1d::{AsRangedCoord, ValueFormatter};
+use plotters::coord::Shift;
 use plotters::prelude::*;
+use thiserror::Error;
 
 use super::stats::Chart;
 
@@ -19,12 +22,58 @@ pub struct NodePlot<'a> {
     pub chart: Option<&'a Chart>,
 }
 
-fn err(e: impl std::fmt::Display) -> String {
-    e.to_string()
+/// Why a picture could not be drawn (what the drawing library says).
+#[derive(Debug, Error)]
+#[error("{why}")]
+pub struct DrawError {
+    /// What the drawing library says.
+    pub why: String,
+}
+
+fn err(e: impl std::fmt::Display) -> DrawError {
+    DrawError { why: e.to_string() }
+}
+
+/// A chart of `X` by `Y` on the backend `DB`.
+type Frame<'a, DB, X, Y> = ChartContext<
+    'a,
+    DB,
+    Cartesian2d<<X as AsRangedCoord>::CoordDescType, <Y as AsRangedCoord>::CoordDescType>,
+>;
+
+/// The frame of a picture: the caption over a chart of `x` by `y`, `y_labels` pixels for the
+/// value labels, with its mesh drawn.
+fn frame<'a, DB, X, Y>(
+    root: &'a DrawingArea<DB, Shift>,
+    caption: String,
+    y_labels: u32,
+    x: X,
+    y: Y,
+) -> Result<Frame<'a, DB, X, Y>, DrawError>
+where
+    DB: DrawingBackend,
+    X: AsRangedCoord,
+    Y: AsRangedCoord,
+    X::CoordDescType: ValueFormatter<X::Value>,
+    Y::CoordDescType: ValueFormatter<Y::Value>,
+{
+    let mut chart = ChartBuilder::on(root)
+        .caption(caption, ("sans-serif", 15))
+        .margin(10)
+        .x_label_area_size(30)
+        .y_label_area_size(y_labels)
+        .build_cartesian_2d(x, y)
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .disable_x_mesh()
+        .draw()
+        .map_err(err)?;
+    Ok(chart)
 }
 
 /// The individuals chart: points in test order, centre and control limits, signals in red.
-pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
+pub fn control(n: &NodePlot<'_>) -> Result<String, DrawError> {
     let mut svg = String::new();
     let Some(c) = n.chart else {
         return Ok(svg);
@@ -42,25 +91,12 @@ pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
         }
         let pad = 0.05 * (hi - lo);
         let len = n.values.len().max(2);
-        let mut chart = ChartBuilder::on(&root)
-            .caption(
-                format!(
-                    "{} ({}) individuals chart, first tests in test order",
-                    n.name.to_uppercase(),
-                    n.unit
-                ),
-                ("sans-serif", 15),
-            )
-            .margin(10)
-            .x_label_area_size(30)
-            .y_label_area_size(60)
-            .build_cartesian_2d(0..len, (lo - pad)..(hi + pad))
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .disable_x_mesh()
-            .draw()
-            .map_err(err)?;
+        let caption = format!(
+            "{} ({}) individuals chart, first tests in test order",
+            n.name.to_uppercase(),
+            n.unit
+        );
+        let mut chart = frame(&root, caption, 60, 0..len, (lo - pad)..(hi + pad))?;
         chart
             .draw_series(LineSeries::new(
                 n.values.iter().enumerate().map(|(i, v)| (i, *v)),
@@ -89,7 +125,7 @@ pub fn control(n: &NodePlot<'_>) -> Result<String, String> {
 }
 
 /// Histogram of the readings with the window at the nominal supply dashed.
-pub fn histogram(n: &NodePlot<'_>) -> Result<String, String> {
+pub fn histogram(n: &NodePlot<'_>) -> Result<String, DrawError> {
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (480, 300)).into_drawing_area();
@@ -115,25 +151,12 @@ pub fn histogram(n: &NodePlot<'_>) -> Result<String, String> {
             }
         }
         let top = counts.iter().copied().max().unwrap_or(1).max(1);
-        let mut chart = ChartBuilder::on(&root)
-            .caption(
-                format!(
-                    "{} ({}) at the nominal supply; window dashed",
-                    n.name.to_uppercase(),
-                    n.unit
-                ),
-                ("sans-serif", 15),
-            )
-            .margin(10)
-            .x_label_area_size(30)
-            .y_label_area_size(40)
-            .build_cartesian_2d(lo..hi, 0u32..top + 1)
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .disable_x_mesh()
-            .draw()
-            .map_err(err)?;
+        let caption = format!(
+            "{} ({}) at the nominal supply; window dashed",
+            n.name.to_uppercase(),
+            n.unit
+        );
+        let mut chart = frame(&root, caption, 40, lo..hi, 0u32..top + 1)?;
         chart
             .draw_series(counts.iter().enumerate().map(|(k, c)| {
                 let x0 = lo + width * k as f64;

@@ -358,7 +358,7 @@ fn escape(s: &str) -> String {
 }
 
 /// The HTML page: per design its text figures, then per node the control chart and histogram.
-pub fn html(a: &Analysis, filter_note: &str) -> Result<String, String> {
+pub fn html(a: &Analysis, filter_note: &str) -> Result<String, charts::DrawError> {
     let mut page = String::from(
         "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>biasjig line report</title>\
          <style>body{font-family:sans-serif;margin:2em}pre{background:#f4f4f4;padding:1em}\

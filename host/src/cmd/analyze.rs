@@ -6,9 +6,10 @@ use biasjig_core::predict::predict;
 use biasjig_core::solve::{Conditions, Region};
 use serde_json::json;
 
-use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::stage_args::{InputArgs, StageArgs};
-use crate::{json, text, Global};
+use crate::Global;
+use biasjig::error::{CliError, CmdResult, EXIT_OK};
+use biasjig::stage_args::{InputArgs, StageArgs};
+use biasjig::{json, text};
 
 /// `biasjig analyze`: give the stage by flags or `--design FILE`.
 #[derive(clap::Args, Debug)]

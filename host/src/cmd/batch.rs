@@ -5,7 +5,7 @@
 //! test frequency in the value grammar (`gain@1k`, `gain@20`; at most 4): each cell the gain
 //! magnitude read at F, an empty cell when not read. The file is read one line at a time (bounded memory
 //! whatever its length); a row is one line (no quoted line breaks), LF or CRLF, at most
-//! [`crate::readings::MAX_ROW`] bytes. A bad row (not UTF-8, too long, a value that is not a number, no serial)
+//! [`biasjig::readings::MAX_ROW`] bytes. A bad row (not UTF-8, too long, a value that is not a number, no serial)
 //! is refused alone with its line number, and loses no other row. A serial given again is said
 //! and recorded as a retest.
 //!
@@ -25,14 +25,15 @@ use std::path::PathBuf;
 
 use serde_json::{json, Value};
 
-use crate::board::{from_outcome, Recorder, RunInfo};
-use crate::cmd::check::{evaluate, outcome_json, Outcome, Station};
-use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK, EXIT_USAGE};
-use crate::readings::Rows;
-use crate::record::{hex_digest, Source};
-use crate::stage_args::{InputArgs, StageArgs, TestArgs};
-use crate::store::TraceArgs;
 use crate::Global;
+use biasjig::board::{from_outcome, Recorder, RunInfo};
+use biasjig::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK, EXIT_USAGE};
+use biasjig::readings::Rows;
+use biasjig::record::{hex_digest, Source};
+use biasjig::stage_args::{InputArgs, StageArgs, TestArgs};
+use biasjig::store::TraceArgs;
+use biasjig::verdict::json::outcome_json;
+use biasjig::verdict::{describe, evaluate, Outcome, Station};
 
 /// At most this many bad rows are listed in the JSON document (all are counted and all are
 /// named on stderr).
@@ -125,7 +126,7 @@ impl Cmd {
                 Err(msg) => {
                     t.bad += 1;
                     eprintln!("biasjig: {name}: line {n}: {msg}");
-                    js.error(json!({"line": n, "message": msg}));
+                    js.error(json!({"line": n, "message": msg.to_string()}));
                     continue;
                 }
             };
@@ -252,7 +253,7 @@ fn summary_line(st: &Station, o: &Outcome) -> String {
         Outcome::Judged(j) => j.diagnosis.as_ref().map_or(String::new(), |d| {
             d.faults()
                 .next()
-                .map_or(String::new(), |h| crate::cmd::check::describe(&st.stage, h))
+                .map_or(String::new(), |h| describe(&st.stage, h))
         }),
     }
 }

@@ -9,14 +9,13 @@
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
-use biasjig_core::solve::{solve, Conditions};
-use biasjig_core::stage::{DeviceFault, Fault, Readings, Resistor, Stage};
-use rand_core::{Rng, SeedableRng};
+use rand_core::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
-use crate::designfile;
-use crate::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 use crate::Global;
+use biasjig::demo::{board, planted_fault, words, REQUIREMENT, TRANSISTOR};
+use biasjig::designfile;
+use biasjig::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
 
 /// `biasjig demo`: no arguments needed.
 #[derive(clap::Args, Debug)]
@@ -30,54 +29,6 @@ pub struct Cmd {
     /// Seed of the simulated lot
     #[arg(long, default_value_t = 2026)]
     seed: u64,
-}
-
-/// The demo requirement as command-line arguments (the scenario of the product brief), held at
-/// every corner of the spread: the gain within ±12 % (with 5 % resistors, hFE 100 to 300 and
-/// -10 to 55 °C, ±10 % is just out of reach: `design` says so and by how much).
-const REQUIREMENT: [&str; 26] = [
-    "--vcc",
-    "12",
-    "--gain",
-    "15",
-    "--gain-tol",
-    "12",
-    "--rl",
-    "15k",
-    "--rs",
-    "600",
-    "--ic-max",
-    "2m",
-    "--f-low",
-    "5",
-    "--temp-min",
-    "-10",
-    "--temp-max",
-    "55",
-    "--beta",
-    "180",
-    "--beta-min",
-    "100",
-    "--beta-max",
-    "300",
-    "--series",
-    "E24",
-];
-
-/// The invented transistor profile beyond hFE: VBE 0.65 V at 1 mA, VCE(sat) 0.2 V, 300 mW.
-const TRANSISTOR: [&str; 6] = ["--vbe", "0.65", "--vce-sat", "0.2", "--power-rating", "0.3"];
-
-/// Boards of the lot that carry a fault, by position, and the fault.
-fn planted_fault(index: u32, stage: &Stage) -> Option<(Option<Fault>, Option<DeviceFault>)> {
-    match index {
-        7 => Some((
-            Some(Fault::Value(Resistor::Rc, stage.rc.value * 10.0)),
-            None,
-        )),
-        19 => Some((Some(Fault::Open(Resistor::Re2)), None)),
-        31 => Some((None, Some(DeviceFault::BeShort))),
-        _ => None,
-    }
 }
 
 fn heading(title: &str) {
@@ -97,45 +48,6 @@ fn run(args: &[&str]) -> CmdResult {
 
 fn path_str(p: &Path) -> String {
     p.to_string_lossy().into_owned()
-}
-
-/// Simulate one board: every resistor within its tolerance, hFE within its spread, the station's
-/// ambient and supply, optionally a fault; readings with a few millivolts of meter noise.
-fn board(
-    doc: &designfile::DesignDoc,
-    rng: &mut Xoshiro256PlusPlus,
-    fault: Option<(Option<Fault>, Option<DeviceFault>)>,
-) -> Option<Readings> {
-    let mut uniform = |lo: f64, hi: f64| {
-        let u = (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64;
-        lo + (hi - lo) * u
-    };
-    let mut s = doc.stage;
-    for r in Resistor::ALL {
-        let p = s.part_mut(r);
-        p.value *= 1.0 + p.tol * uniform(-1.0, 1.0);
-    }
-    s.vcc.value = uniform(11.8, 12.2);
-    let beta = uniform(doc.profile.beta_min, doc.profile.beta_max);
-    let temp = uniform(20.0, 30.0);
-    let (rf, df) = fault.unwrap_or((None, None));
-    if let Some(f) = rf {
-        s = s.with_fault(f);
-    }
-    let cond = Conditions {
-        temp_c: temp,
-        beta_25: beta,
-        fault: df,
-        loads: Default::default(),
-    };
-    let op = solve(&s, &doc.profile, cond).ok()?;
-    let mut noisy = |v: f64| v + uniform(-0.003, 0.003);
-    Some(Readings {
-        vcc: noisy(s.vcc.value),
-        vb: noisy(op.vb),
-        ve: noisy(op.ve),
-        vc: noisy(op.vc),
-    })
 }
 
 impl Cmd {
@@ -182,8 +94,8 @@ impl Cmd {
 
         heading("1. Design: from the requirement to standard parts");
         let mut args: Vec<&str> = vec!["design"];
-        args.extend_from_slice(&REQUIREMENT);
-        args.extend_from_slice(&TRANSISTOR);
+        args.extend(words(&REQUIREMENT));
+        args.extend(words(&TRANSISTOR));
         let design_s = path_str(&design);
         args.extend_from_slice(&["--id", "pump-preamp-demo", "-o", &design_s]);
         run(&args)?;

@@ -9,11 +9,12 @@ use std::path::PathBuf;
 
 use serde_json::{json, Value};
 
-use crate::boardlog;
-use crate::error::{CliError, CmdResult, EXIT_OK, EXIT_USAGE};
-use crate::record::{BoardRecord, RepairRecord};
-use crate::store::{self, IMPORT_CHUNK};
-use crate::{json, Global};
+use crate::Global;
+use biasjig::boardlog;
+use biasjig::error::{CliError, CmdResult, EXIT_OK, EXIT_USAGE};
+use biasjig::json;
+use biasjig::record::{BoardRecord, RepairRecord};
+use biasjig::store::{self, IMPORT_CHUNK};
 
 /// At most this many refused lines are named one by one on stderr (all are counted).
 const NAMED: usize = 50;
@@ -48,7 +49,7 @@ impl Cmd {
         for log in &self.logs {
             let name = log.display().to_string();
             let mut named = 0usize;
-            boardlog::for_each(
+            boardlog::for_each::<CliError>(
                 log,
                 |line, v: Value| {
                     if v.get("kind").and_then(Value::as_str) == Some("repair") {

@@ -12,15 +12,14 @@ use biasjig_core::signaltest::{self, Proposal, ToneWindow, MAX_TONES};
 use biasjig_core::spread::{centre, Node, Sample, Variation};
 use serde_json::{json, Map, Value};
 
-use crate::cmd::check::{
-    board_windows, inputs_region_warning, overrides_json, settings_json, settings_text, Station,
-    Warning,
-};
-use crate::cmd::spread::spread_error;
-use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::stage_args::{InputArgs, StageArgs, TestArgs};
-use crate::text::eng4;
-use crate::{json, values, Global};
+use crate::Global;
+use biasjig::error::{CliError, CmdResult, EXIT_OK};
+use biasjig::stage_args::{spread_error, InputArgs, StageArgs, TestArgs};
+use biasjig::text::eng4;
+use biasjig::verdict::json::{overrides_json, settings_json};
+use biasjig::verdict::text::settings_text;
+use biasjig::verdict::{board_windows, inputs_region_warning, Station, Warning};
+use biasjig::{json, values};
 
 /// The nodes that have windows, in report order.
 pub const NODES: [Node; 6] = [Node::Vb, Node::Ve, Node::Vc, Node::Vbe, Node::Vce, Node::Ic];
@@ -116,7 +115,7 @@ impl Cmd {
             _ => None,
         };
         if let Some(path) = &self.csv {
-            crate::board::write_limits_csv(path, &w, &st)?;
+            biasjig::board::write_limits_csv(path, &w, &st)?;
         }
         if g.json {
             let mut doc = to_json(&w, t);

@@ -1,7 +1,8 @@
 //! `biasjig ports`: list the serial ports this machine has.
 
-use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::{json, Global};
+use crate::Global;
+use biasjig::error::{CliError, CmdResult, EXIT_OK};
+use biasjig::json;
 
 /// `biasjig ports`.
 #[derive(clap::Args, Debug)]

@@ -6,9 +6,10 @@ use std::path::PathBuf;
 
 use serde_json::json;
 
-use crate::error::{CliError, CmdResult, EXIT_OK};
-use crate::record::{self, RepairRecord};
-use crate::{boardlog, clock, json, store, Global};
+use crate::Global;
+use biasjig::error::{CliError, CmdResult, EXIT_OK};
+use biasjig::record::{self, RepairRecord};
+use biasjig::{boardlog, clock, json, store};
 
 /// Parts a repair may name (as `check` names them).
 pub const PARTS: [&str; 9] = ["R1", "R2", "RC", "RE1", "RE2", "Q", "CIN", "COUT", "CE"];

@@ -5,18 +5,19 @@
 //! readings, and a record that is not whole (an edited verdict, a bare `{"verdict":"pass"}`) is
 //! refused with its line and left out (exit 2 after the report). Damaged lines of a log (a torn
 //! last line) are skipped with a warning. A record met twice (a log given twice, a log and the
-//! store it was imported into) counts once. See [`crate::analysis`] for the figures.
+//! store it was imported into) counts once. See [`biasjig::analysis`] for the figures.
 
 use std::collections::HashSet;
 use std::path::{Path, PathBuf};
 
 use serde_json::{json, Value};
 
-use crate::analysis::{render, Analysis};
-use crate::error::{CliError, CmdResult, EXIT_OK, EXIT_USAGE};
-use crate::record::{BoardRecord, RepairRecord};
-use crate::store::{self, Filter};
-use crate::{boardlog, clock, json, Global};
+use crate::Global;
+use biasjig::analysis::{render, Analysis};
+use biasjig::error::{CliError, CmdResult, EXIT_OK, EXIT_USAGE};
+use biasjig::record::{BoardRecord, RepairRecord};
+use biasjig::store::{self, Filter};
+use biasjig::{boardlog, clock, json};
 
 /// At most this many refused records are named one by one on stderr.
 const NAMED: usize = 50;
@@ -78,7 +79,7 @@ struct Loaded {
 
 /// Write a file whole: a temporary file beside it, then a rename.
 fn write_atomic(path: &Path, text: &str) -> std::io::Result<()> {
-    crate::designfile::write_atomic(path, text.as_bytes())
+    biasjig::files::write_atomic(path, text.as_bytes())
 }
 
 impl Cmd {
@@ -102,7 +103,7 @@ impl Cmd {
             None => Vec::new(),
         };
         for log in &self.logs {
-            boardlog::for_each(
+            boardlog::for_each::<CliError>(
                 log,
                 |_, v| {
                     if v.get("kind").and_then(Value::as_str) == Some("repair") {
@@ -137,7 +138,7 @@ impl Cmd {
             let name = log.display().to_string();
             let mut refused = 0u64;
             let mut skipped = 0u64;
-            boardlog::for_each(
+            boardlog::for_each::<CliError>(
                 log,
                 |line, v| {
                     if v.get("kind").and_then(Value::as_str) == Some("repair") {
@@ -246,7 +247,7 @@ impl Cmd {
         std::fs::create_dir_all(dir).map_err(|e| bad(e.to_string()))?;
         for d in &a.designs {
             for n in render::nodes(d) {
-                let p = crate::analysis::charts::NodePlot {
+                let p = biasjig::analysis::charts::NodePlot {
                     name: n.name,
                     unit: n.unit,
                     values: &n.values,
@@ -254,10 +255,13 @@ impl Cmd {
                     chart: n.chart.as_ref(),
                 };
                 for (kind, svg) in [
-                    ("chart", crate::analysis::charts::control(&p).map_err(&bad)?),
+                    (
+                        "chart",
+                        biasjig::analysis::charts::control(&p).map_err(|e| bad(e.to_string()))?,
+                    ),
                     (
                         "histogram",
-                        crate::analysis::charts::histogram(&p).map_err(&bad)?,
+                        biasjig::analysis::charts::histogram(&p).map_err(|e| bad(e.to_string()))?,
                     ),
                 ] {
                     let f = dir.join(format!("{}-{}-{kind}.svg", d.hash, n.name));

@@ -7,76 +7,105 @@ use serde::Serialize;
 use super::StoreError;
 use crate::record::{BoardRecord, DcReadings, DesignRef, Outcome, RepairRecord};
 
-/// The columns of `tests` in the order of [`COLUMNS`] (without `seq`).
-#[derive(Debug, Clone, PartialEq)]
-pub struct Row {
-    pub record_id: String,
-    pub time_utc: String,
-    pub time_ms: i64,
-    pub serial: String,
-    pub design_hash: String,
-    pub design_id: String,
-    pub design_digest: Option<String>,
-    pub settings_hash: Option<String>,
-    pub overrides: Option<String>,
-    pub station: String,
-    pub operator: Option<String>,
-    pub lot: Option<String>,
-    pub tool_version: String,
-    pub firmware_version: Option<String>,
-    pub retest: bool,
-    pub source: Option<String>,
-    pub vcc: Option<f64>,
-    pub vb: Option<f64>,
-    pub ve: Option<f64>,
-    pub vc: Option<f64>,
-    pub verdict: String,
-    pub reason: Option<String>,
-    pub windows: String,
-    pub signal: Option<String>,
-    pub nominal: Option<String>,
-    pub derived: Option<String>,
-    pub faults: String,
-    pub explained: Option<bool>,
-    pub supply: Option<String>,
-    pub settings: Option<String>,
-    pub typed: Option<String>,
+/// A result row of either backend, read a column at a time by position.
+pub trait ColumnSource {
+    /// The backend's error.
+    type Error;
+    /// Column `i` of the row.
+    fn column<T: ColumnValue>(&self, i: usize) -> Result<T, Self::Error>;
 }
 
-/// The column names of `tests`, in bind order.
-pub const COLUMNS: [&str; 31] = [
-    "record_id",
-    "time_utc",
-    "time_ms",
-    "serial",
-    "design_hash",
-    "design_id",
-    "design_digest",
-    "settings_hash",
-    "overrides",
-    "station",
-    "operator",
-    "lot",
-    "tool_version",
-    "firmware_version",
-    "retest",
-    "source",
-    "vcc",
-    "vb",
-    "ve",
-    "vc",
-    "verdict",
-    "reason",
-    "windows",
-    "signal",
-    "nominal",
-    "derived",
-    "faults",
-    "explained",
-    "supply",
-    "settings",
-    "typed",
-];
+/// A column value both backends read.
+pub trait ColumnValue: rusqlite::types::FromSql + for<'a> ::postgres::types::FromSql<'a> {}
+
+impl<T: rusqlite::types::FromSql + for<'a> ::postgres::types::FromSql<'a>> ColumnValue for T {}
+
+/// A table's row type, its column names in bind order (the fields' names, in the same order),
+/// the row read from either backend and its values for either backend: the column list is
+/// written once.
+macro_rules! table_row {
+    ($(#[$doc:meta])* $row:ident, $names:ident, { $($field:ident: $ty:ty),* $(,)? }) => {
+        $(#[$doc])*
+        #[derive(Debug, Clone, PartialEq)]
+        pub struct $row {
+            $(pub $field: $ty,)*
+        }
+
+        /// The column names of the row, in bind order.
+        pub const $names: &[&str] = &[$(stringify!($field)),*];
+
+        impl $row {
+            /// The row from a backend's result row (the columns in bind order).
+            pub fn read<C: ColumnSource>(c: &C) -> Result<Self, C::Error> {
+                let mut i = 0usize..;
+                Ok(Self {
+                    $($field: c.column(i.next().unwrap_or_default())?,)*
+                })
+            }
+
+            /// The values in bind order, for SQLite.
+            pub fn sqlite_values(&self) -> Vec<&dyn rusqlite::ToSql> {
+                vec![$(&self.$field),*]
+            }
+
+            /// The values in bind order, for PostgreSQL.
+            pub fn postgres_values(&self) -> Vec<&(dyn ::postgres::types::ToSql + Sync)> {
+                vec![$(&self.$field),*]
+            }
+        }
+    };
+}
+
+table_row!(
+    /// The columns of `tests` (without `seq`, the arrival order the store numbers).
+    Row, COLUMNS, {
+        record_id: String,
+        time_utc: String,
+        time_ms: i64,
+        serial: String,
+        design_hash: String,
+        design_id: String,
+        design_digest: Option<String>,
+        settings_hash: Option<String>,
+        overrides: Option<String>,
+        station: String,
+        operator: Option<String>,
+        lot: Option<String>,
+        tool_version: String,
+        firmware_version: Option<String>,
+        retest: bool,
+        source: Option<String>,
+        vcc: Option<f64>,
+        vb: Option<f64>,
+        ve: Option<f64>,
+        vc: Option<f64>,
+        verdict: String,
+        reason: Option<String>,
+        windows: String,
+        signal: Option<String>,
+        nominal: Option<String>,
+        derived: Option<String>,
+        faults: String,
+        explained: Option<bool>,
+        supply: Option<String>,
+        settings: Option<String>,
+        typed: Option<String>,
+    }
+);
+
+table_row!(
+    /// The columns of `repairs` (without `seq`).
+    RepairRow, REPAIR_COLUMNS, {
+        record_id: String,
+        time_utc: String,
+        time_ms: i64,
+        serial: String,
+        part: String,
+        mode: String,
+        technician: Option<String>,
+        note: Option<String>,
+    }
+);
 
 /// The JSON columns (PostgreSQL keeps them as `jsonb`).
 pub const JSON_COLUMNS: [&str; 9] = [
@@ -192,37 +221,56 @@ impl Row {
     }
 }
 
-/// The columns of `repairs`, in bind order.
-pub const REPAIR_COLUMNS: [&str; 8] = [
-    "record_id",
-    "time_utc",
-    "time_ms",
-    "serial",
-    "part",
-    "mode",
-    "technician",
-    "note",
-];
+impl RepairRow {
+    /// The row of a repair.
+    pub fn of(r: &RepairRecord) -> Self {
+        Self {
+            record_id: r.record_id.clone(),
+            time_utc: r.time.clone(),
+            time_ms: r.time_ms(),
+            serial: r.serial.clone(),
+            part: r.part.clone(),
+            mode: r.mode.clone(),
+            technician: r.technician.clone(),
+            note: r.note.clone(),
+        }
+    }
 
-/// A repair from its columns (in [`REPAIR_COLUMNS`] order, `time_ms` left out).
-#[allow(clippy::too_many_arguments)]
-pub fn repair(
-    record_id: String,
-    time: String,
-    serial: String,
-    part: String,
-    mode: String,
-    technician: Option<String>,
-    note: Option<String>,
-) -> RepairRecord {
-    RepairRecord {
-        kind: "repair".into(),
-        record_id,
-        time,
-        serial,
-        part,
-        mode,
-        technician,
-        note,
+    /// The repair of a row.
+    pub fn record(self) -> RepairRecord {
+        RepairRecord {
+            kind: "repair".into(),
+            record_id: self.record_id,
+            time: self.time_utc,
+            serial: self.serial,
+            part: self.part,
+            mode: self.mode,
+            technician: self.technician,
+            note: self.note,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The bind order the stores used before the columns were written once (the `tests` and
+    /// `repairs` tables of migration 1).
+    #[test]
+    fn columns_keep_their_bind_order() {
+        let tests = "record_id time_utc time_ms serial design_hash design_id design_digest \
+                     settings_hash overrides station operator lot tool_version firmware_version \
+                     retest source vcc vb ve vc verdict reason windows signal nominal derived \
+                     faults explained supply settings typed";
+        assert_eq!(COLUMNS, tests.split_whitespace().collect::<Vec<_>>());
+        let repairs = "record_id time_utc time_ms serial part mode technician note";
+        assert_eq!(
+            REPAIR_COLUMNS,
+            repairs.split_whitespace().collect::<Vec<_>>()
+        );
+        for c in JSON_COLUMNS {
+            assert!(COLUMNS.contains(&c), "{c}");
+        }
     }
 }

@@ -8,7 +8,14 @@
 //! Each test is written in one transaction, keyed by its record id: stations writing at once
 //! lose and double nothing, a killed station leaves only whole tests, and writing a record that
 //! is already there (an import of the same log, a resumed batch) changes nothing.
+//!
+//! The two backends (`sqlite`, `postgres`) hold only what their server does differently; what
+//! they share is written once: `columns` (each table's columns, read and bound for either) and
+//! `backend` (migrations, one transaction per test, imports in chunks, the SQL both spell with
+//! their own parameter marks). The `.sql` migrations stay one file per dialect: their column
+//! types differ, and a migration is frozen text.
 
+mod backend;
 mod columns;
 mod postgres;
 mod sqlite;
@@ -97,6 +104,9 @@ pub struct Written {
     pub new: bool,
 }
 
+/// What [`Store::for_each_test`] calls with each test.
+pub type Visit<'a> = &'a mut dyn FnMut(BoardRecord) -> Result<(), StoreError>;
+
 /// A results store.
 pub trait Store {
     /// Write one test in one transaction. Sets `rec.retest` when the serial was tested before
@@ -112,11 +122,7 @@ pub trait Store {
     /// Record a repair; false when it was already there.
     fn insert_repair(&mut self, rep: &RepairRecord) -> Result<bool, StoreError>;
     /// Visit the tests that pass the filter in test order (time, then arrival), one at a time.
-    fn for_each_test(
-        &mut self,
-        filter: &Filter,
-        f: &mut dyn FnMut(BoardRecord) -> Result<(), StoreError>,
-    ) -> Result<(), StoreError>;
+    fn for_each_test(&mut self, filter: &Filter, f: Visit<'_>) -> Result<(), StoreError>;
     /// Every repair, in time order.
     fn repairs(&mut self) -> Result<Vec<RepairRecord>, StoreError>;
     /// For a batch: commits no longer wait for the disk (SQLite `synchronous = NORMAL` in its

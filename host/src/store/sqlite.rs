@@ -5,10 +5,13 @@
 use std::path::Path;
 use std::time::Duration;
 
-use rusqlite::{params, params_from_iter, Connection, OptionalExtension, TransactionBehavior};
+use rusqlite::{
+    params, params_from_iter, Connection, OptionalExtension, Transaction, TransactionBehavior,
+};
 
-use super::columns::{repair, Row, COLUMNS, REPAIR_COLUMNS};
-use super::{Filter, Store, StoreError, Written, IMPORT_CHUNK, SCHEMA_VERSION};
+use super::backend::{self, Migrate, Transactions, SQLITE};
+use super::columns::{ColumnSource, ColumnValue, RepairRow, Row, COLUMNS};
+use super::{Filter, Store, StoreError, Visit, Written};
 use crate::record::{BoardRecord, RepairRecord};
 
 /// The migrations, in order: (version, SQL).
@@ -47,7 +50,9 @@ impl Sqlite {
         conn.pragma_update(None, "journal_mode", "WAL")?;
         conn.pragma_update(None, "synchronous", "FULL")?;
         conn.pragma_update(None, "foreign_keys", "ON")?;
-        migrate(&mut conn)?;
+        let mut tx = conn.transaction_with_behavior(TransactionBehavior::Immediate)?;
+        backend::migrate(SQLITE, &mut tx, &MIGRATIONS)?;
+        tx.commit()?;
         Ok(Self { conn })
     }
 }
@@ -60,157 +65,75 @@ fn is_busy(e: &rusqlite::Error) -> bool {
     )
 }
 
-fn migrate(conn: &mut Connection) -> Result<(), StoreError> {
-    let tx = conn.transaction_with_behavior(TransactionBehavior::Immediate)?;
-    tx.execute_batch(
-        "CREATE TABLE IF NOT EXISTS biasjig_schema (
-             version INTEGER PRIMARY KEY, applied_utc TEXT NOT NULL)",
-    )?;
-    let have: i64 = tx.query_row(
-        "SELECT COALESCE(MAX(version), 0) FROM biasjig_schema",
-        [],
-        |r| r.get(0),
-    )?;
-    if have > SCHEMA_VERSION {
-        return Err(StoreError::Schema {
-            found: have,
-            known: SCHEMA_VERSION,
-        });
+impl Migrate for Transaction<'_> {
+    fn batch(&mut self, sql: &str) -> Result<(), StoreError> {
+        Ok(self.execute_batch(sql)?)
     }
-    for (v, sql) in MIGRATIONS {
-        if v > have {
-            tx.execute_batch(sql)?;
-            tx.execute(
-                "INSERT INTO biasjig_schema (version, applied_utc) VALUES (?1, ?2)",
-                params![v, crate::clock::now_utc()],
-            )?;
-        }
+
+    fn version(&mut self) -> Result<i64, StoreError> {
+        Ok(self.query_row(backend::SCHEMA_VERSION_SQL, [], |r| r.get(0))?)
     }
-    tx.commit()?;
-    Ok(())
+
+    fn applied(&mut self, v: i64, utc: &str) -> Result<(), StoreError> {
+        self.execute(&backend::applied_sql(SQLITE), params![v, utc])?;
+        Ok(())
+    }
+}
+
+impl ColumnSource for rusqlite::Row<'_> {
+    type Error = rusqlite::Error;
+
+    fn column<T: ColumnValue>(&self, i: usize) -> Result<T, Self::Error> {
+        self.get(i)
+    }
 }
 
 fn insert_sql() -> String {
-    let marks: Vec<String> = (1..=COLUMNS.len()).map(|k| format!("?{k}")).collect();
     format!(
         "INSERT INTO tests ({}) VALUES ({}) ON CONFLICT (record_id) DO NOTHING",
         COLUMNS.join(", "),
-        marks.join(", ")
+        SQLITE.params(COLUMNS.len())
     )
 }
 
-/// Write one record inside an open transaction.
-fn insert_in(tx: &rusqlite::Transaction<'_>, rec: &mut BoardRecord) -> Result<bool, StoreError> {
-    let before: bool = tx
-        .prepare_cached(
-            "SELECT EXISTS (SELECT 1 FROM tests WHERE serial = ?1 AND design_hash = ?2 \
-             AND record_id <> ?3)",
-        )?
-        .query_row(params![rec.serial, rec.design.hash, rec.record_id], |r| {
-            r.get(0)
-        })?;
-    rec.retest |= before;
-    let row = Row::of(rec);
-    let n = tx.prepare_cached(&insert_sql())?.execute(params![
-        row.record_id,
-        row.time_utc,
-        row.time_ms,
-        row.serial,
-        row.design_hash,
-        row.design_id,
-        row.design_digest,
-        row.settings_hash,
-        row.overrides,
-        row.station,
-        row.operator,
-        row.lot,
-        row.tool_version,
-        row.firmware_version,
-        row.retest,
-        row.source,
-        row.vcc,
-        row.vb,
-        row.ve,
-        row.vc,
-        row.verdict,
-        row.reason,
-        row.windows,
-        row.signal,
-        row.nominal,
-        row.derived,
-        row.faults,
-        row.explained,
-        row.supply,
-        row.settings,
-        row.typed,
-    ])?;
-    Ok(n == 1)
-}
+impl Transactions for Sqlite {
+    type Tx<'a> = Transaction<'a>;
 
-fn row_of(r: &rusqlite::Row<'_>) -> rusqlite::Result<Row> {
-    Ok(Row {
-        record_id: r.get(0)?,
-        time_utc: r.get(1)?,
-        time_ms: r.get(2)?,
-        serial: r.get(3)?,
-        design_hash: r.get(4)?,
-        design_id: r.get(5)?,
-        design_digest: r.get(6)?,
-        settings_hash: r.get(7)?,
-        overrides: r.get(8)?,
-        station: r.get(9)?,
-        operator: r.get(10)?,
-        lot: r.get(11)?,
-        tool_version: r.get(12)?,
-        firmware_version: r.get(13)?,
-        retest: r.get(14)?,
-        source: r.get(15)?,
-        vcc: r.get(16)?,
-        vb: r.get(17)?,
-        ve: r.get(18)?,
-        vc: r.get(19)?,
-        verdict: r.get(20)?,
-        reason: r.get(21)?,
-        windows: r.get(22)?,
-        signal: r.get(23)?,
-        nominal: r.get(24)?,
-        derived: r.get(25)?,
-        faults: r.get(26)?,
-        explained: r.get(27)?,
-        supply: r.get(28)?,
-        settings: r.get(29)?,
-        typed: r.get(30)?,
-    })
+    fn begin(&mut self) -> Result<Transaction<'_>, StoreError> {
+        Ok(self
+            .conn
+            .transaction_with_behavior(TransactionBehavior::Immediate)?)
+    }
+
+    fn insert_in(tx: &mut Transaction<'_>, rec: &mut BoardRecord) -> Result<bool, StoreError> {
+        let before: bool = tx
+            .prepare_cached(
+                "SELECT EXISTS (SELECT 1 FROM tests WHERE serial = ?1 AND design_hash = ?2 \
+                 AND record_id <> ?3)",
+            )?
+            .query_row(params![rec.serial, rec.design.hash, rec.record_id], |r| {
+                r.get(0)
+            })?;
+        rec.retest |= before;
+        let row = Row::of(rec);
+        let n = tx
+            .prepare_cached(&insert_sql())?
+            .execute(params_from_iter(row.sqlite_values()))?;
+        Ok(n == 1)
+    }
+
+    fn commit(tx: Transaction<'_>) -> Result<(), StoreError> {
+        Ok(tx.commit()?)
+    }
 }
 
 impl Store for Sqlite {
-    fn insert(&mut self, rec: &mut BoardRecord) -> Result<Written, StoreError> {
-        let tx = self
-            .conn
-            .transaction_with_behavior(TransactionBehavior::Immediate)?;
-        let new = insert_in(&tx, rec)?;
-        tx.commit()?;
-        Ok(Written { new })
-    }
-
-    fn insert_many(&mut self, recs: &mut [BoardRecord]) -> Result<usize, StoreError> {
-        let mut new = 0;
-        for chunk in recs.chunks_mut(IMPORT_CHUNK) {
-            let tx = self
-                .conn
-                .transaction_with_behavior(TransactionBehavior::Immediate)?;
-            for rec in chunk {
-                new += usize::from(insert_in(&tx, rec)?);
-            }
-            tx.commit()?;
-        }
-        Ok(new)
-    }
+    backend::writes_by_transactions!();
 
     fn contains(&mut self, record_id: &str) -> Result<bool, StoreError> {
         Ok(self
             .conn
-            .prepare_cached("SELECT 1 FROM tests WHERE record_id = ?1")?
+            .prepare_cached(&backend::contains_sql(SQLITE))?
             .query_row([record_id], |_| Ok(()))
             .optional()?
             .is_some())
@@ -219,44 +142,22 @@ impl Store for Sqlite {
     fn tests_of(&mut self, serial: &str, design_hash: &str) -> Result<u64, StoreError> {
         let n: i64 = self
             .conn
-            .prepare_cached("SELECT COUNT(*) FROM tests WHERE serial = ?1 AND design_hash = ?2")?
+            .prepare_cached(&backend::tests_of_sql(SQLITE))?
             .query_row([serial, design_hash], |r| r.get(0))?;
-        Ok(u64::try_from(n).unwrap_or(0))
+        Ok(backend::count(n))
     }
 
     fn insert_repair(&mut self, rep: &RepairRecord) -> Result<bool, StoreError> {
-        let sql = format!(
-            "INSERT INTO repairs ({}) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8) \
-             ON CONFLICT (record_id) DO NOTHING",
-            REPAIR_COLUMNS.join(", ")
-        );
+        let row = RepairRow::of(rep);
         let n = self.conn.execute(
-            &sql,
-            params![
-                rep.record_id,
-                rep.time,
-                rep.time_ms(),
-                rep.serial,
-                rep.part,
-                rep.mode,
-                rep.technician,
-                rep.note
-            ],
+            &backend::insert_repair_sql(SQLITE),
+            params_from_iter(row.sqlite_values()),
         )?;
         Ok(n == 1)
     }
 
-    fn for_each_test(
-        &mut self,
-        filter: &Filter,
-        f: &mut dyn FnMut(BoardRecord) -> Result<(), StoreError>,
-    ) -> Result<(), StoreError> {
-        let sql = format!(
-            "SELECT {} FROM tests WHERE (?1 IS NULL OR station = ?1) AND (?2 IS NULL OR lot = ?2) \
-             AND (?3 IS NULL OR time_ms >= ?3) AND (?4 IS NULL OR time_ms <= ?4) \
-             ORDER BY time_ms, seq",
-            COLUMNS.join(", ")
-        );
+    fn for_each_test(&mut self, filter: &Filter, f: Visit<'_>) -> Result<(), StoreError> {
+        let sql = backend::filtered_tests_sql(SQLITE, &COLUMNS.join(", "), "", "");
         let mut stmt = self.conn.prepare(&sql)?;
         let p: [rusqlite::types::Value; 4] = [
             filter.station.clone().into(),
@@ -266,27 +167,14 @@ impl Store for Sqlite {
         ];
         let mut rows = stmt.query(params_from_iter(p.iter()))?;
         while let Some(r) = rows.next()? {
-            f(row_of(r)?.record()?)?;
+            f(Row::read(r)?.record()?)?;
         }
         Ok(())
     }
 
     fn repairs(&mut self) -> Result<Vec<RepairRecord>, StoreError> {
-        let mut stmt = self.conn.prepare(
-            "SELECT record_id, time_utc, serial, part, mode, technician, note FROM repairs \
-             ORDER BY time_ms, seq",
-        )?;
-        let rows = stmt.query_map([], |r| {
-            Ok(repair(
-                r.get(0)?,
-                r.get(1)?,
-                r.get(2)?,
-                r.get(3)?,
-                r.get(4)?,
-                r.get(5)?,
-                r.get(6)?,
-            ))
-        })?;
+        let mut stmt = self.conn.prepare(&backend::repairs_sql())?;
+        let rows = stmt.query_map([], |r| RepairRow::read(r).map(RepairRow::record))?;
         Ok(rows.collect::<Result<_, _>>()?)
     }
 
@@ -297,6 +185,6 @@ impl Store for Sqlite {
     fn schema_version(&mut self) -> Result<i64, StoreError> {
         Ok(self
             .conn
-            .query_row("SELECT MAX(version) FROM biasjig_schema", [], |r| r.get(0))?)
+            .query_row(backend::MAX_VERSION_SQL, [], |r| r.get(0))?)
     }
 }
