@@ -9,7 +9,7 @@ use crate::device::Profile;
 #[cfg(feature = "signal-test")]
 use crate::response;
 use crate::response::{CapState, Caps};
-use crate::settings::TestSettings;
+use crate::settings::{ReadNode, TestSettings};
 use crate::solve::{solve_from, Conditions, NodeLoads, OperatingPoint, Start};
 use crate::stage::{Capacitor, Fault, Resistor, Stage};
 
@@ -155,11 +155,24 @@ impl<'a> Ctx<'a> {
             },
             emitter: l.emitter,
         };
+        // Not through `Inputs::read_through`: its solve would be a closure called from four
+        // places, kept out of line, and its frame would add to the instrument's deepest stack.
         let inputs = self.settings.inputs;
-        let (op, ve, vc) = inputs
-            .read_through(|l| self.solve(&dc_stage, cond.loaded(with(l))).ok_or(()))
-            .ok()?;
-        let vb = op.vb;
+        let (vb, ve, vc, op) = match inputs.common_loads() {
+            Some(l) => {
+                let op = self.solve(&dc_stage, cond.loaded(with(l)))?;
+                (op.vb, op.ve, op.vc, op)
+            }
+            None => {
+                // Each node read with only its own input attached: one solve per node.
+                let mut at =
+                    |n: ReadNode| self.solve(&dc_stage, cond.loaded(with(inputs.loads_reading(n))));
+                let b = at(ReadNode::Base)?;
+                let ve = at(ReadNode::Emitter)?.ve;
+                let vc = at(ReadNode::Collector)?.vc;
+                (b.vb, ve, vc, b)
+            }
+        };
         let mut y = [0.0; DIM];
         for (slot, v) in y.iter_mut().zip([vb, ve, vc]) {
             *slot = v;
