@@ -37,5 +37,13 @@ step "firmware: application unit tests on the host"
 # The budget build's own unit tests (no design search, no Monte Carlo in the console).
 (cd firmware-example && cargo test --locked --target x86_64-unknown-linux-gnu --lib --no-default-features)
 
+step "fuzz targets: their checks over the seeds and drawn inputs (stable Rust; cargo fuzz needs nightly)"
+# The fuzz crate is its own workspace. The targets' code lives in its library; the corpus
+# harness runs it on stable, so a fresh machine with the one toolchain builds and runs it. With
+# nightly and cargo-fuzz: `cd fuzz && cargo +nightly fuzz run NAME seeds/NAME`. Not --locked:
+# fuzz/Cargo.lock follows the core's dependencies, and a change there must not stop the run (the
+# versions it already pins stay; commit the updated lock).
+(cd fuzz && cargo test)
+
 step "workspace tests (core, host command line, cross-crate, firmware under QEMU)"
 cargo test --workspace --locked

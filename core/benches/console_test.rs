@@ -7,70 +7,7 @@
 //! `--dump-instr=no` and `callgrind_annotate --inclusive=yes` for where the cost goes. The goal
 //! of issue 15: one `test` with a diagnosis within 10 M instructions on every fault class.
 
-use biasjig_core::console::jig::MemoryStore;
-use biasjig_core::console::{
-    default_profile, default_stage, Clock, Console, Identity, Jig, JigError,
-};
-use biasjig_core::response::{magnitude_at, Caps};
-use biasjig_core::solve::{solve, Conditions, NodeLoads};
-use biasjig_core::stage::{Fault, Readings, Stage};
-
-#[derive(Clone, Default)]
-struct NoClock;
-
-impl Clock for NoClock {
-    fn now_ms(&mut self) -> u64 {
-        0
-    }
-}
-
-/// The default stage with a fault, read through 11 MΩ inputs, gains from the engine's response.
-#[derive(Default)]
-struct EngineJig {
-    fault: Option<Fault>,
-}
-
-impl EngineJig {
-    fn board(&self) -> (Stage, Conditions) {
-        let stage = default_stage();
-        let mut cond = Conditions::typical(&default_profile());
-        cond.loads = NodeLoads::each(Some(11e6));
-        match self.fault {
-            Some(Fault::Device(d)) => {
-                cond.fault = Some(d);
-                (stage, cond)
-            }
-            Some(f) => (stage.with_fault(f), cond),
-            None => (stage, cond),
-        }
-    }
-}
-
-impl Jig for EngineJig {
-    fn measure(&mut self, _samples: u16) -> Result<Readings, JigError> {
-        let (s, cond) = self.board();
-        let op = solve(&s, &default_profile(), cond).map_err(|_| JigError::Hardware)?;
-        Ok(Readings {
-            vcc: s.vcc.value,
-            vb: op.vb,
-            ve: op.ve,
-            vc: op.vc,
-        })
-    }
-    fn inject(&mut self, fault: Option<Fault>) -> Result<(), JigError> {
-        self.fault = fault;
-        Ok(())
-    }
-    fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
-        let (s, mut cond) = self.board();
-        cond.loads = NodeLoads::NONE;
-        let op = solve(&s, &default_profile(), cond).map_err(|_| JigError::Hardware)?;
-        Ok(magnitude_at(&s, &op, &Caps::nominal(&s), f_hz))
-    }
-    fn input_r(&self) -> Option<f64> {
-        Some(11e6)
-    }
-}
+use biasjig_testkit::session::{console_with, EngineJig, FixedClock};
 
 /// Where the replies go: nowhere, or the terminal with `--show`.
 struct Sink(bool);
@@ -118,12 +55,9 @@ fn main() {
         .unwrap_or(faults.len());
     // A second argument picks one fault class (its cost alone).
     let only: Option<usize> = args.get(2).and_then(|a| a.parse().ok());
-    let mut c = Console::new(
-        Identity::new("bench", "0"),
-        EngineJig::default(),
-        MemoryStore::default(),
-        NoClock,
-    );
+    // The default stage with a fault, read through 11 MΩ inputs, gains from the engine's
+    // response.
+    let mut c = console_with("0", EngineJig::instrument(), FixedClock);
     // `--dc`: the stage without its load, so that `test` reads the DC nodes only.
     if args.iter().any(|a| a == "--dc") {
         c.feed(b"set rl none\n", &mut Sink(show))

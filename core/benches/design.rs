@@ -15,39 +15,21 @@
 use std::hint::black_box;
 use std::time::Instant;
 
-use biasjig_core::design::{design, Hold, Requirement};
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::design::{design, Hold};
+use biasjig_testkit::bench::runs;
+use biasjig_testkit::fixtures::{demo_requirement, profile};
 
 fn main() {
-    // The convention of scripts/instructions.sh: `--counts` names N1 N2 and the unit; a bare
-    // count N runs N designs (cargo bench passes "--bench", which is ignored).
-    if std::env::args().any(|a| a == "--counts") {
-        println!("1 11 design");
+    let Some(n) = runs("1 11 design", 20) else {
         return;
-    }
-    let n: usize = std::env::args()
-        .skip(1)
-        .find_map(|a| a.parse().ok())
-        .unwrap_or(20);
+    };
     // The demo scenario of the project brief (invented): 12 V, gain 15 into 15 kΩ from 600 Ω,
     // 5 Hz, 2 mA budget, -10 to 55 °C, E24 5 %, E6 20 %, hFE 100 to 300; held at every corner
     // with the gain within ±12 % (the command line's default hold; the demo's tolerance).
-    let mut req = Requirement::new(12.0, 15.0);
+    let mut req = demo_requirement();
     req.hold = Hold::WorstCase;
     req.gain_tol = 0.12;
-    req.rl = Some(15e3);
-    req.rs = 600.0;
-    req.ic_max = 2e-3;
-    req.f_low = Some(5.0);
-    req.temp_min = -10.0;
-    req.temp_max = 55.0;
-    let profile = Profile {
-        beta_min: 100.0,
-        beta_typ: 173.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    };
+    let profile = profile(100.0, 173.0, 300.0, 0.65);
     let start = Instant::now();
     let mut found = 0usize;
     for _ in 0..n {

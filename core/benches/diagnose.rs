@@ -4,36 +4,16 @@
 //! the convention of that script: `--counts` names N1 N2 and the unit, a bare count N runs N
 //! diagnoses cycling over the boards). The goal: one diagnosis within about 5 M instructions.
 
-use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::diagnose::diagnose;
 use biasjig_core::limits::Meter;
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::Variation;
-use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Readings, Resistor, Stage};
+use biasjig_core::stage::{DeviceFault, Fault, Resistor};
+use biasjig_testkit::fixtures::{dc_designs, faulted, readings};
 
 fn main() {
-    // An invented 15 V NPN stage.
-    let stage = Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(15.0, 0.0),
-        r1: Part::new(68e3, 0.05),
-        r2: Part::new(15e3, 0.05),
-        rc: Part::new(3.9e3, 0.05),
-        re1: Part::new(220.0, 0.05),
-        re2: Part::new(820.0, 0.05),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    };
-    let profile = Profile {
-        beta_min: 120.0,
-        beta_typ: 210.0,
-        beta_max: 360.0,
-        is_25: is_from_vbe(0.66),
-        ..Profile::default()
-    };
+    // An invented 15 V NPN stage (the first design of the diagnosis sweep).
+    let (_, stage, profile) = dc_designs().remove(0);
     let faults = [
         None,
         Some(Fault::Open(Resistor::R1)),
@@ -55,26 +35,16 @@ fn main() {
     let var = Variation::at(25.0);
     let mut total = 0u32;
     for f in faults.iter().cycle().take(n).copied() {
-        let (s, dev) = match f {
-            Some(Fault::Device(d)) => (stage, Some(d)),
-            Some(f) => (stage.with_fault(f), None),
-            None => (stage, None),
-        };
+        let (s, dev) = faulted(&stage, f);
         let cond = Conditions {
-            temp_c: 25.0,
             beta_25: 250.0,
             fault: dev,
-            loads: Default::default(),
+            ..Conditions::typical(&profile)
         };
         let Ok(op) = solve(&s, &profile, cond) else {
             continue;
         };
-        let r = Readings {
-            vcc: 15.0,
-            vb: op.vb,
-            ve: op.ve,
-            vc: op.vc,
-        };
+        let r = readings(&op);
         if let Ok(d) = diagnose(&stage, &profile, std::hint::black_box(&r), &meter, &var) {
             total += d.solves;
             let best = d.best().map(|h| (h.suspect.part(), h.suspect.mode()));

@@ -17,34 +17,14 @@ use std::hint::black_box;
 use std::process::Command;
 use std::time::Instant;
 
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::spread::{monte_carlo, worst_case, McSettings, Method, Requirement, Variation};
-use biasjig_core::stage::{Part, Polarity, Stage};
+use biasjig_core::stage::Stage;
+use biasjig_testkit::fixtures::{demo_profile, demo_stage, demo_variation};
 
+/// The demo scenario of the brief (invented): its stage, transistor and ambient range.
 fn demo() -> (Stage, Profile, Variation) {
-    let t = 0.05;
-    let stage = Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.0),
-        r1: Part::new(47e3, t),
-        r2: Part::new(10e3, t),
-        rc: Part::new(4.7e3, t),
-        re1: Part::new(220.0, t),
-        re2: Part::new(1e3, t),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    };
-    let profile = Profile {
-        beta_min: 100.0,
-        beta_typ: 180.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    };
-    (stage, profile, Variation::between(-10.0, 55.0))
+    (demo_stage(), demo_profile(), demo_variation())
 }
 
 fn run(samples: u32, signal: bool) -> f64 {

@@ -6,58 +6,18 @@
 //! `cargo run --release -p biasjig-core --example design_sweep`
 
 use biasjig_core::design::{design, DesignError, Hold, Requirement};
-use biasjig_core::device::{is_from_vbe, Profile};
-use biasjig_core::signal::midband;
-use biasjig_core::solve::{solve, Conditions, Region};
+use biasjig_core::device::Profile;
 use biasjig_core::stage::{Polarity, Stage};
+use biasjig_testkit::corners::corners;
+use biasjig_testkit::fixtures::demo_profile;
 
+/// Whether `stage` holds `req` at every corner, by the corner walk of the tests.
 fn holds(req: &Requirement, p: &Profile, stage: &Stage) -> bool {
-    for mask in 0u32..128 {
-        let mut s = *stage;
-        let bit = |k: u32| mask & (1 << k) != 0;
-        for (k, part) in [&mut s.r1, &mut s.r2, &mut s.rc, &mut s.re1, &mut s.re2]
-            .into_iter()
-            .enumerate()
-        {
-            part.value *= if bit(k as u32) {
-                1.0 + part.tol
-            } else {
-                1.0 - part.tol
-            };
-        }
-        let cond = Conditions {
-            temp_c: if bit(6) { req.temp_max } else { req.temp_min },
-            beta_25: if bit(5) { p.beta_max } else { p.beta_min },
-            fault: None,
-            loads: biasjig_core::solve::NodeLoads::NONE,
-        };
-        let Ok(op) = solve(&s, p, cond) else {
-            return false;
-        };
-        let Ok(m) = midband(&s, p, &op) else {
-            return false;
-        };
-        let g = m.gain.abs();
-        if op.region != Region::Active
-            || g < req.gain * (1.0 - req.gain_tol) * (1.0 - 1e-9)
-            || g > req.gain * (1.0 + req.gain_tol) * (1.0 + 1e-9)
-            || m.swing_pp < req.swing_pp * (1.0 - 1e-9)
-            || op.ic > req.ic_max * (1.0 + 1e-9)
-        {
-            return false;
-        }
-    }
-    true
+    corners(req, p, stage).hold(req)
 }
 
 fn main() {
-    let p = Profile {
-        beta_min: 100.0,
-        beta_typ: 180.0,
-        beta_max: 300.0,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    };
+    let p = demo_profile();
     let (mut n, mut designed, mut held_ok) = (0, 0, 0);
     let mut refused: std::collections::BTreeMap<String, u32> = Default::default();
     let mut by_tol: std::collections::BTreeMap<u32, (u32, u32)> = Default::default();

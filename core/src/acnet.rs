@@ -442,6 +442,20 @@ pub(crate) fn source_to_load(
     (v.re.is_finite() && v.im.is_finite()).then_some(v)
 }
 
+/// |[`source_to_load`]|, formed in single precision too; 0 where the network is singular.
+pub(crate) fn source_to_load_magnitude(
+    stage: &Stage,
+    y: &Admittance,
+    cin: Cap,
+    cout: Cap,
+    ce: Cap,
+) -> f64 {
+    reduced::<f32>(stage, y, cin, cout, ce)
+        .map(|v| f64::from(libm::sqrtf(v.norm_sqr())))
+        .filter(|m| m.is_finite())
+        .unwrap_or(0.0)
+}
+
 /// The number type of [`reduced`]: `f32` in use, `f64` to test it against.
 trait Real: Copy + PartialOrd + num_traits::Num {
     fn of(x: f64) -> Self;
@@ -484,10 +498,26 @@ fn reduced<T: Real>(
     ce: Cap,
 ) -> Option<num_complex::Complex<T>> {
     type Z<T> = num_complex::Complex<T>;
-    let real = |x: f64| Z::new(T::of(x), T::zero());
-    let cap = |state: Cap, farads: Option<f64>| {
-        let z = cap_admittance(state, farads);
-        Z::new(T::of(z.re), T::of(z.im))
+    let real = |x: T| Z::new(x, T::zero());
+    // The conductances of [`solve`] (a zero-ohm resistor a short, an open one nothing), formed
+    // in `T`: a division in `f64` is a software routine on the instrument.
+    let short = T::of(SHORT);
+    let g = |ohms: f64| {
+        if ohms <= 0.0 {
+            short
+        } else if ohms.is_finite() {
+            T::one() / T::of(ohms)
+        } else {
+            T::zero()
+        }
+    };
+    let cap = |state: Cap, farads: Option<f64>| match (state, farads) {
+        (Cap::Short, _) | (Cap::At(_), None) => real(short),
+        (Cap::Open, _) => real(T::zero()),
+        (Cap::At(f), Some(c)) => Z::new(
+            T::zero(),
+            T::of(2.0 * core::f64::consts::PI) * T::of(f) * T::of(c),
+        ),
     };
     // A leaf node between `near` (the admittance to its neighbour) and `far` (to ground): the
     // admittance it adds at the neighbour and the fraction of the neighbour's voltage it sits
@@ -500,18 +530,21 @@ fn reduced<T: Real>(
             None
         }
     };
-    let gs = source_conductance(stage);
-    let (g_b_in, in_ratio) = fold(cap(cin, stage.cin.map(|p| p.value)), real(gs + LEAK))?;
+    let leak = T::of(LEAK);
+    let gs = g(stage.rs);
+    let (g_b_in, in_ratio) = fold(cap(cin, stage.cin.map(|p| p.value)), real(gs + leak))?;
     // The Norton current gs into IN reaches B as gs·y_cin/(y_cin + g_in).
     let i_b = in_ratio * real(gs);
     let (g_ee, _) = fold(
-        real(conductance(stage.re1.value)),
-        real(conductance(stage.re2.value)) + cap(ce, stage.ce.map(|p| p.value)),
+        real(g(stage.re1.value)),
+        real(g(stage.re2.value)) + cap(ce, stage.ce.map(|p| p.value)),
     )?;
-    let g_out = stage.rl.map_or(0.0, conductance) + LEAK;
+    let g_out = stage.rl.map_or(T::zero(), g) + leak;
     let (g_c_out, out_ratio) = fold(cap(cout, stage.cout.map(|p| p.value)), real(g_out))?;
-    let g_bb = real(conductance(parallel(stage.r1.value, stage.r2.value))) + g_b_in;
-    let g_cc = real(conductance(stage.rc.value)) + g_c_out;
+    // R1 ‖ R2 as the sum of the two conductances.
+    let g_bb = real(g(stage.r1.value) + g(stage.r2.value)) + g_b_in;
+    let g_cc = real(g(stage.rc.value)) + g_c_out;
+    let real = |x: f64| Z::new(T::of(x), T::zero());
     let s = real(y.y11 + y.y12 + y.y21 + y.y22);
     let d = real(y.y12 * y.y21 - y.y11 * y.y22);
     let (y11, y21, y22) = (real(y.y11), real(y.y21), real(y.y22));
@@ -691,6 +724,11 @@ mod tests {
                             assert!(
                                 (d - s).norm() <= 1e-3 * meter,
                                 "single {s} against double {d}"
+                            );
+                            let m = source_to_load_magnitude(&stage, &y, cin, cout, ce);
+                            assert!(
+                                (m - d.norm()).abs() <= 1e-3 * meter,
+                                "single |{m}| against double {d}"
                             );
                         }
                         match (full, reduced) {

@@ -99,6 +99,14 @@ impl Gain {
 /// solved for) with the capacitors `caps`; `None` when the network is singular or `f_hz` is
 /// not a positive finite frequency.
 pub fn gain_at(stage: &Stage, op: &OperatingPoint, caps: &Caps, f_hz: f64) -> Option<Gain> {
+    let (s, [cin, cout, ce]) = network(stage, caps, f_hz)?;
+    let v = acnet::source_to_load(&s, &op.y, cin, cout, ce)?;
+    Some(Gain { re: v.re, im: v.im })
+}
+
+/// The stage with each fitted capacitor's value and the capacitors' states at `f_hz` (CIN, COUT,
+/// CE); `None` for a frequency that is not positive and finite.
+fn network(stage: &Stage, caps: &Caps, f_hz: f64) -> Option<(Stage, [Cap; 3])> {
     if !(f_hz.is_finite() && f_hz > 0.0) {
         return None;
     }
@@ -114,12 +122,13 @@ pub fn gain_at(stage: &Stage, op: &OperatingPoint, caps: &Caps, f_hz: f64) -> Op
     let cin = state(caps.cin, &mut s.cin);
     let cout = state(caps.cout, &mut s.cout);
     let ce = state(caps.ce, &mut s.ce);
-    let v = acnet::source_to_load(&s, &op.y, cin, cout, ce)?;
-    Some(Gain { re: v.re, im: v.im })
+    Some((s, [cin, cout, ce]))
 }
 
 /// |v(load)/v(source EMF)| at `f_hz` (0 where the network is singular: no signal reaches the
-/// load).
+/// load), formed in single precision as [`gain_at`] is.
 pub fn magnitude_at(stage: &Stage, op: &OperatingPoint, caps: &Caps, f_hz: f64) -> f64 {
-    gain_at(stage, op, caps, f_hz).map_or(0.0, |g| g.magnitude())
+    network(stage, caps, f_hz).map_or(0.0, |(s, [cin, cout, ce])| {
+        acnet::source_to_load_magnitude(&s, &op.y, cin, cout, ce)
+    })
 }

@@ -3,37 +3,20 @@
 //! book's figures.
 
 use biasjig_core::check::check;
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::limits::{limits, Meter};
 use biasjig_core::spread::Variation;
-use biasjig_core::stage::{Part, Polarity, Readings, Stage};
+use biasjig_core::stage::{Readings, Stage};
+use biasjig_testkit::fixtures::{npn, profile as spread_profile};
 
+/// The book's board: NPN, no RE1, 5 % parts.
 fn stage(vcc: f64, r1: f64, r2: f64, rc: f64, re: f64) -> Stage {
-    Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(vcc, 0.0),
-        r1: Part::new(r1, 0.05),
-        r2: Part::new(r2, 0.05),
-        rc: Part::new(rc, 0.05),
-        re1: Part::new(0.0, 0.05),
-        re2: Part::new(re, 0.05),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    }
+    npn(vcc, [r1, r2, rc, 0.0, re])
 }
 
 fn profile(beta: f64) -> Profile {
     // The books take VBE = 0.7 V; hFE is given as one figure, taken here with a ±20 % spread.
-    Profile {
-        beta_min: beta * 0.8,
-        beta_typ: beta,
-        beta_max: beta * 1.2,
-        is_25: is_from_vbe(0.7),
-        ..Profile::default()
-    }
+    spread_profile(beta * 0.8, beta, beta * 1.2, 0.7)
 }
 
 /// (source, stage, book readings VB, VE, VC from its exact analysis, book IC).

@@ -4,162 +4,45 @@
 //! Every expected number here comes from calling the same core function directly; the console
 //! prints shortest round-trip decimals, so the numbers compare exactly.
 
+// The design, spread and fault-detail commands are tested where the build has them; a budget
+// build without them is tested to say so.
+#![cfg_attr(
+    not(all(
+        feature = "synthesis",
+        feature = "monte-carlo",
+        feature = "fault-detail"
+    )),
+    allow(unused_imports)
+)]
+
 use biasjig_core::check;
 use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::record::design_hash;
 use biasjig_core::console::{
-    default_profile, default_requirement, default_stage, Clock, Code, Console, Identity, Jig,
-    JigError, Num, MAX_DATA_LINES, MAX_OUT_LINE,
+    default_profile, default_requirement, default_stage, Code, Console, Num,
 };
 use biasjig_core::design;
 use biasjig_core::diagnose::diagnose;
 use biasjig_core::limits::{limits, Meter};
-use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::{self, McSettings, Method, Variation};
-use biasjig_core::stage::{DeviceFault, Fault, Polarity, Readings, Resistor, Stage};
-
-#[derive(Default, Clone)]
-struct FixedClock;
-
-impl Clock for FixedClock {
-    fn now_ms(&mut self) -> u64 {
-        0
-    }
-}
-
-/// A jig that reads the engine's operating point of the default stage with a fault.
-#[derive(Default)]
-struct EngineJig {
-    fault: Option<Fault>,
-}
-
-fn readings_of(stage: &Stage, fault: Option<Fault>) -> Readings {
-    let profile = default_profile();
-    let (s, dev) = match fault {
-        Some(Fault::Device(d)) => (*stage, Some(d)),
-        Some(f) => (stage.with_fault(f), None),
-        None => (*stage, None),
-    };
-    let op = solve(
-        &s,
-        &profile,
-        Conditions {
-            fault: dev,
-            ..Conditions::typical(&profile)
-        },
-    )
-    .expect("the engine solves the board");
-    Readings {
-        vcc: stage.vcc.value,
-        vb: op.vb,
-        ve: op.ve,
-        vc: op.vc,
-    }
-}
-
-impl Jig for EngineJig {
-    fn measure(&mut self, _samples: u16) -> Result<Readings, JigError> {
-        Ok(readings_of(&default_stage(), self.fault))
-    }
-    fn inject(&mut self, fault: Option<Fault>) -> Result<(), JigError> {
-        self.fault = fault;
-        Ok(())
-    }
-}
-
-#[derive(Default)]
-struct Out(Vec<u8>);
-
-impl embedded_io::ErrorType for Out {
-    type Error = core::convert::Infallible;
-}
-
-impl embedded_io::Write for Out {
-    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
-        self.0.extend_from_slice(buf);
-        Ok(buf.len())
-    }
-    fn flush(&mut self) -> Result<(), Self::Error> {
-        Ok(())
-    }
-}
+use biasjig_core::stage::{DeviceFault, Fault, Polarity, Readings, Resistor};
+use biasjig_testkit::session::{
+    assert_contains, assert_values, cmd, console_with, default_readings as readings_of, err, errs,
+    line, num, ok, oks, value, EngineJig, FixedClock,
+};
 
 type Fake = Console<EngineJig, MemoryStore, FixedClock>;
 
+/// A console on the engine's board (no measuring inputs, no signal test).
 fn console() -> Fake {
-    Console::new(
-        Identity::new("console", "0.1.0"),
-        EngineJig::default(),
-        MemoryStore::default(),
-        FixedClock,
-    )
+    console_with("0.1.0", EngineJig::default(), FixedClock)
 }
 
-fn is_status(l: &str) -> bool {
-    l == "ok" || l.starts_with("ok ") || l.starts_with("err ")
-}
-
-fn cmd<J: Jig>(c: &mut Console<J, MemoryStore, FixedClock>, line: &str) -> (Vec<String>, String) {
-    let mut out = Out::default();
-    c.feed(format!("{line}\n").as_bytes(), &mut out).unwrap();
-    let text = String::from_utf8(out.0).unwrap();
-    let mut lines: Vec<String> = text
-        .split("\r\n")
-        .filter(|l| !l.is_empty())
-        .map(str::to_owned)
-        .collect();
-    let status = lines.pop().unwrap_or_default();
-    assert!(is_status(&status), "{line:?} -> {status:?}");
-    assert!(lines.iter().all(|l| !is_status(l)), "{line:?}: {lines:?}");
-    assert!(
-        lines.len() <= MAX_DATA_LINES,
-        "{line:?}: {} lines",
-        lines.len()
-    );
-    assert!(lines
-        .iter()
-        .chain([&status])
-        .all(|l| l.len() <= MAX_OUT_LINE));
-    (lines, status)
-}
-
-fn ok<J: Jig>(c: &mut Console<J, MemoryStore, FixedClock>, line: &str) -> Vec<String> {
-    let (data, status) = cmd(c, line);
-    assert!(status.starts_with("ok"), "{line:?} -> {status}");
-    data
-}
-
-fn err<J: Jig>(c: &mut Console<J, MemoryStore, FixedClock>, line: &str, code: &str) -> String {
-    let (data, status) = cmd(c, line);
-    assert!(data.is_empty(), "{line:?}: {data:?}");
-    assert!(
-        status.starts_with(&format!("err {code} ")),
-        "{line:?} -> {status}"
-    );
-    status
-}
-
-/// The value of `key` on the first line that has it.
-fn value(data: &[String], key: &str) -> String {
-    data.iter()
-        .flat_map(|l| l.split(' '))
-        .find_map(|kv| kv.strip_prefix(&format!("{key}=")))
-        .unwrap_or_else(|| panic!("{key} not in {data:?}"))
-        .to_owned()
-}
-
-/// The line that starts with `prefix`.
-fn line<'a>(data: &'a [String], prefix: &str) -> &'a str {
-    data.iter()
-        .find(|l| l.starts_with(prefix))
-        .unwrap_or_else(|| panic!("no {prefix:?} in {data:?}"))
-}
-
-fn num(data: &[String], prefix: &str, key: &str) -> f64 {
-    let l = line(data, prefix);
-    let v = value(&[l.to_owned()], key);
-    v.parse()
-        .unwrap_or_else(|_| panic!("{key}={v} in {l:?} is not a number"))
+/// The same in machine mode.
+fn machine_console() -> Fake {
+    let mut c = console();
+    ok(&mut c, "mode machine");
+    c
 }
 
 fn check_line(r: &Readings) -> String {
@@ -168,8 +51,7 @@ fn check_line(r: &Readings) -> String {
 
 #[test]
 fn a_good_board_passes_with_the_core_windows() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let stage = default_stage();
     let rd = readings_of(&stage, None);
     let d = ok(&mut c, &check_line(&rd));
@@ -218,10 +100,7 @@ fn a_good_board_passes_with_the_core_windows() {
     // Human mode: a verdict for a glance.
     ok(&mut c, "mode human");
     let h = ok(&mut c, &check_line(&rd)).join("\n");
-    assert!(
-        h.contains("PASS") && h.contains("window") && h.contains("hFE"),
-        "{h}"
-    );
+    assert_contains(&h, &["PASS", "window", "hFE"]);
 }
 
 #[test]
@@ -301,12 +180,10 @@ fn a_decade_slip_is_said_in_words() {
     let rd = readings_of(&default_stage(), Some(Fault::Value(Resistor::Rc, 47e3)));
     let h = ok(&mut c, &check_line(&rd)).join("\n");
     assert!(h.contains("FAIL"), "{h}");
-    assert!(
-        h.contains("RC reads like") && h.contains("decade slip"),
-        "{h}"
-    );
+    assert_contains(&h, &["RC reads like", "decade slip"]);
 }
 
+#[cfg(feature = "fault-detail")]
 #[test]
 fn equivalent_faults_say_how_to_tell_them_apart() {
     let mut c = console();
@@ -324,12 +201,9 @@ fn equivalent_faults_say_how_to_tell_them_apart() {
 
 #[test]
 fn a_pnp_board_is_judged_too() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     // The default stage mirrored: R1 now runs from the supply to the base.
-    ok(&mut c, "set polarity pnp");
-    ok(&mut c, "set r1 10k");
-    ok(&mut c, "set r2 47k");
+    oks(&mut c, &["set polarity pnp", "set r1 10k", "set r2 47k"]);
     let mut stage = default_stage();
     stage.polarity = Polarity::Pnp;
     stage.r1.value = 10e3;
@@ -347,8 +221,7 @@ fn a_pnp_board_is_judged_too() {
 
 #[test]
 fn implausible_readings_are_refused_with_their_own_code() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let e = err(&mut c, "check 3 2 1.35 5.5", "IMPLAUSIBLE");
     assert!(e.contains("supply"), "{e}");
     let e = err(&mut c, "check 12 2 2 2", "IMPLAUSIBLE");
@@ -369,9 +242,8 @@ fn implausible_readings_are_refused_with_their_own_code() {
 }
 
 #[test]
-fn test_measures_then_checks() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+fn test_measures_then_judges_and_names_the_fault() {
+    let mut c = machine_console();
     let d = ok(&mut c, "test 32");
     assert_eq!(value(&d, "source"), "measured");
     assert_eq!(value(&d, "verdict"), "pass");
@@ -391,19 +263,13 @@ fn test_measures_then_checks() {
     let d = ok(&mut c, "diagnose");
     assert!(d[0].starts_with("verdict=fail"), "{d:?}");
     // A unit with no jig cannot test.
-    let mut n = Console::new(
-        Identity::new("console", "0"),
-        NoJig,
-        MemoryStore::default(),
-        FixedClock,
-    );
+    let mut n = console_with("0", NoJig, FixedClock);
     err(&mut n, "test", "NOT_SUPPORTED");
 }
 
 #[test]
 fn a_change_of_the_stage_drops_the_last_verdict() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let rd = readings_of(&default_stage(), Some(Fault::Open(Resistor::R2)));
     ok(&mut c, &check_line(&rd));
     assert!(c.last_check().is_some());
@@ -418,15 +284,21 @@ fn a_change_of_the_stage_drops_the_last_verdict() {
 #[test]
 fn ambient_range_feeds_the_limits() {
     let mut c = console();
-    ok(&mut c, "mode machine");
-    ok(&mut c, "set temp-min -10");
-    ok(&mut c, "set temp-max 55");
+    oks(
+        &mut c,
+        &["mode machine", "set temp-min -10", "set temp-max 55"],
+    );
     let s = ok(&mut c, "stage");
     assert_eq!(value(&s, "temp_min"), "-10");
     assert_eq!(value(&s, "temp_max"), "55");
-    err(&mut c, "set temp-min 30", "RANGE");
-    err(&mut c, "set temp-max 20", "RANGE");
-    err(&mut c, "set temp-max 200", "RANGE");
+    errs(
+        &mut c,
+        &[
+            ("set temp-min 30", "RANGE"),
+            ("set temp-max 20", "RANGE"),
+            ("set temp-max 200", "RANGE"),
+        ],
+    );
     let d = ok(&mut c, "limits");
     let l = limits(
         &default_stage(),
@@ -445,40 +317,60 @@ fn ambient_range_feeds_the_limits() {
     assert_eq!(value(&s, "temp_max"), "30");
 }
 
+#[cfg(feature = "synthesis")]
 #[test]
-fn requirement_show_set_and_errors() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
+    let mut c = machine_console();
     let d = ok(&mut c, "requirement");
     assert_eq!(d.len(), 3);
-    assert_eq!(value(&d, "vcc"), "12");
-    assert_eq!(value(&d, "gain"), "15");
-    assert_eq!(value(&d, "rl"), "15000");
-    assert_eq!(value(&d, "f_low"), "5");
-    assert_eq!(value(&d, "temp_min"), "-10");
-    assert_eq!(value(&d, "series"), "E24");
-    ok(&mut c, "requirement gain 20");
-    ok(&mut c, "requirement rl none");
-    ok(&mut c, "requirement series E12");
-    ok(&mut c, "requirement tol 1%");
-    ok(&mut c, "requirement ic-max 5m");
-    ok(&mut c, "requirement polarity pnp");
+    assert_values(
+        &d,
+        &[
+            ("vcc", "12"),
+            ("gain", "15"),
+            ("rl", "15000"),
+            ("f_low", "5"),
+            ("temp_min", "-10"),
+            ("series", "E24"),
+        ],
+    );
+    oks(
+        &mut c,
+        &[
+            "requirement gain 20",
+            "requirement rl none",
+            "requirement series E12",
+            "requirement tol 1%",
+            "requirement ic-max 5m",
+            "requirement polarity pnp",
+        ],
+    );
     let d = ok(&mut c, "requirement");
-    assert_eq!(value(&d, "gain"), "20");
-    assert_eq!(value(&d, "rl"), "none");
-    assert_eq!(value(&d, "series"), "E12");
-    assert_eq!(value(&d, "tol"), "0.01");
-    assert_eq!(value(&d, "ic_max"), "0.005");
-    assert_eq!(value(&d, "polarity"), "pnp");
+    assert_values(
+        &d,
+        &[
+            ("gain", "20"),
+            ("rl", "none"),
+            ("series", "E12"),
+            ("tol", "0.01"),
+            ("ic_max", "0.005"),
+            ("polarity", "pnp"),
+        ],
+    );
     let e = err(&mut c, "requirement gain x", "VALUE");
-    assert!(e.contains("gain") && e.contains("x"), "{e}");
+    assert_contains(&e, &["gain", "x"]);
     let e = err(&mut c, "requirement colour red", "VALUE");
     assert!(e.contains("ic-max"), "{e}");
     let e = err(&mut c, "requirement gain 5000", "RANGE");
     assert!(e.contains("gain"), "{e}");
-    err(&mut c, "requirement series E7", "VALUE");
-    err(&mut c, "requirement temp 80", "RANGE");
-    err(&mut c, "requirement gain", "USAGE");
+    errs(
+        &mut c,
+        &[
+            ("requirement series E7", "VALUE"),
+            ("requirement temp 80", "RANGE"),
+            ("requirement gain", "USAGE"),
+        ],
+    );
     assert_eq!(
         c.requirement().gain,
         20.0,
@@ -490,10 +382,10 @@ fn requirement_show_set_and_errors() {
     assert_eq!(*c.requirement(), default_requirement());
 }
 
+#[cfg(feature = "synthesis")]
 #[test]
 fn design_and_pick_make_the_core_candidates_the_stage() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     err(&mut c, "pick 1", "NO_DESIGN");
     let (d, s) = cmd(&mut c, "design");
     assert!(s.starts_with("ok ") && s.contains("candidates"), "{s}");
@@ -536,10 +428,10 @@ fn design_and_pick_make_the_core_candidates_the_stage() {
     assert!(h.starts_with("  1. R1 ") && h.contains("gain"), "{h}");
 }
 
+#[cfg(feature = "monte-carlo")]
 #[test]
 fn spread_matches_the_spread_module() {
-    let mut c = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine_console();
     let d = ok(&mut c, "spread 200 7");
     let (s, p) = (default_stage(), default_profile());
     let var = Variation::at(25.0);
@@ -584,15 +476,21 @@ fn spread_matches_the_spread_module() {
     assert_ne!(ok(&mut c, "spread 200 8"), d);
     let d = ok(&mut c, "spread");
     assert_eq!(value(&d, "runs"), "500");
-    err(&mut c, "spread 0", "VALUE");
-    err(&mut c, "spread 3000", "VALUE");
-    err(&mut c, "spread 10 x", "VALUE");
-    err(&mut c, "spread 1 2 3", "USAGE");
+    errs(
+        &mut c,
+        &[
+            ("spread 0", "VALUE"),
+            ("spread 3000", "VALUE"),
+            ("spread 10 x", "VALUE"),
+            ("spread 1 2 3", "USAGE"),
+        ],
+    );
     ok(&mut c, "mode human");
     let h = ok(&mut c, "spread 50").join("\n");
-    assert!(h.contains("worst") && h.contains("Monte Carlo"), "{h}");
+    assert_contains(&h, &["worst", "Monte Carlo"]);
 }
 
+#[cfg(all(feature = "synthesis", feature = "spread"))]
 #[test]
 fn locked_units_still_judge_but_do_not_design() {
     let mut c = console();
@@ -612,6 +510,7 @@ fn locked_units_still_judge_but_do_not_design() {
     }
 }
 
+#[cfg(all(feature = "synthesis", feature = "spread"))]
 #[test]
 fn every_new_reply_stays_within_bounds() {
     let mut c = console();
@@ -624,5 +523,33 @@ fn every_new_reply_stays_within_bounds() {
             assert!(!status.contains("cut"), "{l}: {status}");
             assert!(!data.is_empty(), "{l}");
         }
+    }
+}
+
+/// Without the design search the unit refuses `design`, `pick` and `requirement`, naming the PC
+/// command that does it; locked or not.
+#[cfg(not(feature = "synthesis"))]
+#[test]
+fn a_unit_without_the_design_search_names_the_pc_command() {
+    let mut c = console();
+    for l in ["design", "pick 1", "requirement", "requirement gain 20"] {
+        assert!(err(&mut c, l, "NOT_SUPPORTED").contains("run biasjig design on a PC"));
+    }
+    ok(&mut c, "lock 2468");
+    err(&mut c, "design", "NOT_SUPPORTED");
+}
+
+/// Without the spread the unit refuses `spread`, naming the PC command that does it; the rest of
+/// the judging still works.
+#[cfg(not(feature = "spread"))]
+#[test]
+fn a_unit_without_the_spread_names_the_pc_command() {
+    let mut c = console();
+    for l in ["spread", "spread 20"] {
+        assert!(err(&mut c, l, "NOT_SUPPORTED").contains("run biasjig spread on a PC"));
+    }
+    let rd = readings_of(&default_stage(), None);
+    for l in [check_line(&rd).as_str(), "test", "diagnose"] {
+        ok(&mut c, l);
     }
 }

@@ -2,17 +2,12 @@
 //! survive a restart of the console on the same store, the unit starts on the design chosen
 //! last, the lock guards them, and the store holds at most eight.
 
+// A budget build without kept designs is tested to refuse them.
+#![cfg_attr(not(feature = "kept-designs"), allow(dead_code, unused_imports))]
+
 use biasjig_core::console::jig::{MemoryStore, NoJig, DESIGN_SLOTS};
-use biasjig_core::console::{Clock, Console, Identity};
-
-#[derive(Clone, Copy, Default)]
-struct Still;
-
-impl Clock for Still {
-    fn now_ms(&mut self) -> u64 {
-        0
-    }
-}
+use biasjig_core::console::{Console, Identity};
+use biasjig_testkit::session::{lines_of, ok, oks, split_reply, FixedClock as Still};
 
 type Unit = Console<NoJig, MemoryStore, Still>;
 
@@ -22,25 +17,13 @@ fn unit(store: MemoryStore) -> Unit {
     c
 }
 
+/// One command through [`Console::line`] (a fixed buffer, not a stream): data and status.
 fn cmd(c: &mut Unit, line: &str) -> (Vec<String>, String) {
     let mut buf = [0u8; 4096];
     let mut out: &mut [u8] = &mut buf;
     c.line(line, &mut out).expect("the reply fits the buffer");
     let left = out.len();
-    let text = String::from_utf8(buf[..buf.len() - left].to_vec()).expect("UTF-8");
-    let mut lines: Vec<String> = text
-        .split("\r\n")
-        .filter(|l| !l.is_empty())
-        .map(str::to_owned)
-        .collect();
-    let status = lines.pop().unwrap_or_default();
-    (lines, status)
-}
-
-fn ok(c: &mut Unit, line: &str) -> Vec<String> {
-    let (data, status) = cmd(c, line);
-    assert!(status.starts_with("ok"), "{line:?} -> {status} {data:?}");
-    data
+    split_reply(lines_of(&buf[..buf.len() - left]))
 }
 
 fn hash(c: &mut Unit) -> String {
@@ -51,6 +34,7 @@ fn restart(c: Unit) -> Unit {
     unit(c.store)
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn kept_designs_survive_a_restart_and_the_last_chosen_comes_back() {
     let mut c = unit(MemoryStore::default());
@@ -59,9 +43,7 @@ fn kept_designs_survive_a_restart_and_the_last_chosen_comes_back() {
     let (_, st) = cmd(&mut c, "keep preamp-12");
     assert!(st.starts_with("ok kept preamp-12, design hash"), "{st}");
     let h12 = hash(&mut c);
-    ok(&mut c, "set vcc 15");
-    ok(&mut c, "set temp-max 55");
-    ok(&mut c, "meter gain 1%");
+    oks(&mut c, &["set vcc 15", "set temp-max 55", "meter gain 1%"]);
     // After an edit the stage is no longer the kept design.
     assert!(ok(&mut c, "stage").last().unwrap().ends_with("design=none"));
     ok(&mut c, "keep Pump15");
@@ -111,6 +93,7 @@ fn kept_designs_survive_a_restart_and_the_last_chosen_comes_back() {
     assert!(ok(&mut c, "stage").last().unwrap().ends_with("design=none"));
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn eight_designs_fit_a_ninth_is_refused_and_a_name_is_replaced_in_place() {
     let mut c = unit(MemoryStore::default());
@@ -138,13 +121,11 @@ fn eight_designs_fit_a_ninth_is_refused_and_a_name_is_replaced_in_place() {
     assert!(ok(&mut c, "designs")[5].starts_with("design=d8 "));
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn the_lock_guards_the_kept_designs_and_names_are_checked() {
     let mut c = unit(MemoryStore::default());
-    ok(&mut c, "keep a");
-    ok(&mut c, "set vcc 9");
-    ok(&mut c, "keep b");
-    ok(&mut c, "lock 1234");
+    oks(&mut c, &["keep a", "set vcc 9", "keep b", "lock 1234"]);
     for l in ["keep c", "choose a", "forget a"] {
         assert!(cmd(&mut c, l).1.starts_with("err LOCKED"), "{l}");
     }
@@ -161,12 +142,11 @@ fn the_lock_guards_the_kept_designs_and_names_are_checked() {
     }
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn a_damaged_design_record_is_left_out_not_loaded() {
     let mut c = unit(MemoryStore::default());
-    ok(&mut c, "keep a");
-    ok(&mut c, "set vcc 9");
-    ok(&mut c, "keep b");
+    oks(&mut c, &["keep a", "set vcc 9", "keep b"]);
     let mut store = c.store;
     // Slot 1 holds b: flip one byte of its payload.
     if let Some(rec) = store.records[3].as_mut() {
@@ -178,13 +158,19 @@ fn a_damaged_design_record_is_left_out_not_loaded() {
     assert!(list[0].starts_with("design=a "));
 }
 
+#[cfg(feature = "kept-designs")]
 #[test]
 fn a_kept_design_carries_the_measuring_inputs() {
     let mut c = unit(MemoryStore::default());
-    ok(&mut c, "set input-r 110k");
-    ok(&mut c, "keep jig110k");
-    ok(&mut c, "set input-r 10M");
-    ok(&mut c, "keep meter10M");
+    oks(
+        &mut c,
+        &[
+            "set input-r 110k",
+            "keep jig110k",
+            "set input-r 10M",
+            "keep meter10M",
+        ],
+    );
     assert!(ok(&mut c, "meter")[0].contains("input_r=1e7"));
     ok(&mut c, "choose jig110k");
     let mut c = restart(c);
@@ -193,4 +179,18 @@ fn a_kept_design_carries_the_measuring_inputs() {
         "{:?}",
         ok(&mut c, "meter")
     );
+}
+
+/// Without kept designs the unit refuses `keep`, `designs`, `choose` and `forget`.
+#[cfg(not(feature = "kept-designs"))]
+#[test]
+fn a_unit_without_kept_designs_refuses_them() {
+    let mut c = unit(MemoryStore::default());
+    for l in ["keep a", "designs", "choose a", "forget a"] {
+        let (data, status) = cmd(&mut c, l);
+        assert!(
+            data.is_empty() && status.starts_with("err NOT_SUPPORTED "),
+            "{l}: {status}"
+        );
+    }
 }

@@ -5,11 +5,10 @@
 //! gets exactly one status line; no output line is longer than MAX_OUT_LINE; no reply has more
 //! than MAX_DATA_LINES data lines; the assembler never holds more than LINE_MAX bytes.
 
-use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::line::{Feed, LineBuf};
-use biasjig_core::console::{
-    parse, Clock, Console, Identity, LINE_MAX, MAX_DATA_LINES, MAX_OUT_LINE,
-};
+use biasjig_core::console::{parse, LINE_MAX};
+use biasjig_testkit::rng::Rng as Gen;
+use biasjig_testkit::session::{audit, bare_console, LineEnds};
 use proptest::prelude::*;
 
 const LINES_PER_CASE: usize = 500;
@@ -64,36 +63,21 @@ const SEEDS: &[&str] = &[
     "# note",
 ];
 
-/// splitmix64: a small deterministic generator driven by the proptest seed.
-struct Gen(u64);
-
-impl Gen {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-        z ^ (z >> 31)
-    }
-    fn below(&mut self, n: usize) -> usize {
-        (self.next() % n as u64) as usize
-    }
-    fn byte(&mut self) -> u8 {
-        // Mostly printable, some control bytes, some high bytes.
-        match self.below(10) {
-            0 => self.below(32) as u8,
-            1 => 0x80 + self.below(128) as u8,
-            _ => 0x20 + self.below(95) as u8,
-        }
+/// Mostly printable, some control bytes, some high bytes.
+fn byte(g: &mut Gen) -> u8 {
+    match g.below(10) {
+        0 => g.below(32) as u8,
+        1 => 0x80 + g.below(128) as u8,
+        _ => 0x20 + g.below(95) as u8,
     }
 }
 
 /// One line body (may contain line ends of its own when random).
 fn line(g: &mut Gen) -> Vec<u8> {
     match g.below(8) {
-        0 => (0..g.below(40)).map(|_| g.byte()).collect(),
+        0 => (0..g.below(40)).map(|_| byte(g)).collect(),
         1 => vec![b'x'; LINE_MAX - 2 + g.below(6)],
-        2 => (0..LINE_MAX + g.below(300)).map(|_| g.byte()).collect(),
+        2 => (0..LINE_MAX + g.below(300)).map(|_| byte(g)).collect(),
         3 | 4 => SEEDS[g.below(SEEDS.len())].as_bytes().to_vec(),
         _ => {
             let mut l = SEEDS[g.below(SEEDS.len())].as_bytes().to_vec();
@@ -104,12 +88,12 @@ fn line(g: &mut Gen) -> Vec<u8> {
                     g.below(l.len() + 1)
                 };
                 match g.below(3) {
-                    0 => l.insert(at, g.byte()),
+                    0 => l.insert(at, byte(g)),
                     1 if at < l.len() => {
                         l.remove(at);
                     }
-                    _ if at < l.len() => l[at] = g.byte(),
-                    _ => l.push(g.byte()),
+                    _ if at < l.len() => l[at] = byte(g),
+                    _ => l.push(byte(g)),
                 }
             }
             l
@@ -125,85 +109,15 @@ fn terminator(g: &mut Gen) -> &'static [u8] {
     }
 }
 
-/// Reference model of line ends: CR, LF, and CRLF as one.
-#[derive(Default)]
-struct Ends {
-    after_cr: bool,
-    partial: bool,
-    count: usize,
-}
-
-impl Ends {
-    fn take(&mut self, bytes: &[u8]) {
-        for &b in bytes {
-            let after_cr = std::mem::replace(&mut self.after_cr, false);
-            match b {
-                b'\n' if after_cr => {}
-                b'\r' | b'\n' => {
-                    self.after_cr = b == b'\r';
-                    self.count += 1;
-                    self.partial = false;
-                }
-                _ => self.partial = true,
-            }
-        }
-    }
-}
-
-struct Out(Vec<u8>);
-
-impl embedded_io::ErrorType for Out {
-    type Error = core::convert::Infallible;
-}
-
-impl embedded_io::Write for Out {
-    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
-        self.0.extend_from_slice(buf);
-        Ok(buf.len())
-    }
-    fn flush(&mut self) -> Result<(), Self::Error> {
-        Ok(())
-    }
-}
-
-#[derive(Default)]
-struct Fixed;
-
-impl Clock for Fixed {
-    fn now_ms(&mut self) -> u64 {
-        0
-    }
-}
-
-/// Count status lines and check the bounds of every reply.
-fn audit(out: &[u8]) -> usize {
-    let mut statuses = 0;
-    let mut data = 0;
-    let text = String::from_utf8_lossy(out);
-    assert!(text.is_empty() || text.ends_with("\r\n"));
-    for l in text.split("\r\n").filter(|l| !l.is_empty()) {
-        assert!(l.len() <= MAX_OUT_LINE, "{} bytes: {l:?}", l.len());
-        assert!(!l.bytes().any(|b| b < 0x20), "control byte in output {l:?}");
-        if l == "ok" || l.starts_with("ok ") || l.starts_with("err ") {
-            statuses += 1;
-            data = 0;
-        } else {
-            data += 1;
-            assert!(data <= MAX_DATA_LINES);
-        }
-    }
-    statuses
-}
-
 proptest! {
     #![proptest_config(ProptestConfig { cases: 2000, ..ProptestConfig::default() })]
 
     #[test]
     fn one_status_line_per_line(seed in any::<u64>()) {
-        let mut g = Gen(seed);
-        let mut c = Console::new(Identity::new("console", "0"), NoJig, MemoryStore::default(), Fixed);
-        let mut ends = Ends::default();
-        let mut out = Out(Vec::new());
+        let mut g = Gen::new(seed);
+        let mut c = bare_console();
+        let mut ends = LineEnds::default();
+        let mut out = Vec::new();
         let mut statuses = 0;
         for _ in 0..LINES_PER_CASE {
             let mut bytes = line(&mut g);
@@ -217,8 +131,8 @@ proptest! {
                 rest = tail;
             }
             prop_assert!(!c.echo());
-            statuses += audit(&out.0);
-            out.0.clear();
+            statuses += audit(&out);
+            out.clear();
         }
         if g.below(2) == 0 {
             let tail = line(&mut g);
@@ -226,17 +140,16 @@ proptest! {
             c.feed(&tail, &mut out).unwrap();
         }
         c.finish(&mut out).unwrap();
-        statuses += audit(&out.0);
-        let expected = ends.count + usize::from(ends.partial);
-        prop_assert_eq!(statuses, expected);
+        statuses += audit(&out);
+        prop_assert_eq!(statuses, ends.lines());
     }
 
     #[test]
-    fn echo_on_never_panics_and_stays_bounded(seed in any::<u64>()) {
-        let mut g = Gen(seed);
-        let mut c = Console::new(Identity::new("console", "0"), NoJig, MemoryStore::default(), Fixed);
+    fn echo_on_never_panics(seed in any::<u64>()) {
+        let mut g = Gen::new(seed);
+        let mut c = bare_console();
         c.set_echo(true);
-        let mut out = Out(Vec::new());
+        let mut out = Vec::new();
         for _ in 0..50 {
             let mut bytes = line(&mut g);
             bytes.extend_from_slice(terminator(&mut g));
@@ -275,7 +188,7 @@ proptest! {
     }
 
     #[test]
-    fn parser_takes_any_text(s in "\\PC{0,140}") {
+    fn parser_never_panics_on_any_text(s in "\\PC{0,140}") {
         let _ = parse::parse(&s);
     }
 }
@@ -292,15 +205,15 @@ proptest! {
         vcc in 8.0f64..16.0,
         machine in any::<bool>(),
     ) {
-        let mut c = Console::new(Identity::new("console", "0"), NoJig, MemoryStore::default(), Fixed);
-        let mut out = Out(Vec::new());
+        let mut c = bare_console();
+        let mut out = Vec::new();
         if machine {
             c.feed(b"mode machine\n", &mut out).unwrap();
         }
         let line = format!("check {vcc} {vb} {ve} {vc}\ndiagnose\n");
         c.feed(line.as_bytes(), &mut out).unwrap();
-        prop_assert_eq!(audit(&out.0), 2 + usize::from(machine));
-        let text = String::from_utf8(out.0).unwrap();
+        prop_assert_eq!(audit(&out), 2 + usize::from(machine));
+        let text = String::from_utf8(out).unwrap();
         prop_assert!(!text.contains("cut at the size limit"), "{}", text);
         if machine && !text.contains("err IMPLAUSIBLE") {
             prop_assert!(text.contains("verdict="), "{}", text);

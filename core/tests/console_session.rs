@@ -1,23 +1,21 @@
 //! A scripted session through the console engine: every command, the help text and the errors.
 
-use std::cell::Cell;
-use std::rc::Rc;
+// The parts and predict tests need the spread and the analysis; a budget build tests that it
+// refuses them.
+#![cfg_attr(
+    not(all(feature = "spread", feature = "analysis")),
+    allow(unused_imports)
+)]
 
 use biasjig_core::console::jig::{MemoryStore, NoJig};
 use biasjig_core::console::{
-    Calibration, Channel, Clock, Console, Identity, Jig, JigError, LINE_MAX, MAX_OUT_LINE,
+    parse, Calibration, Channel, Code, Console, Identity, Jig, JigError, COMMANDS, LINE_MAX,
 };
 use biasjig_core::stage::{Fault, Readings};
-
-/// A clock the test moves by hand.
-#[derive(Clone, Default)]
-struct TestClock(Rc<Cell<u64>>);
-
-impl Clock for TestClock {
-    fn now_ms(&mut self) -> u64 {
-        self.0.get()
-    }
-}
+use biasjig_testkit::session::{
+    assert_contains, assert_line_with, assert_values, cmd, console_with, err, errs, ok, oks, send,
+    value, HandClock,
+};
 
 /// A jig that reads fixed node voltages through a raw gain error, and records injections.
 #[derive(Default)]
@@ -53,102 +51,20 @@ impl Jig for FakeJig {
     }
 }
 
-/// Output collected in memory.
-#[derive(Default)]
-struct Out(Vec<u8>);
+type Fake = Console<FakeJig, MemoryStore, HandClock>;
 
-impl embedded_io::ErrorType for Out {
-    type Error = core::convert::Infallible;
-}
-
-impl embedded_io::Write for Out {
-    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
-        self.0.extend_from_slice(buf);
-        Ok(buf.len())
-    }
-    fn flush(&mut self) -> Result<(), Self::Error> {
-        Ok(())
-    }
-}
-
-type Fake = Console<FakeJig, MemoryStore, TestClock>;
-
-fn console() -> (Fake, TestClock) {
-    let clock = TestClock::default();
+fn console() -> (Fake, HandClock) {
+    let clock = HandClock::default();
     let jig = FakeJig {
         nodes: [12.0, 2.0, 1.35, 5.5],
         raw_gain: 1.0,
         ..FakeJig::default()
     };
-    (
-        Console::new(
-            Identity::new("console", "0.1.0"),
-            jig,
-            MemoryStore::default(),
-            clock.clone(),
-        ),
-        clock,
-    )
-}
-
-/// Send bytes, return the output lines (CR LF split).
-fn send<J: Jig, S: biasjig_core::console::Store, C: Clock>(
-    c: &mut Console<J, S, C>,
-    input: &[u8],
-) -> Vec<String> {
-    let mut out = Out::default();
-    c.feed(input, &mut out).expect("memory never fails");
-    let text = String::from_utf8(out.0).expect("output is UTF-8");
-    assert!(text.is_empty() || text.ends_with("\r\n"), "{text:?}");
-    text.split("\r\n")
-        .filter(|l| !l.is_empty())
-        .map(str::to_owned)
-        .collect()
-}
-
-fn is_status(l: &str) -> bool {
-    l == "ok" || l.starts_with("ok ") || l.starts_with("err ")
-}
-
-/// One command: the data lines and the status line; exactly one status line, last.
-fn cmd(c: &mut Fake, line: &str) -> (Vec<String>, String) {
-    let mut lines = send(c, format!("{line}\n").as_bytes());
-    let status = lines.pop().unwrap_or_default();
-    assert!(is_status(&status), "{line:?} -> {status:?}");
-    assert!(lines.iter().all(|l| !is_status(l)), "{line:?}: {lines:?}");
-    assert!(lines
-        .iter()
-        .chain([&status])
-        .all(|l| l.len() <= MAX_OUT_LINE));
-    (lines, status)
-}
-
-fn ok(c: &mut Fake, line: &str) -> Vec<String> {
-    let (data, status) = cmd(c, line);
-    assert!(status.starts_with("ok"), "{line:?} -> {status}");
-    data
-}
-
-fn err(c: &mut Fake, line: &str, code: &str) -> String {
-    let (data, status) = cmd(c, line);
-    assert!(data.is_empty(), "{line:?}: {data:?}");
-    assert!(
-        status.starts_with(&format!("err {code} ")),
-        "{line:?} -> {status}"
-    );
-    status
-}
-
-fn value(data: &[String], key: &str) -> String {
-    data.iter()
-        .flat_map(|l| l.split(' '))
-        .find_map(|kv| kv.strip_prefix(&format!("{key}=")))
-        .unwrap_or_else(|| panic!("{key} not in {data:?}"))
-        .to_owned()
+    (console_with("0.1.0", jig, clock.clone()), clock)
 }
 
 #[test]
-fn identification() {
+fn identify_and_idn_answer_four_ieee_488_2_fields() {
     let (mut c, _) = console();
     let d = ok(&mut c, "*IDN?");
     assert_eq!(d, ["biasjig,console,0,0.1.0"]);
@@ -158,42 +74,73 @@ fn identification() {
     assert_eq!(ok(&mut c, "*idn?"), d);
 }
 
-#[test]
-fn help_has_every_command_and_the_safety_cautions() {
-    let (mut c, _) = console();
-    let d = ok(&mut c, "help").join("\n");
-    for word in [
-        "help",
-        "identify",
-        "*IDN?",
-        "*RST",
-        "stage",
-        "set",
-        "profile",
-        "parts",
-        "predict",
-        "hash",
-        "requirement",
-        "design",
-        "pick",
-        "spread",
-        "limits",
-        "meter",
-        "measure",
-        "check",
-        "test",
-        "diagnose",
-        "readings",
-        "calibrate",
-        "inject",
-        "lock",
-        "unlock",
-        "echo",
-        "mode",
-        "save",
-    ] {
-        assert!(d.contains(word), "help lacks {word}");
+/// The command words of docs/protocol.md's command table (the contract a station script is
+/// written from): the first word of each `code` span in the first cell of each row.
+fn documented_commands() -> Vec<String> {
+    let doc = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/../docs/protocol.md"))
+        .expect("docs/protocol.md");
+    let table = doc
+        .split("\n## Commands\n")
+        .nth(1)
+        .and_then(|t| t.split("\n#").next())
+        .expect("a Commands section");
+    let mut words = Vec::new();
+    for row in table.lines().filter(|l| l.starts_with("| `")) {
+        let cell = row.split(" | ").next().unwrap_or("");
+        for (k, span) in cell.split('`').enumerate() {
+            if k % 2 == 1 {
+                let w = span.split(' ').next().unwrap_or("").to_ascii_lowercase();
+                if !words.contains(&w) {
+                    words.push(w);
+                }
+            }
+        }
     }
+    words
+}
+
+#[test]
+fn help_lists_the_command_table_as_documented_and_the_safety_cautions() {
+    let (mut c, _) = console();
+    let d = ok(&mut c, "help");
+    // The table is the protocol document's command list, no more and no less.
+    let documented = documented_commands();
+    assert!(documented.len() >= 32, "{documented:?}");
+    for w in &documented {
+        assert!(
+            COMMANDS.iter().any(|s| s.is(w)),
+            "{w} documented but not a command"
+        );
+    }
+    for s in &COMMANDS {
+        for w in s.names.split(' ') {
+            assert!(
+                documented.iter().any(|d| d == w),
+                "{w} not in docs/protocol.md"
+            );
+            // The parser knows every word of the table.
+            if let Err(e) = parse::parse(w) {
+                assert_ne!(e.code, Code::Unknown, "{w}");
+            }
+        }
+        // `help` lists each row once, and `help NAME` shows it alone.
+        let row = format!("{:<40} {}", s.usage, s.help);
+        assert_eq!(
+            d.iter().filter(|l| l.trim_start() == row).count(),
+            1,
+            "{row}"
+        );
+        // (`help set` lists the names `set` takes instead.)
+        for w in s.names.split(' ').filter(|w| *w != "set") {
+            assert_eq!(
+                ok(&mut c, &format!("help {w}")),
+                [format!("  {row}")],
+                "{w}"
+            );
+        }
+    }
+    assert_eq!(d.len(), 1 + COMMANDS.len() + 4);
+    let d = d.join("\n");
     for caution in [
         "de-energise the board before changing probes or parts",
         "within their rated range",
@@ -208,7 +155,7 @@ fn help_has_every_command_and_the_safety_cautions() {
 }
 
 #[test]
-fn stage_set_and_show() {
+fn set_shows_in_stage_and_profile_and_the_hash_follows_the_parts() {
     let (mut c, _) = console();
     ok(&mut c, "mode machine");
     assert_eq!(ok(&mut c, "mode"), ["mode=machine"]);
@@ -242,62 +189,58 @@ fn stage_set_and_show() {
     ok(&mut c, "SET VCC 9");
     assert_eq!(value(&ok(&mut c, "stage"), "vcc"), "9");
     // Profile figures.
-    ok(&mut c, "set beta 150");
-    ok(&mut c, "set beta-max 400");
-    ok(&mut c, "set vbe 0.6");
-    ok(&mut c, "set early 80");
-    ok(&mut c, "set beta-tc 0.4%");
+    oks(
+        &mut c,
+        &[
+            "set beta 150",
+            "set beta-max 400",
+            "set vbe 0.6",
+            "set early 80",
+            "set beta-tc 0.4%",
+        ],
+    );
     let p = ok(&mut c, "profile");
-    assert_eq!(value(&p, "beta_min"), "150");
-    assert_eq!(value(&p, "beta_max"), "400");
-    assert_eq!(value(&p, "early"), "80");
+    assert_values(
+        &p,
+        &[("beta_min", "150"), ("beta_max", "400"), ("early", "80")],
+    );
     assert!((value(&p, "vbe").parse::<f64>().unwrap() - 0.6).abs() < 1e-9);
     // Errors name the field, the value and what is allowed; the stage stays as it was.
     let e = err(&mut c, "set r1 4x7", "VALUE");
-    assert!(
-        e.contains("r1") && e.contains("4x7") && e.contains("4k7"),
-        "{e}"
+    assert_contains(&e, &["r1", "4x7", "4k7"]);
+    errs(
+        &mut c,
+        &[
+            ("set zz 1", "VALUE"),
+            ("set r1", "USAGE"),
+            ("set beta-min 500", "RANGE"),
+            ("set vcc 0.1", "RANGE"),
+            ("set temp 500", "RANGE"),
+            ("set polarity xyz", "VALUE"),
+        ],
     );
-    err(&mut c, "set zz 1", "VALUE");
-    err(&mut c, "set r1", "USAGE");
-    err(&mut c, "set beta-min 500", "RANGE");
-    err(&mut c, "set vcc 0.1", "RANGE");
-    err(&mut c, "set temp 500", "RANGE");
-    err(&mut c, "set polarity xyz", "VALUE");
     assert_eq!(value(&ok(&mut c, "stage"), "vcc"), "9");
     // *RST: the defaults again.
     ok(&mut c, "*RST");
     assert_eq!(value(&ok(&mut c, "hash"), "hash"), h0);
 }
 
+#[cfg(feature = "spread")]
 #[test]
-fn parts_with_codes_and_bands() {
+fn parts_lists_iec_60062_codes_and_colour_bands() {
     let (mut c, _) = console();
     let human = ok(&mut c, "parts").join("\n");
     // IEC 60062: 47 kΩ 5 % is yellow violet orange gold; 4.7 kΩ yellow violet red gold.
-    assert!(
-        human.contains("47k") && human.contains("yellow violet orange gold"),
-        "{human}"
-    );
-    assert!(
-        human.contains("4k7") && human.contains("yellow violet red gold"),
-        "{human}"
-    );
+    assert_contains(&human, &["47k", "yellow violet orange gold"]);
+    assert_contains(&human, &["4k7", "yellow violet red gold"]);
     ok(&mut c, "mode machine");
     let m = ok(&mut c, "parts 5");
-    assert!(
-        m.iter()
-            .any(|l| l.contains("part=R2") && l.contains("bands=brown,black,black,red,gold")),
-        "{m:?}"
-    );
-    assert!(
-        m.iter()
-            .any(|l| l.contains("part=CE") && l.contains("code=470u")),
-        "{m:?}"
-    );
+    assert_line_with(&m, &["part=R2", "bands=brown,black,black,red,gold"]);
+    assert_line_with(&m, &["part=CE", "code=470u"]);
     err(&mut c, "parts 7", "VALUE");
 }
 
+#[cfg(feature = "analysis")]
 #[test]
 fn predict_matches_the_engine() {
     use biasjig_core::console::{default_profile, default_stage};
@@ -305,10 +248,7 @@ fn predict_matches_the_engine() {
     use biasjig_core::solve::Conditions;
     let (mut c, _) = console();
     let human = ok(&mut c, "predict").join("\n");
-    assert!(
-        human.contains("Q-point") && human.contains("active"),
-        "{human}"
-    );
+    assert_contains(&human, &["Q-point", "active"]);
     ok(&mut c, "mode machine");
     let d = ok(&mut c, "predict");
     let p = predict(
@@ -354,26 +294,33 @@ fn limits_come_from_the_limits_module() {
 }
 
 #[test]
-fn meter_measure_readings_calibrate_inject() {
+fn meter_measure_calibrate_and_inject_reach_the_jig() {
     let (mut c, _) = console();
     ok(&mut c, "mode machine");
     err(&mut c, "readings", "NO_READINGS");
-    ok(&mut c, "meter gain 1%");
-    ok(&mut c, "meter offset 2m");
-    ok(&mut c, "meter divider 0.2");
+    oks(
+        &mut c,
+        &["meter gain 1%", "meter offset 2m", "meter divider 0.2"],
+    );
     let m = ok(&mut c, "meter");
-    assert_eq!(value(&m, "gain"), "0.01");
-    assert_eq!(value(&m, "offset"), "0.002");
-    assert_eq!(value(&m, "divider"), "0.002");
+    assert_values(
+        &m,
+        &[("gain", "0.01"), ("offset", "0.002"), ("divider", "0.002")],
+    );
     err(&mut c, "meter gain 50", "RANGE");
     err(&mut c, "meter volume 3", "USAGE");
     let d = ok(&mut c, "measure 32");
     assert_eq!(value(&d, "vb"), "2");
     assert_eq!(value(&d, "source"), "measured");
     assert_eq!(ok(&mut c, "readings"), d);
-    err(&mut c, "measure 0", "VALUE");
-    err(&mut c, "measure 5000", "VALUE");
-    err(&mut c, "measure 1 2", "USAGE");
+    errs(
+        &mut c,
+        &[
+            ("measure 0", "VALUE"),
+            ("measure 5000", "VALUE"),
+            ("measure 1 2", "USAGE"),
+        ],
+    );
     // Two-point calibration of a channel reading 2 % high with a 10 mV offset.
     c.jig.raw_gain = 1.02;
     c.jig.applied = 1.0;
@@ -391,9 +338,14 @@ fn meter_measure_readings_calibrate_inject() {
     assert!((vb - 2.0).abs() < 0.011, "{vb}");
     c.jig.applied = 1.0;
     ok(&mut c, "calibrate ve low 1");
-    err(&mut c, "calibrate ve high 1.05", "VALUE");
-    err(&mut c, "calibrate xx low 1", "VALUE");
-    err(&mut c, "calibrate vb middle 1", "VALUE");
+    errs(
+        &mut c,
+        &[
+            ("calibrate ve high 1.05", "VALUE"),
+            ("calibrate xx low 1", "VALUE"),
+            ("calibrate vb middle 1", "VALUE"),
+        ],
+    );
     ok(&mut c, "calibrate reset");
     assert_eq!(c.jig.cal, Calibration::default());
     ok(&mut c, "inject r1 open");
@@ -401,9 +353,7 @@ fn meter_measure_readings_calibrate_inject() {
         c.jig.injected,
         Some(Some(Fault::Open(biasjig_core::stage::Resistor::R1)))
     );
-    ok(&mut c, "inject q be_open");
-    ok(&mut c, "inject rc 47");
-    ok(&mut c, "inject none");
+    oks(&mut c, &["inject q be_open", "inject rc 47", "inject none"]);
     assert_eq!(c.jig.injected, Some(None));
     err(&mut c, "inject q sideways", "VALUE");
     err(&mut c, "inject", "USAGE");
@@ -411,12 +361,7 @@ fn meter_measure_readings_calibrate_inject() {
 
 #[test]
 fn no_jig_says_not_supported() {
-    let mut c = Console::new(
-        Identity::new("console", "0"),
-        NoJig,
-        MemoryStore::default(),
-        TestClock::default(),
-    );
+    let mut c = console_with("0", NoJig, HandClock::default());
     let lines = send(&mut c, b"measure\ninject none\ncalibrate vb low 1\n");
     assert_eq!(lines.len(), 3);
     assert!(
@@ -425,6 +370,7 @@ fn no_jig_says_not_supported() {
     );
 }
 
+#[cfg(all(feature = "synthesis", feature = "spread", feature = "analysis"))]
 #[test]
 fn lock_refuses_changes_and_slows_wrong_pins() {
     let (mut c, clock) = console();
@@ -502,9 +448,7 @@ fn lock_survives_a_restart_through_the_store() {
 #[test]
 fn save_keeps_settings_and_calibration() {
     let (mut c, clock) = console();
-    ok(&mut c, "set rc 3k9");
-    ok(&mut c, "meter gain 0.3");
-    ok(&mut c, "save");
+    oks(&mut c, &["set rc 3k9", "meter gain 0.3", "save"]);
     let store = c.store.clone();
     let mut again = Console::new(
         Identity::new("console", "0"),
@@ -518,7 +462,7 @@ fn save_keeps_settings_and_calibration() {
 }
 
 #[test]
-fn line_discipline() {
+fn every_line_end_and_every_bad_line_gets_one_reply() {
     let (mut c, _) = console();
     // Blank lines and comments answer ok (hosts synchronise with a blank line).
     assert_eq!(
@@ -557,28 +501,28 @@ fn line_discipline() {
     }
     assert_eq!(all, ["biasjig,console,0,0.1.0", "ok"]);
     // An unfinished last line is answered at the end of input.
-    let mut out = Out::default();
+    let mut out = Vec::new();
     c.feed(b"*IDN?", &mut out).unwrap();
-    assert!(out.0.is_empty());
+    assert!(out.is_empty());
     c.finish(&mut out).unwrap();
-    assert!(String::from_utf8(out.0).unwrap().ends_with("ok\r\n"));
+    assert!(String::from_utf8(out).unwrap().ends_with("ok\r\n"));
 }
 
 #[test]
-fn echo_and_editing() {
+fn echo_repeats_the_input_and_backspace_edits_it() {
     let (mut c, _) = console();
-    let mut out = Out::default();
+    let mut out = Vec::new();
     c.feed(b"echo on\r\n", &mut out).unwrap();
-    assert_eq!(String::from_utf8(out.0).unwrap(), "ok\r\n");
-    let mut out = Out::default();
+    assert_eq!(String::from_utf8(out).unwrap(), "ok\r\n");
+    let mut out = Vec::new();
     c.feed(b"*IDX\x08N?\r\n", &mut out).unwrap();
     assert_eq!(
-        String::from_utf8(out.0).unwrap(),
+        String::from_utf8(out).unwrap(),
         "*IDX\x08 \x08N?\r\nbiasjig,console,0,0.1.0\r\nok\r\n"
     );
-    let mut out = Out::default();
+    let mut out = Vec::new();
     c.feed(b"echo off\n", &mut out).unwrap();
-    assert_eq!(String::from_utf8(out.0).unwrap(), "echo off\r\nok\r\n");
+    assert_eq!(String::from_utf8(out).unwrap(), "echo off\r\nok\r\n");
     assert_eq!(send(&mut c, b"x\n"), ["err UNKNOWN command: x: see help"]);
 }
 
@@ -627,6 +571,7 @@ fn write_errors_end_the_call() {
     }
 }
 
+#[cfg(all(feature = "spread", feature = "analysis"))]
 #[test]
 fn replies_stay_within_bounds() {
     use biasjig_core::console::MAX_DATA_LINES;
@@ -661,11 +606,28 @@ fn readings_and_temperatures_with_another_unit_are_refused() {
     ok(&mut c, "mode machine");
     let e = err(&mut c, "check 12 2.29 1.67mA 3.72", "VALUE");
     assert!(e.contains("ve"), "{e}");
-    err(&mut c, "set temp 25V", "VALUE");
-    err(&mut c, "set temp-min 20F", "VALUE");
-    err(&mut c, "set tj-max 150A", "VALUE");
-    err(&mut c, "calibrate vb low 1mA", "VALUE");
+    errs(
+        &mut c,
+        &[
+            ("set temp 25V", "VALUE"),
+            ("set temp-min 20F", "VALUE"),
+            ("set tj-max 150A", "VALUE"),
+            ("calibrate vb low 1mA", "VALUE"),
+        ],
+    );
     // The field's own unit is still accepted.
     ok(&mut c, "set temp 30C");
     ok(&mut c, "set temp 25°C");
+}
+
+/// Without the spread and the analysis the unit refuses `parts` and `predict`, naming the PC
+/// command that does it.
+#[cfg(not(any(feature = "spread", feature = "analysis")))]
+#[test]
+fn a_unit_without_the_spread_and_analysis_names_the_pc_commands() {
+    let (mut c, _) = console();
+    for (l, pc) in [("parts", "biasjig design"), ("predict", "biasjig analyze")] {
+        let e = err(&mut c, l, "NOT_SUPPORTED");
+        assert!(e.contains(pc), "{l}: {e}");
+    }
 }

@@ -2,21 +2,14 @@
 //! gain, applied by the jig's gain measurement, kept through a restart, and old calibration
 //! records (version 4, channels only) still read.
 
+#![cfg_attr(not(feature = "signal-test"), allow(dead_code, unused_imports))]
+
 use biasjig_core::console::jig::{MemoryStore, Slot, Store, RECORD_LEN};
 use biasjig_core::console::record::{decode_calibration, encode_calibration_v4};
-use biasjig_core::console::{
-    Calibration, Channel, ChannelCal, Clock, Console, Identity, Jig, JigError,
-};
+use biasjig_core::console::{Calibration, Channel, ChannelCal, Console, Identity, Jig, JigError};
 use biasjig_core::stage::Readings;
-
-#[derive(Clone, Default)]
-struct NoClock;
-
-impl Clock for NoClock {
-    fn now_ms(&mut self) -> u64 {
-        0
-    }
-}
+use biasjig_testkit::fnv::fnv1a64 as fnv1a;
+use biasjig_testkit::session::{console_with, send, FixedClock as NoClock};
 
 /// A jig whose load input reads `load_over_source` of what its source input reads; the true
 /// gain of what is fitted is `true_gain`. Its gain measurement divides by the calibration's
@@ -42,22 +35,6 @@ impl Jig for ToneJig {
     }
 }
 
-struct Out(Vec<u8>);
-
-impl embedded_io::ErrorType for Out {
-    type Error = core::convert::Infallible;
-}
-
-impl embedded_io::Write for Out {
-    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
-        self.0.extend_from_slice(buf);
-        Ok(buf.len())
-    }
-    fn flush(&mut self) -> Result<(), Self::Error> {
-        Ok(())
-    }
-}
-
 type C = Console<ToneJig, MemoryStore, NoClock>;
 
 fn jig(load_over_source: f64) -> ToneJig {
@@ -70,15 +47,7 @@ fn jig(load_over_source: f64) -> ToneJig {
 }
 
 fn lines(c: &mut C, line: &str) -> Vec<String> {
-    let mut out = Out(Vec::new());
-    c.feed(format!("{line}\n").as_bytes(), &mut out)
-        .expect("memory never fails");
-    String::from_utf8(out.0)
-        .unwrap()
-        .split("\r\n")
-        .filter(|l| !l.is_empty())
-        .map(str::to_owned)
-        .collect()
+    send(c, format!("{line}\n").as_bytes())
 }
 
 fn status(c: &mut C, line: &str) -> String {
@@ -93,15 +62,11 @@ fn correction(data: &[String]) -> f64 {
         .unwrap()
 }
 
+#[cfg(feature = "signal-test")]
 #[test]
 fn a_through_connection_corrects_the_gain_and_the_correction_is_kept() {
     // Load input reading 3 % high: a through connection (gain 1) reads 1.03 before.
-    let mut c = Console::new(
-        Identity::new("console", "0"),
-        jig(1.03),
-        MemoryStore::default(),
-        NoClock,
-    );
+    let mut c = console_with("0", jig(1.03), NoClock);
     assert_eq!(status(&mut c, "mode machine"), "ok");
     let d = lines(&mut c, "calibrate gain 1k 1");
     assert_eq!(d.last().map(String::as_str), Some("ok"), "{d:?}");
@@ -130,14 +95,10 @@ fn a_through_connection_corrects_the_gain_and_the_correction_is_kept() {
     assert_eq!(c.jig.cal.signal, 1.0);
 }
 
+#[cfg(feature = "signal-test")]
 #[test]
 fn bad_calibrations_are_refused_and_change_nothing() {
-    let mut c = Console::new(
-        Identity::new("console", "0"),
-        jig(1.0),
-        MemoryStore::default(),
-        NoClock,
-    );
+    let mut c = console_with("0", jig(1.0), NoClock);
     // No reference fitted: the jig reads almost nothing, the correction would be far out.
     c.jig.true_gain = 0.01;
     let s = status(&mut c, "calibrate gain 1k 1");
@@ -189,12 +150,12 @@ fn a_version_4_calibration_record_is_read_with_the_signal_path_uncorrected() {
     );
 }
 
-/// FNV-1a 64 (the record's checksum, as core/src/console/record.rs documents it).
-fn fnv1a(bytes: &[u8]) -> u64 {
-    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
-    for b in bytes {
-        h ^= u64::from(*b);
-        h = h.wrapping_mul(0x0000_0100_0000_01b3);
-    }
-    h
+/// Without the signal test the unit refuses `calibrate gain` and changes nothing.
+#[cfg(not(feature = "signal-test"))]
+#[test]
+fn a_unit_without_the_signal_test_refuses_a_gain_calibration() {
+    let mut c = console_with("0", jig(1.03), NoClock);
+    let s = status(&mut c, "calibrate gain 1k 1");
+    assert!(s.starts_with("err NOT_SUPPORTED calibrate gain:"), "{s}");
+    assert_eq!(c.jig.cal.signal, 1.0);
 }

@@ -9,133 +9,15 @@
 
 #![cfg(feature = "fault-detail")]
 
-use biasjig_core::device::{is_from_vbe, Profile};
 use biasjig_core::diagnose::{diagnose, ResistorMode, Suspect};
 use biasjig_core::explain::{listing, Group, Listed, Member};
 use biasjig_core::limits::Meter;
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::Variation;
-use biasjig_core::stage::{DeviceFault, Fault, Part, Polarity, Readings, Resistor, Stage};
-
-/// A small seeded generator (SplitMix64), the same numbers on every platform.
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn pick<T: Copy>(&mut self, v: &[T]) -> T {
-        v[(self.next() % v.len() as u64) as usize]
-    }
-}
-
-fn stage(polarity: Polarity, vcc: f64, r: [f64; 5]) -> Stage {
-    Stage {
-        polarity,
-        vcc: Part::new(vcc, 0.0),
-        r1: Part::new(r[0], 0.05),
-        r2: Part::new(r[1], 0.05),
-        rc: Part::new(r[2], 0.05),
-        re1: Part::new(r[3], 0.05),
-        re2: Part::new(r[4], 0.05),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    }
-}
-
-fn profile(min: f64, typ: f64, max: f64, vbe: f64) -> Profile {
-    Profile {
-        beta_min: min,
-        beta_typ: typ,
-        beta_max: max,
-        is_25: is_from_vbe(vbe),
-        ..Profile::default()
-    }
-}
-
-/// Invented test designs (not from any book): two NPN, two PNP, one without RE1.
-fn designs() -> Vec<(&'static str, Stage, Profile)> {
-    vec![
-        (
-            "npn15",
-            stage(Polarity::Npn, 15.0, [68e3, 15e3, 3.9e3, 220.0, 820.0]),
-            profile(120.0, 210.0, 360.0, 0.66),
-        ),
-        (
-            "pnp9",
-            stage(Polarity::Pnp, 9.0, [12e3, 47e3, 2.7e3, 150.0, 820.0]),
-            profile(100.0, 180.0, 300.0, 0.64),
-        ),
-        (
-            "npn24",
-            stage(Polarity::Npn, 24.0, [150e3, 18e3, 10e3, 0.0, 1.5e3]),
-            profile(80.0, 150.0, 250.0, 0.68),
-        ),
-        (
-            "pnp5",
-            stage(Polarity::Pnp, 5.0, [10e3, 18e3, 1e3, 47.0, 470.0]),
-            profile(150.0, 250.0, 450.0, 0.62),
-        ),
-    ]
-}
-
-fn readings_of(s: &Stage, p: &Profile, beta: f64, fault: Option<Fault>) -> Option<Readings> {
-    let (st, dev) = match fault {
-        Some(Fault::Device(d)) => (*s, Some(d)),
-        Some(f) => (s.with_fault(f), None),
-        None => (*s, None),
-    };
-    let op = solve(
-        &st,
-        p,
-        Conditions {
-            temp_c: 25.0,
-            beta_25: beta,
-            fault: dev,
-            loads: Default::default(),
-        },
-    )
-    .ok()?;
-    Some(Readings {
-        vcc: op.vcc,
-        vb: op.vb,
-        ve: op.ve,
-        vc: op.vc,
-    })
-}
-
-fn all_faults(s: &Stage, rng: &mut Rng) -> Vec<(Suspect, Fault)> {
-    let mut v = Vec::new();
-    for r in Resistor::ALL {
-        let nominal = s.resistor(r);
-        if nominal == 0.0 {
-            continue;
-        }
-        v.push((Suspect::Resistor(r, ResistorMode::Open), Fault::Open(r)));
-        v.push((Suspect::Resistor(r, ResistorMode::Short), Fault::Short(r)));
-        let low = rng.pick(&[0.1, 0.5, 0.3, 0.01, 0.2]);
-        v.push((
-            Suspect::Resistor(r, ResistorMode::Low),
-            Fault::Value(r, nominal * low),
-        ));
-        let high = rng.pick(&[10.0, 2.0, 3.0, 100.0, 5.0]);
-        v.push((
-            Suspect::Resistor(r, ResistorMode::High),
-            Fault::Value(r, nominal * high),
-        ));
-    }
-    for d in DeviceFault::ALL {
-        v.push((Suspect::Device(d), Fault::Device(d)));
-    }
-    v
-}
+use biasjig_core::stage::{Fault, Part, Resistor};
+use biasjig_testkit::fixtures::{dc_designs as designs, readings, readings_of};
+use biasjig_testkit::rng::Rng;
+use biasjig_testkit::sweep::all_faults;
 
 /// What the technician's meter shows for `part` when `truth` is the fault: -1 below its band,
 /// +1 above, 0 within.
@@ -243,7 +125,7 @@ fn a_ce_short_is_named_with_re2_short_and_ce_is_lifted_first() {
 fn every_group_gets_an_in_circuit_action_that_leads_each_member_to_itself() {
     let meter = Meter::default();
     let var = Variation::at(25.0);
-    let mut rng = Rng(0x00C1_2C17);
+    let mut rng = Rng::new(0x00C1_2C17);
     let mut seen = std::collections::BTreeSet::new();
     for (name, design, prof) in designs() {
         for beta in [prof.beta_min, prof.beta_typ, prof.beta_max] {
@@ -403,17 +285,7 @@ fn capacitor_groups_with_signal_readings_lead_each_member_to_itself() {
         } else {
             s
         };
-        let op = solve(
-            &dc,
-            &p,
-            Conditions {
-                temp_c: 25.0,
-                beta_25: p.beta_typ,
-                fault: None,
-                loads: Default::default(),
-            },
-        )
-        .unwrap();
+        let op = solve(&dc, &p, Conditions::typical(&p)).unwrap();
         let caps = Caps::nominal(&s).with(c, state);
         let tones: Vec<ToneReading> = freqs
             .iter()
@@ -422,12 +294,7 @@ fn capacitor_groups_with_signal_readings_lead_each_member_to_itself() {
                 gain: gain_at(&s, &op, &caps, f).unwrap().magnitude(),
             })
             .collect();
-        let r = Readings {
-            vcc: op.vcc,
-            vb: op.vb,
-            ve: op.ve,
-            vc: op.vc,
-        };
+        let r = readings(&op);
         let d = diagnose_with_signal(
             &s,
             &p,

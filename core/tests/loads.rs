@@ -5,37 +5,15 @@
 //! with the same transport-form Ebers-Moll equations (CONTRACT.md), in the stage's own polarity
 //! (no mirrored frame), by a plain damped Newton's method on the three node voltages.
 
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::solve::{solve, Conditions, NodeLoads, OperatingPoint, Region};
-use biasjig_core::stage::{Fault, Part, Polarity, Resistor, Stage};
+use biasjig_core::stage::{Fault, Polarity, Resistor, Stage};
 use biasjig_core::thermal_voltage;
+use biasjig_testkit::fixtures::{fixed_profile, stage};
 use proptest::prelude::*;
 
-fn stage(polarity: Polarity, vcc: f64, r: [f64; 5]) -> Stage {
-    Stage {
-        polarity,
-        vcc: Part::new(vcc, 0.0),
-        r1: Part::new(r[0], 0.05),
-        r2: Part::new(r[1], 0.05),
-        rc: Part::new(r[2], 0.05),
-        re1: Part::new(r[3], 0.05),
-        re2: Part::new(r[4], 0.05),
-        rl: None,
-        rs: 0.0,
-        cin: None,
-        cout: None,
-        ce: None,
-    }
-}
-
 fn profile(beta: f64) -> Profile {
-    Profile {
-        beta_min: beta,
-        beta_typ: beta,
-        beta_max: beta,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    }
+    fixed_profile(beta, 0.65)
 }
 
 /// A node's Thévenin equivalent as a Norton conductance and open-circuit voltage (conductance

@@ -4,44 +4,25 @@
 //! with emitter resistance and its low-frequency response by short-circuit time constants;
 //! from memory), and the midband limit equal to the midband figures.
 
-use biasjig_core::device::{is_from_vbe, Profile};
+use biasjig_core::device::Profile;
 use biasjig_core::lowfreq::low_corner;
 use biasjig_core::response::{gain_at, magnitude_at, CapState, Caps, Gain};
 use biasjig_core::signal::midband;
 use biasjig_core::solve::{solve, Conditions, OperatingPoint};
-use biasjig_core::stage::{Part, Polarity, Stage};
+use biasjig_core::stage::{Capacitor, Stage};
+use biasjig_testkit::fixtures::{demo_stage, fixed_profile, with_signal};
 use std::f64::consts::PI;
 
-// Invented stage values (ours).
+// Invented stage values (ours): the demo board with its capacitors.
 fn stage() -> Stage {
-    Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, 0.0),
-        r1: Part::new(47e3, 0.05),
-        r2: Part::new(10e3, 0.05),
-        rc: Part::new(4.7e3, 0.05),
-        re1: Part::new(220.0, 0.05),
-        re2: Part::new(1e3, 0.05),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: Some(Part::new(1e-6, 0.2)),
-        cout: Some(Part::new(1e-6, 0.2)),
-        ce: Some(Part::new(47e-6, 0.2)),
-    }
+    with_signal(demo_stage(), 15e3, 600.0, [1e-6, 1e-6, 47e-6])
 }
 
+/// hFE 150 with no temperature coefficient, VBE 0.65 V at 1 mA.
 fn profile() -> Profile {
     Profile {
-        beta_min: 150.0,
-        beta_typ: 150.0,
-        beta_max: 150.0,
-        beta_rev: 1.0,
         beta_tc: 0.0,
-        is_25: is_from_vbe(0.65),
-        early: None,
-        vce_sat: 0.2,
-        power_25: 0.3,
-        tj_max: 150.0,
+        ..fixed_profile(150.0, 0.65)
     }
 }
 
@@ -72,6 +53,27 @@ fn solved(s: &Stage) -> OperatingPoint {
     solve(s, &profile(), Conditions::typical(&profile())).unwrap()
 }
 
+/// The stage with only the capacitor `keep` (the other two left out: shorts), and its
+/// operating point.
+fn alone(keep: Capacitor) -> (Stage, OperatingPoint) {
+    let mut s = stage();
+    for c in Capacitor::ALL.into_iter().filter(|c| *c != keep) {
+        *match c {
+            Capacitor::Cin => &mut s.cin,
+            Capacitor::Cout => &mut s.cout,
+            Capacitor::Ce => &mut s.ce,
+        } = None;
+    }
+    let op = solved(&s);
+    (s, op)
+}
+
+/// The response at `f` (Hz) relative to the midband's (at 100 MHz), as (re, im).
+fn relative(s: &Stage, op: &OperatingPoint, f: f64) -> (f64, f64) {
+    let at = |f: f64| gain_at(s, op, &Caps::nominal(s), f).unwrap();
+    ratio(at(f), at(1e8))
+}
+
 #[test]
 fn midband_limit_equals_the_midband_figures() {
     let s = stage();
@@ -95,18 +97,13 @@ fn midband_limit_equals_the_midband_figures() {
 
 #[test]
 fn input_coupling_alone_is_a_first_order_high_pass() {
-    let mut s = stage();
-    s.cout = None;
-    s.ce = None;
-    let op = solved(&s);
+    let (s, op) = alone(Capacitor::Cin);
     let (beta, rpi) = hybrid(&op);
     // Short-circuit time constant of CIN: RS + R1‖R2‖(rπ + (β+1)·RE1).
     let rin = par(par(47e3, 10e3), rpi + (beta + 1.0) * 220.0);
     let fp = 1.0 / (2.0 * PI * (600.0 + rin) * 1e-6);
-    let mid = gain_at(&s, &op, &Caps::nominal(&s), 1e8).unwrap();
     for k in [0.2, 1.0, 5.0] {
-        let f = k * fp;
-        let (re, im) = ratio(gain_at(&s, &op, &Caps::nominal(&s), f).unwrap(), mid);
+        let (re, im) = relative(&s, &op, k * fp);
         // jx/(1 + jx), x = f/fp.
         let want = (k * k / (1.0 + k * k), k / (1.0 + k * k));
         assert!(
@@ -118,33 +115,25 @@ fn input_coupling_alone_is_a_first_order_high_pass() {
 
 #[test]
 fn output_coupling_alone_sees_rc_plus_rl() {
-    let mut s = stage();
-    s.cin = None;
-    s.ce = None;
-    let op = solved(&s);
+    let (s, op) = alone(Capacitor::Cout);
     // Without Early effect ro is infinite: COUT sees RC + RL.
     let fp = 1.0 / (2.0 * PI * (4.7e3 + 15e3) * 1e-6);
-    let mid = gain_at(&s, &op, &Caps::nominal(&s), 1e8).unwrap();
-    let (re, im) = ratio(gain_at(&s, &op, &Caps::nominal(&s), fp).unwrap(), mid);
+    let (re, im) = relative(&s, &op, fp);
     assert!(close(re, 0.5, 0.005) && close(im, 0.5, 0.005), "{re} {im}");
 }
 
 #[test]
 fn bypass_alone_gives_a_pole_and_a_zero() {
-    let mut s = stage();
-    s.cin = None;
-    s.cout = None;
-    let op = solved(&s);
+    let (s, op) = alone(Capacitor::Ce);
     let (beta, rpi) = hybrid(&op);
     // CE sees RE2 ‖ (RE1 + (rπ + RS‖R1‖R2)/(β+1)); the zero is at 1/(2π·RE2·CE).
     let rsb = par(600.0, par(47e3, 10e3));
     let r_ce = par(1e3, 220.0 + (rpi + rsb) / (beta + 1.0));
     let fp = 1.0 / (2.0 * PI * r_ce * 47e-6);
     let fz = 1.0 / (2.0 * PI * 1e3 * 47e-6);
-    let mid = gain_at(&s, &op, &Caps::nominal(&s), 1e8).unwrap();
     for k in [0.1, 0.5, 1.0, 3.0] {
         let f = k * fp;
-        let (re, im) = ratio(gain_at(&s, &op, &Caps::nominal(&s), f).unwrap(), mid);
+        let (re, im) = relative(&s, &op, f);
         // (fz + j·f)/(fp + j·f): the unbypassed gain far below, the midband far above.
         let d = fp * fp + f * f;
         let want = ((fz * fp + f * f) / d, (f * fp - fz * f) / d);

@@ -211,142 +211,68 @@ fn bands(ohms: f64, tol: f64, count: BandCount) -> Result<Vec<Colour>, BandError
 }
 
 #[test]
-fn colour_bands_examples() {
+fn colour_bands_follow_iec_60062() {
     use Colour::*;
     // Source: IEC 60062:2016 colour code, from memory.
-    assert_eq!(
-        bands(4700.0, 0.05, BandCount::Four),
-        Ok(vec![Yellow, Violet, Red, Gold])
-    );
-    assert_eq!(
-        bands(4700.0, 0.01, BandCount::Five),
-        Ok(vec![Yellow, Violet, Black, Brown, Brown])
-    );
-    assert_eq!(
-        bands(0.47, 0.05, BandCount::Four),
-        Ok(vec![Yellow, Violet, Silver, Gold])
-    );
-    assert_eq!(
-        bands(10.0, 0.05, BandCount::Four),
-        Ok(vec![Brown, Black, Black, Gold])
-    );
-    assert_eq!(
-        bands(1.0, 0.05, BandCount::Four),
-        Ok(vec![Brown, Black, Gold, Gold])
-    );
-    assert_eq!(
-        bands(100e3, 0.10, BandCount::Four),
-        Ok(vec![Brown, Black, Yellow, Silver])
-    );
-    assert_eq!(
-        bands(2.2e6, 0.20, BandCount::Four),
-        Ok(vec![Red, Red, Green, None])
-    );
-    assert_eq!(
-        bands(4750.0, 0.01, BandCount::Five),
-        Ok(vec![Yellow, Violet, Green, Brown, Brown])
-    );
-    assert_eq!(
-        bands(12.1, 0.005, BandCount::Five),
-        Ok(vec![Brown, Red, Brown, Gold, Green])
-    );
-    assert_eq!(
-        bands(0.047, 0.02, BandCount::Four),
-        Ok(vec![Yellow, Violet, Pink, Red])
-    );
-    assert_eq!(
-        bands(99e9, 0.01, BandCount::Four),
-        Ok(vec![White, White, White, Brown])
-    );
-    assert_eq!(
-        bands(1e3, 0.0025, BandCount::Four),
-        Ok(vec![Brown, Black, Red, Blue])
-    );
-    assert_eq!(
-        bands(1e3, 0.001, BandCount::Four),
-        Ok(vec![Brown, Black, Red, Violet])
-    );
-    assert_eq!(
-        bands(1e3, 0.0005, BandCount::Four),
-        Ok(vec![Brown, Black, Red, Grey])
-    );
-    // Float noise is rounded away (4700.0000001 is 4k7).
-    assert_eq!(
-        bands(4_700.000_000_1, 0.05, BandCount::Four),
-        Ok(vec![Yellow, Violet, Red, Gold])
-    );
-    assert_eq!(
-        bands(0.1 + 0.2, 0.05, BandCount::Four),
-        Ok(vec![Orange, Black, Silver, Gold])
-    );
+    let four: &[(f64, f64, &[Colour])] = &[
+        (4700.0, 0.05, &[Yellow, Violet, Red, Gold]),
+        (0.47, 0.05, &[Yellow, Violet, Silver, Gold]),
+        (10.0, 0.05, &[Brown, Black, Black, Gold]),
+        (1.0, 0.05, &[Brown, Black, Gold, Gold]),
+        (100e3, 0.10, &[Brown, Black, Yellow, Silver]),
+        (2.2e6, 0.20, &[Red, Red, Green, None]),
+        (0.047, 0.02, &[Yellow, Violet, Pink, Red]),
+        (99e9, 0.01, &[White, White, White, Brown]),
+        (1e3, 0.0025, &[Brown, Black, Red, Blue]),
+        (1e3, 0.001, &[Brown, Black, Red, Violet]),
+        (1e3, 0.0005, &[Brown, Black, Red, Grey]),
+        // Float noise is rounded away (4700.0000001 is 4k7).
+        (4_700.000_000_1, 0.05, &[Yellow, Violet, Red, Gold]),
+        (0.1 + 0.2, 0.05, &[Orange, Black, Silver, Gold]),
+    ];
+    let five: &[(f64, f64, &[Colour])] = &[
+        (4700.0, 0.01, &[Yellow, Violet, Black, Brown, Brown]),
+        (4750.0, 0.01, &[Yellow, Violet, Green, Brown, Brown]),
+        (12.1, 0.005, &[Brown, Red, Brown, Gold, Green]),
+    ];
+    for (count, cases) in [(BandCount::Four, four), (BandCount::Five, five)] {
+        for &(ohms, tol, want) in cases {
+            assert_eq!(bands(ohms, tol, count), Ok(want.to_vec()), "{ohms} {tol}");
+        }
+    }
 }
 
 #[test]
 fn colour_band_errors() {
-    assert_eq!(
-        bands(4750.0, 0.05, BandCount::Four),
-        Err(BandError::TooManyDigits)
-    );
-    assert_eq!(
-        bands(4753.0, 0.01, BandCount::Five),
-        Err(BandError::TooManyDigits)
-    );
-    assert_eq!(
-        bands(0.0, 0.05, BandCount::Four),
-        Err(BandError::NotPositive)
-    );
-    assert_eq!(
-        bands(-10.0, 0.05, BandCount::Four),
-        Err(BandError::NotPositive)
-    );
-    assert_eq!(
-        bands(f64::NAN, 0.05, BandCount::Four),
-        Err(BandError::NotPositive)
-    );
-    assert_eq!(
-        bands(f64::INFINITY, 0.05, BandCount::Four),
-        Err(BandError::OutOfRange)
-    );
-    assert_eq!(
-        bands(100e9, 0.05, BandCount::Four),
-        Err(BandError::OutOfRange)
-    );
-    assert_eq!(
-        bands(0.001, 0.05, BandCount::Four),
-        Err(BandError::OutOfRange)
-    );
-    assert_eq!(
-        bands(0.01, 0.05, BandCount::Five),
-        Err(BandError::OutOfRange)
-    );
-    assert_eq!(
-        bands(4700.0, 0.03, BandCount::Four),
-        Err(BandError::NoToleranceColour)
-    );
-    assert_eq!(
-        bands(4700.0, f64::NAN, BandCount::Four),
-        Err(BandError::NoToleranceColour)
-    );
+    for (ohms, tol, count, want) in [
+        (4750.0, 0.05, BandCount::Four, BandError::TooManyDigits),
+        (4753.0, 0.01, BandCount::Five, BandError::TooManyDigits),
+        (0.0, 0.05, BandCount::Four, BandError::NotPositive),
+        (-10.0, 0.05, BandCount::Four, BandError::NotPositive),
+        (f64::NAN, 0.05, BandCount::Four, BandError::NotPositive),
+        (f64::INFINITY, 0.05, BandCount::Four, BandError::OutOfRange),
+        (100e9, 0.05, BandCount::Four, BandError::OutOfRange),
+        (0.001, 0.05, BandCount::Four, BandError::OutOfRange),
+        (0.01, 0.05, BandCount::Five, BandError::OutOfRange),
+        (4700.0, 0.03, BandCount::Four, BandError::NoToleranceColour),
+        (
+            4700.0,
+            f64::NAN,
+            BandCount::Four,
+            BandError::NoToleranceColour,
+        ),
+    ] {
+        assert_eq!(bands(ohms, tol, count), Err(want), "{ohms} {tol}");
+    }
     assert!(!BandError::TooManyDigits.to_string().is_empty());
 }
 
 #[test]
-fn colour_names() {
+fn colour_names_are_lower_case_english() {
+    use Colour::*;
     let all = [
-        Colour::Black,
-        Colour::Brown,
-        Colour::Red,
-        Colour::Orange,
-        Colour::Yellow,
-        Colour::Green,
-        Colour::Blue,
-        Colour::Violet,
-        Colour::Grey,
-        Colour::White,
-        Colour::Gold,
-        Colour::Silver,
-        Colour::Pink,
-        Colour::None,
+        Black, Brown, Red, Orange, Yellow, Green, Blue, Violet, Grey, White, Gold, Silver, Pink,
+        None,
     ];
     let names: Vec<&str> = all.iter().map(|c| c.name()).collect();
     assert_eq!(

@@ -7,54 +7,19 @@ use biasjig_core::response::{magnitude_at, Caps};
 use biasjig_core::signaltest::{monte_carlo, propose, windows, SignalMeter};
 use biasjig_core::solve::{solve, Conditions};
 use biasjig_core::spread::Variation;
-use biasjig_core::stage::{Part, Polarity, Stage};
+use biasjig_core::stage::Stage;
+use biasjig_testkit::fixtures::signal_designs;
 
+/// The signal designs of the sweep with the supply at 5 % and VBE 0.65 V at 1 mA on both.
 fn stages() -> Vec<(Stage, Profile)> {
-    let p = |min: f64, typ: f64, max: f64| Profile {
-        beta_min: min,
-        beta_typ: typ,
-        beta_max: max,
-        is_25: is_from_vbe(0.65),
-        ..Profile::default()
-    };
-    let s = |pol, vcc: f64, r: [f64; 5], rl: f64, rs: f64, c: [f64; 3]| Stage {
-        polarity: pol,
-        vcc: Part::new(vcc, 0.05),
-        r1: Part::new(r[0], 0.05),
-        r2: Part::new(r[1], 0.05),
-        rc: Part::new(r[2], 0.05),
-        re1: Part::new(r[3], 0.05),
-        re2: Part::new(r[4], 0.05),
-        rl: Some(rl),
-        rs,
-        cin: Some(Part::new(c[0], 0.2)),
-        cout: Some(Part::new(c[1], 0.2)),
-        ce: Some(Part::new(c[2], 0.2)),
-    };
-    vec![
-        (
-            s(
-                Polarity::Npn,
-                12.0,
-                [47e3, 10e3, 4.7e3, 220.0, 820.0],
-                15e3,
-                600.0,
-                [4.7e-6, 2.2e-6, 47e-6],
-            ),
-            p(100.0, 180.0, 300.0),
-        ),
-        (
-            s(
-                Polarity::Pnp,
-                9.0,
-                [12e3, 47e3, 2.7e3, 150.0, 820.0],
-                10e3,
-                1e3,
-                [2.2e-6, 1e-6, 100e-6],
-            ),
-            p(120.0, 200.0, 350.0),
-        ),
-    ]
+    signal_designs()
+        .into_iter()
+        .map(|(_, mut s, mut p)| {
+            s.vcc.tol = 0.05;
+            p.is_25 = is_from_vbe(0.65);
+            (s, p)
+        })
+        .collect()
 }
 
 #[test]

@@ -5,95 +5,75 @@ use biasjig_core::units::{
 };
 use proptest::prelude::*;
 
+/// Each text parses to exactly its value.
+fn parse_to(parse: fn(&str) -> Result<f64, ValueError>, cases: &[(&str, f64)]) {
+    for &(text, want) in cases {
+        assert_eq!(parse(text), Ok(want), "{text:?}");
+    }
+}
+
 fn close(a: f64, b: f64, rel: f64) -> bool {
     (a - b).abs() <= rel * b.abs().max(f64::MIN_POSITIVE)
 }
 
 #[test]
-fn plain_and_exponent_numbers() {
-    assert_eq!(parse_value("4700"), Ok(4700.0));
-    assert_eq!(parse_value("0.5"), Ok(0.5));
-    assert_eq!(parse_value(".5"), Ok(0.5));
-    assert_eq!(parse_value("5."), Ok(5.0));
-    assert_eq!(parse_value("+12"), Ok(12.0));
-    assert_eq!(parse_value("0"), Ok(0.0));
-    assert_eq!(parse_value("4.2e-05"), Ok(4.2e-5));
-    assert_eq!(parse_value("1E3"), Ok(1000.0));
-    assert_eq!(parse_value("1e+3"), Ok(1000.0));
-    assert_eq!(parse_value("  4700\t"), Ok(4700.0));
-    assert_eq!(parse_value("1e15"), Ok(1e15));
-    assert_eq!(parse_value("1e-15"), Ok(1e-15));
-    assert_eq!(parse_value("0.000000000047k"), Ok(4.7e-8));
+fn plain_and_exponent_numbers_parse() {
+    #[rustfmt::skip]
+    let cases = [
+        ("4700", 4700.0), ("0.5", 0.5), (".5", 0.5), ("5.", 5.0), ("+12", 12.0), ("0", 0.0),
+        ("4.2e-05", 4.2e-5), ("1E3", 1000.0), ("1e+3", 1000.0), ("  4700\t", 4700.0),
+        ("1e15", 1e15), ("1e-15", 1e-15), ("0.000000000047k", 4.7e-8),
+    ];
+    parse_to(parse_value, &cases);
 }
 
 #[test]
-fn signed_values() {
+fn signed_values_parse_and_plain_values_refuse_a_sign() {
     // Contract: measured readings may be negative (`--ve -0.0012`).
-    assert_eq!(parse_signed("-0.0012"), Ok(-0.0012));
-    assert_eq!(parse_signed("-1.2m"), Ok(-1.2e-3));
-    assert_eq!(parse_signed("-4k7"), Ok(-4700.0));
-    assert_eq!(parse_signed("-0"), Ok(0.0));
+    #[rustfmt::skip]
+    let cases = [
+        ("-0.0012", -0.0012), ("-1.2m", -1.2e-3), ("-4k7", -4700.0), ("-0", 0.0),
+    ];
+    parse_to(parse_signed, &cases);
     assert_eq!(parse_value("-0"), Ok(0.0));
     assert_eq!(parse_value("-0.0012"), Err(ValueError::Negative));
     assert_eq!(parse_value("-1.2m"), Err(ValueError::Negative));
 }
 
 #[test]
-fn si_prefixes_and_units() {
+fn si_prefixes_and_units_parse() {
     // SI prefixes (SI Brochure, 9th edition, from memory): p n µ m k M G.
-    assert_eq!(parse_value("100p"), Ok(1e-10));
-    assert_eq!(parse_value("100n"), Ok(1e-7));
-    assert_eq!(parse_value("10u"), Ok(1e-5));
-    assert_eq!(parse_value("10\u{00B5}"), Ok(1e-5));
-    assert_eq!(parse_value("10\u{03BC}"), Ok(1e-5));
-    assert_eq!(parse_value("2m"), Ok(2e-3));
-    assert_eq!(parse_value("4.7k"), Ok(4700.0));
-    assert_eq!(parse_value("4.7K"), Ok(4700.0));
-    assert_eq!(parse_value("2.2M"), Ok(2.2e6));
-    assert_eq!(parse_value("1G"), Ok(1e9));
-    assert_eq!(parse_value("4.7kΩ"), Ok(4700.0));
-    assert_eq!(parse_value("4.7 kohm"), Ok(4700.0));
-    assert_eq!(parse_value("470 ohms"), Ok(470.0));
-    assert_eq!(parse_value("100nF"), Ok(1e-7));
-    assert_eq!(parse_value("2mA"), Ok(2e-3));
-    assert_eq!(parse_value("10 µF"), Ok(1e-5));
-    assert_eq!(parse_value("12 V"), Ok(12.0));
-    assert_eq!(parse_value("12V"), Ok(12.0));
-    assert_eq!(parse_value("5 Hz"), Ok(5.0));
-    assert_eq!(parse_value("300mW"), Ok(0.3));
-    assert_eq!(parse_value("1e3k"), Ok(1e6));
-    assert_eq!(parse_value("15 k"), Ok(15e3));
+    #[rustfmt::skip]
+    let cases = [
+        ("100p", 1e-10), ("100n", 1e-7), ("10u", 1e-5), ("10\u{00B5}", 1e-5),
+        ("10\u{03BC}", 1e-5), ("2m", 2e-3), ("4.7k", 4700.0), ("4.7K", 4700.0), ("2.2M", 2.2e6),
+        ("1G", 1e9), ("4.7kΩ", 4700.0), ("4.7 kohm", 4700.0), ("470 ohms", 470.0),
+        ("100nF", 1e-7), ("2mA", 2e-3), ("10 µF", 1e-5), ("12 V", 12.0), ("12V", 12.0),
+        ("5 Hz", 5.0), ("300mW", 0.3), ("1e3k", 1e6), ("15 k", 15e3),
+    ];
+    parse_to(parse_value, &cases);
 }
 
 #[test]
-fn iec_60062_codes() {
+fn iec_60062_codes_parse() {
     // IEC 60062:2016 RKM value code (letter as decimal point), from memory.
-    assert_eq!(parse_value("4k7"), Ok(4700.0));
-    assert_eq!(parse_value("4K7"), Ok(4700.0));
-    assert_eq!(parse_value("2M2"), Ok(2.2e6));
-    assert_eq!(parse_value("470R"), Ok(470.0));
-    assert_eq!(parse_value("R47"), Ok(0.47));
-    assert_eq!(parse_value("4n7"), Ok(4.7e-9));
-    assert_eq!(parse_value("2u2"), Ok(2.2e-6));
-    assert_eq!(parse_value("2µ2"), Ok(2.2e-6));
-    assert_eq!(parse_value("1p5"), Ok(1.5e-12));
-    assert_eq!(parse_value("0R1"), Ok(0.1));
-    assert_eq!(parse_value("4R7"), Ok(4.7));
-    assert_eq!(parse_value("1G0"), Ok(1e9));
-    assert_eq!(parse_value("1R0"), Ok(1.0));
-    assert_eq!(parse_value("4k75"), Ok(4750.0));
-    assert_eq!(parse_value("n47"), Ok(4.7e-10));
-    assert_eq!(parse_value("4n7F"), Ok(4.7e-9));
-    assert_eq!(parse_value("4k7Ω"), Ok(4700.0));
+    #[rustfmt::skip]
+    let cases = [
+        ("4k7", 4700.0), ("4K7", 4700.0), ("2M2", 2.2e6), ("470R", 470.0), ("R47", 0.47),
+        ("4n7", 4.7e-9), ("2u2", 2.2e-6), ("2µ2", 2.2e-6), ("1p5", 1.5e-12), ("0R1", 0.1),
+        ("4R7", 4.7), ("1G0", 1e9), ("1R0", 1.0), ("4k75", 4750.0), ("n47", 4.7e-10),
+        ("4n7F", 4.7e-9), ("4k7Ω", 4700.0),
+    ];
+    parse_to(parse_value, &cases);
 }
 
 #[test]
-fn percentages() {
-    assert_eq!(parse_percent("5"), Ok(5.0));
-    assert_eq!(parse_percent("5%"), Ok(5.0));
-    assert_eq!(parse_percent("0.5 %"), Ok(0.5));
-    assert_eq!(parse_percent(" 1e-1% "), Ok(0.1));
-    assert_eq!(parse_percent("0"), Ok(0.0));
+fn percentages_parse_with_or_without_the_sign() {
+    #[rustfmt::skip]
+    let cases = [
+        ("5", 5.0), ("5%", 5.0), ("0.5 %", 0.5), (" 1e-1% ", 0.1), ("0", 0.0),
+    ];
+    parse_to(parse_percent, &cases);
     assert_eq!(parse_percent(""), Err(ValueError::Empty));
     assert_eq!(parse_percent("%"), Err(ValueError::Malformed));
     assert_eq!(parse_percent("5  %"), Err(ValueError::Malformed));
@@ -104,7 +84,7 @@ fn percentages() {
 }
 
 #[test]
-fn errors() {
+fn malformed_non_finite_and_out_of_range_texts_are_refused() {
     assert_eq!(parse_value(""), Err(ValueError::Empty));
     assert_eq!(parse_value("   "), Err(ValueError::Empty));
     for junk in [
@@ -153,7 +133,7 @@ fn errors() {
 }
 
 #[test]
-fn long_inputs() {
+fn long_inputs_parse() {
     let long = format!("{}1", "0".repeat(200));
     assert_eq!(parse_value(&long), Ok(1.0));
     let long = format!("0.{}1k", "0".repeat(10));
@@ -173,91 +153,37 @@ fn eng(value: f64, unit: &'static str) -> String {
 }
 
 #[test]
-fn formatting() {
+fn eng_prints_three_significant_digits_with_si_prefixes() {
     // SI prefixes (SI Brochure, from memory); 3 significant digits by default.
-    assert_eq!(eng(4700.0, "Ω"), "4.7 kΩ");
-    assert_eq!(eng(0.00123, "A"), "1.23 mA");
-    assert_eq!(eng(12.0, "V"), "12 V");
-    assert_eq!(eng(1.0e-7, "F"), "100 nF");
-    assert_eq!(eng(0.0, "V"), "0 V");
-    assert_eq!(eng(-0.0, "V"), "0 V");
-    assert_eq!(eng(-0.0012, "V"), "-1.2 mV");
-    assert_eq!(eng(2.2e6, "Ω"), "2.2 MΩ");
-    assert_eq!(eng(1.0e-5, "F"), "10 µF");
-    assert_eq!(eng(4.7e-12, "F"), "4.7 pF");
-    assert_eq!(eng(1.5e9, "Hz"), "1.5 GHz");
-    assert_eq!(eng(999.6, "V"), "1 kV");
-    assert_eq!(eng(999.4, "V"), "999 V");
-    assert_eq!(eng(123_456.0, "Ω"), "123 kΩ");
-    assert_eq!(eng(0.5, "W"), "500 mW");
-    assert_eq!(eng(1e12, "Ω"), "1000 GΩ");
-    assert_eq!(eng(1e-13, "F"), "0.1 pF");
-    assert_eq!(eng(1.23e20, "V"), "1.23e20 V");
-    assert_eq!(eng(1e-20, "F"), "1e-20 F");
-    assert_eq!(eng(f64::NAN, "V"), "n/a");
-    assert_eq!(eng(f64::INFINITY, "V"), "n/a");
-    assert_eq!(eng(4700.0, ""), "4.7k");
-    assert_eq!(eng(12.0, ""), "12");
-    assert_eq!(
-        format!(
-            "{:.4}",
-            Eng {
-                value: 4750.0,
-                unit: "Ω"
-            }
-        ),
-        "4.75 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:.4}",
-            Eng {
-                value: 4751.26,
-                unit: "Ω"
-            }
-        ),
-        "4.751 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:.1}",
-            Eng {
-                value: 4751.26,
-                unit: "Ω"
-            }
-        ),
-        "5 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:.0}",
-            Eng {
-                value: 4751.26,
-                unit: "Ω"
-            }
-        ),
-        "5 kΩ"
-    );
-    assert_eq!(
-        format!(
-            "{:>8}",
-            Eng {
-                value: 12.0,
-                unit: "V"
-            }
-        ),
-        "    12 V"
-    );
-    assert_eq!(
-        format!(
-            "{:<6}|",
-            Eng {
-                value: 12.0,
-                unit: "V"
-            }
-        ),
-        "12 V  |"
-    );
+    #[rustfmt::skip]
+    let cases = [
+        (4700.0, "Ω", "4.7 kΩ"), (0.00123, "A", "1.23 mA"), (12.0, "V", "12 V"),
+        (1.0e-7, "F", "100 nF"), (0.0, "V", "0 V"), (-0.0, "V", "0 V"), (-0.0012, "V", "-1.2 mV"),
+        (2.2e6, "Ω", "2.2 MΩ"), (1.0e-5, "F", "10 µF"), (4.7e-12, "F", "4.7 pF"),
+        (1.5e9, "Hz", "1.5 GHz"), (999.6, "V", "1 kV"), (999.4, "V", "999 V"),
+        (123_456.0, "Ω", "123 kΩ"), (0.5, "W", "500 mW"), (1e12, "Ω", "1000 GΩ"),
+        (1e-13, "F", "0.1 pF"), (1.23e20, "V", "1.23e20 V"), (1e-20, "F", "1e-20 F"),
+        (f64::NAN, "V", "n/a"), (f64::INFINITY, "V", "n/a"), (4700.0, "", "4.7k"),
+        (12.0, "", "12"),
+    ];
+    for (value, unit, want) in cases {
+        assert_eq!(eng(value, unit), want, "{value} {unit}");
+    }
+    for (digits, value, want) in [
+        (4, 4750.0, "4.75 kΩ"),
+        (4, 4751.26, "4.751 kΩ"),
+        (1, 4751.26, "5 kΩ"),
+        (0, 4751.26, "5 kΩ"),
+    ] {
+        let text = format!("{:.*}", digits, Eng { value, unit: "Ω" });
+        assert_eq!(text, want, "{value} to {digits} digits");
+    }
+    let twelve = Eng {
+        value: 12.0,
+        unit: "V",
+    };
+    assert_eq!(format!("{twelve:>8}"), "    12 V");
+    assert_eq!(format!("{twelve:<6}|"), "12 V  |");
     let long_unit = Eng {
         value: 1.0,
         unit:
@@ -267,29 +193,14 @@ fn formatting() {
 }
 
 #[test]
-fn resistor_codes() {
+fn resistor_codes_follow_iec_60062() {
     // IEC 60062:2016 RKM code, from memory; "1R0"/"10k" style is common practice.
+    #[rustfmt::skip]
     let cases: &[(f64, &str)] = &[
-        (4700.0, "4k7"),
-        (470.0, "470R"),
-        (0.47, "R47"),
-        (2.2e6, "2M2"),
-        (10_000.0, "10k"),
-        (1.0, "1R0"),
-        (100e3, "100k"),
-        (4750.0, "4k75"),
-        (4_700.000_000_1, "4k7"),
-        (4.7, "4R7"),
-        (0.1, "R1"),
-        (0.047, "R047"),
-        (1000.0, "1k0"),
-        (1e9, "1G0"),
-        (1e12, "1000G"),
-        (12.0, "12R"),
-        (0.0, "0R0"),
-        (-4700.0, "-4k7"),
-        (4751.0, "4k75"),
-        (999.6, "1k0"),
+        (4700.0, "4k7"), (470.0, "470R"), (0.47, "R47"), (2.2e6, "2M2"), (10_000.0, "10k"),
+        (1.0, "1R0"), (100e3, "100k"), (4750.0, "4k75"), (4_700.000_000_1, "4k7"), (4.7, "4R7"),
+        (0.1, "R1"), (0.047, "R047"), (1000.0, "1k0"), (1e9, "1G0"), (1e12, "1000G"),
+        (12.0, "12R"), (0.0, "0R0"), (-4700.0, "-4k7"), (4751.0, "4k75"), (999.6, "1k0"),
     ];
     for &(x, code) in cases {
         assert_eq!(resistor_code(x).as_str(), code, "{x}");
@@ -301,19 +212,12 @@ fn resistor_codes() {
 }
 
 #[test]
-fn capacitor_codes() {
+fn capacitor_codes_follow_iec_60062() {
     // IEC 60062:2016 capacitance code, from memory.
+    #[rustfmt::skip]
     let cases: &[(f64, &str)] = &[
-        (4.7e-9, "4n7"),
-        (1e-7, "100n"),
-        (2.2e-6, "2u2"),
-        (47e-6, "47u"),
-        (1e-12, "1p0"),
-        (1.5e-12, "1p5"),
-        (4.7e-10, "470p"),
-        (1e-3, "1m0"),
-        (1.0, "1R0"),
-        (1e-15, "p001"),
+        (4.7e-9, "4n7"), (1e-7, "100n"), (2.2e-6, "2u2"), (47e-6, "47u"), (1e-12, "1p0"),
+        (1.5e-12, "1p5"), (4.7e-10, "470p"), (1e-3, "1m0"), (1.0, "1R0"), (1e-15, "p001"),
         (0.0, "0p0"),
     ];
     for &(x, code) in cases {
@@ -345,20 +249,13 @@ const UNITS: [&str; 6] = ["Ω", "F", "V", "A", "Hz", "W"];
 
 proptest! {
     #[test]
-    fn resistor_code_round_trip(exp in -12.0f64..12.0) {
+    fn resistor_and_capacitor_codes_round_trip(exp in -12.0f64..12.0) {
         let x = 10f64.powf(exp);
-        let code = resistor_code(x);
-        let back = parse_value(&code).unwrap();
-        // 3 significant digits: error at most half a unit in the third digit.
-        prop_assert!(close(back, x, 0.005 + 1e-12), "{} -> {} -> {}", x, code, back);
-    }
-
-    #[test]
-    fn capacitor_code_round_trip(exp in -12.0f64..12.0) {
-        let x = 10f64.powf(exp);
-        let code = capacitor_code(x);
-        let back = parse_value(&code).unwrap();
-        prop_assert!(close(back, x, 0.005 + 1e-12), "{} -> {} -> {}", x, code, back);
+        for code in [resistor_code(x), capacitor_code(x)] {
+            let back = parse_value(&code).unwrap();
+            // 3 significant digits: error at most half a unit in the third digit.
+            prop_assert!(close(back, x, 0.005 + 1e-12), "{} -> {} -> {}", x, code, back);
+        }
     }
 
     #[test]
@@ -381,7 +278,7 @@ proptest! {
     }
 
     #[test]
-    fn parse_never_panics_alphabet(s in "[0123456789.eE+\\-kKmMuµnpGRr %Ω ]{0,16}") {
+    fn alphabet_texts_never_panic_and_parse_finite_and_in_range(s in "[0123456789.eE+\\-kKmMuµnpGRr %Ω ]{0,16}") {
         let a = parse_signed(&s);
         let _ = parse_value(&s);
         let _ = parse_percent(&s);

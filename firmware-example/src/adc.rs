@@ -14,6 +14,15 @@
 //! error and ADC offset together. [`Calibration::from_two_points`] finds gain and offset from two
 //! known voltages applied to the jig input and the ideal readings they gave.
 
+/// Divider ratio of the jig inputs: 10 MΩ from the probe over 1 MΩ to ground, then a unity-gain
+/// buffer, (10 M + 1 M) / 1 M = 11, so the 3.3 V converter's full scale is 36.3 V at the probe
+/// and a 30 V supply reaches 2.73 V at the pin (firmware-example/README.md, wiring).
+pub const JIG_DIVIDER_RATIO: f32 = 11.0;
+/// What each jig input puts from its node to ground, Ω: the divider, 10 MΩ + 1 MΩ (the buffer
+/// draws no current to speak of). Every input stays connected while the nodes are read, so the
+/// console's `input-r` defaults to this (`together`), and the emulated board is loaded by it.
+pub const JIG_INPUT_R: f64 = 11e6;
+
 /// Full-scale code of a 12-bit converter.
 pub const FULL_SCALE_12BIT: u16 = 4095;
 

@@ -8,6 +8,7 @@
 //! offset, raw being the node voltage after the divider ratio) is applied last.
 use crate::adc::{Calibration, ChannelConfig, ChannelError};
 use crate::board::BoardModel;
+pub use crate::board::Noise;
 use biasjig_core::console::record::Settings;
 use biasjig_core::console::{Calibration as CoreCalibration, Channel, Jig, JigError};
 use biasjig_core::response::CapState;
@@ -16,14 +17,7 @@ use biasjig_core::stage::{Capacitor, Fault, Readings};
 /// Most samples in one burst (the open-probe and rail checks look at one burst at a time).
 pub const MAX_BURST: usize = 64;
 
-/// Divider ratio of the jig inputs: 10 MΩ from the probe over 1 MΩ to ground, then a unity-gain
-/// buffer, (10 M + 1 M) / 1 M = 11, so the 3.3 V converter's full scale is 36.3 V at the probe
-/// and a 30 V supply reaches 2.73 V at the pin (firmware-example/README.md, wiring).
-pub const JIG_DIVIDER_RATIO: f32 = 11.0;
-/// What each jig input puts from its node to ground, Ω: the divider, 10 MΩ + 1 MΩ (the buffer
-/// draws no current to speak of). Every input stays connected while the nodes are read, so the
-/// console's `input-r` defaults to this (`together`), and the emulated board is loaded by it.
-pub const JIG_INPUT_R: f64 = 11e6;
+pub use crate::adc::{JIG_DIVIDER_RATIO, JIG_INPUT_R};
 /// ADC reference of the jig (VDDA), V.
 pub const JIG_VREF: f32 = 3.3;
 /// Below this measured supply, V, the board is taken as not powered ([`JigError::Supply`]).
@@ -205,32 +199,6 @@ impl<S: SampleSource> Jig for AdcJig<S> {
 /// The hardware jig has no firmware extras.
 impl<S: SampleSource> FirmwareJig for AdcJig<S> {}
 
-/// A small deterministic generator (xorshift32) for reading noise.
-#[derive(Debug, Clone, Copy)]
-pub struct Noise(u32);
-
-impl Noise {
-    /// A generator from a non-zero state (0 is replaced).
-    pub const fn new(state: u32) -> Self {
-        Noise(if state == 0 { 0x1234_5678 } else { state })
-    }
-
-    /// The next 32 random bits.
-    pub fn next_u32(&mut self) -> u32 {
-        let mut x = self.0;
-        x ^= x << 13;
-        x ^= x >> 17;
-        x ^= x << 5;
-        self.0 = x;
-        x
-    }
-
-    /// Uniform in -1 ..= 1.
-    pub fn unit(&mut self) -> f32 {
-        (self.next_u32() >> 8) as f32 / 8_388_607.5 - 1.0
-    }
-}
-
 /// Emulated conversions: a node voltage plus a few mV of reading noise, turned into the code an
 /// ideal channel reads, with ±1 code of dither. A node at `NaN` is an open probe (codes all over
 /// the range).
@@ -270,6 +238,9 @@ pub struct EmulatedJig {
     pub board: BoardModel,
     /// The jig channels reading it.
     pub adc: AdcJig<EmulatedSamples>,
+    /// The clock that times the board's emulation apart from the instrument's work
+    /// ([`crate::cost::standing_in`]).
+    pub clock: fn() -> u32,
 }
 
 impl EmulatedJig {
@@ -288,10 +259,20 @@ impl EmulatedJig {
                 channels: [channel; 4],
                 signal_cal: crate::tone::SignalCal::default(),
             },
+            clock: crate::cost::no_clock,
         }
     }
 
+    /// The same jig with its emulation timed on `clock` (the image's tick counter).
+    pub fn timed_by(self, clock: fn() -> u32) -> Self {
+        Self { clock, ..self }
+    }
+
     fn load_nodes(&mut self) -> Result<(), JigError> {
+        crate::cost::standing_in(self.clock, || self.load_nodes_now())
+    }
+
+    fn load_nodes_now(&mut self) -> Result<(), JigError> {
         // No operating point (the solver gave up): the jig reports a hardware failure rather
         // than invent voltages.
         let r = self.board.nodes().map_err(|_| JigError::Hardware)?;
@@ -337,9 +318,14 @@ impl Jig for EmulatedJig {
     }
 
     fn gain(&mut self, f_hz: f64) -> Result<f64, JigError> {
-        let (stage, caps, op) = self.board.solved().map_err(|_| JigError::Hardware)?;
+        let clock = self.clock;
+        let (stage, caps, op) = crate::cost::standing_in(clock, || self.board.solved())
+            .map_err(|_| JigError::Hardware)?;
         let noise = Noise::new(self.adc.source.noise.next_u32());
-        crate::tone::emulated_gain(stage, caps, op, noise, f_hz, &self.adc.signal_cal)
+        let mut tone = crate::tone::EmulatedTone::new(stage, caps, op, noise);
+        tone.clock = clock;
+        crate::tone::measure_gain(&mut tone, f_hz as f32, &self.adc.signal_cal)
+            .map(f64::from)
             .map_err(tone_error)
     }
 

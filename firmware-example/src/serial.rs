@@ -151,31 +151,16 @@ impl<S: serial::Read<u8>> embedded_io::ReadReady for NbSerial<S> {
     }
 }
 
-impl<S: serial::Write<u8>> embedded_io::Write for NbSerial<S> {
-    fn write(&mut self, buf: &[u8]) -> Result<usize, SerialError> {
-        for &b in buf {
-            let mut polls = 0u32;
-            loop {
-                match self.inner.write(b) {
-                    Ok(()) => break,
-                    Err(nb::Error::WouldBlock) => {
-                        polls += 1;
-                        if polls >= self.write_polls {
-                            return Err(SerialError::Timeout);
-                        }
-                        core::hint::spin_loop();
-                    }
-                    Err(nb::Error::Other(e)) => return Err(map_error(e)),
-                }
-            }
-        }
-        Ok(buf.len())
-    }
-
-    fn flush(&mut self) -> Result<(), SerialError> {
+impl<S: serial::Write<u8>> NbSerial<S> {
+    /// Polls `op` until it is done: gives up with [`SerialError::Timeout`] after `write_polls`
+    /// polls of a busy transmitter.
+    fn bounded(
+        &mut self,
+        mut op: impl FnMut(&mut S) -> nb::Result<(), S::Error>,
+    ) -> Result<(), SerialError> {
         let mut polls = 0u32;
         loop {
-            match self.inner.flush() {
+            match op(&mut self.inner) {
                 Ok(()) => return Ok(()),
                 Err(nb::Error::WouldBlock) => {
                     polls += 1;
@@ -187,6 +172,19 @@ impl<S: serial::Write<u8>> embedded_io::Write for NbSerial<S> {
                 Err(nb::Error::Other(e)) => return Err(map_error(e)),
             }
         }
+    }
+}
+
+impl<S: serial::Write<u8>> embedded_io::Write for NbSerial<S> {
+    fn write(&mut self, buf: &[u8]) -> Result<usize, SerialError> {
+        for &b in buf {
+            self.bounded(|s| s.write(b))?;
+        }
+        Ok(buf.len())
+    }
+
+    fn flush(&mut self) -> Result<(), SerialError> {
+        self.bounded(|s| s.flush())
     }
 }
 

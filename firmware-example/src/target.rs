@@ -1,5 +1,5 @@
-//! Cortex-M only: stack painting on the real stack, tick sources, and the emulated image's raw
-//! USART1.
+//! Cortex-M only: stack painting on the real stack, tick sources, the emulated image's USART1,
+//! the store's memory and the internal flash.
 
 /// Stack painting on the region cortex-m-rt leaves for the stack: from `_stack_end` (the end of
 /// static RAM) up to `_stack_start` (the top of RAM).
@@ -158,68 +158,17 @@ pub mod ticks {
     }
 }
 
-/// USART1 by plain register access, for the emulated image: QEMU's model needs no clock set-up,
-/// only the transmitter and receiver enabled, and a HAL's clock set-up may wait forever there.
-/// Same address (0x4001_1000) and layout on the STM32F405 and F411.
+/// USART1 through the chip's register-access crate (the `stm32f4` PAC, as the HAL re-exports it),
+/// for the emulated image: QEMU's model needs no clock set-up, only the transmitter and receiver
+/// enabled, and a HAL's clock set-up may wait forever there. Same address (0x4001_1000) and
+/// layout on the STM32F405 and F411.
 pub mod usart1 {
+    use cortex_m::peripheral::NVIC;
     use embedded_hal_nb::nb;
     use embedded_hal_nb::serial::{self, ErrorKind};
+    use stm32f4xx_hal::pac::{Interrupt, RCC, USART1};
 
-    const BASE: usize = 0x4001_1000;
-    const SR: usize = BASE;
-    const DR: usize = BASE + 0x04;
-    const BRR: usize = BASE + 0x08;
-    const CR1: usize = BASE + 0x0C;
-    const RCC_APB2ENR: usize = 0x4002_3844;
-
-    const SR_PE: u32 = 1 << 0;
-    const SR_FE: u32 = 1 << 1;
-    const SR_NE: u32 = 1 << 2;
-    const SR_ORE: u32 = 1 << 3;
-    const SR_RXNE: u32 = 1 << 5;
-    const SR_TC: u32 = 1 << 6;
-    const SR_TXE: u32 = 1 << 7;
-    const CR1_RE: u32 = 1 << 2;
-    const CR1_TE: u32 = 1 << 3;
-    const CR1_UE: u32 = 1 << 13;
-    const CR1_RXNEIE: u32 = 1 << 5;
-
-    fn rd(addr: usize) -> u32 {
-        // SAFETY: `addr` is one of the USART1/RCC register addresses above, valid on both chips.
-        unsafe { core::ptr::read_volatile(addr as *const u32) }
-    }
-    fn wr(addr: usize, v: u32) {
-        // SAFETY: as in `rd`; these registers accept any 32-bit write of the documented bits.
-        unsafe { core::ptr::write_volatile(addr as *mut u32, v) }
-    }
-
-    /// Sleeps until a byte arrives or any interrupt (SysTick) comes. Under QEMU the machine's
-    /// virtual clock runs on in real time while the core sleeps, so the console's clock (the
-    /// PIN back-off) follows real time between commands; busy polling would stretch it.
-    pub fn idle() {
-        use cortex_m::peripheral::NVIC;
-        use stm32f4xx_hal::pac::Interrupt;
-        wr(CR1, rd(CR1) | CR1_RXNEIE);
-        NVIC::unpend(Interrupt::USART1);
-        // SAFETY: the handler (`on_interrupt`) only masks this interrupt again; it shares no
-        // data with the code it interrupts.
-        unsafe { NVIC::unmask(Interrupt::USART1) };
-        if rd(SR) & SR_RXNE == 0 {
-            // A byte arriving now raises the interrupt, which ends the wait. (One arriving
-            // between the test and the WFI is taken by the handler first; the WFI then ends at
-            // the next SysTick wrap, at most 0.1 s later.)
-            cortex_m::asm::wfi();
-        }
-        NVIC::mask(Interrupt::USART1);
-    }
-
-    /// Call from the USART1 interrupt handler: masks the interrupt (the USART holds its line up
-    /// until the byte is read, and the byte is left for the polling reader).
-    pub fn on_interrupt() {
-        cortex_m::peripheral::NVIC::mask(stm32f4xx_hal::pac::Interrupt::USART1);
-    }
-
-    /// A receive error of the raw USART.
+    /// A receive error of the USART.
     #[derive(Debug, Clone, Copy)]
     pub struct RawError(pub ErrorKind);
 
@@ -231,18 +180,49 @@ pub mod usart1 {
 
     /// USART1, 8N1, transmitter and receiver on.
     pub struct Usart1 {
-        _private: (),
+        usart: USART1,
     }
 
     impl Usart1 {
         /// Enables USART1's clock, sets 115200 baud for an 84 MHz APB2 (ignored by QEMU) and turns
-        /// on the USART with its transmitter and receiver. Touches only RCC enable bits and USART1.
-        pub fn init() -> Self {
-            wr(RCC_APB2ENR, rd(RCC_APB2ENR) | (1 << 4));
-            wr(BRR, 0x2D9);
-            wr(CR1, CR1_UE | CR1_TE | CR1_RE);
-            Usart1 { _private: () }
+        /// on the USART with its transmitter and receiver. Touches only RCC's USART1 enable bit
+        /// and USART1.
+        pub fn init(usart: USART1, rcc: &RCC) -> Self {
+            rcc.apb2enr().modify(|_, w| w.usart1en().set_bit());
+            // 84 MHz / (16 * 45.5625) = 115 226 baud.
+            usart
+                .brr()
+                .write(|w| w.div_mantissa().set(45).div_fraction().set(9));
+            usart
+                .cr1()
+                .write(|w| w.ue().set_bit().te().set_bit().re().set_bit());
+            Usart1 { usart }
         }
+
+        /// Sleeps until a byte arrives or any interrupt (SysTick) comes. Under QEMU the
+        /// machine's virtual clock runs on in real time while the core sleeps, so the console's
+        /// clock (the PIN back-off) follows real time between commands; busy polling would
+        /// stretch it.
+        pub fn idle(&mut self) {
+            self.usart.cr1().modify(|_, w| w.rxneie().set_bit());
+            NVIC::unpend(Interrupt::USART1);
+            // SAFETY: the handler (`on_interrupt`) only masks this interrupt again; it shares
+            // no data with the code it interrupts.
+            unsafe { NVIC::unmask(Interrupt::USART1) };
+            if self.usart.sr().read().rxne().bit_is_clear() {
+                // A byte arriving now raises the interrupt, which ends the wait. (One arriving
+                // between the test and the WFI is taken by the handler first; the WFI then ends
+                // at the next SysTick wrap, at most 0.1 s later.)
+                cortex_m::asm::wfi();
+            }
+            NVIC::mask(Interrupt::USART1);
+        }
+    }
+
+    /// Call from the USART1 interrupt handler: masks the interrupt (the USART holds its line up
+    /// until the byte is read, and the byte is left for the polling reader).
+    pub fn on_interrupt() {
+        NVIC::mask(Interrupt::USART1);
     }
 
     impl serial::ErrorType for Usart1 {
@@ -251,23 +231,25 @@ pub mod usart1 {
 
     impl serial::Read<u8> for Usart1 {
         fn read(&mut self) -> nb::Result<u8, RawError> {
-            let sr = rd(SR);
-            if sr & (SR_PE | SR_FE | SR_NE | SR_ORE) != 0 {
+            let sr = self.usart.sr().read();
+            let kind = if sr.ore().bit_is_set() {
+                Some(ErrorKind::Overrun)
+            } else if sr.fe().bit_is_set() {
+                Some(ErrorKind::FrameFormat)
+            } else if sr.pe().bit_is_set() {
+                Some(ErrorKind::Parity)
+            } else if sr.nf().bit_is_set() {
+                Some(ErrorKind::Noise)
+            } else {
+                None
+            };
+            if let Some(kind) = kind {
                 // Reading DR after SR clears the error flags.
-                let _ = rd(DR);
-                let kind = if sr & SR_ORE != 0 {
-                    ErrorKind::Overrun
-                } else if sr & SR_FE != 0 {
-                    ErrorKind::FrameFormat
-                } else if sr & SR_PE != 0 {
-                    ErrorKind::Parity
-                } else {
-                    ErrorKind::Noise
-                };
+                let _ = self.usart.dr().read();
                 return Err(nb::Error::Other(RawError(kind)));
             }
-            if sr & SR_RXNE != 0 {
-                Ok(rd(DR) as u8)
+            if sr.rxne().bit_is_set() {
+                Ok(self.usart.dr().read().dr().bits() as u8)
             } else {
                 Err(nb::Error::WouldBlock)
             }
@@ -276,8 +258,8 @@ pub mod usart1 {
 
     impl serial::Write<u8> for Usart1 {
         fn write(&mut self, byte: u8) -> nb::Result<(), RawError> {
-            if rd(SR) & SR_TXE != 0 {
-                wr(DR, u32::from(byte));
+            if self.usart.sr().read().txe().bit_is_set() {
+                self.usart.dr().write(|w| w.dr().set(u16::from(byte)));
                 Ok(())
             } else {
                 Err(nb::Error::WouldBlock)
@@ -285,7 +267,7 @@ pub mod usart1 {
         }
 
         fn flush(&mut self) -> nb::Result<(), RawError> {
-            if rd(SR) & SR_TC != 0 {
+            if self.usart.sr().read().tc().bit_is_set() {
                 Ok(())
             } else {
                 Err(nb::Error::WouldBlock)

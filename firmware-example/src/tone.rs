@@ -18,7 +18,7 @@ use biasjig_core::response::{gain_at, Caps, Gain};
 use biasjig_core::solve::OperatingPoint;
 use biasjig_core::stage::Stage;
 
-use crate::jig::Noise;
+use crate::board::Noise;
 
 /// Periods of the tone measured in one block.
 pub const BLOCK_PERIODS: u32 = 4;
@@ -161,6 +161,9 @@ pub struct EmulatedTone {
     noise: Noise,
     /// Gain error of the load input against the source input (what calibration removes).
     pub load_input_gain: f32,
+    /// The clock that times the synthesis apart from the instrument's work
+    /// ([`crate::cost::standing_in`]).
+    pub clock: fn() -> u32,
 }
 
 impl EmulatedTone {
@@ -177,6 +180,7 @@ impl EmulatedTone {
             n: 0,
             noise,
             load_input_gain: 1.0,
+            clock: crate::cost::no_clock,
         }
     }
 
@@ -187,8 +191,9 @@ impl EmulatedTone {
     }
 }
 
-impl ToneDriver for EmulatedTone {
-    fn start(&mut self, f_hz: f32, samples_per_period: u32) -> f32 {
+/// The synthesis itself (the hardware's stand-in: timed apart by [`ToneDriver`]'s methods).
+impl EmulatedTone {
+    fn synth_start(&mut self, f_hz: f32, samples_per_period: u32) -> f32 {
         for (k, g) in self.gains.iter_mut().enumerate() {
             let h = (2 * k + 1) as f64;
             *g =
@@ -201,9 +206,7 @@ impl ToneDriver for EmulatedTone {
         f_hz
     }
 
-    fn stop(&mut self) {}
-
-    fn sample_pair(&mut self) -> (u16, u16) {
+    fn synth_pair(&mut self) -> (u16, u16) {
         // Square wave ±A = Σ over odd k of (4A/(πk))·sin(kθ); the load is each harmonic through
         // the board's complex gain. Sampled half a sample after the edges. The phasor e^(jθ)
         // advances by one rotation a sample (renormalised each period), and e^(jhθ) is its
@@ -238,6 +241,18 @@ impl ToneDriver for EmulatedTone {
         let a = self.code(src + n1);
         let b = self.code(load * self.load_input_gain + n2);
         (a, b)
+    }
+}
+
+impl ToneDriver for EmulatedTone {
+    fn start(&mut self, f_hz: f32, samples_per_period: u32) -> f32 {
+        crate::cost::standing_in(self.clock, || self.synth_start(f_hz, samples_per_period))
+    }
+
+    fn stop(&mut self) {}
+
+    fn sample_pair(&mut self) -> (u16, u16) {
+        crate::cost::standing_in(self.clock, || self.synth_pair())
     }
 }
 

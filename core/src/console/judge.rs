@@ -1,5 +1,4 @@
-//! The commands that judge a board and spread a stage: `check`, `test`, `diagnose` and
-//! `spread`.
+//! The commands that judge a board: `measure`, `check`, `test` and `diagnose`.
 //!
 //! `check` and `test` call the one judging path of `biasjig check`, [`crate::judge::judge`], with
 //! the console's stage, transistor and test settings (ambient, meter, measuring inputs).
@@ -12,21 +11,26 @@ use core::fmt::Write as _;
 
 use embedded_io::Write;
 
-use super::commands::{show_readings, Num, Opt};
+use super::format::{Num, Opt, Val};
+#[cfg(feature = "signal-test")]
+use super::jig::JigError;
 use super::jig::{Clock, Jig, Store};
 use super::parse::Tones;
 use super::reply::{Fail, Outcome, Reply, Text};
+use super::session::jig_fail;
+use super::show::show_readings;
 use super::{Code, Console, Source, MAX_OUT_LINE};
-use crate::check::Verdict;
-use crate::diagnose::Diagnosis;
+use crate::check::{NodeVerdict, Verdict};
+#[cfg(feature = "signal-test")]
+use crate::device::Profile;
+use crate::diagnose::{Diagnosis, Hypothesis};
 use crate::explain::{listing, Listed};
 use crate::judge::JudgeError;
-#[cfg(feature = "monte-carlo")]
-use crate::spread::McSettings;
-#[cfg(feature = "spread")]
-use crate::spread::{self, Method, SpreadError};
+#[cfg(feature = "signal-test")]
+use crate::settings::TestSettings;
 use crate::stage::Readings;
-use crate::units::{Eng, Fixed};
+#[cfg(feature = "signal-test")]
+use crate::stage::Stage;
 
 /// How many fault hypotheses `check`, `test` and `diagnose` list at most (as `biasjig check`).
 pub const LISTED_FAULTS: usize = 6;
@@ -46,6 +50,49 @@ pub struct LastCheck {
     pub tones: crate::judge::ToneVerdicts,
 }
 
+/// What a screen draws from the last judged board, typed (no text to parse back): the same
+/// facts the machine-mode reply of `check`, `test` and `diagnose` lists, in its order.
+impl LastCheck {
+    /// The board passed (`verdict=pass`): every node and every gain reading inside its window.
+    pub fn pass(&self) -> bool {
+        self.verdict.pass
+    }
+
+    /// The nodes with their readings (V, A for the currents) and windows, in the reply's order
+    /// (`node=` lines).
+    pub fn nodes(&self) -> &[NodeVerdict] {
+        &self.verdict.nodes
+    }
+
+    /// The first node outside its window (the first `node= ... ok=0` line), if any.
+    pub fn first_failing(&self) -> Option<&NodeVerdict> {
+        self.verdict.failing().next()
+    }
+
+    /// The most likely fault (the first `fault=` line) when the board failed; `None` for a
+    /// passing board or a diagnosis that found no fault to list.
+    pub fn first_fault(&self) -> Option<&Hypothesis> {
+        self.diagnosis.as_ref()?.faults().next()
+    }
+
+    /// The diagnosis explains the readings (`explained=1`); `None` for a passing board.
+    pub fn explained(&self) -> Option<bool> {
+        self.diagnosis.as_ref().map(|d| d.explained)
+    }
+}
+
+/// The test frequencies `test` proposed, with the stage, transistor and test settings they were
+/// proposed for (the whole input of [`crate::signaltest::propose`]).
+#[cfg(feature = "signal-test")]
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Proposed {
+    stage: Stage,
+    profile: Profile,
+    settings: TestSettings,
+    /// Midband and poles frequency, Hz; `None` when none were proposed.
+    frequencies: Option<[f64; 2]>,
+}
+
 /// The status of a board the judging path did not judge.
 pub(super) fn judge_fail(e: JudgeError) -> Fail {
     let code = match e {
@@ -54,15 +101,6 @@ pub(super) fn judge_fail(e: JudgeError) -> Fail {
         _ => Code::Solve,
     };
     Fail::new(code, format_args!("{e}"))
-}
-
-#[cfg(feature = "spread")]
-fn spread_fail(what: &str, e: SpreadError) -> Fail {
-    let code = match e {
-        SpreadError::Solve(_) => Code::Solve,
-        _ => Code::Range,
-    };
-    Fail::new(code, format_args!("{what}: {e}"))
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
@@ -134,15 +172,24 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         Ok(())
     }
 
-    fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>) {
-        let word = if l.verdict.pass { "pass" } else { "fail" };
-        match &l.diagnosis {
-            Some(d) => r.data(format_args!(
-                "verdict={word} explained={}",
-                u8::from(d.explained)
-            )),
-            None => r.data(format_args!("verdict={word}")),
-        }
+    /// The verdict: `verdict=pass|fail` (with `explained=` when diagnosed) for a program; for a
+    /// person the first template when it passed, the second (failing and judged node counts
+    /// `{2}`, `{3}`) when it failed.
+    fn verdict_line<W: Write>(l: &LastCheck, r: &mut Reply<'_, W>, human: [&str; 2]) {
+        let v = &l.verdict;
+        let explained = match &l.diagnosis {
+            Some(d) => ("explained", Val::Flag(d.explained, "", "")),
+            None => ("", Val::Label(&"")),
+        };
+        r.fields(
+            &[
+                ("verdict", Val::Word(if v.pass { "pass" } else { "fail" })),
+                explained,
+                ("", Val::Label(&v.failing().count())),
+                ("", Val::Label(&v.nodes.len())),
+            ],
+            if v.pass { human[0] } else { human[1] },
+        );
     }
 
     /// The last check: readings, verdict, nodes, derived quantities and the likely faults.
@@ -152,95 +199,60 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         show_readings(&l.readings, l.source, r);
         let v = &l.verdict;
         let dv = &v.derived;
-        if r.machine() {
-            Self::verdict_line(l, r);
-            for n in &v.nodes {
-                r.data(format_args!(
-                    "node={} measured={} low={} high={} ok={}",
-                    n.node.name(),
-                    Num(n.measured),
-                    Num(n.low),
-                    Num(n.high),
-                    u8::from(n.ok)
-                ));
-            }
-            for t in &l.tones {
-                r.data(format_args!(
-                    "ac f={} measured={} low={} high={} ok={}",
-                    Num(t.reading.f),
-                    Num(t.reading.gain),
-                    Num(t.window.low),
-                    Num(t.window.high),
-                    u8::from(t.ok)
-                ));
-            }
-            r.data(format_args!(
-                "derived ic={} ib={} ie={} vbe={} vce={} beta={} region={}",
-                Num(dv.ic),
-                Num(dv.ib),
-                Opt(dv.ie),
-                Num(dv.vbe),
-                Num(dv.vce),
-                Opt(dv.beta),
-                dv.region.name()
-            ));
-        } else {
-            let failing = v.failing().count();
-            if v.pass {
-                r.data(format_args!("PASS   every node inside its window"));
-            } else {
-                r.data(format_args!(
-                    "FAIL   {failing} of {} out of window",
-                    v.nodes.len()
-                ));
-            }
-            for n in &v.nodes {
-                let u = n.node.unit();
-                r.data(format_args!(
-                    "{:<4} {:<10} window {} to {}{}",
-                    n.node.label(),
-                    Eng::new(n.measured, u),
-                    Eng::new(n.low, u),
-                    Eng::new(n.high, u),
-                    if n.ok { "" } else { "   OUT" }
-                ));
-            }
-            for t in &l.tones {
-                r.data(format_args!(
-                    "gain at {}: {} window {} to {}{}",
-                    Eng::new(t.reading.f, "Hz"),
-                    Fixed(t.reading.gain, 3),
-                    Fixed(t.window.low, 3),
-                    Fixed(t.window.high, 3),
-                    if t.ok { "" } else { "   OUT" }
-                ));
-            }
-            let mut beta = Text::default();
-            match dv.beta {
-                Some(b) => {
-                    let _ = write!(beta, "{}", Fixed(b, 0));
-                }
-                None => {
-                    let _ = beta.write_str("-");
-                }
-            }
-            r.data(format_args!(
-                "IC {}, IB {}, hFE {}, VBE {}, VCE {}, {}",
-                Eng::new(dv.ic, "A"),
-                Eng::new(dv.ib, "A"),
-                beta.as_str(),
-                Eng::new(dv.vbe, "V"),
-                Eng::new(dv.vce, "V"),
-                dv.region.name()
-            ));
+        Self::verdict_line(
+            l,
+            r,
+            [
+                "PASS   every node inside its window",
+                "FAIL   {2} of {3} out of window",
+            ],
+        );
+        for n in &v.nodes {
+            let u = n.node.unit();
+            r.fields(
+                &[
+                    ("node", Val::Words(n.node.name(), n.node.label())),
+                    ("measured", Val::Si(n.measured, u)),
+                    ("low", Val::Si(n.low, u)),
+                    ("high", Val::Si(n.high, u)),
+                    ("ok", Val::Flag(n.ok, "", "   OUT")),
+                ],
+                "{0:4} {1:10} window {2} to {3}{4}",
+            );
         }
+        for t in &l.tones {
+            r.fields(
+                &[
+                    ("", Val::Word("ac")),
+                    ("f", Val::Si(t.reading.f, "Hz")),
+                    ("measured", Val::Fixed(t.reading.gain, 3)),
+                    ("low", Val::Fixed(t.window.low, 3)),
+                    ("high", Val::Fixed(t.window.high, 3)),
+                    ("ok", Val::Flag(t.ok, "", "   OUT")),
+                ],
+                "gain at {1}: {2} window {3} to {4}{5}",
+            );
+        }
+        r.fields(
+            &[
+                ("", Val::Word("derived")),
+                ("ic", Val::Si(dv.ic, "A")),
+                ("ib", Val::Si(dv.ib, "A")),
+                ("ie", Val::OptSi(dv.ie, "A")),
+                ("vbe", Val::Si(dv.vbe, "V")),
+                ("vce", Val::Si(dv.vce, "V")),
+                ("beta", Val::OptFixed(dv.beta, 0)),
+                ("region", Val::Word(dv.region.name())),
+            ],
+            "IC {1}, IB {2}, hFE {6}, VBE {4}, VCE {5}, {7}",
+        );
         if let Some(d) = &l.diagnosis {
             self.show_faults(d, r);
         }
     }
 
     #[inline(never)]
-    fn show_faults<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
+    pub(super) fn show_faults<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
         if r.machine() {
             for h in d.faults().take(LISTED_FAULTS) {
                 let mut t = Text::default();
@@ -282,7 +294,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// The likely faults in words (human mode), in a frame of its own: the machine path does
     /// not carry the listing's stack.
     #[inline(never)]
-    fn show_fault_words<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
+    pub(super) fn show_fault_words<W: Write>(&self, d: &Diagnosis, r: &mut Reply<'_, W>) {
         let items: heapless::Vec<Listed, LISTED_FAULTS> = d
             .faults()
             .take(LISTED_FAULTS)
@@ -311,9 +323,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         let Some(l) = &self.last else {
             return Ok(None);
         };
-        if r.machine() {
-            Self::verdict_line(l, r);
-        }
+        Self::verdict_line(l, r, ["", ""]);
         match &l.diagnosis {
             Some(d) => {
                 self.show_faults(d, r);
@@ -324,83 +334,217 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             )))),
         }
     }
+}
 
-    /// `spread RUNS SEED`: the worst case over the corners and a seeded Monte Carlo summary.
+impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     #[inline(never)]
-    #[cfg(feature = "spread")]
-    pub(super) fn spread<W: Write>(&self, runs: u32, seed: u64, r: &mut Reply<'_, W>) -> Outcome {
-        let st = &self.settings;
-        let var = st.variation();
-        let wc = spread::worst_case(&st.stage, &st.profile, &var, Method::default())
-            .map_err(|e| spread_fail("spread", e))?;
-        #[cfg(feature = "monte-carlo")]
-        let mc = {
-            let settings = McSettings {
-                runs,
-                seed,
-                signal: true,
-                requirement: spread::Requirement::default(),
-            };
-            let mc = spread::monte_carlo(&st.stage, &st.profile, &var, &wc, &settings, |_, _| {})
-                .map_err(|e| spread_fail("spread", e))?;
-            Some(mc)
-        };
-        #[cfg(not(feature = "monte-carlo"))]
-        let mc: Option<spread::MonteCarlo> = None;
-        for node in spread::Node::ALL {
-            let w = wc.nodes.get(node);
-            let s = mc.as_ref().map(|mc| mc.nodes.get(node));
-            if r.machine() {
-                r.data(format_args!(
-                    "worst={} min={} max={}",
-                    node.name(),
-                    Num(w.min),
-                    Num(w.max)
-                ));
-                if let Some(s) = s {
-                    r.data(format_args!(
-                        "mc={} mean={} std={} min={} max={}",
-                        node.name(),
-                        Num(s.mean),
-                        Num(s.std()),
-                        Num(s.range.min),
-                        Num(s.range.max)
-                    ));
-                }
-            } else {
-                let u = node.unit();
-                let (lo, hi) = (Eng::new(w.min, u), Eng::new(w.max, u));
-                match s {
-                    Some(s) => r.data(format_args!(
-                        "{:<6} worst {lo} to {hi}   Monte Carlo mean {}, std {}",
-                        node.label(),
-                        Eng::new(s.mean, u),
-                        Eng::new(s.std(), u)
-                    )),
-                    None => r.data(format_args!("{:<6} worst {lo} to {hi}", node.label())),
+    pub(super) fn cmd_measure<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
+        let rd = self.measure(n)?;
+        show_readings(&rd, Source::Measured, r);
+        Ok(None)
+    }
+
+    #[inline(never)]
+    pub(super) fn cmd_judge<W: Write>(
+        &mut self,
+        rd: Readings,
+        tones: &super::parse::Tones,
+        src: Source,
+        r: &mut Reply<'_, W>,
+    ) -> Outcome {
+        self.judge(rd, tones, src)?;
+        self.show_check(r);
+        Ok(None)
+    }
+
+    /// `test`: the DC nodes first, then the gain at the two test frequencies the signal test
+    /// proposes for the design (when the stage has a load and the jig can drive a tone).
+    #[inline(never)]
+    pub(super) fn cmd_test<W: Write>(&mut self, n: u16, r: &mut Reply<'_, W>) -> Outcome {
+        let rd = self.measure(n)?;
+        #[cfg_attr(not(feature = "signal-test"), expect(unused_mut))]
+        let mut tones = super::parse::Tones::new();
+        #[cfg(feature = "signal-test")]
+        if self.settings.stage.rl.is_some() {
+            if let Some(fs) = self.test_frequencies() {
+                for f in fs {
+                    match self.jig.gain(f) {
+                        Ok(gain) => {
+                            let _ = tones.push(crate::signaltest::ToneReading { f, gain });
+                        }
+                        Err(JigError::NotSupported) => break,
+                        Err(e) => return Err(jig_fail(e)),
+                    }
                 }
             }
         }
-        let Some(mc) = mc else {
-            let _ = (runs, seed);
-            return Ok(Some(Text::of(format_args!(
-                "worst case from {} solves; no Monte Carlo on this unit (left out to fit its \
-                 flash): run biasjig spread on a PC",
-                wc.solves
-            ))));
-        };
-        if r.machine() {
-            r.data(format_args!(
-                "runs={} failed={} active={} seed={seed} solves={}",
-                mc.runs, mc.failed, mc.active, wc.solves
-            ));
-        } else {
-            r.data(format_args!(
-                "{} runs (seed {seed}): {} without an operating point, {} active; worst case \
-                 from {} solves",
-                mc.runs, mc.failed, mc.active, wc.solves
+        self.cmd_judge(rd, &tones, Source::Measured, r)
+    }
+
+    /// The two test frequencies of `test` (midband, then where the capacitors tell apart best),
+    /// Hz; `None` when the signal test proposes none for this stage. Proposed once per stage,
+    /// transistor and test settings: the proposal is kept with the settings it was made for and
+    /// made again only when any of them differs (a `set`, `meter`, `*RST`, `pick`, `choose` or
+    /// a load from the store), so it is the same as proposing every time.
+    #[cfg(feature = "signal-test")]
+    #[inline(never)]
+    fn test_frequencies(&mut self) -> Option<[f64; 2]> {
+        let st = &self.settings;
+        let ts = st.test_settings();
+        if let Some(p) = &self.proposed {
+            if p.stage == st.stage && p.profile == st.profile && p.settings == ts {
+                return p.frequencies;
+            }
+        }
+        let frequencies =
+            crate::signaltest::propose(&st.stage, &st.profile, &st.variation(), &ts.signal)
+                .ok()
+                .map(|p| [p.midband, p.poles]);
+        self.proposed = Some(Proposed {
+            stage: st.stage,
+            profile: st.profile,
+            settings: ts,
+            frequencies,
+        });
+        frequencies
+    }
+
+    #[inline(never)]
+    pub(super) fn measure(&mut self, samples: u16) -> Result<Readings, Fail> {
+        let rd = self.jig.measure(samples).map_err(jig_fail)?;
+        if ![rd.vcc, rd.vb, rd.ve, rd.vc].iter().all(|v| v.is_finite()) {
+            return Err(Fail::new(
+                Code::Jig,
+                format_args!("the jig gave a reading that is not a number"),
             ));
         }
-        Ok(None)
+        self.readings = Some((rd, Source::Measured));
+        Ok(rd)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::jig::{MemoryStore, NoJig};
+    use super::super::{Clock, Console, Identity};
+    use std::string::String;
+
+    struct Still;
+
+    impl Clock for Still {
+        fn now_ms(&mut self) -> u64 {
+            0
+        }
+    }
+
+    fn console() -> Console<NoJig, MemoryStore, Still> {
+        Console::new(
+            Identity::new("console", "0"),
+            NoJig,
+            MemoryStore::default(),
+            Still,
+        )
+    }
+
+    fn reply(c: &mut Console<NoJig, MemoryStore, Still>, line: &str) -> String {
+        let mut buf = [0u8; 8192];
+        let mut out: &mut [u8] = &mut buf;
+        let _ = c.line(line, &mut out);
+        let left = out.len();
+        let used = buf.len() - left;
+        String::from_utf8_lossy(buf.get(..used).unwrap_or(&[])).into_owned()
+    }
+
+    /// The typed last check says what the machine-mode reply of the same `check` lists: the
+    /// verdict, the first node out of its window and the first fault.
+    #[test]
+    fn last_check_matches_the_machine_reply() {
+        let mut c = console();
+        assert!(c.last_check().is_none());
+        reply(&mut c, "mode machine");
+        for (line, pass) in [
+            ("check 12 1.95 1.3 11.6", false),
+            ("check 12 1.95 1.3 6.2", true),
+        ] {
+            let text = reply(&mut c, line);
+            let l = c.last_check().unwrap_or_else(|| panic!("{line}: {text}"));
+            assert_eq!(l.pass(), pass, "{text}");
+            assert!(
+                text.contains(if pass { "verdict=pass" } else { "verdict=fail" }),
+                "{text}"
+            );
+            let failing = text
+                .split("\r\n")
+                .find(|t| t.starts_with("node=") && t.ends_with(" ok=0"))
+                .and_then(|t| t.strip_prefix("node="))
+                .and_then(|t| t.split(' ').next());
+            assert_eq!(l.first_failing().map(|n| n.node.name()), failing, "{text}");
+            let fault = text
+                .split("\r\n")
+                .find_map(|t| t.strip_prefix("fault="))
+                .map(|t| {
+                    let mut w = t.split(' ');
+                    let part = w.next().unwrap_or("");
+                    let mode = w.next().and_then(|m| m.strip_prefix("mode=")).unwrap_or("");
+                    (String::from(part), String::from(mode))
+                });
+            let typed = l.first_fault().map(|h| {
+                (
+                    String::from(h.suspect.part()),
+                    String::from(h.suspect.mode()),
+                )
+            });
+            assert_eq!(typed, fault, "{text}");
+            assert_eq!(pass, fault.is_none(), "{text}");
+            assert_eq!(l.explained().is_some(), !pass);
+            assert_eq!(l.nodes().len(), text.matches("node=").count());
+        }
+    }
+
+    /// The kept proposal is what proposing again gives, after every kind of settings change
+    /// (a kept proposal for other settings would test the board at the wrong frequencies).
+    #[cfg(feature = "signal-test")]
+    #[test]
+    fn kept_test_frequencies_follow_every_settings_change() {
+        let mut c = console();
+        let fresh = |c: &Console<NoJig, MemoryStore, Still>| {
+            let st = c.settings();
+            crate::signaltest::propose(
+                &st.stage,
+                &st.profile,
+                &st.variation(),
+                &st.test_settings().signal,
+            )
+            .ok()
+            .map(|p| [p.midband, p.poles])
+        };
+        let first = c.test_frequencies();
+        assert!(first.is_some());
+        assert_eq!(first, fresh(&c));
+        let mut seen = std::vec![first];
+        for line in [
+            "set ce 100u",
+            "set rc 3.9k",
+            "set rl 4.7k",
+            "set temp-min -40",
+            "set beta 80",
+            "meter gain 2%",
+            "set input-r none",
+            "set rl none",
+            "*RST",
+        ] {
+            let status = reply(&mut c, line);
+            assert!(status.ends_with("ok\r\n"), "{line}: {status}");
+            let kept = c.test_frequencies();
+            assert_eq!(kept, fresh(&c), "{line}");
+            // Asked again without a change: the same.
+            assert_eq!(c.test_frequencies(), kept, "{line}");
+            seen.push(kept);
+        }
+        // The changes moved the frequencies (the check above could not pass by a stale value).
+        assert!(
+            seen.windows(2).filter(|w| w[0] != w[1]).count() >= 3,
+            "{seen:?}"
+        );
     }
 }

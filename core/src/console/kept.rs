@@ -16,7 +16,7 @@
 use embedded_io::Write;
 
 #[cfg(feature = "kept-designs")]
-use super::commands::Num;
+use super::format::Val;
 use super::jig::{Clock, Jig, Slot, Store, DESIGN_SLOTS, RECORD_LEN};
 use super::parse::Name;
 use super::record::{self, Settings};
@@ -180,23 +180,15 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         for k in &list {
             // Chosen: the unit's stage is this design, unchanged since it was chosen or kept.
             let is_chosen = chosen.is_some_and(|c| c.same(&k.name)) && k.hash == current;
-            if r.machine() {
-                r.data(format_args!(
-                    "design={} hash={:016x} vcc={} chosen={}",
-                    k.name,
-                    k.hash,
-                    Num(k.vcc),
-                    u8::from(is_chosen)
-                ));
-            } else {
-                r.data(format_args!(
-                    "{} {:<16} {:016x}  VCC {} V",
-                    if is_chosen { '*' } else { ' ' },
-                    k.name.as_str(),
-                    k.hash,
-                    Num(k.vcc)
-                ));
-            }
+            r.fields(
+                &[
+                    ("design", Val::Word(k.name.as_str())),
+                    ("hash", Val::Hash(k.hash)),
+                    ("vcc", Val::Num(k.vcc)),
+                    ("chosen", Val::Flag(is_chosen, "*", " ")),
+                ],
+                "{3} {0:16} {1}  VCC {2} V",
+            );
         }
         Ok(Some(Text::of(format_args!(
             "{} of {DESIGN_SLOTS} kept",

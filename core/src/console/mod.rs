@@ -14,20 +14,33 @@
 //! - a write error (or a write of zero bytes) ends the call with an error value; nothing blocks
 //!   on it and nothing panics.
 //!
-//! Layers: [`line`] (assembling lines), [`parse`] (line to [`parse::Command`]), the session
-//! state in [`Console`], the commands, [`jig`] (traits the front end implements) and [`record`]
-//! (store records and the design hash).
+//! Layers: [`line`](mod@line) (assembling lines), [`parse`] (line to [`parse::Command`] through the one
+//! command table [`COMMANDS`]), the session state in [`Console`], the commands by job (session,
+//! settings, calibration, show, predict, judge, synthesis, kept designs) writing their data
+//! lines through one formatting module (each item once, the mode chooses the layout), [`jig`]
+//! (traits the front end implements) and [`record`] (store records and the design hash).
 
-mod commands;
+mod args;
+mod calibration;
+mod code;
+mod defaults;
+mod fields;
+mod format;
 pub mod jig;
 mod judge;
 mod kept;
 pub mod line;
 pub mod parse;
+#[cfg(any(feature = "analysis", feature = "spread"))]
+mod predict;
 pub mod record;
 pub mod reply;
+mod session;
+mod settings;
+mod show;
 #[cfg(feature = "synthesis")]
 mod synthesis;
+mod table;
 
 use embedded_io::{Read, Write};
 
@@ -37,15 +50,15 @@ use parse::Mode;
 use record::Settings;
 use reply::{write_all, Fail, Reply, Text};
 
-pub use commands::Num;
+pub use code::Code;
+pub use defaults::{default_profile, default_requirement, default_settings, default_stage};
+pub use format::Num;
 pub use judge::{LastCheck, LISTED_FAULTS};
 pub use kept::{KeptDesign, KeptList};
+pub use table::{Spec, COMMANDS, SAFETY};
 
 use crate::design::{Candidates, Requirement};
-use crate::device::Profile;
-use crate::series::Series;
-use crate::settings::TestSettings;
-use crate::stage::{Part, Polarity, Readings, Stage};
+use crate::stage::Readings;
 
 /// Longest input line, bytes (without its line end).
 pub const LINE_MAX: usize = 128;
@@ -59,98 +72,6 @@ pub const PIN_FREE_TRIES: u32 = 3;
 pub const PIN_BACKOFF_MS: u64 = 1000;
 /// Longest back-off, ms.
 pub const PIN_BACKOFF_MAX_MS: u64 = 300_000;
-
-/// The code word of an `err` status line.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-#[non_exhaustive]
-pub enum Code {
-    /// No such command.
-    Unknown,
-    /// Wrong number or shape of arguments.
-    Usage,
-    /// An argument is not an allowed value.
-    Value,
-    /// The values are each valid but the stage or profile they make is not.
-    Range,
-    /// The input line was longer than the buffer.
-    TooLong,
-    /// The input line held a control byte.
-    Control,
-    /// The input line was not UTF-8.
-    Encoding,
-    /// Refused: the unit is locked.
-    Locked,
-    /// Wrong PIN.
-    Pin,
-    /// Too many wrong PINs: wait before the next try.
-    Wait,
-    /// This unit's jig cannot do that.
-    NotSupported,
-    /// The jig failed.
-    Jig,
-    /// The operating point could not be found.
-    Solve,
-    /// The store failed.
-    Store,
-    /// No readings yet: measure or check first.
-    NoReadings,
-    /// Readings that cannot come from a powered, correctly probed board: refused, not judged.
-    Implausible,
-    /// No design: the requirement cannot be met, or `pick` before `design`.
-    NoDesign,
-}
-
-impl Code {
-    /// The code word as sent: `UNKNOWN`, `USAGE`, ...
-    pub fn name(self) -> &'static str {
-        match self {
-            Self::Unknown => "UNKNOWN",
-            Self::Usage => "USAGE",
-            Self::Value => "VALUE",
-            Self::Range => "RANGE",
-            Self::TooLong => "TOO_LONG",
-            Self::Control => "CONTROL",
-            Self::Encoding => "ENCODING",
-            Self::Locked => "LOCKED",
-            Self::Pin => "PIN",
-            Self::Wait => "WAIT",
-            Self::NotSupported => "NOT_SUPPORTED",
-            Self::Jig => "JIG",
-            Self::Solve => "SOLVE",
-            Self::Store => "STORE",
-            Self::NoReadings => "NO_READINGS",
-            Self::Implausible => "IMPLAUSIBLE",
-            Self::NoDesign => "NO_DESIGN",
-        }
-    }
-
-    /// Every code, for the protocol document and tests.
-    pub const ALL: [Code; 17] = [
-        Self::Unknown,
-        Self::Usage,
-        Self::Value,
-        Self::Range,
-        Self::TooLong,
-        Self::Control,
-        Self::Encoding,
-        Self::Locked,
-        Self::Pin,
-        Self::Wait,
-        Self::NotSupported,
-        Self::Jig,
-        Self::Solve,
-        Self::Store,
-        Self::NoReadings,
-        Self::Implausible,
-        Self::NoDesign,
-    ];
-}
-
-impl core::fmt::Display for Code {
-    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
-        f.write_str(self.name())
-    }
-}
 
 /// A failed write.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -197,71 +118,6 @@ impl Identity {
     }
 }
 
-/// The starting stage: the demo scenario's pump-monitor preamp (invented): 12 V, RL 15 kΩ,
-/// RS 600 Ω, E24 5 % resistors, E6 20 % capacitors.
-pub fn default_stage() -> Stage {
-    let r = |v| Part::new(v, 0.05);
-    let c = |v| Some(Part::new(v, 0.20));
-    Stage {
-        polarity: Polarity::Npn,
-        vcc: Part::new(12.0, crate::settings::DEFAULT_SUPPLY_TOL),
-        r1: r(47e3),
-        r2: r(10e3),
-        rc: r(4.7e3),
-        re1: r(220.0),
-        re2: r(820.0),
-        rl: Some(15e3),
-        rs: 600.0,
-        cin: c(10e-6),
-        cout: c(10e-6),
-        ce: c(470e-6),
-    }
-}
-
-/// The starting transistor: the one every front end starts from
-/// ([`crate::settings::default_profile`]: hFE 200 with no spread until one is set, VBE 0.65 V at
-/// 1 mA, VCE(sat) 0.2 V, 300 mW at 25 °C), so that the same stage gets the same windows here as
-/// on the command line.
-pub fn default_profile() -> Profile {
-    crate::settings::default_profile()
-}
-
-/// The default settings (after `*RST`).
-pub fn default_settings() -> Settings {
-    Settings {
-        stage: default_stage(),
-        profile: default_profile(),
-        temp_c: crate::settings::DEFAULT_TEMP_C,
-        temp_min_c: TestSettings::DEFAULT.temp_min_c,
-        temp_max_c: TestSettings::DEFAULT.temp_max_c,
-        meter: TestSettings::DEFAULT.meter,
-        inputs: TestSettings::DEFAULT.inputs,
-        pin: None,
-        pin_failures: 0,
-        design: None,
-    }
-}
-
-/// The starting requirement: the demo scenario (invented): 12 V, gain magnitude 15 into
-/// 15 kΩ from 600 Ω, low corner at most 5 Hz, 2 mA budget, ambient -10 to 55 °C, E24 5 %
-/// resistors, E6 20 % capacitors.
-pub fn default_requirement() -> Requirement {
-    Requirement {
-        rl: Some(15e3),
-        rs: 600.0,
-        ic_max: 2e-3,
-        f_low: Some(5.0),
-        temp: 25.0,
-        temp_min: -10.0,
-        temp_max: 55.0,
-        series: Series::E24,
-        tol: 0.05,
-        cap_series: Series::E6,
-        cap_tol: 0.20,
-        ..Requirement::new(12.0, 15.0)
-    }
-}
-
 /// Where the last readings came from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Source {
@@ -288,6 +144,9 @@ pub struct Console<J: Jig, S: Store, C: Clock> {
     readings: Option<(Readings, Source)>,
     /// The last judged board (cleared when the stage or the meter changes).
     last: Option<LastCheck>,
+    /// The test frequencies of `test`, with the settings they were proposed for.
+    #[cfg(feature = "signal-test")]
+    proposed: Option<judge::Proposed>,
     requirement: Requirement,
     candidates: Candidates,
     echo: bool,
@@ -323,6 +182,8 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             cal_low: [None; 4],
             readings: None,
             last: None,
+            #[cfg(feature = "signal-test")]
+            proposed: None,
             requirement: default_requirement(),
             candidates: Candidates::new(),
             echo: false,
@@ -391,7 +252,12 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.readings
     }
 
-    /// The last judged board: readings, verdict and (when it failed) the diagnosis.
+    /// The last judged board, typed, as the session keeps it (a reference, no copy): the
+    /// readings and where they came from, the verdict with every node's window, the gain
+    /// readings with theirs and (when it failed) the diagnosis; [`LastCheck::first_failing`]
+    /// and [`LastCheck::first_fault`] give what a screen shows. Set by `check`, `test` and
+    /// `diagnose`; a board that is not judged (an `err` status) leaves the previous one;
+    /// cleared when the stage, the transistor or the test settings change.
     pub fn last_check(&self) -> Option<&LastCheck> {
         self.last.as_ref()
     }

@@ -26,19 +26,7 @@ const VERSION: u8 = 4;
 /// Calibration record version (5: the signal path's correction after the channels; version 4
 /// records, channels only, are still read, with the signal path uncorrected).
 const CAL_VERSION: u8 = 5;
-/// FNV-1a 64 offset basis.
-const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
-/// FNV-1a 64 prime.
-const FNV_PRIME: u64 = 0x0000_0100_0000_01b3;
-
-/// FNV-1a 64 of `bytes`, continuing from `h` (start with the offset basis).
-fn fnv1a(mut h: u64, bytes: &[u8]) -> u64 {
-    for b in bytes {
-        h ^= u64::from(*b);
-        h = h.wrapping_mul(FNV_PRIME);
-    }
-    h
-}
+use crate::fnv::{fnv1a64_from as fnv1a, OFFSET_BASIS as FNV_OFFSET};
 
 /// Where an encoding goes: a byte sink.
 trait Sink {

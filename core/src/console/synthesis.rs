@@ -1,5 +1,5 @@
 //! The commands of the design search: `requirement`, `design` and `pick` (core feature
-//! `synthesis`; a unit built without it refuses them, see [`super::commands`]).
+//! `synthesis`; a unit built without it refuses them, see [`super::session`]).
 #![expect(
     clippy::result_large_err,
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
@@ -9,74 +9,45 @@ use core::fmt::Write as _;
 
 use embedded_io::Write;
 
-use super::commands::{Human, Num, Opt, Pct, Upper};
+use super::format::{polarity_name, Val};
 use super::jig::{Clock, Jig, Store};
 use super::parse::ReqSetting;
 use super::reply::{Fail, Outcome, Reply, Text};
 use super::{Code, Console};
 use crate::design::{self, DesignError};
-use crate::stage::Polarity;
-use crate::units::{capacitor_code, resistor_code, Eng, Fixed};
+use crate::units::{capacitor_code, resistor_code, Eng};
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// `requirement`: show the design requirement.
     #[inline(never)]
     pub(super) fn show_requirement<W: Write>(&self, r: &mut Reply<'_, W>) {
         let q = &self.requirement;
-        let pol = match q.polarity {
-            Polarity::Npn => "npn",
-            Polarity::Pnp => "pnp",
-        };
-        if r.machine() {
-            r.data(format_args!(
-                "polarity={pol} vcc={} gain={} rl={} rs={} ic_max={}",
-                Num(q.vcc),
-                Num(q.gain),
-                Opt(q.rl),
-                Num(q.rs),
-                Num(q.ic_max)
-            ));
-            r.data(format_args!(
-                "swing_pp={} f_low={} temp={} temp_min={} temp_max={}",
-                Num(q.swing_pp),
-                Opt(q.f_low),
-                Num(q.temp),
-                Num(q.temp_min),
-                Num(q.temp_max)
-            ));
-            r.data(format_args!(
-                "series={} tol={} cap_series={} cap_tol={}",
-                q.series.name(),
-                Num(q.tol),
-                q.cap_series.name(),
-                Num(q.cap_tol)
-            ));
-        } else {
-            r.data(format_args!(
-                "{} on {}, gain {} into {} from {}",
-                Upper(pol),
-                Eng::new(q.vcc, "V"),
-                Num(q.gain),
-                Human(q.rl, "Ω"),
-                Eng::new(q.rs, "Ω")
-            ));
-            r.data(format_args!(
-                "IC at most {}, swing at least {} peak-to-peak, low corner at most {}",
-                Eng::new(q.ic_max, "A"),
-                Eng::new(q.swing_pp, "V"),
-                Eng::new(q.f_low_or_default(), "Hz")
-            ));
-            r.data(format_args!(
-                "ambient {} °C ({} to {} °C), resistors {} ±{}, capacitors {} ±{}",
-                Num(q.temp),
-                Num(q.temp_min),
-                Num(q.temp_max),
-                q.series.name(),
-                Pct(q.tol),
-                q.cap_series.name(),
-                Pct(q.cap_tol)
-            ));
-        }
+        let pol = polarity_name(q.polarity);
+        r.fields(
+            &[
+                ("polarity", Val::Upper(pol)),
+                ("vcc", Val::Si(q.vcc, "V")),
+                ("gain", Val::Num(q.gain)),
+                ("rl", Val::OptSi(q.rl, "Ω")),
+                ("rs", Val::Si(q.rs, "Ω")),
+                ("ic_max", Val::Si(q.ic_max, "A")),
+                ("", Val::Break),
+                ("swing_pp", Val::Si(q.swing_pp, "V")),
+                ("f_low", Val::OptSi(q.f_low, "Hz")),
+                ("", Val::Label(&Eng::new(q.f_low_or_default(), "Hz"))),
+                ("temp", Val::Num(q.temp)),
+                ("temp_min", Val::Num(q.temp_min)),
+                ("temp_max", Val::Num(q.temp_max)),
+                ("", Val::Break),
+                ("series", Val::Word(q.series.name())),
+                ("tol", Val::Pct(q.tol)),
+                ("cap_series", Val::Word(q.cap_series.name())),
+                ("cap_tol", Val::Pct(q.cap_tol)),
+            ],
+            "{0} on {1}, gain {2} into {3} from {4}\n\
+             IC at most {5}, swing at least {7} peak-to-peak, low corner at most {9}\n\
+             ambient {10} °C ({11} to {12} °C), resistors {14} ±{15}, capacitors {16} ±{17}",
+        );
     }
 
     /// `requirement NAME VALUE`: change one field; the whole requirement must stay valid.
@@ -127,57 +98,44 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             let s = &c.stage;
             let n = k + 1;
             let cap = |p: Option<crate::stage::Part>| p.map(|p| p.value);
-            if r.machine() {
-                r.data(format_args!(
-                    "candidate={n} r1={} r2={} rc={} re1={} re2={} cin={} cout={} ce={}",
-                    Num(s.r1.value),
-                    Num(s.r2.value),
-                    Num(s.rc.value),
-                    Num(s.re1.value),
-                    Num(s.re2.value),
-                    Opt(cap(s.cin)),
-                    Opt(cap(s.cout)),
-                    Opt(cap(s.ce))
-                ));
-                r.data(format_args!(
-                    "candidate={n} gain={} swing_pp={} ic={} vce={} f_low={} score={}",
-                    Num(c.gain),
-                    Num(c.swing_pp),
-                    Num(c.op.ic),
-                    Num(c.op.vce),
-                    Num(c.f_low),
-                    Num(c.score)
-                ));
-            } else {
-                let mut caps = Text::default();
-                for (name, p) in [("CIN", s.cin), ("COUT", s.cout), ("CE", s.ce)] {
-                    match p {
-                        Some(p) => {
-                            let _ = write!(caps, "  {name} {}", capacitor_code(p.value));
-                        }
-                        None => {
-                            let _ = write!(caps, "  {name} ideal");
-                        }
+            let mut caps = Text::default();
+            for (name, p) in [("CIN", s.cin), ("COUT", s.cout), ("CE", s.ce)] {
+                match p {
+                    Some(p) => {
+                        let _ = write!(caps, "  {name} {}", capacitor_code(p.value));
+                    }
+                    None => {
+                        let _ = write!(caps, "  {name} ideal");
                     }
                 }
-                r.data(format_args!(
-                    "{n}. R1 {}  R2 {}  RC {}  RE1 {}  RE2 {}{}",
-                    resistor_code(s.r1.value),
-                    resistor_code(s.r2.value),
-                    resistor_code(s.rc.value),
-                    resistor_code(s.re1.value),
-                    resistor_code(s.re2.value),
-                    caps.as_str()
-                ));
-                r.data(format_args!(
-                    "   gain {}, swing {} peak-to-peak, IC {}, VCE {}, low corner {}",
-                    Fixed(c.gain, 2),
-                    Eng::new(c.swing_pp, "V"),
-                    Eng::new(c.op.ic, "A"),
-                    Eng::new(c.op.vce, "V"),
-                    Eng::new(c.f_low, "Hz")
-                ));
             }
+            let parts = [s.r1, s.r2, s.rc, s.re1, s.re2];
+            let [c1, c2, c3, c4, c5] = parts.map(|p| resistor_code(p.value));
+            let [v1, v2, v3, v4, v5] = parts.map(|p| p.value);
+            r.fields(
+                &[
+                    ("candidate", Val::Shown(&n)),
+                    ("r1", Val::Code(v1, c1.as_str())),
+                    ("r2", Val::Code(v2, c2.as_str())),
+                    ("rc", Val::Code(v3, c3.as_str())),
+                    ("re1", Val::Code(v4, c4.as_str())),
+                    ("re2", Val::Code(v5, c5.as_str())),
+                    ("cin", Val::OptSi(cap(s.cin), "F")),
+                    ("cout", Val::OptSi(cap(s.cout), "F")),
+                    ("ce", Val::OptSi(cap(s.ce), "F")),
+                    ("", Val::Label(&caps.as_str())),
+                    ("", Val::Break),
+                    ("candidate", Val::Shown(&n)),
+                    ("gain", Val::Fixed(c.gain, 2)),
+                    ("swing_pp", Val::Si(c.swing_pp, "V")),
+                    ("ic", Val::Si(c.op.ic, "A")),
+                    ("vce", Val::Si(c.op.vce, "V")),
+                    ("f_low", Val::Si(c.f_low, "Hz")),
+                    ("score", Val::Num(c.score)),
+                ],
+                "{0}. R1 {1}  R2 {2}  RC {3}  RE1 {4}  RE2 {5}{9}\n   gain {12}, swing {13} \
+                 peak-to-peak, IC {14}, VCE {15}, low corner {16}",
+            );
         }
         Ok(Some(Text::of(format_args!(
             "{} candidates, best first: pick N takes one",

@@ -13,9 +13,9 @@
 #![no_main]
 
 use biasjig_core::console::{Console, Identity};
-use biasjig_firmware::console::{App, Board, Show};
+use biasjig_firmware::console::{App, Board};
 use biasjig_firmware::jig::EmulatedJig;
-use biasjig_firmware::screen::{draw_show, FrameBuffer};
+use biasjig_firmware::screen::{draw_show, FrameBuffer, Show};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::store::{FlashStore, RamFlash};
 use biasjig_firmware::target::{stack, store_mem, ticks, usart1, usart1::Usart1};
@@ -25,7 +25,7 @@ use embedded_io::{ReadReady, Write};
 use panic_halt as _;
 // The device crate supplies the interrupt vector table (F411 layout; the emulated image enables
 // no device interrupt, so the F405 difference does not matter).
-use stm32f4xx_hal::pac::interrupt;
+use stm32f4xx_hal::pac::{self, interrupt};
 
 /// The store: the RAM-backed flash model.
 type EmuStore = FlashStore<RamFlash<'static>>;
@@ -83,7 +83,7 @@ fn console() -> Option<&'static mut EmuConsole> {
     Some(Console::unloaded_in(
         slot,
         Identity::new("jig-emulated", biasjig_firmware::VERSION),
-        EmulatedJig::new(BOARD_SEED),
+        EmulatedJig::new(BOARD_SEED).timed_by(now32),
         store,
         ticks::SysTickClock {
             ticks_per_ms: SYSCLK_HZ / 1000,
@@ -111,10 +111,10 @@ fn init(
 #[entry]
 fn main() -> ! {
     stack::paint();
-    let mut io = NbSerial::new(Usart1::init());
-    let Some(cp) = cortex_m::Peripherals::take() else {
+    let (Some(dp), Some(cp)) = (pac::Peripherals::take(), cortex_m::Peripherals::take()) else {
         halt()
     };
+    let mut io = NbSerial::new(Usart1::init(dp.USART1, &dp.RCC));
     let cost_ticks = ticks::SysTickTicks::start(cp.SYST);
     let Some(console) = console() else { halt() };
     let Some(app) = init(console, cost_ticks) else {
@@ -124,7 +124,7 @@ fn main() -> ! {
         if matches!(io.read_ready(), Ok(true)) {
             let _ = app.poll(&mut io);
         } else {
-            usart1::idle();
+            io.inner_mut().idle();
         }
     }
 }
@@ -137,4 +137,9 @@ fn USART1() {
 #[exception]
 fn SysTick() {
     ticks::systick_wrapped();
+}
+
+/// SysTick ticks, wrapping at 32 bits: the clock that times the emulated board apart.
+fn now32() -> u32 {
+    ticks::now64() as u32
 }

@@ -15,10 +15,10 @@
 
 use biasjig_core::console::{Channel, Console, Identity};
 use biasjig_firmware::button::Debounce;
-use biasjig_firmware::console::{App, Board, Show};
+use biasjig_firmware::console::{App, Board};
 use biasjig_firmware::cost::Ticks;
 use biasjig_firmware::jig::{AdcJig, SampleSource};
-use biasjig_firmware::screen::draw_show;
+use biasjig_firmware::screen::{draw_show, Show};
 use biasjig_firmware::serial::NbSerial;
 use biasjig_firmware::store::FlashStore;
 use biasjig_firmware::target::internal_flash::InternalFlash;
@@ -271,14 +271,14 @@ fn identity() -> Identity {
     let mut id = Identity::new("jig-stm32f411", biasjig_firmware::VERSION);
     let uid = stm32f4xx_hal::signature::Uid::get();
     id.serial.clear();
-    let mut bytes = [0u8; 12];
+    // x and y (little-endian), the wafer number, the lot number's 7 bytes (zero-padded).
     let (x, y) = (uid.x(), uid.y());
-    bytes[..2].copy_from_slice(&x.to_le_bytes());
-    bytes[2..4].copy_from_slice(&y.to_le_bytes());
-    bytes[4] = uid.waf_num();
-    for (i, b) in uid.lot_num().bytes().take(7).enumerate() {
-        bytes[5 + i] = b;
-    }
+    let bytes = x
+        .to_le_bytes()
+        .into_iter()
+        .chain(y.to_le_bytes())
+        .chain([uid.waf_num()])
+        .chain(uid.lot_num().bytes().chain(core::iter::repeat(0)).take(7));
     for b in bytes {
         let _ = core::fmt::Write::write_fmt(&mut id.serial, format_args!("{b:02x}"));
     }

@@ -81,7 +81,7 @@ impl NorFlash for CutFlash {
     const ERASE_SIZE: usize = PAGE;
 
     fn erase(&mut self, from: u32, to: u32) -> Result<(), PowerCut> {
-        assert!(from as usize % PAGE == 0 && to as usize % PAGE == 0);
+        assert!((from as usize).is_multiple_of(PAGE) && (to as usize).is_multiple_of(PAGE));
         for page in from as usize / PAGE..to as usize / PAGE {
             for chunk in 0..ERASE_STEPS {
                 if !self.step() {
@@ -98,21 +98,24 @@ impl NorFlash for CutFlash {
     }
 
     fn write(&mut self, offset: u32, bytes: &[u8]) -> Result<(), PowerCut> {
-        assert!(offset % 4 == 0 && bytes.len() % 4 == 0, "unaligned write");
+        assert!(
+            offset.is_multiple_of(4) && bytes.len().is_multiple_of(4),
+            "unaligned write"
+        );
         for (i, word) in bytes.chunks(4).enumerate() {
             let at = offset as usize + 4 * i;
             let alive = self.step();
             let mut chip = self.chip.borrow_mut();
             if !alive {
                 // Torn: the first two bytes of the word programmed, the rest not.
-                for k in 0..2 {
-                    chip.mem[at + k] &= word[k];
+                for (cell, w) in chip.mem[at..at + 2].iter_mut().zip(word) {
+                    *cell &= w;
                 }
                 return Err(PowerCut);
             }
-            for k in 0..4 {
-                // NOR: programming only clears bits.
-                chip.mem[at + k] &= word[k];
+            // NOR: programming only clears bits.
+            for (cell, w) in chip.mem[at..at + 4].iter_mut().zip(word) {
+                *cell &= w;
             }
         }
         Ok(())
@@ -320,7 +323,6 @@ fn ram_flash_behaves_as_nor() {
         Err(RamFlashError::OutOfBounds)
     );
     // The store on it.
-    drop(f);
     let mut mem = vec![0xFFu8; 4 * RAM_PAGE];
     let mut s = FlashStore::new(RamFlash::new(&mut mem), 0..(4 * RAM_PAGE) as u32).unwrap();
     s.save(Slot::Calibration, &record(Slot::Calibration, 5))
@@ -328,7 +330,7 @@ fn ram_flash_behaves_as_nor() {
     let mut r = [0u8; RECORD_LEN];
     assert_eq!(s.load(Slot::Calibration, &mut r), Ok(true));
     assert_eq!(version_of(Slot::Calibration, &r), Some(5));
-    drop(s);
+    // Too small a range (one page) is refused.
     assert!(FlashStore::new(RamFlash::new(&mut mem), 0..RAM_PAGE as u32).is_err());
 }
 
