@@ -140,9 +140,13 @@ impl core::fmt::Display for Implausible {
     }
 }
 
-/// The worst-case error of one reading of `v` volts with `meter`, V.
-pub fn reading_error(meter: &Meter, v: f64) -> f64 {
-    meter.error(v)
+/// Every reading is a finite number.
+pub fn finite(r: &Readings) -> Result<(), Implausible> {
+    if [r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
+        Ok(())
+    } else {
+        Err(Implausible::NotFinite)
+    }
 }
 
 /// The supply window in which a board counts as powered: the nominal ± the larger of the
@@ -154,7 +158,7 @@ pub fn supply_window(stage: &Stage, meter: &Meter) -> Window {
     } else {
         SUPPLY_SLACK
     };
-    let err = reading_error(meter, nominal);
+    let err = meter.error(nominal);
     Window {
         low: nominal * (1.0 - slack) - err,
         high: nominal * (1.0 + slack) + err,
@@ -163,9 +167,7 @@ pub fn supply_window(stage: &Stage, meter: &Meter) -> Window {
 
 /// Refuse readings that cannot come from a powered, correctly probed board.
 pub fn plausible(stage: &Stage, meter: &Meter, r: &Readings) -> Result<(), Implausible> {
-    if ![r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
-        return Err(Implausible::NotFinite);
-    }
+    finite(r)?;
     let w = supply_window(stage, meter);
     if !w.contains(r.vcc) {
         return Err(Implausible::Supply {
@@ -174,13 +176,12 @@ pub fn plausible(stage: &Stage, meter: &Meter, r: &Readings) -> Result<(), Impla
             high: w.high,
         });
     }
-    let slack =
-        |v: f64| 2.0 * (reading_error(meter, v) + reading_error(meter, r.vcc)) + PROBE_NOISE_V;
+    let slack = |v: f64| 2.0 * (meter.error(v) + meter.error(r.vcc)) + PROBE_NOISE_V;
     for (node, v) in [(Node::Vb, r.vb), (Node::Ve, r.ve), (Node::Vc, r.vc)] {
         if v > r.vcc + slack(v) {
             return Err(Implausible::AboveSupply(node));
         }
-        if v < -(2.0 * reading_error(meter, v) + PROBE_NOISE_V) {
+        if v < -(2.0 * meter.error(v) + PROBE_NOISE_V) {
             return Err(Implausible::BelowGround(node));
         }
     }
@@ -222,9 +223,9 @@ pub fn derive_through(stage: &Stage, meter: &Meter, inputs: &Inputs, r: &Reading
         Polarity::Pnp => i_r2 - i_r1 + drawn(r.vb),
     };
     // What the meter can resolve of IB: the base-voltage error through both divider resistors.
-    let ib_resolution = reading_error(meter, r.vb) * (1.0 / r1 + 1.0 / r2)
-        + reading_error(meter, r.vcc) / r1
-        + drawn(reading_error(meter, r.vb));
+    let ib_resolution = meter.error(r.vb) * (1.0 / r1 + 1.0 / r2)
+        + meter.error(r.vcc) / r1
+        + drawn(meter.error(r.vb));
     let beta = if ib > 2.0 * ib_resolution && ic > 0.0 {
         Some(ic / ib)
     } else {

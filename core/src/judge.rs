@@ -13,11 +13,11 @@
 //!    ([`check::plausible`]);
 //! 5. the windows at the measured supply over the test ambient with the measuring inputs
 //!    attached ([`limits::limits`]), the verdict ([`check::check`]) and, for a failed board, the
-//!    diagnosis with the same meter, ambient and inputs ([`diagnose::diagnose`]).
+//!    diagnosis with the same meter, ambient and inputs ([`crate::diagnose::diagnose`]).
 
 use crate::check::{self, Implausible, Verdict};
 use crate::device::Profile;
-use crate::diagnose::{self, DiagnoseError, Diagnosis};
+use crate::diagnose::{DiagnoseError, Diagnosis};
 use crate::limits::{self, Limits, LimitsError, Window};
 use crate::settings::{SettingsError, TestSettings};
 use crate::signaltest::{self, SignalTestError, ToneReading, ToneWindow, MAX_TONES};
@@ -43,8 +43,12 @@ pub fn nominal_region(
     profile: &Profile,
     settings: &TestSettings,
 ) -> Result<Region, SolveError> {
-    let temp = 0.5 * (settings.temp_min_c + settings.temp_max_c);
-    solve(stage, profile, Conditions::typical(profile).at(temp)).map(|op| op.region)
+    solve(stage, profile, nominal_conditions(profile, settings)).map(|op| op.region)
+}
+
+/// Typical hFE at the middle of the test ambient, nothing attached.
+fn nominal_conditions(profile: &Profile, settings: &TestSettings) -> Conditions {
+    Conditions::typical(profile).at(0.5 * (settings.temp_min_c + settings.temp_max_c))
 }
 
 /// The operating region of the stage at its nominal point while it is read through the
@@ -58,11 +62,10 @@ pub fn nominal_region_through(
     profile: &Profile,
     settings: &TestSettings,
 ) -> Result<Region, SolveError> {
-    let temp = 0.5 * (settings.temp_min_c + settings.temp_max_c);
     region_through(
         stage,
         profile,
-        Conditions::typical(profile).at(temp),
+        nominal_conditions(profile, settings),
         &settings.inputs,
     )
 }
@@ -97,24 +100,10 @@ pub fn readings_through(
     cond: Conditions,
     inputs: &crate::settings::Inputs,
 ) -> Result<Readings, SolveError> {
-    use crate::settings::ReadNode;
-    let (vb, ve, vc) = match inputs.common_loads() {
-        Some(loads) => {
-            let op = solve(stage, profile, cond.loaded(loads))?;
-            (op.vb, op.ve, op.vc)
-        }
-        None => {
-            let at = |n: ReadNode| solve(stage, profile, cond.loaded(inputs.loads_reading(n)));
-            (
-                at(ReadNode::Base)?.vb,
-                at(ReadNode::Emitter)?.ve,
-                at(ReadNode::Collector)?.vc,
-            )
-        }
-    };
+    let (op, ve, vc) = inputs.read_through(|l| solve(stage, profile, cond.loaded(l)))?;
     Ok(Readings {
         vcc: stage.vcc.value,
-        vb,
+        vb: op.vb,
         ve,
         vc,
     })
@@ -222,7 +211,7 @@ fn usable(stage: &Stage, profile: &Profile, settings: &TestSettings) -> Result<(
 }
 
 /// The windows [`judge`] applies to a board whose supply reads `vcc` (V). `biasjig limits`
-/// publishes these (at the nominal supply unless told `--at-vcc`).
+/// publishes these (at the nominal supply unless asked for another).
 pub fn windows(
     stage: &Stage,
     profile: &Profile,
@@ -297,7 +286,7 @@ pub fn judge(
 
 /// Judge one board by its DC readings and its gain readings `tones` (the signal test): each gain
 /// against its window ([`tone_windows`]), the verdict failed when any window fails, and the
-/// diagnosis on DC and signal readings together ([`diagnose::diagnose_with_signal`]).
+/// diagnosis on DC and signal readings together ([`crate::diagnose::diagnose_with_signal`]).
 pub fn judge_with_signal(
     stage: &Stage,
     profile: &Profile,
@@ -310,10 +299,10 @@ pub fn judge_with_signal(
     let diagnosis = if verdict.pass {
         None
     } else {
-        Some(
-            diagnosis_with_signal(stage, profile, settings, readings, tones)
-                .map_err(JudgeError::Diagnose)?,
-        )
+        let mut d = Diagnosis::new();
+        diagnosis_with_signal_into(stage, profile, settings, readings, tones, &mut d)
+            .map_err(JudgeError::Diagnose)?;
+        Some(d)
     };
     Ok(Judgement {
         windows,
@@ -324,7 +313,7 @@ pub fn judge_with_signal(
 }
 
 /// Steps 1 to 5 of [`judge`] without the diagnosis: the windows and the verdict. A small
-/// instrument calls this and then [`diagnosis`] for a failed board, keeping the diagnosis (a
+/// instrument calls this and then [`diagnosis_with_signal_into`] for a failed board, keeping the diagnosis (a
 /// few KB) where it is stored instead of moving it through a [`Judgement`].
 pub fn verdict(
     stage: &Stage,
@@ -364,9 +353,7 @@ pub fn verdict_with_signal(
         signaltest::validate_reading(t).map_err(JudgeError::Signal)?;
     }
     let r = readings;
-    if ![r.vcc, r.vb, r.ve, r.vc].iter().all(|v| v.is_finite()) {
-        return Err(JudgeError::Implausible(Implausible::NotFinite));
-    }
+    check::finite(r).map_err(JudgeError::Implausible)?;
     let supply = supply_window(stage);
     if !supply.contains(r.vcc) {
         return Err(JudgeError::Supply {
@@ -406,71 +393,7 @@ pub fn verdict_with_signal(
     Ok((Windows { supply, limits }, verdict, judged))
 }
 
-/// [`diagnosis`] written into `out`: the instrument keeps it in its session state, never on its
-/// stack.
-#[inline(never)]
-pub fn diagnosis_into(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-    out: &mut Diagnosis,
-) -> Result<(), DiagnoseError> {
-    diagnosis_with_signal_into(stage, profile, settings, readings, &[], out)
-}
-
-/// [`diagnosis_into`] on DC and gain readings together.
-#[inline(never)]
-pub fn diagnosis_with_signal_into(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-    tones: &[ToneReading],
-    out: &mut Diagnosis,
-) -> Result<(), DiagnoseError> {
-    diagnose::diagnose_with_signal_into(
-        stage,
-        profile,
-        readings,
-        tones,
-        &settings.meter,
-        &settings.signal,
-        &variation(settings),
-        out,
-    )
-}
-
-/// The diagnosis of [`judge`] for a failed board: with the same meter, test ambient and inputs.
-/// (Its error is the diagnosis's own, so that the result, a few KB, is written once in place; not
-/// inlined, so that the diagnosis's working storage is not part of its caller's frame while the
-/// windows are computed.)
-#[inline(never)]
-pub fn diagnosis(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-) -> Result<Diagnosis, DiagnoseError> {
-    diagnosis_with_signal(stage, profile, settings, readings, &[])
-}
-
-/// [`diagnosis`] on DC and gain readings together.
-#[inline]
-pub fn diagnosis_with_signal(
-    stage: &Stage,
-    profile: &Profile,
-    settings: &TestSettings,
-    readings: &Readings,
-    tones: &[ToneReading],
-) -> Result<Diagnosis, DiagnoseError> {
-    diagnose::diagnose_with_signal(
-        stage,
-        profile,
-        readings,
-        tones,
-        &settings.meter,
-        &settings.signal,
-        &variation(settings),
-    )
-}
+/// The diagnosis of [`judge`] for a failed board, on DC and gain readings together, with the same
+/// meter, test ambient and inputs, written into `out`: the instrument keeps it in its session
+/// state, never on its stack (the diagnosis's own entry, [`crate::diagnose::diagnose_into`]).
+pub use crate::diagnose::diagnose_into as diagnosis_with_signal_into;

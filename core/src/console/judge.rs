@@ -105,7 +105,7 @@ pub(super) fn judge_fail(e: JudgeError) -> Fail {
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// Judge readings through the one judging path ([`crate::judge::verdict`], then for a failed
-    /// board [`crate::judge::diagnosis_into`]: the steps of [`crate::judge::judge`]; the supply window,
+    /// board [`crate::judge::diagnosis_with_signal_into`]: the steps of [`crate::judge::judge`]; the supply window,
     /// the nominal region, plausibility, windows at the measured supply over the test ambient
     /// with the measuring inputs attached, verdict and, when the board fails, the diagnosis).
     /// Keeps the result as the last check (nothing changes when the board is not judged; a

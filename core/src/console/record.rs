@@ -17,7 +17,7 @@ use super::jig::{Calibration, ChannelCal, Slot, RECORD_LEN};
 use super::parse::{Name, Pin, NAME_MAX};
 use crate::device::Profile;
 use crate::limits::Meter;
-use crate::settings::{InputMode, Inputs, TestSettings};
+use crate::settings::{Encode, InputMode, Inputs, TestSettings};
 use crate::stage::{Part, Polarity, Stage};
 
 /// Record format version (4: measuring inputs in the settings, the name of the chosen design;
@@ -28,42 +28,9 @@ const VERSION: u8 = 4;
 const CAL_VERSION: u8 = 5;
 use crate::fnv::{fnv1a64_from as fnv1a, OFFSET_BASIS as FNV_OFFSET};
 
-/// Where an encoding goes: a byte sink.
-trait Sink {
-    fn put(&mut self, bytes: &[u8]);
-    fn f64(&mut self, v: f64) {
-        self.put(&v.to_le_bytes());
-    }
-    fn u8(&mut self, v: u8) {
-        self.put(&[v]);
-    }
-    fn opt(&mut self, v: Option<f64>) {
-        match v {
-            None => self.u8(0),
-            Some(x) => {
-                self.u8(1);
-                self.f64(x);
-            }
-        }
-    }
-    fn part(&mut self, p: Part) {
-        self.f64(p.value);
-        self.f64(p.tol);
-    }
-    fn opt_part(&mut self, p: Option<Part>) {
-        match p {
-            None => self.u8(0),
-            Some(p) => {
-                self.u8(1);
-                self.part(p);
-            }
-        }
-    }
-}
-
 struct Hasher(u64);
 
-impl Sink for Hasher {
+impl Encode for Hasher {
     fn put(&mut self, bytes: &[u8]) {
         self.0 = fnv1a(self.0, bytes);
     }
@@ -76,7 +43,7 @@ struct Writer<'a> {
     overflow: bool,
 }
 
-impl Sink for Writer<'_> {
+impl Encode for Writer<'_> {
     fn put(&mut self, bytes: &[u8]) {
         match self.buf.get_mut(self.pos..self.pos + bytes.len()) {
             Some(dst) => {
@@ -126,36 +93,6 @@ impl Reader<'_> {
     }
 }
 
-fn put_design(s: &mut impl Sink, stage: &Stage, profile: &Profile) {
-    s.u8(match stage.polarity {
-        Polarity::Npn => 0,
-        Polarity::Pnp => 1,
-    });
-    s.part(stage.vcc);
-    for p in [stage.r1, stage.r2, stage.rc, stage.re1, stage.re2] {
-        s.part(p);
-    }
-    s.opt(stage.rl);
-    s.f64(stage.rs);
-    for c in [stage.cin, stage.cout, stage.ce] {
-        s.opt_part(c);
-    }
-    for v in [
-        profile.beta_min,
-        profile.beta_typ,
-        profile.beta_max,
-        profile.beta_rev,
-    ] {
-        s.f64(v);
-    }
-    s.f64(profile.beta_tc);
-    s.f64(profile.is_25);
-    s.opt(profile.early);
-    for v in [profile.vce_sat, profile.power_25, profile.tj_max] {
-        s.f64(v);
-    }
-}
-
 fn get_design(r: &mut Reader<'_>) -> Option<(Stage, Profile)> {
     let polarity = match r.u8()? {
         0 => Polarity::Npn,
@@ -194,7 +131,7 @@ fn get_design(r: &mut Reader<'_>) -> Option<(Stage, Profile)> {
 /// The design hash of a stage and its transistor profile (see the module documentation).
 pub fn design_hash(stage: &Stage, profile: &Profile) -> u64 {
     let mut h = Hasher(FNV_OFFSET);
-    put_design(&mut h, stage, profile);
+    h.design(stage, profile);
     h.0
 }
 
@@ -301,7 +238,7 @@ fn get_name(r: &mut Reader<'_>) -> Option<Option<Name>> {
 /// The part of the settings a kept design carries: stage, transistor, ambient range, meter,
 /// measuring inputs.
 fn put_setup(w: &mut Writer<'_>, s: &Settings) {
-    put_design(w, &s.stage, &s.profile);
+    w.design(&s.stage, &s.profile);
     w.f64(s.temp_c);
     w.f64(s.temp_min_c);
     w.f64(s.temp_max_c);
