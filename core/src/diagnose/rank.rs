@@ -27,11 +27,20 @@ fn penalised(h: &Hypothesis) -> f64 {
         }
 }
 
+/// Differences of misfit (χ²) below which two hypotheses rank as equal: a likelihood ratio of
+/// 1.0005, far below what the readings can tell, and above the rounding of single-precision
+/// predictions.
+const RANK_RESOLUTION: f64 = 1e-3;
+
 /// Order `ranked` by penalised misfit and give each its score, the relative likelihood
 /// exp(−χ²/2) normalised over all. Returns whether the best explains the readings (its χ² is
 /// within [`UNEXPLAINED_CHI2`]).
 pub(super) fn rank(ranked: &mut [Hypothesis]) -> bool {
-    crate::order::sort_by(ranked, |a, b| penalised(a).total_cmp(&penalised(b)));
+    // Misfits within RANK_RESOLUTION of each other keep the dictionary's order (the sort is
+    // stable): which of two hypotheses that predict the same readings comes first must not hang
+    // on the last bits of their predictions.
+    let step = |h: &Hypothesis| libm::round(penalised(h) / RANK_RESOLUTION);
+    crate::order::sort_by(ranked, |a, b| step(a).total_cmp(&step(b)));
     let best = ranked.first().map_or(0.0, penalised);
     let explained = ranked.first().is_some_and(|h| h.chi2 <= UNEXPLAINED_CHI2);
     let mut total = 0.0;
