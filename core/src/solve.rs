@@ -1011,6 +1011,24 @@ pub struct Start<T = f64> {
     is_25: f64,
     /// IS at `temp_c`, A.
     is: f64,
+    /// The rest of the transistor's figures at `temp_c`, kept so that the next solve at the same
+    /// ambient and hFE need not compute them again (each `f64` division is a software routine
+    /// on the instrument).
+    law: Law,
+}
+
+/// The transistor's figures a solve derives from the ambient and hFE (see [`Start`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Law {
+    vt: f64,
+    inv_vt: f64,
+    /// The hFE at 25 °C, the profile's temperature coefficient and reverse hFE they came from.
+    beta_25: f64,
+    beta_tc: f64,
+    beta_rev: f64,
+    beta: f64,
+    is_bf: f64,
+    is_br: f64,
 }
 
 /// Where a [`solve_from_single`] begins: an earlier single-precision solution.
@@ -1109,6 +1127,7 @@ fn solve_double_for_single(
         temp_c: s.temp_c,
         is_25: s.is_25,
         is: s.is,
+        law: s.law,
     });
     let (op, next) = solve_in::<f64>(stage, profile, cond, start.as_ref())?;
     let next = Start {
@@ -1116,6 +1135,7 @@ fn solve_double_for_single(
         temp_c: next.temp_c,
         is_25: next.is_25,
         is: next.is,
+        law: next.law,
     };
     Ok((op, next))
 }
@@ -1136,24 +1156,42 @@ fn solve_in<T: Real>(
     let rc = stage.rc.value;
     let re = stage.re_total();
     let temp = cond.temp_c;
-    let vt = thermal_voltage(temp);
-    // The same temperature law for the same figures gives the same IS, bit for bit.
-    let is = match start {
-        Some(s)
-            if s.temp_c.to_bits() == temp.to_bits()
-                && s.is_25.to_bits() == profile.is_25.to_bits() =>
+    // The same temperature law for the same figures gives the same IS, VT and hFE, bit for bit:
+    // they are taken from the start when its figures are the same.
+    let same_ambient = start.filter(|s| {
+        s.temp_c.to_bits() == temp.to_bits() && s.is_25.to_bits() == profile.is_25.to_bits()
+    });
+    let is = same_ambient.map_or_else(|| profile.is_at(temp), |s| s.is);
+    let law = match same_ambient.map(|s| s.law) {
+        Some(l)
+            if l.beta_25.to_bits() == cond.beta_25.to_bits()
+                && l.beta_tc.to_bits() == profile.beta_tc.to_bits()
+                && l.beta_rev.to_bits() == profile.beta_rev.to_bits() =>
         {
-            s.is
+            l
         }
-        _ => profile.is_at(temp),
+        _ => {
+            let vt = thermal_voltage(temp);
+            let beta = profile.beta_at(cond.beta_25, temp);
+            Law {
+                vt,
+                inv_vt: 1.0 / vt,
+                beta_25: cond.beta_25,
+                beta_tc: profile.beta_tc,
+                beta_rev: profile.beta_rev,
+                beta,
+                is_bf: is / beta,
+                is_br: is / profile.beta_rev,
+            }
+        }
     };
-    let beta = profile.beta_at(cond.beta_25, temp);
+    let (vt, beta) = (law.vt, law.beta);
     let j = Junction {
         vt,
-        inv_vt: 1.0 / vt,
+        inv_vt: law.inv_vt,
         is,
-        is_bf: is / beta,
-        is_br: is / profile.beta_rev,
+        is_bf: law.is_bf,
+        is_br: law.is_br,
         inv_va: profile.early.map_or(0.0, |va| 1.0 / va),
         gmin: 0.0,
         fault: cond.fault,
@@ -1235,6 +1273,7 @@ fn solve_in<T: Real>(
         temp_c: temp,
         is_25: profile.is_25,
         is,
+        law,
     };
     let cur = if T::EXACT_FREE {
         exact_free_currents(cur, free)

@@ -164,7 +164,14 @@ pub struct EmulatedTone {
     /// The clock that times the synthesis apart from the instrument's work
     /// ([`crate::cost::standing_in`]).
     pub clock: fn() -> u32,
+    /// Sample pairs synthesised ahead, as a converter's DMA buffer holds them, and the next one
+    /// to hand out: the synthesis is timed once a buffer, not once a sample.
+    ahead: [(u16, u16); AHEAD],
+    next: usize,
 }
+
+/// Sample pairs synthesised at a time.
+const AHEAD: usize = 32;
 
 impl EmulatedTone {
     /// The tone of the board `stage` (as the signal sees it) with capacitors `caps` at `op`.
@@ -181,6 +188,8 @@ impl EmulatedTone {
             noise,
             load_input_gain: 1.0,
             clock: crate::cost::no_clock,
+            ahead: [(0, 0); AHEAD],
+            next: AHEAD,
         }
     }
 
@@ -246,13 +255,27 @@ impl EmulatedTone {
 
 impl ToneDriver for EmulatedTone {
     fn start(&mut self, f_hz: f32, samples_per_period: u32) -> f32 {
+        self.next = AHEAD;
         crate::cost::standing_in(self.clock, || self.synth_start(f_hz, samples_per_period))
     }
 
     fn stop(&mut self) {}
 
     fn sample_pair(&mut self) -> (u16, u16) {
-        crate::cost::standing_in(self.clock, || self.synth_pair())
+        if self.next >= AHEAD {
+            crate::cost::standing_in(self.clock, || {
+                for k in 0..AHEAD {
+                    let pair = self.synth_pair();
+                    if let Some(slot) = self.ahead.get_mut(k) {
+                        *slot = pair;
+                    }
+                }
+            });
+            self.next = 0;
+        }
+        let pair = self.ahead.get(self.next).copied().unwrap_or((0, 0));
+        self.next += 1;
+        pair
     }
 }
 

@@ -12,6 +12,8 @@ use crate::stage::{Capacitor, Resistor};
 pub(super) struct Sym {
     m: [[f64; DIM]; DIM],
     n: usize,
+    /// Nothing off the diagonal (the screen's crude model): [`Sym::quad`] skips it.
+    diagonal: bool,
 }
 
 #[expect(
@@ -25,11 +27,16 @@ impl Sym {
         for k in 0..n.min(DIM) {
             m[k][k] = v[k];
         }
-        Self { m, n: n.min(DIM) }
+        Self {
+            m,
+            n: n.min(DIM),
+            diagonal: true,
+        }
     }
 
     /// Add the outer product s·sᵀ.
     pub(super) fn add_outer(&mut self, s: [f64; DIM]) {
+        self.diagonal = false;
         for i in 0..self.n {
             for j in 0..self.n {
                 self.m[i][j] += s[i] * s[j];
@@ -79,7 +86,19 @@ impl Sym {
             }
         }
         if ok && inv.iter().flatten().all(|v| v.is_finite()) {
-            Self { m: inv, n }
+            // Symmetric to the last bit, so that [`Sym::quad`] may read the upper triangle only.
+            for i in 0..n {
+                for j in i + 1..n {
+                    let v = 0.5 * (inv[i][j] + inv[j][i]);
+                    inv[i][j] = v;
+                    inv[j][i] = v;
+                }
+            }
+            Self {
+                m: inv,
+                n,
+                diagonal: false,
+            }
         } else {
             let mut d = [0.0; DIM];
             for k in 0..n {
@@ -89,13 +108,18 @@ impl Sym {
         }
     }
 
-    /// rᵀ·M·r.
+    /// rᵀ·M·r from the diagonal and the upper triangle (M is symmetric): about half the
+    /// products of the full sum (each a software routine on the instrument).
     pub(super) fn quad(&self, r: [f64; DIM]) -> f64 {
         let mut q = 0.0;
         for i in 0..self.n {
-            for j in 0..self.n {
-                q += r[i] * self.m[i][j] * r[j];
+            let mut off = 0.0;
+            if !self.diagonal {
+                for j in i + 1..self.n {
+                    off += self.m[i][j] * r[j];
+                }
             }
+            q += r[i] * (self.m[i][i] * r[i] + 2.0 * off);
         }
         q
     }

@@ -55,7 +55,7 @@ pub(super) fn fit_all(
         };
         let (chi2, estimate, beta, predicted) = full.unwrap_or_else(|| {
             rough |= 1 << i;
-            let estimate = value_interval(&ctx.stage, suspect).map(|_| libm::exp(c.lv));
+            let estimate = value_interval(&ctx.stage, suspect).map(|_| value_of(c.lv));
             (c.chi2, estimate, ctx.profile.beta_typ, c.y)
         });
         if rough & (1 << i) == 0 && chi2 < floor {
@@ -84,6 +84,45 @@ pub(super) fn fit_all(
 }
 
 /// The log-value search interval of a `low`/`high` fit, or `None` for other suspects.
+/// A part value or hFE from its logarithm, in single precision: the searches resolve log(value)
+/// to 1e-3 (their resolution), far coarser than `f32`'s 1e-7, and an `f64` exponential is a
+/// software routine of some thousand instructions on the instrument. (In the budget build, whose
+/// diagnosis stays in `f64` with [`crate::solve::Single`], in `f64`: no second exponential in its
+/// flash.)
+#[cfg(feature = "signal-test")]
+fn value_of(log_value: f64) -> f64 {
+    #[expect(
+        clippy::cast_possible_truncation,
+        reason = "single precision on purpose"
+    )]
+    let lv = log_value as f32;
+    f64::from(libm::expf(lv))
+}
+
+/// A part value or hFE from its logarithm (the budget build: in `f64`).
+#[cfg(not(feature = "signal-test"))]
+fn value_of(log_value: f64) -> f64 {
+    libm::exp(log_value)
+}
+
+/// The logarithm of a part value or hFE for the searches, in single precision (see
+/// [`value_of`]).
+#[cfg(feature = "signal-test")]
+fn log_of(value: f64) -> f64 {
+    #[expect(
+        clippy::cast_possible_truncation,
+        reason = "single precision on purpose"
+    )]
+    let v = value as f32;
+    f64::from(libm::logf(v))
+}
+
+/// The logarithm of a part value or hFE (the budget build: in `f64`).
+#[cfg(not(feature = "signal-test"))]
+fn log_of(value: f64) -> f64 {
+    libm::log(value)
+}
+
 fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(f64, f64)> {
     // One interval for resistors and capacitors (a capacitor's value is fitted only with gain
     // readings).
@@ -96,13 +135,13 @@ fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(f64, f64)> {
         }
         _ => return None,
     };
-    let ln = libm::log(p.value);
-    let span = libm::log(VALUE_RANGE);
+    let ln = log_of(p.value);
+    let span = log_of(VALUE_RANGE);
     // Just outside the tolerance band, on the side the mode names.
     if m == ResistorMode::Low {
-        Some((ln - span, libm::log(1.0 - p.tol) + ln))
+        Some((ln - span, log_of(1.0 - p.tol) + ln))
     } else {
-        Some((libm::log(1.0 + p.tol) + ln, ln + span))
+        Some((log_of(1.0 + p.tol) + ln, ln + span))
     }
 }
 
@@ -148,9 +187,9 @@ fn fit(
     coarse: Coarse,
 ) -> Option<(f64, Option<f64>, f64, [f64; DIM])> {
     let p = ctx.profile;
-    let (lb_lo, lb_hi) = (libm::log(p.beta_min), libm::log(p.beta_max));
+    let (lb_lo, lb_hi) = (log_of(p.beta_min), log_of(p.beta_max));
     let beta_typ = p.beta_typ;
-    let lb_typ = libm::log(beta_typ);
+    let lb_typ = log_of(beta_typ);
     let beta_fits = lb_hi > lb_lo + 1e-9;
     let interval = value_interval(&ctx.stage, suspect);
     // 1. Locate the part value with the crude error model at typical hFE, one step of the
@@ -174,7 +213,7 @@ fn fit(
         }
     }
     // 2. The full error model at that point (its prediction is the crude fit's).
-    let value = libm::exp(at_typ.lv);
+    let value = value_of(at_typ.lv);
     let y0 = at_typ.y;
     let inv = covariance(ctx, suspect, value, beta_typ, y0).inverse();
     let mut top = Top {
@@ -188,7 +227,7 @@ fn fit(
     //    around the first find, one grid step either way.
     if beta_fits {
         let mut at = |lb: f64| {
-            let b = libm::exp(lb);
+            let b = value_of(lb);
             let y = ctx.predict(suspect, value, b, Tweak::None);
             top.offer(ctx, &inv, value, b, y)
         };
@@ -210,12 +249,12 @@ fn fit(
         }
     }
     if let Some((lo, hi)) = interval {
-        let (lv0, beta, c0) = (libm::log(top.value), top.beta, top.chi2);
+        let (lv0, beta, c0) = (log_of(top.value), top.beta, top.chi2);
         let step = (hi - lo) / 12.0;
         let a = if lv0 - step > lo { lv0 - step } else { lo };
         let b = if lv0 + step < hi { lv0 + step } else { hi };
         let mut at = |lv: f64| {
-            let v = libm::exp(lv);
+            let v = value_of(lv);
             let y = ctx.predict(suspect, v, beta, Tweak::None);
             top.offer(ctx, &inv, v, beta, y)
         };
@@ -324,7 +363,7 @@ fn locate(
     let mut best: Option<Coarse> = None;
     minimise(
         &mut |lv| {
-            let y = ctx.predict(suspect, libm::exp(lv), beta, Tweak::None);
+            let y = ctx.predict(suspect, value_of(lv), beta, Tweak::None);
             let chi2 = ctx.chi2(crude, y);
             if let Some(y) = y {
                 if best.is_none_or(|b| chi2 < b.chi2) {
