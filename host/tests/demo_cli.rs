@@ -29,6 +29,15 @@ fn demo_runs_every_step_and_fails_only_the_planted_faults() {
     for f in ["preamp.toml", "lot.csv", "boards.jsonl", "yield.html"] {
         assert!(dir.join(f).exists(), "{f} not written");
     }
+    // A second run in the same folder replaces the first run's files (the README's first
+    // command may be typed twice).
+    let again = run(["demo".as_ref(), "--out".as_ref(), dir.as_os_str()]);
+    assert!(again.status.success(), "{}", stderr(&again));
+    assert!(
+        stdout(&again).contains("40 boards checked: 37 passed, 3 failed"),
+        "{}",
+        stdout(&again)
+    );
     let _ = std::fs::remove_dir_all(&dir);
 }
 

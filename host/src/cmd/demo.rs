@@ -97,7 +97,8 @@ impl Cmd {
         args.extend(words(&REQUIREMENT));
         args.extend(words(&TRANSISTOR));
         let design_s = path_str(&design);
-        args.extend_from_slice(&["--id", "pump-preamp-demo", "-o", &design_s]);
+        // The demo's own folder: a second run replaces the first run's design file.
+        args.extend_from_slice(&["--id", "pump-preamp-demo", "-o", &design_s, "--force"]);
         run(&args)?;
 
         heading("2. Spread: tolerance, hFE spread and ambient");
