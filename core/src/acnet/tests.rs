@@ -9,6 +9,21 @@ fn rnd(seed: &mut u64) -> f64 {
     (*seed >> 11) as f64 / (1u64 << 53) as f64
 }
 
+/// A value from `lo` up over four decades, uniform in log.
+fn decades(lo: f64, seed: &mut u64) -> f64 {
+    lo * libm::pow(10.0, 4.0 * rnd(seed))
+}
+
+/// A transistor two-port of a forward-active device, each entry over four decades.
+fn draw_admittance(sd: &mut u64) -> Admittance {
+    Admittance {
+        y11: decades(1e-6, sd),
+        y12: -decades(1e-12, sd),
+        y21: decades(1e-4, sd),
+        y22: decades(1e-8, sd),
+    }
+}
+
 /// The real elimination gives bit for bit the real parts of the complex one (and zero
 /// imaginary parts) for networks with no capacitor at a finite frequency: stages spread over
 /// four decades of each resistor, every real set-up, with and without source and load.
@@ -18,7 +33,7 @@ fn real_elimination_equals_the_complex_one_bit_for_bit() {
     let sd = &mut seed;
     let mut checked = 0;
     for _ in 0..300 {
-        let r = |lo: f64, sd: &mut u64| lo * libm::pow(10.0, 4.0 * rnd(sd));
+        let r = decades;
         let stage = Stage {
             r1: Part::new(r(1e3, sd), 0.05),
             r2: Part::new(r(1e2, sd), 0.05),
@@ -33,12 +48,7 @@ fn real_elimination_equals_the_complex_one_bit_for_bit() {
             rs: if rnd(sd) < 0.2 { 0.0 } else { r(10.0, sd) },
             ..crate::console::default_stage()
         };
-        let y = Admittance {
-            y11: r(1e-6, sd),
-            y12: -r(1e-12, sd),
-            y21: r(1e-4, sd),
-            y22: r(1e-8, sd),
-        };
+        let y = draw_admittance(sd);
         let caps = [Cap::Short, Cap::Open];
         for cin in caps {
             for cout in caps {
@@ -99,7 +109,7 @@ fn reduced_gain_equals_the_elimination() {
     let mut worst = 0.0f64;
     let mut single_worst = 0.0f64;
     for _ in 0..400 {
-        let r = |lo: f64, sd: &mut u64| lo * libm::pow(10.0, 4.0 * rnd(sd));
+        let r = decades;
         let cap = |sd: &mut u64| Some(Part::new(1e-7 * libm::pow(10.0, 4.0 * rnd(sd)), 0.2));
         let stage = Stage {
             r1: Part::new(r(1e3, sd), 0.05),
@@ -125,12 +135,7 @@ fn reduced_gain_equals_the_elimination() {
             ce: cap(sd),
             ..crate::console::default_stage()
         };
-        let y = Admittance {
-            y11: r(1e-6, sd),
-            y12: -r(1e-12, sd),
-            y21: r(1e-4, sd),
-            y22: r(1e-8, sd),
-        };
+        let y = draw_admittance(sd);
         let f = 0.1 * libm::pow(10.0, 6.0 * rnd(sd));
         let states = [Cap::Short, Cap::Open, Cap::At(f)];
         for cin in states {
