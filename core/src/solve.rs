@@ -1031,6 +1031,18 @@ struct Law {
     is_br: f64,
 }
 
+/// e^x in [`Single`] precision (the searches of a diagnosis that runs its solves there).
+pub(crate) fn exp_single(x: f64) -> f64 {
+    // Named through the trait: a method call on the concrete `f32` could find the standard
+    // library's own `exp`, which rounds differently from the solver's.
+    Real::wide(Real::exp(Single::of(x)))
+}
+
+/// ln x in [`Single`] precision (see [`exp_single`]).
+pub(crate) fn ln_single(x: f64) -> f64 {
+    Real::wide(Real::ln(Single::of(x)))
+}
+
 /// Where a [`solve_from_single`] begins: an earlier single-precision solution.
 pub type StartSingle = Start<Single>;
 

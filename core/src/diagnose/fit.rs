@@ -84,43 +84,17 @@ pub(super) fn fit_all(
 }
 
 /// The log-value search interval of a `low`/`high` fit, or `None` for other suspects.
-/// A part value or hFE from its logarithm, in single precision: the searches resolve log(value)
-/// to 1e-3 (their resolution), far coarser than `f32`'s 1e-7, and an `f64` exponential is a
-/// software routine of some thousand instructions on the instrument. (In the budget build, whose
-/// diagnosis stays in `f64` with [`crate::solve::Single`], in `f64`: no second exponential in its
-/// flash.)
-#[cfg(feature = "signal-test")]
+/// A part value or hFE from its logarithm, in the precision of the diagnosis's solves
+/// ([`crate::solve::Single`]: `f32` on the default builds): the searches resolve log(value) to
+/// 1e-3, far coarser than `f32`'s 1e-7, and an `f64` exponential is a software routine of some
+/// thousand instructions on the instrument.
 fn value_of(log_value: f64) -> f64 {
-    #[expect(
-        clippy::cast_possible_truncation,
-        reason = "single precision on purpose"
-    )]
-    let lv = log_value as f32;
-    f64::from(libm::expf(lv))
+    crate::solve::exp_single(log_value)
 }
 
-/// A part value or hFE from its logarithm (the budget build: in `f64`).
-#[cfg(not(feature = "signal-test"))]
-fn value_of(log_value: f64) -> f64 {
-    libm::exp(log_value)
-}
-
-/// The logarithm of a part value or hFE for the searches, in single precision (see
-/// [`value_of`]).
-#[cfg(feature = "signal-test")]
+/// The logarithm of a part value or hFE for the searches (see [`value_of`]).
 fn log_of(value: f64) -> f64 {
-    #[expect(
-        clippy::cast_possible_truncation,
-        reason = "single precision on purpose"
-    )]
-    let v = value as f32;
-    f64::from(libm::logf(v))
-}
-
-/// The logarithm of a part value or hFE (the budget build: in `f64`).
-#[cfg(not(feature = "signal-test"))]
-fn log_of(value: f64) -> f64 {
-    libm::log(value)
+    crate::solve::ln_single(value)
 }
 
 fn value_interval(stage: &Stage, suspect: Suspect) -> Option<(f64, f64)> {
