@@ -58,50 +58,9 @@ pub(super) fn rank(ranked: &mut [Hypothesis]) -> bool {
     explained
 }
 
-/// Order `ranked` by `score`, stably: the places are sorted (a byte each) and each hypothesis is
-/// then moved once, along the cycles of that permutation, instead of being swapped past its
-/// neighbours (a hypothesis is about a hundred bytes).
+/// Order `ranked` by `score`, stably, each hypothesis moved once.
 fn sort_by_score(ranked: &mut [Hypothesis]) {
-    let mut order: Vec<u8, CAPACITY> = (0..ranked.len())
-        .filter_map(|i| u8::try_from(i).ok())
-        .collect();
-    let score = |i: u8| {
-        ranked
-            .get(usize::from(i))
-            .map_or(f64::INFINITY, |h| h.score)
-    };
-    crate::order::sort_by(&mut order, |a, b| score(*a).total_cmp(&score(*b)));
-    // Place k takes the hypothesis at `order[k]`; a place already filled is marked by
-    // `order[k] == k`.
-    for start in 0..order.len() {
-        if order.get(start).copied().map(usize::from) == Some(start) {
-            continue;
-        }
-        let Some(held) = ranked.get(start).copied() else {
-            break;
-        };
-        let mut k = start;
-        loop {
-            let Some(from) = order.get(k).copied().map(usize::from) else {
-                return;
-            };
-            if let Some(o) = order.get_mut(k) {
-                *o = u8::try_from(k).unwrap_or(u8::MAX);
-            }
-            let moved = if from == start {
-                held
-            } else {
-                ranked.get(from).copied().unwrap_or(held)
-            };
-            if let Some(slot) = ranked.get_mut(k) {
-                *slot = moved;
-            }
-            if from == start {
-                break;
-            }
-            k = from;
-        }
-    }
+    crate::order::sort_moving_once::<_, CAPACITY>(ranked, |a, b| a.score.total_cmp(&b.score));
 }
 
 /// How far two predictions of each reading may lie apart and still be the same: the meter's
@@ -152,7 +111,7 @@ pub(super) fn group(ranked: &mut [Hypothesis], tol: &[f64; DIM], n: usize) {
         }
     }
     // Keep each group together, in the order of its best member, best first within a group.
-    crate::order::sort_by(ranked, |a, b| {
+    crate::order::sort_moving_once::<_, CAPACITY>(ranked, |a, b| {
         a.group
             .cmp(&b.group)
             .then(penalised(a).total_cmp(&penalised(b)))
