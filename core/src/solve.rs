@@ -66,73 +66,81 @@ trait Real:
     fn junction(j: Junction<f64>) -> Junction<Self>;
 }
 
-impl Real for f64 {
-    const ZERO: Self = 0.0;
-    const ONE: Self = 1.0;
-    const SETTLED_V: Self = SETTLED_V;
-    const CURRENT_LIMIT: f64 = f64::INFINITY;
-    const EXACT_FREE: bool = false;
-    fn of(x: f64) -> Self {
-        x
-    }
-    fn wide(self) -> f64 {
-        self
-    }
-    fn exp(self) -> Self {
-        libm::exp(self)
-    }
-    fn ln(self) -> Self {
-        libm::log(self)
-    }
-    fn abs(self) -> Self {
-        libm::fabs(self)
-    }
-    fn finite(self) -> bool {
-        f64::is_finite(self)
-    }
-    fn net(n: Net<f64>) -> Net<Self> {
-        n
-    }
-    fn junction(j: Junction<f64>) -> Junction<Self> {
-        j
-    }
+/// The [`Real`] impl of one float type: its settling step and current limit, whether the free
+/// currents are exact, the rounding from `f64` (`of`), and libm's exponential, logarithm and
+/// absolute value for it. Widening, the finiteness test and the rounded networks are the same
+/// for every type (for `f64` the rounding and widening are the identity).
+macro_rules! real {
+    (
+        $t:ty,
+        settled: $settled:expr,
+        current_limit: $limit:expr,
+        exact_free: $exact_free:expr,
+        $(#[$of_attr:meta])* of: |$x:ident| $of:expr,
+        exp: $exp:path,
+        ln: $ln:path,
+        abs: $abs:path $(,)?
+    ) => {
+        impl Real for $t {
+            const ZERO: Self = 0.0;
+            const ONE: Self = 1.0;
+            const SETTLED_V: Self = $settled;
+            const CURRENT_LIMIT: f64 = $limit;
+            const EXACT_FREE: bool = $exact_free;
+            $(#[$of_attr])*
+            fn of($x: f64) -> Self {
+                $of
+            }
+            fn wide(self) -> f64 {
+                f64::from(self)
+            }
+            fn exp(self) -> Self {
+                $exp(self)
+            }
+            fn ln(self) -> Self {
+                $ln(self)
+            }
+            fn abs(self) -> Self {
+                $abs(self)
+            }
+            fn finite(self) -> bool {
+                <$t>::is_finite(self)
+            }
+            fn net(n: Net<f64>) -> Net<Self> {
+                n.narrow()
+            }
+            fn junction(j: Junction<f64>) -> Junction<Self> {
+                j.narrow()
+            }
+        }
+    };
 }
 
-impl Real for f32 {
-    const ZERO: Self = 0.0;
-    const ONE: Self = 1.0;
-    const SETTLED_V: Self = SETTLED_V_SINGLE;
-    const CURRENT_LIMIT: f64 = SINGLE_CURRENT_LIMIT;
-    const EXACT_FREE: bool = true;
+real!(
+    f64,
+    settled: SETTLED_V,
+    current_limit: f64::INFINITY,
+    exact_free: false,
+    of: |x| x,
+    exp: libm::exp,
+    ln: libm::log,
+    abs: libm::fabs,
+);
+
+real!(
+    f32,
+    settled: SETTLED_V_SINGLE,
+    current_limit: SINGLE_CURRENT_LIMIT,
+    exact_free: true,
     #[expect(
         clippy::cast_possible_truncation,
         reason = "single precision on purpose"
     )]
-    fn of(x: f64) -> Self {
-        x as f32
-    }
-    fn wide(self) -> f64 {
-        f64::from(self)
-    }
-    fn exp(self) -> Self {
-        libm::expf(self)
-    }
-    fn ln(self) -> Self {
-        libm::logf(self)
-    }
-    fn abs(self) -> Self {
-        libm::fabsf(self)
-    }
-    fn finite(self) -> bool {
-        f32::is_finite(self)
-    }
-    fn net(n: Net<f64>) -> Net<Self> {
-        n.narrow()
-    }
-    fn junction(j: Junction<f64>) -> Junction<Self> {
-        j.narrow()
-    }
-}
+    of: |x| x as f32,
+    exp: libm::expf,
+    ln: libm::logf,
+    abs: libm::fabsf,
+);
 
 /// Conductance of a short inside the transistor, S.
 const SHORT_CONDUCTANCE: f64 = 1e4;
@@ -642,13 +650,7 @@ fn terminal_voltage<T: Real>(
 fn equations<T: Real>(p: &Problem<T>, vcc_scale: T, x: [T; 2]) -> ([Row<T>; 2], Currents<T>) {
     let cur = p.j.currents(x);
     // The usual arrangement, every terminal driven, written out: it is most of the work.
-    if let (
-        Net::Driven { vth: vb0, r: rb },
-        Net::Driven { vth: vc0, r: rc },
-        Net::Driven { vth: ve0, r: re },
-        [false, false, false],
-    ) = (p.base, p.coll, p.emit, p.free)
-    {
+    if let Some([(vb0, rb), (vc0, rc), (ve0, re)]) = p.all_driven() {
         let ie = cur.ib + cur.ic;
         let die = [cur.dib[0] + cur.dic[0], cur.dib[1] + cur.dic[1]];
         let vb = vb0 * vcc_scale - rb * cur.ib;
@@ -970,10 +972,26 @@ fn first_guess<T: Real>(p: &Problem<T>) -> [T; 2] {
     }
 }
 
-impl<T> Problem<T> {
+impl<T: Copy> Problem<T> {
     /// Every terminal driven and a good transistor: the case the hand method's start is made for.
     fn is_regular(&self) -> bool {
         self.free == [false; 3] && self.j.fault.is_none()
+    }
+
+    /// The Thévenin sources (open-circuit voltage, V; resistance, Ω) at the base, collector and
+    /// emitter when every terminal is driven and none floats: the usual arrangement, which the
+    /// equations and the meter's node voltages write out in full.
+    #[inline]
+    fn all_driven(&self) -> Option<[(T, T); 3]> {
+        match (self.base, self.coll, self.emit, self.free) {
+            (
+                Net::Driven { vth: vb, r: rb },
+                Net::Driven { vth: vc, r: rc },
+                Net::Driven { vth: ve, r: re },
+                [false, false, false],
+            ) => Some([(vb, rb), (vc, rc), (ve, re)]),
+            _ => None,
+        }
     }
 }
 
@@ -1387,13 +1405,7 @@ fn finish<T: Real>(
 
 /// What a meter reads at the base, collector and emitter nodes (NPN frame), V.
 fn meter_nodes<T: Real>(p: &Problem<T>, x: [T; 2], cur: &Currents<T>) -> [T; 3] {
-    if let (
-        Net::Driven { vth: vb0, r: rb },
-        Net::Driven { vth: vc0, r: rc },
-        Net::Driven { vth: ve0, r: re },
-        [false, false, false],
-    ) = (p.base, p.coll, p.emit, p.free)
-    {
+    if let Some([(vb0, rb), (vc0, rc), (ve0, re)]) = p.all_driven() {
         return [
             vb0 - rb * cur.ib,
             vc0 - rc * cur.ic,
