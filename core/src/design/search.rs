@@ -63,25 +63,8 @@ impl Best {
     }
 
     fn offer(&mut self, ev: &Eval) {
-        if !ev.meets && ev.estimated && !self.near.iter().any(|e| e.r == ev.r) {
-            let at = self
-                .near
-                .iter()
-                .position(|e| ev.score < e.score)
-                .unwrap_or(self.near.len());
-            if at < NEAR {
-                if self.near.is_full() {
-                    self.near.pop();
-                }
-                let _ = self.near.insert(
-                    at,
-                    Kept {
-                        r: ev.r,
-                        level: ev.level,
-                        score: ev.score,
-                    },
-                );
-            }
+        if !ev.meets && ev.estimated {
+            rank_into(self.near.as_mut_view(), ev);
         }
         if !ev.meets {
             if let Some(miss) = ev.miss {
@@ -91,30 +74,36 @@ impl Best {
             }
             return;
         }
-        if self.list.iter().any(|e| e.r == ev.r) {
-            return;
-        }
-        let at = self
-            .list
-            .iter()
-            .position(|e| ev.score < e.score)
-            .unwrap_or(self.list.len());
-        if at >= MAX_CANDIDATES {
-            return;
-        }
-        if self.list.is_full() {
-            self.list.pop();
-        }
-        // Cannot fail: there is room after the pop.
-        let _ = self.list.insert(
-            at,
-            Kept {
-                r: ev.r,
-                level: ev.level,
-                score: ev.score,
-            },
-        );
+        rank_into(self.list.as_mut_view(), ev);
     }
+}
+
+/// Put the part set of `ev` into `list` (best first, distinct, at most its capacity) at its
+/// rank: not when it is there already or ranks below every set of a full list; the last set
+/// drops out of a full list.
+fn rank_into(list: &mut heapless::vec::VecView<Kept>, ev: &Eval) {
+    if list.iter().any(|e| e.r == ev.r) {
+        return;
+    }
+    let at = list
+        .iter()
+        .position(|e| ev.score < e.score)
+        .unwrap_or(list.len());
+    if at >= list.capacity() {
+        return;
+    }
+    if list.is_full() {
+        list.pop();
+    }
+    // Cannot fail: there is room after the pop.
+    let _ = list.insert(
+        at,
+        Kept {
+            r: ev.r,
+            level: ev.level,
+            score: ev.score,
+        },
+    );
 }
 
 /// Most steps [`around`] takes either side of a value.
