@@ -227,32 +227,12 @@ impl<T> Nodes<T> {
         }
     }
 
-    /// The value of one node.
-    pub fn get(&self, n: Node) -> &T {
-        match n {
-            Node::Vb => &self.vb,
-            Node::Ve => &self.ve,
-            Node::Vc => &self.vc,
-            Node::Vbe => &self.vbe,
-            Node::Vce => &self.vce,
-            Node::Ic => &self.ic,
-            Node::Gain => &self.gain,
-            Node::Swing => &self.swing,
-        }
-    }
-
-    /// Mutable access to one node's value.
-    pub fn get_mut(&mut self, n: Node) -> &mut T {
-        match n {
-            Node::Vb => &mut self.vb,
-            Node::Ve => &mut self.ve,
-            Node::Vc => &mut self.vc,
-            Node::Vbe => &mut self.vbe,
-            Node::Vce => &mut self.vce,
-            Node::Ic => &mut self.ic,
-            Node::Gain => &mut self.gain,
-            Node::Swing => &mut self.swing,
-        }
+    fields_by! {
+        /// The value of one node.
+        fn get(&self) -> &T;
+        /// Mutable access to one node's value.
+        fn get_mut;
+        Node { Vb: vb, Ve: ve, Vc: vc, Vbe: vbe, Vce: vce, Ic: ic, Gain: gain, Swing: swing }
     }
 }
 

@@ -53,6 +53,9 @@
     )
 )]
 
+#[macro_use]
+mod macros;
+
 mod acnet;
 pub mod check;
 pub mod common;

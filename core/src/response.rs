@@ -49,22 +49,12 @@ impl Caps {
         }
     }
 
-    /// The state of one capacitor.
-    pub fn get(&self, which: Capacitor) -> CapState {
-        match which {
-            Capacitor::Cin => self.cin,
-            Capacitor::Cout => self.cout,
-            Capacitor::Ce => self.ce,
-        }
-    }
-
-    /// Mutable access to one capacitor's state.
-    pub fn get_mut(&mut self, which: Capacitor) -> &mut CapState {
-        match which {
-            Capacitor::Cin => &mut self.cin,
-            Capacitor::Cout => &mut self.cout,
-            Capacitor::Ce => &mut self.ce,
-        }
+    fields_by! {
+        /// The state of one capacitor.
+        fn get(&self) -> CapState;
+        /// Mutable access to one capacitor's state.
+        fn get_mut;
+        Capacitor { Cin: cin, Cout: cout, Ce: ce }
     }
 
     /// The same capacitors with one of them changed.

@@ -232,26 +232,12 @@ impl Stage {
         }
     }
 
-    /// A resistor part.
-    pub fn part(&self, which: Resistor) -> Part {
-        match which {
-            Resistor::R1 => self.r1,
-            Resistor::R2 => self.r2,
-            Resistor::Rc => self.rc,
-            Resistor::Re1 => self.re1,
-            Resistor::Re2 => self.re2,
-        }
-    }
-
-    /// Mutable access to a resistor part.
-    pub fn part_mut(&mut self, which: Resistor) -> &mut Part {
-        match which {
-            Resistor::R1 => &mut self.r1,
-            Resistor::R2 => &mut self.r2,
-            Resistor::Rc => &mut self.rc,
-            Resistor::Re1 => &mut self.re1,
-            Resistor::Re2 => &mut self.re2,
-        }
+    fields_by! {
+        /// A resistor part.
+        fn part(&self) -> Part;
+        /// Mutable access to a resistor part.
+        fn part_mut;
+        Resistor { R1: r1, R2: r2, Rc: rc, Re1: re1, Re2: re2 }
     }
 
     /// Total DC emitter resistance RE1 + RE2, Ω.
