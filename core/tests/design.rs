@@ -12,7 +12,7 @@ use biasjig_core::predict::predict;
 use biasjig_core::series::Series;
 use biasjig_core::solve::{solve, Conditions, Region};
 use biasjig_core::stage::{Part, Polarity, Resistor, Stage};
-use biasjig_testkit::corners::names_a_requirement;
+use biasjig_testkit::corners::{design_with_more_budget, names_a_requirement};
 use biasjig_testkit::fixtures as kit;
 use hand_method::{centred_ic, classic};
 use proptest::prelude::*;
@@ -402,11 +402,7 @@ proptest! {
 
     #[test]
     fn more_budget_never_gives_a_worse_best(req in requirement(), more in 1.0..5.0f64) {
-        let p = profile();
-        let mut wider = req;
-        wider.ic_max = req.ic_max * more;
-        if let Ok(a) = design(&req, &p) {
-            let b = design(&wider, &p);
+        if let Some((a, _, b)) = design_with_more_budget(&req, &profile(), more) {
             prop_assert!(b.is_ok(), "{:?}", b);
             let b = b.unwrap();
             prop_assert!(b[0].score <= a[0].score + 1e-12, "{} > {}", b[0].score, a[0].score);

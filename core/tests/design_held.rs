@@ -11,7 +11,7 @@ use biasjig_core::design::{
 use biasjig_core::device::Profile;
 use biasjig_core::stage::{Polarity, Stage};
 use biasjig_testkit::corners::corners as kit_corners;
-use biasjig_testkit::corners::names_a_requirement;
+use biasjig_testkit::corners::{design_with_more_budget, names_a_requirement};
 use biasjig_testkit::fixtures::{demo_profile, npn};
 use hand_method::classic;
 use proptest::prelude::*;
@@ -95,10 +95,7 @@ proptest! {
     #[test]
     fn more_budget_keeps_a_requirement_designable_and_held(req in requirement(), more in 1.0..4.0f64) {
         let p = profile();
-        let mut wider = req;
-        wider.ic_max = req.ic_max * more;
-        if design(&req, &p).is_ok() {
-            let b = design(&wider, &p);
+        if let Some((_, wider, b)) = design_with_more_budget(&req, &p, more) {
             prop_assert!(b.is_ok(), "{:?}", b);
             let b = b.unwrap();
             let (g_lo, g_hi, sw, ic, active) = corners(&wider, &p, &b[0].stage);

@@ -2,7 +2,7 @@
 //! max and the ends of the requirement's ambient range, solved with the engine (not the
 //! design's own walk, so that it checks the design).
 
-use biasjig_core::design::Requirement;
+use biasjig_core::design::{design, Candidates, DesignError, Requirement};
 use biasjig_core::device::Profile;
 use biasjig_core::signal::midband;
 use biasjig_core::solve::{solve, Conditions, NodeLoads, Region};
@@ -22,6 +22,20 @@ pub const REQUIREMENT_WORDS: [&str; 7] = [
 /// Whether a design refusal's message starts by naming a requirement field.
 pub fn names_a_requirement(msg: &str) -> bool {
     REQUIREMENT_WORDS.iter().any(|k| msg.starts_with(k))
+}
+
+/// The design of `req` and, with the wider requirement itself, the design of `req` with `more`
+/// times its current budget: what the tests that a larger budget keeps what a smaller one
+/// designs compare. `None` where `req` itself is refused (nothing to compare).
+pub fn design_with_more_budget(
+    req: &Requirement,
+    p: &Profile,
+    more: f64,
+) -> Option<(Candidates, Requirement, Result<Candidates, DesignError>)> {
+    let narrow = design(req, p).ok()?;
+    let mut wider = *req;
+    wider.ic_max = req.ic_max * more;
+    Some((narrow, wider, design(&wider, p)))
 }
 
 /// What a stage does over all 128 corners.
