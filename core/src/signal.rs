@@ -174,7 +174,7 @@ mod tests {
     use super::{source_gain, source_gain_general};
     use crate::device::{is_from_vbe, Profile};
     use crate::solve::{solve, Conditions};
-    use crate::stage::{Part, Polarity, Stage};
+    use crate::stage::{Part, Polarity, Resistor, Stage};
 
     /// Agreement to 1e-4 relative, or 1 nV per volt of EMF near zero: the general solve
     /// carries the 1 MS shorts through a 6×6 elimination beside conductances of 1 µS and less
@@ -195,21 +195,20 @@ mod tests {
         rs: f64,
         [cin, ce]: [Option<Part>; 2],
     ) -> Stage {
-        let [r1, r2, rc, re1, re2] = r.map(|v| Part::new(v, 0.05));
-        Stage {
+        let mut stage = Stage {
             polarity,
             vcc: Part::new(vcc, 0.0),
-            r1,
-            r2,
-            rc,
-            re1,
-            re2,
             rl,
             rs,
             cin,
             cout: None,
             ce,
+            ..crate::console::default_stage()
+        };
+        for (which, value) in Resistor::ALL.into_iter().zip(r) {
+            *stage.part_mut(which) = Part::new(value, 0.05);
         }
+        stage
     }
 
     /// The closed form against the same 6-node network solved in 50-digit arithmetic (mpmath's
