@@ -113,11 +113,7 @@ impl core::fmt::Display for SpreadError {
     }
 }
 
-impl From<SolveError> for SpreadError {
-    fn from(e: SolveError) -> Self {
-        Self::Solve(e)
-    }
-}
+error_from!(SpreadError { SolveError => Solve });
 
 /// A quantity the spread reports.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]

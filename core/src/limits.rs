@@ -27,12 +27,7 @@ pub struct Meter {
     pub divider_tol: f64,
 }
 
-impl Default for Meter {
-    /// [`Meter::DEFAULT`].
-    fn default() -> Self {
-        Self::DEFAULT
-    }
-}
+default_is_const!(Meter);
 
 impl Meter {
     /// The default of every front end: a 0.5 % + 5 mV meter behind a 0.1 % divider.
@@ -164,11 +159,7 @@ impl core::fmt::Display for LimitsError {
     }
 }
 
-impl From<SpreadError> for LimitsError {
-    fn from(e: SpreadError) -> Self {
-        Self::Spread(e)
-    }
-}
+error_from!(LimitsError { SpreadError => Spread });
 
 impl From<SolveError> for LimitsError {
     fn from(e: SolveError) -> Self {

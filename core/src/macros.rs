@@ -49,3 +49,32 @@ macro_rules! fields_by {
         }
     };
 }
+
+/// `impl Default` for each type named as its `DEFAULT` constant (the one place its default
+/// values are written).
+macro_rules! default_is_const {
+    ($($t:ident),+ $(,)?) => {
+        $(
+            impl Default for $t {
+                #[doc = concat!("[`", stringify!($t), "::DEFAULT`].")]
+                fn default() -> Self {
+                    Self::DEFAULT
+                }
+            }
+        )+
+    };
+}
+
+/// `impl From<Inner> for Outer` for each error wrapped whole in a variant of `Outer`, so that
+/// `?` lifts it: `error_from!(Outer { Inner => Variant })`.
+macro_rules! error_from {
+    ($outer:ident { $($inner:ident => $variant:ident),+ $(,)? }) => {
+        $(
+            impl From<$inner> for $outer {
+                fn from(e: $inner) -> Self {
+                    Self::$variant(e)
+                }
+            }
+        )+
+    };
+}

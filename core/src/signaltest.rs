@@ -38,12 +38,7 @@ pub struct SignalMeter {
     pub floor: f64,
 }
 
-impl Default for SignalMeter {
-    /// [`SignalMeter::DEFAULT`].
-    fn default() -> Self {
-        Self::DEFAULT
-    }
-}
+default_is_const!(SignalMeter);
 
 impl SignalMeter {
     /// 2 % of the reading plus 0.02 V/V.
@@ -190,11 +185,7 @@ impl core::fmt::Display for SignalTestError {
     }
 }
 
-impl From<SpreadError> for SignalTestError {
-    fn from(e: SpreadError) -> Self {
-        Self::Spread(e)
-    }
-}
+error_from!(SignalTestError { SpreadError => Spread });
 
 /// Check one test frequency, Hz.
 pub fn validate_frequency(f: f64) -> Result<(), SignalTestError> {

@@ -187,12 +187,7 @@ pub struct TestSettings {
     pub signal: crate::signaltest::SignalMeter,
 }
 
-impl Default for TestSettings {
-    /// [`TestSettings::DEFAULT`].
-    fn default() -> Self {
-        Self::DEFAULT
-    }
-}
+default_is_const!(TestSettings);
 
 /// A test setting out of range; each names what is allowed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
