@@ -1064,6 +1064,11 @@ pub(crate) fn ln_single(x: f64) -> f64 {
 /// Where a [`solve_from_single`] begins: an earlier single-precision solution.
 pub type StartSingle = Start<Single>;
 
+/// What a warm-started solve gives ([`solve_from`] with `T` = `f64`, [`solve_from_single`]
+/// with [`Single`]): the operating point and the [`Start`] of the next solve, or why there is
+/// none.
+pub type WarmSolve<T = f64> = Result<(OperatingPoint, Start<T>), SolveError>;
+
 /// The number type of [`solve_from_single`]: `f32` where the signal test is built (the default
 /// images and the PC), `f64` in the budget build (see there).
 #[cfg(feature = "signal-test")]
@@ -1085,7 +1090,7 @@ pub fn solve_from(
     profile: &Profile,
     cond: Conditions,
     start: Option<&Start>,
-) -> Result<(OperatingPoint, Start), SolveError> {
+) -> WarmSolve {
     solve_in::<f64>(stage, profile, cond, start)
 }
 
@@ -1107,7 +1112,7 @@ pub fn solve_from_single(
     profile: &Profile,
     cond: Conditions,
     start: Option<&StartSingle>,
-) -> Result<(OperatingPoint, StartSingle), SolveError> {
+) -> WarmSolve<Single> {
     if !cfg!(feature = "signal-test") {
         return solve_in::<Single>(stage, profile, cond, start);
     }
@@ -1151,7 +1156,7 @@ fn solve_double_for_single(
     profile: &Profile,
     cond: Conditions,
     start: Option<&StartSingle>,
-) -> Result<(OperatingPoint, StartSingle), SolveError> {
+) -> WarmSolve<Single> {
     let start = start.map(|s| Start {
         x: s.x.map(Real::wide),
         temp_c: s.temp_c,
@@ -1176,7 +1181,7 @@ fn solve_in<T: Real>(
     profile: &Profile,
     cond: Conditions,
     start: Option<&Start<T>>,
-) -> Result<(OperatingPoint, Start<T>), SolveError> {
+) -> WarmSolve<T> {
     let vcc = stage.vcc.value;
     let (r_top, r_bottom) = match stage.polarity {
         // In the mirrored NPN frame of a PNP stage, R1 (supply side) takes the place of R2.
