@@ -989,7 +989,7 @@ impl<T: Copy> Problem<T> {
     /// The Thévenin sources (open-circuit voltage, V; resistance, Ω) at the base, collector and
     /// emitter when every terminal is driven and none floats: the usual arrangement, which the
     /// equations and the meter's node voltages write out in full.
-    #[inline]
+    #[inline(always)]
     fn all_driven(&self) -> Option<[(T, T); 3]> {
         match (self.base, self.coll, self.emit, self.free) {
             (
