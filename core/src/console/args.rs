@@ -366,7 +366,12 @@ const SETTINGS: [(&str, Field<Setting>); 20] = [
     ("inputs", Field::Inputs(Setting::Inputs)),
 ];
 
-pub(super) fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
+/// `set NAME VALUE [TOL%]`.
+pub(super) fn set<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
+    setting(a.list).map(Command::Set)
+}
+
+fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
     let usage = "set NAME VALUE [TOL%], NAME one of the names in `help set`";
     let (name, v, tol) = match words {
         [name, v] => (*name, *v, None),
