@@ -357,20 +357,17 @@ fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
             ("polarity", "pnp"),
         ],
     );
-    let e = err(&mut c, "requirement gain x", "VALUE");
-    assert_contains(&e, &["gain", "x"]);
-    let e = err(&mut c, "requirement colour red", "VALUE");
-    assert!(e.contains("ic-max"), "{e}");
-    let e = err(&mut c, "requirement gain 5000", "RANGE");
-    assert!(e.contains("gain"), "{e}");
-    errs(
-        &mut c,
-        &[
-            ("requirement series E7", "VALUE"),
-            ("requirement temp 80", "RANGE"),
-            ("requirement gain", "USAGE"),
-        ],
-    );
+    // Each refusal names the field (an unknown name: the names allowed).
+    for (line, code, words) in [
+        ("requirement gain x", "VALUE", &["gain", "x"][..]),
+        ("requirement colour red", "VALUE", &["colour", "ic-max"]),
+        ("requirement gain 5000", "RANGE", &["gain"]),
+        ("requirement series E7", "VALUE", &["series", "E7"]),
+        ("requirement temp 80", "RANGE", &["temp"]),
+        ("requirement gain", "USAGE", &["requirement [NAME VALUE]"]),
+    ] {
+        assert_contains(&err(&mut c, line, code), words);
+    }
     assert_eq!(
         c.requirement().gain,
         20.0,
