@@ -1,6 +1,6 @@
-//! The session commands and the dispatch: `identify`, `*RST`, `lock`, `unlock`, `echo`,
-//! `mode`, `save`, `hash`, `digest` and `help`; [`Console::exec`] runs each parsed command in the
-//! module of its job.
+//! The session commands and the dispatch: `identify`, `*RST`, `echo`, `mode`, `save`, `hash`,
+//! `digest` and `help`; [`Console::exec`] runs each parsed command in the module of its job
+//! (`lock` and `unlock` in [`lock`](super::lock)).
 #![expect(
     clippy::result_large_err,
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
@@ -12,9 +12,9 @@ use super::format::Val;
 use super::jig::{Clock, Jig, JigError, Slot, Store, RECORD_LEN};
 use super::parse::{Command, Mode};
 use super::record;
-use super::reply::{Fail, Outcome, Reply, Text};
+use super::reply::{Fail, Outcome, Reply};
 use super::show::show_readings;
-use super::{Code, Console, Source, PIN_FREE_TRIES};
+use super::{Code, Console, Source};
 
 /// The refusal of a design-search command by a unit built without them (core feature
 /// `synthesis`, left out of the instrument's budget build).
@@ -67,17 +67,6 @@ pub(super) fn jig_fail(e: JigError) -> Fail {
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
-    pub(super) fn editable(&self) -> Result<(), Fail> {
-        if self.is_locked() {
-            Err(Fail::new(
-                Code::Locked,
-                format_args!("locked: unlock PIN to change this"),
-            ))
-        } else {
-            Ok(())
-        }
-    }
-
     #[inline(never)]
     pub(super) fn save_settings(&mut self) -> Result<(), Fail> {
         let mut rec = [0u8; RECORD_LEN];
@@ -285,61 +274,5 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.candidates.clear();
         self.cal_low = [None; 4];
         Ok(None)
-    }
-
-    #[inline(never)]
-    pub(super) fn lock(&mut self, pin: super::parse::Pin) -> Outcome {
-        if self.is_locked() {
-            return Err(Fail::new(Code::Locked, format_args!("already locked")));
-        }
-        self.settings.pin = Some(pin);
-        self.settings.pin_failures = 0;
-        match self.save_settings() {
-            Ok(()) => Ok(Some(Text::of(format_args!("locked")))),
-            Err(_) => Ok(Some(Text::of(format_args!(
-                "locked until power-off (not kept)"
-            )))),
-        }
-    }
-
-    #[inline(never)]
-    pub(super) fn unlock(&mut self, pin: super::parse::Pin) -> Outcome {
-        let Some(stored) = self.settings.pin else {
-            return Ok(Some(Text::of(format_args!("not locked"))));
-        };
-        let now = self.clock.now_ms();
-        if now < self.retry_at_ms {
-            let wait = (self.retry_at_ms - now).div_ceil(1000);
-            return Err(Fail::new(
-                Code::Wait,
-                format_args!("too many wrong PINs: wait {wait} s"),
-            ));
-        }
-        if stored == pin {
-            self.settings.pin = None;
-            self.settings.pin_failures = 0;
-            self.retry_at_ms = 0;
-            let _ = self.save_settings();
-            return Ok(Some(Text::of(format_args!("unlocked"))));
-        }
-        self.settings.pin_failures = self.settings.pin_failures.saturating_add(1);
-        let n = self.settings.pin_failures;
-        let _ = self.save_settings();
-        if n >= PIN_FREE_TRIES {
-            let delay = self.backoff_ms();
-            self.retry_at_ms = now.saturating_add(delay);
-            Err(Fail::new(
-                Code::Pin,
-                format_args!(
-                    "wrong PIN ({n} in a row): next try in {} s",
-                    delay.div_ceil(1000)
-                ),
-            ))
-        } else {
-            Err(Fail::new(
-                Code::Pin,
-                format_args!("wrong PIN ({n} in a row)"),
-            ))
-        }
     }
 }
