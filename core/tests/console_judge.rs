@@ -530,7 +530,10 @@ fn every_new_reply_stays_within_bounds() {
 fn a_unit_without_the_design_search_names_the_pc_command() {
     let mut c = console();
     for l in ["design", "pick 1", "requirement", "requirement gain 20"] {
-        assert!(err(&mut c, l, "NOT_SUPPORTED").contains("run biasjig design on a PC"));
+        let e = err(&mut c, l, "NOT_SUPPORTED");
+        let word = l.split(' ').next().unwrap();
+        assert!(e.starts_with(&format!("err NOT_SUPPORTED {word}: ")), "{e}");
+        assert!(e.contains("run biasjig design on a PC"), "{e}");
     }
     ok(&mut c, "lock 2468");
     err(&mut c, "design", "NOT_SUPPORTED");

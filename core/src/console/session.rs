@@ -16,10 +16,15 @@ use super::reply::{Fail, Outcome, Reply};
 use super::show::show_readings;
 use super::{Code, Console, Source};
 
-/// The refusal of a design-search command by a unit built without them (core feature
-/// `synthesis`, left out of the instrument's budget build).
+/// The refusal of a design-search command (`requirement`, `design`, `pick`) by a unit built
+/// without them (core feature `synthesis`, left out of the instrument's budget build).
 #[cfg(not(feature = "synthesis"))]
-fn no_synthesis(command: &str) -> Fail {
+fn no_synthesis(cmd: Command<'_>) -> Fail {
+    let command = match cmd {
+        Command::Requirement(_) => "requirement",
+        Command::Design => "design",
+        _ => "pick",
+    };
     Fail::new(
         Code::NotSupported,
         format_args!(
@@ -46,9 +51,16 @@ pub(super) fn not_here(command: &str, what: &str, instead: &str) -> Fail {
     )
 }
 
-/// The refusal of the kept-design commands (core feature `kept-designs`).
+/// The refusal of the kept-design commands (`keep`, `designs`, `choose`, `forget`; core feature
+/// `kept-designs`).
 #[cfg(not(feature = "kept-designs"))]
-fn no_kept(command: &str) -> Fail {
+fn no_kept(cmd: Command<'_>) -> Fail {
+    let command = match cmd {
+        Command::Keep(_) => "keep",
+        Command::Designs => "designs",
+        Command::Choose(_) => "choose",
+        _ => "forget",
+    };
     not_here(
         command,
         "keep designs by name",
@@ -150,11 +162,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Ok(None)
             }
             #[cfg(not(feature = "synthesis"))]
-            Command::Requirement(_) => Err(no_synthesis("requirement")),
-            #[cfg(not(feature = "synthesis"))]
-            Command::Design => Err(no_synthesis("design")),
-            #[cfg(not(feature = "synthesis"))]
-            Command::Pick(_) => Err(no_synthesis("pick")),
+            Command::Requirement(_) | Command::Design | Command::Pick(_) => Err(no_synthesis(cmd)),
             #[cfg(feature = "synthesis")]
             Command::Requirement(None) => {
                 self.show_requirement(r);
@@ -254,13 +262,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             #[cfg(feature = "kept-designs")]
             Command::Forget(name) => self.forget(name),
             #[cfg(not(feature = "kept-designs"))]
-            Command::Keep(_) => Err(no_kept("keep")),
-            #[cfg(not(feature = "kept-designs"))]
-            Command::Designs => Err(no_kept("designs")),
-            #[cfg(not(feature = "kept-designs"))]
-            Command::Choose(_) => Err(no_kept("choose")),
-            #[cfg(not(feature = "kept-designs"))]
-            Command::Forget(_) => Err(no_kept("forget")),
+            Command::Keep(_) | Command::Designs | Command::Choose(_) | Command::Forget(_) => {
+                Err(no_kept(cmd))
+            }
         }
     }
 
