@@ -72,6 +72,7 @@ fn machine() -> Fake {
 
 /// A fresh console's human reply to `line` (its data lines as one text), and the console then
 /// put in machine mode.
+#[cfg(any(feature = "spread", feature = "analysis"))]
 fn human_then_machine(line: &str) -> (String, Fake) {
     let (mut c, _) = console();
     let human = ok(&mut c, line).join("\n");
