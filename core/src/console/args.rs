@@ -429,3 +429,27 @@ be_open|bc_open|be_short|bc_short|ce_short|reversed";
         _ => Err(err(Code::Usage, "inject", "", allowed)),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every name `help set` lists is read by `set` (a row of the table, a resistor, a capacitor
+    /// or `vcc`), and every row of the table is listed.
+    #[test]
+    fn set_names_and_the_field_table_agree() {
+        for n in SET_NAMES.split(' ') {
+            let read = field(&SETTINGS, n).is_some()
+                || resistor(n).is_some()
+                || capacitor(n).is_some()
+                || n == "vcc";
+            assert!(read, "{n} listed but not read");
+        }
+        for (n, _) in &SETTINGS {
+            assert!(
+                SET_NAMES.split(' ').any(|w| w == *n),
+                "{n} read but not listed"
+            );
+        }
+    }
+}
