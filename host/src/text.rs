@@ -4,7 +4,7 @@ use std::fmt::Write as _;
 
 use biasjig_core::predict::{Prediction, Warnings};
 use biasjig_core::series::{colour_bands, BandCount};
-use biasjig_core::stage::{Polarity, Resistor, Stage};
+use biasjig_core::stage::{Part, Polarity, Resistor, Stage};
 use biasjig_core::units::{capacitor_code, resistor_code, Eng};
 
 /// A value with an SI prefix and unit, 3 significant digits.
@@ -30,14 +30,42 @@ pub fn bands(ohms: f64, tol: f64) -> String {
     }
 }
 
+/// The heads of a part list's first columns: part, value, code, tolerance (no line end).
+pub fn part_heads() -> String {
+    format!(
+        "  {:<5} {:>10}  {:<6} {:>5}",
+        "part", "value", "code", "tol"
+    )
+}
+
+/// A resistor's first columns in a part list: designator, value, code, tolerance (no line end).
+pub fn resistor_cells(name: &str, p: Part) -> String {
+    part_cells(
+        name,
+        &eng(p.value, "Ω"),
+        resistor_code(p.value).as_str(),
+        p.tol,
+    )
+}
+
+/// A capacitor's first columns in a part list: designator, value, code, tolerance (no line end).
+pub fn capacitor_cells(name: &str, p: Part) -> String {
+    part_cells(
+        name,
+        &eng(p.value, "F"),
+        capacitor_code(p.value).as_str(),
+        p.tol,
+    )
+}
+
+fn part_cells(name: &str, value: &str, code: &str, tol: f64) -> String {
+    format!("  {name:<5} {value:>10}  {code:<6} {:>4}%", fmt_pct(tol))
+}
+
 /// The part list: designator, value, code, tolerance, colour bands.
 pub fn parts(stage: &Stage) -> String {
     let mut s = String::new();
-    let _ = writeln!(
-        s,
-        "  {:<5} {:>10}  {:<6} {:>5}  colour bands",
-        "part", "value", "code", "tol"
-    );
+    let _ = writeln!(s, "{}  colour bands", part_heads());
     for r in Resistor::ALL {
         let p = stage.part(r);
         if p.value == 0.0 && matches!(r, Resistor::Re1 | Resistor::Re2) {
@@ -46,25 +74,15 @@ pub fn parts(stage: &Stage) -> String {
         }
         let _ = writeln!(
             s,
-            "  {:<5} {:>10}  {:<6} {:>4}%  {}",
-            r.name(),
-            eng(p.value, "Ω"),
-            resistor_code(p.value).as_str(),
-            fmt_pct(p.tol),
+            "{}  {}",
+            resistor_cells(r.name(), p),
             bands(p.value, p.tol)
         );
     }
     for (name, c) in [("CIN", stage.cin), ("COUT", stage.cout), ("CE", stage.ce)] {
         match c {
             Some(c) => {
-                let _ = writeln!(
-                    s,
-                    "  {:<5} {:>10}  {:<6} {:>4}%",
-                    name,
-                    eng(c.value, "F"),
-                    capacitor_code(c.value).as_str(),
-                    fmt_pct(c.tol)
-                );
+                let _ = writeln!(s, "{}", capacitor_cells(name, c));
             }
             None => {
                 let _ = writeln!(s, "  {:<5} {:>10}", name, "ideal");

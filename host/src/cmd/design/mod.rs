@@ -16,14 +16,13 @@ use biasjig_core::predict::{predict, Prediction};
 use biasjig_core::series::Series;
 use biasjig_core::solve::Conditions;
 use biasjig_core::stage::{Polarity, Resistor, Stage};
-use biasjig_core::units::{capacitor_code, resistor_code};
 use serde_json::json;
 
 use crate::Global;
 use biasjig::designfile::{self, DesignDoc, Predicted};
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
 use biasjig::stage_args::{check_temp, default_profile, ProfileArgs};
-use biasjig::text::{bands, eng, fmt_pct};
+use biasjig::text::{bands, capacitor_cells, eng, fmt_pct, part_heads, resistor_cells};
 use biasjig::{json, text, values};
 
 /// Default collector-current budget, A.

@@ -193,20 +193,13 @@ impl Cmd {
 /// colour bands.
 fn part_list(stage: &Stage, p: &Prediction) -> String {
     let mut s = String::new();
-    let _ = writeln!(
-        s,
-        "  {:<5} {:>10}  {:<6} {:>5}  {:>7}  colour bands",
-        "part", "value", "code", "tol", "rating"
-    );
+    let _ = writeln!(s, "{}  {:>7}  colour bands", part_heads(), "rating");
     for r in Resistor::ALL {
         let part = stage.part(r);
         let _ = writeln!(
             s,
-            "  {:<5} {:>10}  {:<6} {:>4}%  {:>7}  {}",
-            r.name(),
-            eng(part.value, "Ω"),
-            resistor_code(part.value).as_str(),
-            fmt_pct(part.tol),
+            "{}  {:>7}  {}",
+            resistor_cells(r.name(), part),
             eng(rating_for(p.power.resistor(r)), "W"),
             bands(part.value, part.tol)
         );
@@ -229,11 +222,8 @@ fn part_list(stage: &Stage, p: &Prediction) -> String {
             });
             let _ = writeln!(
                 s,
-                "  {:<5} {:>10}  {:<6} {:>4}%  rated >= {}{}",
-                name,
-                eng(c.value, "F"),
-                capacitor_code(c.value).as_str(),
-                fmt_pct(c.tol),
+                "{}  rated >= {}{}",
+                capacitor_cells(name, c),
                 rating.map_or("-".into(), |r| eng(r.0, "V")),
                 match rating.and_then(|r| r.1) {
                     Some(_) => "  polarised: see the notes",
