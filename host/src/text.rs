@@ -38,28 +38,26 @@ pub fn part_heads() -> String {
     )
 }
 
-/// A resistor's first columns in a part list: designator, value, code, tolerance (no line end).
-pub fn resistor_cells(name: &str, p: Part) -> String {
-    part_cells(
-        name,
-        &eng(p.value, "Ω"),
-        resistor_code(p.value).as_str(),
-        p.tol,
-    )
+/// What a part in a part list is, for its value's unit and code.
+#[derive(Debug, Clone, Copy)]
+pub enum PartKind {
+    /// Ohms, the resistor code (`4k7`).
+    Resistor,
+    /// Farads, the capacitor code (`10u`).
+    Capacitor,
 }
 
-/// A capacitor's first columns in a part list: designator, value, code, tolerance (no line end).
-pub fn capacitor_cells(name: &str, p: Part) -> String {
-    part_cells(
-        name,
-        &eng(p.value, "F"),
-        capacitor_code(p.value).as_str(),
-        p.tol,
+/// A part's first columns in a part list: designator, value, code, tolerance (no line end).
+pub fn part_cells(kind: PartKind, name: &str, p: Part) -> String {
+    let (value, code) = match kind {
+        PartKind::Resistor => (eng(p.value, "Ω"), resistor_code(p.value)),
+        PartKind::Capacitor => (eng(p.value, "F"), capacitor_code(p.value)),
+    };
+    format!(
+        "  {name:<5} {value:>10}  {:<6} {:>4}%",
+        code.as_str(),
+        fmt_pct(p.tol)
     )
-}
-
-fn part_cells(name: &str, value: &str, code: &str, tol: f64) -> String {
-    format!("  {name:<5} {value:>10}  {code:<6} {:>4}%", fmt_pct(tol))
 }
 
 /// The part list: designator, value, code, tolerance, colour bands.
@@ -75,14 +73,14 @@ pub fn parts(stage: &Stage) -> String {
         let _ = writeln!(
             s,
             "{}  {}",
-            resistor_cells(r.name(), p),
+            part_cells(PartKind::Resistor, r.name(), p),
             bands(p.value, p.tol)
         );
     }
     for (name, c) in [("CIN", stage.cin), ("COUT", stage.cout), ("CE", stage.ce)] {
         match c {
             Some(c) => {
-                let _ = writeln!(s, "{}", capacitor_cells(name, c));
+                let _ = writeln!(s, "{}", part_cells(PartKind::Capacitor, name, c));
             }
             None => {
                 let _ = writeln!(s, "  {:<5} {:>10}", name, "ideal");

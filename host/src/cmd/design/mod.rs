@@ -22,7 +22,7 @@ use crate::Global;
 use biasjig::designfile::{self, DesignDoc, Predicted};
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
 use biasjig::stage_args::{check_temp, default_profile, ProfileArgs};
-use biasjig::text::{bands, capacitor_cells, eng, fmt_pct, part_heads, resistor_cells};
+use biasjig::text::{bands, eng, fmt_pct, part_cells, part_heads, PartKind};
 use biasjig::{json, text, values};
 
 /// Default collector-current budget, A.

@@ -199,7 +199,7 @@ fn part_list(stage: &Stage, p: &Prediction) -> String {
         let _ = writeln!(
             s,
             "{}  {:>7}  {}",
-            resistor_cells(r.name(), part),
+            part_cells(PartKind::Resistor, r.name(), part),
             eng(rating_for(p.power.resistor(r)), "W"),
             bands(part.value, part.tol)
         );
@@ -223,7 +223,7 @@ fn part_list(stage: &Stage, p: &Prediction) -> String {
             let _ = writeln!(
                 s,
                 "{}  rated >= {}{}",
-                capacitor_cells(name, c),
+                part_cells(PartKind::Capacitor, name, c),
                 rating.map_or("-".into(), |r| eng(r.0, "V")),
                 match rating.and_then(|r| r.1) {
                     Some(_) => "  polarised: see the notes",
