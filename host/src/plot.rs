@@ -263,7 +263,7 @@ fn load_lines(
         .x_desc("|VCE|")
         .y_desc("IC")
         .draw()?;
-    let lines: [(&str, [(f64, f64); 2], ShapeStyle); 3] = [
+    let lines = [
         (
             "DC load line",
             [(0.0, i_max_dc), (vcc, 0.0)],
