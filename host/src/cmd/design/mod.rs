@@ -143,19 +143,26 @@ pub struct Cmd {
     id: Option<String>,
 }
 
-/// The flag of each setting a refusal advises changing; tolerances in percent as the flags take
-/// them.
+/// The flag of each setting a refusal advises changing (a test checks that `design` has each).
+const SETTING_FLAGS: [(Setting, &str); 8] = [
+    (Setting::IcMax, "--ic-max"),
+    (Setting::SwingPp, "--swing"),
+    (Setting::FLow, "--f-low"),
+    (Setting::GainTol, "--gain-tol"),
+    (Setting::Series, "--series"),
+    (Setting::Tol, "--tol"),
+    (Setting::Hold, "--hold"),
+    (Setting::PowerRating, "--power-rating"),
+];
+
+/// The settings a refusal advises changing named by their flags; tolerances in percent as the
+/// flags take them.
 const FLAGS: Naming = Naming {
-    name: |s| match s {
-        Setting::IcMax => "--ic-max",
-        Setting::SwingPp => "--swing",
-        Setting::FLow => "--f-low",
-        Setting::GainTol => "--gain-tol",
-        Setting::Series => "--series",
-        Setting::Tol => "--tol",
-        Setting::Hold => "--hold",
-        Setting::PowerRating => "--power-rating",
-        _ => "",
+    name: |s| {
+        SETTING_FLAGS
+            .iter()
+            .find(|(k, _)| *k == s)
+            .map_or("", |&(_, flag)| flag)
     },
     percent: true,
 };
@@ -404,6 +411,26 @@ impl Cmd {
             }),
             test: biasjig_core::settings::TestSettings::DEFAULT,
             digest: String::new(),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::{Args, Command};
+
+    /// A refusal's advice names each setting by a flag that `design` has.
+    #[test]
+    fn advice_names_flags_that_design_has() {
+        let cmd = Cmd::augment_args(Command::new("design"));
+        for (setting, flag) in SETTING_FLAGS {
+            let long = flag.strip_prefix("--");
+            assert!(
+                cmd.get_arguments().any(|a| a.get_long() == long),
+                "{setting:?}: {flag}"
+            );
+            assert_eq!((FLAGS.name)(setting), flag);
         }
     }
 }
