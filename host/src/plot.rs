@@ -198,16 +198,10 @@ fn histogram(
             BLUE.mix(0.55).filled(),
         )
     }))?;
-    let worst = [wc.min, wc.max];
-    marks(&mut chart, &worst, top, RED.stroke_width(2), "worst case")?;
+    let (red, green) = (RED.stroke_width(2), GREEN.stroke_width(2));
+    marks(&mut chart, &[wc.min, wc.max], top, red, "worst case")?;
     if let Some((a, b)) = window {
-        marks(
-            &mut chart,
-            &[a, b],
-            top,
-            GREEN.stroke_width(2),
-            "pass window",
-        )?;
+        marks(&mut chart, &[a, b], top, green, "pass window")?;
     }
     if !reqs.is_empty() {
         let orange = RGBColor(230, 120, 0).stroke_width(2);
