@@ -14,14 +14,18 @@ impl Cmd {
         let load = req
             .rl
             .map_or("no load".to_string(), |r| format!("into {}", eng(r, "Ω")));
+        let swing = if req.swing_pp > 0.0 {
+            format!("swing >= {}", eng(req.swing_pp, "V"))
+        } else {
+            "no swing required".to_string()
+        };
         let _ = writeln!(
             s,
-            "Requirement: gain {} {load} from {}, {} supply, IC <= {}, swing >= {}, low corner <= {}, {} to {} °C",
+            "Requirement: gain {} {load} from {}, {} supply, IC <= {}, {swing}, low corner <= {}, {} to {} °C",
             req.gain,
             eng(req.rs, "Ω"),
             eng(req.vcc, "V"),
             eng(req.ic_max, "A"),
-            eng(req.swing_pp, "V"),
             eng(req.f_low_or_default(), "Hz"),
             req.temp_min,
             req.temp_max
