@@ -357,20 +357,17 @@ fn requirement_shows_sets_and_refuses_bad_fields_changing_nothing() {
             ("polarity", "pnp"),
         ],
     );
-    let e = err(&mut c, "requirement gain x", "VALUE");
-    assert_contains(&e, &["gain", "x"]);
-    let e = err(&mut c, "requirement colour red", "VALUE");
-    assert!(e.contains("ic-max"), "{e}");
-    let e = err(&mut c, "requirement gain 5000", "RANGE");
-    assert!(e.contains("gain"), "{e}");
-    errs(
-        &mut c,
-        &[
-            ("requirement series E7", "VALUE"),
-            ("requirement temp 80", "RANGE"),
-            ("requirement gain", "USAGE"),
-        ],
-    );
+    // Each refusal names the field (an unknown name: the names allowed).
+    for (line, code, words) in [
+        ("requirement gain x", "VALUE", &["gain", "x"][..]),
+        ("requirement colour red", "VALUE", &["colour", "ic-max"]),
+        ("requirement gain 5000", "RANGE", &["gain"]),
+        ("requirement series E7", "VALUE", &["series", "E7"]),
+        ("requirement temp 80", "RANGE", &["temp"]),
+        ("requirement gain", "USAGE", &["requirement [NAME VALUE]"]),
+    ] {
+        assert_contains(&err(&mut c, line, code), words);
+    }
     assert_eq!(
         c.requirement().gain,
         20.0,
@@ -533,7 +530,10 @@ fn every_new_reply_stays_within_bounds() {
 fn a_unit_without_the_design_search_names_the_pc_command() {
     let mut c = console();
     for l in ["design", "pick 1", "requirement", "requirement gain 20"] {
-        assert!(err(&mut c, l, "NOT_SUPPORTED").contains("run biasjig design on a PC"));
+        let e = err(&mut c, l, "NOT_SUPPORTED");
+        let word = l.split(' ').next().unwrap();
+        assert!(e.starts_with(&format!("err NOT_SUPPORTED {word}: ")), "{e}");
+        assert!(e.contains("run biasjig design on a PC"), "{e}");
     }
     ok(&mut c, "lock 2468");
     err(&mut c, "design", "NOT_SUPPORTED");

@@ -63,6 +63,23 @@ fn console() -> (Fake, HandClock) {
     (console_with("0.1.0", jig, clock.clone()), clock)
 }
 
+/// A fresh console in machine mode (`key=value` data lines).
+fn machine() -> Fake {
+    let (mut c, _) = console();
+    ok(&mut c, "mode machine");
+    c
+}
+
+/// A fresh console's human reply to `line` (its data lines as one text), and the console then
+/// put in machine mode.
+#[cfg(any(feature = "spread", feature = "analysis"))]
+fn human_then_machine(line: &str) -> (String, Fake) {
+    let (mut c, _) = console();
+    let human = ok(&mut c, line).join("\n");
+    ok(&mut c, "mode machine");
+    (human, c)
+}
+
 #[test]
 fn identify_and_idn_answer_four_ieee_488_2_fields() {
     let (mut c, _) = console();
@@ -156,8 +173,7 @@ fn help_lists_the_command_table_as_documented_and_the_safety_cautions() {
 
 #[test]
 fn set_shows_in_stage_and_profile_and_the_hash_follows_the_parts() {
-    let (mut c, _) = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine();
     assert_eq!(ok(&mut c, "mode"), ["mode=machine"]);
     let s = ok(&mut c, "stage");
     assert_eq!(value(&s, "r1"), "47000");
@@ -176,18 +192,18 @@ fn set_shows_in_stage_and_profile_and_the_hash_follows_the_parts() {
         h0,
         "same parts, same hash"
     );
-    ok(&mut c, "set rl none");
-    assert_eq!(value(&ok(&mut c, "stage"), "rl"), "none");
-    ok(&mut c, "set ce 220u");
-    assert_eq!(value(&ok(&mut c, "stage"), "ce"), "2.2e-4");
-    ok(&mut c, "set tol 1");
-    assert_eq!(value(&ok(&mut c, "stage"), "rc_tol"), "0.01");
-    ok(&mut c, "set polarity pnp");
-    assert_eq!(value(&ok(&mut c, "stage"), "polarity"), "pnp");
-    ok(&mut c, "set temp -10");
-    assert_eq!(value(&ok(&mut c, "stage"), "temp"), "-10");
-    ok(&mut c, "SET VCC 9");
-    assert_eq!(value(&ok(&mut c, "stage"), "vcc"), "9");
+    // Each change shows in the stage at once.
+    for (line, key, want) in [
+        ("set rl none", "rl", "none"),
+        ("set ce 220u", "ce", "2.2e-4"),
+        ("set tol 1", "rc_tol", "0.01"),
+        ("set polarity pnp", "polarity", "pnp"),
+        ("set temp -10", "temp", "-10"),
+        ("SET VCC 9", "vcc", "9"),
+    ] {
+        ok(&mut c, line);
+        assert_eq!(value(&ok(&mut c, "stage"), key), want, "{line}");
+    }
     // Profile figures.
     oks(
         &mut c,
@@ -228,12 +244,10 @@ fn set_shows_in_stage_and_profile_and_the_hash_follows_the_parts() {
 #[cfg(feature = "spread")]
 #[test]
 fn parts_lists_iec_60062_codes_and_colour_bands() {
-    let (mut c, _) = console();
-    let human = ok(&mut c, "parts").join("\n");
+    let (human, mut c) = human_then_machine("parts");
     // IEC 60062: 47 kΩ 5 % is yellow violet orange gold; 4.7 kΩ yellow violet red gold.
     assert_contains(&human, &["47k", "yellow violet orange gold"]);
     assert_contains(&human, &["4k7", "yellow violet red gold"]);
-    ok(&mut c, "mode machine");
     let m = ok(&mut c, "parts 5");
     assert_line_with(&m, &["part=R2", "bands=brown,black,black,red,gold"]);
     assert_line_with(&m, &["part=CE", "code=470u"]);
@@ -246,10 +260,8 @@ fn predict_matches_the_engine() {
     use biasjig_core::console::{default_profile, default_stage};
     use biasjig_core::predict::predict;
     use biasjig_core::solve::Conditions;
-    let (mut c, _) = console();
-    let human = ok(&mut c, "predict").join("\n");
+    let (human, mut c) = human_then_machine("predict");
     assert_contains(&human, &["Q-point", "active"]);
-    ok(&mut c, "mode machine");
     let d = ok(&mut c, "predict");
     let p = predict(
         &default_stage(),
@@ -275,8 +287,7 @@ fn limits_come_from_the_limits_module() {
     use biasjig_core::console::{default_profile, default_stage};
     use biasjig_core::limits::{limits, Meter};
     use biasjig_core::spread::Variation;
-    let (mut c, _) = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine();
     let d = ok(&mut c, "limits");
     let l = limits(
         &default_stage(),
@@ -295,8 +306,7 @@ fn limits_come_from_the_limits_module() {
 
 #[test]
 fn meter_measure_calibrate_and_inject_reach_the_jig() {
-    let (mut c, _) = console();
-    ok(&mut c, "mode machine");
+    let mut c = machine();
     err(&mut c, "readings", "NO_READINGS");
     oks(
         &mut c,
@@ -602,19 +612,18 @@ fn replies_stay_within_bounds() {
 /// as a value of the field (`1.67mA` was taken as 1.67 mV, `25V` as 25 °C).
 #[test]
 fn readings_and_temperatures_with_another_unit_are_refused() {
-    let (mut c, _) = console();
-    ok(&mut c, "mode machine");
-    let e = err(&mut c, "check 12 2.29 1.67mA 3.72", "VALUE");
-    assert!(e.contains("ve"), "{e}");
-    errs(
-        &mut c,
-        &[
-            ("set temp 25V", "VALUE"),
-            ("set temp-min 20F", "VALUE"),
-            ("set tj-max 150A", "VALUE"),
-            ("calibrate vb low 1mA", "VALUE"),
-        ],
-    );
+    let mut c = machine();
+    // Each refusal names the field whose unit is wrong.
+    for (line, field) in [
+        ("check 12 2.29 1.67mA 3.72", "ve"),
+        ("set temp 25V", "temp"),
+        ("set temp-min 20F", "temp-min"),
+        ("set tj-max 150A", "tj-max"),
+        ("calibrate vb low 1mA", "low"),
+    ] {
+        let e = err(&mut c, line, "VALUE");
+        assert!(e.starts_with(&format!("err VALUE {field}: ")), "{e}");
+    }
     // The field's own unit is still accepted.
     ok(&mut c, "set temp 30C");
     ok(&mut c, "set temp 25°C");

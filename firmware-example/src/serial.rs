@@ -211,6 +211,17 @@ mod tests {
         busy_left: u32,
         overrun_next: bool,
     }
+    impl Mock {
+        /// A transmitter busy for `polls` polls before each byte.
+        fn busy_for(polls: u32) -> Self {
+            Mock {
+                tx_busy_polls: polls,
+                busy_left: polls,
+                ..Mock::default()
+            }
+        }
+    }
+
     impl serial::ErrorType for Mock {
         type Error = MockErr;
     }
@@ -283,12 +294,7 @@ mod tests {
 
     #[test]
     fn write_waits_per_byte_within_bound() {
-        let m = Mock {
-            tx_busy_polls: 3,
-            busy_left: 3,
-            ..Mock::default()
-        };
-        let mut s = NbSerial::with_write_polls(m, 10);
+        let mut s = NbSerial::with_write_polls(Mock::busy_for(3), 10);
         s.write_all(b"ok\r\n").unwrap();
         s.flush().unwrap();
         assert_eq!(s.inner_mut().tx, b"ok\r\n");
@@ -296,12 +302,7 @@ mod tests {
 
     #[test]
     fn write_times_out_on_a_stuck_transmitter() {
-        let m = Mock {
-            tx_busy_polls: 100,
-            busy_left: 100,
-            ..Mock::default()
-        };
-        let mut s = NbSerial::with_write_polls(m, 10);
+        let mut s = NbSerial::with_write_polls(Mock::busy_for(100), 10);
         assert_eq!(s.write(b"x"), Err(SerialError::Timeout));
     }
 }

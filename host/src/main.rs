@@ -41,35 +41,54 @@ const SAFETY: &str =
 within their rated range; never connect mains-powered circuits without isolation. Local codes and \
 licensed practice take precedence.";
 
-#[derive(Subcommand, Debug)]
-#[allow(clippy::large_enum_variant)] // parsed once per run
-enum Command {
+/// The subcommands, each named once: its help line, its variant and its module under `cmd/`
+/// (a `Cmd` with `run`). Makes the `Command` enum and its `run`.
+macro_rules! commands {
+    ($($(#[$help:meta])* $name:ident($module:ident),)*) => {
+        #[derive(Subcommand, Debug)]
+        #[allow(clippy::large_enum_variant)] // parsed once per run
+        enum Command {
+            $($(#[$help])* $name(cmd::$module::Cmd),)*
+        }
+
+        impl Command {
+            /// Run the command chosen.
+            fn run(&self, g: &Global) -> CmdResult {
+                match self {
+                    $(Self::$name(c) => c.run(g),)*
+                }
+            }
+        }
+    };
+}
+
+commands! {
     /// Exact operating point, hand estimate, gain, impedances, swing, low corner and power
-    Analyze(cmd::analyze::Cmd),
+    Analyze(analyze),
     /// From a requirement to ranked part lists of standard values
-    Design(cmd::design::Cmd),
+    Design(design),
     /// Worst case and Monte Carlo spread of the operating point
-    Spread(cmd::spread::Cmd),
+    Spread(spread),
     /// Pass windows per node for the test station
-    Limits(cmd::limits::Cmd),
+    Limits(limits),
     /// Judge one board's measured node voltages and name the likely faulty part
-    Check(cmd::check::Cmd),
+    Check(check),
     /// Check many boards from a CSV file of readings
-    Batch(cmd::batch::Cmd),
+    Batch(batch),
     /// Yield, capability and control charts per design, from a results store or board logs
-    Report(cmd::report::Cmd),
+    Report(report),
     /// Load board logs into a results store, skipping records already there
-    Import(cmd::import::Cmd),
+    Import(import),
     /// Record what was actually wrong with a failed board (the rework loop)
-    Repair(cmd::repair::Cmd),
+    Repair(repair),
     /// The line console, in this process or on the instrument over a serial port
-    Console(cmd::console::Cmd),
+    Console(console),
     /// The test technician's loop: push the design, check each board, log it
-    Station(cmd::station::Cmd),
+    Station(station),
     /// List serial ports
-    Ports(cmd::ports::Cmd),
+    Ports(ports),
     /// Run the whole job on the built-in demo scenario
-    Demo(cmd::demo::Cmd),
+    Demo(demo),
 }
 
 /// Run one command line (the program name first) as the binary would, for commands that run
@@ -84,22 +103,7 @@ where
 }
 
 fn dispatch(cli: &Cli) -> CmdResult {
-    let g = &cli.global;
-    match &cli.command {
-        Command::Analyze(c) => c.run(g),
-        Command::Design(c) => c.run(g),
-        Command::Spread(c) => c.run(g),
-        Command::Limits(c) => c.run(g),
-        Command::Check(c) => c.run(g),
-        Command::Batch(c) => c.run(g),
-        Command::Report(c) => c.run(g),
-        Command::Import(c) => c.run(g),
-        Command::Repair(c) => c.run(g),
-        Command::Console(c) => c.run(g),
-        Command::Station(c) => c.run(g),
-        Command::Ports(c) => c.run(g),
-        Command::Demo(c) => c.run(g),
-    }
+    cli.command.run(&cli.global)
 }
 
 fn main() -> ExitCode {

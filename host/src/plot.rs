@@ -12,6 +12,7 @@ use biasjig_core::device::Profile;
 use biasjig_core::limits::Limits;
 use biasjig_core::spread::{Factor, Node, Range, Spread, Stats};
 use biasjig_core::stage::{Polarity, Stage};
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
@@ -59,6 +60,36 @@ where
         .border_style(BLACK)
         .draw()?;
     root.present()?;
+    Ok(())
+}
+
+/// A chart with numbers on both axes.
+type Chart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
+/// The key of a line in the legend: a short stroke in the line's style.
+fn line_key(style: ShapeStyle) -> impl Fn((i32, i32)) -> PathElement<(i32, i32)> {
+    move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], style)
+}
+
+/// Vertical lines across the chart (from 0 to `top`) at `xs`, labelled in the legend.
+fn marks<'a, DB>(
+    chart: &mut Chart<'a, DB>,
+    xs: &[f64],
+    top: f64,
+    style: ShapeStyle,
+    label: &str,
+) -> PlotResult
+where
+    DB: DrawingBackend + 'a,
+    DB::ErrorType: 'static,
+{
+    chart
+        .draw_series(
+            xs.iter()
+                .map(|&x| PathElement::new(vec![(x, 0.0), (x, top)], style)),
+        )?
+        .label(label)
+        .legend(line_key(style));
     Ok(())
 }
 
@@ -167,30 +198,14 @@ fn histogram(
             BLUE.mix(0.55).filled(),
         )
     }))?;
-    let vline = |x: f64| vec![(x, 0.0), (x, top)];
-    chart
-        .draw_series([wc.min, wc.max].map(|x| PathElement::new(vline(x), RED.stroke_width(2))))?
-        .label("worst case")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], RED.stroke_width(2)));
+    let (red, green) = (RED.stroke_width(2), GREEN.stroke_width(2));
+    marks(&mut chart, &[wc.min, wc.max], top, red, "worst case")?;
     if let Some((a, b)) = window {
-        chart
-            .draw_series([a, b].map(|x| PathElement::new(vline(x), GREEN.stroke_width(2))))?
-            .label("pass window")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], GREEN.stroke_width(2)));
+        marks(&mut chart, &[a, b], top, green, "pass window")?;
     }
     if !reqs.is_empty() {
-        chart
-            .draw_series(
-                reqs.iter()
-                    .map(|&x| PathElement::new(vline(x), RGBColor(230, 120, 0).stroke_width(2))),
-            )?
-            .label("requirement")
-            .legend(|(x, y)| {
-                PathElement::new(
-                    vec![(x, y), (x + 16, y)],
-                    RGBColor(230, 120, 0).stroke_width(2),
-                )
-            });
+        let orange = RGBColor(230, 120, 0).stroke_width(2);
+        marks(&mut chart, reqs, top, orange, "requirement")?;
     }
     legend_and_finish(&mut chart, &root)
 }
@@ -242,27 +257,29 @@ fn load_lines(
         .x_desc("|VCE|")
         .y_desc("IC")
         .draw()?;
-    chart
-        .draw_series(LineSeries::new(
+    let lines = [
+        (
+            "DC load line",
             [(0.0, i_max_dc), (vcc, 0.0)],
             BLACK.stroke_width(2),
-        ))?
-        .label("DC load line")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BLACK.stroke_width(2)));
-    chart
-        .draw_series(LineSeries::new(
+        ),
+        (
+            "AC load line",
             [(0.0, i_max_ac), (vq + iq * rac, 0.0)],
             MAGENTA.stroke_width(2),
-        ))?
-        .label("AC load line")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], MAGENTA.stroke_width(2)));
-    chart
-        .draw_series(LineSeries::new(
+        ),
+        (
+            "VCE(sat)",
             [(profile.vce_sat, 0.0), (profile.vce_sat, top)],
-            RGBColor(150, 150, 150),
-        ))?
-        .label("VCE(sat)")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], RGBColor(150, 150, 150)));
+            RGBColor(150, 150, 150).into(),
+        ),
+    ];
+    for (label, ends, style) in lines {
+        chart
+            .draw_series(LineSeries::new(ends, style))?
+            .label(label)
+            .legend(line_key(style));
+    }
     chart
         .draw_series(
             cloud

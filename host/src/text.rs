@@ -4,7 +4,7 @@ use std::fmt::Write as _;
 
 use biasjig_core::predict::{Prediction, Warnings};
 use biasjig_core::series::{colour_bands, BandCount};
-use biasjig_core::stage::{Polarity, Resistor, Stage};
+use biasjig_core::stage::{Part, Polarity, Resistor, Stage};
 use biasjig_core::units::{capacitor_code, resistor_code, Eng};
 
 /// A value with an SI prefix and unit, 3 significant digits.
@@ -30,14 +30,40 @@ pub fn bands(ohms: f64, tol: f64) -> String {
     }
 }
 
+/// The heads of a part list's first columns: part, value, code, tolerance (no line end).
+pub fn part_heads() -> String {
+    format!(
+        "  {:<5} {:>10}  {:<6} {:>5}",
+        "part", "value", "code", "tol"
+    )
+}
+
+/// What a part in a part list is, for its value's unit and code.
+#[derive(Debug, Clone, Copy)]
+pub enum PartKind {
+    /// Ohms, the resistor code (`4k7`).
+    Resistor,
+    /// Farads, the capacitor code (`10u`).
+    Capacitor,
+}
+
+/// A part's first columns in a part list: designator, value, code, tolerance (no line end).
+pub fn part_cells(kind: PartKind, name: &str, p: Part) -> String {
+    let (value, code) = match kind {
+        PartKind::Resistor => (eng(p.value, "Ω"), resistor_code(p.value)),
+        PartKind::Capacitor => (eng(p.value, "F"), capacitor_code(p.value)),
+    };
+    format!(
+        "  {name:<5} {value:>10}  {:<6} {:>4}%",
+        code.as_str(),
+        fmt_pct(p.tol)
+    )
+}
+
 /// The part list: designator, value, code, tolerance, colour bands.
 pub fn parts(stage: &Stage) -> String {
     let mut s = String::new();
-    let _ = writeln!(
-        s,
-        "  {:<5} {:>10}  {:<6} {:>5}  colour bands",
-        "part", "value", "code", "tol"
-    );
+    let _ = writeln!(s, "{}  colour bands", part_heads());
     for r in Resistor::ALL {
         let p = stage.part(r);
         if p.value == 0.0 && matches!(r, Resistor::Re1 | Resistor::Re2) {
@@ -46,25 +72,15 @@ pub fn parts(stage: &Stage) -> String {
         }
         let _ = writeln!(
             s,
-            "  {:<5} {:>10}  {:<6} {:>4}%  {}",
-            r.name(),
-            eng(p.value, "Ω"),
-            resistor_code(p.value).as_str(),
-            fmt_pct(p.tol),
+            "{}  {}",
+            part_cells(PartKind::Resistor, r.name(), p),
             bands(p.value, p.tol)
         );
     }
     for (name, c) in [("CIN", stage.cin), ("COUT", stage.cout), ("CE", stage.ce)] {
         match c {
             Some(c) => {
-                let _ = writeln!(
-                    s,
-                    "  {:<5} {:>10}  {:<6} {:>4}%",
-                    name,
-                    eng(c.value, "F"),
-                    capacitor_code(c.value).as_str(),
-                    fmt_pct(c.tol)
-                );
+                let _ = writeln!(s, "{}", part_cells(PartKind::Capacitor, name, c));
             }
             None => {
                 let _ = writeln!(s, "  {:<5} {:>10}", name, "ideal");

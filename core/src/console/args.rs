@@ -2,8 +2,8 @@
 //! [`super::table::COMMANDS`], and the readers of `set`, `requirement` and `inject`.
 
 use super::fields::{
-    capacitor, celsius, count, err, optional_in, percent, resistor, signed_in, signed_percent,
-    value, value_in,
+    capacitor, celsius, count, err, field, optional_in, percent, resistor, signed_in,
+    signed_percent, value, value_in, Field,
 };
 use super::jig::Channel;
 use super::parse::{
@@ -15,10 +15,7 @@ use super::parse::{ReqSetting, REQUIREMENT_NAMES};
 use super::Code;
 use crate::response::CapState;
 use crate::series::BandCount;
-#[cfg(feature = "synthesis")]
-use crate::series::Series;
-use crate::settings::InputMode;
-use crate::stage::{DeviceFault, Fault, Polarity, Readings};
+use crate::stage::{DeviceFault, Fault, Readings};
 use crate::units::Unit;
 
 /// The words of one line: the command word as typed, the words after it, and the whole line.
@@ -292,55 +289,89 @@ pub(super) fn name<'l>(a: Args<'_, 'l>) -> Result<Name, ParseError<'l>> {
     )
 }
 
+/// How each field of `requirement NAME VALUE` is read, in the order of its name in
+/// [`REQUIREMENT_NAMES`] (the names are written once, there).
 #[cfg(feature = "synthesis")]
-fn requirement_field<'a>(name: &'a str, v: &'a str) -> Result<ReqSetting, ParseError<'a>> {
-    let n = |s: &str| name.eq_ignore_ascii_case(s);
-    let celsius = |v: &'a str| celsius(name, v);
-    let series = |v: &'a str| {
-        Series::parse(v).map_err(|_| err(Code::Value, name, v, "E3 E6 E12 E24 E48 E96 or E192"))
-    };
-    Ok(if n("polarity") {
-        ReqSetting::Polarity(if v.eq_ignore_ascii_case("npn") {
-            Polarity::Npn
-        } else if v.eq_ignore_ascii_case("pnp") {
-            Polarity::Pnp
-        } else {
-            return Err(err(Code::Value, name, v, "npn or pnp"));
-        })
-    } else if n("vcc") {
-        ReqSetting::Vcc(value_in(name, v, Unit::Volt)?)
-    } else if n("gain") {
-        ReqSetting::Gain(value_in(name, v, Unit::Number)?)
-    } else if n("rl") {
-        ReqSetting::Load(optional_in(name, v, Unit::Ohm)?)
-    } else if n("rs") {
-        ReqSetting::Source(value_in(name, v, Unit::Ohm)?)
-    } else if n("ic-max") {
-        ReqSetting::IcMax(value_in(name, v, Unit::Ampere)?)
-    } else if n("swing") {
-        ReqSetting::Swing(value_in(name, v, Unit::Volt)?)
-    } else if n("f-low") {
-        ReqSetting::FLow(optional_in(name, v, Unit::Hertz)?)
-    } else if n("temp") {
-        ReqSetting::Temp(celsius(v)?)
-    } else if n("temp-min") {
-        ReqSetting::TempMin(celsius(v)?)
-    } else if n("temp-max") {
-        ReqSetting::TempMax(celsius(v)?)
-    } else if n("series") {
-        ReqSetting::Series(series(v)?)
-    } else if n("tol") {
-        ReqSetting::Tol(percent(name, v)?)
-    } else if n("cap-series") {
-        ReqSetting::CapSeries(series(v)?)
-    } else if n("cap-tol") {
-        ReqSetting::CapTol(percent(name, v)?)
-    } else {
-        return Err(err(Code::Value, "requirement", name, REQUIREMENT_NAMES));
-    })
+const REQUIREMENT_FIELDS: [Field<ReqSetting>; 15] = [
+    Field::Polarity(ReqSetting::Polarity),
+    Field::Value(Unit::Volt, ReqSetting::Vcc),
+    Field::Value(Unit::Number, ReqSetting::Gain),
+    Field::Optional(Unit::Ohm, ReqSetting::Load),
+    Field::Value(Unit::Ohm, ReqSetting::Source),
+    Field::Value(Unit::Ampere, ReqSetting::IcMax),
+    Field::Value(Unit::Volt, ReqSetting::Swing),
+    Field::Optional(Unit::Hertz, ReqSetting::FLow),
+    Field::Number(celsius, ReqSetting::Temp),
+    Field::Number(celsius, ReqSetting::TempMin),
+    Field::Number(celsius, ReqSetting::TempMax),
+    Field::Series(ReqSetting::Series),
+    Field::Number(percent, ReqSetting::Tol),
+    Field::Series(ReqSetting::CapSeries),
+    Field::Number(percent, ReqSetting::CapTol),
+];
+
+#[cfg(feature = "synthesis")]
+const _: () = assert!(word_count(REQUIREMENT_NAMES) == REQUIREMENT_FIELDS.len());
+
+/// The words of a list separated by single spaces.
+#[cfg(feature = "synthesis")]
+const fn word_count(list: &str) -> usize {
+    let mut words = 1;
+    let mut rest = list.as_bytes();
+    while let [first, tail @ ..] = rest {
+        if *first == b' ' {
+            words += 1;
+        }
+        rest = tail;
+    }
+    words
 }
 
-pub(super) fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
+#[cfg(feature = "synthesis")]
+fn requirement_field<'a>(name: &'a str, v: &'a str) -> Result<ReqSetting, ParseError<'a>> {
+    REQUIREMENT_NAMES
+        .split(' ')
+        .zip(&REQUIREMENT_FIELDS)
+        .find(|(n, _)| n.eq_ignore_ascii_case(name))
+        .ok_or(err(Code::Value, "requirement", name, REQUIREMENT_NAMES))?
+        .1
+        .read(name, v)
+}
+
+/// The names of `set` that take no tolerance (the resistors, the capacitors and `vcc` do), in
+/// the order of [`SET_NAMES`].
+const SETTINGS: [(&str, Field<Setting>); 20] = [
+    ("tol", Field::Number(percent, Setting::Tolerance)),
+    ("rl", Field::Optional(Unit::Ohm, Setting::Load)),
+    ("rs", Field::Value(Unit::Ohm, Setting::Source)),
+    ("polarity", Field::Polarity(Setting::Polarity)),
+    ("temp", Field::Number(celsius, Setting::Temp)),
+    ("temp-min", Field::Number(celsius, Setting::TempMin)),
+    ("temp-max", Field::Number(celsius, Setting::TempMax)),
+    ("beta", Field::Value(Unit::Number, Setting::Beta)),
+    ("beta-min", Field::Value(Unit::Number, Setting::BetaMin)),
+    ("beta-max", Field::Value(Unit::Number, Setting::BetaMax)),
+    ("beta-rev", Field::Value(Unit::Number, Setting::BetaRev)),
+    ("beta-tc", Field::Number(signed_percent, Setting::BetaTc)),
+    ("vbe", Field::Value(Unit::Volt, Setting::Vbe)),
+    ("is", Field::Value(Unit::Ampere, Setting::Is)),
+    ("early", Field::Optional(Unit::Volt, Setting::Early)),
+    ("vce-sat", Field::Value(Unit::Volt, Setting::VceSat)),
+    (
+        "power-rating",
+        Field::Value(Unit::Watt, Setting::PowerRating),
+    ),
+    ("tj-max", Field::Number(celsius, Setting::TjMax)),
+    ("input-r", Field::Optional(Unit::Ohm, Setting::InputR)),
+    ("inputs", Field::Inputs(Setting::Inputs)),
+];
+
+/// `set NAME VALUE [TOL%]`.
+pub(super) fn set<'l>(a: Args<'_, 'l>) -> Result<Command<'l>, ParseError<'l>> {
+    setting(a.list).map(Command::Set)
+}
+
+fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> {
     let usage = "set NAME VALUE [TOL%], NAME one of the names in `help set`";
     let (name, v, tol) = match words {
         [name, v] => (*name, *v, None),
@@ -350,13 +381,6 @@ pub(super) fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> 
     let tol = match tol {
         Some(t) => Some(percent(name, t)?),
         None => None,
-    };
-    let n = |s: &str| name.eq_ignore_ascii_case(s);
-    let no_tol = |s: Setting| -> Result<Setting, ParseError<'a>> {
-        match tol {
-            None => Ok(s),
-            Some(_) => Err(err(Code::Usage, name, "", "takes no tolerance")),
-        }
     };
     if let Some(r) = resistor(name) {
         return Ok(Setting::Resistor(r, value_in(name, v, Unit::Ohm)?, tol));
@@ -368,62 +392,16 @@ pub(super) fn setting<'a>(words: &[&'a str]) -> Result<Setting, ParseError<'a>> 
             tol,
         ));
     }
-    if n("vcc") {
+    if name.eq_ignore_ascii_case("vcc") {
         return Ok(Setting::Vcc(value_in(name, v, Unit::Volt)?, tol));
     }
-    let s = if n("tol") {
-        Setting::Tolerance(percent(name, v)?)
-    } else if n("rl") {
-        Setting::Load(optional_in(name, v, Unit::Ohm)?)
-    } else if n("rs") {
-        Setting::Source(value_in(name, v, Unit::Ohm)?)
-    } else if n("polarity") {
-        Setting::Polarity(if v.eq_ignore_ascii_case("npn") {
-            Polarity::Npn
-        } else if v.eq_ignore_ascii_case("pnp") {
-            Polarity::Pnp
-        } else {
-            return Err(err(Code::Value, name, v, "npn or pnp"));
-        })
-    } else if n("temp") || n("temp-min") || n("temp-max") {
-        let t = celsius(name, v)?;
-        if n("temp") {
-            Setting::Temp(t)
-        } else if n("temp-min") {
-            Setting::TempMin(t)
-        } else {
-            Setting::TempMax(t)
-        }
-    } else if n("beta") {
-        Setting::Beta(value_in(name, v, Unit::Number)?)
-    } else if n("beta-min") {
-        Setting::BetaMin(value_in(name, v, Unit::Number)?)
-    } else if n("beta-max") {
-        Setting::BetaMax(value_in(name, v, Unit::Number)?)
-    } else if n("beta-rev") {
-        Setting::BetaRev(value_in(name, v, Unit::Number)?)
-    } else if n("beta-tc") {
-        Setting::BetaTc(signed_percent(name, v)?)
-    } else if n("vbe") {
-        Setting::Vbe(value_in(name, v, Unit::Volt)?)
-    } else if n("is") {
-        Setting::Is(value_in(name, v, Unit::Ampere)?)
-    } else if n("early") {
-        Setting::Early(optional_in(name, v, Unit::Volt)?)
-    } else if n("vce-sat") {
-        Setting::VceSat(value_in(name, v, Unit::Volt)?)
-    } else if n("power-rating") {
-        Setting::PowerRating(value_in(name, v, Unit::Watt)?)
-    } else if n("tj-max") {
-        Setting::TjMax(celsius(name, v)?)
-    } else if n("input-r") {
-        Setting::InputR(optional_in(name, v, Unit::Ohm)?)
-    } else if n("inputs") {
-        Setting::Inputs(InputMode::parse(v).ok_or(err(Code::Value, name, v, "together or one"))?)
-    } else {
-        return Err(err(Code::Value, "set", name, SET_NAMES));
-    };
-    no_tol(s)
+    let s = field(&SETTINGS, name)
+        .ok_or(err(Code::Value, "set", name, SET_NAMES))?
+        .read(name, v)?;
+    match tol {
+        None => Ok(s),
+        Some(_) => Err(err(Code::Usage, name, "", "takes no tolerance")),
+    }
 }
 
 fn fault<'a>(words: &[&'a str]) -> Result<Option<Fault>, ParseError<'a>> {
@@ -449,5 +427,29 @@ be_open|bc_open|be_short|bc_short|ce_short|reversed";
             }
         }
         _ => Err(err(Code::Usage, "inject", "", allowed)),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every name `help set` lists is read by `set` (a row of the table, a resistor, a capacitor
+    /// or `vcc`), and every row of the table is listed.
+    #[test]
+    fn set_names_and_the_field_table_agree() {
+        for n in SET_NAMES.split(' ') {
+            let read = field(&SETTINGS, n).is_some()
+                || resistor(n).is_some()
+                || capacitor(n).is_some()
+                || n == "vcc";
+            assert!(read, "{n} listed but not read");
+        }
+        for (n, _) in &SETTINGS {
+            assert!(
+                SET_NAMES.split(' ').any(|w| w == *n),
+                "{n} read but not listed"
+            );
+        }
     }
 }

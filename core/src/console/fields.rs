@@ -4,7 +4,10 @@
 
 use super::parse::{ParseError, DEFAULT_SAMPLES, MAX_SAMPLES};
 use super::Code;
-use crate::stage::{Capacitor, Resistor};
+#[cfg(feature = "synthesis")]
+use crate::series::Series;
+use crate::settings::InputMode;
+use crate::stage::{Capacitor, Polarity, Resistor};
 use crate::units::{self, Unit};
 
 pub(super) const VALUE_FORMS: &str = "a value such as 4700, 4.7k, 4k7, 470R, 100n or 2.2e-3";
@@ -36,13 +39,17 @@ fn value_error<'a>(field: &'a str, text: &'a str, e: units::ValueError) -> Parse
     }
 }
 
-/// A non-negative value of a field of `unit` (its own unit letters may follow, no other's).
+/// A non-negative value of a field of `unit` (its own unit letters may follow, no other's): a
+/// [`signed_in`] value, a negative one refused with the forms of a value.
 pub(super) fn value_in<'a>(
     field: &'a str,
     text: &'a str,
     unit: Unit,
 ) -> Result<f64, ParseError<'a>> {
-    units::parse_value_in(text, unit).map_err(|e| value_error(field, text, e))
+    match signed_in(field, text, unit)? {
+        v if v < 0.0 => Err(err(Code::Value, field, text, VALUE_FORMS)),
+        v => Ok(v),
+    }
 }
 
 /// A value of a field of `unit`, or `none`.
@@ -132,4 +139,58 @@ pub(super) fn capacitor(name: &str) -> Option<Capacitor> {
     .into_iter()
     .find(|(n, _)| n.eq_ignore_ascii_case(name))
     .map(|(_, c)| c)
+}
+
+/// A reader of a number of a field: [`celsius`], [`percent`] or [`signed_percent`].
+pub(super) type Number = for<'a> fn(&'a str, &'a str) -> Result<f64, ParseError<'a>>;
+
+/// How the value of one named field of `set` or `requirement` is read, and the change of type
+/// `T` it makes (a row of their name tables).
+pub(super) enum Field<T> {
+    /// A value of the unit, not negative.
+    Value(Unit, fn(f64) -> T),
+    /// A value of the unit, or `none`.
+    Optional(Unit, fn(Option<f64>) -> T),
+    /// A number read by the function (a temperature in °C, a percentage as a fraction).
+    Number(Number, fn(f64) -> T),
+    /// `npn` or `pnp`.
+    Polarity(fn(Polarity) -> T),
+    /// A series name, `E3` to `E192`.
+    #[cfg(feature = "synthesis")]
+    Series(fn(Series) -> T),
+    /// `together` or `one`.
+    Inputs(fn(InputMode) -> T),
+}
+
+impl<T> Field<T> {
+    /// The change of the field `name` to the text `v`, refused with the field, the text and what
+    /// is allowed.
+    pub(super) fn read<'a>(&self, name: &'a str, v: &'a str) -> Result<T, ParseError<'a>> {
+        let refused = |allowed| err(Code::Value, name, v, allowed);
+        Ok(match *self {
+            Field::Value(unit, make) => make(value_in(name, v, unit)?),
+            Field::Optional(unit, make) => make(optional_in(name, v, unit)?),
+            Field::Number(number, make) => make(number(name, v)?),
+            Field::Polarity(make) => make(if v.eq_ignore_ascii_case("npn") {
+                Polarity::Npn
+            } else if v.eq_ignore_ascii_case("pnp") {
+                Polarity::Pnp
+            } else {
+                return Err(refused("npn or pnp"));
+            }),
+            #[cfg(feature = "synthesis")]
+            Field::Series(make) => {
+                make(Series::parse(v).map_err(|_| refused("E3 E6 E12 E24 E48 E96 or E192"))?)
+            }
+            Field::Inputs(make) => make(InputMode::parse(v).ok_or(refused("together or one"))?),
+        })
+    }
+}
+
+/// The row of `name` (case-insensitive) in a table of named fields.
+pub(super) fn field<'t, T>(table: &'t [(&str, Field<T>)], name: &str) -> Option<&'t Field<T>> {
+    table
+        .iter()
+        .find(|(n, _)| n.eq_ignore_ascii_case(name))
+        .map(|(_, f)| f)
 }

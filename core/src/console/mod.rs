@@ -15,10 +15,11 @@
 //!   on it and nothing panics.
 //!
 //! Layers: [`line`](mod@line) (assembling lines), [`parse`] (line to [`parse::Command`] through the one
-//! command table [`COMMANDS`]), the session state in [`Console`], the commands by job (session,
-//! settings, calibration, show, predict, judge, synthesis, kept designs) writing their data
-//! lines through one formatting module (each item once, the mode chooses the layout), [`jig`]
-//! (traits the front end implements) and [`record`] (store records and the design hash).
+//! command table [`COMMANDS`]), the session state in [`Console`], the commands by job
+//! (session, the PIN lock, settings, calibration, show, predict, judge, synthesis, kept designs)
+//! writing their data lines through one formatting module (each item once, the mode chooses the
+//! layout), [`jig`] (traits the front end implements) and [`record`] (store records and the
+//! design hash).
 
 mod args;
 mod calibration;
@@ -30,6 +31,7 @@ pub mod jig;
 mod judge;
 mod kept;
 pub mod line;
+mod lock;
 pub mod parse;
 #[cfg(any(feature = "analysis", feature = "spread"))]
 mod predict;
@@ -55,6 +57,7 @@ pub use defaults::{default_profile, default_requirement, default_settings, defau
 pub use format::Num;
 pub use judge::{LastCheck, LISTED_FAULTS};
 pub use kept::{KeptDesign, KeptList};
+pub use lock::{PIN_BACKOFF_MAX_MS, PIN_BACKOFF_MS, PIN_FREE_TRIES};
 pub use table::{Spec, COMMANDS, SAFETY};
 
 use crate::design::{Candidates, Requirement};
@@ -66,12 +69,6 @@ pub const LINE_MAX: usize = 128;
 pub const MAX_DATA_LINES: usize = 40;
 /// Longest output line, bytes (without CR LF).
 pub const MAX_OUT_LINE: usize = 200;
-/// Wrong PINs allowed before the back-off starts.
-pub const PIN_FREE_TRIES: u32 = 3;
-/// First back-off after the free tries, ms; it doubles with each further wrong PIN.
-pub const PIN_BACKOFF_MS: u64 = 1000;
-/// Longest back-off, ms.
-pub const PIN_BACKOFF_MAX_MS: u64 = 300_000;
 
 /// A failed write.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -237,9 +234,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             }
         }
         let _ = self.jig.set_calibration(&self.calibration);
-        if self.settings.pin_failures >= PIN_FREE_TRIES {
-            self.retry_at_ms = self.clock.now_ms().saturating_add(self.backoff_ms());
-        }
+        self.resume_backoff();
     }
 
     /// The current settings (stage, profile, meter, lock).
@@ -300,17 +295,6 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
     /// The design hash of the current stage and profile.
     pub fn design_hash(&self) -> u64 {
         record::design_hash(&self.settings.stage, &self.settings.profile)
-    }
-
-    fn backoff_ms(&self) -> u64 {
-        let extra = self
-            .settings
-            .pin_failures
-            .saturating_sub(PIN_FREE_TRIES)
-            .min(20);
-        PIN_BACKOFF_MS
-            .saturating_mul(1u64 << extra)
-            .min(PIN_BACKOFF_MAX_MS)
     }
 
     fn echo_bytes<W: Write>(

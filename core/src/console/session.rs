@@ -1,6 +1,6 @@
-//! The session commands and the dispatch: `identify`, `*RST`, `lock`, `unlock`, `echo`,
-//! `mode`, `save`, `hash`, `digest` and `help`; [`Console::exec`] runs each parsed command in the
-//! module of its job.
+//! The session commands and the dispatch: `identify`, `*RST`, `echo`, `mode`, `save`, `hash`,
+//! `digest` and `help`; [`Console::exec`] runs each parsed command in the module of its job
+//! (`lock` and `unlock` in [`lock`](super::lock)).
 #![expect(
     clippy::result_large_err,
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
@@ -12,14 +12,19 @@ use super::format::Val;
 use super::jig::{Clock, Jig, JigError, Slot, Store, RECORD_LEN};
 use super::parse::{Command, Mode};
 use super::record;
-use super::reply::{Fail, Outcome, Reply, Text};
+use super::reply::{Fail, Outcome, Reply};
 use super::show::show_readings;
-use super::{Code, Console, Source, PIN_FREE_TRIES};
+use super::{Code, Console, Source};
 
-/// The refusal of a design-search command by a unit built without them (core feature
-/// `synthesis`, left out of the instrument's budget build).
+/// The refusal of a design-search command (`requirement`, `design`, `pick`) by a unit built
+/// without them (core feature `synthesis`, left out of the instrument's budget build).
 #[cfg(not(feature = "synthesis"))]
-fn no_synthesis(command: &str) -> Fail {
+fn no_synthesis(cmd: Command<'_>) -> Fail {
+    let command = match cmd {
+        Command::Requirement(_) => "requirement",
+        Command::Design => "design",
+        _ => "pick",
+    };
     Fail::new(
         Code::NotSupported,
         format_args!(
@@ -46,9 +51,16 @@ pub(super) fn not_here(command: &str, what: &str, instead: &str) -> Fail {
     )
 }
 
-/// The refusal of the kept-design commands (core feature `kept-designs`).
+/// The refusal of the kept-design commands (`keep`, `designs`, `choose`, `forget`; core feature
+/// `kept-designs`).
 #[cfg(not(feature = "kept-designs"))]
-fn no_kept(command: &str) -> Fail {
+fn no_kept(cmd: Command<'_>) -> Fail {
+    let command = match cmd {
+        Command::Keep(_) => "keep",
+        Command::Designs => "designs",
+        Command::Choose(_) => "choose",
+        _ => "forget",
+    };
     not_here(
         command,
         "keep designs by name",
@@ -67,17 +79,6 @@ pub(super) fn jig_fail(e: JigError) -> Fail {
 }
 
 impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
-    pub(super) fn editable(&self) -> Result<(), Fail> {
-        if self.is_locked() {
-            Err(Fail::new(
-                Code::Locked,
-                format_args!("locked: unlock PIN to change this"),
-            ))
-        } else {
-            Ok(())
-        }
-    }
-
     #[inline(never)]
     pub(super) fn save_settings(&mut self) -> Result<(), Fail> {
         let mut rec = [0u8; RECORD_LEN];
@@ -161,11 +162,7 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
                 Ok(None)
             }
             #[cfg(not(feature = "synthesis"))]
-            Command::Requirement(_) => Err(no_synthesis("requirement")),
-            #[cfg(not(feature = "synthesis"))]
-            Command::Design => Err(no_synthesis("design")),
-            #[cfg(not(feature = "synthesis"))]
-            Command::Pick(_) => Err(no_synthesis("pick")),
+            Command::Requirement(_) | Command::Design | Command::Pick(_) => Err(no_synthesis(cmd)),
             #[cfg(feature = "synthesis")]
             Command::Requirement(None) => {
                 self.show_requirement(r);
@@ -265,13 +262,9 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
             #[cfg(feature = "kept-designs")]
             Command::Forget(name) => self.forget(name),
             #[cfg(not(feature = "kept-designs"))]
-            Command::Keep(_) => Err(no_kept("keep")),
-            #[cfg(not(feature = "kept-designs"))]
-            Command::Designs => Err(no_kept("designs")),
-            #[cfg(not(feature = "kept-designs"))]
-            Command::Choose(_) => Err(no_kept("choose")),
-            #[cfg(not(feature = "kept-designs"))]
-            Command::Forget(_) => Err(no_kept("forget")),
+            Command::Keep(_) | Command::Designs | Command::Choose(_) | Command::Forget(_) => {
+                Err(no_kept(cmd))
+            }
         }
     }
 
@@ -285,61 +278,5 @@ impl<J: Jig, S: Store, C: Clock> Console<J, S, C> {
         self.candidates.clear();
         self.cal_low = [None; 4];
         Ok(None)
-    }
-
-    #[inline(never)]
-    pub(super) fn lock(&mut self, pin: super::parse::Pin) -> Outcome {
-        if self.is_locked() {
-            return Err(Fail::new(Code::Locked, format_args!("already locked")));
-        }
-        self.settings.pin = Some(pin);
-        self.settings.pin_failures = 0;
-        match self.save_settings() {
-            Ok(()) => Ok(Some(Text::of(format_args!("locked")))),
-            Err(_) => Ok(Some(Text::of(format_args!(
-                "locked until power-off (not kept)"
-            )))),
-        }
-    }
-
-    #[inline(never)]
-    pub(super) fn unlock(&mut self, pin: super::parse::Pin) -> Outcome {
-        let Some(stored) = self.settings.pin else {
-            return Ok(Some(Text::of(format_args!("not locked"))));
-        };
-        let now = self.clock.now_ms();
-        if now < self.retry_at_ms {
-            let wait = (self.retry_at_ms - now).div_ceil(1000);
-            return Err(Fail::new(
-                Code::Wait,
-                format_args!("too many wrong PINs: wait {wait} s"),
-            ));
-        }
-        if stored == pin {
-            self.settings.pin = None;
-            self.settings.pin_failures = 0;
-            self.retry_at_ms = 0;
-            let _ = self.save_settings();
-            return Ok(Some(Text::of(format_args!("unlocked"))));
-        }
-        self.settings.pin_failures = self.settings.pin_failures.saturating_add(1);
-        let n = self.settings.pin_failures;
-        let _ = self.save_settings();
-        if n >= PIN_FREE_TRIES {
-            let delay = self.backoff_ms();
-            self.retry_at_ms = now.saturating_add(delay);
-            Err(Fail::new(
-                Code::Pin,
-                format_args!(
-                    "wrong PIN ({n} in a row): next try in {} s",
-                    delay.div_ceil(1000)
-                ),
-            ))
-        } else {
-            Err(Fail::new(
-                Code::Pin,
-                format_args!("wrong PIN ({n} in a row)"),
-            ))
-        }
     }
 }

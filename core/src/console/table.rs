@@ -10,7 +10,7 @@
 use embedded_io::Write;
 
 use super::args::{self, bare, Read};
-use super::parse::{Command, SET_NAMES};
+use super::parse::{Command, Name, Pin, SET_NAMES};
 use super::reply::{Fail, Outcome, Reply};
 use super::Code;
 
@@ -35,6 +35,12 @@ enum Reader {
     Bare(Bare),
     /// This function reads them.
     Args(Read),
+    /// `[SAMPLES]`, the command made of them by this constructor.
+    Samples(fn(u16) -> Command<'static>),
+    /// One PIN.
+    Pin(fn(Pin) -> Command<'static>),
+    /// One design name.
+    Name(fn(Name) -> Command<'static>),
 }
 
 /// The commands that take no arguments (a small value in the table, not a function each).
@@ -107,6 +113,9 @@ impl Spec {
         match self.read {
             Reader::Bare(b) => bare(a, b.command()),
             Reader::Args(read) => read(a),
+            Reader::Samples(make) => args::samples(a).map(make),
+            Reader::Pin(make) => args::pin(a).map(make),
+            Reader::Name(make) => args::name(a).map(make),
         }
     }
 }
@@ -146,7 +155,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "set",
         usage: "set NAME VALUE [TOL%]",
         help: "change one part or figure (help set)",
-        read: Reader::Args(|a| args::setting(a.list).map(Command::Set)),
+        read: Reader::Args(args::set),
     },
     Spec {
         names: "profile",
@@ -218,7 +227,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "measure",
         usage: "measure [SAMPLES]",
         help: "read the nodes with the jig (1..1024 averaged)",
-        read: Reader::Args(|a| args::samples(a).map(Command::Measure)),
+        read: Reader::Samples(Command::Measure),
     },
     Spec {
         names: "check",
@@ -230,7 +239,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "test",
         usage: "test [SAMPLES]",
         help: "measure, then check",
-        read: Reader::Args(|a| args::samples(a).map(Command::Test)),
+        read: Reader::Samples(Command::Test),
     },
     Spec {
         names: "diagnose",
@@ -260,13 +269,13 @@ pub const COMMANDS: [Spec; 32] = [
         names: "lock",
         usage: "lock PIN",
         help: "lock editing of the stage and limits",
-        read: Reader::Args(|a| args::pin(a).map(Command::Lock)),
+        read: Reader::Pin(Command::Lock),
     },
     Spec {
         names: "unlock",
         usage: "unlock PIN",
         help: "unlock editing",
-        read: Reader::Args(|a| args::pin(a).map(Command::Unlock)),
+        read: Reader::Pin(Command::Unlock),
     },
     Spec {
         names: "echo",
@@ -290,7 +299,7 @@ pub const COMMANDS: [Spec; 32] = [
         names: "keep",
         usage: "keep NAME",
         help: "keep the stage and settings on the unit as NAME",
-        read: Reader::Args(|a| args::name(a).map(Command::Keep)),
+        read: Reader::Name(Command::Keep),
     },
     Spec {
         names: "designs",
@@ -302,13 +311,13 @@ pub const COMMANDS: [Spec; 32] = [
         names: "choose",
         usage: "choose NAME",
         help: "a kept design becomes the stage (also at power-up)",
-        read: Reader::Args(|a| args::name(a).map(Command::Choose)),
+        read: Reader::Name(Command::Choose),
     },
     Spec {
         names: "forget",
         usage: "forget NAME",
         help: "remove a kept design",
-        read: Reader::Args(|a| args::name(a).map(Command::Forget)),
+        read: Reader::Name(Command::Forget),
     },
 ];
 

@@ -43,11 +43,8 @@ struct EmulatedBoard {
 }
 
 impl Board for EmulatedBoard {
-    fn stack_used(&self) -> usize {
-        stack::used()
-    }
-    fn stack_size(&self) -> usize {
-        stack::size()
+    fn stack(&self) -> (usize, usize) {
+        (stack::used(), stack::size())
     }
     fn show(&mut self, what: &Show<'_>) {
         let _ = draw_show(&mut self.fb, what);

@@ -134,11 +134,8 @@ struct JigBoard {
 }
 
 impl Board for JigBoard {
-    fn stack_used(&self) -> usize {
-        stack::used()
-    }
-    fn stack_size(&self) -> usize {
-        stack::size()
+    fn stack(&self) -> (usize, usize) {
+        (stack::used(), stack::size())
     }
     fn show(&mut self, what: &Show<'_>) {
         if let Some(d) = self.display.as_mut() {

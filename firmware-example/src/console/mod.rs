@@ -36,10 +36,9 @@ pub use writer::OUT_BUF;
 
 /// What the application needs from a board besides the serial line and the jig.
 pub trait Board {
-    /// Bytes of the stack region ever used (stack painting high-water mark).
-    fn stack_used(&self) -> usize;
-    /// Bytes of the stack region.
-    fn stack_size(&self) -> usize;
+    /// The stack: bytes of its region ever used (the stack painting high-water mark), and bytes
+    /// of the region.
+    fn stack(&self) -> (usize, usize);
     /// Draw on the board's screen.
     fn show(&mut self, what: &Show<'_>);
     /// Writes the screen as text art, if the board keeps a framebuffer; `Ok(false)` if not.

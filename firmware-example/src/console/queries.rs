@@ -55,14 +55,8 @@ impl<J: FirmwareJig, S: Store, C: Clock, B: Board, T: Ticks> App<'_, J, S, C, B,
         let head = words.next().unwrap_or("");
         let is = |w: &str| head.eq_ignore_ascii_case(w);
         if is("stack?") {
-            say(
-                out,
-                format_args!(
-                    "stack {} {}\r\nok\r\n",
-                    self.board.stack_used(),
-                    self.board.stack_size()
-                ),
-            )
+            let (used, size) = self.board.stack();
+            say(out, format_args!("stack {used} {size}\r\nok\r\n"))
         } else if is("clock?") {
             match self.board.tick_rate() {
                 Some((i, t)) => say(

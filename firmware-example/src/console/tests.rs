@@ -20,11 +20,8 @@ struct TestBoard {
     shown: usize,
 }
 impl Board for TestBoard {
-    fn stack_used(&self) -> usize {
-        1234
-    }
-    fn stack_size(&self) -> usize {
-        4096
+    fn stack(&self) -> (usize, usize) {
+        (1234, 4096)
     }
     fn show(&mut self, what: &Show<'_>) {
         self.shown += 1;

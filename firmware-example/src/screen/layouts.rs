@@ -1,6 +1,6 @@
 //! The screens: the verdict of a check, a measurement, the chosen design, a message.
 use super::text::{large, paragraph, small, text};
-use super::{label, HEIGHT, WIDTH};
+use super::{label, Monochrome, HEIGHT, WIDTH};
 use crate::jig::reading;
 use biasjig_core::console::{Channel, JigError};
 use biasjig_core::stage::Readings;
@@ -35,10 +35,7 @@ pub struct VerdictScreen<'a> {
 }
 
 /// Draws the verdict screen: PASS or FAIL large at the top, the failing node, the likely fault.
-pub fn draw_verdict<D: DrawTarget<Color = BinaryColor>>(
-    d: &mut D,
-    s: &VerdictScreen<'_>,
-) -> Result<(), D::Error> {
+pub fn draw_verdict<D: Monochrome>(d: &mut D, s: &VerdictScreen<'_>) -> Result<(), D::Error> {
     d.clear(BinaryColor::Off)?;
     let word = match s.verdict {
         Verdict::Pass => "PASS",
@@ -57,7 +54,7 @@ pub fn draw_verdict<D: DrawTarget<Color = BinaryColor>>(
 }
 
 /// Draws a measurement: the four node voltages, or the node that could not be read and why.
-pub fn draw_measurement<D: DrawTarget<Color = BinaryColor>>(
+pub fn draw_measurement<D: Monochrome>(
     d: &mut D,
     r: &Result<Readings, JigError>,
 ) -> Result<(), D::Error> {
@@ -97,10 +94,7 @@ pub struct DesignScreen<'a> {
 }
 
 /// Draws the design screen: which kept design the unit now tests, and what the button does.
-pub fn draw_design<D: DrawTarget<Color = BinaryColor>>(
-    d: &mut D,
-    s: &DesignScreen<'_>,
-) -> Result<(), D::Error> {
+pub fn draw_design<D: Monochrome>(d: &mut D, s: &DesignScreen<'_>) -> Result<(), D::Error> {
     d.clear(BinaryColor::Off)?;
     let mut b = String::<32>::new();
     let _ = write!(b, "DESIGN {} of {}", s.index, s.count);
@@ -118,11 +112,7 @@ pub fn draw_design<D: DrawTarget<Color = BinaryColor>>(
 }
 
 /// Draws a message: a large title and a text wrapped over up to three lines.
-pub fn draw_message<D: DrawTarget<Color = BinaryColor>>(
-    d: &mut D,
-    title: &str,
-    body: &str,
-) -> Result<(), D::Error> {
+pub fn draw_message<D: Monochrome>(d: &mut D, title: &str, body: &str) -> Result<(), D::Error> {
     d.clear(BinaryColor::Off)?;
     large(d, title, MID, 0)?;
     paragraph(d, body, 24, 11, i32::MAX)?;

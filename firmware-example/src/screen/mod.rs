@@ -25,6 +25,11 @@ pub use layouts::{
 };
 pub use text::wrap;
 
+/// A one-bit screen or framebuffer the layouts draw on.
+pub trait Monochrome: DrawTarget<Color = BinaryColor> {}
+
+impl<D: DrawTarget<Color = BinaryColor>> Monochrome for D {}
+
 /// What the board shows.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Show<'a> {
@@ -142,10 +147,7 @@ impl DrawTarget for FrameBuffer {
 }
 
 /// Draws whatever the application shows.
-pub fn draw_show<D: DrawTarget<Color = BinaryColor>>(
-    d: &mut D,
-    what: &Show<'_>,
-) -> Result<(), D::Error> {
+pub fn draw_show<D: Monochrome>(d: &mut D, what: &Show<'_>) -> Result<(), D::Error> {
     match what {
         Show::Verdict(v) => draw_verdict(d, v),
         Show::Measured(r) => draw_measurement(d, r),

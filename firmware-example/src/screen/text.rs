@@ -5,7 +5,7 @@ use embedded_graphics::pixelcolor::BinaryColor;
 use embedded_graphics::prelude::*;
 use embedded_graphics::text::{Alignment, Baseline, Text, TextStyleBuilder};
 
-use super::WIDTH;
+use super::{Monochrome, WIDTH};
 
 /// Characters of the small font on one line.
 pub(super) const CHARS_PER_LINE: usize = (WIDTH / 6) as usize;
@@ -14,14 +14,14 @@ pub(super) const CHARS_PER_LINE: usize = (WIDTH / 6) as usize;
 /// small font doubled (12x20 per character), so the image carries one font only.
 struct Double<'a, D>(&'a mut D);
 
-impl<D: DrawTarget<Color = BinaryColor>> OriginDimensions for Double<'_, D> {
+impl<D: Monochrome> OriginDimensions for Double<'_, D> {
     fn size(&self) -> Size {
         let s = self.0.bounding_box().size;
         Size::new(s.width / 2, s.height / 2)
     }
 }
 
-impl<D: DrawTarget<Color = BinaryColor>> DrawTarget for Double<'_, D> {
+impl<D: Monochrome> DrawTarget for Double<'_, D> {
     type Color = BinaryColor;
     type Error = D::Error;
 
@@ -37,12 +37,7 @@ impl<D: DrawTarget<Color = BinaryColor>> DrawTarget for Double<'_, D> {
 }
 
 /// Large text (the small font doubled), centred on `x` (full-size pixels), top at `y`.
-pub(super) fn large<D: DrawTarget<Color = BinaryColor>>(
-    d: &mut D,
-    s: &str,
-    x: i32,
-    y: i32,
-) -> Result<(), D::Error> {
+pub(super) fn large<D: Monochrome>(d: &mut D, s: &str, x: i32, y: i32) -> Result<(), D::Error> {
     text(
         &mut Double(d),
         s,
@@ -52,17 +47,12 @@ pub(super) fn large<D: DrawTarget<Color = BinaryColor>>(
 }
 
 /// Small text, left-aligned, top-left corner at (`x`, `y`).
-pub(super) fn small<D: DrawTarget<Color = BinaryColor>>(
-    d: &mut D,
-    s: &str,
-    x: i32,
-    y: i32,
-) -> Result<(), D::Error> {
+pub(super) fn small<D: Monochrome>(d: &mut D, s: &str, x: i32, y: i32) -> Result<(), D::Error> {
     text(d, s, Point::new(x, y), Alignment::Left)
 }
 
 /// Text in the one font, top at `at.y`, aligned on `at.x`.
-pub(super) fn text<D: DrawTarget<Color = BinaryColor>>(
+pub(super) fn text<D: Monochrome>(
     d: &mut D,
     s: &str,
     at: Point,
@@ -79,7 +69,7 @@ pub(super) fn text<D: DrawTarget<Color = BinaryColor>>(
 
 /// Lines of a text wrapped at `width` characters, at most three, drawn from `y` down in steps
 /// of `step` pixels while their top is at most `last_y`; gives the `y` after the last line.
-pub(super) fn paragraph<D: DrawTarget<Color = BinaryColor>>(
+pub(super) fn paragraph<D: Monochrome>(
     d: &mut D,
     s: &str,
     mut y: i32,

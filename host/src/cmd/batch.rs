@@ -30,7 +30,7 @@ use biasjig::board::{from_outcome, Recorder, RunInfo};
 use biasjig::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK, EXIT_USAGE};
 use biasjig::readings::Rows;
 use biasjig::record::{hex_digest, Source};
-use biasjig::stage_args::{InputArgs, StageArgs, TestArgs};
+use biasjig::stage_args::{SettingsArgs, StageArgs};
 use biasjig::store::TraceArgs;
 use biasjig::verdict::json::outcome_json;
 use biasjig::verdict::{describe, evaluate, Outcome, Station};
@@ -51,9 +51,7 @@ pub struct Cmd {
     #[arg(long, value_name = "FILE")]
     log: Option<PathBuf>,
     #[command(flatten)]
-    test: TestArgs,
-    #[command(flatten)]
-    inputs: InputArgs,
+    settings: SettingsArgs,
     #[command(flatten)]
     trace: TraceArgs,
 }
@@ -95,9 +93,7 @@ impl JsonOut {
 impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
-        let resolved = self
-            .stage
-            .resolve_with(Some(&self.inputs), Some(&self.test))?;
+        let resolved = self.stage.resolve_for_test(&self.settings)?;
         let st = Station::new(&resolved);
         let name = self.readings.display().to_string();
         let file = std::fs::File::open(&self.readings)

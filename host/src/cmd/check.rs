@@ -15,7 +15,7 @@ use biasjig_core::stage::Readings;
 use crate::Global;
 use biasjig::board::{from_outcome, Recorder, RunInfo};
 use biasjig::error::{CliError, CmdResult, EXIT_FAIL, EXIT_OK};
-use biasjig::stage_args::{InputArgs, StageArgs, TestArgs};
+use biasjig::stage_args::{SettingsArgs, StageArgs};
 use biasjig::store::TraceArgs;
 use biasjig::verdict::json::{add_provenance, add_separation, outcome_json};
 use biasjig::verdict::text::outcome_text;
@@ -51,9 +51,7 @@ pub struct Cmd {
     #[arg(long, value_name = "FILE", help_heading = "Readings")]
     log: Option<PathBuf>,
     #[command(flatten)]
-    test: TestArgs,
-    #[command(flatten)]
-    inputs: InputArgs,
+    settings: SettingsArgs,
     #[command(flatten)]
     trace: TraceArgs,
 }
@@ -98,7 +96,7 @@ impl Cmd {
         } else if let Some(v) = self.vcc_nominal {
             args.vcc = Some(v);
         }
-        let resolved = args.resolve_with(Some(&self.inputs), Some(&self.test))?;
+        let resolved = args.resolve_for_test(&self.settings)?;
         let st = Station::new(&resolved);
         if let Some(w) = inputs_region_warning(&st) {
             eprintln!("biasjig: warning: {}", w.text);

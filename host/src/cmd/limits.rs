@@ -14,7 +14,7 @@ use serde_json::{json, Map, Value};
 
 use crate::Global;
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
-use biasjig::stage_args::{spread_error, InputArgs, StageArgs, TestArgs};
+use biasjig::stage_args::{spread_error, SettingsArgs, StageArgs};
 use biasjig::text::eng4;
 use biasjig::verdict::json::{overrides_json, settings_json};
 use biasjig::verdict::text::settings_text;
@@ -30,9 +30,7 @@ pub struct Cmd {
     #[command(flatten)]
     stage: StageArgs,
     #[command(flatten)]
-    test: TestArgs,
-    #[command(flatten)]
-    inputs: InputArgs,
+    settings: SettingsArgs,
     /// Supply the windows hold for (as measured on the board), V [default: the stage's --vcc]
     #[arg(long = "at-vcc", value_name = "V", value_parser = values::volts, help_heading = "Meter")]
     at_vcc: Option<f64>,
@@ -48,9 +46,7 @@ pub struct Cmd {
 impl Cmd {
     /// Run the command.
     pub fn run(&self, g: &Global) -> CmdResult {
-        let r = self
-            .stage
-            .resolve_with(Some(&self.inputs), Some(&self.test))?;
+        let r = self.stage.resolve_for_test(&self.settings)?;
         let st = Station::new(&r);
         let vcc = self.at_vcc.unwrap_or(r.stage.vcc.value);
         if !(0.5..=1000.0).contains(&vcc) {

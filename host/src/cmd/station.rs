@@ -13,7 +13,7 @@ use biasjig::board::StationSink;
 use biasjig::designfile;
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
 use biasjig::link::{sync_budget, LinkError, MemoryPort, Port, SerialLink};
-use biasjig::stage_args::{station_settings, InputArgs, TestArgs};
+use biasjig::stage_args::{station_settings, SettingsArgs};
 use biasjig::station::{provenance, run_loop, serve, Plan, Station};
 use biasjig::store::TraceArgs;
 use biasjig::values;
@@ -44,9 +44,7 @@ pub struct Cmd {
     #[arg(long, value_parser = values::celsius, allow_hyphen_values = true, help_heading = "Test ambient")]
     pub temp: Option<f64>,
     #[command(flatten)]
-    pub test: TestArgs,
-    #[command(flatten)]
-    pub inputs: InputArgs,
+    pub settings: SettingsArgs,
     /// Also keep the pushed design on the instrument under NAME (its `keep NAME`), so that the
     /// unit starts on it and can choose it again with no PC
     #[arg(long, value_name = "NAME")]
@@ -69,8 +67,7 @@ impl Cmd {
                 ));
             }
         }
-        let (settings, overrides) =
-            station_settings(doc.test, self.temp, &self.test, &self.inputs)?;
+        let (settings, overrides) = station_settings(doc.test, self.temp, &self.settings)?;
         let prov = provenance(&settings, overrides, &doc.digest);
         let plan = Plan::new(
             doc.stage,
@@ -88,8 +85,8 @@ impl Cmd {
             )
         })?;
         // Inputs stated by neither the design file nor a flag: the instrument's own.
-        let adopt = doc.test.inputs.r.is_none() && self.inputs.input_r.is_none();
-        let mode_stated = self.inputs.inputs.is_some();
+        let adopt = doc.test.inputs.r.is_none() && self.settings.inputs.input_r.is_none();
+        let mode_stated = self.settings.inputs.inputs.is_some();
         let unit_inputs = adopt.then_some((doc.profile, settings, mode_stated));
         let stdin = std::io::stdin();
         let mut out = std::io::stderr();

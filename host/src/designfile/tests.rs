@@ -49,6 +49,19 @@ fn doc() -> DesignDoc {
     }
 }
 
+/// Why the text is refused as a design file.
+fn refusal(text: &str) -> String {
+    parse(Path::new("x.toml"), text).unwrap_err().to_string()
+}
+
+/// The text without its lines that start with `start`.
+fn without_lines(text: &str, start: &str) -> String {
+    text.lines()
+        .filter(|l| !l.starts_with(start))
+        .map(|l| format!("{l}\n"))
+        .collect()
+}
+
 #[test]
 fn the_hash_is_the_instruments() {
     let d = doc();
@@ -80,21 +93,15 @@ fn round_trip() {
 #[test]
 fn no_edit_is_accepted() {
     let text = to_text(&doc()).unwrap();
-    let p = Path::new("x.toml");
-    assert!(parse(p, &text).is_ok());
-    let err = |t: &str| parse(p, t).unwrap_err().to_string();
-    let no_hash: String = text
-        .lines()
-        .filter(|l| !l.starts_with("hash = "))
-        .map(|l| format!("{l}\n"))
-        .collect();
+    assert!(parse(Path::new("x.toml"), &text).is_ok());
+    let no_hash = without_lines(&text, "hash = ");
     // Without the design hash line the file is refused like any other edit
     // (docs/interface.md), though the digest alone would still match.
-    let m = err(&no_hash);
+    let m = refusal(&no_hash);
     assert!(m.contains("hash") && m.contains("missing"), "{m}");
-    let m = err(&text.replace("min = -10.0", "min = -20.0"));
+    let m = refusal(&text.replace("min = -10.0", "min = -20.0"));
     assert!(m.contains("digest"), "an [ambient] edit: {m}");
-    let m = err(&no_hash.replace("value = 33000.0", "value = 36000.0"));
+    let m = refusal(&no_hash.replace("value = 33000.0", "value = 36000.0"));
     assert!(
         m.contains("digest"),
         "a part edit without the hash line: {m}"
@@ -104,21 +111,16 @@ fn no_edit_is_accepted() {
         "[parts.r1]\nvalue = 250000.0\n",
     );
     assert_ne!(off_series, no_hash);
-    let m = err(&off_series);
+    let m = refusal(&off_series);
     assert!(
         m.contains("digest"),
         "an off-series value without series: {m}"
     );
-    let m = err(&text.replace("temp_max = 25.0", "temp_max = 40.0"));
+    let m = refusal(&text.replace("temp_max = 25.0", "temp_max = 40.0"));
     assert!(m.contains("digest"), "a test ambient edit: {m}");
-    let m = err(&no_hash.replace("vcc_tol = 0.0", "vcc_tol = 0.2"));
+    let m = refusal(&no_hash.replace("vcc_tol = 0.0", "vcc_tol = 0.2"));
     assert!(m.contains("digest"), "a supply tolerance edit: {m}");
-    let no_digest: String = text
-        .lines()
-        .filter(|l| !l.starts_with("digest = "))
-        .map(|l| format!("{l}\n"))
-        .collect();
-    let m = err(&no_digest);
+    let m = refusal(&without_lines(&text, "digest = "));
     assert!(m.contains("digest") && m.contains("missing"), "{m}");
 }
 
@@ -152,20 +154,31 @@ fn save_refuses_to_overwrite_and_replaces_atomically() {
 #[test]
 fn refusals_name_the_key() {
     let text = to_text(&doc()).unwrap();
-    let p = Path::new("x.toml");
-    let err = |t: &str| parse(p, t).unwrap_err().to_string();
-    let m = err(&text.replace("version = 2", "version = 3"));
-    assert!(m.contains("version") && m.contains("newer"), "{m}");
-    let m = err(&text.replace("version = 2", "version = 1"));
-    assert!(m.contains("version") && m.contains("design -o"), "{m}");
-    let m = err(&text.replace("[ambient]", "[ambient]\nhumidity = 3"));
-    assert!(m.contains("humidity"), "{m}");
-    let m = err(&text.replace("beta_min = 100.0\n", ""));
-    assert!(m.contains("beta_min"), "{m}");
-    let m = err(&text.replace("value = 240000.0", "value = 250000.0"));
-    assert!(m.contains("parts.r1.value") && m.contains("E24"), "{m}");
-    let m = err(&text.replace("value = 33000.0", "value = 36000.0"));
-    assert!(m.contains("hash"), "{m}");
-    let m = err(&text.replace("polarity = \"npn\"", "polarity = \"fet\""));
-    assert!(m.contains("parts.polarity"), "{m}");
+    // (the edit: from, to; what the refusal names)
+    let edits: [(&str, &str, &[&str]); 7] = [
+        ("version = 2", "version = 3", &["version", "newer"]),
+        ("version = 2", "version = 1", &["version", "design -o"]),
+        ("[ambient]", "[ambient]\nhumidity = 3", &["humidity"]),
+        ("beta_min = 100.0\n", "", &["beta_min"]),
+        (
+            "value = 240000.0",
+            "value = 250000.0",
+            &["parts.r1.value", "E24"],
+        ),
+        ("value = 33000.0", "value = 36000.0", &["hash"]),
+        (
+            "polarity = \"npn\"",
+            "polarity = \"fet\"",
+            &["parts.polarity"],
+        ),
+    ];
+    for (from, to, names) in edits {
+        let edited = text.replace(from, to);
+        assert_ne!(edited, text, "{from:?} is in the file");
+        let m = refusal(&edited);
+        assert!(
+            names.iter().all(|n| m.contains(n)),
+            "{from:?} -> {to:?}: {m}"
+        );
+    }
 }

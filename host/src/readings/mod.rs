@@ -257,6 +257,12 @@ pub fn parse(text: &str) -> Result<Vec<(u64, Row)>, String> {
 mod tests {
     use super::*;
 
+    /// Row `k` is refused with a message that contains `part`.
+    fn assert_refused(rows: &[(u64, Row)], k: usize, part: &str) {
+        let m = rows[k].1.as_ref().unwrap_err().to_string();
+        assert!(m.contains(part), "row {k}: {m}");
+    }
+
     #[test]
     fn columns_in_any_order_and_bad_rows_by_line() {
         let text = "note,VC,vb,serial,ve,vcc\n\
@@ -273,19 +279,9 @@ mod tests {
         assert!(tones.is_empty());
         assert_eq!((r.vcc, r.vb, r.ve, r.vc), (15.0, 2.55, 1.9, 8.0));
         assert_eq!(rows[1].0, 3);
-        assert!(rows[1]
-            .1
-            .as_ref()
-            .unwrap_err()
-            .to_string()
-            .contains("column vb: 'abc'"));
+        assert_refused(&rows, 1, "column vb: 'abc'");
         assert_eq!(rows[2].1.as_ref().unwrap().1.ve, -0.0012);
-        assert!(rows[3]
-            .1
-            .as_ref()
-            .unwrap_err()
-            .to_string()
-            .contains("serial"));
+        assert_refused(&rows, 3, "serial");
         assert!(parse("serial,vb,ve,vc\n")
             .unwrap_err()
             .to_string()
@@ -298,12 +294,7 @@ mod tests {
         let rows = parse(text).unwrap();
         let lines: Vec<u64> = rows.iter().map(|r| r.0).collect();
         assert_eq!(lines, [2, 4, 5]);
-        assert!(rows[1]
-            .1
-            .as_ref()
-            .unwrap_err()
-            .to_string()
-            .contains("column vb: 'x'"));
+        assert_refused(&rows, 1, "column vb: 'x'");
         assert_eq!(rows[2].1.as_ref().unwrap().1.vc, 8.0);
     }
 
@@ -333,12 +324,7 @@ mod tests {
         );
         let rows = parse(&long).unwrap();
         assert_eq!(rows.len(), 2);
-        assert!(rows[0]
-            .1
-            .as_ref()
-            .unwrap_err()
-            .to_string()
-            .contains("allowed: at most"));
+        assert_refused(&rows, 0, "allowed: at most");
         assert_eq!(rows[1].0, 3);
         assert!(rows[1].1.is_ok());
     }
@@ -358,12 +344,7 @@ mod tests {
         );
         let (_, _, t) = rows[1].1.as_ref().unwrap();
         assert_eq!((t.len(), t[0].f), (1, 20.0));
-        assert!(rows[2]
-            .1
-            .as_ref()
-            .unwrap_err()
-            .to_string()
-            .contains("column gain@1k: 'x'"));
+        assert_refused(&rows, 2, "column gain@1k: 'x'");
         assert!(parse("serial,vcc,vb,ve,vc,gain@9M\n")
             .unwrap_err()
             .contains("gain@9M"));
@@ -372,11 +353,6 @@ mod tests {
     #[test]
     fn a_reading_with_another_unit_is_refused() {
         let rows = parse("serial,vcc,vb,ve,vc\nA1,12,2.05,1.39mA,5.74\n").unwrap();
-        assert!(rows[0]
-            .1
-            .as_ref()
-            .unwrap_err()
-            .to_string()
-            .contains("column ve"));
+        assert_refused(&rows, 0, "column ve");
     }
 }

@@ -33,7 +33,7 @@ pub struct DesignRef {
     /// Design hash (hex).
     pub hash: String,
     /// SHA-256 digest of everything the verdict depends on (hex), when known.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub digest: Option<String>,
 }
 
@@ -103,10 +103,8 @@ pub struct Fault {
     /// Mode.
     pub mode: String,
     /// Score, 0..1.
-    #[serde(default)]
     pub score: Option<f64>,
     /// Likely actual value (Ω or F) for low/high, else null.
-    #[serde(default)]
     pub estimate: Option<f64>,
     /// Faults with the same readings within the measuring errors.
     #[serde(default)]
@@ -145,10 +143,10 @@ pub struct Source {
     /// `check`, `batch` or `station`.
     pub kind: String,
     /// The readings file (batch).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub file: Option<String>,
     /// Line in the readings file (batch).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub line: Option<u64>,
 }
 
@@ -200,71 +198,67 @@ pub struct BoardRecord {
     /// The settings digest (hex SHA-256) of everything the verdict depends on, when known
     /// (`digest` in the log, as `check --json` prints it; the store's `settings_hash`).
     #[serde(
-        default,
         rename = "digest",
         alias = "settings_hash",
         skip_serializing_if = "Option::is_none"
     )]
     pub settings_hash: Option<String>,
     /// The test settings that judged the board (test ambient, meter, measuring inputs).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub settings: Option<Value>,
     /// Flags that overrode the design file's values, as given.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub overrides: Option<Value>,
     /// Station name.
     #[serde(default)]
     pub station: String,
     /// Operator.
-    #[serde(default)]
     pub operator: Option<String>,
     /// Lot.
-    #[serde(default)]
     pub lot: Option<String>,
     /// Tool version that wrote the record.
     #[serde(default)]
     pub tool_version: String,
     /// Instrument firmware version, when an instrument judged the board.
-    #[serde(default)]
     pub firmware_version: Option<String>,
     /// The serial had been tested before (with this design).
     #[serde(default)]
     pub retest: bool,
     /// Where the test came from.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub source: Option<Source>,
     /// DC readings (none for a board refused before anything was read: the jig could not
     /// read it).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub readings: Option<DcReadings>,
     /// The readings as typed at a manual station (kept as typed, also when refused).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub typed: Option<String>,
     /// The verdict.
     pub verdict: Outcome,
     /// Why the readings were refused.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub reason: Option<String>,
     /// The supply as measured and its window (nominal ± tolerance).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub supply: Option<Judged>,
     /// Per judged node: reading and window applied.
     #[serde(default)]
     pub nodes: BTreeMap<String, Judged>,
     /// Signal readings and their windows, when the test had any.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub ac: Option<Vec<SignalJudged>>,
     /// Windows at the nominal supply.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub nominal: Option<Nominal>,
     /// Derived quantities (IC, IB, hFE, region), as `check --json` gives them.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub derived: Option<Value>,
     /// Faults, best first (empty for a pass).
     #[serde(default)]
     pub faults: Vec<Fault>,
     /// A single fault explains the readings (false: the nearest are listed).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub explained: Option<bool>,
 }
 
@@ -284,10 +278,8 @@ pub struct RepairRecord {
     /// How it was wrong.
     pub mode: String,
     /// Who repaired it.
-    #[serde(default)]
     pub technician: Option<String>,
     /// Free text.
-    #[serde(default)]
     pub note: Option<String>,
 }
 

@@ -181,6 +181,26 @@ mod tests {
         assert_eq!(again, r);
     }
 
+    /// Optional fields may be absent (records of earlier rounds): they read as none.
+    #[test]
+    fn absent_optional_fields_read_as_none() {
+        let mut v = good();
+        v["verdict"] = json!("fail");
+        v["nodes"]["vc"] = json!({"measured": 3.5, "low": 1.0, "high": 3.0, "ok": false});
+        v["readings"]["vc"] = json!(3.5);
+        v["faults"] = json!([{"part": "RC", "mode": "open"}]);
+        let r = BoardRecord::from_value(v).unwrap();
+        assert_eq!((r.operator, r.lot, r.firmware_version), (None, None, None));
+        assert_eq!((r.source, r.supply, r.explained), (None, None, None));
+        let f = &r.faults[0];
+        assert_eq!((f.score, f.estimate, f.equivalent.len()), (None, None, 0));
+        let repair: crate::record::RepairRecord = serde_json::from_value(json!({
+            "kind": "repair", "record_id": "ef", "time": "2031-05-06T07:08:09Z",
+            "serial": "S1", "part": "RC", "mode": "open"}))
+        .unwrap();
+        assert_eq!((repair.technician, repair.note), (None, None));
+    }
+
     #[test]
     fn an_edited_verdict_or_a_bare_line_is_refused() {
         let mut v = good();

@@ -153,6 +153,18 @@ pub struct TestArgs {
     pub meter: MeterArgs,
 }
 
+/// The test settings' flags of the commands that judge boards (`limits`, `check`, `batch`,
+/// `station`): the test ambient and the meter, then the measuring inputs.
+#[derive(clap::Args, Debug, Clone, Default)]
+pub struct SettingsArgs {
+    #[command(flatten)]
+    /// The test ambient and the meter.
+    pub test: TestArgs,
+    #[command(flatten)]
+    /// The measuring inputs.
+    pub inputs: InputArgs,
+}
+
 /// The ambient range flags of `spread`.
 #[derive(clap::Args, Debug, Clone, Default)]
 pub struct TempRange {

@@ -18,7 +18,7 @@ use explain::TOLERANCE_ALLOWED;
 pub use explain::{
     check_temp, profile_error, settings_error, spread_error, stage_error, FlagError, TEMP_RANGE,
 };
-pub use flags::{InputArgs, MeterArgs, ProfileArgs, StageArgs, TempRange, TestArgs};
+pub use flags::{InputArgs, MeterArgs, ProfileArgs, SettingsArgs, StageArgs, TempRange, TestArgs};
 
 /// Default resistor tolerance (the core's one definition).
 pub const DEFAULT_TOL: f64 = settings::DEFAULT_TOL;
@@ -152,9 +152,9 @@ fn list_test_flags(
 pub fn station_settings(
     base: TestSettings,
     temp: Option<f64>,
-    test: &TestArgs,
-    inputs: &InputArgs,
+    flags: &SettingsArgs,
 ) -> Result<(TestSettings, Value), FlagError> {
+    let (test, inputs) = (&flags.test, &flags.inputs);
     let mut ts = base;
     let mut over = Map::new();
     let mut add = |flag: &str, v: Option<f64>| {
@@ -182,6 +182,12 @@ pub fn station_settings(
 }
 
 impl StageArgs {
+    /// [`resolve_with`](Self::resolve_with) the test settings' flags of a command that judges
+    /// boards.
+    pub fn resolve_for_test(&self, flags: &SettingsArgs) -> Result<Resolved, FlagError> {
+        self.resolve_with(Some(&flags.inputs), Some(&flags.test))
+    }
+
     /// Build the stage from the design file and/or flags, validated, with the test settings:
     /// the file's (or the defaults), `--temp` as the test ambient, then the command's
     /// measuring-input and test flags.

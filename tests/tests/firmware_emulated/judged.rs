@@ -157,6 +157,13 @@ pub fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &
         !inst.nodes.is_empty(),
         "{what}: the instrument listed no nodes"
     );
+    assert_nodes_agree(&j, inst, what);
+    assert_first_fault(&j, inst, what);
+}
+
+/// Each node the instrument lists is in the host's result with the same measured value,
+/// window and mark.
+fn assert_nodes_agree(j: &serde_json::Value, inst: &Result_, what: &str) {
     for (node, (measured, low, high, ok)) in &inst.nodes {
         let h = &j["nodes"][node.as_str()];
         assert!(h.is_object(), "{what}: host has no node {node}: {j}");
@@ -169,7 +176,6 @@ pub fn assert_parity(design: &Path, readings: &[String], inst: &Result_, what: &
         );
         assert_eq!(h["ok"].as_bool(), Some(*ok), "{what}: {node} ok");
     }
-    assert_first_fault(&j, inst, what);
 }
 
 /// The jig's input resistance from each node to ground (firmware-example/README.md, wiring).
@@ -194,7 +200,7 @@ pub fn ac_lines(data: &[String]) -> Vec<(String, String, f64, f64, bool)> {
 }
 
 /// `biasjig check --design FILE --ac F:G ...` on the DC and gain readings the instrument reports,
-/// compared with the instrument: verdict, the node and gain windows, the first fault.
+/// compared with the instrument: verdict, the nodes, the gain windows, the first fault.
 pub fn assert_signal_parity(
     design: &Path,
     readings: &[String],
@@ -211,15 +217,7 @@ pub fn assert_signal_parity(
     }
     let (_, j) = host_check(design, readings, &extra, what);
     assert_eq!(j["verdict"], inst.verdict.as_str(), "{what}: verdict");
-    for (node, (_, low, high, _)) in &inst.nodes {
-        let h = &j["nodes"][node.as_str()];
-        let f = |k: &str| h[k].as_f64().unwrap_or(f64::NAN);
-        assert_window(
-            (*low, *high),
-            (f("low"), f("high")),
-            &format!("{what}: window of {node}"),
-        );
-    }
+    assert_nodes_agree(&j, inst, what);
     for (k, (f, g, low, high, ok)) in ac.iter().enumerate() {
         let h = &j["ac"][k];
         let v = |key: &str| h[key].as_f64().unwrap_or(f64::NAN);

@@ -16,14 +16,13 @@ use biasjig_core::predict::{predict, Prediction};
 use biasjig_core::series::Series;
 use biasjig_core::solve::Conditions;
 use biasjig_core::stage::{Polarity, Resistor, Stage};
-use biasjig_core::units::{capacitor_code, resistor_code};
 use serde_json::json;
 
 use crate::Global;
 use biasjig::designfile::{self, DesignDoc, Predicted};
 use biasjig::error::{CliError, CmdResult, EXIT_OK};
 use biasjig::stage_args::{check_temp, default_profile, ProfileArgs};
-use biasjig::text::{bands, eng, fmt_pct};
+use biasjig::text::{bands, eng, fmt_pct, part_cells, part_heads, PartKind};
 use biasjig::{json, text, values};
 
 /// Default collector-current budget, A.
@@ -144,19 +143,26 @@ pub struct Cmd {
     id: Option<String>,
 }
 
-/// The flag of each setting a refusal advises changing; tolerances in percent as the flags take
-/// them.
+/// The flag of each setting a refusal advises changing (a test checks that `design` has each).
+const SETTING_FLAGS: [(Setting, &str); 8] = [
+    (Setting::IcMax, "--ic-max"),
+    (Setting::SwingPp, "--swing"),
+    (Setting::FLow, "--f-low"),
+    (Setting::GainTol, "--gain-tol"),
+    (Setting::Series, "--series"),
+    (Setting::Tol, "--tol"),
+    (Setting::Hold, "--hold"),
+    (Setting::PowerRating, "--power-rating"),
+];
+
+/// The settings a refusal advises changing named by their flags; tolerances in percent as the
+/// flags take them.
 const FLAGS: Naming = Naming {
-    name: |s| match s {
-        Setting::IcMax => "--ic-max",
-        Setting::SwingPp => "--swing",
-        Setting::FLow => "--f-low",
-        Setting::GainTol => "--gain-tol",
-        Setting::Series => "--series",
-        Setting::Tol => "--tol",
-        Setting::Hold => "--hold",
-        Setting::PowerRating => "--power-rating",
-        _ => "",
+    name: |s| {
+        SETTING_FLAGS
+            .iter()
+            .find(|(k, _)| *k == s)
+            .map_or("", |&(_, flag)| flag)
     },
     percent: true,
 };
@@ -405,6 +411,26 @@ impl Cmd {
             }),
             test: biasjig_core::settings::TestSettings::DEFAULT,
             digest: String::new(),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::{Args, Command};
+
+    /// A refusal's advice names each setting by a flag that `design` has.
+    #[test]
+    fn advice_names_flags_that_design_has() {
+        let cmd = Cmd::augment_args(Command::new("design"));
+        for (setting, flag) in SETTING_FLAGS {
+            let long = flag.strip_prefix("--");
+            assert!(
+                cmd.get_arguments().any(|a| a.get_long() == long),
+                "{setting:?}: {flag}"
+            );
+            assert_eq!((FLAGS.name)(setting), flag);
         }
     }
 }

@@ -14,14 +14,18 @@ impl Cmd {
         let load = req
             .rl
             .map_or("no load".to_string(), |r| format!("into {}", eng(r, "Ω")));
+        let swing = if req.swing_pp > 0.0 {
+            format!("swing >= {}", eng(req.swing_pp, "V"))
+        } else {
+            "no swing required".to_string()
+        };
         let _ = writeln!(
             s,
-            "Requirement: gain {} {load} from {}, {} supply, IC <= {}, swing >= {}, low corner <= {}, {} to {} °C",
+            "Requirement: gain {} {load} from {}, {} supply, IC <= {}, {swing}, low corner <= {}, {} to {} °C",
             req.gain,
             eng(req.rs, "Ω"),
             eng(req.vcc, "V"),
             eng(req.ic_max, "A"),
-            eng(req.swing_pp, "V"),
             eng(req.f_low_or_default(), "Hz"),
             req.temp_min,
             req.temp_max
@@ -193,20 +197,13 @@ impl Cmd {
 /// colour bands.
 fn part_list(stage: &Stage, p: &Prediction) -> String {
     let mut s = String::new();
-    let _ = writeln!(
-        s,
-        "  {:<5} {:>10}  {:<6} {:>5}  {:>7}  colour bands",
-        "part", "value", "code", "tol", "rating"
-    );
+    let _ = writeln!(s, "{}  {:>7}  colour bands", part_heads(), "rating");
     for r in Resistor::ALL {
         let part = stage.part(r);
         let _ = writeln!(
             s,
-            "  {:<5} {:>10}  {:<6} {:>4}%  {:>7}  {}",
-            r.name(),
-            eng(part.value, "Ω"),
-            resistor_code(part.value).as_str(),
-            fmt_pct(part.tol),
+            "{}  {:>7}  {}",
+            part_cells(PartKind::Resistor, r.name(), part),
             eng(rating_for(p.power.resistor(r)), "W"),
             bands(part.value, part.tol)
         );
@@ -229,11 +226,8 @@ fn part_list(stage: &Stage, p: &Prediction) -> String {
             });
             let _ = writeln!(
                 s,
-                "  {:<5} {:>10}  {:<6} {:>4}%  rated >= {}{}",
-                name,
-                eng(c.value, "F"),
-                capacitor_code(c.value).as_str(),
-                fmt_pct(c.tol),
+                "{}  rated >= {}{}",
+                part_cells(PartKind::Capacitor, name, c),
                 rating.map_or("-".into(), |r| eng(r.0, "V")),
                 match rating.and_then(|r| r.1) {
                     Some(_) => "  polarised: see the notes",
