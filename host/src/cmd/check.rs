@@ -57,7 +57,7 @@ pub struct Cmd {
 }
 
 /// Parse one `--ac F:G`: F in Hz (value grammar), G the gain magnitude (plain number).
-pub fn tone_reading(text: &str) -> Result<ToneReading, String> {
+fn tone_reading(text: &str) -> Result<ToneReading, String> {
     let allowed = "allowed: F:G with F a frequency of 0.1 Hz to 100 kHz (e.g. 1k or 20) and G a \
                    gain magnitude of 0 to 100000 (e.g. 14.2)";
     let (f, g) = text

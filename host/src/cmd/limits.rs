@@ -146,7 +146,7 @@ impl Cmd {
 
 /// The signal test's windows: `[{"f","low","high","nominal","min","max"}]` (min and max: the
 /// worst case before the guard band).
-pub fn ac_windows_json(tw: &[ToneWindow]) -> Value {
+fn ac_windows_json(tw: &[ToneWindow]) -> Value {
     Value::Array(
         tw.iter()
             .map(|w| {
@@ -180,7 +180,7 @@ fn ac_windows_text(tw: &[ToneWindow], t: &TestSettings) -> String {
 }
 
 /// The proposed test frequencies and why.
-pub fn proposal_json(p: &Proposal) -> Value {
+fn proposal_json(p: &Proposal) -> Value {
     json!([
         {"f": json::num(p.midband), "use": "midband",
          "why": format!("the nominal gain is within 1 % of the midband gain {:.2} here: a reading checks the gain itself, the resistors and the transistor, and any open capacitor", p.midband_gain)},
@@ -213,7 +213,7 @@ fn proposal_text(p: &Proposal) -> String {
 
 /// `{NODE: {"low","high"}}` for vb, ve, vc, vce, vbe, ic, plus the supply the windows hold for,
 /// the supply window, and the ambient, meter and inputs they assume.
-pub fn to_json(w: &Windows, t: &TestSettings) -> Value {
+fn to_json(w: &Windows, t: &TestSettings) -> Value {
     let lim = &w.limits;
     let mut m = Map::new();
     for n in NODES {
@@ -248,7 +248,7 @@ pub fn to_json(w: &Windows, t: &TestSettings) -> Value {
 
 /// The human report: the assumptions, the supply window, one row per node with low, nominal
 /// and high.
-pub fn report(
+fn report(
     w: &Windows,
     t: &TestSettings,
     nominal: &Sample,
