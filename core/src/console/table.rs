@@ -2,6 +2,11 @@
 //! line of help and how its arguments are read. `help` lists it, [`super::parse::parse`] looks
 //! the command word up in it, and the help test checks it against docs/protocol.md; the parsed
 //! [`Command`] is run by [`super::Console::exec`] in the module of its job.
+//!
+//! The handler is not a column: handlers are generic over the jig, the store, the clock and the
+//! reply's writer, and a `const` table cannot hold generic functions (a type-erased writer would
+//! cost every reply a dynamic call). Each row's reader yields one [`Command`] variant instead,
+//! and `exec` matches every variant, so a command without a handler does not compile.
 #![expect(
     clippy::result_large_err,
     reason = "an outcome carries its status text in a fixed buffer, with no allocation"
