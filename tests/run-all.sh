@@ -2,7 +2,7 @@
 # Every test of biasjig, from a fresh machine: installs what the tests need (Rust targets for the
 # microcontroller builds, QEMU's ARM emulator for the firmware test, PostgreSQL for the store
 # tests), then runs format and lint
-# checks, the no_std builds of the core, the whole workspace's tests, and the firmware's own tests.
+# checks, the documentation's links, the no_std builds of the core, the whole workspace's tests, and the firmware's own tests.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
@@ -23,6 +23,10 @@ step "lint (warnings denied)"
 cargo clippy --workspace --all-targets --locked -- -D warnings
 # The core as the instrument's budget build uses it (no design search, no Monte Carlo console).
 cargo clippy --locked -p biasjig-core --no-default-features -- -D warnings
+
+step "documentation: every doc link resolves (warnings denied)"
+RUSTDOCFLAGS="-D warnings" cargo doc --workspace --no-deps --locked
+(cd firmware-example && RUSTDOCFLAGS="-D warnings" cargo doc --no-deps --locked)
 
 step "core builds with no std and no alloc (Cortex-M0+ without FPU, Cortex-M4F)"
 cargo build --locked -p biasjig-core --target thumbv6m-none-eabi

@@ -199,7 +199,7 @@ pub fn derive(stage: &Stage, meter: &Meter, r: &Readings) -> Derived {
     derive_through(stage, meter, &Inputs::IDEAL, r)
 }
 
-/// [`derive`] for readings taken through measuring inputs: each input's own current (the node
+/// [`derive()`] for readings taken through measuring inputs: each input's own current (the node
 /// voltage over its resistance) is taken out of the currents at its node.
 pub fn derive_through(stage: &Stage, meter: &Meter, inputs: &Inputs, r: &Readings) -> Derived {
     // The current an input draws from a node at `v`, A (0 for an ideal meter).

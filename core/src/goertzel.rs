@@ -1,9 +1,9 @@
 //! The amplitude and phase of one tone in a block of samples: the Goertzel algorithm in single
 //! precision (the Cortex-M4F's FPU does `f32` in hardware; `f64` would be software).
 //!
-//! For samples x[0..N) taken at `rate` Hz, the filter s[n] = x[n] + 2·cos(ω)·s[n−1] − s[n−2]
-//! with ω = 2π·f/rate leaves the discrete Fourier sum X(ω) = Σ x[n]·e^(−jωn) as
-//! X = e^(−jω(N−1))·(s[N−1] − e^(−jω)·s[N−2]). For a whole number of periods in the block the
+//! For samples `x[0..N)` taken at `rate` Hz, the filter `s[n] = x[n] + 2·cos(ω)·s[n−1] − s[n−2]`
+//! with ω = 2π·f/rate leaves the discrete Fourier sum `X(ω) = Σ x[n]·e^(−jωn)` as
+//! `X = e^(−jω(N−1))·(s[N−1] − e^(−jω)·s[N−2])`. For a whole number of periods in the block the
 //! sine's peak amplitude is 2·|X|/N, exactly, and a constant offset contributes nothing; choose
 //! the block with [`whole_periods`].
 //!

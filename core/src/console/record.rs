@@ -358,7 +358,7 @@ impl Settings {
     }
 }
 
-/// Encode a calibration into a store record (version [`CAL_VERSION`]: the four channels' gain
+/// Encode a calibration into a store record (version `CAL_VERSION`: the four channels' gain
 /// and offset, then the signal path's correction).
 pub fn encode_calibration(cal: &Calibration, rec: &mut [u8; RECORD_LEN]) {
     let _fits = seal_version(Slot::Calibration, CAL_VERSION, rec, |w| {

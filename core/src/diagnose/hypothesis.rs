@@ -111,7 +111,7 @@ pub struct Diagnosis {
 
 impl Diagnosis {
     /// An empty diagnosis (nothing ranked, not explained, no solves), for
-    /// [`diagnose_with_signal_into`](super::diagnose_with_signal_into) to fill.
+    /// [`diagnose_into`](super::diagnose_into) to fill.
     pub const fn new() -> Self {
         Self {
             ranked: Vec::new(),

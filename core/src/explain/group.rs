@@ -127,7 +127,7 @@ impl Group {
         g
     }
 
-    /// Its separating action measures a resistor in circuit (see [`IN_CIRCUIT`]).
+    /// Its separating action measures a resistor in circuit (see [`IN_CIRCUIT`](super::IN_CIRCUIT)).
     pub fn measures_in_circuit(&self) -> bool {
         self.steps.len() > 1 && self.steps.iter().any(|s| matches!(s, Step::Measure(..)))
     }

@@ -8,7 +8,7 @@
 //!   framing checks of every reply, and the jig that reads the engine's board;
 //! - [`sweep`]: the fault lists and the tally of the seeded check-and-diagnose sweeps;
 //! - [`corners`]: the tests' own corner walk of a design (tolerance, hFE, ambient);
-//! - [`bench`]: the command line of the benches (the convention of scripts/instructions.sh);
+//! - [`bench`](mod@bench): the command line of the benches (the convention of scripts/instructions.sh);
 //! - [`fnv`]: FNV-1a 64, checked against the published test vectors, for the record checksum
 //!   and the design hash.
 //!

@@ -1,13 +1,13 @@
 //! The application around the core console engine.
 //!
 //! [`App`] takes the serial bytes one at a time and
-//! - routes them ([`router`]): a line that starts with `fw:` is a firmware query ([`queries`]:
+//! - routes them (`router`): a line that starts with `fw:` is a firmware query (`queries`:
 //!   stack, cost, screen, measure, button, emulated board), every other byte goes straight on to
 //!   the core [`Console`];
-//! - sends the console's replies through one buffered writer ([`writer`]) that times each
+//! - sends the console's replies through one buffered writer (`writer`) that times each
 //!   console line (`fw:cost?`) and notes its status line;
 //! - after a `test` or `check` that succeeded, draws the verdict screen from the console's typed
-//!   last check ([`verdict`]), in either mode, so the screen and the serial reply have one
+//!   last check (`verdict`), in either mode, so the screen and the serial reply have one
 //!   source;
 //! - lets the jig follow the console's design when its hash or ambient changed
 //!   ([`FirmwareJig::follow`]);
