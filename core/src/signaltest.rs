@@ -429,7 +429,8 @@ impl IntoSignal for SpreadError {
     }
 }
 
-/// Two proposed test frequencies and why.
+/// Two proposed test frequencies and why. (The low corner of the same nominal board, which a
+/// person reads beside them, is [`proposal_low_corner`]: the instrument proposes without it.)
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Proposal {
     /// In the midband: the nominal gain is within 1 % of the midband gain there, and a
@@ -443,8 +444,6 @@ pub struct Proposal {
     /// At `poles`, the smallest distance between the gains of a good board and the three
     /// capacitors at a tenth of their value, in widths of the good board's window there.
     pub separation: f64,
-    /// The low corner of the nominal board, Hz.
-    pub f_low: f64,
 }
 
 /// Lowest proposed test frequency, Hz: a tone below it takes the jig too long (it measures whole
@@ -462,13 +461,13 @@ pub(crate) fn candidates() -> impl Iterator<Item = f64> {
     })
 }
 
-/// Propose two test frequencies for `stage` (see [`Proposal`]).
-pub fn propose(
+/// The nominal board a proposal looks at: typical hFE, the centre of the ambient range; it must
+/// be active.
+fn proposal_point(
     stage: &Stage,
     profile: &Profile,
     var: &Variation,
-    meter: &SignalMeter,
-) -> Result<Proposal, SignalTestError> {
+) -> Result<OperatingPoint, SignalTestError> {
     check_inputs(stage, &[])?;
     stage
         .validate()
@@ -482,12 +481,35 @@ pub fn propose(
     if op.region != crate::solve::Region::Active {
         return Err(SignalTestError::NotActive);
     }
+    Ok(op)
+}
+
+/// The low corner (−3 dB) of the nominal board [`propose`] looks at, Hz; `None` when it has
+/// none in reach. Apart from the proposal because it costs more than the proposal itself (a
+/// bisection of the full network in double precision, software arithmetic on the instrument),
+/// and only a person reading the proposal needs it.
+pub fn proposal_low_corner(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+) -> Result<Option<f64>, SignalTestError> {
+    let op = proposal_point(stage, profile, var)?;
+    Ok(crate::lowfreq::low_corner(stage, &op).f_low)
+}
+
+/// Propose two test frequencies for `stage` (see [`Proposal`]).
+pub fn propose(
+    stage: &Stage,
+    profile: &Profile,
+    var: &Variation,
+    meter: &SignalMeter,
+) -> Result<Proposal, SignalTestError> {
+    let op = proposal_point(stage, profile, var)?;
     let nominal = Caps::nominal(stage);
     let mid = response::magnitude_at(stage, &op, &nominal, F_MAX * 10.0);
     if !(mid.is_finite() && mid > 0.0) {
         return Err(SignalTestError::NotActive);
     }
-    let f_low = crate::lowfreq::low_corner(stage, &op).f_low.unwrap_or(0.0);
     let mut midband = F_MAX;
     for f in candidates() {
         if response::magnitude_at(stage, &op, &nominal, f) >= 0.99 * mid {
@@ -528,6 +550,5 @@ pub fn propose(
         poles: best.0,
         midband_gain: mid,
         separation: if best.1.is_finite() { best.1 } else { 0.0 },
-        f_low,
     })
 }

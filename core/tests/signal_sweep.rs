@@ -15,7 +15,7 @@ use biasjig_core::diagnose::{Hypothesis, ResistorMode, Suspect};
 use biasjig_core::judge::{judge_with_signal, JudgeError};
 use biasjig_core::response::{magnitude_at, CapState, Caps};
 use biasjig_core::settings::TestSettings;
-use biasjig_core::signaltest::{propose, ToneReading};
+use biasjig_core::signaltest::{proposal_low_corner, propose, ToneReading};
 use biasjig_core::solve::{solve, Conditions, NodeLoads};
 use biasjig_core::spread::Variation;
 use biasjig_core::stage::{Capacitor, Fault, Readings, Resistor, Stage};
@@ -132,7 +132,11 @@ fn seeded_sweep_with_capacitor_faults() {
         let tones = [prop.midband, prop.poles];
         println!(
             "{name}: tones {} Hz (midband, gain {:.2}) and {} Hz (separation {:.2}); f_low {:.2} Hz",
-            prop.midband, prop.midband_gain, prop.poles, prop.separation, prop.f_low
+            prop.midband,
+            prop.midband_gain,
+            prop.poles,
+            prop.separation,
+            proposal_low_corner(&design, &prof, &var).unwrap().unwrap_or(0.0)
         );
         for _ in 0..boards {
             let mut board = in_tolerance(&design, 0.05, &mut rng);

@@ -193,13 +193,21 @@ fn emulated_jig_end_to_end_through_the_host() {
             assert_ne!(fail_screen, pass_screen, "the screen shows the new verdict");
         }
     }
+    // The first test after the stage changed proposes its test frequencies as well: the default
+    // stage (`*RST`) with a fault, tested at once (the station pushes its design again below).
+    s.ok("*RST");
+    s.ok("inject q ce_short");
+    let data = s.ok("test");
+    let cost = cost_of(&mut s);
+    assert_fails_naming(&parse_result(&data), "Q", "ce_short", "after *RST");
+    costs.push(("Q ce_short, first test after *RST".into(), cost.1, cost.2));
     let st = fw(&mut s, "fw:stack?");
     s.ok("inject rc open");
     s.close();
-    println!("jig-emulated: test (measure + check + diagnosis) per fault class, instructions of the instrument (goal {TEST_GOAL_INSTRUCTIONS}; the first also proposes the test frequencies of the design) and of the emulated board standing in for the hardware:");
+    println!("jig-emulated: test (measure + check + diagnosis) per fault class, instructions of the instrument (goal {TEST_GOAL_INSTRUCTIONS}; the tones were proposed at the good board's test, but for the last, which proposes them too) and of the emulated board standing in for the hardware:");
     for (class, insns, emulated) in &costs {
         println!(
-            "  {class:<12} {insns:>10} (board {emulated:>9}) {}",
+            "  {class:<34} {insns:>10} (board {emulated:>9}) {}",
             if *insns <= TEST_GOAL_INSTRUCTIONS {
                 "met"
             } else {

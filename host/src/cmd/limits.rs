@@ -106,7 +106,13 @@ impl Cmd {
         };
         let proposal = match (&tones, r.stage.rl) {
             (None, Some(_)) => {
-                signaltest::propose(&r.stage, &r.profile, &judge::variation(t), &t.signal).ok()
+                let var = judge::variation(t);
+                signaltest::propose(&r.stage, &r.profile, &var, &t.signal)
+                    .ok()
+                    .map(|p| {
+                        let f_low = signaltest::proposal_low_corner(&r.stage, &r.profile, &var);
+                        (p, f_low.ok().flatten().unwrap_or(0.0))
+                    })
             }
             _ => None,
         };
@@ -125,8 +131,8 @@ impl Cmd {
                 if let Some(tw) = &tones {
                     obj.insert("ac".into(), ac_windows_json(tw));
                 }
-                if let Some(p) = &proposal {
-                    obj.insert("ac_proposed".into(), proposal_json(p));
+                if let Some((p, f_low)) = &proposal {
+                    obj.insert("ac_proposed".into(), proposal_json(p, *f_low));
                 }
             }
             json::print(&doc);
@@ -135,8 +141,8 @@ impl Cmd {
             if let Some(tw) = &tones {
                 s.push_str(&ac_windows_text(tw, t));
             }
-            if let Some(p) = &proposal {
-                s.push_str(&proposal_text(p));
+            if let Some((p, f_low)) = &proposal {
+                s.push_str(&proposal_text(p, *f_low));
             }
             out!("{}", s);
         }
@@ -179,17 +185,18 @@ fn ac_windows_text(tw: &[ToneWindow], t: &TestSettings) -> String {
     s
 }
 
-/// The proposed test frequencies and why.
-fn proposal_json(p: &Proposal) -> Value {
+/// The proposed test frequencies and why, with the low corner of the board they were proposed
+/// for (Hz).
+fn proposal_json(p: &Proposal, f_low: f64) -> Value {
     json!([
         {"f": json::num(p.midband), "use": "midband",
          "why": format!("the nominal gain is within 1 % of the midband gain {:.2} here: a reading checks the gain itself, the resistors and the transistor, and any open capacitor", p.midband_gain)},
         {"f": json::num(p.poles), "use": "poles",
-         "why": format!("a capacitor at a tenth of its value is told apart best here from a good board and from the other capacitors at a tenth of theirs (nearest pair {:.2} good-window widths apart); the low corner is {:.3} Hz", p.separation, p.f_low)},
+         "why": format!("a capacitor at a tenth of its value is told apart best here from a good board and from the other capacitors at a tenth of theirs (nearest pair {:.2} good-window widths apart); the low corner is {:.3} Hz", p.separation, f_low)},
     ])
 }
 
-fn proposal_text(p: &Proposal) -> String {
+fn proposal_text(p: &Proposal, f_low: f64) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
@@ -206,7 +213,7 @@ fn proposal_text(p: &Proposal) -> String {
         "  {:>9}  where a capacitor at a tenth of its value is told apart best (nearest pair {:.2} window widths apart; low corner {})",
         eng4(p.poles, "Hz"),
         p.separation,
-        eng4(p.f_low, "Hz")
+        eng4(f_low, "Hz")
     );
     s
 }
