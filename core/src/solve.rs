@@ -66,89 +66,73 @@ trait Real:
     fn junction(j: Junction<f64>) -> Junction<Self>;
 }
 
-/// The [`Real`] impl of one float type: its settling step and current limit, whether the free
-/// currents are exact, the rounding from `f64` of a number (`of`), a network (`net`) and the
-/// transistor's parameters (`junction`), and libm's exponential, logarithm and absolute value for
-/// it. For `f64` the roundings are written as the identity (the generic rounding at `f64` cost
-/// 280 B of flash in the budget build, which is optimised for size). Widening and the finiteness
-/// test are the same for every type.
-macro_rules! real {
-    (
-        $t:ty,
-        settled: $settled:expr,
-        current_limit: $limit:expr,
-        exact_free: $exact_free:expr,
-        $(#[$of_attr:meta])* of: |$x:ident| $of:expr,
-        net: |$n:ident| $net:expr,
-        junction: |$j:ident| $junction:expr,
-        exp: $exp:path,
-        ln: $ln:path,
-        abs: $abs:path $(,)?
-    ) => {
-        impl Real for $t {
-            const ZERO: Self = 0.0;
-            const ONE: Self = 1.0;
-            const SETTLED_V: Self = $settled;
-            const CURRENT_LIMIT: f64 = $limit;
-            const EXACT_FREE: bool = $exact_free;
-            $(#[$of_attr])*
-            fn of($x: f64) -> Self {
-                $of
-            }
-            fn wide(self) -> f64 {
-                f64::from(self)
-            }
-            fn exp(self) -> Self {
-                $exp(self)
-            }
-            fn ln(self) -> Self {
-                $ln(self)
-            }
-            fn abs(self) -> Self {
-                $abs(self)
-            }
-            fn finite(self) -> bool {
-                <$t>::is_finite(self)
-            }
-            fn net($n: Net<f64>) -> Net<Self> {
-                $net
-            }
-            fn junction($j: Junction<f64>) -> Junction<Self> {
-                $junction
-            }
-        }
-    };
+impl Real for f64 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    const SETTLED_V: Self = SETTLED_V;
+    const CURRENT_LIMIT: f64 = f64::INFINITY;
+    const EXACT_FREE: bool = false;
+    fn of(x: f64) -> Self {
+        x
+    }
+    fn wide(self) -> f64 {
+        self
+    }
+    fn exp(self) -> Self {
+        libm::exp(self)
+    }
+    fn ln(self) -> Self {
+        libm::log(self)
+    }
+    fn abs(self) -> Self {
+        libm::fabs(self)
+    }
+    fn finite(self) -> bool {
+        f64::is_finite(self)
+    }
+    fn net(n: Net<f64>) -> Net<Self> {
+        n
+    }
+    fn junction(j: Junction<f64>) -> Junction<Self> {
+        j
+    }
 }
 
-real!(
-    f64,
-    settled: SETTLED_V,
-    current_limit: f64::INFINITY,
-    exact_free: false,
-    of: |x| x,
-    net: |n| n,
-    junction: |j| j,
-    exp: libm::exp,
-    ln: libm::log,
-    abs: libm::fabs,
-);
-
-real!(
-    f32,
-    settled: SETTLED_V_SINGLE,
-    current_limit: SINGLE_CURRENT_LIMIT,
-    exact_free: true,
+impl Real for f32 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    const SETTLED_V: Self = SETTLED_V_SINGLE;
+    const CURRENT_LIMIT: f64 = SINGLE_CURRENT_LIMIT;
+    const EXACT_FREE: bool = true;
     #[expect(
         clippy::cast_possible_truncation,
         reason = "single precision on purpose"
     )]
-    of: |x| x as f32,
-    net: |n| n.narrow(),
-    junction: |j| j.narrow(),
-    exp: libm::expf,
-    ln: libm::logf,
-    abs: libm::fabsf,
-);
+    fn of(x: f64) -> Self {
+        x as f32
+    }
+    fn wide(self) -> f64 {
+        f64::from(self)
+    }
+    fn exp(self) -> Self {
+        libm::expf(self)
+    }
+    fn ln(self) -> Self {
+        libm::logf(self)
+    }
+    fn abs(self) -> Self {
+        libm::fabsf(self)
+    }
+    fn finite(self) -> bool {
+        f32::is_finite(self)
+    }
+    fn net(n: Net<f64>) -> Net<Self> {
+        n.narrow()
+    }
+    fn junction(j: Junction<f64>) -> Junction<Self> {
+        j.narrow()
+    }
+}
 
 /// Conductance of a short inside the transistor, S.
 const SHORT_CONDUCTANCE: f64 = 1e4;
