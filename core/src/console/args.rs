@@ -289,52 +289,31 @@ pub(super) fn name<'l>(a: Args<'_, 'l>) -> Result<Name, ParseError<'l>> {
     )
 }
 
-/// How each field of `requirement NAME VALUE` is read, in the order of its name in
-/// [`REQUIREMENT_NAMES`] (the names are written once, there).
+/// How each field of `requirement NAME VALUE` is read, in the order of [`REQUIREMENT_NAMES`]
+/// (a test checks that the two agree).
 #[cfg(feature = "synthesis")]
-const REQUIREMENT_FIELDS: [Field<ReqSetting>; 15] = [
-    Field::Polarity(ReqSetting::Polarity),
-    Field::Value(Unit::Volt, ReqSetting::Vcc),
-    Field::Value(Unit::Number, ReqSetting::Gain),
-    Field::Optional(Unit::Ohm, ReqSetting::Load),
-    Field::Value(Unit::Ohm, ReqSetting::Source),
-    Field::Value(Unit::Ampere, ReqSetting::IcMax),
-    Field::Value(Unit::Volt, ReqSetting::Swing),
-    Field::Optional(Unit::Hertz, ReqSetting::FLow),
-    Field::Number(celsius, ReqSetting::Temp),
-    Field::Number(celsius, ReqSetting::TempMin),
-    Field::Number(celsius, ReqSetting::TempMax),
-    Field::Series(ReqSetting::Series),
-    Field::Number(percent, ReqSetting::Tol),
-    Field::Series(ReqSetting::CapSeries),
-    Field::Number(percent, ReqSetting::CapTol),
+const REQUIREMENT_FIELDS: [(&str, Field<ReqSetting>); 15] = [
+    ("polarity", Field::Polarity(ReqSetting::Polarity)),
+    ("vcc", Field::Value(Unit::Volt, ReqSetting::Vcc)),
+    ("gain", Field::Value(Unit::Number, ReqSetting::Gain)),
+    ("rl", Field::Optional(Unit::Ohm, ReqSetting::Load)),
+    ("rs", Field::Value(Unit::Ohm, ReqSetting::Source)),
+    ("ic-max", Field::Value(Unit::Ampere, ReqSetting::IcMax)),
+    ("swing", Field::Value(Unit::Volt, ReqSetting::Swing)),
+    ("f-low", Field::Optional(Unit::Hertz, ReqSetting::FLow)),
+    ("temp", Field::Number(celsius, ReqSetting::Temp)),
+    ("temp-min", Field::Number(celsius, ReqSetting::TempMin)),
+    ("temp-max", Field::Number(celsius, ReqSetting::TempMax)),
+    ("series", Field::Series(ReqSetting::Series)),
+    ("tol", Field::Number(percent, ReqSetting::Tol)),
+    ("cap-series", Field::Series(ReqSetting::CapSeries)),
+    ("cap-tol", Field::Number(percent, ReqSetting::CapTol)),
 ];
 
 #[cfg(feature = "synthesis")]
-const _: () = assert!(word_count(REQUIREMENT_NAMES) == REQUIREMENT_FIELDS.len());
-
-/// The words of a list separated by single spaces.
-#[cfg(feature = "synthesis")]
-const fn word_count(list: &str) -> usize {
-    let mut words = 1;
-    let mut rest = list.as_bytes();
-    while let [first, tail @ ..] = rest {
-        if *first == b' ' {
-            words += 1;
-        }
-        rest = tail;
-    }
-    words
-}
-
-#[cfg(feature = "synthesis")]
 fn requirement_field<'a>(name: &'a str, v: &'a str) -> Result<ReqSetting, ParseError<'a>> {
-    REQUIREMENT_NAMES
-        .split(' ')
-        .zip(&REQUIREMENT_FIELDS)
-        .find(|(n, _)| n.eq_ignore_ascii_case(name))
+    field(&REQUIREMENT_FIELDS, name)
         .ok_or(err(Code::Value, "requirement", name, REQUIREMENT_NAMES))?
-        .1
         .read(name, v)
 }
 
@@ -451,5 +430,15 @@ mod tests {
                 "{n} read but not listed"
             );
         }
+    }
+
+    /// The names `help requirement` lists are the rows of the requirement's field table, in
+    /// its order.
+    #[cfg(feature = "synthesis")]
+    #[test]
+    fn requirement_names_and_the_field_table_agree() {
+        let rows: std::vec::Vec<&str> = REQUIREMENT_FIELDS.iter().map(|(n, _)| *n).collect();
+        let listed: std::vec::Vec<&str> = REQUIREMENT_NAMES.split(' ').collect();
+        assert_eq!(listed, rows);
     }
 }
